@@ -1,0 +1,123 @@
+# Makefile - build, test, demo, bench and install henrybench
+#
+#   make            build ./henrybench
+#   make check      build and run every test (SANITIZE=1: under ASan + UBSan)
+#   make demo       run the main job on the simulated bench
+#   make bench      benchmarks (ratios measured in one run; not tests)
+#   make install    PREFIX=/usr/local DESTDIR=
+#
+# Missing Debian packages are installed by scripts/ensure-deps (as root) or
+# named in one apt-get line (otherwise) before anything is compiled.
+
+PREFIX     ?= /usr/local
+DESTDIR    ?=
+BINDIR      = $(PREFIX)/bin
+DATADIR     = $(PREFIX)/share/henrybench
+VERSION    := 0.1.0
+
+PKGS       := libserialport gsl sqlite3 inih plplot jansson
+TEST_PKGS  := cmocka
+
+ifeq ($(SANITIZE),1)
+BUILD      ?= build-san
+SANFLAGS   := -fsanitize=address,undefined -fno-omit-frame-pointer -fno-sanitize-recover=undefined
+OPT        ?= -O1
+else
+BUILD      ?= build
+SANFLAGS   :=
+OPT        ?= -O2
+endif
+
+CC         ?= cc
+# Recursive '=' on purpose: pkg-config runs when a recipe needs it, after
+# the deps step has had its chance to install what is missing.
+PKG_CFLAGS  = $(shell pkg-config --cflags $(PKGS))
+PKG_LIBS    = $(shell pkg-config --libs $(PKGS))
+TEST_CFLAGS = $(shell pkg-config --cflags $(TEST_PKGS))
+TEST_LIBS   = $(shell pkg-config --libs $(TEST_PKGS))
+
+WARN       := -Wall -Wextra -Werror
+CPPFLAGS   += -D_POSIX_C_SOURCE=200809L -D_DEFAULT_SOURCE \
+              -DHB_VERSION='"$(VERSION)"' -DHB_PROFILE_DIR='"$(DATADIR)/profiles"' -I.
+CFLAGS     ?= $(OPT) -g
+ALL_CFLAGS  = -std=c11 $(WARN) $(CFLAGS) $(SANFLAGS) $(PKG_CFLAGS) -MMD -MP
+LDLIBS_ALL  = $(PKG_LIBS) -lm -lpthread
+
+LIB_SRCS   := $(wildcard common/*.c drivers/*.c drivers/sim/*.c fit/*.c db/*.c) \
+              $(filter-out src/main.c,$(wildcard src/*.c))
+LIB_ASMS   := $(wildcard db/*.S drivers/*.S src/*.S)
+LIB_OBJS   := $(LIB_SRCS:%.c=$(BUILD)/%.o) $(LIB_ASMS:%.S=$(BUILD)/%.o)
+MAIN_OBJ   := $(BUILD)/src/main.o
+TEST_SRCS  := $(wildcard tests/test_*.c)
+TEST_BINS  := $(TEST_SRCS:tests/%.c=$(BUILD)/tests/%)
+BENCH_SRCS := $(wildcard bench/bench_*.c)
+BENCH_BINS := $(BENCH_SRCS:bench/%.c=$(BUILD)/bench/%)
+LIBHB      := $(BUILD)/libhb.a
+
+.PHONY: all deps check demo bench install uninstall clean
+.DEFAULT_GOAL := all
+
+all: henrybench
+
+deps:
+	@sh scripts/ensure-deps
+
+ifeq ($(SANITIZE),1)
+henrybench: $(BUILD)/henrybench
+else
+henrybench: $(BUILD)/henrybench
+	@cp $< $@
+endif
+
+$(BUILD)/henrybench: $(MAIN_OBJ) $(LIBHB)
+	$(CC) $(SANFLAGS) -o $@ $(MAIN_OBJ) $(LIBHB) $(LDLIBS_ALL)
+
+$(LIBHB): $(LIB_OBJS)
+	@rm -f $@
+	ar rcs $@ $^
+
+$(BUILD)/%.o: %.c | deps
+	@mkdir -p $(dir $@)
+	$(CC) $(CPPFLAGS) $(ALL_CFLAGS) -c -o $@ $<
+
+$(BUILD)/%.o: %.S | deps
+	@mkdir -p $(dir $@)
+	$(CC) $(CPPFLAGS) -MMD -MP -c -o $@ $<
+
+$(BUILD)/tests/%.o: tests/%.c | deps
+	@mkdir -p $(dir $@)
+	$(CC) $(CPPFLAGS) $(ALL_CFLAGS) $(TEST_CFLAGS) -c -o $@ $<
+
+# A test may ask for link-time wrapping with a line "// LDFLAGS: -Wl,--wrap=sym".
+$(BUILD)/tests/%: $(BUILD)/tests/%.o $(LIBHB)
+	$(CC) $(SANFLAGS) -o $@ $< $(shell sed -n 's|^// LDFLAGS: ||p' tests/$*.c) $(LIBHB) $(TEST_LIBS) $(LDLIBS_ALL)
+
+$(BUILD)/bench/%: bench/%.c $(LIBHB) | deps
+	@mkdir -p $(dir $@)
+	$(CC) $(CPPFLAGS) $(ALL_CFLAGS) -o $@ $< $(LIBHB) $(LDLIBS_ALL)
+
+check: deps
+	@$(MAKE) --no-print-directory henrybench $(TEST_BINS)
+	@sh tests/run-tests $(BUILD) $(TEST_BINS)
+
+demo: deps
+	@$(MAKE) --no-print-directory henrybench
+	./henrybench demo --out demo-out
+
+bench: deps
+	@$(MAKE) --no-print-directory henrybench $(BENCH_BINS)
+	@for b in $(BENCH_BINS); do echo "== $$b"; $$b || exit 1; done
+
+install: henrybench
+	install -d $(DESTDIR)$(BINDIR) $(DESTDIR)$(DATADIR)/profiles
+	install -m 755 $(BUILD)/henrybench $(DESTDIR)$(BINDIR)/henrybench
+	install -m 644 drivers/profiles/*.ini $(DESTDIR)$(DATADIR)/profiles/
+
+uninstall:
+	rm -f $(DESTDIR)$(BINDIR)/henrybench
+	rm -rf $(DESTDIR)$(DATADIR)
+
+clean:
+	rm -rf build build-san henrybench
+
+-include $(shell find $(BUILD) -name '*.d' 2>/dev/null)

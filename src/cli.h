@@ -1,0 +1,69 @@
+/* src/cli.h - shared declarations of the command-line layer: commands, value parsing, exit codes */
+#ifndef HB_CLI_H
+#define HB_CLI_H
+
+#include <stdbool.h>
+#include <stddef.h>
+#include <stdio.h>
+
+#include "../common/hb_status.h"
+
+/* Exit statuses of every command. */
+enum { HB_EXIT_OK = 0, HB_EXIT_RUNTIME = 1, HB_EXIT_USAGE = 2, HB_EXIT_SIGINT = 130 };
+
+/* A command: argv[0] is the command name; getopt_long state is fresh. */
+typedef int (*hb_command_fn)(int argc, char **argv);
+
+typedef struct hb_command {
+	const char *name;
+	hb_command_fn run;
+	const char *summary;
+} hb_command;
+
+/* Options every command accepts, set from the environment and the command line. */
+typedef struct hb_global_opts {
+	const char *db_path; /* --db PATH or $HENRYBENCH_DB; NULL = default location */
+	FILE *trace;         /* --trace[=FILE]: every SCPI exchange; NULL = off */
+} hb_global_opts;
+
+extern hb_global_opts hb_global;
+
+/* Handles --db and --trace for any command; returns 1 if the option was
+ * consumed, 0 if not ours, or -1 after printing an error. */
+int hb_cli_global_option(const char *name, const char *value);
+/* Closes the trace file etc. */
+void hb_cli_global_cleanup(void);
+
+/* Prints "henrybench: <message>" on stderr (one line). */
+void hb_cli_error(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
+
+/* ---------------- engineering values ---------------- */
+
+/*
+ * Parses "100u", "100uH", "4.7m", "2.5A", "100kHz", "0.5V", "1.2e-3",
+ * "20%" (-> 0.20), the UTF-8 micro sign. unit is the SI unit the option
+ * expects ("H", "A", "Hz", "V", "ohm", "s", "m", "m2", "T", "%", "" for
+ * none); a different unit in the text is an error. Case follows SI (m
+ * milli, M mega) except when the whole text is upper-case SCPI style, where
+ * SCPI-1999's rule applies (M milli, MA mega; MHZ and MOHM mega).
+ * On error returns HB_ERR_ARG and writes a message naming the token.
+ */
+int hb_parse_value(const char *text, const char *unit, double *value, char *err, size_t errlen);
+
+/* Parses the option value or prints a one-line error naming option, value
+ * and accepted range and returns HB_ERR_ARG. min/max are inclusive; pass
+ * -INFINITY/INFINITY for none. */
+int hb_opt_value(const char *option, const char *text, const char *unit, double min, double max, double *value);
+int hb_opt_int(const char *option, const char *text, long min, long max, long *value);
+
+/* Formats value with an SI prefix and unit, e.g. "4.70 uH" (ASCII 'u'). */
+char *hb_format_si(char *buf, size_t cap, double value, const char *unit, int digits);
+
+/* ---------------- commands ---------------- */
+int hb_cmd_ports(int argc, char **argv);
+int hb_cmd_identify(int argc, char **argv);
+int hb_cmd_sim(int argc, char **argv);
+int hb_cmd_demo(int argc, char **argv);
+int hb_cmd_plan(int argc, char **argv);
+
+#endif
