@@ -59,11 +59,20 @@ int hb_opt_int(const char *option, const char *text, long min, long max, long *v
 /* Formats value with an SI prefix and unit, e.g. "4.70 uH" (ASCII 'u'). */
 char *hb_format_si(char *buf, size_t cap, double value, const char *unit, int digits);
 
+/* Parses a positive sweep id or prints the one-line error. */
+int hb_cli_parse_sweep_id(const char *text, long long *id);
+
 /* ---------------- commands ---------------- */
 int hb_cmd_ports(int argc, char **argv);
 int hb_cmd_identify(int argc, char **argv);
 int hb_cmd_sim(int argc, char **argv);
 int hb_cmd_demo(int argc, char **argv);
+int hb_cmd_sweep(int argc, char **argv);
+int hb_cmd_fsweep(int argc, char **argv);
+int hb_cmd_fit(int argc, char **argv);
 int hb_cmd_plan(int argc, char **argv);
+int hb_cmd_sweeps(int argc, char **argv);
+int hb_cmd_show(int argc, char **argv);
+int hb_cmd_part(int argc, char **argv);
 
 #endif

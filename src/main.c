@@ -15,7 +15,13 @@ static const hb_command commands[] = {
 	{ "identify", hb_cmd_identify, "ask instruments who they are (*IDN?, profile, error queue)" },
 	{ "sim", hb_cmd_sim, "serve the simulated bench over TCP or a pseudo-terminal" },
 	{ "demo", hb_cmd_demo, "run the main job on the simulated bench" },
+	{ "sweep", hb_cmd_sweep, "measure L against DC bias, store every point, fit and judge" },
+	{ "fsweep", hb_cmd_fsweep, "measure L and R against frequency (optionally under bias)" },
+	{ "fit", hb_cmd_fit, "fit a stored sweep again and store the fit" },
 	{ "plan", hb_cmd_plan, "ISO 2859-1 sampling plan for a lot: code letter, sample size, Ac/Re" },
+	{ "sweeps", hb_cmd_sweeps, "list stored sweeps (filters: part, unit, lot, status, kind)" },
+	{ "show", hb_cmd_show, "one stored sweep: settings and points (text, JSON, CSV)" },
+	{ "part", hb_cmd_part, "part specs: add, list, show, edit" },
 };
 
 static void usage(FILE *out)

@@ -1,0 +1,77 @@
+/* db/db_internal.h - what the store's source files share: the handle, statement cache, helpers */
+#ifndef HB_DB_INTERNAL_H
+#define HB_DB_INTERNAL_H
+
+#include <sqlite3.h>
+
+#include "hb_db.h"
+
+/* One slot per statement; each is prepared once per handle on first use. */
+enum db_stmt_slot {
+	ST_BEGIN, ST_COMMIT, ST_ROLLBACK, ST_USER_VERSION,
+	ST_PART_UPSERT, ST_PART_GET, ST_PART_GET_ID, ST_PART_LIST,
+	ST_LOT_FIND, ST_LOT_INSERT, ST_LOT_GET, ST_LOT_UPDATE,
+	ST_UNIT_FIND, ST_UNIT_INSERT, ST_UNIT_SET_LOT, ST_UNIT_GET,
+	ST_SWEEP_INSERT, ST_SWEEP_END, ST_SWEEP_GET, ST_SWEEP_EXISTS,
+	ST_RUNNING_MINE, ST_MARK_INTERRUPTED,
+	ST_POINT_ADD, ST_POINTS_GET,
+	ST_FIT_INSERT, ST_FIT_VALUE_INSERT, ST_FIT_LATEST, ST_FIT_LATEST_ANY, ST_FIT_VALUES,
+	ST_VERDICT_UPSERT, ST_VERDICT_LIST,
+	ST_INSP_UPSERT, ST_INSP_LIST, ST_INSP_PROGRESS,
+	ST_HISTORY,
+	ST_COUNT
+};
+
+/* Six optional filters of hb_db_sweep_list: one statement per combination. */
+enum { DB_SWEEP_FILTERS = 6 };
+
+struct hb_db {
+	sqlite3 *conn;
+	char *path;
+	char errmsg[768];
+	sqlite3_stmt *stmt[ST_COUNT];
+	sqlite3_stmt *sweep_list[1 << DB_SWEEP_FILTERS];
+	int batch;          /* inside hb_db_batch_begin */
+	int recovered;
+	char host[HB_DB_ID_LEN];
+	char boot_id[64];
+};
+
+/* Prepared statement of slot, preparing sql on first use; NULL on error
+ * (message set). */
+sqlite3_stmt *db_stmt(hb_db *db, enum db_stmt_slot slot, const char *sql);
+sqlite3_stmt *db_prepare_cached(hb_db *db, sqlite3_stmt **cache, const char *sql);
+/* Resets and clears bindings so the statement holds no read snapshot. */
+void db_release(sqlite3_stmt *st);
+
+/* Records "what: sqlite message" and maps the SQLite code to an hb_status. */
+int db_fail(hb_db *db, int rc, const char *what);
+int db_error(hb_db *db, int status, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
+
+/* Write transaction unless a batch is open. */
+int db_write_begin(hb_db *db, const char *what);
+int db_write_commit(hb_db *db, const char *what);
+void db_write_rollback(hb_db *db);
+
+/* Runs one bound write statement in its own transaction (unless batched)
+ * and releases it; *id (may be NULL) gets column 0 of a RETURNING row and
+ * *changes the rows changed. */
+int db_write_one(hb_db *db, sqlite3_stmt *st, const char *what, int64_t *id, int *changes);
+
+/* NAN <-> NULL, "" stays "". */
+int db_bind_real(sqlite3_stmt *st, int idx, double v);
+int db_bind_text(sqlite3_stmt *st, int idx, const char *s);
+int db_bind_id(sqlite3_stmt *st, int idx, int64_t id); /* 0 -> NULL */
+double db_col_real(sqlite3_stmt *st, int col);
+void db_col_text(sqlite3_stmt *st, int col, char *buf, size_t cap);
+
+/* Current time as unix seconds and ISO-8601 UTC text. */
+double db_now(void);
+void db_iso_time(double unix_s, char *buf, size_t cap);
+
+/* Grows *arr (of elem bytes) so index n fits. */
+int db_grow(hb_db *db, void **arr, size_t *cap, size_t n, size_t elem);
+
+int db_recover_running(hb_db *db);
+
+#endif

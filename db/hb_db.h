@@ -1,0 +1,362 @@
+/* db/hb_db.h - the store: parts, lots, units, sweeps with every point, fits, verdicts, inspections, history */
+#ifndef HB_DB_H
+#define HB_DB_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#include "../common/hb_status.h"
+
+/*
+ * Conventions
+ *  - One opaque handle per connection; a handle is used by one thread at a time.
+ *  - Every function returns an hb_status (0 = HB_OK, negative = error) and
+ *    leaves a one-line explanation in hb_db_errmsg().
+ *  - A real-valued field that is not known is NAN (stored as NULL); call the
+ *    _init function of a struct before filling it. Integer fields that are
+ *    not known are 0 unless noted.
+ *  - Text fields are fixed arrays, NUL-terminated; text read back that does
+ *    not fit is truncated.
+ *  - Times are unix seconds (double, UTC) plus ISO-8601 UTC text
+ *    ("2024-05-01T12:34:56Z") filled by the store.
+ *  - Arrays returned through **out are freed with the matching _free().
+ *  - Every write is its own transaction (BEGIN IMMEDIATE ... COMMIT) unless
+ *    it stands between hb_db_batch_begin() and hb_db_batch_commit().
+ */
+
+typedef struct hb_db hb_db;
+
+enum { HB_DB_ID_LEN = 64, HB_DB_TEXT_LEN = 256, HB_DB_NOTE_LEN = 512, HB_DB_TIME_LEN = 32 };
+
+/* ---------------- connection ---------------- */
+
+/* Writes ${XDG_DATA_HOME:-$HOME/.local/share}/henrybench/bench.db into buf
+ * and creates the directory. */
+int hb_db_default_path(char *buf, size_t cap);
+
+/*
+ * Opens (creating if needed) the store at path (NULL = default path),
+ * migrates its schema to the current version, and marks interrupted every
+ * sweep left running by a process of this host that no longer exists.
+ * *out is set whenever memory allows, also on error (read hb_db_errmsg,
+ * then hb_db_close it).
+ */
+int hb_db_open(const char *path, hb_db **out);
+void hb_db_close(hb_db *db);
+const char *hb_db_errmsg(const hb_db *db);
+const char *hb_db_path(const hb_db *db);
+/* Sweeps this open marked interrupted. */
+int hb_db_recovered_count(const hb_db *db);
+/* Schema version of the open store and the one this program writes. */
+int hb_db_schema_version(hb_db *db, int *version);
+int hb_db_latest_version(void);
+
+/* Groups many writes in one transaction (bulk import, benchmarks); points
+ * added inside become durable only at hb_db_batch_commit. */
+int hb_db_batch_begin(hb_db *db);
+int hb_db_batch_commit(hb_db *db);
+int hb_db_batch_rollback(hb_db *db);
+
+/* Test hooks: open a store migrated only up to version (to test later
+ * migrations), and cap the file size of this connection in pages
+ * (to provoke a full disk). */
+int hb_db_open_version(const char *path, int version, hb_db **out);
+int hb_db_set_max_pages(hb_db *db, long pages);
+
+/* ---------------- enumerations ---------------- */
+
+typedef enum { HB_DB_LEVEL_VOLTAGE = 0, HB_DB_LEVEL_CURRENT = 1 } hb_db_level_kind;
+typedef enum { HB_DB_SWEEP_BIAS = 0, HB_DB_SWEEP_FREQUENCY = 1 } hb_db_sweep_kind;
+typedef enum {
+	HB_DB_RUNNING = 0,
+	HB_DB_COMPLETE,
+	HB_DB_ABORTED,
+	HB_DB_FAILED,
+	HB_DB_INTERRUPTED
+} hb_db_sweep_status;
+typedef enum { HB_DB_NOT_TESTED = 0, HB_DB_PASS, HB_DB_FAIL, HB_DB_SKIPPED } hb_db_outcome;
+typedef enum { HB_DB_LOT_OPEN = 0, HB_DB_LOT_ACCEPT, HB_DB_LOT_REJECT } hb_db_lot_decision;
+
+/* Stable lower-case names used in the store, JSON and CLI:
+ * "bias"/"frequency", "running"/"complete"/"aborted"/"failed"/"interrupted",
+ * "not-tested"/"pass"/"fail"/"skipped", "open"/"accept"/"reject". */
+const char *hb_db_sweep_kind_name(hb_db_sweep_kind kind);
+const char *hb_db_sweep_status_name(hb_db_sweep_status status);
+const char *hb_db_outcome_name(hb_db_outcome outcome);
+const char *hb_db_lot_decision_name(hb_db_lot_decision decision);
+/* Parse those names; HB_ERR_ARG if unknown. */
+int hb_db_sweep_kind_parse(const char *name, hb_db_sweep_kind *kind);
+int hb_db_sweep_status_parse(const char *name, hb_db_sweep_status *status);
+
+/* ---------------- parts ---------------- */
+
+/* Specs as the datasheet states them, in SI units. */
+typedef struct hb_db_part {
+	int64_t id;
+	char part_number[HB_DB_ID_LEN];
+	char description[HB_DB_TEXT_LEN];
+	char maker[HB_DB_ID_LEN];
+	double nominal_h;        /* nominal inductance */
+	double tolerance;        /* fraction, 0.20 = +-20 % */
+	double test_freq_hz;     /* spec test frequency */
+	double test_level;       /* spec test signal, V or A per test_level_kind */
+	hb_db_level_kind test_level_kind;
+	double sat_current_a;    /* saturation-spec current ... */
+	double sat_drop;         /* ... at which L may fall by this fraction */
+	double rated_current_a;
+	double dcr_max_ohm;
+	int turns;               /* 0 = unknown */
+	double ae_m2, le_m, window_m;               /* effective core geometry */
+	double toroid_od_m, toroid_id_m, toroid_h_m; /* raw toroid dimensions if given */
+	double mu_i, bsat_t;
+	char created[HB_DB_TIME_LEN], updated[HB_DB_TIME_LEN];
+} hb_db_part;
+
+void hb_db_part_init(hb_db_part *part);
+/* Inserts, or replaces every field of the part with the same part_number;
+ * sets part->id. */
+int hb_db_part_put(hb_db *db, hb_db_part *part);
+/* HB_ERR_NOTFOUND if there is no such part. */
+int hb_db_part_get(hb_db *db, const char *part_number, hb_db_part *out);
+int hb_db_part_get_id(hb_db *db, int64_t id, hb_db_part *out);
+/* Ordered by part number. */
+int hb_db_part_list(hb_db *db, hb_db_part **out, size_t *count);
+void hb_db_parts_free(hb_db_part *parts);
+
+/* ---------------- lots and units ---------------- */
+
+typedef struct hb_db_lot {
+	int64_t id, part_id;
+	char lot_code[HB_DB_ID_LEN];
+	long lot_size;                 /* 0 = unknown */
+	double aql;                    /* percent nonconforming (ISO 2859-1), NAN = none */
+	char inspection_level[8];      /* "I", "II", "III", "S-1" ... "S-4" */
+	char severity[16];             /* "normal", "tightened", "reduced" */
+	char code_letter[4];           /* sample plan: ISO 2859-1 code letter ... */
+	long sample_size, accept_number, reject_number; /* ... n, Ac, Re; 0 = no plan */
+	hb_db_lot_decision decision;
+	char created[HB_DB_TIME_LEN];
+	char decided[HB_DB_TIME_LEN];  /* empty while open */
+} hb_db_lot;
+
+void hb_db_lot_init(hb_db_lot *lot);
+/* Finds or creates lot lot_code of the part; sets *lot_id. */
+int hb_db_lot_ensure(hb_db *db, int64_t part_id, const char *lot_code, int64_t *lot_id);
+int hb_db_lot_get(hb_db *db, int64_t lot_id, hb_db_lot *out);
+int hb_db_lot_find(hb_db *db, int64_t part_id, const char *lot_code, hb_db_lot *out);
+/* Writes size, AQL, level, severity, plan and decision of lot->id. */
+int hb_db_lot_update(hb_db *db, const hb_db_lot *lot);
+
+typedef struct hb_db_unit {
+	int64_t id, part_id, lot_id; /* lot_id 0 = none */
+	char serial[HB_DB_ID_LEN];
+} hb_db_unit;
+
+/* Finds or creates unit serial of the part; a nonzero lot_id is recorded
+ * (and replaces an earlier one). Sets *unit_id. */
+int hb_db_unit_ensure(hb_db *db, int64_t part_id, const char *serial, int64_t lot_id, int64_t *unit_id);
+int hb_db_unit_get(hb_db *db, int64_t unit_id, hb_db_unit *out);
+
+/* ---------------- sweeps ---------------- */
+
+typedef struct hb_db_sweep {
+	int64_t id;
+	hb_db_sweep_kind kind;
+	int64_t unit_id;                          /* 0 = no unit */
+	/* Filled by the store from unit_id when read back. */
+	int64_t part_id;
+	char part_number[HB_DB_ID_LEN], serial[HB_DB_ID_LEN], lot_code[HB_DB_ID_LEN];
+	long n_points;
+
+	double started, ended;                    /* unix s; started 0 at begin = now; ended NAN while running */
+	char started_iso[HB_DB_TIME_LEN], ended_iso[HB_DB_TIME_LEN];
+	hb_db_sweep_status status;
+	char status_reason[HB_DB_TEXT_LEN];
+	char station[HB_DB_ID_LEN], operator_name[HB_DB_ID_LEN];
+	char host[HB_DB_ID_LEN];                  /* owner, set by the store at begin */
+	long pid;
+
+	char lcr_idn[HB_DB_TEXT_LEN], lcr_profile[HB_DB_ID_LEN];
+	char supply_idn[HB_DB_TEXT_LEN], supply_profile[HB_DB_ID_LEN];
+
+	double test_freq_hz, test_level;          /* frequency sweeps: test_freq_hz NAN */
+	hb_db_level_kind test_level_kind;
+	double bias_a;                            /* fixed bias of a frequency sweep */
+	char circuit[16];                         /* "series" / "parallel" */
+	char measured_pair[16];                   /* e.g. "Ls-Rs", "Lp-Q": primary-secondary */
+	int averaging;
+	char aperture[16];                        /* "short" / "medium" / "long" */
+	char settle_mode[8];                      /* "auto" / "fixed" */
+	double settle_delay_s;                    /* fixed wait, or first wait of auto */
+	double settle_tolerance;                  /* auto: relative change accepted */
+	int settle_max_readings;
+	double settle_max_s;
+	double plan_from, plan_to;                /* A for bias, Hz for frequency */
+	int plan_steps;
+	char plan_spacing[16];                    /* "lin" / "log" / "list" */
+	double limit_current_a, limit_voltage_v;  /* supply limits in force */
+	double ambient_c;
+	char note[HB_DB_NOTE_LEN];
+} hb_db_sweep;
+
+void hb_db_sweep_init(hb_db_sweep *sweep);
+/* Stores a new running sweep owned by this host and process; sets
+ * sweep->id, started, host and pid. */
+int hb_db_sweep_begin(hb_db *db, hb_db_sweep *sweep);
+/* Ends a running sweep: status must not be HB_DB_RUNNING; HB_ERR_NOTFOUND
+ * for an unknown id, HB_ERR_ARG if it already ended. */
+int hb_db_sweep_end(hb_db *db, int64_t sweep_id, hb_db_sweep_status status, const char *reason);
+int hb_db_sweep_get(hb_db *db, int64_t sweep_id, hb_db_sweep *out);
+
+typedef struct hb_db_sweep_filter {
+	const char *part_number;  /* NULL = any */
+	const char *serial;
+	const char *lot_code;
+	int status;               /* hb_db_sweep_status or -1 = any */
+	int kind;                 /* hb_db_sweep_kind or -1 = any */
+	double since;             /* unix s, started at or after; 0 = any */
+	long limit;               /* 0 = all */
+} hb_db_sweep_filter;
+
+void hb_db_sweep_filter_init(hb_db_sweep_filter *filter);
+/* Newest first. */
+int hb_db_sweep_list(hb_db *db, const hb_db_sweep_filter *filter, hb_db_sweep **out, size_t *count);
+void hb_db_sweeps_free(hb_db_sweep *sweeps);
+
+/* ---------------- points ---------------- */
+
+typedef enum { HB_DB_DIR_UP = 0, HB_DB_DIR_DOWN = 1 } hb_db_direction;
+
+typedef struct hb_db_point {
+	int64_t sweep_id;
+	int seq;                 /* 0, 1, 2 ... unique within the sweep */
+	double bias_set_a;       /* setpoint */
+	double bias_meas_a;      /* as measured by the supply */
+	double supply_v;
+	double freq_hz;
+	double primary, secondary; /* per the sweep's measured_pair, SI units */
+	int reading_status;      /* hb_status of the reading, e.g. HB_ERR_OVERLOAD */
+	double t_s;              /* since the sweep started */
+	int settle_readings;     /* readings taken until settled */
+	double settle_s;
+	hb_db_direction direction;
+} hb_db_point;
+
+void hb_db_point_init(hb_db_point *point);
+/* Commits one point durably in its own transaction (unless batched). The
+ * sweep must be running. */
+int hb_db_point_add(hb_db *db, const hb_db_point *point);
+/* In sequence order. */
+int hb_db_points_get(hb_db *db, int64_t sweep_id, hb_db_point **out, size_t *count);
+void hb_db_points_free(hb_db_point *points);
+
+/* ---------------- fits ---------------- */
+
+/* Names of fit values the history query picks (SI units):
+ * "L0" H, "AL" H/turn^2, "mu_e", "gap" m, "I_drop10"/"I_drop20"/"I_drop30" A
+ * (current at which L has fallen 10/20/30 % below L0). */
+#define HB_DB_FV_L0 "L0"
+#define HB_DB_FV_MU_E "mu_e"
+#define HB_DB_FV_GAP "gap"
+#define HB_DB_FV_DROP_FMT "I_drop%d"
+
+enum { HB_DB_FIT_MAX_VALUES = 128, HB_DB_COV_LEN = 4096 };
+
+typedef struct hb_db_fit_value {
+	char name[32];
+	double value, std_error;   /* std_error NAN = not estimated */
+	char unit[16];
+} hb_db_fit_value;
+
+typedef struct hb_db_fit {
+	int64_t id, sweep_id;
+	char model[32];            /* e.g. "gapped-knee" */
+	char law[32];              /* e.g. "arctan" */
+	char code_version[32];
+	char created[HB_DB_TIME_LEN];
+	double rss;
+	int dof;
+	double aic;
+	char covariance_json[HB_DB_COV_LEN]; /* e.g. [[..],[..]] in value order */
+	char flags[HB_DB_TEXT_LEN];
+	size_t n_values;
+	hb_db_fit_value values[HB_DB_FIT_MAX_VALUES];
+} hb_db_fit;
+
+void hb_db_fit_init(hb_db_fit *fit);
+/* Stores a new fit with its values; sets fit->id and created. */
+int hb_db_fit_put(hb_db *db, hb_db_fit *fit);
+/* Newest fit of the sweep with that model (NULL = any); HB_ERR_NOTFOUND if none. */
+int hb_db_fit_get_latest(hb_db *db, int64_t sweep_id, const char *model, hb_db_fit *out);
+
+/* ---------------- verdicts ---------------- */
+
+typedef struct hb_db_verdict {
+	int64_t id, sweep_id;
+	char check_name[32];       /* "L0", "Lsat", "DCR", ... */
+	double measured, limit_low, limit_high; /* NAN = no such limit */
+	double margin;             /* distance to the nearer limit, fraction of it; negative = outside */
+	hb_db_outcome outcome;
+	char note[HB_DB_TEXT_LEN];
+} hb_db_verdict;
+
+void hb_db_verdict_init(hb_db_verdict *verdict);
+/* Stores the verdict, replacing one of the same check on the same sweep. */
+int hb_db_verdict_put(hb_db *db, hb_db_verdict *verdict);
+/* In check-name order. */
+int hb_db_verdict_list(hb_db *db, int64_t sweep_id, hb_db_verdict **out, size_t *count);
+void hb_db_verdicts_free(hb_db_verdict *verdicts);
+
+/* ---------------- lot inspection records ---------------- */
+
+typedef struct hb_db_inspection {
+	int64_t id, lot_id, unit_id, sweep_id; /* unit/sweep 0 = none (e.g. skipped) */
+	int sequence;              /* 1..n within the lot's sample */
+	hb_db_outcome outcome;     /* HB_DB_PASS, HB_DB_FAIL or HB_DB_SKIPPED */
+	double at;                 /* unix s; 0 at put = now */
+	char at_iso[HB_DB_TIME_LEN];
+	char serial[HB_DB_ID_LEN]; /* filled on read */
+	char note[HB_DB_TEXT_LEN];
+} hb_db_inspection;
+
+void hb_db_inspection_init(hb_db_inspection *rec);
+/* Records the sample at (lot_id, sequence), replacing an earlier record. */
+int hb_db_inspection_put(hb_db *db, hb_db_inspection *rec);
+/* In sequence order. */
+int hb_db_inspection_list(hb_db *db, int64_t lot_id, hb_db_inspection **out, size_t *count);
+void hb_db_inspections_free(hb_db_inspection *recs);
+/* Where an interrupted inspection resumes: 1 + the highest sequence
+ * recorded, counts of pass/fail so far (any may be NULL). */
+int hb_db_inspection_progress(hb_db *db, int64_t lot_id, int *next_sequence, int *passed, int *failed);
+
+/* ---------------- history ---------------- */
+
+enum { HB_DB_HISTORY_DROPS = 3 };
+
+typedef struct hb_db_history_filter {
+	const char *part_number;   /* required */
+	const char *lot_code;      /* NULL = any */
+	const char *serial;        /* NULL = any */
+	double since;              /* unix s; 0 = any */
+	int drop_percent[HB_DB_HISTORY_DROPS]; /* picks "I_drop<n>"; default 10, 20, 30 */
+} hb_db_history_filter;
+
+/* One measured unit: its latest complete bias sweep. Values NAN if no fit
+ * gave them. */
+typedef struct hb_db_history_row {
+	int64_t sweep_id, unit_id;
+	double started;
+	char started_iso[HB_DB_TIME_LEN];
+	char station[HB_DB_ID_LEN], lot_code[HB_DB_ID_LEN], serial[HB_DB_ID_LEN];
+	double l0_h;
+	double i_drop_a[HB_DB_HISTORY_DROPS];
+	double mu_e, gap_m;
+	hb_db_outcome verdict;     /* fail if any check failed, pass if any passed, else not-tested */
+} hb_db_history_row;
+
+void hb_db_history_filter_init(hb_db_history_filter *filter);
+/* Oldest first. */
+int hb_db_history(hb_db *db, const hb_db_history_filter *filter, hb_db_history_row **out, size_t *count);
+void hb_db_history_free(hb_db_history_row *rows);
+
+#endif

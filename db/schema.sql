@@ -1,0 +1,181 @@
+# db/schema.sql - the store's schema as ordered migration steps; "-- step N" takes user_version N-1 to N
+-- Steps are applied in order, each in its own transaction, and never edited
+-- once released: a change is a new step at the end.
+
+-- step 1: core tables (parts, lots, units, sweeps, points)
+CREATE TABLE parts (
+	id INTEGER PRIMARY KEY,
+	part_number TEXT NOT NULL UNIQUE,
+	description TEXT NOT NULL DEFAULT '',
+	maker TEXT NOT NULL DEFAULT '',
+	nominal_h REAL,
+	tolerance REAL,
+	test_freq_hz REAL,
+	test_level REAL,
+	test_level_kind TEXT NOT NULL DEFAULT 'V' CHECK (test_level_kind IN ('V', 'A')),
+	sat_current_a REAL,
+	sat_drop REAL,
+	rated_current_a REAL,
+	dcr_max_ohm REAL,
+	turns INTEGER,
+	ae_m2 REAL,
+	le_m REAL,
+	window_m REAL,
+	toroid_od_m REAL,
+	toroid_id_m REAL,
+	toroid_h_m REAL,
+	mu_i REAL,
+	bsat_t REAL,
+	created TEXT NOT NULL,
+	updated TEXT NOT NULL
+);
+
+CREATE TABLE lots (
+	id INTEGER PRIMARY KEY,
+	part_id INTEGER NOT NULL REFERENCES parts(id),
+	lot_code TEXT NOT NULL,
+	lot_size INTEGER,
+	aql REAL,
+	inspection_level TEXT NOT NULL DEFAULT '',
+	severity TEXT NOT NULL DEFAULT '',
+	decision TEXT NOT NULL DEFAULT 'open' CHECK (decision IN ('open', 'accept', 'reject')),
+	created TEXT NOT NULL,
+	UNIQUE (part_id, lot_code)
+);
+
+CREATE TABLE units (
+	id INTEGER PRIMARY KEY,
+	part_id INTEGER NOT NULL REFERENCES parts(id),
+	serial TEXT NOT NULL,
+	lot_id INTEGER REFERENCES lots(id),
+	created TEXT NOT NULL,
+	UNIQUE (part_id, serial)
+);
+CREATE INDEX units_lot ON units(lot_id);
+CREATE INDEX units_serial ON units(serial);
+
+CREATE TABLE sweeps (
+	id INTEGER PRIMARY KEY,
+	kind TEXT NOT NULL CHECK (kind IN ('bias', 'frequency')),
+	unit_id INTEGER REFERENCES units(id),
+	started_at TEXT NOT NULL,
+	started_unix REAL NOT NULL,
+	ended_at TEXT,
+	ended_unix REAL,
+	status TEXT NOT NULL
+		CHECK (status IN ('running', 'complete', 'aborted', 'failed', 'interrupted')),
+	status_reason TEXT NOT NULL DEFAULT '',
+	station TEXT NOT NULL DEFAULT '',
+	operator TEXT NOT NULL DEFAULT '',
+	-- owner of a running sweep: only its own host may declare it dead
+	host TEXT NOT NULL DEFAULT '',
+	boot_id TEXT NOT NULL DEFAULT '',
+	pid INTEGER,
+	lcr_idn TEXT NOT NULL DEFAULT '',
+	lcr_profile TEXT NOT NULL DEFAULT '',
+	supply_idn TEXT NOT NULL DEFAULT '',
+	supply_profile TEXT NOT NULL DEFAULT '',
+	test_freq_hz REAL,
+	test_level REAL,
+	test_level_kind TEXT NOT NULL DEFAULT 'V' CHECK (test_level_kind IN ('V', 'A')),
+	bias_a REAL,
+	circuit TEXT NOT NULL DEFAULT '',
+	measured_pair TEXT NOT NULL DEFAULT '',
+	averaging INTEGER,
+	aperture TEXT NOT NULL DEFAULT '',
+	settle_mode TEXT NOT NULL DEFAULT '',
+	settle_delay_s REAL,
+	settle_tolerance REAL,
+	settle_max_readings INTEGER,
+	settle_max_s REAL,
+	plan_from REAL,
+	plan_to REAL,
+	plan_steps INTEGER,
+	plan_spacing TEXT NOT NULL DEFAULT '',
+	limit_current_a REAL,
+	limit_voltage_v REAL,
+	ambient_c REAL,
+	note TEXT NOT NULL DEFAULT ''
+);
+-- per unit: history picks the latest complete bias sweep of each unit
+CREATE INDEX sweeps_unit ON sweeps(unit_id, kind, status, started_unix);
+CREATE INDEX sweeps_started ON sweeps(started_unix);
+-- by status: listings by status, and the scan for running sweeps at every open
+CREATE INDEX sweeps_status ON sweeps(status, started_unix);
+
+CREATE TABLE points (
+	sweep_id INTEGER NOT NULL REFERENCES sweeps(id) ON DELETE CASCADE,
+	seq INTEGER NOT NULL,
+	bias_set_a REAL,
+	bias_meas_a REAL,
+	supply_v REAL,
+	freq_hz REAL,
+	primary_value REAL,
+	secondary_value REAL,
+	reading_status INTEGER NOT NULL DEFAULT 0,
+	t_s REAL,
+	settle_readings INTEGER,
+	settle_s REAL,
+	direction TEXT NOT NULL DEFAULT 'up' CHECK (direction IN ('up', 'down')),
+	PRIMARY KEY (sweep_id, seq)
+) WITHOUT ROWID;
+
+-- step 2: fits with named values, verdicts
+CREATE TABLE fits (
+	id INTEGER PRIMARY KEY,
+	sweep_id INTEGER NOT NULL REFERENCES sweeps(id) ON DELETE CASCADE,
+	model TEXT NOT NULL,
+	law TEXT NOT NULL DEFAULT '',
+	code_version TEXT NOT NULL DEFAULT '',
+	created TEXT NOT NULL,
+	rss REAL,
+	dof INTEGER,
+	aic REAL,
+	covariance TEXT NOT NULL DEFAULT '',
+	flags TEXT NOT NULL DEFAULT ''
+);
+CREATE INDEX fits_sweep ON fits(sweep_id, model);
+
+CREATE TABLE fit_values (
+	fit_id INTEGER NOT NULL REFERENCES fits(id) ON DELETE CASCADE,
+	ord INTEGER NOT NULL,
+	name TEXT NOT NULL,
+	value REAL,
+	std_error REAL,
+	unit TEXT NOT NULL DEFAULT '',
+	PRIMARY KEY (fit_id, name)
+) WITHOUT ROWID;
+
+CREATE TABLE verdicts (
+	id INTEGER PRIMARY KEY,
+	sweep_id INTEGER NOT NULL REFERENCES sweeps(id) ON DELETE CASCADE,
+	check_name TEXT NOT NULL,
+	measured REAL,
+	limit_low REAL,
+	limit_high REAL,
+	margin REAL,
+	outcome TEXT NOT NULL CHECK (outcome IN ('not-tested', 'pass', 'fail')),
+	note TEXT NOT NULL DEFAULT '',
+	created TEXT NOT NULL,
+	UNIQUE (sweep_id, check_name)
+);
+
+-- step 3: lot inspection (ISO 2859-1 sample plan on the lot, one record per sample)
+ALTER TABLE lots ADD COLUMN code_letter TEXT NOT NULL DEFAULT '';
+ALTER TABLE lots ADD COLUMN sample_size INTEGER NOT NULL DEFAULT 0;
+ALTER TABLE lots ADD COLUMN accept_number INTEGER NOT NULL DEFAULT 0;
+ALTER TABLE lots ADD COLUMN reject_number INTEGER NOT NULL DEFAULT 0;
+ALTER TABLE lots ADD COLUMN decided_at TEXT NOT NULL DEFAULT '';
+
+CREATE TABLE inspections (
+	id INTEGER PRIMARY KEY,
+	lot_id INTEGER NOT NULL REFERENCES lots(id) ON DELETE CASCADE,
+	sequence INTEGER NOT NULL CHECK (sequence >= 1),
+	unit_id INTEGER REFERENCES units(id),
+	sweep_id INTEGER REFERENCES sweeps(id),
+	outcome TEXT NOT NULL CHECK (outcome IN ('pass', 'fail', 'skipped')),
+	note TEXT NOT NULL DEFAULT '',
+	at TEXT NOT NULL,
+	at_unix REAL NOT NULL,
+	UNIQUE (lot_id, sequence)
+);

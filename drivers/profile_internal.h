@@ -1,0 +1,184 @@
+/* drivers/profile_internal.h - what the meter and supply drivers read from a loaded dialect profile */
+#ifndef HB_PROFILE_INTERNAL_H
+#define HB_PROFILE_INTERNAL_H
+
+#include <regex.h>
+#include <stdbool.h>
+#include <stddef.h>
+
+#include "hb_drivers.h"
+
+/*
+ * Every key a profile may carry, in one list. The table in profile.c gives
+ * each its section, spelling, value type and range; a loaded profile holds
+ * one slot per key, so the drivers look values up by id instead of by text.
+ */
+typedef enum hb_pkey {
+	/* [profile] */
+	HB_PK_NAME,
+	HB_PK_KIND,
+	HB_PK_DESCRIPTION,
+	HB_PK_PRIORITY,
+	HB_PK_MATCH_MAKER,
+	HB_PK_MATCH_MODEL,
+	HB_PK_CHECK_ERRORS,
+
+	/* [lcr] operations */
+	HB_PK_LCR_RESET,
+	HB_PK_LCR_SETTLE_MS,
+	HB_PK_LCR_FREQUENCY,
+	HB_PK_LCR_LEVEL_VOLTAGE,
+	HB_PK_LCR_LEVEL_CURRENT,
+	HB_PK_LCR_FUNCTION,
+	HB_PK_LCR_AVERAGING,
+	HB_PK_LCR_APERTURE,
+	HB_PK_LCR_MEASURE,
+	HB_PK_LCR_MEASURE_FIELDS,
+	HB_PK_LCR_MEASURE_PRIMARY,
+	HB_PK_LCR_MEASURE_SECONDARY,
+	HB_PK_LCR_MEASURE_STATUS,
+	HB_PK_LCR_MEASURE_PRIMARY_SCALE,
+	HB_PK_LCR_MEASURE_PRIMARY_SCALE_ZTH,
+	HB_PK_LCR_MEASURE_SECONDARY_SCALE,
+	HB_PK_LCR_MEASURE_STATUS_MAP,
+	HB_PK_LCR_MEASURE_STATUS_OVERLOAD,
+	HB_PK_LCR_DCR,
+	HB_PK_LCR_DCR_FIELD,
+	HB_PK_LCR_DCR_SCALE,
+	HB_PK_LCR_BIAS_CURRENT,
+	HB_PK_LCR_BIAS_STATE,
+	HB_PK_LCR_CORRECT_OPEN,
+	HB_PK_LCR_CORRECT_SHORT,
+	/* [lcr] tokens for enumerated placeholders */
+	HB_PK_LCR_EQUIV_SERIES,
+	HB_PK_LCR_EQUIV_PARALLEL,
+	HB_PK_LCR_PAIR_LR,
+	HB_PK_LCR_PAIR_LQ,
+	HB_PK_LCR_PAIR_LD,
+	HB_PK_LCR_PAIR_ZTH,
+	HB_PK_LCR_APERTURE_SHORT,
+	HB_PK_LCR_APERTURE_MEDIUM,
+	HB_PK_LCR_APERTURE_LONG,
+	HB_PK_LCR_STATE_ON,
+	HB_PK_LCR_STATE_OFF,
+
+	/* [supply] operations */
+	HB_PK_SUP_RESET,
+	HB_PK_SUP_SETTLE_MS,
+	HB_PK_SUP_VOLTAGE,
+	HB_PK_SUP_CURRENT,
+	HB_PK_SUP_OUTPUT_ON,
+	HB_PK_SUP_OUTPUT_OFF,
+	HB_PK_SUP_OUTPUT_STATE,
+	HB_PK_SUP_OUTPUT_STATE_FIELD,
+	HB_PK_SUP_MEASURE_CURRENT,
+	HB_PK_SUP_MEASURE_CURRENT_FIELD,
+	HB_PK_SUP_MEASURE_CURRENT_SCALE,
+	HB_PK_SUP_MEASURE_VOLTAGE,
+	HB_PK_SUP_MEASURE_VOLTAGE_FIELD,
+	HB_PK_SUP_MEASURE_VOLTAGE_SCALE,
+	HB_PK_SUP_MODE,
+	HB_PK_SUP_MODE_FIELD,
+	HB_PK_SUP_MODE_REPLY,
+	HB_PK_SUP_MODE_CC,
+	HB_PK_SUP_MODE_CV,
+	HB_PK_SUP_MODE_OFF,
+	HB_PK_SUP_PROTECTION,
+	HB_PK_SUP_PROTECTION_FIELD,
+	HB_PK_SUP_PROTECTION_TRIPPED,
+	HB_PK_SUP_STATE_ON,
+	HB_PK_SUP_STATE_OFF,
+
+	HB_PK_COUNT
+} hb_pkey;
+
+/* One key's value as loaded: text as written (templates keep theirs for
+ * expansion), the number for numeric keys, and where it stood in the file. */
+typedef struct hb_pvalue {
+	bool set;
+	int line;
+	char *text;
+	double number;
+} hb_pvalue;
+
+struct hb_profile {
+	char *path;
+	hb_instrument_kind kind;
+	int priority;
+	bool check_errors;
+	bool has_maker_re, has_model_re;
+	regex_t maker_re, model_re;
+	hb_pvalue v[HB_PK_COUNT];
+};
+
+/* One value substituted into a template placeholder, by placeholder name. */
+typedef enum hb_ptype { HB_PT_REAL, HB_PT_INT, HB_PT_ENUM, HB_PT_BOOL } hb_ptype;
+
+typedef struct hb_parg {
+	const char *name;
+	double real;   /* HB_PT_REAL */
+	long integer;  /* HB_PT_INT */
+	int choice;    /* HB_PT_ENUM: index into the placeholder's value list; HB_PT_BOOL: 0/1 */
+} hb_parg;
+
+/* Whether the profile defines this key (an operation or a reply detail). */
+bool hb_profile_has(const hb_profile *p, hb_pkey key);
+const char *hb_profile_text(const hb_profile *p, hb_pkey key);
+/* Number of a numeric key, or fallback when the profile leaves it out. */
+double hb_profile_number(const hb_profile *p, hb_pkey key, double fallback);
+/* The key's spelling as written in a profile, e.g. "level.voltage". */
+const char *hb_profile_key_name(hb_pkey key);
+/* True when the operation named by its key (e.g. "dcr") or by the first
+ * part of a group of keys (e.g. "bias", "level", "correct") is defined. */
+bool hb_profile_supports(const hb_profile *p, hb_instrument_kind kind, const char *operation);
+
+/*
+ * Fills the operation's template with args into out. Returns
+ * HB_ERR_UNSUPPORTED when the profile lacks the operation or has no token
+ * for an enumerated value (err says which), HB_ERR_ARG when out is short.
+ */
+int hb_profile_expand(const hb_profile *p, hb_pkey op, const hb_parg *args, size_t nargs,
+		      char *out, size_t cap, char *err, size_t errlen);
+
+/* Locale-independent decimal number; whole text must be consumed. */
+int hb_profile_strtod(const char *text, double *value);
+
+/* ---- operations carried out through a profile (shared by lcr.c and supply.c) ---- */
+
+/* The profile forced by the resource's profile= option, else the match on
+ * the IDN; a forced profile of the wrong kind is HB_ERR_PROFILE. */
+int hb_profile_choose(const hb_resource *res, hb_instrument_kind kind, const hb_idn *idn, hb_profile **out,
+		      char *err, size_t errlen);
+
+/* Field number field (1-based) of a comma-separated reply, trimmed, into
+ * out; HB_ERR_PROTOCOL when the reply has fewer fields. *nfields (may be
+ * NULL) gets the number of fields in the reply. */
+int hb_profile_reply_field(const char *reply, int field, char *out, size_t cap, int *nfields);
+
+/* Expands the operation, sends it and, when the profile checks errors,
+ * reads the error queue: an entry there makes HB_ERR_INSTRUMENT with the
+ * instrument's code and message. what names the request in messages
+ * ("set frequency to 1000 Hz"). */
+int hb_profile_send(hb_scpi *scpi, const hb_profile *p, hb_pkey op, const hb_parg *args, size_t nargs,
+		    const char *what, char *err, size_t errlen);
+/* Sends an already expanded command, then checks errors like hb_profile_send. */
+int hb_profile_send_text(hb_scpi *scpi, const hb_profile *p, const char *command, const char *what, char *err,
+			 size_t errlen);
+/* Reads the error queue after a command; HB_ERR_INSTRUMENT if not empty. */
+int hb_profile_check_errors(hb_scpi *scpi, const char *what, const char *command, char *err, size_t errlen);
+/* Sends the query operation and returns the reply line. */
+int hb_profile_ask(hb_scpi *scpi, const hb_profile *p, hb_pkey op, const char *what, char *reply, size_t cap,
+		   char *err, size_t errlen);
+/* A numeric query: the field named by field_key (default 1) times the
+ * scale of scale_key (default 1). HB_ERR_OVERLOAD for 9.9E37. */
+int hb_profile_ask_number(hb_scpi *scpi, const hb_profile *p, hb_pkey op, hb_pkey field_key, hb_pkey scale_key,
+			  const char *what, double *value, char *err, size_t errlen);
+/* A yes/no reply field: a number (nonzero = yes) or the state.on/state.off
+ * tokens of the section (ON/OFF when unset). */
+int hb_profile_reply_bool(const hb_profile *p, hb_pkey on_key, hb_pkey off_key, const char *field, bool *value);
+/* Whether token (case-insensitive) is one of the blank/comma-separated words in list. */
+bool hb_profile_word_in(const char *list, const char *token);
+/* Parses a whole decimal integer reply field. */
+int hb_profile_parse_long(const char *text, long *value);
+
+#endif

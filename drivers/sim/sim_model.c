@@ -1,0 +1,360 @@
+/* drivers/sim/sim_model.c - the simulated part: parameters, presets, saturating core, winding heat, supply regulation, impedance */
+#include <math.h>
+#include <stddef.h>
+#include <string.h>
+
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_roots.h>
+
+#include "sim_internal.h"
+
+#define P(field) offsetof(sim_params, field)
+
+const sim_param_info sim_param_table[] = {
+	{ "turns", P(turns), "", 1, 10000, true, true, "winding turns N" },
+	{ "ae", P(ae), "m2", 1e-9, 1e-2, true, false, "effective core cross-section Ae" },
+	{ "le", P(le), "m", 1e-4, 2, true, false, "effective magnetic path length le" },
+	{ "mu_i", P(mu_i), "", 1, 100000, true, false, "initial relative permeability of the material" },
+	{ "bsat", P(bsat), "T", 0.01, 3, true, false, "saturation polarisation Bsat" },
+	{ "gap", P(gap), "m", 0, 0.02, true, false, "total air gap length g (0: ungapped)" },
+	{ "window", P(window), "m", 1e-4, 0.2, true, false, "winding window height G (fringing)" },
+	{ "law", P(law), "", 0, 2, true, true, "B-H law: 0 Frohlich-Kennelly, 1 Langevin, 2 tanh" },
+	{ "rdc", P(rdc), "ohm", 1e-6, 1000, true, false, "winding resistance at 20 C" },
+	{ "cp", P(cp), "F", 0, 1e-6, true, false, "winding parasitic capacitance Cp" },
+	{ "rlead", P(rlead), "ohm", 0, 10, true, false, "fixture and lead resistance (removed by short correction)" },
+	{ "cfix", P(cfix), "F", 0, 1e-6, true, false, "fixture stray capacitance (removed by open correction)" },
+	{ "tan_delta", P(tan_delta), "", 0, 1, true, false, "core loss tangent (series core-loss R = tan_delta*w*L)" },
+	{ "rth", P(rth), "K/W", 0, 10000, true, false, "thermal resistance winding to ambient" },
+	{ "tau_th", P(tau_th), "s", 1e-3, 1e5, true, false, "thermal time constant" },
+	{ "t_amb", P(t_amb), "C", -40, 150, false, false, "ambient temperature" },
+	{ "alpha_cu", P(alpha_cu), "1/K", 0, 0.01, false, false, "temperature coefficient of the winding resistance" },
+	{ "tau_settle", P(tau_settle), "s", 1e-4, 100, false, false, "supply current settling time constant" },
+	{ "imax", P(imax), "A", 0.001, 1000, false, false, "supply current rating (setpoints above: -222)" },
+	{ "vmax", P(vmax), "V", 0.1, 1000, false, false, "supply voltage rating (limits above: -222)" },
+	{ "bias_max", P(bias_max), "A", 0, 1, false, false, "meter's internal bias current rating" },
+	{ "time_scale", P(time_scale), "", 1e-6, 100, false, false, "multiplies every simulated time (settling, integration, heat)" },
+	{ "seed", P(seed), "", 0, 4294967295.0, false, true, "noise generator seed" },
+	{ "noise", P(noise), "", 0, 0.1, false, false, "relative noise of one MEDIUM reading" },
+	{ "t_short", P(t_short), "s", 1e-4, 100, false, false, "integration time of aperture SHORT" },
+	{ "t_medium", P(t_medium), "s", 1e-4, 100, false, false, "integration time of aperture MEDIUM" },
+	{ "t_long", P(t_long), "s", 1e-4, 100, false, false, "integration time of aperture LONG" },
+	{ "t_supply", P(t_supply), "s", 0, 10, false, false, "supply measurement time (MEAS?)" },
+};
+const size_t sim_param_count = sizeof sim_param_table / sizeof sim_param_table[0];
+
+const sim_param_info *sim_param_find(const char *key)
+{
+	for (size_t i = 0; i < sim_param_count; i++)
+		if (strcmp(sim_param_table[i].key, key) == 0)
+			return &sim_param_table[i];
+	return NULL;
+}
+
+typedef struct sim_preset {
+	const char *name;
+	double turns, ae, le, mu_i, bsat, gap, window, law, rdc, cp, rlead, cfix, tan_delta, rth, tau_th;
+} sim_preset;
+
+/* Invented parts with plausible values, for the demo and the tests. */
+static const sim_preset presets[] = {
+	/* gapped ferrite power inductor: about 108 uH, knee near 4.5 A, SRF near 4.8 MHz */
+	{ "default", 27, 50e-6, 60e-3, 2300, 0.39, 0.5e-3, 9e-3, SIM_LAW_FROHLICH,
+	  0.020, 10e-12, 0.010, 0.5e-12, 0.002, 30, 120 },
+	/* high-permeability toroid without gap: about 250 uH, saturates below 1 A */
+	{ "ungapped-toroid", 10, 20e-6, 50e-3, 5000, 0.45, 0, 5e-3, SIM_LAW_TANH,
+	  0.005, 20e-12, 0.010, 0.5e-12, 0.004, 40, 90 },
+	/* air-core solenoid: about 4 uH, never saturates */
+	{ "air-core", 40, 80e-6, 40e-3, 1, 2.0, 0, 40e-3, SIM_LAW_FROHLICH,
+	  0.050, 2e-12, 0.010, 0.5e-12, 0, 20, 60 },
+	/* small SMD power inductor: about 14 uH, knee near 1 A, SRF near 25 MHz */
+	{ "small-smd", 12, 4e-6, 12e-3, 1500, 0.32, 0.05e-3, 2e-3, SIM_LAW_LANGEVIN,
+	  0.080, 3e-12, 0.010, 0.5e-12, 0.003, 80, 20 },
+};
+
+static const char *const preset_names[] = { "default", "ungapped-toroid", "air-core", "small-smd", NULL };
+
+const char *const *hb_sim_presets(void)
+{
+	return preset_names;
+}
+
+int sim_params_preset(sim_params *p, const char *name)
+{
+	for (size_t i = 0; i < sizeof presets / sizeof presets[0]; i++) {
+		const sim_preset *s = &presets[i];
+		if (strcmp(s->name, name) != 0)
+			continue;
+		p->turns = s->turns;
+		p->ae = s->ae;
+		p->le = s->le;
+		p->mu_i = s->mu_i;
+		p->bsat = s->bsat;
+		p->gap = s->gap;
+		p->window = s->window;
+		p->law = s->law;
+		p->rdc = s->rdc;
+		p->cp = s->cp;
+		p->rlead = s->rlead;
+		p->cfix = s->cfix;
+		p->tan_delta = s->tan_delta;
+		p->rth = s->rth;
+		p->tau_th = s->tau_th;
+		return HB_OK;
+	}
+	return HB_ERR_NOTFOUND;
+}
+
+void sim_params_defaults(sim_params *p)
+{
+	memset(p, 0, sizeof *p);
+	sim_params_preset(p, "default");
+	p->t_amb = 20;
+	/* Copper: about 0.39 %/K near room temperature (common practice). */
+	p->alpha_cu = 0.0039;
+	p->tau_settle = 0.2;
+	p->imax = 10;
+	p->vmax = 30;
+	p->bias_max = 0.2;
+	p->time_scale = 1;
+	p->seed = 1;
+	p->noise = 1e-4;
+	p->t_short = 0.020;
+	p->t_medium = 0.100;
+	p->t_long = 0.400;
+	p->t_supply = 0.010;
+}
+
+/* ------------------------------------------------------------------ */
+
+double sim_fringing(const sim_params *p)
+{
+	if (p->gap <= 0 || p->window <= p->gap / 2)
+		return 1.0;
+	/* McLyman, Transformer and Inductor Design Handbook, fringing flux factor. */
+	return 1.0 + (p->gap / sqrt(p->ae)) * log(2.0 * p->window / p->gap);
+}
+
+double sim_gap_eff(const sim_params *p)
+{
+	return p->gap / sim_fringing(p);
+}
+
+/* Langevin function L(x) = coth x - 1/x and its derivative, with series
+ * near 0 where the difference of large terms loses every digit. */
+static double langevin(double x, double *deriv)
+{
+	double ax = fabs(x);
+	if (ax < 0.05) {
+		double x2 = x * x;
+		*deriv = 1.0 / 3.0 - x2 / 15.0 + 2.0 * x2 * x2 / 189.0;
+		return x / 3.0 - x * x2 / 45.0 + 2.0 * x * x2 * x2 / 945.0;
+	}
+	double s = sinh(x);
+	*deriv = 1.0 / (x * x) - (isfinite(s) ? 1.0 / (s * s) : 0.0);
+	return 1.0 / tanh(x) - 1.0 / x;
+}
+
+/* B = mu0*H + J(H): the material's polarisation J saturates at bsat with
+ * initial slope mu0*(mu_i-1), so dB/dH at zero is exactly mu0*mu_i and B
+ * keeps rising as in vacuum once the core is saturated. */
+double sim_law_b(const sim_params *p, double h, double *dbdh)
+{
+	double a = SIM_MU0 * (p->mu_i - 1.0);
+	double js = p->bsat;
+	double j, dj;
+	switch ((int)p->law) {
+	case SIM_LAW_LANGEVIN: {
+		double d;
+		j = js * langevin(3.0 * a * h / js, &d);
+		dj = 3.0 * a * d;
+		break;
+	}
+	case SIM_LAW_TANH: {
+		double t = tanh(a * h / js);
+		j = js * t;
+		dj = a * (1.0 - t * t);
+		break;
+	}
+	default: {
+		double den = js + a * fabs(h);
+		j = a * h * js / den;
+		dj = a * js * js / (den * den);
+		break;
+	}
+	}
+	if (dbdh)
+		*dbdh = SIM_MU0 + dj;
+	return SIM_MU0 * h + j;
+}
+
+typedef struct circuit {
+	const sim_params *p;
+	double geff, ampere_turns;
+} circuit;
+
+static double circuit_residual(double h, void *arg)
+{
+	const circuit *c = arg;
+	return h * c->p->le + sim_law_b(c->p, h, NULL) * c->geff / SIM_MU0 - c->ampere_turns;
+}
+
+int sim_core_solve(const sim_params *p, double amps, double *h_out, double *b_out)
+{
+	circuit c = { p, sim_gap_eff(p), p->turns * fabs(amps) };
+	double h = 0;
+	int rc = HB_OK;
+	if (c.ampere_turns > 0) {
+		/* The concave law lies between mu0*H and mu0*mu_i*H, which brackets
+		 * the root: N*I/(le + mu_i*g_eff) <= H <= N*I/(le + g_eff). */
+		double lo = c.ampere_turns / (p->le + p->mu_i * c.geff);
+		double hi = c.ampere_turns / (p->le + c.geff);
+		double flo = circuit_residual(lo, &c), fhi = circuit_residual(hi, &c);
+		if (hi - lo <= 1e-14 * hi || flo >= 0) {
+			h = lo;
+		} else if (fhi <= 0) {
+			h = hi;
+		} else {
+			gsl_function fn = { circuit_residual, &c };
+			gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
+			if (!s)
+				return HB_ERR_NOMEM;
+			int st = gsl_root_fsolver_set(s, &fn, lo, hi);
+			for (int i = 0; st == GSL_SUCCESS && i < 200; i++) {
+				st = gsl_root_fsolver_iterate(s);
+				if (st != GSL_SUCCESS)
+					break;
+				st = gsl_root_test_interval(gsl_root_fsolver_x_lower(s), gsl_root_fsolver_x_upper(s), 0, 1e-13);
+				if (st == GSL_SUCCESS)
+					break;
+				if (st == GSL_CONTINUE)
+					st = GSL_SUCCESS;
+			}
+			h = gsl_root_fsolver_root(s);
+			if (st != GSL_SUCCESS)
+				rc = HB_ERR_FIT;
+			gsl_root_fsolver_free(s);
+		}
+	}
+	if (amps < 0)
+		h = -h;
+	if (h_out)
+		*h_out = h;
+	if (b_out)
+		*b_out = sim_law_b(p, h, NULL);
+	return rc;
+}
+
+double sim_inductance(const sim_params *p, double amps)
+{
+	double h, dbdh;
+	sim_core_solve(p, amps, &h, NULL);
+	sim_law_b(p, h, &dbdh);
+	/* Differentiating N*I = H*le + B*g_eff/mu0 gives
+	 * dB/dI = N*dB/dH / (le + dB/dH*g_eff/mu0); L = N*Ae*dB/dI. */
+	double dbdi = p->turns * dbdh / (p->le + dbdh * sim_gap_eff(p) / SIM_MU0);
+	return p->turns * p->ae * dbdi;
+}
+
+double sim_l0_closed_form(const sim_params *p)
+{
+	return SIM_MU0 * p->turns * p->turns * p->ae / (p->le / p->mu_i + sim_gap_eff(p));
+}
+
+double sim_winding_r(const sim_params *p, double temp_c)
+{
+	double r = p->rdc * (1.0 + p->alpha_cu * (temp_c - 20.0));
+	return r > 1e-9 ? r : 1e-9;
+}
+
+/* ------------------------------------------------------------------ */
+
+void sim_state_reset(const sim_params *p, sim_state *s)
+{
+	s->setpoint = 0;
+	s->vlimit = 5.0 < p->vmax ? 5.0 : p->vmax;
+	s->output = false;
+	s->tripped = false;
+}
+
+double sim_supply_target(const sim_params *p, const sim_state *s, hb_supply_mode *mode)
+{
+	if (!s->output) {
+		*mode = HB_SUPPLY_MODE_OFF;
+		return 0;
+	}
+	double r = sim_winding_r(p, s->temp_c) + p->rlead;
+	if (s->setpoint * r > s->vlimit) {
+		*mode = HB_SUPPLY_MODE_CV;
+		return s->vlimit / r;
+	}
+	*mode = HB_SUPPLY_MODE_CC;
+	return s->setpoint;
+}
+
+void sim_state_step(const sim_params *p, sim_state *s, double dt)
+{
+	if (!(dt > 0))
+		return;
+	double tau_min = p->tau_settle < p->tau_th ? p->tau_settle : p->tau_th;
+	int steps = (int)ceil(dt / (tau_min / 8.0));
+	if (steps < 1)
+		steps = 1;
+	if (steps > 4000)
+		steps = 4000;
+	double h = dt / steps;
+	double k_i = 1.0 - exp(-h / p->tau_settle);
+	double k_t = 1.0 - exp(-h / p->tau_th);
+	for (int i = 0; i < steps; i++) {
+		hb_supply_mode mode;
+		double target = sim_supply_target(p, s, &mode);
+		s->amps += (target - s->amps) * k_i;
+		/* First-order thermal model: the copper loss into rth. */
+		double power = s->amps * s->amps * sim_winding_r(p, s->temp_c);
+		double t_final = p->t_amb + power * p->rth;
+		s->temp_c += (t_final - s->temp_c) * k_t;
+	}
+}
+
+double complex sim_impedance(const sim_params *p, const sim_state *s, double hertz, double bias_amps,
+			     bool short_corrected, bool open_corrected)
+{
+	double w = 2.0 * M_PI * hertz;
+	double l = sim_inductance(p, bias_amps);
+	double complex zl = sim_winding_r(p, s->temp_c) + p->tan_delta * w * l + I * w * l;
+	/* The winding capacitance parallels the coil: the series resonance
+	 * that raises apparent L towards the self-resonant frequency. */
+	double complex z = zl / (1.0 + I * w * p->cp * zl);
+	if (!short_corrected)
+		z += p->rlead;
+	if (!open_corrected)
+		z = z / (1.0 + I * w * p->cfix * z);
+	return z;
+}
+
+void sim_reading_from_z(double complex z, double hertz, hb_equiv equiv, hb_pair pair, double *primary,
+			double *secondary)
+{
+	double w = 2.0 * M_PI * hertz;
+	double r = creal(z), x = cimag(z);
+	double q = r != 0 ? x / r : (x >= 0 ? 1e12 : -1e12);
+	if (pair == HB_PAIR_Z_THETA) {
+		*primary = cabs(z);
+		*secondary = carg(z) * 180.0 / M_PI;
+		return;
+	}
+	if (equiv == HB_EQUIV_SERIES) {
+		*primary = x / w;
+		if (pair == HB_PAIR_L_R)
+			*secondary = r;
+	} else {
+		double complex y = 1.0 / z;
+		double g = creal(y), b = cimag(y);
+		*primary = b != 0 ? -1.0 / (w * b) : 1e12;
+		if (pair == HB_PAIR_L_R)
+			*secondary = g != 0 ? 1.0 / g : 1e12;
+	}
+	if (pair == HB_PAIR_L_Q)
+		*secondary = q;
+	else if (pair == HB_PAIR_L_D)
+		*secondary = q != 0 ? 1.0 / q : 1e12;
+}

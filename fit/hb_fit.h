@@ -1,0 +1,337 @@
+/* fit/hb_fit.h - the fit engine: model-free bias results, knee and core models, frequency model, core geometry */
+#ifndef HB_FIT_H
+#define HB_FIT_H
+
+#include <stdbool.h>
+#include <stddef.h>
+
+#include "../common/hb_status.h"
+
+/*
+ * Everything here takes plain arrays in SI units (A, H, m, m^2, Hz, ohm, T)
+ * and returns plain structs. Standard errors are NAN where none applies.
+ * The bias sweep's L is the meter's reading: the INCREMENTAL (small-signal)
+ * inductance dpsi/dI at the DC bias point, not the secant psi/I.
+ */
+
+#define HB_FIT_CODE_VERSION "hb-fit 1.0"
+#define HB_FIT_INCREMENTAL_NOTE \
+	"L is the incremental (small-signal) inductance dpsi/dI read by the LCR meter at each DC bias"
+#define HB_FIT_MU0 1.25663706212e-6 /* H/m, CODATA 2018 */
+
+#define HB_FIT_MAX_PARAMS 8
+#define HB_FIT_MAX_FRACTIONS 8
+#define HB_FIT_MAX_VALUES 96
+
+/* ------------------------------------------------------------------ */
+/* Generic nonlinear least squares: the ONE wrapper every model uses.  */
+/* ------------------------------------------------------------------ */
+
+/* Fills f[0..n-1] with the model at theta and, when jac is not NULL, the
+ * n x p Jacobian df_i/dtheta_j row-major. Returns 0, or nonzero when theta
+ * is outside the model's domain. */
+typedef int (*hb_fit_model_fn)(const double *theta, void *ctx, double *f, double *jac);
+
+typedef struct hb_fit_problem {
+	size_t n, p;            /* observations, parameters (p <= HB_FIT_MAX_PARAMS) */
+	const double *y;        /* n observations */
+	const double *sigma;    /* n reading uncertainties (weights 1/sigma^2) or NULL */
+	hb_fit_model_fn model;
+	void *ctx;
+} hb_fit_problem;
+
+/* hb_fit_nlls_result.flags */
+enum {
+	HB_NLLS_RESTARTED = 1 << 0,       /* the first run was suspect; more starts were tried */
+	HB_NLLS_FALSE_CAUGHT = 1 << 1,    /* a "converged" run was rejected as a wrong point */
+	HB_NLLS_SINGULAR = 1 << 2,        /* Jacobian rank-deficient at the result */
+	HB_NLLS_NOT_CONVERGED = 1 << 3,   /* no run met the tolerances */
+};
+
+typedef struct hb_fit_nlls_result {
+	size_t n, p, dof;
+	double theta[HB_FIT_MAX_PARAMS];
+	double std_err[HB_FIT_MAX_PARAMS];                /* sqrt(diag(cov)) */
+	double cov[HB_FIT_MAX_PARAMS * HB_FIT_MAX_PARAMS]; /* (J'WJ)^-1 * chi2/dof, row-major p x p */
+	double rss;          /* sum (f - y)^2, unweighted */
+	double chi2;         /* sum ((f - y)/sigma)^2 (= rss without sigma) */
+	double residual_sd;  /* sqrt(chi2/dof) */
+	double rcond;        /* reciprocal condition number of the column-scaled Jacobian */
+	int iterations, starts, flags;
+} hb_fit_nlls_result;
+
+typedef struct hb_fit_nlls hb_fit_nlls; /* workspace cache; reuse it across fits */
+
+hb_fit_nlls *hb_fit_nlls_new(void);
+void hb_fit_nlls_free(hb_fit_nlls *w);
+/* check = false gives one plain trust-region LM run with no false-convergence
+ * check (tests use it to show what the check catches). Default true. */
+void hb_fit_nlls_set_check(hb_fit_nlls *w, bool check);
+/* HB_OK, HB_ERR_ARG, HB_ERR_NOMEM, or HB_ERR_FIT (no trustworthy minimum:
+ * out still holds the best run found, with flags saying why). */
+int hb_fit_nlls_run(hb_fit_nlls *w, const hb_fit_problem *prob, const double *start, hb_fit_nlls_result *out);
+const char *hb_fit_nlls_error(const hb_fit_nlls *w);
+
+/* ------------------------------------------------------------------ */
+/* Options, workspace, named values                                    */
+/* ------------------------------------------------------------------ */
+
+typedef enum hb_core_law {
+	HB_CORE_FROHLICH = 0, /* B = mu0 mu_i H Bsat / (Bsat + mu0 mu_i |H|) */
+	HB_CORE_LANGEVIN = 1, /* B = Bsat Lang(3 mu0 mu_i H / Bsat), Lang(x) = coth x - 1/x */
+	HB_CORE_TANH = 2,     /* B = Bsat tanh(mu0 mu_i H / Bsat) */
+	HB_CORE_NLAWS = 3
+} hb_core_law;
+
+const char *hb_core_law_name(hb_core_law law); /* "frohlich-kennelly", "langevin", "tanh" */
+
+typedef struct hb_core_geometry {
+	double turns;         /* N */
+	double Ae, le;        /* effective area m^2, path length m */
+	double window_height; /* G for the fringing correction, m; 0 = none */
+} hb_core_geometry;
+
+typedef struct hb_fit_options {
+	size_t n_fractions;                      /* 0 -> 10, 20, 30 % */
+	double fractions[HB_FIT_MAX_FRACTIONS];  /* 0.10 = L fallen by 10 % of L0 */
+	size_t l0_points;                        /* points in the zero-bias fit, 0 -> 4 */
+	double noise_sigma;                      /* reading noise, H (repeated readings); 0 = estimate */
+	double rated_current;                    /* A; 0 -> the last bias point */
+	bool knee;                               /* fit the 4-parameter knee model (default true) */
+	hb_core_geometry geo;                    /* turns, Ae, le > 0 enable the core model */
+	double fix_mu_i, fix_gap, fix_bsat;      /* datasheet values held fixed; NAN = fit */
+	unsigned laws;                           /* bit (1 << hb_core_law); 0 = all three */
+	double noise_ratio_limit;                /* residual rms / noise above which no law fits; 0 -> 3 */
+} hb_fit_options;
+
+void hb_fit_options_init(hb_fit_options *opt);
+
+typedef struct hb_fit_value {
+	char name[40];   /* e.g. "knee.Ik", "core.mu_e" */
+	double value;
+	double std_err;  /* NAN = none */
+	char unit[12];   /* SI: "H", "A", "m", "T", "J", "", ... */
+} hb_fit_value;
+
+typedef struct hb_fit_values {
+	size_t count;
+	hb_fit_value v[HB_FIT_MAX_VALUES];
+} hb_fit_values;
+
+/* Value by name or NULL. */
+const hb_fit_value *hb_fit_values_find(const hb_fit_values *vals, const char *name);
+
+/* Holds GSL workspaces and scratch space reused from fit to fit. */
+typedef struct hb_fit_ws hb_fit_ws;
+hb_fit_ws *hb_fit_ws_new(void);
+void hb_fit_ws_free(hb_fit_ws *ws);
+const char *hb_fit_ws_error(const hb_fit_ws *ws); /* why the last call failed */
+
+/* ------------------------------------------------------------------ */
+/* 1. Model-free results from the measured points                      */
+/* ------------------------------------------------------------------ */
+
+typedef struct hb_fit_drop {
+	double fraction;  /* 0.20 = L has fallen to 80 % of L0 */
+	bool reached;     /* false: the sweep stopped short; current is NAN */
+	double current, std_err;
+} hb_fit_drop;
+
+enum { /* hb_fit_modelfree_result.flags */
+	HB_MF_NOISE_ESTIMATED = 1 << 0, /* reading noise estimated from the scatter, not given */
+	HB_MF_NONMONOTONE = 1 << 1,     /* L rose with bias by more than 3 noise sd somewhere */
+};
+
+typedef struct hb_fit_modelfree {
+	double L0, L0_std_err;  /* zero-bias value: fit L0 + c|I| to the first points, at I = 0 */
+	size_t L0_points;
+	double noise_sigma;     /* reading noise used for the uncertainties, H */
+	size_t n_drops;
+	hb_fit_drop drop[HB_FIT_MAX_FRACTIONS];
+	double I_max, L_at_max; /* last bias point */
+	int flags;
+} hb_fit_modelfree_result;
+
+/* I strictly increasing, >= 0, n >= 3, all finite, L > 0. */
+int hb_fit_modelfree(const double *current, const double *L, const double *sigma, size_t n,
+		     const hb_fit_options *opt, hb_fit_modelfree_result *out);
+
+/* ------------------------------------------------------------------ */
+/* 2. Knee model L(I) = Lf + (L0 - Lf) / (1 + (I/Ik)^p)                */
+/* ------------------------------------------------------------------ */
+
+enum { HB_KNEE_L0 = 0, HB_KNEE_LF, HB_KNEE_IK, HB_KNEE_P, HB_KNEE_NP };
+
+/* identifiability flags: bit (1 << parameter index) in .undetermined */
+typedef struct hb_fit_knee_result {
+	double param[HB_KNEE_NP], std_err[HB_KNEE_NP];
+	double cov[HB_KNEE_NP * HB_KNEE_NP]; /* natural units, scaled by chi2/dof */
+	double rss, chi2, residual_rms;
+	size_t n, dof;
+	size_t n_drops;
+	hb_fit_drop drop[HB_FIT_MAX_FRACTIONS]; /* on the model, brent root finder */
+	double knee_current, knee_L;           /* maximum curvature of L/L0 against I/Ik */
+	unsigned undetermined;                  /* |corr| > 0.99 or relative sd > 50 % */
+	int nlls_flags;
+} hb_fit_knee_result;
+
+double hb_fit_knee_eval(const double param[HB_KNEE_NP], double current);
+int hb_fit_knee(hb_fit_ws *ws, const double *current, const double *L, const double *sigma, size_t n,
+		const hb_fit_options *opt, hb_fit_knee_result *out);
+
+/* ------------------------------------------------------------------ */
+/* 3. Core model: N I = H(B) le + B g / mu0, L = N Ae dB/dI            */
+/* ------------------------------------------------------------------ */
+
+enum { HB_CORE_MU_I = 0, HB_CORE_GAP, HB_CORE_BSAT, HB_CORE_NP };
+
+typedef struct hb_core_params {
+	double mu_i;  /* initial relative permeability of the material */
+	double gap;   /* effective magnetic gap, m */
+	double bsat;  /* T */
+} hb_core_params;
+
+/* Incremental L (and B when B_out != NULL) at each current. */
+int hb_core_model_eval(hb_core_law law, const hb_core_params *par, const hb_core_geometry *geo,
+		       const double *current, size_t n, double *L_out, double *B_out);
+
+enum { /* hb_fit_core_result.flags */
+	HB_CORE_NO_LAW_FITS = 1 << 0,   /* residual rms > limit x noise: lean on the model-free results */
+	HB_CORE_KNEE_UNREACHED = 1 << 1,/* the sweep never reached a 30 % drop */
+	HB_CORE_GAP_ZERO = 1 << 2,      /* gap not resolved from zero; refitted with gap = 0 */
+	HB_CORE_NOISE_UNKNOWN = 1 << 3, /* no noise estimate: the fit quality could not be judged */
+};
+
+typedef struct hb_fit_core_law_result {
+	hb_core_law law;
+	int status;                          /* hb_status of this law's fit */
+	double param[HB_CORE_NP], std_err[HB_CORE_NP]; /* std_err 0 for fixed parameters */
+	double cov[HB_CORE_NP * HB_CORE_NP];
+	bool fixed[HB_CORE_NP];
+	double rss, chi2, residual_rms, aicc;
+	size_t dof;
+	unsigned undetermined;               /* bit (1 << HB_CORE_*) */
+	int nlls_flags;
+} hb_fit_core_law_result;
+
+typedef struct hb_fit_core_result {
+	hb_core_law best;                    /* lowest AICc among the laws that fitted */
+	hb_fit_core_law_result law[HB_CORE_NLAWS]; /* status HB_ERR_UNSUPPORTED = not tried */
+	double mu_e, mu_e_se;                /* L0 le / (mu0 N^2 Ae): always determined */
+	double AL, AL_se;                    /* L0 / N^2, H */
+	double gap_implied, gap_implied_se;  /* le (1/mu_e - 1/mu_i) with the best law's mu_i */
+	double gap_physical, gap_physical_se;/* g with g/F(g) = fitted effective gap (needs G) */
+	double fringing_factor;              /* F at the physical gap */
+	double rated_current;
+	double B_peak, B_peak_se;            /* model flux density at the rated current, T */
+	double psi_rated, W_rated;           /* model flux linkage (Wb) and energy (J) there */
+	double noise_sigma, noise_ratio;     /* residual rms / reading noise */
+	int flags;
+} hb_fit_core_result;
+
+int hb_fit_core(hb_fit_ws *ws, const double *current, const double *L, const double *sigma, size_t n,
+		const hb_fit_options *opt, hb_fit_core_result *out);
+
+/* ------------------------------------------------------------------ */
+/* 4. Derived curves from the data                                     */
+/* ------------------------------------------------------------------ */
+
+/* psi(I) = integral of L dI from 0 (trapezoid; L0 or L[0] taken flat below
+ * I[0]), B = psi/(N Ae), H = N I / le, W = integral of i dpsi. Any output
+ * may be NULL; B and H need geo (NULL otherwise). L0 NAN -> L[0]. */
+int hb_fit_curves(const double *current, const double *L, size_t n, double L0, const hb_core_geometry *geo,
+		  double *psi, double *B, double *H, double *W);
+
+/* ------------------------------------------------------------------ */
+/* Everything for one bias sweep, and a flat list for the store        */
+/* ------------------------------------------------------------------ */
+
+typedef struct hb_fit_bias_result {
+	char code_version[24];               /* HB_FIT_CODE_VERSION */
+	char model[48];                      /* headline model, e.g. "knee", "core:tanh" */
+	hb_fit_modelfree_result modelfree;
+	int knee_status;                     /* HB_ERR_UNSUPPORTED = not run */
+	hb_fit_knee_result knee;
+	int core_status;                     /* HB_ERR_UNSUPPORTED = no geometry */
+	hb_fit_core_result core;
+	double rated_current, psi_rated, B_rated, H_rated, W_rated; /* from the data */
+	/* headline model's fit, for generic storage */
+	size_t p, dof;
+	char param_names[HB_FIT_MAX_PARAMS][16];
+	double cov[HB_FIT_MAX_PARAMS * HB_FIT_MAX_PARAMS];
+	double rss;
+	hb_fit_values values;                /* every result as (name, value, std_err, unit) */
+	char message[160];                   /* why a part failed, "" if none */
+} hb_fit_bias_result;
+
+/* HB_OK when the model-free results exist (a model that failed is reported
+ * in knee_status / core_status and message); else the model-free status. */
+int hb_fit_bias_analyse(const double *current, const double *L, const double *sigma, size_t n,
+			const hb_fit_options *opt, hb_fit_bias_result *out);
+int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *current, const double *L, const double *sigma,
+			   size_t n, const hb_fit_options *opt, hb_fit_bias_result *out);
+
+/* ------------------------------------------------------------------ */
+/* 5. Frequency model: (R + j w L) parallel C [parallel Rp]            */
+/* ------------------------------------------------------------------ */
+
+enum { HB_FREQ_L = 0, HB_FREQ_R, HB_FREQ_C, HB_FREQ_RP, HB_FREQ_NP };
+
+typedef struct hb_fit_freq_options {
+	bool parallel_r;    /* also fit a parallel loss resistance Rp */
+	double within;      /* flat-band tolerance, 0 -> 0.05 */
+} hb_fit_freq_options;
+
+typedef struct hb_fit_freq_result {
+	double param[HB_FREQ_NP], std_err[HB_FREQ_NP]; /* Rp = INFINITY when not fitted */
+	double cov[HB_FREQ_NP * HB_FREQ_NP];
+	size_t p, dof;
+	double rss;           /* relative: residuals are (Zmodel - Zmeas)/|Zmeas| */
+	double srf, srf_se;   /* 1/(2 pi sqrt(LC)), Hz */
+	double q_peak, q_peak_freq; /* model Q = Xs/Rs, max over the measured range */
+	double band_lo, band_hi;    /* measured: Ls within `within` of the lowest-frequency reading */
+	double model_band_hi;       /* model: Ls(f) = (1 + within) L */
+	unsigned undetermined;
+	int nlls_flags;
+} hb_fit_freq_result;
+
+/* Converts an |Z|, theta (rad) reading to series Ls, Rs. */
+void hb_fit_z_to_series(double f, double zmag, double theta, double *Ls, double *Rs);
+/* Model series-equivalent Ls, Rs and Q at f. */
+void hb_fit_freq_eval(const hb_fit_freq_result *res, double f, double *Ls, double *Rs, double *Q);
+/* f strictly increasing, > 0; n >= p + 1. */
+int hb_fit_freq(hb_fit_ws *ws, const double *f, const double *Ls, const double *Rs, size_t n,
+		const hb_fit_freq_options *opt, hb_fit_freq_result *out);
+
+/* ------------------------------------------------------------------ */
+/* 6. Geometry and expected inductance                                 */
+/* ------------------------------------------------------------------ */
+
+typedef struct hb_core_effective {
+	double C1;  /* sum l/A, 1/m */
+	double C2;  /* sum l/A^2, 1/m^3 */
+	double le, Ae, Ve; /* C1^2/C2, C1/C2, le Ae (IEC 60205) */
+} hb_core_effective;
+
+/* Rectangular-section toroid, IEC 60205 closed form. */
+int hb_fit_geom_toroid(double od, double id, double height, hb_core_effective *out);
+/* Series chain of uniform sections. */
+int hb_fit_geom_sections(const double *length, const double *area, size_t n, hb_core_effective *out);
+/* mu_e = mu_i / (1 + mu_i g / le). */
+double hb_fit_mu_gapped(double mu_i, double gap, double le);
+/* L = mu0 mu N^2 Ae / le, and L = AL N^2. NAN on bad input. */
+double hb_fit_expected_L_mu(double mu, double turns, double Ae, double le);
+double hb_fit_expected_L_al(double al, double turns);
+/* McLyman: F = 1 + (g/sqrt(Ae)) ln(2G/g); NAN on bad input. */
+double hb_fit_fringing_factor(double gap, double Ae, double window_height);
+/* Physical gap whose g/F(g) equals g_eff (brent root finder). */
+int hb_fit_gap_physical(double g_eff, double Ae, double window_height, double *g_phys);
+/* Nagaoka coefficient of a current sheet, exact via complete elliptic integrals. */
+int hb_fit_nagaoka(double diameter, double length, double *k);
+/* Single-layer air-core solenoid: exact (Nagaoka) and Wheeler 1928. Any output may be NULL. */
+int hb_fit_solenoid(double diameter, double length, double turns, double *L_exact, double *L_wheeler,
+		    double *nagaoka_k);
+/* Straight round wire, low frequency (Rosa / Grover): 2l[ln(2l/r) - 0.75] nH, l, r in cm. */
+double hb_fit_wire_inductance(double length, double radius);
+
+#endif

@@ -1,0 +1,723 @@
+/* fit/knee.c - bias-sweep results: model-free L0 and drop currents, the knee model, derived curves, the full analysis */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_fit.h>
+#include <gsl/gsl_interp.h>
+#include <gsl/gsl_min.h>
+#include <gsl/gsl_roots.h>
+#include <gsl/gsl_sort.h>
+#include <gsl/gsl_statistics_double.h>
+
+#include "fit_internal.h"
+
+static const double default_fractions[] = { 0.10, 0.20, 0.30 };
+
+void hb_fit_options_init(hb_fit_options *opt)
+{
+	memset(opt, 0, sizeof *opt);
+	opt->knee = true;
+	opt->fix_mu_i = NAN;
+	opt->fix_gap = NAN;
+	opt->fix_bsat = NAN;
+}
+
+static int fractions_of(const hb_fit_options *opt, const double **fr, size_t *n)
+{
+	if (!opt || opt->n_fractions == 0) {
+		*fr = default_fractions;
+		*n = 3;
+		return HB_OK;
+	}
+	if (opt->n_fractions > HB_FIT_MAX_FRACTIONS)
+		return HB_ERR_ARG;
+	for (size_t i = 0; i < opt->n_fractions; i++)
+		if (!(opt->fractions[i] > 0 && opt->fractions[i] < 1))
+			return HB_ERR_ARG;
+	*fr = opt->fractions;
+	*n = opt->n_fractions;
+	return HB_OK;
+}
+
+/* Reading noise from the scatter of each point about the chord of its
+ * neighbours; the median keeps the curvature of the knee region out. */
+static double estimate_noise(const double *I, const double *L, size_t n, double *tmp)
+{
+	size_t m = 0;
+	for (size_t i = 1; i + 1 < n; i++) {
+		double w = (I[i + 1] - I[i]) / (I[i + 1] - I[i - 1]);
+		double r = L[i] - (w * L[i - 1] + (1 - w) * L[i + 1]);
+		tmp[m++] = fabs(r) / sqrt(1 + w * w + (1 - w) * (1 - w));
+	}
+	if (m < 3)
+		return 0;
+	gsl_sort(tmp, 1, m);
+	return 1.4826 * gsl_stats_median_from_sorted_data(tmp, 1, m);
+}
+
+/* Pool-adjacent-violators: the weighted least-squares non-increasing
+ * curve, an unbiased monotone version of noisy readings. */
+static void pava_decreasing(const double *y, const double *w, size_t n, double *out, double *bw, size_t *bstart)
+{
+	size_t nb = 0;
+	for (size_t i = 0; i < n; i++) {
+		double wi = w ? w[i] : 1;
+		out[nb] = y[i];
+		bw[nb] = wi;
+		bstart[nb] = i;
+		nb++;
+		while (nb > 1 && out[nb - 2] < out[nb - 1]) {
+			double ws = bw[nb - 2] + bw[nb - 1];
+			out[nb - 2] = (out[nb - 2] * bw[nb - 2] + out[nb - 1] * bw[nb - 1]) / ws;
+			bw[nb - 2] = ws;
+			nb--;
+		}
+	}
+	/* expand blocks, back to front, since out[] holds block means */
+	for (size_t b = nb; b-- > 0;) {
+		size_t end = (b + 1 < nb) ? bstart[b + 1] : n;
+		double v = out[b];
+		for (size_t i = bstart[b]; i < end; i++)
+			out[i] = v;
+	}
+}
+
+typedef struct interp_ctx {
+	gsl_interp *interp;
+	const double *x, *y;
+	gsl_interp_accel *acc;
+	double target;
+} interp_ctx;
+
+static double interp_minus_target(double x, void *p)
+{
+	interp_ctx *c = p;
+	double v;
+	if (gsl_interp_eval_e(c->interp, c->x, c->y, x, c->acc, &v) != GSL_SUCCESS)
+		return NAN;
+	return v - c->target;
+}
+
+/* Root of fn in [a, b] (fn(a), fn(b) of opposite sign) by brent. */
+static int brent_root(double (*fn)(double, void *), void *ctx, double a, double b, double *root)
+{
+	gsl_function F = { fn, ctx };
+	gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
+	if (!s)
+		return HB_ERR_NOMEM;
+	int rc = HB_ERR_FIT;
+	if (gsl_root_fsolver_set(s, &F, a, b) != GSL_SUCCESS)
+		goto out;
+	for (int it = 0; it < 200; it++) {
+		if (gsl_root_fsolver_iterate(s) != GSL_SUCCESS)
+			goto out;
+		double lo = gsl_root_fsolver_x_lower(s), hi = gsl_root_fsolver_x_upper(s);
+		if (gsl_root_test_interval(lo, hi, 0, 1e-13) == GSL_SUCCESS) {
+			*root = gsl_root_fsolver_root(s);
+			rc = HB_OK;
+			goto out;
+		}
+	}
+out:
+	gsl_root_fsolver_free(s);
+	return rc;
+}
+
+int hb_fit_modelfree(const double *I, const double *L, const double *sigma, size_t n, const hb_fit_options *opt,
+		     hb_fit_modelfree_result *out)
+{
+	char err[160];
+	if (!out)
+		return HB_ERR_ARG;
+	memset(out, 0, sizeof *out);
+	int rc = hb__fit_check_sweep(I, L, sigma, n, err, sizeof err);
+	if (rc)
+		return rc;
+	const double *fr;
+	size_t nfr;
+	if (fractions_of(opt, &fr, &nfr))
+		return HB_ERR_ARG;
+	gsl_set_error_handler_off();
+
+	size_t m = n + 1;
+	double *mem = malloc(7 * m * sizeof(double) + m * sizeof(size_t));
+	if (!mem)
+		return HB_ERR_NOMEM;
+	double *x = mem, *y = mem + m, *w = mem + 2 * m, *mono = mem + 3 * m, *bw = mem + 4 * m,
+	       *sig = mem + 5 * m, *tmp = mem + 6 * m;
+	size_t *bstart = (size_t *)(mem + 7 * m);
+	gsl_interp *interp = NULL;
+	gsl_interp_accel *acc = NULL;
+
+	/* reading noise: per-point sigma, else the stated noise, else estimated */
+	double noise = opt ? opt->noise_sigma : 0;
+	if (!(noise > 0) && !sigma) {
+		noise = estimate_noise(I, L, n, tmp);
+		out->flags |= HB_MF_NOISE_ESTIMATED;
+	}
+	for (size_t i = 0; i < n; i++)
+		sig[i] = sigma ? sigma[i] : noise;
+	out->noise_sigma = sigma ? gsl_stats_mean(sigma, 1, n) : noise;
+
+	/* L0: straight line in |I| through the first points (the slope at zero
+	 * bias is finite for a Frohlich-like core, zero for tanh-like). */
+	size_t k = (opt && opt->l0_points) ? opt->l0_points : 4;
+	if (k > n)
+		k = n;
+	if (k < 2)
+		k = 2;
+	double c0, c1, cov00, cov01, cov11, sumsq;
+	if (sig[0] > 0) {
+		for (size_t i = 0; i < k; i++)
+			w[i] = 1 / (sig[i] * sig[i]);
+		rc = gsl_fit_wlinear(I, 1, w, 1, L, 1, k, &c0, &c1, &cov00, &cov01, &cov11, &sumsq);
+	} else {
+		rc = gsl_fit_linear(I, 1, L, 1, k, &c0, &c1, &cov00, &cov01, &cov11, &sumsq);
+	}
+	if (rc != GSL_SUCCESS || !isfinite(c0) || !(c0 > 0)) {
+		rc = HB_ERR_DATA;
+		goto out;
+	}
+	out->L0 = c0;
+	out->L0_std_err = k > 2 || sig[0] > 0 ? sqrt(cov00) : NAN;
+	out->L0_points = k;
+	out->I_max = I[n - 1];
+	out->L_at_max = L[n - 1];
+
+	/* the monotone curve, starting at (0, L0) */
+	size_t off = I[0] > 0 ? 1 : 0;
+	x[0] = 0;
+	y[0] = c0;
+	w[0] = 1;
+	for (size_t i = 0; i < n; i++) {
+		x[i + off] = I[i];
+		y[i + off] = L[i];
+		w[i + off] = sig[i] > 0 ? 1 / (sig[i] * sig[i]) : 1;
+	}
+	if (off)
+		w[0] = out->L0_std_err > 0 ? 1 / (out->L0_std_err * out->L0_std_err) : w[1];
+	m = n + off;
+	pava_decreasing(y, w, m, mono, bw, bstart);
+	for (size_t i = 0; i < m; i++) {
+		double s = i >= off ? sig[i - off] : out->L0_std_err;
+		if (s > 0 && y[i] - mono[i] < -3 * s)
+			out->flags |= HB_MF_NONMONOTONE;
+	}
+
+	interp = gsl_interp_alloc(gsl_interp_steffen, m);
+	acc = gsl_interp_accel_alloc();
+	if (!interp || !acc) {
+		rc = HB_ERR_NOMEM;
+		goto out;
+	}
+	if (gsl_interp_init(interp, x, mono, m) != GSL_SUCCESS) {
+		rc = HB_ERR_DATA;
+		goto out;
+	}
+	out->n_drops = nfr;
+	for (size_t d = 0; d < nfr; d++) {
+		hb_fit_drop *dr = &out->drop[d];
+		dr->fraction = fr[d];
+		dr->reached = false;
+		dr->current = NAN;
+		dr->std_err = NAN;
+		double target = (1 - fr[d]) * c0;
+		size_t j;
+		for (j = 0; j + 1 < m; j++)
+			if (mono[j] > target && mono[j + 1] <= target)
+				break;
+		if (j + 1 >= m)
+			continue;
+		interp_ctx ic = { interp, x, mono, acc, target };
+		double root;
+		if (mono[j + 1] == target)
+			root = x[j + 1];
+		else if (brent_root(interp_minus_target, &ic, x[j], x[j + 1], &root) != HB_OK)
+			continue;
+		dr->reached = true;
+		dr->current = root;
+		double slope = (mono[j + 1] - mono[j]) / (x[j + 1] - x[j]);
+		double t = (root - x[j]) / (x[j + 1] - x[j]);
+		double sj = j >= off ? sig[j - off] : out->L0_std_err;
+		double sj1 = sig[j + 1 - off];
+		double sl = (1 - t) * sj + t * sj1;
+		double sl0 = (1 - fr[d]) * out->L0_std_err;
+		dr->std_err = sqrt(sl * sl + sl0 * sl0) / fabs(slope);
+	}
+	rc = HB_OK;
+out:
+	gsl_interp_free(interp);
+	gsl_interp_accel_free(acc);
+	free(mem);
+	return rc;
+}
+
+/* ---------------- knee model ---------------- */
+
+/* 1/(1+u) and u/(1+u) for u = (I/Ik)^p without overflow. */
+static void knee_parts(double I, double Ik, double p, double *inv, double *frac, double *lnr)
+{
+	if (I <= 0) {
+		*inv = 1;
+		*frac = 0;
+		*lnr = 0;
+		return;
+	}
+	*lnr = log(I / Ik);
+	double lu = p * *lnr;
+	if (lu > 0) {
+		double e = exp(-lu);
+		*inv = e / (1 + e);
+		*frac = 1 / (1 + e);
+	} else {
+		double u = exp(lu);
+		*inv = 1 / (1 + u);
+		*frac = u / (1 + u);
+	}
+}
+
+double hb_fit_knee_eval(const double par[HB_KNEE_NP], double I)
+{
+	double inv, frac, lnr;
+	knee_parts(fabs(I), par[HB_KNEE_IK], par[HB_KNEE_P], &inv, &frac, &lnr);
+	return par[HB_KNEE_LF] + (par[HB_KNEE_L0] - par[HB_KNEE_LF]) * inv;
+}
+
+/* natural-parameter gradient of L and dL/dI */
+static void knee_grad(const double *par, double I, double g[HB_KNEE_NP], double *dLdI)
+{
+	double inv, frac, lnr;
+	double A = par[HB_KNEE_L0] - par[HB_KNEE_LF], Ik = par[HB_KNEE_IK], p = par[HB_KNEE_P];
+	knee_parts(I, Ik, p, &inv, &frac, &lnr);
+	g[HB_KNEE_L0] = inv;
+	g[HB_KNEE_LF] = 1 - inv;
+	g[HB_KNEE_IK] = A * (p / Ik) * inv * frac;
+	g[HB_KNEE_P] = -A * lnr * inv * frac;
+	if (dLdI)
+		*dLdI = I > 0 ? -A * (p / I) * inv * frac : (p == 1 ? -A / Ik : 0);
+}
+
+typedef struct knee_ctx {
+	const double *I;
+	size_t n;
+} knee_ctx;
+
+/* theta = (L0/s, Lf/s, ln Ik, ln p): logs keep Ik and p positive. */
+static int knee_model(const double *th, void *vctx, double *f, double *jac)
+{
+	const knee_ctx *c = vctx;
+	double Ik = exp(th[2]), p = exp(th[3]);
+	if (!isfinite(Ik) || !isfinite(p) || Ik <= 0 || p <= 0)
+		return -1;
+	double A = th[0] - th[1];
+	for (size_t i = 0; i < c->n; i++) {
+		double inv, frac, lnr;
+		knee_parts(c->I[i], Ik, p, &inv, &frac, &lnr);
+		f[i] = th[1] + A * inv;
+		if (jac) {
+			double *r = jac + 4 * i;
+			r[0] = inv;
+			r[1] = 1 - inv;
+			r[2] = A * p * inv * frac;
+			r[3] = -A * p * lnr * inv * frac;
+		}
+	}
+	return 0;
+}
+
+typedef struct knee_root_ctx {
+	const double *par;
+	double target;
+} knee_root_ctx;
+
+static double knee_minus_target(double I, void *p)
+{
+	knee_root_ctx *c = p;
+	return hb_fit_knee_eval(c->par, I) - c->target;
+}
+
+/*
+ * The knee: where y = L/L0 plotted against t = ln(I/Ik) bends most, on the
+ * high-L side. Against log bias (the usual saturation plot) the curve has
+ * an upper bend for every sharpness p; against linear bias the curvature of
+ * a p <= 2 curve is largest at zero bias and marks nothing. Scale-free: the
+ * knee does not move when the units of L or I change.
+ */
+typedef struct curv_ctx {
+	double a, p;
+} curv_ctx;
+
+static double neg_curvature_log(double t, void *vp)
+{
+	const curv_ctx *c = vp;
+	double e = exp(c->p * t), sg = e / (1 + e);
+	double yt = -c->a * c->p * sg * (1 - sg);
+	double ytt = -c->a * c->p * c->p * sg * (1 - sg) * (1 - 2 * sg);
+	return -fabs(ytt) / pow(1 + yt * yt, 1.5);
+}
+
+static void knee_point(const double *par, double *Iknee, double *Lknee)
+{
+	*Iknee = NAN;
+	*Lknee = NAN;
+	if (!(par[HB_KNEE_L0] > 0) || !(par[HB_KNEE_P] > 0) || !(par[HB_KNEE_L0] > par[HB_KNEE_LF]))
+		return;
+	curv_ctx c = { (par[HB_KNEE_L0] - par[HB_KNEE_LF]) / par[HB_KNEE_L0], par[HB_KNEE_P] };
+	/* the upper bend lies where (I/Ik)^p < 1, i.e. t < 0 */
+	enum { NG = 400 };
+	double t0 = -12 / c.p, t1 = 0, best = 0;
+	int kbest = -1;
+	for (int k = 0; k <= NG; k++) {
+		double v = neg_curvature_log(t0 + (t1 - t0) * k / NG, &c);
+		if (v < best) {
+			best = v;
+			kbest = k;
+		}
+	}
+	if (kbest <= 0 || kbest >= NG)
+		return;
+	double step = (t1 - t0) / NG, tm = t0 + step * kbest;
+	gsl_function F = { neg_curvature_log, &c };
+	gsl_min_fminimizer *s = gsl_min_fminimizer_alloc(gsl_min_fminimizer_brent);
+	if (!s)
+		return;
+	if (gsl_min_fminimizer_set(s, &F, tm, tm - step, tm + step) == GSL_SUCCESS) {
+		for (int it = 0; it < 100; it++) {
+			if (gsl_min_fminimizer_iterate(s) != GSL_SUCCESS)
+				break;
+			tm = gsl_min_fminimizer_x_minimum(s);
+			if (gsl_min_test_interval(gsl_min_fminimizer_x_lower(s), gsl_min_fminimizer_x_upper(s), 1e-12,
+						  0) == GSL_SUCCESS)
+				break;
+		}
+	}
+	gsl_min_fminimizer_free(s);
+	*Iknee = exp(tm) * par[HB_KNEE_IK];
+	*Lknee = hb_fit_knee_eval(par, *Iknee);
+}
+
+int hb_fit_knee(hb_fit_ws *ws, const double *I, const double *L, const double *sigma, size_t n,
+		const hb_fit_options *opt, hb_fit_knee_result *out)
+{
+	if (!ws || !out)
+		return HB_ERR_ARG;
+	memset(out, 0, sizeof *out);
+	ws->err[0] = 0;
+	int rc = hb__fit_check_sweep(I, L, sigma, n, ws->err, sizeof ws->err);
+	if (rc)
+		return rc;
+	if (n < HB_KNEE_NP + 1) {
+		hb__fit_seterr(ws, "too few points for the knee model: %zu (at least %d)", n, HB_KNEE_NP + 1);
+		return HB_ERR_DATA;
+	}
+	hb_fit_modelfree_result mf;
+	rc = hb_fit_modelfree(I, L, sigma, n, opt, &mf);
+	if (rc) {
+		hb__fit_seterr(ws, "model-free pass failed: %s", hb_status_name(rc));
+		return rc;
+	}
+	double *buf = hb__fit_scratch(ws, 2 * n);
+	if (!buf)
+		return HB_ERR_NOMEM;
+	double s = mf.L0, *ys = buf, *ss = sigma ? buf + n : NULL;
+	double lmin = L[0];
+	for (size_t i = 0; i < n; i++) {
+		ys[i] = L[i] / s;
+		if (ss)
+			ss[i] = sigma[i] / s;
+		if (L[i] < lmin)
+			lmin = L[i];
+	}
+	/* start: floor below the lowest reading, knee where the monotone
+	 * curve crosses halfway to it (or past the sweep if it never does) */
+	double lf0 = 0.5 * lmin / s;
+	double half = 0.5 * (1 + lf0), ik0 = 2 * I[n - 1];
+	for (size_t i = 0; i < n; i++) {
+		if (ys[i] < half) {
+			ik0 = I[i];
+			break;
+		}
+	}
+	if (!(ik0 > 0))
+		ik0 = I[n - 1];
+	double start[4] = { 1.0, lf0, log(ik0), log(2.0) };
+	knee_ctx kc = { I, n };
+	hb_fit_problem pr = { .n = n, .p = 4, .y = ys, .sigma = ss, .model = knee_model, .ctx = &kc };
+	hb_fit_nlls_result nr;
+	rc = hb_fit_nlls_run(ws->nlls, &pr, start, &nr);
+	out->nlls_flags = nr.flags;
+	if (rc) {
+		hb__fit_seterr(ws, "knee fit: %s", hb_fit_nlls_error(ws->nlls));
+		return rc;
+	}
+	double D[4] = { s, s, exp(nr.theta[2]), exp(nr.theta[3]) };
+	out->param[HB_KNEE_L0] = nr.theta[0] * s;
+	out->param[HB_KNEE_LF] = nr.theta[1] * s;
+	out->param[HB_KNEE_IK] = D[2];
+	out->param[HB_KNEE_P] = D[3];
+	for (int a = 0; a < 4; a++) {
+		for (int b = 0; b < 4; b++)
+			out->cov[a * 4 + b] = D[a] * D[b] * nr.cov[a * 4 + b];
+		out->std_err[a] = sqrt(out->cov[a * 4 + a]);
+	}
+	out->rss = nr.rss * s * s;
+	out->chi2 = nr.chi2 * (sigma ? 1 : s * s);
+	out->n = n;
+	out->dof = nr.dof;
+	out->residual_rms = sqrt(out->rss / (double)n);
+	out->undetermined = hb__fit_undetermined(out->param, out->cov, 4, NULL);
+
+	const double *fr = default_fractions;
+	size_t nfr = 3;
+	fractions_of(opt, &fr, &nfr);
+	out->n_drops = nfr;
+	const double *par = out->param;
+	for (size_t d = 0; d < nfr; d++) {
+		hb_fit_drop *dr = &out->drop[d];
+		dr->fraction = fr[d];
+		dr->reached = false;
+		dr->current = NAN;
+		dr->std_err = NAN;
+		knee_root_ctx kr = { par, (1 - fr[d]) * par[HB_KNEE_L0] };
+		if (!(kr.target > par[HB_KNEE_LF]) || !(par[HB_KNEE_L0] > par[HB_KNEE_LF]))
+			continue; /* the model never falls that far */
+		double hi = par[HB_KNEE_IK];
+		int k;
+		for (k = 0; k < 200 && knee_minus_target(hi, &kr) > 0; k++)
+			hi *= 2;
+		double root;
+		if (k == 200 || brent_root(knee_minus_target, &kr, 0, hi, &root) != HB_OK)
+			continue;
+		dr->current = root;
+		dr->reached = root <= I[n - 1];
+		/* implicit function: dI/dtheta = -(dL/dtheta - (1-f) dL0/dtheta) / (dL/dI) */
+		double g[4], dLdI;
+		knee_grad(par, root, g, &dLdI);
+		g[HB_KNEE_L0] -= 1 - fr[d];
+		if (dLdI != 0) {
+			double var = 0;
+			for (int a = 0; a < 4; a++)
+				for (int b = 0; b < 4; b++)
+					var += g[a] * g[b] * out->cov[a * 4 + b];
+			dr->std_err = sqrt(var) / fabs(dLdI);
+		}
+	}
+	knee_point(par, &out->knee_current, &out->knee_L);
+	return HB_OK;
+}
+
+/* ---------------- derived curves ---------------- */
+
+int hb_fit_curves(const double *I, const double *L, size_t n, double L0, const hb_core_geometry *geo, double *psi,
+		  double *B, double *H, double *W)
+{
+	if (!I || !L || n < 1)
+		return HB_ERR_ARG;
+	if ((B || H) && (!geo || !(geo->turns > 0) || !(geo->Ae > 0) || !(geo->le > 0)))
+		return HB_ERR_ARG;
+	for (size_t i = 0; i < n; i++)
+		if (!isfinite(I[i]) || !isfinite(L[i]) || I[i] < 0 || (i > 0 && !(I[i] > I[i - 1])))
+			return HB_ERR_DATA;
+	double l0 = isfinite(L0) ? L0 : L[0];
+	/* below the first point the reading is taken flat at L0 */
+	double ps = 0.5 * (l0 + L[0]) * I[0];
+	double w = 0.5 * L[0] * I[0] * I[0];
+	for (size_t i = 0; i < n; i++) {
+		if (i > 0) {
+			double dI = I[i] - I[i - 1];
+			ps += 0.5 * (L[i] + L[i - 1]) * dI;
+			w += 0.5 * (I[i] * L[i] + I[i - 1] * L[i - 1]) * dI;
+		}
+		if (psi)
+			psi[i] = ps;
+		if (W)
+			W[i] = w;
+		if (B)
+			B[i] = ps / (geo->turns * geo->Ae);
+		if (H)
+			H[i] = geo->turns * I[i] / geo->le;
+	}
+	return HB_OK;
+}
+
+/* ---------------- the whole analysis of one sweep ---------------- */
+
+static double lerp_at(const double *x, const double *y, size_t n, double at)
+{
+	if (!(at >= 0) || at > x[n - 1])
+		return NAN;
+	if (at <= x[0])
+		return x[0] > 0 ? y[0] * at / x[0] : y[0];
+	for (size_t i = 1; i < n; i++)
+		if (at <= x[i])
+			return y[i - 1] + (y[i] - y[i - 1]) * (at - x[i - 1]) / (x[i] - x[i - 1]);
+	return y[n - 1];
+}
+
+static void drop_values(hb_fit_values *v, const char *prefix, const hb_fit_drop *d, size_t nd)
+{
+	char name[40];
+	for (size_t i = 0; i < nd; i++) {
+		snprintf(name, sizeof name, "%sI_drop%g", prefix, d[i].fraction * 100);
+		hb__fit_value_add(v, name, d[i].current, d[i].std_err, "A");
+	}
+}
+
+static void set_headline(hb_fit_bias_result *out, const char *model, size_t p, const char *const *names,
+			 const double *cov, double rss, size_t dof)
+{
+	snprintf(out->model, sizeof out->model, "%s", model);
+	out->p = p;
+	out->dof = dof;
+	out->rss = rss;
+	for (size_t a = 0; a < p; a++) {
+		snprintf(out->param_names[a], sizeof out->param_names[a], "%s", names[a]);
+		for (size_t b = 0; b < p; b++)
+			out->cov[a * p + b] = cov[a * p + b];
+	}
+}
+
+int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, const double *sigma, size_t n,
+			   const hb_fit_options *opt_in, hb_fit_bias_result *out)
+{
+	if (!ws || !out)
+		return HB_ERR_ARG;
+	memset(out, 0, sizeof *out);
+	hb_fit_options defaults;
+	hb_fit_options_init(&defaults);
+	const hb_fit_options *opt = opt_in ? opt_in : &defaults;
+	snprintf(out->code_version, sizeof out->code_version, "%s", HB_FIT_CODE_VERSION);
+	snprintf(out->model, sizeof out->model, "model-free");
+	out->knee_status = HB_ERR_UNSUPPORTED;
+	out->core_status = HB_ERR_UNSUPPORTED;
+	out->rated_current = out->psi_rated = out->B_rated = out->H_rated = out->W_rated = NAN;
+
+	int rc = hb__fit_check_sweep(I, L, sigma, n, out->message, sizeof out->message);
+	if (rc)
+		return rc;
+	rc = hb_fit_modelfree(I, L, sigma, n, opt, &out->modelfree);
+	if (rc) {
+		snprintf(out->message, sizeof out->message, "model-free results failed: %s", hb_status_name(rc));
+		return rc;
+	}
+	hb_fit_values *v = &out->values;
+	const hb_fit_modelfree_result *mf = &out->modelfree;
+	hb__fit_value_add(v, "L0", mf->L0, mf->L0_std_err, "H");
+	hb__fit_value_add(v, "noise_sigma", mf->noise_sigma, NAN, "H");
+	drop_values(v, "", mf->drop, mf->n_drops);
+	hb__fit_value_add(v, "I_max", mf->I_max, NAN, "A");
+	hb__fit_value_add(v, "L_at_max", mf->L_at_max, NAN, "H");
+
+	/* energy curves from the data at the rated current */
+	const hb_core_geometry *geo = &opt->geo;
+	bool have_geo = geo->turns > 0 && geo->Ae > 0 && geo->le > 0;
+	double ir = opt->rated_current > 0 ? opt->rated_current : I[n - 1];
+	out->rated_current = ir;
+	double *buf = hb__fit_scratch(ws, 2 * n);
+	if (!buf)
+		return HB_ERR_NOMEM;
+	if (hb_fit_curves(I, L, n, mf->L0, NULL, buf, NULL, NULL, buf + n) == HB_OK) {
+		out->psi_rated = lerp_at(I, buf, n, ir);
+		out->W_rated = lerp_at(I, buf + n, n, ir);
+		if (have_geo) {
+			out->B_rated = out->psi_rated / (geo->turns * geo->Ae);
+			out->H_rated = geo->turns * ir / geo->le;
+		}
+	}
+	hb__fit_value_add(v, "rated_current", ir, NAN, "A");
+	hb__fit_value_add(v, "psi_rated", out->psi_rated, NAN, "Wb");
+	hb__fit_value_add(v, "W_rated", out->W_rated, NAN, "J");
+	if (have_geo) {
+		hb__fit_value_add(v, "B_rated", out->B_rated, NAN, "T");
+		hb__fit_value_add(v, "H_rated", out->H_rated, NAN, "A/m");
+	}
+
+	if (opt->knee) {
+		hb_fit_knee_result *k = &out->knee;
+		out->knee_status = hb_fit_knee(ws, I, L, sigma, n, opt, k);
+		if (out->knee_status == HB_OK) {
+			static const char *const names[] = { "L0", "Lf", "Ik", "p" };
+			static const char *const units[] = { "H", "H", "A", "" };
+			char name[40];
+			for (int j = 0; j < 4; j++) {
+				snprintf(name, sizeof name, "knee.%s", names[j]);
+				hb__fit_value_add(v, name, k->param[j], k->std_err[j], units[j]);
+			}
+			drop_values(v, "knee.", k->drop, k->n_drops);
+			hb__fit_value_add(v, "knee.I_knee", k->knee_current, NAN, "A");
+			hb__fit_value_add(v, "knee.L_knee", k->knee_L, NAN, "H");
+			hb__fit_value_add(v, "knee.rss", k->rss, NAN, "H2");
+			hb__fit_value_add(v, "knee.dof", (double)k->dof, NAN, "");
+			set_headline(out, "knee", 4, names, k->cov, k->rss, k->dof);
+		} else {
+			snprintf(out->message, sizeof out->message, "knee: %s", hb_fit_ws_error(ws));
+		}
+	}
+
+	if (have_geo) {
+		hb_fit_core_result *c = &out->core;
+		out->core_status = hb_fit_core(ws, I, L, sigma, n, opt, c);
+		if (out->core_status == HB_OK) {
+			const hb_fit_core_law_result *b = &c->law[c->best];
+			static const char *const names[] = { "mu_i", "gap", "bsat" };
+			static const char *const units[] = { "", "m", "T" };
+			char name[48];
+			for (int j = 0; j < 3; j++) {
+				snprintf(name, sizeof name, "core.%s", names[j]);
+				hb__fit_value_add(v, name, b->param[j], b->std_err[j], units[j]);
+			}
+			hb__fit_value_add(v, "core.mu_e", c->mu_e, c->mu_e_se, "");
+			hb__fit_value_add(v, "core.AL", c->AL, c->AL_se, "H");
+			hb__fit_value_add(v, "core.gap_implied", c->gap_implied, c->gap_implied_se, "m");
+			hb__fit_value_add(v, "core.gap_physical", c->gap_physical, c->gap_physical_se, "m");
+			hb__fit_value_add(v, "core.fringing_factor", c->fringing_factor, NAN, "");
+			hb__fit_value_add(v, "core.B_peak", c->B_peak, c->B_peak_se, "T");
+			hb__fit_value_add(v, "core.psi_rated", c->psi_rated, NAN, "Wb");
+			hb__fit_value_add(v, "core.W_rated", c->W_rated, NAN, "J");
+			hb__fit_value_add(v, "core.noise_ratio", c->noise_ratio, NAN, "");
+			hb__fit_value_add(v, "core.flags", (double)c->flags, NAN, "");
+			hb__fit_value_add(v, "core.undetermined", (double)b->undetermined, NAN, "");
+			for (int l = 0; l < HB_CORE_NLAWS; l++) {
+				if (c->law[l].status != HB_OK)
+					continue;
+				snprintf(name, sizeof name, "core.aicc.%s", hb_core_law_name((hb_core_law)l));
+				hb__fit_value_add(v, name, c->law[l].aicc, NAN, "");
+			}
+			char model[48];
+			snprintf(model, sizeof model, "core:%s", hb_core_law_name(c->best));
+			/* the headline carries the free parameters only */
+			const char *fn[3];
+			double cov[9];
+			size_t p = 0, idx[3];
+			for (int j = 0; j < 3; j++)
+				if (!b->fixed[j]) {
+					idx[p] = (size_t)j;
+					fn[p++] = names[j];
+				}
+			for (size_t a = 0; a < p; a++)
+				for (size_t bb = 0; bb < p; bb++)
+					cov[a * p + bb] = b->cov[idx[a] * 3 + idx[bb]];
+			if (p > 0)
+				set_headline(out, model, p, fn, cov, b->rss, b->dof);
+		} else {
+			size_t len = strlen(out->message);
+			snprintf(out->message + len, sizeof out->message - len, "%score: %s", len ? "; " : "",
+				 hb_fit_ws_error(ws));
+		}
+	}
+	return HB_OK;
+}
+
+int hb_fit_bias_analyse(const double *I, const double *L, const double *sigma, size_t n, const hb_fit_options *opt,
+			hb_fit_bias_result *out)
+{
+	hb_fit_ws *ws = hb_fit_ws_new();
+	if (!ws)
+		return HB_ERR_NOMEM;
+	int rc = hb_fit_bias_analyse_ws(ws, I, L, sigma, n, opt, out);
+	hb_fit_ws_free(ws);
+	return rc;
+}

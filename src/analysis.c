@@ -1,0 +1,562 @@
+/* src/analysis.c - from stored points to stored fit values and verdicts; the meeting point of db/ and fit/ */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "analysis.h"
+#include "cli.h"
+
+void hb_analysis_options_init(hb_analysis_options *opt)
+{
+	memset(opt, 0, sizeof *opt);
+	opt->knee = true;
+	opt->core = true;
+	opt->fix_mu_i = opt->fix_gap = opt->fix_bsat = NAN;
+	opt->store = true;
+}
+
+int hb_analysis_bias_arrays(const hb_db_point *points, size_t n, double **current, double **inductance,
+			    size_t *count)
+{
+	double *I = malloc(sizeof *I * (n ? n : 1));
+	double *L = malloc(sizeof *L * (n ? n : 1));
+	if (!I || !L) {
+		free(I);
+		free(L);
+		return HB_ERR_NOMEM;
+	}
+	size_t m = 0;
+	for (size_t i = 0; i < n; i++) {
+		const hb_db_point *p = &points[i];
+		if (p->direction != HB_DB_DIR_UP || !isfinite(p->primary) || p->primary <= 0)
+			continue;
+		double amps = isfinite(p->bias_meas_a) ? p->bias_meas_a : p->bias_set_a;
+		if (!isfinite(amps))
+			continue;
+		/* At zero the supply's read-back is offset noise around zero. */
+		if (amps < 0)
+			amps = 0;
+		if (m > 0 && amps <= I[m - 1])
+			continue;
+		I[m] = amps;
+		L[m] = p->primary;
+		m++;
+	}
+	*current = I;
+	*inductance = L;
+	*count = m;
+	return HB_OK;
+}
+
+/* Winding resistance from the supply's read-back: slope of V against I over
+ * the low-current points, so a fixed offset of the read-back drops out.
+ * Two-wire: leads and fixture contacts are included. */
+static double dcr_from_points(const hb_db_point *pts, size_t n, double l_top_current)
+{
+	double sx = 0, sy = 0, sxx = 0, sxy = 0;
+	size_t m = 0;
+	for (size_t i = 0; i < n; i++) {
+		double I = pts[i].bias_meas_a, V = pts[i].supply_v;
+		if (pts[i].direction != HB_DB_DIR_UP || !isfinite(I) || !isfinite(V))
+			continue;
+		/* Low current keeps self-heating out of the estimate. */
+		if (I > 0.35 * l_top_current)
+			continue;
+		sx += I;
+		sy += V;
+		sxx += I * I;
+		sxy += I * V;
+		m++;
+	}
+	if (m < 2)
+		return NAN;
+	double den = m * sxx - sx * sx;
+	if (den <= 0)
+		return NAN;
+	double r = (m * sxy - sx * sy) / den;
+	return r > 0 ? r : NAN;
+}
+
+static double interp_at(const double *x, const double *y, size_t n, double at)
+{
+	if (n < 2 || at < x[0] || at > x[n - 1])
+		return NAN;
+	for (size_t i = 1; i < n; i++)
+		if (at <= x[i])
+			return y[i - 1] + (y[i] - y[i - 1]) * (at - x[i - 1]) / (x[i] - x[i - 1]);
+	return NAN;
+}
+
+static void add_check(hb_analysis_summary *s, const char *name, const char *unit, hb_check c, const char *note)
+{
+	if (s->n_checks >= HB_ANALYSIS_MAX_CHECKS)
+		return;
+	hb_analysis_check *k = &s->checks[s->n_checks++];
+	snprintf(k->name, sizeof k->name, "%s", name);
+	snprintf(k->unit, sizeof k->unit, "%s", unit);
+	k->check = c;
+	snprintf(k->note, sizeof k->note, "%s", note ? note : "");
+}
+
+static hb_check untested(void)
+{
+	return hb_verdict_limits(NAN, NAN, NAN);
+}
+
+static void judge_bias(hb_analysis_summary *s, const hb_db_part *part, const hb_db_sweep *sw, const double *I,
+		       const double *L, size_t n)
+{
+	const hb_fit_modelfree_result *mf = &s->bias.modelfree;
+	/* L0 counts only when measured at the spec's test frequency. */
+	bool at_spec_freq = !isfinite(part->test_freq_hz) ||
+			    (isfinite(sw->test_freq_hz) && fabs(sw->test_freq_hz / part->test_freq_hz - 1) < 0.01);
+	if (isfinite(part->nominal_h) && isfinite(part->tolerance)) {
+		if (at_spec_freq && s->fit_status == HB_OK)
+			add_check(s, "L0", "H", hb_verdict_tolerance(mf->L0, part->nominal_h, part->tolerance),
+				  "zero-bias inductance within the nominal tolerance");
+		else
+			add_check(s, "L0", "H", untested(),
+				  at_spec_freq ? "no zero-bias value" : "sweep not at the spec's test frequency");
+	}
+	if (isfinite(part->sat_current_a) && isfinite(part->sat_drop) && s->fit_status == HB_OK) {
+		double l_at = interp_at(I, L, n, part->sat_current_a);
+		if (isfinite(l_at))
+			add_check(s, "Lsat", "H", hb_verdict_min(l_at, (1 - part->sat_drop) * mf->L0),
+				  "L at the saturation-spec current at least (1 - drop) L0");
+		else
+			add_check(s, "Lsat", "H", untested(), "sweep did not reach the saturation-spec current");
+	}
+	if (isfinite(part->dcr_max_ohm)) {
+		if (isfinite(s->dcr_ohm))
+			add_check(s, "DCR", "ohm", hb_verdict_max(s->dcr_ohm, part->dcr_max_ohm),
+				  "two-wire from the supply's V/I at low current, leads and contacts included");
+		else
+			add_check(s, "DCR", "ohm", untested(), "no voltage read-back at low current");
+	}
+}
+
+static void covariance_json(char *buf, size_t cap, const double *cov, size_t p)
+{
+	size_t len = 0;
+	len += (size_t)snprintf(buf + len, cap - len, "[");
+	for (size_t i = 0; i < p && len < cap; i++) {
+		len += (size_t)snprintf(buf + len, cap - len, "%s[", i ? "," : "");
+		for (size_t j = 0; j < p && len < cap; j++)
+			len += (size_t)snprintf(buf + len, cap - len, "%s%.10g", j ? "," : "", cov[i * p + j]);
+		if (len < cap)
+			len += (size_t)snprintf(buf + len, cap - len, "]");
+	}
+	if (len < cap)
+		snprintf(buf + len, cap - len, "]");
+}
+
+static void fit_value(hb_db_fit *f, const char *name, double value, double se, const char *unit)
+{
+	if (f->n_values >= HB_DB_FIT_MAX_VALUES || !isfinite(value))
+		return;
+	hb_db_fit_value *v = &f->values[f->n_values++];
+	snprintf(v->name, sizeof v->name, "%s", name);
+	v->value = value;
+	v->std_error = se;
+	snprintf(v->unit, sizeof v->unit, "%s", unit);
+}
+
+static int store_results(hb_db *db, hb_analysis_summary *s)
+{
+	hb_db_fit *f = calloc(1, sizeof *f);
+	if (!f)
+		return HB_ERR_NOMEM;
+	hb_db_fit_init(f);
+	f->sweep_id = s->sweep_id;
+	snprintf(f->code_version, sizeof f->code_version, "%s", HB_FIT_CODE_VERSION);
+	if (s->kind == HB_DB_SWEEP_BIAS) {
+		const hb_fit_bias_result *b = &s->bias;
+		snprintf(f->model, sizeof f->model, "%s", b->model);
+		if (b->core_status == HB_OK)
+			snprintf(f->law, sizeof f->law, "%s", hb_core_law_name(b->core.best));
+		f->rss = b->rss;
+		f->dof = (int)b->dof;
+		if (b->core_status == HB_OK)
+			f->aic = b->core.law[b->core.best].aicc;
+		covariance_json(f->covariance_json, sizeof f->covariance_json, b->cov, b->p);
+		for (size_t i = 0; i < b->values.count; i++)
+			fit_value(f, b->values.v[i].name, b->values.v[i].value, b->values.v[i].std_err, b->values.v[i].unit);
+		/* The names the history query picks, whichever model gave them. */
+		if (b->core_status == HB_OK) {
+			fit_value(f, HB_DB_FV_MU_E, b->core.mu_e, b->core.mu_e_se, "");
+			double gap = isfinite(b->core.gap_physical) ? b->core.gap_physical : b->core.gap_implied;
+			double gap_se = isfinite(b->core.gap_physical) ? b->core.gap_physical_se : b->core.gap_implied_se;
+			fit_value(f, HB_DB_FV_GAP, gap, gap_se, "m");
+		}
+		fit_value(f, "DCR", s->dcr_ohm, NAN, "ohm");
+		size_t len = 0;
+		if (b->core_status == HB_OK && (b->core.flags & HB_CORE_NO_LAW_FITS))
+			len += (size_t)snprintf(f->flags + len, sizeof f->flags - len, "no-law-fits ");
+		if (b->core_status == HB_OK && (b->core.flags & HB_CORE_KNEE_UNREACHED))
+			len += (size_t)snprintf(f->flags + len, sizeof f->flags - len, "knee-unreached ");
+		if (b->modelfree.flags & HB_MF_NONMONOTONE)
+			snprintf(f->flags + len, sizeof f->flags - len, "non-monotone");
+	} else {
+		const hb_fit_freq_result *q = &s->freq;
+		snprintf(f->model, sizeof f->model, "series-LR-parallel-C%s", isfinite(q->param[HB_FREQ_RP]) ? "-Rp" : "");
+		f->rss = q->rss;
+		f->dof = (int)q->dof;
+		covariance_json(f->covariance_json, sizeof f->covariance_json, q->cov, q->p);
+		fit_value(f, "L", q->param[HB_FREQ_L], q->std_err[HB_FREQ_L], "H");
+		fit_value(f, "R", q->param[HB_FREQ_R], q->std_err[HB_FREQ_R], "ohm");
+		fit_value(f, "C", q->param[HB_FREQ_C], q->std_err[HB_FREQ_C], "F");
+		fit_value(f, "Rp", q->param[HB_FREQ_RP], q->std_err[HB_FREQ_RP], "ohm");
+		fit_value(f, "srf", q->srf, q->srf_se, "Hz");
+		fit_value(f, "q_peak", q->q_peak, NAN, "");
+		fit_value(f, "q_peak_freq", q->q_peak_freq, NAN, "Hz");
+		fit_value(f, "band_lo", q->band_lo, NAN, "Hz");
+		fit_value(f, "band_hi", q->band_hi, NAN, "Hz");
+		fit_value(f, "model_band_hi", q->model_band_hi, NAN, "Hz");
+	}
+	int rc = hb_db_fit_put(db, f);
+	if (rc == HB_OK)
+		s->fit_id = f->id;
+	else
+		snprintf(s->message, sizeof s->message, "could not store the fit: %s", hb_db_errmsg(db));
+	free(f);
+	if (rc != HB_OK)
+		return rc;
+	for (size_t i = 0; i < s->n_checks; i++) {
+		hb_db_verdict v;
+		hb_db_verdict_init(&v);
+		v.sweep_id = s->sweep_id;
+		const hb_analysis_check *k = &s->checks[i];
+		snprintf(v.check_name, sizeof v.check_name, "%s", k->name);
+		v.measured = k->check.measured;
+		v.limit_low = k->check.low;
+		v.limit_high = k->check.high;
+		v.margin = k->check.margin_frac;
+		v.outcome = k->check.outcome == HB_OUTCOME_PASS ? HB_DB_PASS :
+			    k->check.outcome == HB_OUTCOME_FAIL ? HB_DB_FAIL : HB_DB_NOT_TESTED;
+		snprintf(v.note, sizeof v.note, "%s", k->note);
+		rc = hb_db_verdict_put(db, &v);
+		if (rc != HB_OK) {
+			snprintf(s->message, sizeof s->message, "could not store verdict %s: %s", k->name, hb_db_errmsg(db));
+			return rc;
+		}
+	}
+	return HB_OK;
+}
+
+static int analyse_frequency(hb_analysis_summary *s, const hb_db_sweep *sw, const hb_db_point *pts, size_t n)
+{
+	double *f = malloc(sizeof *f * (n ? n : 1));
+	double *Ls = malloc(sizeof *Ls * (n ? n : 1));
+	double *Rs = malloc(sizeof *Rs * (n ? n : 1));
+	int rc = HB_ERR_NOMEM;
+	if (!f || !Ls || !Rs)
+		goto out;
+	bool zth = strcmp(sw->measured_pair, "Z-theta") == 0;
+	bool lr = strncmp(sw->measured_pair, "Ls-Rs", 5) == 0;
+	if (!zth && !lr) {
+		rc = HB_ERR_DATA;
+		snprintf(s->message, sizeof s->message,
+			 "the frequency model needs series L-R or Z-theta readings, this sweep has %s", sw->measured_pair);
+		goto out;
+	}
+	size_t m = 0;
+	for (size_t i = 0; i < n; i++) {
+		if (!isfinite(pts[i].primary) || !isfinite(pts[i].secondary) || !(pts[i].freq_hz > 0))
+			continue;
+		if (m > 0 && pts[i].freq_hz <= f[m - 1])
+			continue;
+		f[m] = pts[i].freq_hz;
+		if (zth)
+			hb_fit_z_to_series(f[m], pts[i].primary, pts[i].secondary * M_PI / 180.0, &Ls[m], &Rs[m]);
+		else {
+			Ls[m] = pts[i].primary;
+			Rs[m] = pts[i].secondary;
+		}
+		m++;
+	}
+	hb_fit_ws *ws = hb_fit_ws_new();
+	if (!ws)
+		goto out;
+	hb_fit_freq_options fo = { .parallel_r = false, .within = 0.05 };
+	rc = hb_fit_freq(ws, f, Ls, Rs, m, &fo, &s->freq);
+	if (rc != HB_OK)
+		snprintf(s->message, sizeof s->message, "frequency fit: %s", hb_fit_ws_error(ws));
+	hb_fit_ws_free(ws);
+out:
+	free(f);
+	free(Ls);
+	free(Rs);
+	return rc;
+}
+
+int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *opt, hb_analysis_summary *s)
+{
+	memset(s, 0, sizeof *s);
+	s->sweep_id = sweep_id;
+	s->dcr_ohm = NAN;
+	s->overall = HB_OVERALL_INCOMPLETE;
+	hb_db_sweep sw;
+	hb_db_part part;
+	hb_db_point *pts = NULL;
+	size_t n = 0;
+	double *I = NULL, *L = NULL, *sigma = NULL;
+	int rc = hb_db_sweep_get(db, sweep_id, &sw);
+	if (rc != HB_OK) {
+		snprintf(s->message, sizeof s->message, "%s", hb_db_errmsg(db));
+		return rc;
+	}
+	s->kind = sw.kind;
+	hb_db_part_init(&part);
+	if (sw.part_id > 0 && hb_db_part_get_id(db, sw.part_id, &part) != HB_OK)
+		hb_db_part_init(&part);
+	rc = hb_db_points_get(db, sweep_id, &pts, &n);
+	if (rc != HB_OK) {
+		snprintf(s->message, sizeof s->message, "%s", hb_db_errmsg(db));
+		return rc;
+	}
+	if (sw.kind == HB_DB_SWEEP_FREQUENCY) {
+		s->fit_status = analyse_frequency(s, &sw, pts, n);
+		s->ran = true;
+		goto store;
+	}
+	size_t m = 0;
+	rc = hb_analysis_bias_arrays(pts, n, &I, &L, &m);
+	if (rc != HB_OK)
+		goto out;
+	if (opt->noise_rel > 0) {
+		sigma = malloc(sizeof *sigma * (m ? m : 1));
+		if (!sigma) {
+			rc = HB_ERR_NOMEM;
+			goto out;
+		}
+		for (size_t i = 0; i < m; i++)
+			sigma[i] = opt->noise_rel * L[i];
+	}
+	hb_fit_options fo;
+	hb_fit_options_init(&fo);
+	if (opt->n_drops > 0) {
+		fo.n_fractions = opt->n_drops;
+		memcpy(fo.fractions, opt->drops, sizeof fo.fractions[0] * opt->n_drops);
+	}
+	if (opt->noise_rel > 0 && m > 0)
+		fo.noise_sigma = opt->noise_rel * L[0];
+	if (isfinite(part.rated_current_a) && part.rated_current_a > 0)
+		fo.rated_current = part.rated_current_a;
+	fo.knee = opt->knee;
+	if (opt->core && part.turns > 0 && part.ae_m2 > 0 && part.le_m > 0) {
+		fo.geo.turns = part.turns;
+		fo.geo.Ae = part.ae_m2;
+		fo.geo.le = part.le_m;
+		fo.geo.window_height = isfinite(part.window_m) ? part.window_m : 0;
+	}
+	fo.fix_mu_i = opt->fix_mu_i;
+	fo.fix_gap = opt->fix_gap;
+	fo.fix_bsat = opt->fix_bsat;
+	double top = 0;
+	for (size_t i = 0; i < n; i++)
+		if (isfinite(pts[i].bias_meas_a) && pts[i].bias_meas_a > top)
+			top = pts[i].bias_meas_a;
+	s->dcr_ohm = dcr_from_points(pts, n, top);
+	s->fit_status = hb_fit_bias_analyse(I, L, sigma, m, &fo, &s->bias);
+	s->ran = true;
+	if (s->fit_status != HB_OK && !s->message[0])
+		snprintf(s->message, sizeof s->message, "fit: %s", s->bias.message[0] ? s->bias.message :
+			 hb_status_name(s->fit_status));
+	judge_bias(s, &part, &sw, I, L, m);
+	{
+		hb_check checks[HB_ANALYSIS_MAX_CHECKS];
+		for (size_t i = 0; i < s->n_checks; i++)
+			checks[i] = s->checks[i].check;
+		s->overall = hb_verdict_overall(checks, s->n_checks);
+	}
+store:
+	rc = HB_OK;
+	if (opt->store && (s->fit_status == HB_OK || s->n_checks > 0))
+		rc = store_results(db, s);
+	if (rc == HB_OK)
+		rc = s->fit_status;
+out:
+	free(I);
+	free(L);
+	free(sigma);
+	hb_db_points_free(pts);
+	return rc;
+}
+
+static void print_value(FILE *out, const char *label, double v, double se, const char *unit)
+{
+	char a[40], b[40];
+	if (!isfinite(v)) {
+		fprintf(out, "  %-28s -\n", label);
+		return;
+	}
+	hb_format_si(a, sizeof a, v, unit, 5);
+	if (isfinite(se) && se > 0)
+		fprintf(out, "  %-28s %s  +- %s\n", label, a, hb_format_si(b, sizeof b, se, unit, 2));
+	else
+		fprintf(out, "  %-28s %s\n", label, a);
+}
+
+void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
+{
+	if (!s->ran)
+		return;
+	fprintf(out, "fit of sweep %lld (stored as fit %lld, %s):\n", (long long)s->sweep_id, (long long)s->fit_id,
+		HB_FIT_CODE_VERSION);
+	if (s->kind == HB_DB_SWEEP_FREQUENCY) {
+		const hb_fit_freq_result *q = &s->freq;
+		if (s->fit_status != HB_OK) {
+			fprintf(out, "  %s\n", s->message);
+			return;
+		}
+		print_value(out, "L (low-frequency)", q->param[HB_FREQ_L], q->std_err[HB_FREQ_L], "H");
+		print_value(out, "R (series)", q->param[HB_FREQ_R], q->std_err[HB_FREQ_R], "ohm");
+		print_value(out, "C (parallel)", q->param[HB_FREQ_C], q->std_err[HB_FREQ_C], "F");
+		print_value(out, "self-resonance", q->srf, q->srf_se, "Hz");
+		print_value(out, "Q peak", q->q_peak, NAN, "");
+		print_value(out, "  at", q->q_peak_freq, NAN, "Hz");
+		print_value(out, "L within 5 % from", q->band_lo, NAN, "Hz");
+		print_value(out, "  up to", q->band_hi, NAN, "Hz");
+		return;
+	}
+	const hb_fit_bias_result *b = &s->bias;
+	const hb_fit_modelfree_result *mf = &b->modelfree;
+	fprintf(out, "  (%s)\n", HB_FIT_INCREMENTAL_NOTE);
+	if (s->fit_status != HB_OK && !isfinite(mf->L0)) {
+		fprintf(out, "  %s\n", s->message);
+		return;
+	}
+	print_value(out, "L0 (zero bias)", mf->L0, mf->L0_std_err, "H");
+	for (size_t i = 0; i < mf->n_drops; i++) {
+		char label[48];
+		snprintf(label, sizeof label, "current at -%g %% L", mf->drop[i].fraction * 100);
+		if (mf->drop[i].reached)
+			print_value(out, label, mf->drop[i].current, mf->drop[i].std_err, "A");
+		else
+			fprintf(out, "  %-28s not reached (sweep stopped at %.4g A)\n", label, mf->I_max);
+	}
+	if (b->knee_status == HB_OK) {
+		print_value(out, "knee model: knee current", b->knee.knee_current, NAN, "A");
+		print_value(out, "knee model: floor Lf", b->knee.param[HB_KNEE_LF], b->knee.std_err[HB_KNEE_LF], "H");
+	}
+	if (b->core_status == HB_OK) {
+		const hb_fit_core_result *c = &b->core;
+		const hb_fit_core_law_result *lr = &c->law[c->best];
+		fprintf(out, "  core model, law chosen by AICc: %s (", hb_core_law_name(c->best));
+		for (int l = 0; l < HB_CORE_NLAWS; l++)
+			if (c->law[l].status == HB_OK)
+				fprintf(out, "%s%s %.1f", l ? ", " : "", hb_core_law_name((hb_core_law)l), c->law[l].aicc);
+		fprintf(out, ")\n");
+		print_value(out, "mu_i (material)", lr->param[HB_CORE_MU_I], lr->std_err[HB_CORE_MU_I], "");
+		print_value(out, "gap, magnetic (effective)", lr->param[HB_CORE_GAP], lr->std_err[HB_CORE_GAP], "m");
+		print_value(out, "gap, physical (fringing)", c->gap_physical, c->gap_physical_se, "m");
+		print_value(out, "Bsat", lr->param[HB_CORE_BSAT], lr->std_err[HB_CORE_BSAT], "T");
+		print_value(out, "mu_e", c->mu_e, c->mu_e_se, "");
+		print_value(out, "AL", c->AL, c->AL_se, "H");
+		print_value(out, "B peak at rated current", c->B_peak, c->B_peak_se, "T");
+		if (lr->undetermined) {
+			fprintf(out, "  not determined by these data:");
+			static const char *names[] = { "mu_i", "gap", "Bsat" };
+			for (int j = 0; j < HB_CORE_NP; j++)
+				if (lr->undetermined & (1u << j))
+					fprintf(out, " %s", names[j]);
+			fprintf(out, " (the sweep may not reach the knee; mu_e and AL still hold)\n");
+		}
+		if (c->flags & HB_CORE_NO_LAW_FITS)
+			fprintf(out, "  residuals are %.1f x the reading noise: no saturation law describes this part well;\n"
+				     "  rely on the model-free values above\n", c->noise_ratio);
+	}
+	print_value(out, "stored energy at rated", b->W_rated, NAN, "J");
+	if (isfinite(s->dcr_ohm))
+		print_value(out, "DCR (two-wire, leads incl.)", s->dcr_ohm, NAN, "ohm");
+	if (s->n_checks) {
+		fprintf(out, "verdicts:\n");
+		for (size_t i = 0; i < s->n_checks; i++) {
+			const hb_analysis_check *k = &s->checks[i];
+			char mv[40], lo[40], hi[40];
+			hb_format_si(mv, sizeof mv, k->check.measured, k->unit, 5);
+			hb_format_si(lo, sizeof lo, k->check.low, k->unit, 5);
+			hb_format_si(hi, sizeof hi, k->check.high, k->unit, 5);
+			fprintf(out, "  %-5s %-10s measured %-14s limits [%s, %s]", k->name,
+				hb_outcome_name(k->check.outcome), isfinite(k->check.measured) ? mv : "-",
+				isfinite(k->check.low) ? lo : "-", isfinite(k->check.high) ? hi : "-");
+			if (isfinite(k->check.margin_frac))
+				fprintf(out, " margin %+.1f %%", k->check.margin_frac * 100);
+			fprintf(out, "\n");
+		}
+		fprintf(out, "  overall: %s\n", hb_overall_name(s->overall));
+	}
+}
+
+static json_t *num(double v)
+{
+	return isfinite(v) ? json_real(v) : json_null();
+}
+
+json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
+{
+	json_t *j = json_object();
+	json_object_set_new(j, "fit_id", json_integer(s->fit_id));
+	json_object_set_new(j, "fit_code", json_string(HB_FIT_CODE_VERSION));
+	json_object_set_new(j, "status", json_string(hb_status_name(s->fit_status)));
+	if (s->message[0])
+		json_object_set_new(j, "message", json_string(s->message));
+	json_t *vals = json_object();
+	if (s->kind == HB_DB_SWEEP_BIAS) {
+		json_object_set_new(j, "model", json_string(s->bias.model));
+		json_object_set_new(j, "note", json_string(HB_FIT_INCREMENTAL_NOTE));
+		for (size_t i = 0; i < s->bias.values.count; i++) {
+			const hb_fit_value *v = &s->bias.values.v[i];
+			json_t *o = json_object();
+			json_object_set_new(o, "value", num(v->value));
+			json_object_set_new(o, "std_err", num(v->std_err));
+			json_object_set_new(o, "unit", json_string(v->unit));
+			json_object_set_new(vals, v->name, o);
+		}
+		if (s->bias.core_status == HB_OK) {
+			const hb_fit_core_result *c = &s->bias.core;
+			json_object_set_new(j, "law", json_string(hb_core_law_name(c->best)));
+			json_t *o = json_object();
+			json_object_set_new(o, "value", num(c->law[c->best].param[HB_CORE_MU_I]));
+			json_object_set_new(o, "std_err", num(c->law[c->best].std_err[HB_CORE_MU_I]));
+			json_object_set_new(vals, "mu_i", o);
+			o = json_object();
+			json_object_set_new(o, "value", num(c->gap_physical));
+			json_object_set_new(o, "std_err", num(c->gap_physical_se));
+			json_object_set_new(o, "unit", json_string("m"));
+			json_object_set_new(vals, "gap", o);
+		}
+		json_object_set_new(j, "DCR_ohm", num(s->dcr_ohm));
+	} else {
+		const hb_fit_freq_result *q = &s->freq;
+		json_object_set_new(vals, "L_H", num(q->param[HB_FREQ_L]));
+		json_object_set_new(vals, "R_ohm", num(q->param[HB_FREQ_R]));
+		json_object_set_new(vals, "C_F", num(q->param[HB_FREQ_C]));
+		json_object_set_new(vals, "srf_Hz", num(q->srf));
+		json_object_set_new(vals, "srf_std_err_Hz", num(q->srf_se));
+		json_object_set_new(vals, "q_peak", num(q->q_peak));
+		json_object_set_new(vals, "q_peak_freq_Hz", num(q->q_peak_freq));
+		json_object_set_new(vals, "band_lo_Hz", num(q->band_lo));
+		json_object_set_new(vals, "band_hi_Hz", num(q->band_hi));
+	}
+	json_object_set_new(j, "values", vals);
+	json_t *checks = json_array();
+	for (size_t i = 0; i < s->n_checks; i++) {
+		const hb_analysis_check *k = &s->checks[i];
+		json_t *o = json_object();
+		json_object_set_new(o, "check", json_string(k->name));
+		json_object_set_new(o, "outcome", json_string(hb_outcome_name(k->check.outcome)));
+		json_object_set_new(o, "measured", num(k->check.measured));
+		json_object_set_new(o, "limit_low", num(k->check.low));
+		json_object_set_new(o, "limit_high", num(k->check.high));
+		json_object_set_new(o, "margin_fraction", num(k->check.margin_frac));
+		json_object_set_new(o, "unit", json_string(k->unit));
+		json_object_set_new(o, "note", json_string(k->note));
+		json_array_append_new(checks, o);
+	}
+	json_object_set_new(j, "verdicts", checks);
+	if (s->n_checks)
+		json_object_set_new(j, "overall", json_string(hb_overall_name(s->overall)));
+	return j;
+}

@@ -1,0 +1,60 @@
+/* src/analysis.h - fits a stored sweep, stores the fit and judges the unit against its part's spec */
+#ifndef HB_ANALYSIS_H
+#define HB_ANALYSIS_H
+
+#include <stdbool.h>
+#include <stdint.h>
+#include <stdio.h>
+
+#include <jansson.h>
+
+#include "../db/hb_db.h"
+#include "../fit/hb_fit.h"
+#include "quality.h"
+
+typedef struct hb_analysis_options {
+	double noise_rel;          /* relative reading noise from the sweep; 0 = let the fit estimate it */
+	size_t n_drops;            /* 0 = 10, 20, 30 % */
+	double drops[HB_FIT_MAX_FRACTIONS];
+	bool knee, core;           /* which models to fit (both by default) */
+	double fix_mu_i, fix_gap, fix_bsat; /* NAN = fitted */
+	bool store;                /* store the fit and verdicts (default true) */
+} hb_analysis_options;
+
+enum { HB_ANALYSIS_MAX_CHECKS = 4 };
+
+typedef struct hb_analysis_check {
+	char name[16];             /* "L0", "Lsat", "DCR" */
+	char unit[8];
+	hb_check check;
+	char note[160];
+} hb_analysis_check;
+
+typedef struct hb_analysis_summary {
+	bool ran;
+	int64_t sweep_id, fit_id;
+	hb_db_sweep_kind kind;
+	int fit_status;
+	hb_fit_bias_result bias;   /* bias sweeps */
+	hb_fit_freq_result freq;   /* frequency sweeps */
+	double dcr_ohm;            /* from the supply's V/I, two-wire with leads; NAN if none */
+	size_t n_checks;
+	hb_analysis_check checks[HB_ANALYSIS_MAX_CHECKS];
+	hb_overall overall;
+	char message[256];
+} hb_analysis_summary;
+
+void hb_analysis_options_init(hb_analysis_options *opt);
+/* Reads the sweep and its points, fits, stores fit and verdicts. HB_OK when
+ * the fit ran (the summary then says how well). */
+int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *opt, hb_analysis_summary *out);
+void hb_analysis_print(FILE *out, const hb_analysis_summary *summary);
+json_t *hb_analysis_summary_json(const hb_analysis_summary *summary);
+
+/* The up-going points of a bias sweep with a finite reading, in strictly
+ * increasing current (measured where the supply reported it). Caller frees
+ * *current and *inductance. */
+int hb_analysis_bias_arrays(const hb_db_point *points, size_t n, double **current, double **inductance,
+			    size_t *count);
+
+#endif
