@@ -86,6 +86,9 @@ $(BUILD)/%.o: %.S | deps
 	@mkdir -p $(dir $@)
 	$(CC) $(CPPFLAGS) -MMD -MP -c -o $@ $<
 
+# .incbin is invisible to -MMD: the embedded schema is a real prerequisite.
+$(BUILD)/db/schema.o: db/schema.sql
+
 $(BUILD)/tests/%.o: tests/%.c | deps
 	@mkdir -p $(dir $@)
 	$(CC) $(CPPFLAGS) $(ALL_CFLAGS) $(TEST_CFLAGS) -c -o $@ $<

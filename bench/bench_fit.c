@@ -30,8 +30,17 @@ static int make_sweeps(void)
 	gsl_rng_set(r, 2024);
 	for (int s = 0; s < NSETS; s++) {
 		hb_core_params par = { 1500 + 100 * (s % 10), 0.08e-3 + 0.01e-3 * (s % 5), 0.35 + 0.01 * (s % 7) };
+		/* sweep until L has fallen to a quarter, as a bench run would */
+		double imax = 0.1, two[2], Ltwo[2];
+		for (int k = 0; k < 200; k++, imax *= 1.05) {
+			two[0] = 0;
+			two[1] = imax;
+			if (hb_core_model_eval((hb_core_law)(s % 3), &par, &geo, two, 2, Ltwo, NULL) ||
+			    Ltwo[1] < 0.25 * Ltwo[0])
+				break;
+		}
 		for (int i = 0; i < NPTS; i++)
-			sweep_I[s][i] = 2.5 * i / (NPTS - 1);
+			sweep_I[s][i] = imax * i / (NPTS - 1);
 		if (hb_core_model_eval((hb_core_law)(s % 3), &par, &geo, sweep_I[s], NPTS, sweep_L[s], NULL)) {
 			gsl_rng_free(r);
 			return -1;

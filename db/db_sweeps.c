@@ -17,7 +17,7 @@
 	" s.aperture, s.settle_mode, s.settle_delay_s, s.settle_tolerance, s.settle_max_readings,"   \
 	" s.settle_max_s, s.plan_from, s.plan_to, s.plan_steps, s.plan_spacing, s.limit_current_a,"  \
 	" s.limit_voltage_v, s.ambient_c, s.note,"                                                  \
-	" (SELECT count(*) FROM points pt WHERE pt.sweep_id = s.id)"
+	" (SELECT count(*) FROM points pt WHERE pt.sweep_id = s.id), s.reading_noise_rel"
 
 void hb_db_sweep_init(hb_db_sweep *s)
 {
@@ -28,6 +28,7 @@ void hb_db_sweep_init(hb_db_sweep *s)
 	s->test_freq_hz = s->test_level = s->bias_a = NAN;
 	s->settle_delay_s = s->settle_tolerance = s->settle_max_s = NAN;
 	s->plan_from = s->plan_to = NAN;
+	s->reading_noise_rel = NAN;
 	s->limit_current_a = s->limit_voltage_v = s->ambient_c = NAN;
 }
 
@@ -87,6 +88,7 @@ static void read_sweep(sqlite3_stmt *st, hb_db_sweep *s)
 	s->ambient_c = db_col_real(st, 40);
 	db_col_text(st, 41, s->note, sizeof s->note);
 	s->n_points = (long)sqlite3_column_int64(st, 42);
+	s->reading_noise_rel = db_col_real(st, 43);
 }
 
 int hb_db_sweep_begin(hb_db *db, hb_db_sweep *s)
@@ -205,6 +207,22 @@ int hb_db_sweep_end(hb_db *db, int64_t sweep_id, hb_db_sweep_status status, cons
 	if (rc < 0)
 		return rc;
 	return db_error(db, HB_ERR_ARG, "sweep %lld has already ended", (long long)sweep_id);
+}
+
+int hb_db_sweep_set_noise(hb_db *db, int64_t sweep_id, double noise_rel)
+{
+	if (!db)
+		return HB_ERR_ARG;
+	sqlite3_stmt *st = db_stmt(db, ST_SWEEP_NOISE, "UPDATE sweeps SET reading_noise_rel = ?2 WHERE id = ?1");
+	if (!st)
+		return HB_ERR_DB;
+	sqlite3_bind_int64(st, 1, sweep_id);
+	db_bind_real(st, 2, noise_rel);
+	int changes = 0;
+	int rc = db_write_one(db, st, "recording the reading noise", NULL, &changes);
+	if (rc < 0)
+		return rc;
+	return changes > 0 ? HB_OK : db_error(db, HB_ERR_NOTFOUND, "no sweep %lld", (long long)sweep_id);
 }
 
 int hb_db_sweep_get(hb_db *db, int64_t sweep_id, hb_db_sweep *out)
@@ -690,12 +708,14 @@ int hb_db_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **
 	int status = hb_db_part_get(db, f->part_number, &part);
 	if (status < 0)
 		return status;
-	/* The verdict column yields hb_db_outcome values: 2 fail, 1 pass, 0 not tested. */
+	/* The verdict column yields hb_db_outcome values: 2 fail, 1 pass (every check
+	 * passed), 0 not tested (an untested check is never a pass). */
 	sqlite3_stmt *st = db_stmt(db, ST_HISTORY,
 		"SELECT s.id, u.id, s.started_unix, s.started_at, s.station, coalesce(l.lot_code, ''), u.serial,"
 		FIT_VALUE("?5") "," FIT_VALUE("?6") "," FIT_VALUE("?7") "," FIT_VALUE("?8") ","
 		FIT_VALUE("?9") "," FIT_VALUE("?10") ","
-		" (SELECT CASE WHEN sum(outcome = 'fail') > 0 THEN 2 WHEN sum(outcome = 'pass') > 0 THEN 1"
+		" (SELECT CASE WHEN sum(outcome = 'fail') > 0 THEN 2"
+		"  WHEN count(*) > 0 AND sum(outcome = 'pass') = count(*) THEN 1"
 		"  ELSE 0 END FROM verdicts WHERE verdicts.sweep_id = s.id)"
 		" FROM units u LEFT JOIN lots l ON l.id = u.lot_id"
 		" JOIN sweeps s ON s.id = (SELECT s2.id FROM sweeps s2 WHERE s2.unit_id = u.id"

@@ -197,6 +197,7 @@ typedef struct hb_db_sweep {
 	double limit_current_a, limit_voltage_v;  /* supply limits in force */
 	double ambient_c;
 	char note[HB_DB_NOTE_LEN];
+	double reading_noise_rel;                 /* relative sd of one reading, learnt at the first point */
 } hb_db_sweep;
 
 void hb_db_sweep_init(hb_db_sweep *sweep);
@@ -207,6 +208,8 @@ int hb_db_sweep_begin(hb_db *db, hb_db_sweep *sweep);
  * for an unknown id, HB_ERR_ARG if it already ended. */
 int hb_db_sweep_end(hb_db *db, int64_t sweep_id, hb_db_sweep_status status, const char *reason);
 int hb_db_sweep_get(hb_db *db, int64_t sweep_id, hb_db_sweep *out);
+/* Records the meter's relative reading noise on the sweep. */
+int hb_db_sweep_set_noise(hb_db *db, int64_t sweep_id, double noise_rel);
 
 typedef struct hb_db_sweep_filter {
 	const char *part_number;  /* NULL = any */
@@ -351,7 +354,7 @@ typedef struct hb_db_history_row {
 	double l0_h;
 	double i_drop_a[HB_DB_HISTORY_DROPS];
 	double mu_e, gap_m;
-	hb_db_outcome verdict;     /* fail if any check failed, pass if any passed, else not-tested */
+	hb_db_outcome verdict;     /* fail if any check failed, pass if every check passed, else not-tested */
 } hb_db_history_row;
 
 void hb_db_history_filter_init(hb_db_history_filter *filter);

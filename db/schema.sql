@@ -179,3 +179,6 @@ CREATE TABLE inspections (
 	at_unix REAL NOT NULL,
 	UNIQUE (lot_id, sequence)
 );
+
+-- step 4: the meter's reading noise learnt at the start of a sweep, so a later refit weighs the points as the sweep did
+ALTER TABLE sweeps ADD COLUMN reading_noise_rel REAL;

@@ -231,7 +231,7 @@ static double x_at_slope(hb_core_law law, double q)
 }
 
 static int fit_law(hb_fit_ws *ws, core_ctx *c, const double *y, const double *sig, const double start_nat[3],
-		   hb_fit_core_law_result *lr)
+		   bool quick, hb_fit_core_law_result *lr)
 {
 	double start[3];
 	c->p = 0;
@@ -241,23 +241,26 @@ static int fit_law(hb_fit_ws *ws, core_ctx *c, const double *y, const double *si
 			start[c->p++] = log(start_nat[j]);
 		}
 	}
+	for (size_t i = 0; i < c->n; i++)
+		c->xroot[i] = 0;
+	memset(lr, 0, sizeof *lr);
 	lr->law = c->law;
-	for (int j = 0; j < 3; j++) {
+	for (int j = 0; j < 3; j++)
 		lr->fixed[j] = c->fixed[j];
-		lr->param[j] = c->value[j];
-		lr->std_err[j] = 0;
-	}
-	memset(lr->cov, 0, sizeof lr->cov);
-	hb_fit_problem pr = { .n = c->n, .p = c->p, .y = y, .sigma = sig, .model = core_model, .ctx = c };
+	hb_fit_problem pr = { .n = c->n, .p = c->p, .y = y, .sigma = sig, .model = core_model, .ctx = c,
+			      .max_iter = quick ? 60 : 0, .single_start = quick };
 	hb_fit_nlls_result nr;
 	int rc = hb_fit_nlls_run(ws->nlls, &pr, start, &nr);
 	lr->nlls_flags = nr.flags;
-	if (rc)
-		return rc;
+	lr->iterations = nr.iterations;
+	lr->starts = nr.starts;
 	double nat[3];
 	unpack(c, nr.theta, nat);
 	for (int j = 0; j < 3; j++)
 		lr->param[j] = nat[j];
+	lr->status = rc;
+	if (rc)
+		return rc;
 	for (size_t a = 0; a < c->p; a++) {
 		for (size_t b = 0; b < c->p; b++)
 			lr->cov[c->map[a] * 3 + c->map[b]] = nat[c->map[a]] * nat[c->map[b]] * nr.cov[a * c->p + b];
@@ -393,8 +396,6 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 		if (!(laws & (1u << l)))
 			continue;
 		core_ctx c = { .law = (hb_core_law)l, .I = I, .n = n, .geo = geo, .scale = scale, .xroot = xroot };
-		for (size_t i = 0; i < n; i++)
-			xroot[i] = 0;
 		for (int j = 0; j < 3; j++) {
 			c.fixed[j] = !isnan(fixv[j]);
 			c.value[j] = fixv[j];
@@ -412,23 +413,27 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 			st[2] = 3 * mu0 * out->mu_e * N * I[n - 1] / geo->le;
 		}
 		hb_fit_core_law_result *lr = &out->law[l];
-		lr->status = fit_law(ws, &c, ys, ss, st, lr);
-		/* a gap that shrinks to nothing drives ln g off to minus
-		 * infinity: when the data say "no gap", hold it at zero */
-		if (isnan(fixv[1]) && nfree > 1 &&
-		    (lr->status != HB_OK || lr->param[1] * lr->param[0] < 1e-3 * geo->le)) {
+		/* A quick run first. A law that cannot bend like the data drives
+		 * ln g off towards minus infinity ("no gap"): hold g at zero then,
+		 * and only as a last resort pay for the restarts. */
+		fit_law(ws, &c, ys, ss, st, true, lr);
+		bool collapsed = isnan(fixv[1]) && nfree > 1 && lr->param[1] * lr->param[0] < 1e-2 * geo->le;
+		if (collapsed && (lr->status != HB_OK || lr->param[1] * lr->param[0] < 1e-3 * geo->le)) {
 			hb_fit_core_law_result alt;
 			c.fixed[1] = true;
 			c.value[1] = 0;
-			st[0] = isnan(fixv[0]) ? out->mu_e : fixv[0];
-			if (fit_law(ws, &c, ys, ss, st, &alt) == HB_OK &&
+			double st0[3] = { isnan(fixv[0]) ? out->mu_e : fixv[0], 0, st[2] };
+			if (fit_law(ws, &c, ys, ss, st0, false, &alt) == HB_OK &&
 			    (lr->status != HB_OK || alt.aicc <= lr->aicc + 2)) {
 				*lr = alt;
-				lr->status = HB_OK;
 				lr->undetermined |= 1u << HB_CORE_GAP;
 				gap_zero[l] = true;
 			}
+			c.fixed[1] = false;
+			c.value[1] = NAN;
 		}
+		if (lr->status != HB_OK)
+			fit_law(ws, &c, ys, ss, st, false, lr);
 		if (lr->status == HB_OK) {
 			any = true;
 			if (lr->aicc < best_aicc) {

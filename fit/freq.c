@@ -231,6 +231,8 @@ int hb_fit_freq(hb_fit_ws *ws, const double *f, const double *Ls, const double *
 	hb_fit_nlls_result nr;
 	int rc = hb_fit_nlls_run(ws->nlls, &pr, start, &nr);
 	out->nlls_flags = nr.flags;
+	out->iterations = nr.iterations;
+	out->starts = nr.starts;
 	if (rc) {
 		hb__fit_seterr(ws, "frequency fit: %s", hb_fit_nlls_error(ws->nlls));
 		return rc;

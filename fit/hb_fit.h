@@ -38,6 +38,8 @@ typedef struct hb_fit_problem {
 	const double *sigma;    /* n reading uncertainties (weights 1/sigma^2) or NULL */
 	hb_fit_model_fn model;
 	void *ctx;
+	int max_iter;           /* per run; 0 -> 300 */
+	bool single_start;      /* check but do not restart: the caller has a fallback */
 } hb_fit_problem;
 
 /* hb_fit_nlls_result.flags */
@@ -162,6 +164,10 @@ int hb_fit_modelfree(const double *current, const double *L, const double *sigma
 
 enum { HB_KNEE_L0 = 0, HB_KNEE_LF, HB_KNEE_IK, HB_KNEE_P, HB_KNEE_NP };
 
+enum { /* hb_fit_knee_result.flags */
+	HB_KNEE_FLOOR_HELD = 1 << 0, /* a free floor went negative (the sweep shows no floor): Lf held at 0 */
+};
+
 /* identifiability flags: bit (1 << parameter index) in .undetermined */
 typedef struct hb_fit_knee_result {
 	double param[HB_KNEE_NP], std_err[HB_KNEE_NP];
@@ -172,7 +178,8 @@ typedef struct hb_fit_knee_result {
 	hb_fit_drop drop[HB_FIT_MAX_FRACTIONS]; /* on the model, brent root finder */
 	double knee_current, knee_L;           /* maximum curvature of L/L0 against I/Ik */
 	unsigned undetermined;                  /* |corr| > 0.99 or relative sd > 50 % */
-	int nlls_flags;
+	int flags;                              /* HB_KNEE_* */
+	int nlls_flags, iterations, starts; /* from the NLLS wrapper */
 } hb_fit_knee_result;
 
 double hb_fit_knee_eval(const double param[HB_KNEE_NP], double current);
@@ -211,7 +218,7 @@ typedef struct hb_fit_core_law_result {
 	double rss, chi2, residual_rms, aicc;
 	size_t dof;
 	unsigned undetermined;               /* bit (1 << HB_CORE_*) */
-	int nlls_flags;
+	int nlls_flags, iterations, starts; /* from the NLLS wrapper */
 } hb_fit_core_law_result;
 
 typedef struct hb_fit_core_result {
@@ -292,7 +299,7 @@ typedef struct hb_fit_freq_result {
 	double band_lo, band_hi;    /* measured: Ls within `within` of the lowest-frequency reading */
 	double model_band_hi;       /* model: Ls(f) = (1 + within) L */
 	unsigned undetermined;
-	int nlls_flags;
+	int nlls_flags, iterations, starts; /* from the NLLS wrapper */
 } hb_fit_freq_result;
 
 /* Converts an |Z|, theta (rad) reading to series Ls, Rs. */

@@ -303,26 +303,30 @@ static void knee_grad(const double *par, double I, double g[HB_KNEE_NP], double 
 typedef struct knee_ctx {
 	const double *I;
 	size_t n;
+	bool floor_zero; /* theta without Lf: (L0/s, ln Ik, ln p) */
 } knee_ctx;
 
 /* theta = (L0/s, Lf/s, ln Ik, ln p): logs keep Ik and p positive. */
 static int knee_model(const double *th, void *vctx, double *f, double *jac)
 {
 	const knee_ctx *c = vctx;
-	double Ik = exp(th[2]), p = exp(th[3]);
+	size_t np = c->floor_zero ? 3 : 4, o = c->floor_zero ? 1 : 2;
+	double lf = c->floor_zero ? 0 : th[1];
+	double Ik = exp(th[o]), p = exp(th[o + 1]);
 	if (!isfinite(Ik) || !isfinite(p) || Ik <= 0 || p <= 0)
 		return -1;
-	double A = th[0] - th[1];
+	double A = th[0] - lf;
 	for (size_t i = 0; i < c->n; i++) {
 		double inv, frac, lnr;
 		knee_parts(c->I[i], Ik, p, &inv, &frac, &lnr);
-		f[i] = th[1] + A * inv;
+		f[i] = lf + A * inv;
 		if (jac) {
-			double *r = jac + 4 * i;
+			double *r = jac + np * i;
 			r[0] = inv;
-			r[1] = 1 - inv;
-			r[2] = A * p * inv * frac;
-			r[3] = -A * p * lnr * inv * frac;
+			if (!c->floor_zero)
+				r[1] = 1 - inv;
+			r[o] = A * p * inv * frac;
+			r[o + 1] = -A * p * lnr * inv * frac;
 		}
 	}
 	return 0;
@@ -444,11 +448,41 @@ int hb_fit_knee(hb_fit_ws *ws, const double *I, const double *L, const double *s
 	if (!(ik0 > 0))
 		ik0 = I[n - 1];
 	double start[4] = { 1.0, lf0, log(ik0), log(2.0) };
-	knee_ctx kc = { I, n };
-	hb_fit_problem pr = { .n = n, .p = 4, .y = ys, .sigma = ss, .model = knee_model, .ctx = &kc };
+	knee_ctx kc = { I, n, false };
+	hb_fit_problem pr = { .n = n, .p = 4, .y = ys, .sigma = ss, .model = knee_model, .ctx = &kc,
+			      .max_iter = 60, .single_start = true };
 	hb_fit_nlls_result nr;
+	/* A quick free run; a floor that goes negative says the sweep shows
+	 * no floor (a tanh-like fall mimicked by Lf << 0): hold it at zero. */
 	rc = hb_fit_nlls_run(ws->nlls, &pr, start, &nr);
+	if (rc != HB_OK || nr.theta[1] < 0) {
+		hb_fit_nlls_result n3;
+		knee_ctx k3 = { I, n, true };
+		double s3[3] = { 1.0, rc == HB_OK ? nr.theta[2] : log(ik0), rc == HB_OK ? nr.theta[3] : log(2.0) };
+		hb_fit_problem p3 = { .n = n, .p = 3, .y = ys, .sigma = ss, .model = knee_model, .ctx = &k3 };
+		int rc3 = hb_fit_nlls_run(ws->nlls, &p3, s3, &n3);
+		if (rc3 == HB_OK) {
+			out->flags |= HB_KNEE_FLOOR_HELD;
+			/* back to the 4-parameter layout with Lf = 0 exactly */
+			nr = n3;
+			nr.theta[0] = n3.theta[0];
+			nr.theta[1] = 0;
+			nr.theta[2] = n3.theta[1];
+			nr.theta[3] = n3.theta[2];
+			static const int map[4] = { 0, -1, 1, 2 };
+			for (int a = 0; a < 4; a++)
+				for (int b = 0; b < 4; b++)
+					nr.cov[a * 4 + b] = (map[a] < 0 || map[b] < 0) ? 0 : n3.cov[map[a] * 3 + map[b]];
+			rc = HB_OK;
+		} else if (rc != HB_OK) {
+			pr.max_iter = 0;
+			pr.single_start = false;
+			rc = hb_fit_nlls_run(ws->nlls, &pr, start, &nr);
+		}
+	}
 	out->nlls_flags = nr.flags;
+	out->iterations = nr.iterations;
+	out->starts = nr.starts;
 	if (rc) {
 		hb__fit_seterr(ws, "knee fit: %s", hb_fit_nlls_error(ws->nlls));
 		return rc;
@@ -468,7 +502,8 @@ int hb_fit_knee(hb_fit_ws *ws, const double *I, const double *L, const double *s
 	out->n = n;
 	out->dof = nr.dof;
 	out->residual_rms = sqrt(out->rss / (double)n);
-	out->undetermined = hb__fit_undetermined(out->param, out->cov, 4, NULL);
+	bool held[4] = { false, (out->flags & HB_KNEE_FLOOR_HELD) != 0, false, false };
+	out->undetermined = hb__fit_undetermined(out->param, out->cov, 4, held);
 
 	const double *fr = default_fractions;
 	size_t nfr = 3;

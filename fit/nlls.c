@@ -284,7 +284,7 @@ static int run_once(hb_fit_nlls *w, const hb_fit_problem *pr, const double *star
 		return HB_OK;
 	}
 	int info = 0;
-	st = gsl_multifit_nlinear_driver(MAX_ITER, XTOL, GTOL, 0.0, NULL, NULL, &info, s->w);
+	st = gsl_multifit_nlinear_driver(pr->max_iter > 0 ? (size_t)pr->max_iter : MAX_ITER, XTOL, GTOL, 0.0, NULL, NULL, &info, s->w);
 	ro->gsl_status = st;
 	ro->iterations = (int)gsl_multifit_nlinear_niter(s->w);
 	gsl_vector *x = gsl_multifit_nlinear_position(s->w);
@@ -346,7 +346,7 @@ int hb_fit_nlls_run(hb_fit_nlls *w, const hb_fit_problem *pr, const double *star
 	bool first_claimed_success = best.converged;
 	bool first_suspect = best.suspect;
 
-	if (w->check && best.suspect) {
+	if (w->check && best.suspect && !pr->single_start) {
 		/* Geodesic acceleration first (often enough on its own), then
 		 * starts scaled by decades, one parameter at a time and all
 		 * together, so a flat region around the first start is left. */

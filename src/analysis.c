@@ -324,14 +324,17 @@ int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *op
 	rc = hb_analysis_bias_arrays(pts, n, &I, &L, &m);
 	if (rc != HB_OK)
 		goto out;
-	if (opt->noise_rel > 0) {
+	/* The noise the sweep learnt weighs a refit the way the sweep did. */
+	double noise_rel = opt->noise_rel > 0 ? opt->noise_rel :
+			   (isfinite(sw.reading_noise_rel) && sw.reading_noise_rel > 0 ? sw.reading_noise_rel : 0);
+	if (noise_rel > 0) {
 		sigma = malloc(sizeof *sigma * (m ? m : 1));
 		if (!sigma) {
 			rc = HB_ERR_NOMEM;
 			goto out;
 		}
 		for (size_t i = 0; i < m; i++)
-			sigma[i] = opt->noise_rel * L[i];
+			sigma[i] = noise_rel * L[i];
 	}
 	hb_fit_options fo;
 	hb_fit_options_init(&fo);
@@ -339,8 +342,8 @@ int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *op
 		fo.n_fractions = opt->n_drops;
 		memcpy(fo.fractions, opt->drops, sizeof fo.fractions[0] * opt->n_drops);
 	}
-	if (opt->noise_rel > 0 && m > 0)
-		fo.noise_sigma = opt->noise_rel * L[0];
+	if (noise_rel > 0 && m > 0)
+		fo.noise_sigma = noise_rel * L[0];
 	if (isfinite(part.rated_current_a) && part.rated_current_a > 0)
 		fo.rated_current = part.rated_current_a;
 	fo.knee = opt->knee;

@@ -63,7 +63,7 @@ void hb_demo_part(hb_db_part *p)
 	p->test_freq_hz = 100e3;
 	p->test_level = 0.5;
 	p->test_level_kind = HB_DB_LEVEL_VOLTAGE;
-	p->sat_current_a = 3.5;
+	p->sat_current_a = 3.2;
 	p->sat_drop = 0.30;
 	p->rated_current_a = 3.0;
 	p->dcr_max_ohm = 0.040;

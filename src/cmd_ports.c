@@ -104,6 +104,7 @@ int hb_cmd_ports(int argc, char **argv)
 	};
 	bool json = false;
 	optind = 1;
+	opterr = 0; /* our own one-line message instead of getopt's */
 	for (;;) {
 		int c = getopt_long(argc, argv, "h", options, NULL);
 		if (c == -1)
@@ -116,7 +117,7 @@ int hb_cmd_ports(int argc, char **argv)
 			ports_usage(stdout);
 			return HB_EXIT_OK;
 		default:
-			hb_cli_error("ports: unknown option (try 'henrybench ports --help')");
+			hb_cli_error("ports: unknown option '%s'; accepted: --json, --help", argv[optind - 1]);
 			return HB_EXIT_USAGE;
 		}
 	}

@@ -153,6 +153,8 @@ int hb_session_measure(hb_session *s, const hb_db_part *part, const char *serial
 	if (s->progress && s->progress_tty && result->points > 0 && rc != HB_OK)
 		fputc('\n', s->progress);
 
+	if (result->noise_rel > 0)
+		hb_db_sweep_set_noise(s->db, sw.id, result->noise_rel);
 	/* Recording the end is attempted whatever happened; if even that fails
 	 * the next open marks the sweep interrupted, its points kept. */
 	int end_rc = hb_db_sweep_end(s->db, sw.id, end_status(result), result->reason);

@@ -124,7 +124,7 @@ static void test_wrong_shape_resettles(void **state)
 	};
 	peer p;
 	assert_int_equal(peer_start_tcp(&p, steps, N(steps)), 0);
-	hb_scpi *s = open_peer(&p, "?timeout=1000");
+	hb_scpi *s = open_peer(&p, "?timeout=200");
 	assert_int_equal(hb_scpi_opc(s), HB_ERR_PROTOCOL);
 	assert_non_null(strstr(hb_scpi_errmsg(s), "*OPC?"));
 	hb_idn idn;
@@ -180,7 +180,7 @@ static void test_idn_fields(void **state)
 	};
 	peer p;
 	assert_int_equal(peer_start_tcp(&p, steps, N(steps)), 0);
-	hb_scpi *s = open_peer(&p, NULL);
+	hb_scpi *s = open_peer(&p, "?timeout=300");
 	hb_idn idn;
 	assert_int_equal(hb_scpi_idn(s, &idn), HB_OK);
 	assert_string_equal(idn.maker, "Maker Inc");
@@ -306,7 +306,7 @@ static void test_closed_and_bad_input(void **state)
 	};
 	peer p;
 	assert_int_equal(peer_start_tcp(&p, steps, N(steps)), 0);
-	hb_scpi *s = open_peer(&p, NULL);
+	hb_scpi *s = open_peer(&p, "?timeout=300");
 	char reply[32];
 	assert_int_equal(hb_scpi_write(s, "BAD\nCMD"), HB_ERR_ARG);
 	assert_int_equal(hb_scpi_write(s, ""), HB_ERR_ARG);
