@@ -56,7 +56,18 @@ BENCH_SRCS := $(wildcard bench/bench_*.c)
 BENCH_BINS := $(BENCH_SRCS:bench/%.c=$(BUILD)/bench/%)
 LIBHB      := $(BUILD)/libhb.a
 
+# Quiet by default; `make V=1` prints every command.
+ifeq ($(V),1)
+Q :=
+say = @true
+else
+Q := @
+say = @echo "  $(1) $(2)"
+endif
+
 .PHONY: all deps check demo bench install uninstall clean
+# Keep test objects between runs.
+.SECONDARY:
 .DEFAULT_GOAL := all
 
 all: henrybench
@@ -72,34 +83,41 @@ henrybench: $(BUILD)/henrybench
 endif
 
 $(BUILD)/henrybench: $(MAIN_OBJ) $(LIBHB)
-	$(CC) $(SANFLAGS) -o $@ $(MAIN_OBJ) $(LIBHB) $(LDLIBS_ALL)
+	$(call say,LD,$@)
+	$(Q)$(CC) $(SANFLAGS) -o $@ $(MAIN_OBJ) $(LIBHB) $(LDLIBS_ALL)
 
 $(LIBHB): $(LIB_OBJS)
 	@rm -f $@
-	ar rcs $@ $^
+	$(call say,AR,$@)
+	$(Q)ar rcs $@ $^
 
 $(BUILD)/%.o: %.c | deps
 	@mkdir -p $(dir $@)
-	$(CC) $(CPPFLAGS) $(ALL_CFLAGS) -c -o $@ $<
+	$(call say,CC,$<)
+	$(Q)$(CC) $(CPPFLAGS) $(ALL_CFLAGS) -c -o $@ $<
 
 $(BUILD)/%.o: %.S | deps
 	@mkdir -p $(dir $@)
-	$(CC) $(CPPFLAGS) -MMD -MP -c -o $@ $<
+	$(call say,AS,$<)
+	$(Q)$(CC) $(CPPFLAGS) -MMD -MP -c -o $@ $<
 
 # .incbin is invisible to -MMD: the embedded schema is a real prerequisite.
 $(BUILD)/db/schema.o: db/schema.sql
 
 $(BUILD)/tests/%.o: tests/%.c | deps
 	@mkdir -p $(dir $@)
-	$(CC) $(CPPFLAGS) $(ALL_CFLAGS) $(TEST_CFLAGS) -c -o $@ $<
+	$(call say,CC,$<)
+	$(Q)$(CC) $(CPPFLAGS) $(ALL_CFLAGS) $(TEST_CFLAGS) -c -o $@ $<
 
 # A test may ask for link-time wrapping with a line "// LDFLAGS: -Wl,--wrap=sym".
 $(BUILD)/tests/%: $(BUILD)/tests/%.o $(LIBHB)
-	$(CC) $(SANFLAGS) -o $@ $< $(shell sed -n 's|^// LDFLAGS: ||p' tests/$*.c) $(LIBHB) $(TEST_LIBS) $(LDLIBS_ALL)
+	$(call say,LD,$@)
+	$(Q)$(CC) $(SANFLAGS) -o $@ $< $(shell sed -n 's|^// LDFLAGS: ||p' tests/$*.c) $(LIBHB) $(TEST_LIBS) $(LDLIBS_ALL)
 
 $(BUILD)/bench/%: bench/%.c $(LIBHB) | deps
 	@mkdir -p $(dir $@)
-	$(CC) $(CPPFLAGS) $(ALL_CFLAGS) -o $@ $< $(LIBHB) $(LDLIBS_ALL)
+	$(call say,CC,$<)
+	$(Q)$(CC) $(CPPFLAGS) $(ALL_CFLAGS) -o $@ $< $(LIBHB) $(LDLIBS_ALL)
 
 check: deps
 	@$(MAKE) --no-print-directory henrybench $(TEST_BINS)

@@ -17,7 +17,7 @@
 	" s.aperture, s.settle_mode, s.settle_delay_s, s.settle_tolerance, s.settle_max_readings,"   \
 	" s.settle_max_s, s.plan_from, s.plan_to, s.plan_steps, s.plan_spacing, s.limit_current_a,"  \
 	" s.limit_voltage_v, s.ambient_c, s.note,"                                                  \
-	" (SELECT count(*) FROM points pt WHERE pt.sweep_id = s.id), s.reading_noise_rel"
+	" (SELECT count(*) FROM points pt WHERE pt.sweep_id = s.id), s.reading_noise_rel, s.dcr_meter_ohm"
 
 void hb_db_sweep_init(hb_db_sweep *s)
 {
@@ -28,7 +28,7 @@ void hb_db_sweep_init(hb_db_sweep *s)
 	s->test_freq_hz = s->test_level = s->bias_a = NAN;
 	s->settle_delay_s = s->settle_tolerance = s->settle_max_s = NAN;
 	s->plan_from = s->plan_to = NAN;
-	s->reading_noise_rel = NAN;
+	s->reading_noise_rel = s->dcr_meter_ohm = NAN;
 	s->limit_current_a = s->limit_voltage_v = s->ambient_c = NAN;
 }
 
@@ -89,6 +89,7 @@ static void read_sweep(sqlite3_stmt *st, hb_db_sweep *s)
 	db_col_text(st, 41, s->note, sizeof s->note);
 	s->n_points = (long)sqlite3_column_int64(st, 42);
 	s->reading_noise_rel = db_col_real(st, 43);
+	s->dcr_meter_ohm = db_col_real(st, 44);
 }
 
 int hb_db_sweep_begin(hb_db *db, hb_db_sweep *s)
@@ -220,6 +221,22 @@ int hb_db_sweep_set_noise(hb_db *db, int64_t sweep_id, double noise_rel)
 	db_bind_real(st, 2, noise_rel);
 	int changes = 0;
 	int rc = db_write_one(db, st, "recording the reading noise", NULL, &changes);
+	if (rc < 0)
+		return rc;
+	return changes > 0 ? HB_OK : db_error(db, HB_ERR_NOTFOUND, "no sweep %lld", (long long)sweep_id);
+}
+
+int hb_db_sweep_set_dcr(hb_db *db, int64_t sweep_id, double ohms)
+{
+	if (!db)
+		return HB_ERR_ARG;
+	sqlite3_stmt *st = db_stmt(db, ST_SWEEP_DCR, "UPDATE sweeps SET dcr_meter_ohm = ?2 WHERE id = ?1");
+	if (!st)
+		return HB_ERR_DB;
+	sqlite3_bind_int64(st, 1, sweep_id);
+	db_bind_real(st, 2, ohms);
+	int changes = 0;
+	int rc = db_write_one(db, st, "recording the meter's DC resistance", NULL, &changes);
 	if (rc < 0)
 		return rc;
 	return changes > 0 ? HB_OK : db_error(db, HB_ERR_NOTFOUND, "no sweep %lld", (long long)sweep_id);

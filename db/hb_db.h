@@ -198,6 +198,7 @@ typedef struct hb_db_sweep {
 	double ambient_c;
 	char note[HB_DB_NOTE_LEN];
 	double reading_noise_rel;                 /* relative sd of one reading, learnt at the first point */
+	double dcr_meter_ohm;                     /* the meter's DC-resistance reading, NAN if none */
 } hb_db_sweep;
 
 void hb_db_sweep_init(hb_db_sweep *sweep);
@@ -210,6 +211,8 @@ int hb_db_sweep_end(hb_db *db, int64_t sweep_id, hb_db_sweep_status status, cons
 int hb_db_sweep_get(hb_db *db, int64_t sweep_id, hb_db_sweep *out);
 /* Records the meter's relative reading noise on the sweep. */
 int hb_db_sweep_set_noise(hb_db *db, int64_t sweep_id, double noise_rel);
+/* Records the meter's own DC-resistance reading of the winding. */
+int hb_db_sweep_set_dcr(hb_db *db, int64_t sweep_id, double ohms);
 
 typedef struct hb_db_sweep_filter {
 	const char *part_number;  /* NULL = any */

@@ -180,5 +180,7 @@ CREATE TABLE inspections (
 	UNIQUE (lot_id, sequence)
 );
 
--- step 4: the meter's reading noise learnt at the start of a sweep, so a later refit weighs the points as the sweep did
+-- step 4: what the instruments told about the part besides the points: the meter's reading noise (so a refit weighs the points as the sweep did) and its DC-resistance reading
 ALTER TABLE sweeps ADD COLUMN reading_noise_rel REAL;
+-- the meter's own DC-resistance reading of the winding, where its profile has that operation
+ALTER TABLE sweeps ADD COLUMN dcr_meter_ohm REAL;

@@ -977,6 +977,11 @@ static int dirs_build(dir_list *d)
 			snprintf(cand, sizeof cand, "%s/drivers/profiles", exe[0] ? exe : "");
 			if (is_dir(cand))
 				rc = dirs_add(d, cand, strlen(cand), true);
+			/* An installed tree moved elsewhere (DESTDIR, another PREFIX):
+			 * bin/henrybench next to share/henrybench/profiles. */
+			snprintf(cand, sizeof cand, "%s/share/henrybench/profiles", exe[0] ? exe : "");
+			if (up == 1 && rc == HB_OK && is_dir(cand))
+				rc = dirs_add(d, cand, strlen(cand), true);
 			slash = strrchr(exe, '/');
 		}
 	}

@@ -23,9 +23,11 @@ const char *hb_core_law_name(hb_core_law law)
 }
 
 /*
- * Each law is written B = Bsat s(x), x = mu0 mu_i H / Bsat, with s'(0) = 1
- * so that mu_i is the initial permeability whatever the law. s, s', s'' for
- * x >= 0 (the laws are odd; the fit uses |I|).
+ * The material is B = mu0 H + J(H): the polarisation J saturates at Js with
+ * initial slope mu0 (mu_i - 1), J = Js s(x), x = mu0 (mu_i - 1) H / Js,
+ * s'(0) = 1, so dB/dH is mu0 mu_i at zero field whatever the law and never
+ * falls below mu0 (a saturated core still carries the vacuum's share).
+ * s, s', s'' for x >= 0 (the laws are odd; the fit uses |I|).
  */
 static void law_s(hb_core_law law, double x, double *s, double *s1, double *s2)
 {
@@ -71,25 +73,28 @@ static void law_s(hb_core_law law, double x, double *s, double *s1, double *s2)
 	}
 }
 
-/* x solving le x + g mu s(x) = c (c >= 0). The left side is increasing and
- * concave, so Newton from any point left of the root climbs to it without
- * overshooting; the previous bias point's root is such a point. */
-static int solve_x(hb_core_law law, double le, double gmu, double c, double x, double *root)
+/* x solving (le + g) x + g m s(x) = c (c >= 0, m = mu_i - 1). The left side
+ * is increasing and concave, so Newton from any point left of the root
+ * climbs to it without overshooting; the previous bias point's root is such
+ * a point. */
+static int solve_x(hb_core_law law, double lg, double gm, double c, double x, double *root)
 {
 	if (!(x >= 0) || !isfinite(x))
 		x = 0;
 	for (int it = 0; it < 300; it++) {
 		double s, s1, s2;
 		law_s(law, x, &s, &s1, &s2);
-		double phi = le * x + gmu * s - c;
-		double dphi = le + gmu * s1;
+		double phi = lg * x + gm * s - c;
+		double dphi = lg + gm * s1;
 		double step = phi / dphi;
 		x -= step;
 		if (x < 0)
 			x = 0;
 		if (!isfinite(x))
 			return -1;
-		if (fabs(step) <= 1e-14 * (1 + x)) {
+		/* quadratic convergence: the error left after a step this small
+		 * is below 1e-16 relative, no need to take one more to see it */
+		if (fabs(step) <= 1e-9 * (1 + x)) {
 			*root = x;
 			return 0;
 		}
@@ -100,40 +105,44 @@ static int solve_x(hb_core_law law, double le, double gmu, double c, double x, d
 
 typedef struct core_point {
 	double L, B, H;
-	double dL[3], dB[3]; /* with respect to ln mu_i, ln g, ln Bsat */
+	double dL[3], dB[3]; /* with respect to ln(mu_i - 1), ln g, ln Js */
 } core_point;
 
-static int core_eval_point(hb_core_law law, double mu, double g, double bs, const hb_core_geometry *geo, double I,
+/* Circuit N I = le H + g B(H) / mu0 at one current. Implicit differentiation
+ * gives the Jacobian; every partial of B and B' = dB/dH at fixed H is that of
+ * the polarisation alone, since mu0 H holds no parameter. */
+static int core_eval_point(hb_core_law law, double mu, double g, double js, const hb_core_geometry *geo, double I,
 			   double *xwarm, core_point *pt)
 {
 	const double mu0 = HB_FIT_MU0;
-	double a = mu0 * mu, le = geo->le, K = geo->turns * geo->turns * geo->Ae;
-	double c = geo->turns * fabs(I) * a / bs;
+	double m = mu - 1, a = mu0 * m, le = geo->le, K = geo->turns * geo->turns * geo->Ae;
+	double c = geo->turns * fabs(I) * a / js;
 	double x;
-	if (solve_x(law, le, g * mu, c, *xwarm, &x))
+	if (solve_x(law, le + g, g * m, c, *xwarm, &x))
 		return -1;
 	*xwarm = x;
 	double s, s1, s2;
 	law_s(law, x, &s, &s1, &s2);
-	double Bp = a * s1, Bpp = a * a * s2 / bs;
+	double H = x * js / a;
+	double Bp = mu0 + a * s1, Bpp = a * a * s2 / js;
 	double D = le + g * Bp / mu0;
-	pt->B = bs * s;
-	pt->H = x * bs / a;
+	pt->B = mu0 * H + js * s;
+	pt->H = H;
 	pt->L = K * Bp / D;
-	/* implicit differentiation of the circuit equation at fixed I */
-	double dH_mu = -(g / mu0) * (bs * x * s1) / D;
-	double dH_bs = -(g / mu0) * bs * (s - x * s1) / D;
+	double dB_m = js * x * s1, dB_js = js * (s - x * s1);
+	double dH_m = -(g / mu0) * dB_m / D;
+	double dH_js = -(g / mu0) * dB_js / D;
 	double dH_g = -(g * pt->B / mu0) / D;
-	double dBp_mu = a * (s1 + x * s2) + Bpp * dH_mu;
-	double dBp_bs = -a * x * s2 + Bpp * dH_bs;
+	double dBp_m = a * (s1 + x * s2) + Bpp * dH_m;
+	double dBp_js = -a * x * s2 + Bpp * dH_js;
 	double dBp_g = Bpp * dH_g;
 	double D2 = D * D;
-	pt->dL[HB_CORE_MU_I] = K * le * dBp_mu / D2;
+	pt->dL[HB_CORE_MU_I] = K * le * dBp_m / D2;
 	pt->dL[HB_CORE_GAP] = K * (le * dBp_g - g * Bp * Bp / mu0) / D2;
-	pt->dL[HB_CORE_BSAT] = K * le * dBp_bs / D2;
-	pt->dB[HB_CORE_MU_I] = bs * x * s1 + Bp * dH_mu;
+	pt->dL[HB_CORE_BSAT] = K * le * dBp_js / D2;
+	pt->dB[HB_CORE_MU_I] = dB_m + Bp * dH_m;
 	pt->dB[HB_CORE_GAP] = Bp * dH_g;
-	pt->dB[HB_CORE_BSAT] = bs * (s - x * s1) + Bp * dH_bs;
+	pt->dB[HB_CORE_BSAT] = dB_js + Bp * dH_js;
 	if (I < 0)
 		pt->B = -pt->B, pt->H = -pt->H;
 	return 0;
@@ -150,7 +159,8 @@ int hb_core_model_eval(hb_core_law law, const hb_core_params *par, const hb_core
 {
 	if (!par || !I || (unsigned)law >= HB_CORE_NLAWS || !geometry_ok(geo))
 		return HB_ERR_ARG;
-	if (!(par->mu_i > 0) || !(par->gap >= 0) || !(par->bsat > 0))
+	if (!(par->mu_i > 1) || !(par->gap >= 0) || !(par->bsat > 0) || !isfinite(par->mu_i) ||
+	    !isfinite(par->gap) || !isfinite(par->bsat))
 		return HB_ERR_ARG;
 	double xw = 0, prev = 0;
 	for (size_t i = 0; i < n; i++) {
@@ -178,6 +188,7 @@ typedef struct core_ctx {
 	size_t n;
 	const hb_core_geometry *geo;
 	double scale;           /* L units of the fit */
+	double w2c;             /* (2 pi f)^2 Cp: the meter reads L / (1 - w2c L); 0 = none */
 	bool fixed[3];
 	double value[3];        /* fixed values (natural) */
 	int map[3];             /* free parameter index -> core parameter */
@@ -185,12 +196,22 @@ typedef struct core_ctx {
 	double *xroot;          /* last root per point: Newton starts there */
 } core_ctx;
 
+/* theta = (ln(mu_i - 1), ln g, ln Js) for the free ones: mu_i - 1 is the
+ * polarisation's share, and keeping it positive keeps mu_i above vacuum. */
 static void unpack(const core_ctx *c, const double *th, double nat[3])
 {
 	for (int j = 0; j < 3; j++)
 		nat[j] = c->value[j];
 	for (size_t k = 0; k < c->p; k++)
-		nat[c->map[k]] = exp(th[k]);
+		nat[c->map[k]] = (c->map[k] == HB_CORE_MU_I ? 1 : 0) + exp(th[k]);
+}
+
+/* d nat / d theta */
+static void nat_slope(const double nat[3], double d[3])
+{
+	d[HB_CORE_MU_I] = nat[HB_CORE_MU_I] - 1;
+	d[HB_CORE_GAP] = nat[HB_CORE_GAP];
+	d[HB_CORE_BSAT] = nat[HB_CORE_BSAT];
 }
 
 static int core_model(const double *th, void *vctx, double *f, double *jac)
@@ -199,7 +220,7 @@ static int core_model(const double *th, void *vctx, double *f, double *jac)
 	double nat[3];
 	unpack(c, th, nat);
 	for (int j = 0; j < 3; j++)
-		if (!isfinite(nat[j]) || (j != HB_CORE_GAP && !(nat[j] > 0)))
+		if (!isfinite(nat[j]) || !(nat[j] > (j == HB_CORE_MU_I ? 1 : 0) || (j == HB_CORE_GAP && nat[j] == 0)))
 			return -1;
 	for (size_t i = 0; i < c->n; i++) {
 		core_point pt;
@@ -207,10 +228,16 @@ static int core_model(const double *th, void *vctx, double *f, double *jac)
 		if (core_eval_point(c->law, nat[0], nat[1], nat[2], c->geo, c->I[i], &xw, &pt))
 			return -1;
 		c->xroot[i] = xw;
-		f[i] = pt.L / c->scale;
-		if (jac)
+		/* the winding capacitance in parallel lifts the series reading */
+		double den = 1 - c->w2c * pt.L;
+		if (!(den > 0))
+			return -1;
+		f[i] = pt.L / den / c->scale;
+		if (jac) {
+			double chain = 1 / (den * den * c->scale);
 			for (size_t k = 0; k < c->p; k++)
-				jac[i * c->p + k] = pt.dL[c->map[k]] / c->scale;
+				jac[i * c->p + k] = pt.dL[c->map[k]] * chain;
+		}
 	}
 	return 0;
 }
@@ -238,7 +265,7 @@ static int fit_law(hb_fit_ws *ws, core_ctx *c, const double *y, const double *si
 	for (int j = 0; j < 3; j++) {
 		if (!c->fixed[j]) {
 			c->map[c->p] = j;
-			start[c->p++] = log(start_nat[j]);
+			start[c->p++] = log(start_nat[j] - (j == HB_CORE_MU_I ? 1 : 0));
 		}
 	}
 	for (size_t i = 0; i < c->n; i++)
@@ -248,7 +275,7 @@ static int fit_law(hb_fit_ws *ws, core_ctx *c, const double *y, const double *si
 	for (int j = 0; j < 3; j++)
 		lr->fixed[j] = c->fixed[j];
 	hb_fit_problem pr = { .n = c->n, .p = c->p, .y = y, .sigma = sig, .model = core_model, .ctx = c,
-			      .max_iter = quick ? 60 : 0, .single_start = quick };
+			      .max_iter = quick ? 30 : 0, .single_start = quick };
 	hb_fit_nlls_result nr;
 	int rc = hb_fit_nlls_run(ws->nlls, &pr, start, &nr);
 	lr->nlls_flags = nr.flags;
@@ -261,9 +288,11 @@ static int fit_law(hb_fit_ws *ws, core_ctx *c, const double *y, const double *si
 	lr->status = rc;
 	if (rc)
 		return rc;
+	double dn[3];
+	nat_slope(nat, dn);
 	for (size_t a = 0; a < c->p; a++) {
 		for (size_t b = 0; b < c->p; b++)
-			lr->cov[c->map[a] * 3 + c->map[b]] = nat[c->map[a]] * nat[c->map[b]] * nr.cov[a * c->p + b];
+			lr->cov[c->map[a] * 3 + c->map[b]] = dn[c->map[a]] * dn[c->map[b]] * nr.cov[a * c->p + b];
 	}
 	for (int j = 0; j < 3; j++)
 		lr->std_err[j] = sqrt(lr->cov[j * 3 + j]);
@@ -319,10 +348,28 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 	for (int j = 0; j < 3; j++) {
 		if (isnan(fixv[j])) {
 			nfree++;
-		} else if (!(fixv[j] > 0 || (j == HB_CORE_GAP && fixv[j] == 0)) || !isfinite(fixv[j])) {
-			hb__fit_seterr(ws, "fixed %s %g out of range (must be > 0%s)",
-				       j == 0 ? "mu_i" : j == 1 ? "gap" : "Bsat", fixv[j], j == 1 ? ", or 0" : "");
+		} else if (!(fixv[j] > (j == HB_CORE_MU_I ? 1 : 0) || (j == HB_CORE_GAP && fixv[j] == 0)) ||
+			   !isfinite(fixv[j])) {
+			hb__fit_seterr(ws, "fixed %s %g out of range (must be > %s)",
+				       j == 0 ? "mu_i" : j == 1 ? "gap" : "Js", fixv[j], j == 0 ? "1" : j == 1 ? "0, or 0" : "0");
 			return HB_ERR_ARG;
+		}
+	}
+	double w2c = 0;
+	if (opt->parallel_c != 0 || opt->test_freq != 0) {
+		if (!(opt->parallel_c >= 0 && opt->parallel_c < 1e-6) || !(opt->test_freq >= 0 && opt->test_freq < 1e9)) {
+			hb__fit_seterr(ws, "parallel capacitance %g F (0 .. 1e-6) or test frequency %g Hz (0 .. 1e9) out of range",
+				       opt->parallel_c, opt->test_freq);
+			return HB_ERR_ARG;
+		}
+		double w = 2 * M_PI * opt->test_freq;
+		w2c = w * w * opt->parallel_c;
+		for (size_t i = 0; i < n; i++) {
+			if (!(w2c * L[i] < 0.5)) {
+				hb__fit_seterr(ws, "test frequency %g Hz is too near the self-resonance with %g F to "
+					       "correct the reading %g H", opt->test_freq, opt->parallel_c, L[i]);
+				return HB_ERR_ARG;
+			}
 		}
 	}
 	if (nfree == 0) {
@@ -340,10 +387,12 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 		return rc;
 	}
 	const double mu0 = HB_FIT_MU0, N = geo->turns;
-	out->mu_e = mf.L0 * geo->le / (mu0 * N * N * geo->Ae);
-	out->mu_e_se = mf.L0_std_err * geo->le / (mu0 * N * N * geo->Ae);
-	out->AL = mf.L0 / (N * N);
-	out->AL_se = mf.L0_std_err / (N * N);
+	/* the part's own L0 under the reading L0 / (1 - w2c L0) */
+	double L0 = mf.L0 / (1 + w2c * mf.L0), L0_se = mf.L0_std_err / ((1 + w2c * mf.L0) * (1 + w2c * mf.L0));
+	out->mu_e = L0 * geo->le / (mu0 * N * N * geo->Ae);
+	out->mu_e_se = L0_se * geo->le / (mu0 * N * N * geo->Ae);
+	out->AL = L0 / (N * N);
+	out->AL_se = L0_se / (N * N);
 	out->rated_current = opt->rated_current > 0 ? opt->rated_current : I[n - 1];
 
 	/* where the data show saturation: the 30 % drop, else how far it got */
@@ -388,6 +437,8 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 		mu_s = 2 * out->mu_e;
 		g_s = 0.5 * R;
 	}
+	if (!(mu_s > 1.01))
+		mu_s = 1.01; /* a core barely above vacuum: an air coil */
 
 	unsigned laws = opt->laws ? opt->laws : 7u;
 	double best_aicc = INFINITY;
@@ -395,7 +446,8 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 	for (int l = 0; l < HB_CORE_NLAWS; l++) {
 		if (!(laws & (1u << l)))
 			continue;
-		core_ctx c = { .law = (hb_core_law)l, .I = I, .n = n, .geo = geo, .scale = scale, .xroot = xroot };
+		core_ctx c = { .law = (hb_core_law)l, .I = I, .n = n, .geo = geo, .scale = scale, .w2c = w2c,
+			       .xroot = xroot };
 		for (int j = 0; j < 3; j++) {
 			c.fixed[j] = !isnan(fixv[j]);
 			c.value[j] = fixv[j];
@@ -404,11 +456,17 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 		if (!isnan(fixv[2])) {
 			st[2] = fixv[2];
 		} else if (!isnan(q)) {
-			double r = g_s * mu_s / geo->le;
-			double x = x_at_slope((hb_core_law)l, q / (1 + r * (1 - q)));
+			/* L/L0 = q gives dB/dH there as a fraction b of mu0 mu_i, hence
+			 * the law's slope s' and x; the circuit equation then gives Js */
+			double r = g_s * mu_s / geo->le, m = mu_s - 1;
+			double b = q / (1 + r * (1 - q));
+			double q1 = (b * mu_s - 1) / m;
+			if (!(q1 > 1e-3))
+				q1 = 1e-3;
+			double x = x_at_slope((hb_core_law)l, q1);
 			double s, s1, s2;
 			law_s((hb_core_law)l, x, &s, &s1, &s2);
-			st[2] = N * Iq * mu0 * mu_s / (geo->le * x + g_s * mu_s * s);
+			st[2] = N * Iq * mu0 * m / ((geo->le + g_s) * x + g_s * m * s);
 		} else {
 			st[2] = 3 * mu0 * out->mu_e * N * I[n - 1] / geo->le;
 		}
@@ -422,7 +480,7 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 			hb_fit_core_law_result alt;
 			c.fixed[1] = true;
 			c.value[1] = 0;
-			double st0[3] = { isnan(fixv[0]) ? out->mu_e : fixv[0], 0, st[2] };
+			double st0[3] = { isnan(fixv[0]) ? fmax(out->mu_e, 1.01) : fixv[0], 0, st[2] };
 			if (fit_law(ws, &c, ys, ss, st0, false, &alt) == HB_OK &&
 			    (lr->status != HB_OK || alt.aicc <= lr->aicc + 2)) {
 				*lr = alt;
@@ -453,7 +511,13 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 	/* the fit against the reading noise */
 	double noise = opt->noise_sigma > 0 ? opt->noise_sigma : mf.noise_sigma;
 	out->noise_sigma = noise;
-	if (noise > 0) {
+	if (sigma && b->dof > 0) {
+		/* per-point uncertainties: the weighted residual itself */
+		out->noise_ratio = sqrt(b->chi2 / (double)b->dof);
+		double lim = opt->noise_ratio_limit > 0 ? opt->noise_ratio_limit : 3;
+		if (out->noise_ratio > lim)
+			out->flags |= HB_CORE_NO_LAW_FITS;
+	} else if (noise > 0) {
 		out->noise_ratio = b->residual_rms / noise;
 		double lim = opt->noise_ratio_limit > 0 ? opt->noise_ratio_limit : 3;
 		if (out->noise_ratio > lim)
@@ -487,11 +551,12 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 	if (core_eval_point(b->law, mu, g, bs, geo, out->rated_current, &xw, &pt) == 0) {
 		out->B_peak = pt.B;
 		double var = 0;
-		double nat[3] = { mu, g, bs };
+		double nat[3] = { mu, g, bs }, dn[3];
+		nat_slope(nat, dn);
 		for (int a = 0; a < 3; a++)
 			for (int c2 = 0; c2 < 3; c2++)
-				if (nat[a] > 0 && nat[c2] > 0)
-					var += pt.dB[a] / nat[a] * pt.dB[c2] / nat[c2] * b->cov[a * 3 + c2];
+				if (dn[a] > 0 && dn[c2] > 0)
+					var += pt.dB[a] / dn[a] * pt.dB[c2] / dn[c2] * b->cov[a * 3 + c2];
 		out->B_peak_se = sqrt(var);
 		out->psi_rated = N * geo->Ae * pt.B;
 		energy_ctx ec = { b->law, { mu, g, bs }, geo };

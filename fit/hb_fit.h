@@ -14,7 +14,7 @@
  * inductance dpsi/dI at the DC bias point, not the secant psi/I.
  */
 
-#define HB_FIT_CODE_VERSION "hb-fit 1.0"
+#define HB_FIT_CODE_VERSION "hb-fit 1.1"
 #define HB_FIT_INCREMENTAL_NOTE \
 	"L is the incremental (small-signal) inductance dpsi/dI read by the LCR meter at each DC bias"
 #define HB_FIT_MU0 1.25663706212e-6 /* H/m, CODATA 2018 */
@@ -78,10 +78,12 @@ const char *hb_fit_nlls_error(const hb_fit_nlls *w);
 /* Options, workspace, named values                                    */
 /* ------------------------------------------------------------------ */
 
+/* B = mu0 H + J(H), the polarisation J = Js s(a H / Js), a = mu0 (mu_i - 1):
+ * dB/dH = mu0 mu_i at zero field and never below mu0. */
 typedef enum hb_core_law {
-	HB_CORE_FROHLICH = 0, /* B = mu0 mu_i H Bsat / (Bsat + mu0 mu_i |H|) */
-	HB_CORE_LANGEVIN = 1, /* B = Bsat Lang(3 mu0 mu_i H / Bsat), Lang(x) = coth x - 1/x */
-	HB_CORE_TANH = 2,     /* B = Bsat tanh(mu0 mu_i H / Bsat) */
+	HB_CORE_FROHLICH = 0, /* J = a H Js / (Js + a |H|) */
+	HB_CORE_LANGEVIN = 1, /* J = Js Lang(3 a H / Js), Lang(x) = coth x - 1/x */
+	HB_CORE_TANH = 2,     /* J = Js tanh(a H / Js) */
 	HB_CORE_NLAWS = 3
 } hb_core_law;
 
@@ -96,14 +98,18 @@ typedef struct hb_core_geometry {
 typedef struct hb_fit_options {
 	size_t n_fractions;                      /* 0 -> 10, 20, 30 % */
 	double fractions[HB_FIT_MAX_FRACTIONS];  /* 0.10 = L fallen by 10 % of L0 */
-	size_t l0_points;                        /* points in the zero-bias fit, 0 -> 4 */
+	size_t l0_points;                        /* points in the zero-bias fit, 0 -> 6 (quadratic from 5) */
 	double noise_sigma;                      /* reading noise, H (repeated readings); 0 = estimate */
 	double rated_current;                    /* A; 0 -> the last bias point */
 	bool knee;                               /* fit the 4-parameter knee model (default true) */
 	hb_core_geometry geo;                    /* turns, Ae, le > 0 enable the core model */
-	double fix_mu_i, fix_gap, fix_bsat;      /* datasheet values held fixed; NAN = fit */
+	double fix_mu_i, fix_gap, fix_bsat;      /* datasheet values held fixed (mu_i > 1, gap >= 0, Js > 0); NAN = fit */
 	unsigned laws;                           /* bit (1 << hb_core_law); 0 = all three */
 	double noise_ratio_limit;                /* residual rms / noise above which no law fits; 0 -> 3 */
+	/* Winding capacitance Cp (F, e.g. from hb_fit_freq on the same unit) and
+	 * the bias sweep's test frequency (Hz): the core model then fits the
+	 * series reading L / (1 - w^2 L Cp). 0 = no correction. */
+	double parallel_c, test_freq;
 } hb_fit_options;
 
 void hb_fit_options_init(hb_fit_options *opt);
@@ -145,7 +151,7 @@ enum { /* hb_fit_modelfree_result.flags */
 };
 
 typedef struct hb_fit_modelfree {
-	double L0, L0_std_err;  /* zero-bias value: fit L0 + c|I| to the first points, at I = 0 */
+	double L0, L0_std_err;  /* zero-bias value: polynomial through the first points, at I = 0 */
 	size_t L0_points;
 	double noise_sigma;     /* reading noise used for the uncertainties, H */
 	size_t n_drops;
@@ -187,18 +193,20 @@ int hb_fit_knee(hb_fit_ws *ws, const double *current, const double *L, const dou
 		const hb_fit_options *opt, hb_fit_knee_result *out);
 
 /* ------------------------------------------------------------------ */
-/* 3. Core model: N I = H(B) le + B g / mu0, L = N Ae dB/dI            */
+/* 3. Core model: N I = H le + B(H) g / mu0, L = N Ae dB/dI            */
 /* ------------------------------------------------------------------ */
 
 enum { HB_CORE_MU_I = 0, HB_CORE_GAP, HB_CORE_BSAT, HB_CORE_NP };
 
+/* HB_CORE_BSAT, .bsat and fix_bsat hold Js, the saturation POLARISATION
+ * (T): B itself keeps rising as mu0 H beyond it. */
 typedef struct hb_core_params {
-	double mu_i;  /* initial relative permeability of the material */
+	double mu_i;  /* initial relative permeability of the material, > 1 */
 	double gap;   /* effective magnetic gap, m */
-	double bsat;  /* T */
+	double bsat;  /* Js, saturation polarisation, T */
 } hb_core_params;
 
-/* Incremental L (and B when B_out != NULL) at each current. */
+/* Incremental L (and B when B_out != NULL) at each current; no parallel C. */
 int hb_core_model_eval(hb_core_law law, const hb_core_params *par, const hb_core_geometry *geo,
 		       const double *current, size_t n, double *L_out, double *B_out);
 

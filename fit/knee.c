@@ -5,7 +5,7 @@
 #include <string.h>
 
 #include <gsl/gsl_errno.h>
-#include <gsl/gsl_fit.h>
+#include <gsl/gsl_multifit.h>
 #include <gsl/gsl_interp.h>
 #include <gsl/gsl_min.h>
 #include <gsl/gsl_roots.h>
@@ -162,27 +162,57 @@ int hb_fit_modelfree(const double *I, const double *L, const double *sigma, size
 		sig[i] = sigma ? sigma[i] : noise;
 	out->noise_sigma = sigma ? gsl_stats_mean(sigma, 1, n) : noise;
 
-	/* L0: straight line in |I| through the first points (the slope at zero
-	 * bias is finite for a Frohlich-like core, zero for tanh-like). */
-	size_t k = (opt && opt->l0_points) ? opt->l0_points : 4;
+	/* L0: low-order polynomial through the first points, taken at I = 0:
+	 * quadratic when there are enough of them (the slope at zero bias is
+	 * finite for a Frohlich-like core, zero for tanh-like, and a straight
+	 * line across a curving start would bias L0), else a straight line. */
+	size_t k = (opt && opt->l0_points) ? opt->l0_points : 6;
 	if (k > n)
 		k = n;
 	if (k < 2)
 		k = 2;
-	double c0, c1, cov00, cov01, cov11, sumsq;
-	if (sig[0] > 0) {
-		for (size_t i = 0; i < k; i++)
-			w[i] = 1 / (sig[i] * sig[i]);
-		rc = gsl_fit_wlinear(I, 1, w, 1, L, 1, k, &c0, &c1, &cov00, &cov01, &cov11, &sumsq);
-	} else {
-		rc = gsl_fit_linear(I, 1, L, 1, k, &c0, &c1, &cov00, &cov01, &cov11, &sumsq);
+	size_t order = k >= 5 ? 2 : 1;
+	double c0 = NAN, cov00 = NAN;
+	{
+		size_t pc = order + 1;
+		gsl_matrix *X = gsl_matrix_alloc(k, pc), *cv = gsl_matrix_alloc(pc, pc);
+		gsl_vector *yv = gsl_vector_alloc(k), *wv = gsl_vector_alloc(k), *cf = gsl_vector_alloc(pc);
+		gsl_multifit_linear_workspace *lw = gsl_multifit_linear_alloc(k, pc);
+		int st = GSL_ENOMEM;
+		double chisq;
+		if (X && cv && yv && wv && cf && lw) {
+			for (size_t i = 0; i < k; i++) {
+				for (size_t j = 0; j < pc; j++)
+					gsl_matrix_set(X, i, j, pow(I[i], (double)j));
+				gsl_vector_set(yv, i, L[i]);
+				gsl_vector_set(wv, i, sig[0] > 0 ? 1 / (sig[i] * sig[i]) : 1);
+			}
+			st = gsl_multifit_wlinear(X, wv, yv, cf, cv, &chisq, lw);
+			if (st == GSL_SUCCESS) {
+				c0 = gsl_vector_get(cf, 0);
+				cov00 = gsl_matrix_get(cv, 0, 0);
+				/* without a noise figure the scatter itself scales it */
+				if (!(sig[0] > 0))
+					cov00 = k > pc ? cov00 * chisq / (double)(k - pc) : NAN;
+			}
+		}
+		gsl_matrix_free(X);
+		gsl_matrix_free(cv);
+		gsl_vector_free(yv);
+		gsl_vector_free(wv);
+		gsl_vector_free(cf);
+		gsl_multifit_linear_free(lw);
+		if (st == GSL_ENOMEM) {
+			rc = HB_ERR_NOMEM;
+			goto out;
+		}
 	}
-	if (rc != GSL_SUCCESS || !isfinite(c0) || !(c0 > 0)) {
+	if (!isfinite(c0) || !(c0 > 0)) {
 		rc = HB_ERR_DATA;
 		goto out;
 	}
 	out->L0 = c0;
-	out->L0_std_err = k > 2 || sig[0] > 0 ? sqrt(cov00) : NAN;
+	out->L0_std_err = sqrt(cov00);
 	out->L0_points = k;
 	out->I_max = I[n - 1];
 	out->L_at_max = L[n - 1];
@@ -360,7 +390,8 @@ static double neg_curvature_log(double t, void *vp)
 	double e = exp(c->p * t), sg = e / (1 + e);
 	double yt = -c->a * c->p * sg * (1 - sg);
 	double ytt = -c->a * c->p * c->p * sg * (1 - sg) * (1 - 2 * sg);
-	return -fabs(ytt) / pow(1 + yt * yt, 1.5);
+	double q = 1 + yt * yt;
+	return -fabs(ytt) / (q * sqrt(q));
 }
 
 static void knee_point(const double *par, double *Iknee, double *Lknee)
@@ -371,7 +402,7 @@ static void knee_point(const double *par, double *Iknee, double *Lknee)
 		return;
 	curv_ctx c = { (par[HB_KNEE_L0] - par[HB_KNEE_LF]) / par[HB_KNEE_L0], par[HB_KNEE_P] };
 	/* the upper bend lies where (I/Ik)^p < 1, i.e. t < 0 */
-	enum { NG = 400 };
+	enum { NG = 96 };
 	double t0 = -12 / c.p, t1 = 0, best = 0;
 	int kbest = -1;
 	for (int k = 0; k <= NG; k++) {
@@ -450,7 +481,7 @@ int hb_fit_knee(hb_fit_ws *ws, const double *I, const double *L, const double *s
 	double start[4] = { 1.0, lf0, log(ik0), log(2.0) };
 	knee_ctx kc = { I, n, false };
 	hb_fit_problem pr = { .n = n, .p = 4, .y = ys, .sigma = ss, .model = knee_model, .ctx = &kc,
-			      .max_iter = 60, .single_start = true };
+			      .max_iter = 25, .single_start = true };
 	hb_fit_nlls_result nr;
 	/* A quick free run; a floor that goes negative says the sweep shows
 	 * no floor (a tanh-like fall mimicked by Lf << 0): hold it at zero. */
@@ -697,7 +728,7 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 		out->core_status = hb_fit_core(ws, I, L, sigma, n, opt, c);
 		if (out->core_status == HB_OK) {
 			const hb_fit_core_law_result *b = &c->law[c->best];
-			static const char *const names[] = { "mu_i", "gap", "bsat" };
+			static const char *const names[] = { "mu_i", "gap", "Js" };
 			static const char *const units[] = { "", "m", "T" };
 			char name[48];
 			for (int j = 0; j < 3; j++) {

@@ -16,6 +16,7 @@
 #define MAX_ITER 300
 #define XTOL 1e-11
 #define GTOL 1e-12
+#define CHI2_STALL 1e-12
 /* Column-scaled Jacobian this close to singular is rank-deficient. */
 #define RCOND_SINGULAR 1e-13
 /* A parameter whose relative standard error exceeds this has no influence
@@ -36,6 +37,7 @@ typedef struct slot {
 	gsl_vector *s, *work;
 	double *fbuf;           /* model values for the Jacobian call */
 	double *jcache;         /* Jacobian computed alongside the last f */
+	double *lr, *lr2, *lj2; /* lean path: residuals, trial residuals, trial Jacobian */
 	double xcache[HB_FIT_MAX_PARAMS];
 	bool jvalid;
 } slot;
@@ -81,6 +83,9 @@ static void slot_release(slot *s)
 	gsl_vector_free(s->work);
 	free(s->fbuf);
 	free(s->jcache);
+	free(s->lr);
+	free(s->lr2);
+	free(s->lj2);
 	memset(s, 0, sizeof *s);
 }
 
@@ -132,6 +137,10 @@ static slot *slot_get(hb_fit_nlls *w, size_t n, size_t p, bool accel)
 	slot_release(victim);
 	gsl_multifit_nlinear_parameters par = gsl_multifit_nlinear_default_parameters();
 	par.trs = accel ? gsl_multifit_nlinear_trs_lmaccel : gsl_multifit_nlinear_trs_lm;
+	/* Normal equations: for p <= 8 far cheaper per trial step than a
+	 * pivoted QR of the whole Jacobian; the covariance comes from our own
+	 * SVD, so the squared condition number touches only the steps. */
+	par.solver = gsl_multifit_nlinear_solver_cholesky;
 	victim->w = gsl_multifit_nlinear_alloc(gsl_multifit_nlinear_trust, &par, n, p);
 	victim->wts = gsl_vector_alloc(n);
 	victim->x = gsl_vector_alloc(p);
@@ -141,7 +150,10 @@ static slot *slot_get(hb_fit_nlls *w, size_t n, size_t p, bool accel)
 	victim->work = gsl_vector_alloc(p);
 	victim->fbuf = malloc(n * sizeof(double));
 	victim->jcache = malloc(n * p * sizeof(double));
-	if (!victim->jcache || !victim->w || !victim->wts || !victim->x || !victim->js || !victim->v || !victim->s ||
+	victim->lr = malloc(n * sizeof(double));
+	victim->lr2 = malloc(n * sizeof(double));
+	victim->lj2 = malloc(n * p * sizeof(double));
+	if (!victim->jcache || !victim->lr || !victim->lr2 || !victim->lj2 || !victim->w || !victim->wts || !victim->x || !victim->js || !victim->v || !victim->s ||
 	    !victim->work || !victim->fbuf) {
 		slot_release(victim);
 		return NULL;
@@ -192,17 +204,18 @@ static int cb_df(const gsl_vector *x, void *params, gsl_matrix *J)
 
 /* Covariance from the SVD of the column-scaled weighted Jacobian, plus the
  * checks that tell a true minimum from a stall. */
-static void assess(slot *s, const hb_fit_problem *pr, run_out *ro)
+/* J: weighted n x p Jacobian (row-major, contiguous), f: weighted residuals. */
+static void assess(slot *s, const hb_fit_problem *pr, const double *Jd, const double *fd, run_out *ro)
 {
 	size_t n = pr->n, p = pr->p;
-	gsl_matrix *J = gsl_multifit_nlinear_jac(s->w);
-	gsl_vector *f = gsl_multifit_nlinear_residual(s->w);
+	gsl_vector_const_view fv = gsl_vector_const_view_array(fd, n);
+	const gsl_vector *f = &fv.vector;
 	double colnorm[HB_FIT_MAX_PARAMS];
 	double fnorm = gsl_blas_dnrm2(f);
 
 	ro->singular = false;
 	ro->suspect = false;
-	gsl_matrix_memcpy(s->js, J);
+	memcpy(s->js->data, Jd, n * p * sizeof(double));
 	for (size_t j = 0; j < p; j++) {
 		gsl_vector_view col = gsl_matrix_column(s->js, j);
 		colnorm[j] = gsl_blas_dnrm2(&col.vector);
@@ -283,10 +296,38 @@ static int run_once(hb_fit_nlls *w, const hb_fit_problem *pr, const double *star
 		ro->chi2 = INFINITY;
 		return HB_OK;
 	}
-	int info = 0;
-	st = gsl_multifit_nlinear_driver(pr->max_iter > 0 ? (size_t)pr->max_iter : MAX_ITER, XTOL, GTOL, 0.0, NULL, NULL, &info, s->w);
+	/* Our own loop round gsl_multifit_nlinear_iterate: GSL's driver keeps
+	 * iterating at a converged point, where every trial step is lost in
+	 * rounding and each of up to 15 rejections costs a model evaluation.
+	 * A step that lowers chi2 by less than CHI2_STALL (relative) ends it. */
+	int info = 0, iter = 0;
+	size_t max_iter = pr->max_iter > 0 ? (size_t)pr->max_iter : MAX_ITER;
+	double fn0 = gsl_blas_dnrm2(gsl_multifit_nlinear_residual(s->w));
+	double chi_prev = fn0 * fn0;
+	st = GSL_EMAXITER;
+	for (size_t it = 0; it < max_iter; it++) {
+		int ist = gsl_multifit_nlinear_iterate(s->w);
+		iter++;
+		if (ist == GSL_ENOPROG) {
+			/* nothing better within reach: the checks below judge it */
+			st = GSL_SUCCESS;
+			break;
+		}
+		if (ist != GSL_SUCCESS) {
+			st = ist;
+			break;
+		}
+		double fnc = gsl_blas_dnrm2(gsl_multifit_nlinear_residual(s->w));
+		double chi = fnc * fnc;
+		if (gsl_multifit_nlinear_test(XTOL, GTOL, 0.0, &info, s->w) == GSL_SUCCESS ||
+		    chi_prev - chi <= CHI2_STALL * chi_prev) {
+			st = GSL_SUCCESS;
+			break;
+		}
+		chi_prev = chi;
+	}
 	ro->gsl_status = st;
-	ro->iterations = (int)gsl_multifit_nlinear_niter(s->w);
+	ro->iterations = iter;
 	gsl_vector *x = gsl_multifit_nlinear_position(s->w);
 	for (size_t j = 0; j < pr->p; j++)
 		ro->theta[j] = gsl_vector_get(x, j);
@@ -294,7 +335,7 @@ static int run_once(hb_fit_nlls *w, const hb_fit_problem *pr, const double *star
 	ro->chi2 = fn * fn;
 	ro->converged = (st == GSL_SUCCESS);
 	if (st == GSL_SUCCESS || st == GSL_EMAXITER || st == GSL_ENOPROG) {
-		assess(s, pr, ro);
+		assess(s, pr, gsl_multifit_nlinear_jac(s->w)->data, gsl_multifit_nlinear_residual(s->w)->data, ro);
 		if (!(ro->chi2 < 1e150))
 			ro->suspect = true;
 	} else {
@@ -302,6 +343,194 @@ static int run_once(hb_fit_nlls *w, const hb_fit_problem *pr, const double *star
 		ro->singular = true;
 	}
 	if (!ro->converged)
+		ro->suspect = true;
+	return HB_OK;
+}
+
+/* Weighted residuals and Jacobian at x; nonzero outside the model's domain. */
+static int lean_eval(const hb_fit_problem *pr, const double *x, double *r, double *J)
+{
+	size_t n = pr->n, p = pr->p;
+	if (pr->model(x, pr->ctx, r, J))
+		return -1;
+	for (size_t i = 0; i < n; i++) {
+		double wi = pr->sigma ? 1 / pr->sigma[i] : 1;
+		r[i] = (r[i] - pr->y[i]) * wi;
+		if (!isfinite(r[i]))
+			return -1;
+		for (size_t j = 0; j < p; j++) {
+			J[i * p + j] *= wi;
+			if (!isfinite(J[i * p + j]))
+				return -1;
+		}
+	}
+	return 0;
+}
+
+/* Solves (A + mu diag(d2)) x = b by Cholesky, p <= HB_FIT_MAX_PARAMS. */
+static int damped_solve(const double *A, const double *d2, double mu, const double *b, size_t p, double *x)
+{
+	double Lc[HB_FIT_MAX_PARAMS * HB_FIT_MAX_PARAMS];
+	for (size_t i = 0; i < p; i++) {
+		for (size_t j = 0; j <= i; j++) {
+			double sum = A[i * p + j] + (i == j ? mu * d2[i] : 0);
+			for (size_t k = 0; k < j; k++)
+				sum -= Lc[i * p + k] * Lc[j * p + k];
+			if (i == j) {
+				if (!(sum > 0))
+					return -1;
+				Lc[i * p + i] = sqrt(sum);
+			} else {
+				Lc[i * p + j] = sum / Lc[j * p + j];
+			}
+		}
+	}
+	for (size_t i = 0; i < p; i++) {
+		double sum = b[i];
+		for (size_t k = 0; k < i; k++)
+			sum -= Lc[i * p + k] * x[k];
+		x[i] = sum / Lc[i * p + i];
+	}
+	for (size_t i = p; i-- > 0;) {
+		double sum = x[i];
+		for (size_t k = i + 1; k < p; k++)
+			sum -= Lc[k * p + i] * x[k];
+		x[i] = sum / Lc[i * p + i];
+	}
+	return 0;
+}
+
+/*
+ * The everyday first run: Levenberg-Marquardt on the normal equations with
+ * More's diagonal scaling and Nielsen's damping update, the same stopping
+ * rules as the GSL loop below (x and gradient tests, chi2 stall, no
+ * progress). GSL's driver spends as much on vector bookkeeping as a small
+ * model costs to evaluate; for p <= 8 none of it is needed. The result is
+ * judged by the same assess(); a suspect run goes on to the GSL restarts.
+ */
+static int run_lean(hb_fit_nlls *w, const hb_fit_problem *pr, const double *start, run_out *ro)
+{
+	slot *s = slot_get(w, pr->n, pr->p, false);
+	if (!s)
+		return HB_ERR_NOMEM;
+	size_t n = pr->n, p = pr->p;
+	size_t max_iter = pr->max_iter > 0 ? (size_t)pr->max_iter : MAX_ITER;
+	double x[HB_FIT_MAX_PARAMS], xt[HB_FIT_MAX_PARAMS], dx[HB_FIT_MAX_PARAMS];
+	double A[HB_FIT_MAX_PARAMS * HB_FIT_MAX_PARAMS], g[HB_FIT_MAX_PARAMS], d2[HB_FIT_MAX_PARAMS];
+	double *r = s->lr, *rt = s->lr2, *J = s->jcache, *Jt = s->lj2;
+	memset(ro, 0, sizeof *ro);
+	memcpy(x, start, p * sizeof(double));
+	if (lean_eval(pr, x, r, J)) {
+		ro->gsl_status = GSL_EDOM;
+		ro->suspect = ro->singular = true;
+		ro->chi2 = INFINITY;
+		memcpy(ro->theta, x, p * sizeof(double));
+		return HB_OK;
+	}
+	double chi = 0;
+	for (size_t i = 0; i < n; i++)
+		chi += r[i] * r[i];
+	for (size_t j = 0; j < p; j++)
+		d2[j] = 0;
+	double mu = -1, nu = 2;
+	int st = GSL_EMAXITER, iter = 0, rejected = 0;
+	bool fresh = true;
+	while ((size_t)iter < max_iter) {
+		if (fresh) {
+			for (size_t a = 0; a < p; a++) {
+				double ga = 0;
+				for (size_t i = 0; i < n; i++)
+					ga += J[i * p + a] * r[i];
+				g[a] = ga;
+				for (size_t b = 0; b <= a; b++) {
+					double sum = 0;
+					for (size_t i = 0; i < n; i++)
+						sum += J[i * p + a] * J[i * p + b];
+					A[a * p + b] = A[b * p + a] = sum;
+				}
+				/* More: the scale only grows, so a parameter that goes
+				 * quiet keeps the damping it had */
+				if (A[a * p + a] > d2[a])
+					d2[a] = A[a * p + a];
+				if (!(d2[a] > 0))
+					d2[a] = 1;
+			}
+			if (mu < 0)
+				mu = 1e-3;
+			/* gradient test as GSL's: max |g_i| max(|x_i|, 1) / max(chi/2, 1) */
+			double gt = 0;
+			for (size_t a = 0; a < p; a++) {
+				double v = fabs(g[a]) * fmax(fabs(x[a]), 1);
+				if (v > gt)
+					gt = v;
+			}
+			if (gt / fmax(0.5 * chi, 1) <= GTOL) {
+				st = GSL_SUCCESS;
+				break;
+			}
+			fresh = false;
+		}
+		iter++;
+		double mg[HB_FIT_MAX_PARAMS];
+		for (size_t a = 0; a < p; a++)
+			mg[a] = -g[a];
+		bool ok = damped_solve(A, d2, mu, mg, p, dx) == 0;
+		double chit = INFINITY, pred = 0;
+		if (ok) {
+			for (size_t a = 0; a < p; a++) {
+				xt[a] = x[a] + dx[a];
+				double adx = 0;
+				for (size_t b = 0; b < p; b++)
+					adx += A[a * p + b] * dx[b];
+				pred -= dx[a] * (2 * g[a] + adx);
+			}
+			if (lean_eval(pr, xt, rt, Jt) == 0) {
+				chit = 0;
+				for (size_t i = 0; i < n; i++)
+					chit += rt[i] * rt[i];
+			}
+		}
+		if (ok && chit < chi) {
+			double rho = pred > 0 ? (chi - chit) / pred : 1;
+			double t = 2 * rho - 1;
+			mu *= fmax(1.0 / 3, 1 - t * t * t);
+			nu = 2;
+			bool xsmall = true;
+			for (size_t a = 0; a < p; a++)
+				if (fabs(dx[a]) > XTOL * (fabs(xt[a]) + XTOL))
+					xsmall = false;
+			double chi_prev = chi;
+			memcpy(x, xt, p * sizeof(double));
+			double *tmp = r;
+			r = rt;
+			rt = tmp;
+			tmp = J;
+			J = Jt;
+			Jt = tmp;
+			chi = chit;
+			fresh = true;
+			rejected = 0;
+			if (xsmall || chi_prev - chi <= CHI2_STALL * chi_prev) {
+				st = GSL_SUCCESS;
+				break;
+			}
+		} else {
+			mu *= nu;
+			nu *= 2;
+			/* as GSL: nothing better within reach; the checks judge it */
+			if (++rejected >= 15 || !isfinite(mu)) {
+				st = GSL_SUCCESS;
+				break;
+			}
+		}
+	}
+	ro->gsl_status = st;
+	ro->iterations = iter;
+	memcpy(ro->theta, x, p * sizeof(double));
+	ro->chi2 = chi;
+	ro->converged = (st == GSL_SUCCESS);
+	assess(s, pr, J, r, ro);
+	if (!(ro->chi2 < 1e150) || !ro->converged)
 		ro->suspect = true;
 	return HB_OK;
 }
@@ -339,7 +568,8 @@ int hb_fit_nlls_run(hb_fit_nlls *w, const hb_fit_problem *pr, const double *star
 	w->err[0] = 0;
 
 	run_out best, cur;
-	int rc = run_once(w, pr, start, false, &best);
+	/* the plain run (check off) stays GSL's own, as documented */
+	int rc = w->check ? run_lean(w, pr, start, &best) : run_once(w, pr, start, false, &best);
 	if (rc)
 		return rc;
 	int starts = 1, iters = best.iterations;

@@ -130,7 +130,8 @@ static void judge_bias(hb_analysis_summary *s, const hb_db_part *part, const hb_
 	if (isfinite(part->dcr_max_ohm)) {
 		if (isfinite(s->dcr_ohm))
 			add_check(s, "DCR", "ohm", hb_verdict_max(s->dcr_ohm, part->dcr_max_ohm),
-				  "two-wire from the supply's V/I at low current, leads and contacts included");
+				  s->dcr_from_meter ? "the meter's DC-resistance reading, at zero bias"
+						    : "two-wire from the supply's V/I at low current, leads and contacts included");
 		else
 			add_check(s, "DCR", "ohm", untested(), "no voltage read-back at low current");
 	}
@@ -360,7 +361,12 @@ int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *op
 	for (size_t i = 0; i < n; i++)
 		if (isfinite(pts[i].bias_meas_a) && pts[i].bias_meas_a > top)
 			top = pts[i].bias_meas_a;
-	s->dcr_ohm = dcr_from_points(pts, n, top);
+	if (isfinite(sw.dcr_meter_ohm)) {
+		s->dcr_ohm = sw.dcr_meter_ohm;
+		s->dcr_from_meter = true;
+	} else {
+		s->dcr_ohm = dcr_from_points(pts, n, top);
+	}
 	s->fit_status = hb_fit_bias_analyse(I, L, sigma, m, &fo, &s->bias);
 	s->ran = true;
 	if (s->fit_status != HB_OK && !s->message[0])
@@ -472,7 +478,7 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 	}
 	print_value(out, "stored energy at rated", b->W_rated, NAN, "J");
 	if (isfinite(s->dcr_ohm))
-		print_value(out, "DCR (two-wire, leads incl.)", s->dcr_ohm, NAN, "ohm");
+		print_value(out, s->dcr_from_meter ? "DCR (meter)" : "DCR (two-wire, leads incl.)", s->dcr_ohm, NAN, "ohm");
 	if (s->n_checks) {
 		fprintf(out, "verdicts:\n");
 		for (size_t i = 0; i < s->n_checks; i++) {

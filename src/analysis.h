@@ -37,7 +37,8 @@ typedef struct hb_analysis_summary {
 	int fit_status;
 	hb_fit_bias_result bias;   /* bias sweeps */
 	hb_fit_freq_result freq;   /* frequency sweeps */
-	double dcr_ohm;            /* from the supply's V/I, two-wire with leads; NAN if none */
+	double dcr_ohm;            /* the meter's reading, else the supply's V/I (two-wire, leads in); NAN if none */
+	bool dcr_from_meter;
 	size_t n_checks;
 	hb_analysis_check checks[HB_ANALYSIS_MAX_CHECKS];
 	hb_overall overall;

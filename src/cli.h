@@ -67,6 +67,7 @@ int hb_cmd_ports(int argc, char **argv);
 int hb_cmd_identify(int argc, char **argv);
 int hb_cmd_sim(int argc, char **argv);
 int hb_cmd_demo(int argc, char **argv);
+int hb_cmd_core(int argc, char **argv);
 int hb_cmd_sweep(int argc, char **argv);
 int hb_cmd_fsweep(int argc, char **argv);
 int hb_cmd_fit(int argc, char **argv);
@@ -74,5 +75,11 @@ int hb_cmd_plan(int argc, char **argv);
 int hb_cmd_sweeps(int argc, char **argv);
 int hb_cmd_show(int argc, char **argv);
 int hb_cmd_part(int argc, char **argv);
+int hb_cmd_inspect(int argc, char **argv);
+int hb_cmd_history(int argc, char **argv);
+int hb_cmd_compare(int argc, char **argv);
+int hb_cmd_report(int argc, char **argv);
+int hb_cmd_export(int argc, char **argv);
+int hb_cmd_import(int argc, char **argv);
 
 #endif

@@ -348,14 +348,15 @@ static void print_plan(FILE *out, const sweep_args *a, const hb_db_part *part, c
 {
 	const hb_sweep_plan *p = &a->plan;
 	const hb_sweep_limits *lim = &p->limits;
-	char buf[48];
+	char buf[48], level[48];
 	if (p->kind == HB_SWEEP_BIAS) {
 		double *v = NULL;
 		int n = 0;
 		if (hb_sweep_setpoints(p, &v, &n) == HB_OK) {
-			fprintf(out, "plan: %d points, %s spacing%s, test %s at %s %s\n", n,
+			fprintf(out, "plan: %d points, %s spacing%s, test %s at %s\n", n,
 				p->spacing == HB_SPACING_LOG ? "log" : "linear", p->return_down ? ", up and back down" : "",
-				hb_format_si(buf, sizeof buf, p->frequency, "Hz", 4), "", "");
+				hb_format_si(buf, sizeof buf, p->frequency, "Hz", 4),
+				hb_format_si(level, sizeof level, p->level, p->level_kind == HB_LEVEL_CURRENT ? "A" : "V", 3));
 			fprintf(out, "setpoints (A):");
 			for (int i = 0; i < n; i++)
 				fprintf(out, "%s%.4g", i % 10 ? " " : "\n  ", v[i]);

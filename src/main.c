@@ -15,6 +15,7 @@ static const hb_command commands[] = {
 	{ "identify", hb_cmd_identify, "ask instruments who they are (*IDN?, profile, error queue)" },
 	{ "sim", hb_cmd_sim, "serve the simulated bench over TCP or a pseudo-terminal" },
 	{ "demo", hb_cmd_demo, "run the main job on the simulated bench" },
+	{ "core", hb_cmd_core, "core geometry: effective parameters, expected inductance" },
 	{ "sweep", hb_cmd_sweep, "measure L against DC bias, store every point, fit and judge" },
 	{ "fsweep", hb_cmd_fsweep, "measure L and R against frequency (optionally under bias)" },
 	{ "fit", hb_cmd_fit, "fit a stored sweep again and store the fit" },
@@ -22,6 +23,12 @@ static const hb_command commands[] = {
 	{ "sweeps", hb_cmd_sweeps, "list stored sweeps (filters: part, unit, lot, status, kind)" },
 	{ "show", hb_cmd_show, "one stored sweep: settings and points (text, JSON, CSV)" },
 	{ "part", hb_cmd_part, "part specs: add, list, show, edit" },
+	{ "inspect", hb_cmd_inspect, "inspect a lot by ISO 2859-1 sampling: sweep, judge, tally, decide (resumable)" },
+	{ "history", hb_cmd_history, "a part's measured units, lot statistics with Cpk, trend across lots" },
+	{ "compare", hb_cmd_compare, "stored bias sweeps side by side: L0, drop currents, mu_e, gap, verdict" },
+	{ "report", hb_cmd_report, "write an HTML record of a sweep, a lot or a part (inline plots)" },
+	{ "export", hb_cmd_export, "stored sweeps as CSV or JSON, SI units in every column" },
+	{ "import", hb_cmd_import, "store a sweep a meter logged on its own (CSV), then fit it" },
 };
 
 static void usage(FILE *out)

@@ -495,6 +495,10 @@ static int configure_meter(engine *e, double frequency)
 
 static int start_supply(engine *e)
 {
+	/* A signal that came while the instruments were being opened must stop
+	 * the sweep before the output is ever switched on. */
+	if (pending_signal)
+		return signal_stop(e);
 	/* Known state before anything flows: output off, zero, limit set. */
 	int rc = hb_supply_output(e->supply, false);
 	if (rc != HB_OK)

@@ -392,7 +392,6 @@ static void start_wait(hb_sim *sim, sim_conn *conn, sim_pending kind, double sec
 {
 	conn->pending = kind;
 	conn->busy_until = now + seconds * sim->p.time_scale;
-	(void)sim;
 }
 
 void sim_finish_pending(hb_sim *sim, sim_conn *conn, double now)

@@ -1,0 +1,629 @@
+/* src/cmd_inspect.c - the `inspect` command: a lot inspected by ISO 2859-1 sampling at the bench, resumable */
+#include <errno.h>
+#include <getopt.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <strings.h>
+#include <unistd.h>
+
+#include <jansson.h>
+
+#include "cli.h"
+#include "inspect.h"
+#include "session.h"
+
+static void inspect_usage(FILE *out)
+{
+	fprintf(out,
+		"usage: henrybench inspect --part P --lot LOT --lot-size N --aql AQL --lcr RES --supply RES [options]\n"
+		"Inspects a lot by ISO 2859-1 single sampling: shows the plan, stores it on the lot, then\n"
+		"sweeps, fits and judges each sample unit, keeps the tally and decides the lot (rejecting as\n"
+		"soon as Re nonconforming units are found). Interrupted, it resumes where it stopped.\n\n"
+		"sampling:\n"
+		"  --lot-size N         units in the lot (2 or more)\n"
+		"  --aql AQL            acceptance quality limit, one of the ISO 2859-1 series (e.g. 0.65 1.0 2.5 4.0)\n"
+		"  --level LEVEL        S-1 ... S-4, I, II (default) or III\n"
+		"  --severity SEV       normal (default), tightened or reduced\n"
+		"units:\n"
+		"  --serials FILE       serial numbers in draw order, one per line\n"
+		"  --first-serial S     count the trailing number up: LOT7-0001, LOT7-0002, ...\n"
+		"                       (neither: type or scan each serial at the prompt)\n"
+		"  --auto               no prompts: measure the units one after another (needs a serial source);\n"
+		"                       a sweep that fails is recorded as skipped\n"
+		"sweep of each unit (as for sweep; defaults from the part):\n"
+		"  --from A --to A      current range (default 0 to 1.25 x the part's saturation-spec current)\n"
+		"  --steps N            points on the way up (default 21)\n"
+		"  --spacing lin|log    step spacing\n"
+		"  --freq HZ            test frequency (default the part's)\n"
+		"  --test-level V|A     test signal (default the part's)\n"
+		"  --avg N  --aperture short|medium|long  --settle auto|TIME  --settle-timeout S\n"
+		"  --max-current A --max-voltage V --max-power W --ramp A/s   limits (also from the station file)\n"
+		"  --ambient C          ambient temperature to record\n"
+		"  --yes                do not ask before sweeping above the station's threshold\n"
+		"output:\n"
+		"  --show-fit           print each unit's whole fit\n"
+		"  --json               the lot, plan, decision and every unit as JSON on stdout\n\n"
+		"At each prompt: Enter measures the unit named, a typed serial replaces it, 's' records it\n"
+		"skipped (could not be tested; the next unit drawn replaces it), 'q' pauses with the lot open.\n"
+		"A unit whose verdict is incomplete counts as nonconforming (docs/inspection.md).\n"
+		"Exit status: 0 lot decided (accept or reject: see the output), 1 lot still open, 2 usage,\n"
+		"130 stopped by Ctrl-C (lot still open).\n");
+}
+
+enum {
+	OPT_PART = 256, OPT_LOT, OPT_LOT_SIZE, OPT_AQL, OPT_LCR, OPT_SUPPLY, OPT_LEVEL, OPT_SEVERITY, OPT_SERIALS,
+	OPT_FIRST_SERIAL, OPT_AUTO, OPT_FROM, OPT_TO, OPT_STEPS, OPT_SPACING, OPT_FREQ, OPT_TEST_LEVEL, OPT_AVG,
+	OPT_APERTURE, OPT_SETTLE, OPT_SETTLE_TIMEOUT, OPT_MAX_CURRENT, OPT_MAX_VOLTAGE, OPT_MAX_POWER, OPT_RAMP,
+	OPT_AMBIENT, OPT_YES, OPT_SHOW_FIT, OPT_JSON, OPT_HELP
+};
+
+static const struct option long_options[] = {
+	{ "part", required_argument, NULL, OPT_PART },
+	{ "lot", required_argument, NULL, OPT_LOT },
+	{ "lot-size", required_argument, NULL, OPT_LOT_SIZE },
+	{ "aql", required_argument, NULL, OPT_AQL },
+	{ "lcr", required_argument, NULL, OPT_LCR },
+	{ "supply", required_argument, NULL, OPT_SUPPLY },
+	{ "level", required_argument, NULL, OPT_LEVEL },
+	{ "severity", required_argument, NULL, OPT_SEVERITY },
+	{ "serials", required_argument, NULL, OPT_SERIALS },
+	{ "first-serial", required_argument, NULL, OPT_FIRST_SERIAL },
+	{ "auto", no_argument, NULL, OPT_AUTO },
+	{ "from", required_argument, NULL, OPT_FROM },
+	{ "to", required_argument, NULL, OPT_TO },
+	{ "steps", required_argument, NULL, OPT_STEPS },
+	{ "spacing", required_argument, NULL, OPT_SPACING },
+	{ "freq", required_argument, NULL, OPT_FREQ },
+	{ "test-level", required_argument, NULL, OPT_TEST_LEVEL },
+	{ "avg", required_argument, NULL, OPT_AVG },
+	{ "aperture", required_argument, NULL, OPT_APERTURE },
+	{ "settle", required_argument, NULL, OPT_SETTLE },
+	{ "settle-timeout", required_argument, NULL, OPT_SETTLE_TIMEOUT },
+	{ "max-current", required_argument, NULL, OPT_MAX_CURRENT },
+	{ "max-voltage", required_argument, NULL, OPT_MAX_VOLTAGE },
+	{ "max-power", required_argument, NULL, OPT_MAX_POWER },
+	{ "ramp", required_argument, NULL, OPT_RAMP },
+	{ "ambient", required_argument, NULL, OPT_AMBIENT },
+	{ "yes", no_argument, NULL, OPT_YES },
+	{ "show-fit", no_argument, NULL, OPT_SHOW_FIT },
+	{ "json", no_argument, NULL, OPT_JSON },
+	{ "help", no_argument, NULL, OPT_HELP },
+	{ NULL, 0, NULL, 0 },
+};
+
+typedef struct inspect_args {
+	const char *part, *lot, *lcr, *supply, *serials_file, *first_serial;
+	long lot_size;
+	double aql;
+	hb_insp_level level;
+	hb_severity severity;
+	hb_sweep_plan plan;
+	bool to_given, freq_given, level_given;
+	double cli_max_current, cli_max_voltage, cli_max_power, cli_ramp, ambient_c;
+	bool autorun, yes, json, show_fit;
+} inspect_args;
+
+/* Where the serial numbers come from, and the prompt's streams. */
+typedef struct unit_source {
+	char **serials;
+	size_t n_serials;
+	const char *serials_file;
+	const char *first_serial;
+	bool autorun;
+	FILE *in, *prompt;
+} unit_source;
+
+static int parse_test_level(const char *text, hb_sweep_plan *plan)
+{
+	char err[200];
+	double v;
+	bool amps = strpbrk(text, "Aa") != NULL;
+	if (!amps && hb_parse_value(text, "V", &v, err, sizeof err) == HB_OK && v > 0 && v <= 20) {
+		plan->level_kind = HB_LEVEL_VOLTAGE;
+		plan->level = v;
+		return HB_OK;
+	}
+	if (amps && hb_parse_value(text, "A", &v, err, sizeof err) == HB_OK && v > 0 && v <= 1) {
+		plan->level_kind = HB_LEVEL_CURRENT;
+		plan->level = v;
+		return HB_OK;
+	}
+	hb_cli_error("--test-level '%s': accepted 1 mV to 20 V (e.g. 0.5V) or 1 uA to 1 A (e.g. 10mA)", text);
+	return HB_ERR_ARG;
+}
+
+static int parse_args(int argc, char **argv, inspect_args *a)
+{
+	memset(a, 0, sizeof *a);
+	hb_sweep_plan_defaults(&a->plan);
+	a->plan.kind = HB_SWEEP_BIAS;
+	a->aql = NAN;
+	a->lot_size = -1;
+	a->level = HB_LEVEL_II;
+	a->severity = HB_SEVERITY_NORMAL;
+	a->cli_max_current = a->cli_max_voltage = a->cli_max_power = a->cli_ramp = a->ambient_c = NAN;
+	hb_sweep_plan *p = &a->plan;
+	char series[200];
+	optind = 1;
+	opterr = 0;
+	int c;
+	long n;
+	while ((c = getopt_long(argc, argv, "h", long_options, NULL)) != -1) {
+		int rc = HB_OK;
+		switch (c) {
+		case OPT_PART: a->part = optarg; break;
+		case OPT_LOT: a->lot = optarg; break;
+		case OPT_LCR: a->lcr = optarg; break;
+		case OPT_SUPPLY: a->supply = optarg; break;
+		case OPT_SERIALS: a->serials_file = optarg; break;
+		case OPT_FIRST_SERIAL: a->first_serial = optarg; break;
+		case OPT_AUTO: a->autorun = true; break;
+		case OPT_LOT_SIZE: rc = hb_opt_int("--lot-size", optarg, 2, 1000000000L, &a->lot_size); break;
+		case OPT_AQL:
+			rc = hb_opt_value("--aql", optarg, "", -INFINITY, INFINITY, &a->aql);
+			if (rc == HB_OK && hb_iso2859_aql_index(a->aql) < 0) {
+				hb_cli_error("--aql %s is not in the ISO 2859-1 series (accepted: %s)", optarg,
+					     hb_iso2859_aql_series_text(series, sizeof series));
+				rc = HB_ERR_ARG;
+			}
+			break;
+		case OPT_LEVEL:
+			if (hb_iso2859_parse_level(optarg, &a->level) != HB_OK) {
+				hb_cli_error("--level '%s' unknown (accepted: S-1, S-2, S-3, S-4, I, II, III)", optarg);
+				rc = HB_ERR_ARG;
+			}
+			break;
+		case OPT_SEVERITY:
+			if (hb_iso2859_parse_severity(optarg, &a->severity) != HB_OK) {
+				hb_cli_error("--severity '%s' unknown (accepted: normal, tightened, reduced)", optarg);
+				rc = HB_ERR_ARG;
+			}
+			break;
+		case OPT_FROM: rc = hb_opt_value("--from", optarg, "A", 0, 1000, &p->from); break;
+		case OPT_TO:
+			rc = hb_opt_value("--to", optarg, "A", 1e-6, 1000, &p->to);
+			a->to_given = true;
+			break;
+		case OPT_STEPS:
+			rc = hb_opt_int("--steps", optarg, 2, 10000, &n);
+			p->steps = (int)n;
+			break;
+		case OPT_SPACING:
+			if (strcmp(optarg, "lin") == 0)
+				p->spacing = HB_SPACING_LIN;
+			else if (strcmp(optarg, "log") == 0)
+				p->spacing = HB_SPACING_LOG;
+			else {
+				hb_cli_error("--spacing '%s': accepted lin or log", optarg);
+				rc = HB_ERR_ARG;
+			}
+			break;
+		case OPT_FREQ:
+			rc = hb_opt_value("--freq", optarg, "Hz", 1, 1e9, &p->frequency);
+			a->freq_given = true;
+			break;
+		case OPT_TEST_LEVEL:
+			rc = parse_test_level(optarg, p);
+			a->level_given = true;
+			break;
+		case OPT_AVG:
+			rc = hb_opt_int("--avg", optarg, 1, 256, &n);
+			p->averaging = (int)n;
+			break;
+		case OPT_APERTURE:
+			if (strcmp(optarg, "short") == 0)
+				p->aperture = HB_APERTURE_SHORT;
+			else if (strcmp(optarg, "medium") == 0)
+				p->aperture = HB_APERTURE_MEDIUM;
+			else if (strcmp(optarg, "long") == 0)
+				p->aperture = HB_APERTURE_LONG;
+			else {
+				hb_cli_error("--aperture '%s': accepted short, medium or long", optarg);
+				rc = HB_ERR_ARG;
+			}
+			break;
+		case OPT_SETTLE:
+			if (strcmp(optarg, "auto") == 0) {
+				p->settle = HB_SETTLE_AUTO;
+			} else {
+				p->settle = HB_SETTLE_FIXED;
+				rc = hb_opt_value("--settle", optarg, "s", 0, 3600, &p->settle_time);
+			}
+			break;
+		case OPT_SETTLE_TIMEOUT:
+			rc = hb_opt_value("--settle-timeout", optarg, "s", 0.01, 3600, &p->settle_timeout);
+			break;
+		case OPT_MAX_CURRENT: rc = hb_opt_value("--max-current", optarg, "A", 1e-6, 1000, &a->cli_max_current); break;
+		case OPT_MAX_VOLTAGE: rc = hb_opt_value("--max-voltage", optarg, "V", 1e-3, 1000, &a->cli_max_voltage); break;
+		case OPT_MAX_POWER: rc = hb_opt_value("--max-power", optarg, "W", 1e-3, 100000, &a->cli_max_power); break;
+		case OPT_RAMP: rc = hb_opt_value("--ramp", optarg, "A/s", 1e-3, 1000, &a->cli_ramp); break;
+		case OPT_AMBIENT: rc = hb_opt_value("--ambient", optarg, "", -60, 200, &a->ambient_c); break;
+		case OPT_YES: a->yes = true; break;
+		case OPT_SHOW_FIT: a->show_fit = true; break;
+		case OPT_JSON: a->json = true; break;
+		case OPT_HELP:
+		case 'h':
+			inspect_usage(stdout);
+			return 1;
+		default:
+			hb_cli_error("inspect: unknown or incomplete option '%s' (try --help)", argv[optind - 1]);
+			return HB_ERR_ARG;
+		}
+		if (rc != HB_OK)
+			return HB_ERR_ARG;
+	}
+	if (optind < argc) {
+		hb_cli_error("inspect: unexpected argument '%s' (try --help)", argv[optind]);
+		return HB_ERR_ARG;
+	}
+	const char *missing = !a->part ? "--part P" : !a->lot ? "--lot CODE" : a->lot_size < 0 ? "--lot-size N" :
+			      isnan(a->aql) ? "--aql AQL" : !a->lcr ? "--lcr RESOURCE" : !a->supply ? "--supply RESOURCE" :
+			      NULL;
+	if (missing) {
+		hb_cli_error("inspect: %s is required (try --help)", missing);
+		return HB_ERR_ARG;
+	}
+	if (a->serials_file && a->first_serial) {
+		hb_cli_error("inspect: give --serials FILE or --first-serial S, not both");
+		return HB_ERR_ARG;
+	}
+	if (a->autorun && !a->serials_file && !a->first_serial) {
+		hb_cli_error("inspect: --auto needs --serials FILE or --first-serial S (nobody types serials)");
+		return HB_ERR_ARG;
+	}
+	return HB_OK;
+}
+
+static char *trim(char *s)
+{
+	while (*s == ' ' || *s == '\t')
+		s++;
+	size_t n = strlen(s);
+	while (n > 0 && (s[n - 1] == '\n' || s[n - 1] == '\r' || s[n - 1] == ' ' || s[n - 1] == '\t'))
+		s[--n] = 0;
+	return s;
+}
+
+static void free_serials(unit_source *src)
+{
+	for (size_t i = 0; i < src->n_serials; i++)
+		free(src->serials[i]);
+	free(src->serials);
+	src->serials = NULL;
+	src->n_serials = 0;
+}
+
+/* One serial a line; blank lines and lines starting with '#' are ignored. */
+static int load_serials(const char *path, unit_source *src)
+{
+	FILE *f = fopen(path, "r");
+	if (!f) {
+		hb_cli_error("--serials %s: cannot open: %s", path, strerror(errno));
+		return HB_ERR_IO;
+	}
+	char line[512];
+	size_t cap = 0;
+	int rc = HB_OK;
+	unsigned lineno = 0;
+	while (fgets(line, sizeof line, f)) {
+		lineno++;
+		char *s = trim(line);
+		if (!*s || *s == '#')
+			continue;
+		if (strlen(s) >= HB_DB_ID_LEN) {
+			hb_cli_error("%s:%u: serial '%s' is longer than %d characters", path, lineno, s, HB_DB_ID_LEN - 1);
+			rc = HB_ERR_ARG;
+			break;
+		}
+		if (src->n_serials == cap) {
+			size_t ncap = cap ? cap * 2 : 64;
+			char **grown = realloc(src->serials, ncap * sizeof *grown);
+			if (!grown) {
+				rc = HB_ERR_NOMEM;
+				break;
+			}
+			src->serials = grown;
+			cap = ncap;
+		}
+		src->serials[src->n_serials] = strdup(s);
+		if (!src->serials[src->n_serials]) {
+			rc = HB_ERR_NOMEM;
+			break;
+		}
+		src->n_serials++;
+	}
+	if (rc == HB_OK && ferror(f)) {
+		hb_cli_error("--serials %s: read error", path);
+		rc = HB_ERR_IO;
+	}
+	fclose(f);
+	if (rc == HB_OK && src->n_serials == 0) {
+		hb_cli_error("--serials %s: no serial numbers in the file", path);
+		rc = HB_ERR_ARG;
+	}
+	return rc;
+}
+
+/* The serial the source names for a sample position; empty when none. */
+static void proposed_serial(const unit_source *src, int sequence, char *serial, size_t cap)
+{
+	serial[0] = 0;
+	if (src->serials && (size_t)sequence <= src->n_serials)
+		snprintf(serial, cap, "%s", src->serials[sequence - 1]);
+	else if (src->first_serial && hb_inspect_serial_nth(src->first_serial, sequence - 1, serial, cap) != HB_OK)
+		serial[0] = 0;
+}
+
+static hb_inspect_action next_unit(void *ctx, int sequence, const char *complaint, char *serial, size_t cap)
+{
+	unit_source *src = ctx;
+	char proposal[HB_DB_ID_LEN];
+	proposed_serial(src, sequence, proposal, sizeof proposal);
+	if (src->autorun) {
+		if (complaint) {
+			hb_cli_error("unit %d: %s", sequence, complaint);
+			return HB_INSPECT_PAUSE;
+		}
+		if (!proposal[0]) {
+			hb_cli_error("the serial list %s ends before sample position %d", src->serials_file, sequence);
+			return HB_INSPECT_PAUSE;
+		}
+		snprintf(serial, cap, "%s", proposal);
+		return HB_INSPECT_MEASURE;
+	}
+	if (complaint)
+		fprintf(src->prompt, "  %s: name another unit\n", complaint);
+	if (proposal[0])
+		fprintf(src->prompt, "unit #%d, serial %s: place it in the fixture and press Enter\n"
+				     "  (or type its real serial; s = skip, could not be tested; q = pause): ",
+			sequence, proposal);
+	else
+		fprintf(src->prompt, "unit #%d: place it in the fixture, then type or scan its serial (s = skip, q = pause): ",
+			sequence);
+	fflush(src->prompt);
+	char line[256];
+	if (!fgets(line, sizeof line, src->in)) {
+		fputc('\n', src->prompt);
+		return HB_INSPECT_PAUSE;
+	}
+	/* Answers from a pipe are not echoed: keep the log readable. */
+	if (!isatty(fileno(src->in)))
+		fputc('\n', src->prompt);
+	char *s = trim(line);
+	if (strcasecmp(s, "q") == 0)
+		return HB_INSPECT_PAUSE;
+	if (strcasecmp(s, "s") == 0) {
+		snprintf(serial, cap, "%s", proposal);
+		return HB_INSPECT_SKIP;
+	}
+	if (strlen(s) >= cap) {
+		snprintf(serial, cap, "%s", "");
+		return next_unit(ctx, sequence, "that serial is too long", serial, cap);
+	}
+	snprintf(serial, cap, "%s", *s ? s : proposal);
+	return HB_INSPECT_MEASURE;
+}
+
+static hb_inspect_action sweep_failed(void *ctx, int sequence, const char *serial, const hb_sweep_result *r)
+{
+	unit_source *src = ctx;
+	(void)r;
+	if (src->autorun)
+		return HB_INSPECT_SKIP;
+	for (;;) {
+		fprintf(src->prompt, "unit #%d (%s) could not be measured: r = retry (check the contacts first), "
+				     "s = skip, q = pause: ", sequence, serial);
+		fflush(src->prompt);
+		char line[64];
+		if (!fgets(line, sizeof line, src->in)) {
+			fputc('\n', src->prompt);
+			return HB_INSPECT_PAUSE;
+		}
+		char *s = trim(line);
+		if (strcasecmp(s, "r") == 0)
+			return HB_INSPECT_RETRY;
+		if (strcasecmp(s, "s") == 0)
+			return HB_INSPECT_SKIP;
+		if (strcasecmp(s, "q") == 0)
+			return HB_INSPECT_PAUSE;
+	}
+}
+
+static double min_defined(double a, double b)
+{
+	if (isnan(a))
+		return b;
+	if (isnan(b))
+		return a;
+	return a < b ? a : b;
+}
+
+/* The strictest of the command line, the station file and the part's
+ * ratings, as for the sweep command. */
+static void resolve_limits(inspect_args *a, const hb_station *st, const hb_db_part *part)
+{
+	hb_sweep_limits *lim = &a->plan.limits;
+	double rating = fmax(isnan(part->rated_current_a) ? 0 : part->rated_current_a,
+			     isnan(part->sat_current_a) ? 0 : part->sat_current_a);
+	double part_limit = rating > 0 ? rating * st->part_overdrive : NAN;
+	lim->max_current = min_defined(min_defined(a->cli_max_current, st->max_current), part_limit);
+	lim->max_voltage = min_defined(a->cli_max_voltage, st->max_voltage);
+	lim->max_power = min_defined(a->cli_max_power, st->max_power);
+	if (!isnan(a->cli_ramp))
+		lim->ramp_rate = a->cli_ramp;
+	else if (!isnan(st->ramp_rate))
+		lim->ramp_rate = st->ramp_rate;
+}
+
+static int confirm(const inspect_args *a, const hb_station *st, const unit_source *src)
+{
+	if (a->yes || isnan(st->confirm_above) || a->plan.to <= st->confirm_above)
+		return HB_OK;
+	if (a->autorun || !isatty(fileno(src->in))) {
+		hb_cli_error("top current %.4g A is above the station's confirmation threshold %.4g A: add --yes to proceed",
+			     a->plan.to, st->confirm_above);
+		return HB_ERR_LIMIT;
+	}
+	fprintf(src->prompt, "Each unit is swept to %.4g A, above this station's threshold of %.4g A. Type 'yes' to go on: ",
+		a->plan.to, st->confirm_above);
+	char line[16] = "";
+	if (!fgets(line, sizeof line, src->in) || strncmp(line, "yes", 3) != 0) {
+		hb_cli_error("not confirmed; nothing was switched on");
+		return HB_ERR_LIMIT;
+	}
+	return HB_OK;
+}
+
+int hb_cmd_inspect(int argc, char **argv)
+{
+	inspect_args a;
+	int rc = parse_args(argc, argv, &a);
+	if (rc == 1)
+		return HB_EXIT_OK;
+	if (rc != HB_OK)
+		return HB_EXIT_USAGE;
+
+	int exit_code = HB_EXIT_RUNTIME;
+	hb_db *db = NULL;
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	unit_source src = { .serials_file = a.serials_file, .first_serial = a.first_serial, .autorun = a.autorun,
+			    .in = stdin, .prompt = stderr };
+	char err[320];
+	hb_station station;
+	if (hb_station_load(&station, err, sizeof err) != HB_OK) {
+		hb_cli_error("%s", err);
+		return HB_EXIT_USAGE;
+	}
+	if (a.serials_file && load_serials(a.serials_file, &src) != HB_OK) {
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	}
+	hb_sampling_plan check_plan;
+	if (hb_iso2859_plan(a.lot_size, a.aql, a.level, a.severity, &check_plan, err, sizeof err) != HB_OK) {
+		hb_cli_error("inspect: %s", err);
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	}
+	rc = hb_db_open(hb_global.db_path, &db);
+	if (rc != HB_OK) {
+		hb_cli_error("store: %s", db ? hb_db_errmsg(db) : "out of memory");
+		goto out;
+	}
+	hb_db_part part;
+	rc = hb_db_part_get(db, a.part, &part);
+	if (rc == HB_ERR_NOTFOUND) {
+		hb_cli_error("no part '%s' in %s: add it with 'henrybench part add %s ...'", a.part, hb_db_path(db), a.part);
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	} else if (rc != HB_OK) {
+		hb_cli_error("store: %s", hb_db_errmsg(db));
+		goto out;
+	}
+	/* Judging needs the spec's own test conditions, and a sweep a little
+	 * past the saturation-spec current so L there is interpolated, not
+	 * extrapolated. */
+	if (!a.freq_given && isfinite(part.test_freq_hz))
+		a.plan.frequency = part.test_freq_hz;
+	if (!a.level_given && isfinite(part.test_level) && part.test_level > 0) {
+		a.plan.level = part.test_level;
+		a.plan.level_kind = part.test_level_kind == HB_DB_LEVEL_CURRENT ? HB_LEVEL_CURRENT : HB_LEVEL_VOLTAGE;
+	}
+	if (!a.to_given) {
+		double spec = isfinite(part.sat_current_a) && part.sat_current_a > 0 ? part.sat_current_a :
+			      isfinite(part.rated_current_a) && part.rated_current_a > 0 ? part.rated_current_a : NAN;
+		if (isnan(spec)) {
+			hb_cli_error("part %s has no saturation or rated current: give --to A", part.part_number);
+			exit_code = HB_EXIT_USAGE;
+			goto out;
+		}
+		a.plan.to = 1.25 * spec;
+	}
+	resolve_limits(&a, &station, &part);
+	rc = hb_sweep_plan_check(&a.plan, true, err, sizeof err);
+	if (rc != HB_OK) {
+		hb_cli_error("refusing to start: %s", err);
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	}
+	if (confirm(&a, &station, &src) != HB_OK) {
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	}
+	FILE *info = a.json ? stderr : stdout;
+
+	hb_sweep_install_signals();
+	hb_sweep_clear_signal();
+	rc = hb_lcr_open(a.lcr, hb_global.trace, &lcr);
+	if (rc != HB_OK) {
+		hb_cli_error("meter %s: %s", a.lcr, lcr ? hb_lcr_errmsg(lcr) : "out of memory");
+		exit_code = rc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
+		goto out;
+	}
+	rc = hb_supply_open(a.supply, hb_global.trace, &supply);
+	if (rc != HB_OK) {
+		hb_cli_error("supply %s: %s", a.supply, supply ? hb_supply_errmsg(supply) : "out of memory");
+		exit_code = rc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
+		goto out;
+	}
+	fprintf(info, "meter:  %s (profile %s)\n", hb_lcr_idn(lcr)->raw, hb_lcr_profile_name(lcr));
+	fprintf(info, "supply: %s (profile %s)\n", hb_supply_idn(supply)->raw, hb_supply_profile_name(supply));
+	fprintf(info, "part %s, lot %s: each unit swept 0 to %.4g A in %d points at %s\n", part.part_number, a.lot,
+		a.plan.to, a.plan.steps, hb_format_si(err, sizeof err, a.plan.frequency, "Hz", 4));
+	/* Once for the whole lot: the same current flows through every unit. */
+	hb_sweep_print_cautions(info, isfinite(part.nominal_h) ? part.nominal_h : 0, a.plan.to, a.plan.limits.max_voltage);
+
+	hb_inspect_config cfg;
+	hb_inspect_config_init(&cfg);
+	cfg.db = db;
+	cfg.lcr = lcr;
+	cfg.supply = supply;
+	cfg.station = &station;
+	cfg.part = &part;
+	cfg.lot_code = a.lot;
+	cfg.lot_size = a.lot_size;
+	cfg.aql = a.aql;
+	cfg.level = a.level;
+	cfg.severity = a.severity;
+	cfg.plan = a.plan;
+	cfg.ambient_c = a.ambient_c;
+	cfg.out = info;
+	cfg.progress = info;
+	cfg.progress_tty = isatty(fileno(info));
+	cfg.verbose_fit = a.show_fit;
+	hb_inspect_callbacks cb = { .ctx = &src, .next_unit = next_unit, .sweep_failed = sweep_failed };
+	hb_inspect_result res;
+	rc = hb_inspect_run(&cfg, &cb, &res);
+	if (res.current_may_flow)
+		hb_session_warn_current_may_flow(stderr);
+	if (rc != HB_OK) {
+		hb_cli_error("inspect: %s", res.message);
+		exit_code = rc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
+		goto out;
+	}
+	if (res.end == HB_INSPECT_ALREADY_DECIDED)
+		fprintf(info, "%s; nothing measured\n", res.message);
+	if (a.json) {
+		json_t *j = hb_inspect_lot_json(db, res.lot_id, &res);
+		char *text = j ? json_dumps(j, JSON_INDENT(2) | JSON_REAL_PRECISION(10)) : NULL;
+		if (text)
+			printf("%s\n", text);
+		free(text);
+		json_decref(j);
+	}
+	if (res.end == HB_INSPECT_PAUSED)
+		exit_code = res.signal_number == SIGINT ? HB_EXIT_SIGINT :
+			    res.signal_number ? 128 + res.signal_number : HB_EXIT_RUNTIME;
+	else
+		exit_code = HB_EXIT_OK;
+out:
+	/* The engine switched the output off on every path that switched it on. */
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+	hb_db_close(db);
+	free_serials(&src);
+	hb_sweep_restore_signals();
+	return exit_code;
+}

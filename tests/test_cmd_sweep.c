@@ -1,0 +1,780 @@
+/* tests/test_cmd_sweep.c - the `sweep` and `fsweep` commands end to end: ./henrybench against `henrybench sim` over TCP, signals, faults, limits, exit codes */
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <setjmp.h>
+#include <cmocka.h>
+
+#include <ctype.h>
+#include <dirent.h>
+#include <errno.h>
+#include <fcntl.h>
+#include <math.h>
+#include <poll.h>
+#include <signal.h>
+#include <stdbool.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/types.h>
+#include <sys/wait.h>
+#include <time.h>
+#include <unistd.h>
+
+#include <jansson.h>
+
+/* Only to stop a broken test from hanging; never a pass/fail criterion. */
+#define HANG_GUARD_S 60
+
+static const char *hb_bin = "./henrybench";
+static char tmpdir[256];
+static char station_limits[320], station_bare[320];
+
+/* ------------------------------------------------------------------ */
+/* processes                                                           */
+
+/* Children still alive; teardown kills what a failed test left behind. */
+static pid_t live[8];
+
+static void live_add(pid_t pid)
+{
+	for (size_t i = 0; i < sizeof live / sizeof live[0]; i++)
+		if (!live[i]) {
+			live[i] = pid;
+			return;
+		}
+}
+
+static void live_remove(pid_t pid)
+{
+	for (size_t i = 0; i < sizeof live / sizeof live[0]; i++)
+		if (live[i] == pid)
+			live[i] = 0;
+}
+
+static void kill_leftovers(void)
+{
+	for (size_t i = 0; i < sizeof live / sizeof live[0]; i++)
+		if (live[i]) {
+			kill(live[i], SIGKILL);
+			waitpid(live[i], NULL, 0);
+			live[i] = 0;
+		}
+}
+
+static double monotonic(void)
+{
+	struct timespec ts;
+	clock_gettime(CLOCK_MONOTONIC, &ts);
+	return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
+}
+
+/* Starts henrybench with argv (argv[0] ignored); stdout comes back through
+ * *out_fd, stderr goes to err_path. The station file is always ours, so
+ * the user's own never changes a result. */
+static pid_t spawn(char **argv, const char *station, int *out_fd, const char *err_path)
+{
+	int fds[2];
+	assert_int_equal(pipe(fds), 0);
+	fflush(NULL);
+	pid_t pid = fork();
+	assert_true(pid >= 0);
+	if (pid == 0) {
+		setenv("HENRYBENCH_STATION", station, 1);
+		unsetenv("HENRYBENCH_DB");
+		unsetenv("HENRYBENCH_PROFILE_PATH");
+		int in = open("/dev/null", O_RDONLY);
+		int err = open(err_path, O_WRONLY | O_CREAT | O_TRUNC, 0600);
+		if (in < 0 || err < 0)
+			_exit(127);
+		dup2(in, STDIN_FILENO);
+		dup2(fds[1], STDOUT_FILENO);
+		dup2(err, STDERR_FILENO);
+		close(fds[0]);
+		close(fds[1]);
+		argv[0] = (char *)hb_bin;
+		execv(hb_bin, argv);
+		_exit(127);
+	}
+	close(fds[1]);
+	live_add(pid);
+	*out_fd = fds[0];
+	return pid;
+}
+
+static int wait_exit(pid_t pid)
+{
+	int status = 0;
+	double end = monotonic() + HANG_GUARD_S;
+	while (monotonic() < end) {
+		if (waitpid(pid, &status, WNOHANG) == pid) {
+			live_remove(pid);
+			return status;
+		}
+		usleep(5000);
+	}
+	kill(pid, SIGKILL);
+	waitpid(pid, &status, 0);
+	live_remove(pid);
+	fail_msg("henrybench (pid %d) hung", (int)pid);
+	return status;
+}
+
+typedef struct text {
+	char *s;
+	size_t len, cap;
+} text;
+
+static void text_add(text *t, const char *data, size_t n)
+{
+	if (t->len + n + 1 > t->cap) {
+		t->cap = (t->len + n + 1) * 2;
+		t->s = realloc(t->s, t->cap);
+		assert_non_null(t->s);
+	}
+	memcpy(t->s + t->len, data, n);
+	t->len += n;
+	t->s[t->len] = '\0';
+}
+
+/* Reads fd into t until EOF, or until `lines` complete lines starting with
+ * prefix (NULL: any lines) have arrived (0 = read to EOF). Returns how
+ * many such lines. */
+static int read_until(int fd, text *t, const char *prefix, int lines)
+{
+	double end = monotonic() + HANG_GUARD_S;
+	int seen = 0;
+	size_t scanned = 0;
+	if (!t->s)
+		text_add(t, "", 0);
+	for (;;) {
+		/* count complete lines not yet looked at */
+		char *nl;
+		while ((nl = memchr(t->s + scanned, '\n', t->len - scanned))) {
+			if (!prefix || strncmp(t->s + scanned, prefix, strlen(prefix)) == 0)
+				seen++;
+			scanned = (size_t)(nl + 1 - t->s);
+		}
+		if (lines > 0 && seen >= lines)
+			return seen;
+		if (monotonic() > end)
+			return seen;
+		struct pollfd p = { fd, POLLIN, 0 };
+		int pr = poll(&p, 1, 500);
+		if (pr < 0 && errno != EINTR)
+			return seen;
+		if (pr <= 0)
+			continue;
+		char buf[4096];
+		ssize_t n = read(fd, buf, sizeof buf);
+		if (n < 0 && errno == EINTR)
+			continue;
+		if (n <= 0)
+			return seen;
+		text_add(t, buf, (size_t)n);
+	}
+}
+
+static char *slurp(const char *path)
+{
+	text t = { 0 };
+	text_add(&t, "", 0);
+	FILE *f = fopen(path, "r");
+	if (f) {
+		char buf[4096];
+		size_t n;
+		while ((n = fread(buf, 1, sizeof buf, f)) > 0)
+			text_add(&t, buf, n);
+		fclose(f);
+	}
+	return t.s;
+}
+
+typedef struct run {
+	int status; /* exit status, or 128 + signal */
+	char *out, *err;
+} run;
+
+static void run_free(run *r)
+{
+	free(r->out);
+	free(r->err);
+	memset(r, 0, sizeof *r);
+}
+
+static int exit_of(int status)
+{
+	return WIFEXITED(status) ? WEXITSTATUS(status) : 128 + WTERMSIG(status);
+}
+
+/* Runs henrybench ARGS... (NULL-terminated) to its end. */
+static void hb_run(run *r, const char *station, ...)
+{
+	char *argv[64];
+	int n = 1;
+	va_list ap;
+	va_start(ap, station);
+	for (const char *a; (a = va_arg(ap, const char *)) && n < 63;)
+		argv[n++] = (char *)a;
+	va_end(ap);
+	argv[n] = NULL;
+	char err_path[400];
+	snprintf(err_path, sizeof err_path, "%s/stderr", tmpdir);
+	int fd;
+	pid_t pid = spawn(argv, station, &fd, err_path);
+	text out = { 0 };
+	read_until(fd, &out, NULL, 0);
+	close(fd);
+	r->status = exit_of(wait_exit(pid));
+	r->out = out.s;
+	r->err = slurp(err_path);
+}
+
+static bool contains_nocase(const char *hay, const char *needle)
+{
+	size_t n = strlen(needle);
+	for (; *hay; hay++) {
+		size_t i = 0;
+		while (i < n && hay[i] && tolower((unsigned char)hay[i]) == tolower((unsigned char)needle[i]))
+			i++;
+		if (i == n)
+			return true;
+	}
+	return false;
+}
+
+static int count_lines(const char *s)
+{
+	int n = 0;
+	for (; *s; s++)
+		n += *s == '\n';
+	return n;
+}
+
+/* ------------------------------------------------------------------ */
+/* the simulated bench as its own process                              */
+
+typedef struct sim_server {
+	pid_t pid;
+	int fd;
+	char lcr[128], supply[128];
+	char log_path[400];
+	char *log; /* after sim_stop */
+} sim_server;
+
+static int sim_counter;
+
+/* extra: further options for `henrybench sim`, NULL-terminated. */
+static void sim_start(sim_server *s, ...)
+{
+	memset(s, 0, sizeof *s);
+	snprintf(s->log_path, sizeof s->log_path, "%s/sim-%d.log", tmpdir, ++sim_counter);
+	char *argv[32] = { NULL, "sim", "--lcr", "tcp://127.0.0.1:0", "--supply", "tcp://127.0.0.1:0", "--log",
+			   s->log_path, "--param", "time_scale=0.01" };
+	int n = 10;
+	va_list ap;
+	va_start(ap, s);
+	for (const char *a; (a = va_arg(ap, const char *)) && n < 31;)
+		argv[n++] = (char *)a;
+	va_end(ap);
+	argv[n] = NULL;
+	char err_path[420];
+	snprintf(err_path, sizeof err_path, "%s.err", s->log_path);
+	s->pid = spawn(argv, station_bare, &s->fd, err_path);
+	text out = { 0 };
+	read_until(s->fd, &out, NULL, 2);
+	/* Both lines are printed before serving starts. */
+	int lines = 0;
+	for (char *line = out.s; line && *line; line = strchr(line, '\n') ? strchr(line, '\n') + 1 : NULL) {
+		lines++;
+		if (sscanf(line, "lcr: %127s", s->lcr) == 1 || sscanf(line, "supply: %127s", s->supply) == 1)
+			continue;
+	}
+	free(out.s);
+	if (!s->lcr[0] || !s->supply[0])
+		fail_msg("henrybench sim did not print its ports (stderr: %s)", err_path);
+}
+
+static void sim_stop(sim_server *s)
+{
+	if (s->pid > 0) {
+		kill(s->pid, SIGTERM);
+		wait_exit(s->pid);
+		close(s->fd);
+		s->pid = 0;
+	}
+	free(s->log);
+	s->log = slurp(s->log_path);
+}
+
+static void sim_free(sim_server *s)
+{
+	if (s->pid > 0)
+		sim_stop(s);
+	free(s->log);
+	s->log = NULL;
+}
+
+/* The log from the last "supply output ON" on: "supply setpoint X A",
+ * "supply output OFF", "supply disconnect" ... in order of events. */
+static const char *after_last(const char *log, const char *what)
+{
+	const char *last = NULL;
+	for (const char *p = log; (p = strstr(p, what)); p++)
+		last = p;
+	return last;
+}
+
+/* The supply shut-down rule as the simulator saw it: after the output was
+ * last switched on, the setpoint came down to zero and the output went off
+ * before the connection closed, and it never stood on at the end. Returns
+ * the setpoints logged on the way down from the highest one. */
+static int assert_shut_down_in_order(const char *log, double *down, int cap)
+{
+	const char *on = after_last(log, "supply output ON");
+	assert_non_null(on);
+	const char *off = strstr(on, "supply output OFF");
+	const char *gone = strstr(on, "supply disconnect");
+	assert_non_null(off);
+	assert_non_null(gone);
+	assert_true(off < gone);
+	const char *zero = strstr(on, "supply setpoint 0.0000 A");
+	assert_non_null(zero);
+	assert_true(zero < off);
+	assert_null(strstr(log, "supply exit output ON"));
+	/* The setpoints from the highest one to the zero. */
+	double top = -1;
+	const char *top_at = on;
+	for (const char *p = on; (p = strstr(p, "supply setpoint ")) && p <= zero; p++) {
+		double v = atof(p + strlen("supply setpoint "));
+		if (v >= top) {
+			top = v;
+			top_at = p;
+		}
+	}
+	int n = 0;
+	for (const char *p = top_at; (p = strstr(p, "supply setpoint ")) && p <= zero; p++)
+		if (n < cap)
+			down[n++] = atof(p + strlen("supply setpoint "));
+	return n;
+}
+
+/* ------------------------------------------------------------------ */
+/* fixtures                                                            */
+
+static char db_path[400];
+static int db_counter;
+
+static void write_file(const char *path, const char *content)
+{
+	FILE *f = fopen(path, "w");
+	assert_non_null(f);
+	fputs(content, f);
+	fclose(f);
+}
+
+static void remove_tmpdir(void)
+{
+	DIR *d = opendir(tmpdir);
+	if (d) {
+		struct dirent *e;
+		while ((e = readdir(d))) {
+			if (strcmp(e->d_name, ".") == 0 || strcmp(e->d_name, "..") == 0)
+				continue;
+			char p[600];
+			snprintf(p, sizeof p, "%s/%s", tmpdir, e->d_name);
+			unlink(p);
+		}
+		closedir(d);
+	}
+	rmdir(tmpdir);
+}
+
+static int group_setup(void **state)
+{
+	(void)state;
+	const char *bin = getenv("HENRYBENCH_BIN");
+	if (bin && *bin)
+		hb_bin = bin;
+	if (access(hb_bin, X_OK) != 0) {
+		fprintf(stderr, "%s not found: run from the repository root after 'make'\n", hb_bin);
+		return -1;
+	}
+	snprintf(tmpdir, sizeof tmpdir, "/tmp/hb-test-cmd-sweep-XXXXXX");
+	if (!mkdtemp(tmpdir))
+		return -1;
+	snprintf(station_limits, sizeof station_limits, "%s/station.ini", tmpdir);
+	write_file(station_limits, "# test station\n[station]\nname = test-bench\noperator = tester\n"
+				   "[limits]\nmax_current = 5\nmax_voltage = 2\nmax_power = 10\nramp_rate = 50\n");
+	snprintf(station_bare, sizeof station_bare, "%s/bare.ini", tmpdir);
+	write_file(station_bare, "# a station without limits\n[station]\nname = bare-bench\n");
+	signal(SIGPIPE, SIG_IGN);
+	return 0;
+}
+
+static int group_teardown(void **state)
+{
+	(void)state;
+	kill_leftovers();
+	remove_tmpdir();
+	return 0;
+}
+
+/* A fresh store holding part P-CLI. */
+static int store_setup(void **state)
+{
+	(void)state;
+	snprintf(db_path, sizeof db_path, "%s/cli-%d.db", tmpdir, ++db_counter);
+	run r;
+	hb_run(&r, station_limits, "--db", db_path, "part", "add", "P-CLI", "--nominal", "108uH", "--tol", "10%",
+	       "--freq", "100kHz", "--level", "0.5V", NULL);
+	int st = r.status;
+	run_free(&r);
+	return st == 0 ? 0 : -1;
+}
+
+static int store_teardown(void **state)
+{
+	(void)state;
+	kill_leftovers();
+	return 0;
+}
+
+/* show --json SWEEP of the one sweep in the store. */
+static json_t *show_only_sweep(void)
+{
+	run r;
+	hb_run(&r, station_limits, "--db", db_path, "sweeps", "--json", NULL);
+	assert_int_equal(r.status, 0);
+	json_error_t jerr;
+	json_t *list = json_loads(r.out, 0, &jerr);
+	run_free(&r);
+	assert_non_null(list);
+	assert_int_equal(json_array_size(list), 1);
+	char id[32];
+	snprintf(id, sizeof id, "%lld", (long long)json_integer_value(json_object_get(json_array_get(list, 0), "id")));
+	json_decref(list);
+	hb_run(&r, station_limits, "--db", db_path, "show", id, "--json", NULL);
+	assert_int_equal(r.status, 0);
+	json_t *sw = json_loads(r.out, 0, &jerr);
+	if (!sw)
+		fail_msg("show --json gave no JSON: %s", jerr.text);
+	run_free(&r);
+	return sw;
+}
+
+static const char *jstr(json_t *o, const char *key)
+{
+	const char *s = json_string_value(json_object_get(o, key));
+	assert_non_null(s);
+	return s;
+}
+
+static int count_prefix(const char *s, const char *prefix)
+{
+	int n = 0;
+	size_t pl = strlen(prefix);
+	for (const char *line = s; line && *line;) {
+		if (strncmp(line, prefix, pl) == 0)
+			n++;
+		line = strchr(line, '\n');
+		if (line)
+			line++;
+	}
+	return n;
+}
+
+/* ------------------------------------------------------------------ */
+/* tests                                                               */
+
+static void test_sigint_ramps_down_then_exits_130(void **state)
+{
+	(void)state;
+	sim_server sim;
+	sim_start(&sim, NULL);
+	char err_path[420];
+	snprintf(err_path, sizeof err_path, "%s/sweep.err", tmpdir);
+	/* 0.05 A steps and a 2 A/s ramp: the way down takes a few 0.1 A slices. */
+	char *argv[] = { NULL, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "SIG-1", "--lcr", sim.lcr,
+			 "--supply", sim.supply, "--to", "2", "--steps", "41", "--settle", "100ms", "--ramp", "2",
+			 "--yes", "--no-fit", NULL };
+	int fd;
+	pid_t pid = spawn(argv, station_limits, &fd, err_path);
+	text out = { 0 };
+	int seen = read_until(fd, &out, "point ", 4);
+	kill(pid, SIGINT);
+	read_until(fd, &out, NULL, 0);
+	close(fd);
+	int status = exit_of(wait_exit(pid));
+	sim_stop(&sim);
+	assert_int_equal(seen, 4);
+	assert_int_equal(status, 130);
+	int printed = count_prefix(out.s, "point ");
+
+	double down[64];
+	int n = assert_shut_down_in_order(sim.log, down, 64);
+	/* Ramped: every step down at most 2 A/s * 50 ms from the current the
+	 * supply measured, which lies within one 0.05 A sweep step below the
+	 * highest setpoint; the last step is to zero. */
+	assert_true(n >= 3);
+	for (int i = 1; i < n; i++) {
+		assert_true(down[i] <= down[i - 1] + 1e-9);
+		assert_true(down[i - 1] - down[i] <= 0.1 * 1.02 + 2e-3 + (i == 1 ? 0.05 : 0));
+	}
+	assert_true(down[n - 1] == 0);
+
+	json_t *sw = show_only_sweep();
+	assert_string_equal(jstr(sw, "status"), "aborted");
+	assert_true(contains_nocase(jstr(sw, "status_reason"), "SIGINT"));
+	json_t *data = json_object_get(sw, "data");
+	/* Every point reported on the screen is in the store, and only those. */
+	assert_int_equal(json_array_size(data), printed);
+	assert_true(printed >= 4 && printed < 41);
+	for (size_t i = 0; i < json_array_size(data); i++)
+		assert_int_equal(json_integer_value(json_object_get(json_array_get(data, i), "seq")), (json_int_t)i);
+	json_decref(sw);
+	free(out.s);
+	sim_free(&sim);
+}
+
+static void test_compliance_stop(void **state)
+{
+	(void)state;
+	sim_server sim;
+	sim_start(&sim, NULL);
+	run r;
+	/* 30 mOhm needs 0.12 V at 4 A; the 0.05 V limit runs out near 1.7 A. */
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "CV-1", "--lcr", sim.lcr,
+	       "--supply", sim.supply, "--to", "4", "--steps", "11", "--settle", "5ms", "--max-voltage", "0.05",
+	       "--ramp", "50", "--yes", "--no-fit", NULL);
+	sim_stop(&sim);
+	assert_int_equal(r.status, 1);
+	assert_non_null(strstr(r.out, "aborted"));
+	assert_non_null(strstr(sim.log, "supply mode CV"));
+	double down[64];
+	int n = assert_shut_down_in_order(sim.log, down, 64);
+	assert_true(down[n - 1] == 0);
+	/* The stop came once the supply went into CV, not at the end of the plan. */
+	assert_true(strstr(sim.log, "supply mode CV") < after_last(sim.log, "supply setpoint 0.0000 A"));
+	json_t *sw = show_only_sweep();
+	assert_string_equal(jstr(sw, "status"), "aborted");
+	assert_true(contains_nocase(jstr(sw, "status_reason"), "compliance"));
+	assert_true(json_array_size(json_object_get(sw, "data")) < 11);
+	json_decref(sw);
+	run_free(&r);
+	sim_free(&sim);
+}
+
+static void test_limit_refusals_switch_nothing_on(void **state)
+{
+	(void)state;
+	sim_server sim;
+	sim_start(&sim, NULL);
+	run r;
+	/* No limit anywhere: the bare station file has none. */
+	hb_run(&r, station_bare, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "L-1", "--lcr", sim.lcr,
+	       "--supply", sim.supply, "--to", "1", "--yes", NULL);
+	assert_int_equal(r.status, 2);
+	assert_int_equal(count_lines(r.err), 1);
+	assert_non_null(strstr(r.err, "current limit"));
+	assert_non_null(strstr(r.err, "--max-current"));
+	run_free(&r);
+
+	/* Above the limit given. */
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "L-1", "--lcr", sim.lcr,
+	       "--supply", sim.supply, "--to", "6", "--max-current", "5", "--yes", NULL);
+	assert_int_equal(r.status, 2);
+	assert_int_equal(count_lines(r.err), 1);
+	assert_non_null(strstr(r.err, "6 A"));
+	assert_non_null(strstr(r.err, "current limit 5 A"));
+	run_free(&r);
+
+	/* Voltage limit times the top current over the power limit. */
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "L-1", "--lcr", sim.lcr,
+	       "--supply", sim.supply, "--to", "4", "--max-power", "1", "--yes", NULL);
+	assert_int_equal(r.status, 2);
+	assert_int_equal(count_lines(r.err), 1);
+	assert_non_null(strstr(r.err, "power limit"));
+	run_free(&r);
+
+	sim_stop(&sim);
+	assert_null(strstr(sim.log, "output ON"));
+	assert_null(strstr(sim.log, "OUTP ON"));
+	hb_run(&r, station_limits, "--db", db_path, "sweeps", "--json", NULL);
+	assert_int_equal(r.status, 0);
+	json_t *list = json_loads(r.out, 0, NULL);
+	assert_non_null(list);
+	assert_int_equal(json_array_size(list), 0);
+	json_decref(list);
+	run_free(&r);
+	sim_free(&sim);
+}
+
+static void test_meter_timeout_mid_sweep(void **state)
+{
+	(void)state;
+	sim_server sim;
+	/* Every 15th meter reply is lost: with the fixed dwell the first lost
+	 * one is the reading of the fourth point. */
+	sim_start(&sim, "--fault-lcr", "drop=15", NULL);
+	char lcr[200];
+	snprintf(lcr, sizeof lcr, "%s?timeout=300", sim.lcr);
+	run r;
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "T-1", "--lcr", lcr,
+	       "--supply", sim.supply, "--to", "4", "--steps", "11", "--settle", "5ms", "--yes", "--no-fit", NULL);
+	sim_stop(&sim);
+	assert_int_equal(r.status, 1);
+	assert_non_null(strstr(sim.log, "lcr fault drop"));
+	double down[64];
+	int n = assert_shut_down_in_order(sim.log, down, 64);
+	assert_true(down[n - 1] == 0);
+	assert_true(strstr(sim.log, "lcr fault drop") < after_last(sim.log, "supply output OFF"));
+	json_t *sw = show_only_sweep();
+	assert_string_equal(jstr(sw, "status"), "failed");
+	assert_true(contains_nocase(jstr(sw, "status_reason"), "no reply within 300 ms"));
+	size_t pts = json_array_size(json_object_get(sw, "data"));
+	assert_true(pts >= 1 && pts < 11);
+	json_decref(sw);
+	assert_false(contains_nocase(r.err, "current may still be flowing"));
+	run_free(&r);
+	sim_free(&sim);
+}
+
+static void test_lost_supply_link_is_loud(void **state)
+{
+	(void)state;
+	sim_server sim;
+	sim_start(&sim, "--fault-supply", "disconnect=40", NULL);
+	run r;
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "D-1", "--lcr", sim.lcr,
+	       "--supply", sim.supply, "--to", "4", "--steps", "11", "--settle", "5ms", "--yes", "--no-fit", NULL);
+	sim_stop(&sim);
+	assert_true(r.status != 0);
+	assert_true(contains_nocase(r.err, "current may still be flowing"));
+	assert_non_null(strstr(sim.log, "supply fault disconnect"));
+	/* What the warning is about: the simulated supply was left driving current. */
+	assert_non_null(strstr(sim.log, "supply exit output ON"));
+	json_t *sw = show_only_sweep();
+	assert_string_equal(jstr(sw, "status"), "failed");
+	json_decref(sw);
+	run_free(&r);
+	sim_free(&sim);
+}
+
+static void test_json_summary_of_complete_sweep(void **state)
+{
+	(void)state;
+	sim_server sim;
+	sim_start(&sim, NULL);
+	run r;
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "J-1", "--lcr", sim.lcr,
+	       "--supply", sim.supply, "--to", "4", "--steps", "11", "--yes", "--json", NULL);
+	sim_stop(&sim);
+	assert_int_equal(r.status, 0);
+	json_error_t jerr;
+	json_t *j = json_loads(r.out, 0, &jerr);
+	if (!j)
+		fail_msg("--json output does not parse: %s (line %d)", jerr.text, jerr.line);
+	assert_string_equal(jstr(j, "status"), "complete");
+	assert_string_equal(jstr(j, "kind"), "bias");
+	assert_string_equal(jstr(j, "unit"), "J-1");
+	assert_int_equal(json_integer_value(json_object_get(j, "points")), 11);
+	assert_true(json_integer_value(json_object_get(j, "sweep_id")) > 0);
+	assert_true(json_is_false(json_object_get(j, "current_may_flow")));
+	double l_first = json_real_value(json_object_get(j, "L_first_H"));
+	assert_true(l_first > 90e-6 && l_first < 130e-6); /* the default sim part is about 108 uH */
+	json_decref(j);
+	double down[64];
+	assert_shut_down_in_order(sim.log, down, 64);
+	run_free(&r);
+	sim_free(&sim);
+}
+
+static void test_fsweep_without_supply(void **state)
+{
+	(void)state;
+	sim_server sim;
+	sim_start(&sim, NULL);
+	run r;
+	hb_run(&r, station_limits, "--db", db_path, "fsweep", "--part", "P-CLI", "--unit", "F-1", "--lcr", sim.lcr,
+	       "--from", "1kHz", "--to", "1MHz", "--points", "7", "--settle", "1ms", "--json", NULL);
+	sim_stop(&sim);
+	assert_int_equal(r.status, 0);
+	json_t *j = json_loads(r.out, 0, NULL);
+	assert_non_null(j);
+	assert_string_equal(jstr(j, "kind"), "frequency");
+	assert_string_equal(jstr(j, "status"), "complete");
+	assert_int_equal(json_integer_value(json_object_get(j, "points")), 7);
+	json_decref(j);
+	/* No bias asked: the supply was never spoken to. */
+	assert_null(strstr(sim.log, "supply cmd"));
+	run_free(&r);
+	sim_free(&sim);
+}
+
+static void test_dry_run_touches_nothing(void **state)
+{
+	(void)state;
+	run r;
+	/* Nothing listens on port 1: opening either instrument would fail. */
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "X-1", "--lcr",
+	       "tcp://127.0.0.1:1", "--supply", "tcp://127.0.0.1:1", "--to", "3", "--steps", "7", "--return",
+	       "--dry-run", NULL);
+	assert_int_equal(r.status, 0);
+	assert_non_null(strstr(r.out, "plan: 13 points"));
+	assert_non_null(strstr(r.out, "limits: current 5 A"));
+	assert_non_null(strstr(r.out, "dry run"));
+	run_free(&r);
+	hb_run(&r, station_limits, "--db", db_path, "sweeps", "--json", NULL);
+	json_t *list = json_loads(r.out, 0, NULL);
+	assert_non_null(list);
+	assert_int_equal(json_array_size(list), 0);
+	json_decref(list);
+	run_free(&r);
+}
+
+static void test_bad_input_is_usage_error(void **state)
+{
+	(void)state;
+	run r;
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "B-1", "--lcr",
+	       "tcp://127.0.0.1:1", "--supply", "tcp://127.0.0.1:1", "--to", "garbage", NULL);
+	assert_int_equal(r.status, 2);
+	assert_int_equal(count_lines(r.err), 1);
+	assert_non_null(strstr(r.err, "--to"));
+	assert_non_null(strstr(r.err, "garbage"));
+	run_free(&r);
+
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "NO-SUCH-PART", "--unit", "B-1", "--lcr",
+	       "tcp://127.0.0.1:1", "--supply", "tcp://127.0.0.1:1", "--to", "1", NULL);
+	assert_int_equal(r.status, 2);
+	assert_non_null(strstr(r.err, "NO-SUCH-PART"));
+	run_free(&r);
+
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "B-1", "--lcr",
+	       "tcp://127.0.0.1:1", "--to", "1", NULL);
+	assert_int_equal(r.status, 2);
+	assert_non_null(strstr(r.err, "--supply"));
+	run_free(&r);
+
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--bogus", NULL);
+	assert_int_equal(r.status, 2);
+	assert_non_null(strstr(r.err, "--bogus"));
+	run_free(&r);
+}
+
+int main(void)
+{
+	const struct CMUnitTest tests[] = {
+		cmocka_unit_test_setup_teardown(test_sigint_ramps_down_then_exits_130, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_compliance_stop, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_limit_refusals_switch_nothing_on, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_meter_timeout_mid_sweep, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_lost_supply_link_is_loud, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_json_summary_of_complete_sweep, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_fsweep_without_supply, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_dry_run_touches_nothing, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_bad_input_is_usage_error, store_setup, store_teardown),
+	};
+	return cmocka_run_group_tests(tests, group_setup, group_teardown);
+}

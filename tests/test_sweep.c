@@ -1,0 +1,784 @@
+/* tests/test_sweep.c - sweep engine and session through real transports to the simulated bench: plans, safe shut-down on every path, auto-settle, store durability across processes */
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <setjmp.h>
+#include <cmocka.h>
+
+#include <errno.h>
+#include <dirent.h>
+#include <math.h>
+#include <poll.h>
+#include <signal.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/types.h>
+#include <sys/wait.h>
+#include <time.h>
+#include <unistd.h>
+
+#include "db/hb_db.h"
+#include "drivers/hb_drivers.h"
+#include "src/demo.h"
+#include "src/session.h"
+#include "src/sweep.h"
+
+/* Simulated time runs a hundred times faster than the wall clock. */
+#define TIME_SCALE 0.01
+/* Only to stop a broken test from hanging; never a pass/fail criterion. */
+#define HANG_GUARD_MS 60000
+
+static char tmpdir[256];
+static int db_counter;
+
+static void assert_near_rel(double value, double expected, double rel)
+{
+	if (!(fabs(value - expected) <= rel * fabs(expected)))
+		fail_msg("%.9g and %.9g differ by %.3g relative, more than %.3g", value, expected,
+			 fabs(value - expected) / fabs(expected), rel);
+}
+
+static void db_path_new(char *buf, size_t cap)
+{
+	snprintf(buf, cap, "%s/sweep-%d.db", tmpdir, ++db_counter);
+}
+
+/* The directory is flat: the stores and their -wal/-shm files. */
+static void remove_tmpdir(void)
+{
+	DIR *d = opendir(tmpdir);
+	if (d) {
+		struct dirent *e;
+		while ((e = readdir(d))) {
+			if (strcmp(e->d_name, ".") == 0 || strcmp(e->d_name, "..") == 0)
+				continue;
+			char p[600];
+			snprintf(p, sizeof p, "%s/%s", tmpdir, e->d_name);
+			unlink(p);
+		}
+		closedir(d);
+	}
+	rmdir(tmpdir);
+}
+
+static int group_setup(void **state)
+{
+	(void)state;
+	snprintf(tmpdir, sizeof tmpdir, "/tmp/hb-test-sweep-XXXXXX");
+	if (!mkdtemp(tmpdir))
+		return -1;
+	/* The user's own profiles must not change what these tests see. */
+	unsetenv("HENRYBENCH_PROFILE_PATH");
+	/* A lost socket must be a status, not a dead test. */
+	signal(SIGPIPE, SIG_IGN);
+	return 0;
+}
+
+static int group_teardown(void **state)
+{
+	(void)state;
+	remove_tmpdir();
+	return 0;
+}
+
+/* Every engine test gets a freshly created in-process bench; teardown
+ * shuts its thread down so the fork tests start single-threaded. */
+static int bench_setup(void **state)
+{
+	(void)state;
+	hb_sweep_clear_signal();
+	hb_sweep_install_signals();
+	if (hb_demo_configure_sim(TIME_SCALE, 7, 0) != HB_OK)
+		return -1;
+	hb_sim *sim = hb_sim_inproc();
+	if (hb_sim_set_fault(sim, HB_SIM_LCR, "none") != HB_OK || hb_sim_set_fault(sim, HB_SIM_SUPPLY, "none") != HB_OK)
+		return -1;
+	return 0;
+}
+
+static int bench_teardown(void **state)
+{
+	(void)state;
+	hb_sim_inproc_shutdown();
+	hb_sweep_restore_signals();
+	hb_sweep_clear_signal();
+	return 0;
+}
+
+static double sim_state(const char *key)
+{
+	double v = NAN;
+	assert_int_equal(hb_sim_get_param(hb_sim_inproc(), key, &v), HB_OK);
+	return v;
+}
+
+static void open_bench(const char *lcr_res, const char *supply_res, hb_lcr **lcr, hb_supply **supply)
+{
+	assert_int_equal(hb_lcr_open(lcr_res, NULL, lcr), HB_OK);
+	assert_int_equal(hb_supply_open(supply_res, NULL, supply), HB_OK);
+}
+
+/* 0 to 4 A in 11 steps with a short fixed dwell: the command sequence is
+ * the same every run. */
+static void small_plan(hb_sweep_plan *plan)
+{
+	hb_sweep_plan_defaults(plan);
+	plan->from = 0;
+	plan->to = 4;
+	plan->steps = 11;
+	plan->settle = HB_SETTLE_FIXED;
+	plan->settle_time = 0.005;
+	plan->limits.max_current = 5;
+	plan->limits.max_voltage = 2;
+	plan->limits.max_power = 10;
+	plan->limits.ramp_rate = 50;
+}
+
+/* ------------------------------------------------------------------ */
+/* a sink that records points and misbehaves on request                */
+
+typedef enum { ACT_NONE, ACT_SIGINT, ACT_STORE_FULL, ACT_LCR_LATE, ACT_SUPPLY_GONE } sink_action;
+
+typedef struct recorder {
+	int n;
+	hb_sweep_point pts[128];
+	int act_at;
+	sink_action act;
+} recorder;
+
+static int record_point(void *ctx, const hb_sweep_point *p, int total)
+{
+	(void)total;
+	recorder *r = ctx;
+	if (r->act == ACT_STORE_FULL && r->n == r->act_at)
+		return HB_ERR_DB_FULL;
+	if (r->n < (int)(sizeof r->pts / sizeof r->pts[0]))
+		r->pts[r->n] = *p;
+	r->n++;
+	if (r->n - 1 == r->act_at) {
+		if (r->act == ACT_SIGINT)
+			raise(SIGINT);
+		else if (r->act == ACT_LCR_LATE)
+			hb_sim_set_fault(hb_sim_inproc(), HB_SIM_LCR, "late=1500");
+		else if (r->act == ACT_SUPPLY_GONE)
+			hb_sim_set_fault(hb_sim_inproc(), HB_SIM_SUPPLY, "disconnect=1");
+	}
+	return HB_OK;
+}
+
+static int run_recorded(hb_lcr *lcr, hb_supply *supply, const hb_sweep_plan *plan, recorder *rec,
+			hb_sweep_result *res)
+{
+	hb_sweep_callbacks cb = { rec, record_point, NULL };
+	return hb_sweep_run(lcr, supply, plan, &cb, res);
+}
+
+/* The supply must be at zero and off: the one rule every end obeys. */
+static void assert_supply_safe(void)
+{
+	assert_true(sim_state("state.output") == 0);
+	assert_true(sim_state("state.setpoint") == 0);
+}
+
+/* ------------------------------------------------------------------ */
+/* plans                                                               */
+
+static void test_plan_check_refuses(void **state)
+{
+	(void)state;
+	hb_sweep_plan p;
+	char err[256];
+	small_plan(&p);
+	assert_int_equal(hb_sweep_plan_check(&p, true, err, sizeof err), HB_OK);
+
+	p.limits.max_current = NAN;
+	assert_int_equal(hb_sweep_plan_check(&p, true, err, sizeof err), HB_ERR_LIMIT);
+	assert_non_null(strstr(err, "--max-current"));
+
+	small_plan(&p);
+	p.to = 6;
+	assert_int_equal(hb_sweep_plan_check(&p, true, err, sizeof err), HB_ERR_LIMIT);
+	assert_non_null(strstr(err, "current limit 5 A"));
+
+	small_plan(&p);
+	p.limits.max_power = 1; /* 4 A into the 2 V limit could give 8 W */
+	assert_int_equal(hb_sweep_plan_check(&p, true, err, sizeof err), HB_ERR_LIMIT);
+	assert_non_null(strstr(err, "power limit"));
+
+	small_plan(&p);
+	assert_int_equal(hb_sweep_plan_check(&p, false, err, sizeof err), HB_ERR_ARG);
+	assert_non_null(strstr(err, "--supply"));
+
+	small_plan(&p);
+	p.from = 3;
+	p.to = 2;
+	assert_int_equal(hb_sweep_plan_check(&p, true, err, sizeof err), HB_ERR_ARG);
+
+	/* An unbiased frequency sweep needs no supply and no limits. */
+	hb_sweep_plan_defaults(&p);
+	p.kind = HB_SWEEP_FREQUENCY;
+	assert_int_equal(hb_sweep_plan_check(&p, false, err, sizeof err), HB_OK);
+}
+
+static void test_setpoints(void **state)
+{
+	(void)state;
+	hb_sweep_plan p;
+	small_plan(&p);
+	p.steps = 5;
+	p.return_down = true;
+	double *v = NULL;
+	int n = 0;
+	assert_int_equal(hb_sweep_setpoints(&p, &v, &n), HB_OK);
+	const double want[] = { 0, 1, 2, 3, 4, 3, 2, 1, 0 };
+	assert_int_equal(n, 9);
+	for (int i = 0; i < n; i++)
+		assert_true(fabs(v[i] - want[i]) < 1e-12);
+	free(v);
+
+	/* Log spacing from zero keeps the zero and spans two decades below the top. */
+	p.return_down = false;
+	p.spacing = HB_SPACING_LOG;
+	assert_int_equal(hb_sweep_setpoints(&p, &v, &n), HB_OK);
+	assert_int_equal(n, 5);
+	assert_true(v[0] == 0);
+	assert_near_rel(v[1], 0.04, 1e-12);
+	assert_near_rel(v[4], 4, 1e-12);
+	for (int i = 2; i < n; i++)
+		assert_near_rel(v[i] / v[i - 1], cbrt(100), 1e-9); /* four points over two decades */
+	free(v);
+}
+
+/* ------------------------------------------------------------------ */
+/* engine runs                                                         */
+
+static void test_complete_sweep_leaves_supply_off(void **state)
+{
+	(void)state;
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	open_bench("sim:lcr", "sim:supply", &lcr, &supply);
+	hb_sweep_plan plan;
+	small_plan(&plan);
+	plan.return_down = true;
+	recorder rec = { .act_at = -1 };
+	hb_sweep_result res;
+	assert_int_equal(run_recorded(lcr, supply, &plan, &rec, &res), HB_OK);
+	assert_int_equal(res.end, HB_SWEEP_COMPLETE);
+	assert_int_equal(res.points, 21);
+	assert_int_equal(rec.n, 21);
+	for (int i = 0; i < rec.n; i++) {
+		const hb_sweep_point *p = &rec.pts[i];
+		assert_int_equal(p->sequence, i);
+		assert_int_equal(p->direction, i < 11 ? 1 : -1);
+		assert_true(isfinite(p->primary) && p->primary > 0);
+		/* The supply read back what was asked, within its settling. */
+		assert_true(fabs(p->bias_measured - p->bias_set) < 0.02);
+		if (i > 0)
+			assert_true(p->t > rec.pts[i - 1].t);
+	}
+	/* A gapped core loses inductance under bias, and the way back down
+	 * meets the way up at zero. */
+	assert_true(rec.pts[10].primary < 0.9 * rec.pts[0].primary);
+	assert_near_rel(rec.pts[20].primary, rec.pts[0].primary, 0.01);
+	assert_false(res.current_may_flow);
+	assert_supply_safe();
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+}
+
+static void test_signal_ramps_down_and_aborts(void **state)
+{
+	(void)state;
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	open_bench("sim:lcr", "sim:supply", &lcr, &supply);
+	hb_sweep_plan plan;
+	small_plan(&plan);
+	recorder rec = { .act_at = 3, .act = ACT_SIGINT };
+	hb_sweep_result res;
+	assert_int_equal(run_recorded(lcr, supply, &plan, &rec, &res), HB_ERR_INTERRUPTED);
+	assert_int_equal(res.end, HB_SWEEP_ABORTED);
+	assert_true(res.interrupted_by_signal);
+	assert_int_equal(res.signal_number, SIGINT);
+	assert_int_equal(res.points, 4);
+	assert_non_null(strstr(res.reason, "SIGINT"));
+	assert_int_equal(hb_session_exit_code(&res), 130);
+	assert_supply_safe();
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+}
+
+static void test_store_failure_ends_safely(void **state)
+{
+	(void)state;
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	open_bench("sim:lcr", "sim:supply", &lcr, &supply);
+	hb_sweep_plan plan;
+	small_plan(&plan);
+	recorder rec = { .act_at = 2, .act = ACT_STORE_FULL };
+	hb_sweep_result res;
+	assert_int_equal(run_recorded(lcr, supply, &plan, &rec, &res), HB_ERR_DB_FULL);
+	assert_int_equal(res.end, HB_SWEEP_FAILED);
+	assert_int_equal(res.points, 2);
+	assert_non_null(strstr(res.reason, "could not store point 3"));
+	assert_int_equal(hb_session_exit_code(&res), 1);
+	assert_supply_safe();
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+}
+
+static void test_compliance_aborts(void **state)
+{
+	(void)state;
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	open_bench("sim:lcr", "sim:supply", &lcr, &supply);
+	hb_sweep_plan plan;
+	small_plan(&plan);
+	/* 30 mOhm of winding and leads need 0.12 V at 4 A: 0.05 V runs out near 1.7 A. */
+	plan.limits.max_voltage = 0.05;
+	recorder rec = { .act_at = -1 };
+	hb_sweep_result res;
+	assert_int_equal(run_recorded(lcr, supply, &plan, &rec, &res), HB_ERR_COMPLIANCE);
+	assert_int_equal(res.end, HB_SWEEP_ABORTED);
+	assert_non_null(strstr(res.reason, "compliance"));
+	assert_true(res.points >= 2 && res.points < 11);
+	for (int i = 0; i < rec.n; i++)
+		assert_true(rec.pts[i].bias_set * 0.030 < 0.05 * 1.05);
+	assert_supply_safe();
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+}
+
+static void test_meter_timeout_fails_safely(void **state)
+{
+	(void)state;
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	open_bench("sim:lcr?timeout=200", "sim:supply", &lcr, &supply);
+	hb_sweep_plan plan;
+	small_plan(&plan);
+	recorder rec = { .act_at = 2, .act = ACT_LCR_LATE };
+	hb_sweep_result res;
+	assert_int_equal(run_recorded(lcr, supply, &plan, &rec, &res), HB_ERR_TIMEOUT);
+	assert_int_equal(res.end, HB_SWEEP_FAILED);
+	assert_int_equal(res.points, 3);
+	assert_non_null(strstr(res.reason, "meter"));
+	assert_false(res.current_may_flow);
+	assert_supply_safe();
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+}
+
+static void test_lost_supply_says_current_may_flow(void **state)
+{
+	(void)state;
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	open_bench("sim:lcr", "sim:supply?timeout=300", &lcr, &supply);
+	hb_sweep_plan plan;
+	small_plan(&plan);
+	recorder rec = { .act_at = 2, .act = ACT_SUPPLY_GONE };
+	hb_sweep_result res;
+	assert_true(run_recorded(lcr, supply, &plan, &rec, &res) < 0);
+	assert_int_equal(res.end, HB_SWEEP_FAILED);
+	assert_true(res.current_may_flow);
+	assert_non_null(strstr(res.reason, "could not be switched off"));
+	assert_int_equal(hb_session_exit_code(&res), 1);
+	/* The honest outcome: nobody could reach the supply, so it still drives current. */
+	assert_true(sim_state("state.output") == 1);
+	assert_true(sim_state("state.setpoint") > 0);
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+}
+
+/* The auto rule's points against the settled value of the same current:
+ * a second sweep of the same plan on a noiseless meter with a dwell of 25
+ * settling time constants. */
+static void test_auto_settle_reaches_settled_value(void **state)
+{
+	(void)state;
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	open_bench("sim:lcr", "sim:supply", &lcr, &supply);
+	hb_sweep_plan plan;
+	small_plan(&plan);
+	/* Big steps near the knee: L moves by about 12 % from one step to the next. */
+	plan.steps = 9;
+	plan.settle = HB_SETTLE_AUTO;
+	plan.settle_timeout = 5;
+	static recorder a, b;
+	memset(&a, 0, sizeof a);
+	memset(&b, 0, sizeof b);
+	a.act_at = b.act_at = -1;
+	hb_sweep_result res_a, res_b;
+	assert_int_equal(run_recorded(lcr, supply, &plan, &a, &res_a), HB_OK);
+
+	double tau = 0;
+	assert_int_equal(hb_sim_get_param(hb_sim_inproc(), "tau_settle", &tau), HB_OK);
+	assert_int_equal(hb_sim_set_param(hb_sim_inproc(), "noise", 0), HB_OK);
+	hb_sweep_plan ref = plan;
+	ref.settle = HB_SETTLE_FIXED;
+	ref.settle_time = 25 * tau * TIME_SCALE;
+	assert_int_equal(run_recorded(lcr, supply, &ref, &b, &res_b), HB_OK);
+	assert_int_equal(a.n, 9);
+	assert_int_equal(b.n, 9);
+
+	/* The rule stops when two successive differences lie within
+	 * tol = k*sqrt(2)*noise. An exponential approach with ratio r from one
+	 * reading to the next leaves r/(1-r) times the last difference; a
+	 * reading lasts at least t_medium = tau/2 here, so r <= exp(-1/2) and
+	 * the tail is at most 1.55 tol. The last reading's own noise (a few
+	 * noise_rel) fits in the rest of 3 tol. */
+	double tol = 3 * plan.settle_k * sqrt(2.0) * res_a.noise_rel;
+	assert_true(res_a.noise_rel > 2e-5 && res_a.noise_rel < 5e-4); /* the sim's noise is 1e-4 */
+	int most_readings = 0;
+	for (int i = 0; i < 9; i++) {
+		assert_true(a.pts[i].settled);
+		if (getenv("HB_TEST_VERBOSE"))
+			print_message("point %d: %d readings, error %.2e, bound %.2e\n", i, a.pts[i].settle_readings,
+				      a.pts[i].primary / b.pts[i].primary - 1, tol);
+		assert_near_rel(a.pts[i].primary, b.pts[i].primary, tol);
+		if (a.pts[i].settle_readings > most_readings)
+			most_readings = a.pts[i].settle_readings;
+	}
+	/* Meaningful only if the rule had to wait somewhere: three readings is its minimum. */
+	assert_true(most_readings > 3);
+	assert_supply_safe();
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+}
+
+static void test_frequency_sweep_without_supply(void **state)
+{
+	(void)state;
+	hb_lcr *lcr = NULL;
+	assert_int_equal(hb_lcr_open("sim:lcr", NULL, &lcr), HB_OK);
+	hb_sweep_plan plan;
+	hb_sweep_plan_defaults(&plan);
+	plan.kind = HB_SWEEP_FREQUENCY;
+	plan.f_from = 1e3;
+	plan.f_to = 1e6;
+	plan.f_points = 7;
+	plan.settle = HB_SETTLE_FIXED;
+	plan.settle_time = 0.001;
+	recorder rec = { .act_at = -1 };
+	hb_sweep_result res;
+	assert_int_equal(run_recorded(lcr, NULL, &plan, &rec, &res), HB_OK);
+	assert_int_equal(rec.n, 7);
+	for (int i = 0; i < 7; i++) {
+		assert_int_equal(rec.pts[i].direction, 0);
+		assert_near_rel(rec.pts[i].frequency, 1e3 * pow(10, i * 0.5), 1e-9);
+		assert_true(isnan(rec.pts[i].bias_measured));
+	}
+	hb_lcr_close(lcr);
+}
+
+/* ------------------------------------------------------------------ */
+/* the session: store as sink                                          */
+
+static void put_demo_part(hb_db *db, hb_db_part *part)
+{
+	hb_demo_part(part);
+	assert_int_equal(hb_db_part_put(db, part), HB_OK);
+}
+
+static void test_session_stores_every_point(void **state)
+{
+	(void)state;
+	char path[512];
+	db_path_new(path, sizeof path);
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open(path, &db), HB_OK);
+	hb_db_part part;
+	put_demo_part(db, &part);
+	hb_station st;
+	hb_demo_station(&st);
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	open_bench("sim:lcr", "sim:supply", &lcr, &supply);
+	hb_sweep_plan plan;
+	small_plan(&plan);
+	hb_session s = { .db = db, .lcr = lcr, .supply = supply, .station = &st, .ambient_c = 23 };
+	int64_t id = 0;
+	hb_sweep_result res;
+	assert_int_equal(hb_session_measure(&s, &part, "S-1", 0, &plan, "test", &id, &res), HB_OK);
+	assert_true(id > 0);
+	hb_db_sweep sw;
+	assert_int_equal(hb_db_sweep_get(db, id, &sw), HB_OK);
+	assert_int_equal(sw.status, HB_DB_COMPLETE);
+	assert_int_equal(sw.n_points, 11);
+	assert_string_equal(sw.settle_mode, "fixed");
+	assert_string_equal(sw.serial, "S-1");
+	assert_true(sw.limit_current_a == 5);
+	hb_db_point *pts = NULL;
+	size_t n = 0;
+	assert_int_equal(hb_db_points_get(db, id, &pts, &n), HB_OK);
+	assert_int_equal(n, 11);
+	for (size_t i = 0; i < n; i++) {
+		assert_int_equal(pts[i].seq, (int)i);
+		assert_true(fabs(pts[i].bias_set_a - 0.4 * (double)i) < 1e-9);
+		assert_true(pts[i].settle_readings >= 1);
+		assert_int_equal(pts[i].reading_status, HB_OK);
+	}
+	hb_db_points_free(pts);
+	assert_supply_safe();
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+	hb_db_close(db);
+}
+
+/* ------------------------------------------------------------------ */
+/* other processes: kill, concurrent reader, concurrent writer         */
+
+/* Runs in a forked child: its own in-process bench, its own store
+ * connection. Progress lines go to progress_fd. Never returns. */
+static void child_sweep(const char *db_path, const char *serial, unsigned seed, int steps, double settle,
+			int progress_fd)
+{
+	int code = 10;
+	FILE *progress = progress_fd >= 0 ? fdopen(progress_fd, "w") : NULL;
+	hb_db *db = NULL;
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	if (hb_demo_configure_sim(TIME_SCALE, seed, 0) != HB_OK || hb_db_open(db_path, &db) != HB_OK)
+		goto out;
+	code = 11;
+	hb_db_part part;
+	if (hb_db_part_get(db, "HBX-108G", &part) != HB_OK)
+		goto out;
+	code = 12;
+	if (hb_lcr_open("sim:lcr", NULL, &lcr) != HB_OK || hb_supply_open("sim:supply", NULL, &supply) != HB_OK)
+		goto out;
+	hb_station st;
+	hb_demo_station(&st);
+	hb_sweep_plan plan;
+	small_plan(&plan);
+	plan.steps = steps;
+	plan.settle_time = settle;
+	hb_session s = { .db = db, .lcr = lcr, .supply = supply, .station = &st, .progress = progress };
+	int64_t id = 0;
+	hb_sweep_result res;
+	hb_session_measure(&s, &part, serial, 0, &plan, NULL, &id, &res);
+	code = res.end == HB_SWEEP_COMPLETE && res.points == steps ? 0 : 13;
+out:
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+	hb_db_close(db);
+	hb_sim_inproc_shutdown();
+	if (progress)
+		fclose(progress);
+	_exit(code);
+}
+
+static pid_t fork_sweep(const char *db_path, const char *serial, unsigned seed, int steps, double settle, int *read_fd)
+{
+	int fds[2] = { -1, -1 };
+	if (read_fd)
+		assert_int_equal(pipe(fds), 0);
+	fflush(NULL);
+	pid_t pid = fork();
+	assert_true(pid >= 0);
+	if (pid == 0) {
+		if (fds[0] >= 0)
+			close(fds[0]);
+		child_sweep(db_path, serial, seed, steps, settle, fds[1]);
+	}
+	if (read_fd) {
+		close(fds[1]);
+		*read_fd = fds[0];
+	}
+	return pid;
+}
+
+/* Reads progress lines until `want` lines starting "point " arrived;
+ * returns how many did (fewer on EOF or the hang guard). */
+static int wait_points(int fd, int want)
+{
+	char buf[4096];
+	size_t len = 0;
+	int seen = 0;
+	struct timespec t0;
+	clock_gettime(CLOCK_MONOTONIC, &t0);
+	while (seen < want) {
+		struct pollfd pfd = { fd, POLLIN, 0 };
+		if (poll(&pfd, 1, 1000) < 0 && errno != EINTR)
+			break;
+		struct timespec t;
+		clock_gettime(CLOCK_MONOTONIC, &t);
+		if ((t.tv_sec - t0.tv_sec) * 1000 > HANG_GUARD_MS)
+			break;
+		if (!(pfd.revents & (POLLIN | POLLHUP)))
+			continue;
+		ssize_t n = read(fd, buf + len, sizeof buf - 1 - len);
+		if (n <= 0)
+			break;
+		len += (size_t)n;
+		buf[len] = '\0';
+		char *nl;
+		while ((nl = strchr(buf, '\n'))) {
+			if (strncmp(buf, "point ", 6) == 0)
+				seen++;
+			size_t used = (size_t)(nl + 1 - buf);
+			memmove(buf, nl + 1, len - used + 1);
+			len -= used;
+		}
+	}
+	return seen;
+}
+
+static int wait_child(pid_t pid)
+{
+	int status = 0;
+	for (int waited = 0; waited < HANG_GUARD_MS; waited += 10) {
+		pid_t r = waitpid(pid, &status, WNOHANG);
+		if (r == pid)
+			return status;
+		usleep(10000);
+	}
+	kill(pid, SIGKILL);
+	waitpid(pid, &status, 0);
+	fail_msg("child %d hung", (int)pid);
+	return status;
+}
+
+static void prepare_store(char *path, size_t cap)
+{
+	db_path_new(path, cap);
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open(path, &db), HB_OK);
+	hb_db_part part;
+	put_demo_part(db, &part);
+	hb_db_close(db);
+}
+
+static void test_sigkill_keeps_points_marks_interrupted(void **state)
+{
+	(void)state;
+	char path[512];
+	prepare_store(path, sizeof path);
+	int fd = -1;
+	pid_t pid = fork_sweep(path, "K-1", 3, 41, 0.05, &fd);
+	int seen = wait_points(fd, 5);
+	kill(pid, SIGKILL);
+	int status = wait_child(pid);
+	close(fd);
+	assert_int_equal(seen, 5);
+	assert_true(WIFSIGNALED(status) && WTERMSIG(status) == SIGKILL);
+
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open(path, &db), HB_OK);
+	assert_int_equal(hb_db_recovered_count(db), 1);
+	hb_db_sweep_filter f;
+	hb_db_sweep_filter_init(&f);
+	hb_db_sweep *list = NULL;
+	size_t n = 0;
+	assert_int_equal(hb_db_sweep_list(db, &f, &list, &n), HB_OK);
+	assert_int_equal(n, 1);
+	assert_int_equal(list[0].status, HB_DB_INTERRUPTED);
+	/* Every point reported before the kill was committed first. */
+	hb_db_point *pts = NULL;
+	size_t np = 0;
+	assert_int_equal(hb_db_points_get(db, list[0].id, &pts, &np), HB_OK);
+	assert_true(np >= 5 && np < 41);
+	for (size_t i = 0; i < np; i++) {
+		assert_int_equal(pts[i].seq, (int)i);
+		assert_true(isfinite(pts[i].primary) && pts[i].primary > 0);
+	}
+	hb_db_points_free(pts);
+	hb_db_sweeps_free(list);
+	hb_db_close(db);
+}
+
+static void test_read_while_sweep_runs(void **state)
+{
+	(void)state;
+	char path[512];
+	prepare_store(path, sizeof path);
+	int fd = -1;
+	pid_t pid = fork_sweep(path, "R-1", 4, 21, 0.02, &fd);
+	assert_int_equal(wait_points(fd, 3), 3);
+	/* Frozen mid-sweep, so what we read is certainly a running sweep
+	 * (and its writer may hold the write lock this very moment). */
+	kill(pid, SIGSTOP);
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open(path, &db), HB_OK);
+	assert_int_equal(hb_db_recovered_count(db), 0);
+	hb_db_sweep_filter f;
+	hb_db_sweep_filter_init(&f);
+	hb_db_sweep *list = NULL;
+	size_t n = 0;
+	int rc_list = hb_db_sweep_list(db, &f, &list, &n);
+	hb_db_point *pts = NULL;
+	size_t np = 0;
+	int rc_points = rc_list == HB_OK && n == 1 ? hb_db_points_get(db, list[0].id, &pts, &np) : -1;
+	hb_db_sweep_status st = n == 1 ? list[0].status : HB_DB_FAILED;
+	int64_t id = n == 1 ? list[0].id : 0;
+	kill(pid, SIGCONT);
+	int status = wait_child(pid);
+	close(fd);
+	assert_int_equal(rc_list, HB_OK);
+	assert_int_equal(n, 1);
+	assert_int_equal(st, HB_DB_RUNNING);
+	assert_int_equal(rc_points, HB_OK);
+	assert_true(np >= 3 && np < 21);
+	hb_db_points_free(pts);
+	hb_db_sweeps_free(list);
+	assert_true(WIFEXITED(status));
+	assert_int_equal(WEXITSTATUS(status), 0);
+	hb_db_sweep sw;
+	assert_int_equal(hb_db_sweep_get(db, id, &sw), HB_OK);
+	assert_int_equal(sw.status, HB_DB_COMPLETE);
+	assert_int_equal(sw.n_points, 21);
+	hb_db_close(db);
+}
+
+static void test_two_processes_one_store(void **state)
+{
+	(void)state;
+	char path[512];
+	prepare_store(path, sizeof path);
+	pid_t a = fork_sweep(path, "W-1", 5, 21, 0.002, NULL);
+	pid_t b = fork_sweep(path, "W-2", 6, 21, 0.002, NULL);
+	int sa = wait_child(a), sb = wait_child(b);
+	assert_true(WIFEXITED(sa) && WEXITSTATUS(sa) == 0);
+	assert_true(WIFEXITED(sb) && WEXITSTATUS(sb) == 0);
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open(path, &db), HB_OK);
+	hb_db_sweep_filter f;
+	hb_db_sweep_filter_init(&f);
+	hb_db_sweep *list = NULL;
+	size_t n = 0;
+	assert_int_equal(hb_db_sweep_list(db, &f, &list, &n), HB_OK);
+	assert_int_equal(n, 2);
+	for (size_t i = 0; i < n; i++) {
+		assert_int_equal(list[i].status, HB_DB_COMPLETE);
+		assert_int_equal(list[i].n_points, 21);
+	}
+	hb_db_sweeps_free(list);
+	hb_db_close(db);
+}
+
+int main(void)
+{
+	const struct CMUnitTest tests[] = {
+		cmocka_unit_test(test_plan_check_refuses),
+		cmocka_unit_test(test_setpoints),
+		cmocka_unit_test_setup_teardown(test_complete_sweep_leaves_supply_off, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_signal_ramps_down_and_aborts, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_store_failure_ends_safely, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_compliance_aborts, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_meter_timeout_fails_safely, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_lost_supply_says_current_may_flow, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_auto_settle_reaches_settled_value, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_frequency_sweep_without_supply, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_session_stores_every_point, bench_setup, bench_teardown),
+		cmocka_unit_test(test_sigkill_keeps_points_marks_interrupted),
+		cmocka_unit_test(test_read_while_sweep_runs),
+		cmocka_unit_test(test_two_processes_one_store),
+	};
+	return cmocka_run_group_tests(tests, group_setup, group_teardown);
+}
