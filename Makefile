@@ -120,6 +120,7 @@ $(BUILD)/bench/%: bench/%.c $(LIBHB) | deps
 	$(Q)$(CC) $(CPPFLAGS) $(ALL_CFLAGS) -o $@ $< $(LIBHB) $(LDLIBS_ALL)
 
 check: deps
+	@HB_EXTRA_TOOLS="chromium:chromium" sh scripts/ensure-deps
 	@$(MAKE) --no-print-directory henrybench $(TEST_BINS)
 	@sh tests/run-tests $(BUILD) $(TEST_BINS)
 

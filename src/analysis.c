@@ -137,6 +137,46 @@ static void judge_bias(hb_analysis_summary *s, const hb_db_part *part, const hb_
 	}
 }
 
+/* The winding's parallel capacitance, from the newest frequency sweep of
+ * the same unit, else of any unit of the part: the meter reads
+ * L/(1 - w^2 L C) at the test frequency, and the core fit corrects for it. */
+static double winding_capacitance(hb_db *db, const hb_db_sweep *sw, int64_t *from_sweep)
+{
+	*from_sweep = 0;
+	const char *serials[2] = { sw->serial, NULL };
+	for (int pass = 0; pass < 2; pass++) {
+		hb_db_sweep_filter f;
+		hb_db_sweep_filter_init(&f);
+		f.part_number = sw->part_number;
+		f.serial = serials[pass];
+		f.kind = HB_DB_SWEEP_FREQUENCY;
+		f.status = HB_DB_COMPLETE;
+		f.limit = 5;
+		hb_db_sweep *list = NULL;
+		size_t n = 0;
+		if (hb_db_sweep_list(db, &f, &list, &n) != HB_OK)
+			continue;
+		double c = NAN;
+		for (size_t i = 0; i < n && !isfinite(c); i++) {
+			hb_db_fit *fit = calloc(1, sizeof *fit);
+			if (!fit)
+				break;
+			if (hb_db_fit_get_latest(db, list[i].id, NULL, fit) == HB_OK) {
+				for (size_t k = 0; k < fit->n_values; k++)
+					if (strcmp(fit->values[k].name, "C") == 0 && fit->values[k].value > 0) {
+						c = fit->values[k].value;
+						*from_sweep = list[i].id;
+					}
+			}
+			free(fit);
+		}
+		hb_db_sweeps_free(list);
+		if (isfinite(c))
+			return c;
+	}
+	return NAN;
+}
+
 static void covariance_json(char *buf, size_t cap, const double *cov, size_t p)
 {
 	size_t len = 0;
@@ -191,6 +231,8 @@ static int store_results(hb_db *db, hb_analysis_summary *s)
 			fit_value(f, HB_DB_FV_GAP, gap, gap_se, "m");
 		}
 		fit_value(f, "DCR", s->dcr_ohm, NAN, "ohm");
+		fit_value(f, "Cp_used", s->cp_farad, NAN, "F");
+		fit_value(f, "Cp_from_sweep", s->cp_sweep_id > 0 ? (double)s->cp_sweep_id : NAN, NAN, "");
 		size_t len = 0;
 		if (b->core_status == HB_OK && (b->core.flags & HB_CORE_NO_LAW_FITS))
 			len += (size_t)snprintf(f->flags + len, sizeof f->flags - len, "no-law-fits ");
@@ -296,6 +338,7 @@ int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *op
 	memset(s, 0, sizeof *s);
 	s->sweep_id = sweep_id;
 	s->dcr_ohm = NAN;
+	s->cp_farad = NAN;
 	s->overall = HB_OVERALL_INCOMPLETE;
 	hb_db_sweep sw;
 	hb_db_part part;
@@ -353,6 +396,14 @@ int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *op
 		fo.geo.Ae = part.ae_m2;
 		fo.geo.le = part.le_m;
 		fo.geo.window_height = isfinite(part.window_m) ? part.window_m : 0;
+	}
+	if (part.part_number[0] && isfinite(sw.test_freq_hz)) {
+		double c = winding_capacitance(db, &sw, &s->cp_sweep_id);
+		if (isfinite(c)) {
+			fo.parallel_c = c;
+			fo.test_freq = sw.test_freq_hz;
+			s->cp_farad = c;
+		}
 	}
 	fo.fix_mu_i = opt->fix_mu_i;
 	fo.fix_gap = opt->fix_gap;
@@ -457,16 +508,21 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 			if (c->law[l].status == HB_OK)
 				fprintf(out, "%s%s %.1f", l ? ", " : "", hb_core_law_name((hb_core_law)l), c->law[l].aicc);
 		fprintf(out, ")\n");
+		if (isfinite(s->cp_farad)) {
+			char cbuf[32];
+			fprintf(out, "  corrected for the winding capacitance %s (frequency sweep %lld)\n",
+				hb_format_si(cbuf, sizeof cbuf, s->cp_farad, "F", 3), (long long)s->cp_sweep_id);
+		}
 		print_value(out, "mu_i (material)", lr->param[HB_CORE_MU_I], lr->std_err[HB_CORE_MU_I], "");
 		print_value(out, "gap, magnetic (effective)", lr->param[HB_CORE_GAP], lr->std_err[HB_CORE_GAP], "m");
 		print_value(out, "gap, physical (fringing)", c->gap_physical, c->gap_physical_se, "m");
-		print_value(out, "Bsat", lr->param[HB_CORE_BSAT], lr->std_err[HB_CORE_BSAT], "T");
+		print_value(out, "Js (saturation polarisation)", lr->param[HB_CORE_BSAT], lr->std_err[HB_CORE_BSAT], "T");
 		print_value(out, "mu_e", c->mu_e, c->mu_e_se, "");
 		print_value(out, "AL", c->AL, c->AL_se, "H");
 		print_value(out, "B peak at rated current", c->B_peak, c->B_peak_se, "T");
 		if (lr->undetermined) {
 			fprintf(out, "  not determined by these data:");
-			static const char *names[] = { "mu_i", "gap", "Bsat" };
+			static const char *names[] = { "mu_i", "gap", "Js" };
 			for (int j = 0; j < HB_CORE_NP; j++)
 				if (lr->undetermined & (1u << j))
 					fprintf(out, " %s", names[j]);

@@ -39,6 +39,8 @@ typedef struct hb_analysis_summary {
 	hb_fit_freq_result freq;   /* frequency sweeps */
 	double dcr_ohm;            /* the meter's reading, else the supply's V/I (two-wire, leads in); NAN if none */
 	bool dcr_from_meter;
+	double cp_farad;           /* winding capacitance the core fit corrected for, NAN if none */
+	int64_t cp_sweep_id;       /* the frequency sweep it came from */
 	size_t n_checks;
 	hb_analysis_check checks[HB_ANALYSIS_MAX_CHECKS];
 	hb_overall overall;

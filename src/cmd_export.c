@@ -1110,8 +1110,8 @@ int hb_import_csv(hb_db *db, const char *path, const hb_import_options *opt, hb_
 			}
 			char why[160];
 			if (parse_cell(cell, (hb_import_role)r, scale[r], res->delimiter, &vals[r][i], why, sizeof why) != HB_OK) {
-				set_err(err, errlen, "line %d, column %d ('%s'): '%s' is not a %s in %s: %s (nothing was stored)",
-					row->line, c + 1, hdr->field[c], cell, role_names[r], role_units[r], why);
+				set_err(err, errlen, "line %d, column %d ('%s'): '%s' is not a value in %s (%s): %s (nothing was stored)",
+					row->line, c + 1, hdr->field[c], cell, role_units[r], role_names[r], why);
 				res->line = row->line;
 				res->field = c + 1;
 				rc = HB_ERR_ARG;

@@ -20,7 +20,8 @@ static void usage(FILE *out)
 		"  --model      knee: smooth knee curve; core: magnetic-circuit model (needs the part's\n"
 		"               turns, Ae and le); all (default)\n"
 		"  --drop       drop fractions in percent at which to report the current\n"
-		"  --fix        hold a core parameter at a datasheet value: mu_i=2300, gap=0.3mm, bsat=0.39T\n"
+		"  --fix        hold a core parameter at a datasheet value: mu_i=2300, gap=0.3mm,\n"
+		"               bsat=0.39T (saturation polarisation Js)\n"
 		"  --noise      relative reading noise (e.g. 0.01%%); default: estimated from the data\n");
 }
 

@@ -5,6 +5,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <strings.h>
 
 #include "html.h"
 
@@ -235,10 +236,13 @@ int hb_html_paragraph(hb_html *h, const char *s)
 
 static const char *verdict_class(const char *verdict)
 {
-	static const char *const known[] = { "pass", "fail", "incomplete", "not-tested" };
+	/* A lot's accept/reject reads like a unit's pass/fail. */
+	static const char *const known[][2] = { { "pass", "pass" }, { "fail", "fail" },
+						 { "incomplete", "incomplete" }, { "not-tested", "not-tested" },
+						 { "accept", "pass" }, { "reject", "fail" } };
 	for (size_t i = 0; verdict && i < sizeof known / sizeof known[0]; i++)
-		if (strcmp(verdict, known[i]) == 0)
-			return known[i];
+		if (strcasecmp(verdict, known[i][0]) == 0)
+			return known[i][1];
 	return NULL;
 }
 

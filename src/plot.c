@@ -849,18 +849,18 @@ int hb_plot_render_svg(hb_plot *p, char **svg, size_t *len)
 	draw_decorations(p, &sx, &sy, &sy2, true);
 	plwind(sx.lo, sx.hi, sy.lo, sy.hi);
 	use_colour(COL_GRID);
-	plbox(sx.log ? "gl" : "g", 0, 0, "g", 0, 0);
+	plbox(sx.log ? "gl" : "g", 0, 0, sy.log ? "gl" : "g", 0, 0);
 	draw_series(p, &sx, &sy, &sy2);
 	draw_decorations(p, &sx, &sy, &sy2, false);
 
 	use_colour(COL_INK);
 	plwidth(1.0);
 	plwind(sx.lo, sx.hi, sy.lo, sy.hi);
-	plbox(sx.log ? "bcnstl" : "bcnst", 0, 0, right ? "bnstv" : "bcnstv", 0, 0);
+	plbox(sx.log ? "bcnstl" : "bcnst", 0, 0, right ? (sy.log ? "bnstvl" : "bnstv") : (sy.log ? "bcnstvl" : "bcnstv"), 0, 0);
 	pllab(sx.label, sy.label, p->title);
 	if (right) {
 		plwind(sx.lo, sx.hi, sy2.lo, sy2.hi);
-		plbox("", 0, 0, "cmstv", 0, 0);
+		plbox("", 0, 0, sy2.log ? "cmstvl" : "cmstv", 0, 0);
 		plmtex("r", 4.5, 0.5, 0.5, sy2.label);
 	}
 	draw_legend(p);

@@ -159,7 +159,11 @@ static void add_bias_models(hb_plot *plot, const sweep_data *d, double i_max)
 		hb_plot_add_series(plot, HB_AXIS_Y, I, L, MODEL_POINTS, "knee model", HB_PLOT_LINE);
 	}
 	hb_core_law law;
-	hb_core_params par = { fit_get(d, "core.mu_i"), fit_get(d, "core.gap"), fit_get(d, "core.bsat") };
+	/* Fits from hb-fit 1.0 stored the saturation value as core.bsat. */
+	double js = fit_get(d, "core.Js");
+	if (!isfinite(js))
+		js = fit_get(d, "core.bsat");
+	hb_core_params par = { fit_get(d, "core.mu_i"), fit_get(d, "core.gap"), js };
 	if (d->have_part && part_has_geometry(&d->part) && core_law_from_name(d->fit->law, &law) == HB_OK &&
 	    isfinite(par.mu_i) && isfinite(par.gap) && isfinite(par.bsat)) {
 		hb_core_geometry geo = { d->part.turns, d->part.ae_m2, d->part.le_m,
@@ -653,7 +657,11 @@ static const char *value_meaning(const char *name, char *buf, size_t cap)
 		{ "knee.dof", "knee model: degrees of freedom" },
 		{ "core.mu_i", "core model: initial permeability of the material" },
 		{ "core.gap", "core model: effective magnetic gap" },
-		{ "core.bsat", "core model: saturation flux density" },
+		{ "core.Js", "core model: saturation polarisation Js (B = mu0 H + J)" },
+		{ "core.bsat", "core model: saturation flux density (hb-fit 1.0)" },
+		{ "Cp_used", "winding capacitance the core fit corrected for" },
+		{ "Cp_from_sweep", "frequency sweep that capacitance came from" },
+		{ "DCR", "winding resistance used for the DCR verdict" },
 		{ "core.mu_e", "core model: effective permeability of the gapped core" },
 		{ "core.AL", "core model: inductance factor AL = L0 / N^2" },
 		{ "core.gap_implied", "gap implied by mu_e and the fitted mu_i" },

@@ -125,10 +125,19 @@ void hb_sweep_plan_defaults(hb_sweep_plan *plan)
 	plan->limits.ramp_rate = 5.0;
 }
 
+/* msg takes exactly two %g (or other double) conversions; a message
+ * without numbers goes through limit_missing instead. */
 static int fail_msg(char *err, size_t errlen, const char *msg, double a, double b)
 {
 	if (err && errlen)
 		snprintf(err, errlen, msg, a, b);
+	return HB_ERR_LIMIT;
+}
+
+static int limit_missing(char *err, size_t errlen, const char *msg)
+{
+	if (err && errlen)
+		snprintf(err, errlen, "%s", msg);
 	return HB_ERR_LIMIT;
 }
 
@@ -142,11 +151,11 @@ int hb_sweep_plan_check(const hb_sweep_plan *plan, bool have_supply, char *err, 
 			return HB_ERR_ARG;
 		}
 		if (isnan(lim->max_current))
-			return fail_msg(err, errlen, "no current limit: give --max-current or set max_current in the station file%.0s%.0s", 0, 0);
+			return limit_missing(err, errlen, "no current limit: give --max-current or set max_current in the station file");
 		if (isnan(lim->max_voltage))
-			return fail_msg(err, errlen, "no voltage limit: give --max-voltage or set max_voltage in the station file%.0s%.0s", 0, 0);
+			return limit_missing(err, errlen, "no voltage limit: give --max-voltage or set max_voltage in the station file");
 		if (isnan(lim->max_power))
-			return fail_msg(err, errlen, "no power limit: give --max-power or set max_power in the station file%.0s%.0s", 0, 0);
+			return limit_missing(err, errlen, "no power limit: give --max-power or set max_power in the station file");
 		if (top > lim->max_current)
 			return fail_msg(err, errlen, "top current %g A exceeds the current limit %g A", top, lim->max_current);
 		/* Bounding the compliance voltage bounds the power into a short. */
@@ -157,8 +166,11 @@ int hb_sweep_plan_check(const hb_sweep_plan *plan, bool have_supply, char *err, 
 					 top, lim->max_voltage, top * lim->max_voltage, lim->max_power);
 			return HB_ERR_LIMIT;
 		}
-		if (!(lim->ramp_rate > 0))
-			return fail_msg(err, errlen, "ramp rate %g A/s: accepted above 0%.0s", lim->ramp_rate, 0);
+		if (!(lim->ramp_rate > 0)) {
+			if (err && errlen)
+				snprintf(err, errlen, "ramp rate %g A/s: accepted above 0", lim->ramp_rate);
+			return HB_ERR_LIMIT;
+		}
 	}
 	if (plan->kind == HB_SWEEP_BIAS) {
 		if (plan->from < 0 || plan->to <= plan->from) {

@@ -310,6 +310,39 @@ static void test_signal_ramps_down_and_aborts(void **state)
 	hb_lcr_close(lcr);
 }
 
+/* A Ctrl-C while the instruments are still being opened: the sweep stops
+ * before the supply output is ever switched on. */
+static void test_signal_before_start_switches_nothing_on(void **state)
+{
+	(void)state;
+	char log_path[400];
+	snprintf(log_path, sizeof log_path, "%s/early-signal.log", tmpdir);
+	FILE *log = fopen(log_path, "w+");
+	assert_non_null(log);
+	hb_sim_set_log(hb_sim_inproc(), log);
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	open_bench("sim:lcr", "sim:supply", &lcr, &supply);
+	hb_sweep_plan plan;
+	small_plan(&plan);
+	recorder rec = { .act_at = -1 };
+	hb_sweep_result res;
+	raise(SIGINT);
+	assert_int_equal(run_recorded(lcr, supply, &plan, &rec, &res), HB_ERR_INTERRUPTED);
+	assert_int_equal(res.end, HB_SWEEP_ABORTED);
+	assert_int_equal(res.points, 0);
+	assert_int_equal(hb_session_exit_code(&res), 130);
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+	hb_sim_set_log(hb_sim_inproc(), NULL);
+	rewind(log);
+	char line[512];
+	while (fgets(line, sizeof line, log))
+		assert_null(strstr(line, "output ON"));
+	fclose(log);
+	assert_supply_safe();
+}
+
 static void test_store_failure_ends_safely(void **state)
 {
 	(void)state;
@@ -769,6 +802,7 @@ int main(void)
 		cmocka_unit_test(test_setpoints),
 		cmocka_unit_test_setup_teardown(test_complete_sweep_leaves_supply_off, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_signal_ramps_down_and_aborts, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_signal_before_start_switches_nothing_on, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_store_failure_ends_safely, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_compliance_aborts, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_meter_timeout_fails_safely, bench_setup, bench_teardown),
