@@ -451,9 +451,16 @@ static void print_value(FILE *out, const char *label, double v, double se, const
 		fprintf(out, "  %-28s -\n", label);
 		return;
 	}
-	hb_format_si(a, sizeof a, v, unit, 5);
+	/* A pure number reads better without an SI prefix (2300, not 2.3 k). */
+	if (!*unit) {
+		snprintf(a, sizeof a, "%.6g", v);
+		snprintf(b, sizeof b, "%.2g", se);
+	} else {
+		hb_format_si(a, sizeof a, v, unit, 5);
+		hb_format_si(b, sizeof b, se, unit, 2);
+	}
 	if (isfinite(se) && se > 0)
-		fprintf(out, "  %-28s %s  +- %s\n", label, a, hb_format_si(b, sizeof b, se, unit, 2));
+		fprintf(out, "  %-28s %s  +- %s\n", label, a, b);
 	else
 		fprintf(out, "  %-28s %s\n", label, a);
 }

@@ -305,7 +305,8 @@ static void test_lot_report(void **state)
 	char *html = report_text(fx, R_LOT, 0, "lot.html");
 	assert_contains(html, "LOT-T1");
 	assert_contains(html, "code letter C: sample n = 5, accept with Ac = 0, reject with Re = 1");
-	assert_contains(html, "verdict\">reject");
+	/* A rejected lot is styled like a failed unit. */
+	assert_contains(html, "verdict fail\">reject");
 	assert_contains(html, "L1-0004");
 	assert_contains(html, "Cpk");
 	assert_contains(html, "<tr class=\"fail\">");
