@@ -1,4 +1,5 @@
 /* src/cmd_history.c - the `history` command (units, lot statistics, trend) and the table of `compare` */
+#include <errno.h>
 #include <getopt.h>
 #include <math.h>
 #include <stdio.h>
@@ -10,6 +11,7 @@
 
 #include "analysis.h"
 #include "cli.h"
+#include "report.h"
 #include "history.h"
 
 /* ---------------- summaries ---------------- */
@@ -781,10 +783,30 @@ static void print_compare_text(const hb_compare_table *t)
 static void compare_usage(FILE *out)
 {
 	fprintf(out,
-		"usage: henrybench compare SWEEP_ID SWEEP_ID... [--currents N] [--json]\n"
+		"usage: henrybench compare SWEEP_ID SWEEP_ID... [--currents N] [--plot FILE.svg] [--json]\n"
 		"Bias sweeps side by side: L0, currents at -10/-20/-30 %% L, mu_e, gap and verdict from the\n"
 		"newest fit, and L read at N common currents (default 6) spread over the range every\n"
-		"sweep covers.\n");
+		"sweep covers. --plot writes the sweeps overlaid in one SVG plot.\n");
+}
+
+static int write_overlay(hb_db *db, const int64_t *ids, size_t n, const char *path)
+{
+	char *svg = NULL;
+	int rc = hb_report_compare_svg(db, ids, n, &svg);
+	if (rc != HB_OK) {
+		hb_cli_error("compare --plot: %s", hb_status_name(rc));
+		return rc;
+	}
+	FILE *f = fopen(path, "w");
+	if (!f || fputs(svg, f) == EOF || fclose(f) != 0) {
+		hb_cli_error("compare --plot %s: cannot write: %s", path, strerror(errno));
+		if (f)
+			fclose(f);
+		free(svg);
+		return HB_ERR_IO;
+	}
+	free(svg);
+	return HB_OK;
 }
 
 int hb_cmd_compare(int argc, char **argv)
@@ -792,10 +814,12 @@ int hb_cmd_compare(int argc, char **argv)
 	static const struct option opts[] = {
 		{ "json", no_argument, NULL, 'j' },
 		{ "currents", required_argument, NULL, 'n' },
+		{ "plot", required_argument, NULL, 'p' },
 		{ "help", no_argument, NULL, 'h' },
 		{ NULL, 0, NULL, 0 },
 	};
 	bool json = false;
+	const char *plot_path = NULL;
 	long n_currents = 6;
 	int c;
 	optind = 1;
@@ -807,6 +831,7 @@ int hb_cmd_compare(int argc, char **argv)
 			if (hb_opt_int("--currents", optarg, 2, HB_COMPARE_MAX_CURRENTS, &n_currents) != HB_OK)
 				return HB_EXIT_USAGE;
 			break;
+		case 'p': plot_path = optarg; break;
 		case 'h': compare_usage(stdout); return HB_EXIT_OK;
 		default:
 			hb_cli_error("compare: unknown or incomplete option '%s' (try --help)", argv[optind - 1]);
@@ -848,7 +873,8 @@ int hb_cmd_compare(int argc, char **argv)
 	} else {
 		print_compare_text(&t);
 	}
-	/* The overlay plot of the compared sweeps belongs here (plot step). */
+	if (plot_path && write_overlay(db, ids, n, plot_path) != HB_OK)
+		goto out;
 	if (fflush(stdout) != 0) {
 		hb_cli_error("compare: cannot write to standard output");
 		goto out;

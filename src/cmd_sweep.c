@@ -20,7 +20,7 @@ typedef struct sweep_args {
 	double step;
 	double cli_max_current, cli_max_voltage, cli_max_power, cli_ramp;
 	double ambient_c;
-	bool yes, dry_run, json, no_fit;
+	bool yes, dry_run, json, no_fit, dcr_meter;
 } sweep_args;
 
 static void sweep_usage(FILE *out)
@@ -50,6 +50,8 @@ static void sweep_usage(FILE *out)
 		"  --yes               do not ask before sweeping above the station's threshold\n"
 		"  --dry-run           print the plan, limits, stored energy and time; touch nothing\n"
 		"  --no-fit            do not fit when the sweep ends\n"
+		"  --dcr-meter         read DCR with the meter before the sweep (profile operation 'dcr';\n"
+		"                      only where the fixture passes DC to the meter); default: supply V/I\n"
 		"  --json              machine-readable summary on stdout\n");
 }
 
@@ -70,7 +72,7 @@ enum {
 	OPT_PART = 256, OPT_UNIT, OPT_LCR, OPT_SUPPLY, OPT_FROM, OPT_TO, OPT_STEPS, OPT_STEP, OPT_SPACING,
 	OPT_FREQ, OPT_LEVEL, OPT_CIRCUIT, OPT_PAIR, OPT_AVG, OPT_APERTURE, OPT_SETTLE, OPT_SETTLE_TIMEOUT,
 	OPT_RETURN, OPT_STOP_BELOW, OPT_MAX_CURRENT, OPT_MAX_VOLTAGE, OPT_MAX_POWER, OPT_RAMP, OPT_NOTE,
-	OPT_YES, OPT_DRY_RUN, OPT_JSON, OPT_POINTS, OPT_BIAS, OPT_LOT, OPT_AMBIENT, OPT_NO_FIT, OPT_HELP
+	OPT_YES, OPT_DRY_RUN, OPT_JSON, OPT_POINTS, OPT_BIAS, OPT_LOT, OPT_AMBIENT, OPT_NO_FIT, OPT_DCR_METER, OPT_HELP
 };
 
 static const struct option long_options[] = {
@@ -105,6 +107,7 @@ static const struct option long_options[] = {
 	{ "yes", no_argument, NULL, OPT_YES },
 	{ "dry-run", no_argument, NULL, OPT_DRY_RUN },
 	{ "no-fit", no_argument, NULL, OPT_NO_FIT },
+	{ "dcr-meter", no_argument, NULL, OPT_DCR_METER },
 	{ "json", no_argument, NULL, OPT_JSON },
 	{ "help", no_argument, NULL, OPT_HELP },
 	{ NULL, 0, NULL, 0 },
@@ -265,6 +268,7 @@ static int parse_args(int argc, char **argv, bool fsweep, sweep_args *a)
 		case OPT_YES: a->yes = true; break;
 		case OPT_DRY_RUN: a->dry_run = true; break;
 		case OPT_NO_FIT: a->no_fit = true; break;
+		case OPT_DCR_METER: a->dcr_meter = true; break;
 		case OPT_JSON: a->json = true; break;
 		case OPT_HELP:
 		case 'h':
@@ -514,7 +518,7 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 		goto out;
 	}
 	hb_session s = { .db = db, .lcr = lcr, .supply = supply, .station = &station, .progress = info,
-			 .progress_tty = isatty(fileno(info)), .ambient_c = a.ambient_c };
+			 .progress_tty = isatty(fileno(info)), .ambient_c = a.ambient_c, .dcr_from_meter = a.dcr_meter };
 	int64_t sweep_id = 0;
 	hb_sweep_result result;
 	hb_session_measure(&s, &part, a.unit, lot_id, &a.plan, a.note, &sweep_id, &result);

@@ -780,9 +780,15 @@ static void measurement_section(hb_html *h, const hb_db_sweep *s)
 	hb_html_kv_row(h, "Plan", line);
 	if (s->kind == HB_DB_SWEEP_FREQUENCY)
 		hb_html_kv_row(h, "DC bias during the sweep", si(a, sizeof a, isfinite(s->bias_a) ? s->bias_a : 0, "A", 4));
-	snprintf(line, sizeof line, "%s; first wait %s, tolerance %s, at most %d readings / %s", or_dash(s->settle_mode),
-		 si(a, sizeof a, s->settle_delay_s, "s", 3), si(b, sizeof b, s->settle_tolerance, "", 3),
-		 s->settle_max_readings, si(c, sizeof c, s->settle_max_s, "s", 3));
+	if (strcmp(s->settle_mode, "fixed") == 0)
+		snprintf(line, sizeof line, "fixed: wait %s after each step, then one reading",
+			 si(a, sizeof a, s->settle_delay_s, "s", 3));
+	else
+		snprintf(line, sizeof line,
+			 "%s: bias read-back steady, then readings until two successive differences lie within "
+			 "%s x sqrt(2) x the reading noise; at most %s per point",
+			 or_dash(s->settle_mode), isfinite(s->settle_tolerance) ? si(b, sizeof b, s->settle_tolerance, "", 3) : "-",
+			 si(c, sizeof c, s->settle_max_s, "s", 3));
 	hb_html_kv_row(h, "Settling", line);
 	snprintf(line, sizeof line, "current %s, voltage %s", si(a, sizeof a, s->limit_current_a, "A", 4),
 		 si(b, sizeof b, s->limit_voltage_v, "V", 4));

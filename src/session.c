@@ -146,6 +146,16 @@ int hb_session_measure(hb_session *s, const hb_db_part *part, const char *serial
 		return rc;
 	}
 	*sweep_id = sw.id;
+	if (s->dcr_from_meter && plan->kind == HB_SWEEP_BIAS) {
+		double ohms = NAN;
+		/* Before any bias flows: the meter's DC test current is the only one. */
+		int drc = hb_lcr_measure_dcr(s->lcr, &ohms);
+		if (drc == HB_OK && isfinite(ohms))
+			hb_db_sweep_set_dcr(s->db, sw.id, ohms);
+		else if (s->progress)
+			fprintf(s->progress, "meter DC resistance not read (%s); the supply's V/I will be used\n",
+				drc == HB_ERR_UNSUPPORTED ? "the meter's profile has no dcr operation" : hb_lcr_errmsg(s->lcr));
+	}
 
 	sink_ctx ctx = { s, sw.id };
 	hb_sweep_callbacks cb = { &ctx, store_point, show_progress };

@@ -19,6 +19,8 @@ typedef struct hb_session {
 	FILE *progress;           /* live progress; NULL = quiet */
 	bool progress_tty;        /* rewrite one line instead of printing many */
 	double ambient_c;         /* NAN = not given */
+	bool dcr_from_meter;      /* read the winding's DC resistance with the meter before the sweep
+	                           * (only where the fixture passes DC to the meter) */
 } hb_session;
 
 /* Measures one unit of the part: records the unit (and lot), begins the

@@ -118,7 +118,7 @@ void hb_sweep_plan_defaults(hb_sweep_plan *plan)
 	plan->settle_time = 0.5;
 	plan->settle_timeout = 10.0;
 	plan->settle_k = 3.0;
-	plan->noise_readings = 5;
+	plan->noise_readings = 8;
 	plan->limits.max_current = NAN;
 	plan->limits.max_voltage = NAN;
 	plan->limits.max_power = NAN;
@@ -448,7 +448,7 @@ static int settle_current(engine *e, double *amps)
 		int rc = hb_supply_measure_current(e->supply, &a);
 		if (rc != HB_OK)
 			return supply_fault(e, rc, "current read-back");
-		if (isfinite(prev) && fabs(a - prev) <= 1e-4 * fabs(a) + 20e-6)
+		if (isfinite(prev) && fabs(a - prev) <= 1e-3 * fabs(a) + 1e-3)
 			quiet++;
 		else
 			quiet = 0;
@@ -709,8 +709,19 @@ int hb_sweep_safe_off(hb_supply *supply, double ramp_rate)
 	}
 	rc = hb_supply_set_current(supply, 0);
 	int rc_off = hb_supply_output(supply, false);
-	if (rc_off == HB_OK)
+	if (rc_off == HB_OK) {
+		/* Do not report "off" while the winding still carries current: the
+		 * output stage and the part's own L/R take a moment to discharge. */
+		double t_end = now_seconds() + 2.0;
+		while (now_seconds() < t_end) {
+			double left = NAN;
+			if (hb_supply_measure_current(supply, &left) != HB_OK || !isfinite(left) || fabs(left) < 0.01)
+				break;
+			struct timespec ts = { 0, 10 * 1000 * 1000 };
+			nanosleep(&ts, NULL);
+		}
 		return HB_OK;
+	}
 emergency:
 	/* One more try at the switch that matters before giving up. */
 	rc_off = hb_supply_output(supply, false);
