@@ -614,9 +614,10 @@ static void test_meter_timeout_mid_sweep(void **state)
 {
 	(void)state;
 	sim_server sim;
-	/* Every 15th meter reply is lost: with the fixed dwell the first lost
-	 * one is the reading of the fourth point. */
-	sim_start(&sim, "--fault-lcr", "drop=15", NULL);
+	/* Every 20th meter reply is lost: with the fixed dwell the first lost
+	 * one is a reading a few points into the sweep, after the noise has
+	 * been learnt at the first point. */
+	sim_start(&sim, "--fault-lcr", "drop=20", NULL);
 	char lcr[200];
 	snprintf(lcr, sizeof lcr, "%s?timeout=300", sim.lcr);
 	run r;
