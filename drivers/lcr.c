@@ -1,44 +1,19 @@
 /* drivers/lcr.c - LCR meter driver: every command text comes from the dialect profile */
 #include <math.h>
-#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <time.h>
 
 #include "hb_drivers.h"
 #include "profile_internal.h"
 
-#define LCR_ERRMSG_MAX 512
 #define LCR_REPLY_MAX 256
 
 struct hb_lcr {
-	hb_scpi *scpi;
-	hb_profile *profile;
-	hb_idn idn;
+	hb_instrument in;
 	hb_pair pair;  /* last function set: decides the primary's scale */
 	bool bias_on;  /* internal bias we switched on, switched off on close */
-	char errmsg[LCR_ERRMSG_MAX];
 };
-
-static int lcr_fail(hb_lcr *lcr, int status, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
-static int lcr_fail(hb_lcr *lcr, int status, const char *fmt, ...)
-{
-	va_list ap;
-	va_start(ap, fmt);
-	vsnprintf(lcr->errmsg, sizeof lcr->errmsg, fmt, ap);
-	va_end(ap);
-	return status;
-}
-
-static void sleep_ms(int ms)
-{
-	if (ms <= 0)
-		return;
-	struct timespec ts = { ms / 1000, (long)(ms % 1000) * 1000000L };
-	while (nanosleep(&ts, &ts) != 0)
-		;
-}
 
 int hb_lcr_open(const char *resource, FILE *trace, hb_lcr **out)
 {
@@ -49,83 +24,52 @@ int hb_lcr_open(const char *resource, FILE *trace, hb_lcr **out)
 	if (!lcr)
 		return HB_ERR_NOMEM;
 	lcr->pair = HB_PAIR_L_R;
-	int rc = hb_scpi_open(resource, &lcr->scpi);
-	if (rc < 0)
-		return lcr_fail(lcr, rc, "lcr meter %s: %s", resource ? resource : "(none)", hb_scpi_errmsg(lcr->scpi));
-	if (trace)
-		hb_scpi_set_trace(lcr->scpi, trace, "lcr");
-	rc = hb_scpi_idn(lcr->scpi, &lcr->idn);
-	if (rc < 0)
-		return lcr_fail(lcr, rc, "lcr meter %s: *IDN?: %s", resource, hb_scpi_errmsg(lcr->scpi));
-	char err[LCR_ERRMSG_MAX - 64];
-	rc = hb_profile_choose(hb_scpi_resource(lcr->scpi), HB_KIND_LCR, &lcr->idn, &lcr->profile, err, sizeof err);
-	if (rc < 0)
-		return lcr_fail(lcr, rc, "lcr meter %s: %s", resource, err);
-	/* Start from an empty error queue so a later entry belongs to us. */
-	rc = hb_scpi_clear(lcr->scpi);
-	if (rc < 0)
-		return lcr_fail(lcr, rc, "lcr meter %s: *CLS: %s", resource, hb_scpi_errmsg(lcr->scpi));
-	return HB_OK;
+	return hb_instrument_open(&lcr->in, "lcr meter", "lcr", HB_KIND_LCR, resource, trace);
 }
 
 void hb_lcr_close(hb_lcr *lcr)
 {
 	if (!lcr)
 		return;
-	if (lcr->bias_on && lcr->profile) {
+	if (lcr->bias_on && lcr->in.profile) {
 		/* Current through the part stores energy: never leave it on. */
 		char err[64];
 		hb_parg off = { .name = "state", .choice = 0 };
-		(void)hb_profile_send(lcr->scpi, lcr->profile, HB_PK_LCR_BIAS_STATE, &off, 1, "bias off", err, sizeof err);
+		(void)hb_profile_send(lcr->in.scpi, lcr->in.profile, HB_PK_LCR_BIAS_STATE, &off, 1, "bias off", err,
+				      sizeof err);
 	}
-	hb_profile_free(lcr->profile);
-	hb_scpi_close(lcr->scpi);
+	hb_instrument_release(&lcr->in);
 	free(lcr);
 }
 
 const char *hb_lcr_errmsg(const hb_lcr *lcr)
 {
-	if (!lcr)
-		return "out of memory";
-	return lcr->errmsg[0] ? lcr->errmsg : "no error";
+	return hb_instrument_errmsg(lcr ? &lcr->in : NULL);
 }
 
 const hb_idn *hb_lcr_idn(const hb_lcr *lcr)
 {
-	return lcr ? &lcr->idn : NULL;
+	return lcr ? &lcr->in.idn : NULL;
 }
 
 const char *hb_lcr_profile_name(const hb_lcr *lcr)
 {
-	return lcr && lcr->profile ? hb_profile_name(lcr->profile) : NULL;
+	return lcr && lcr->in.profile ? hb_profile_name(lcr->in.profile) : NULL;
 }
 
 hb_scpi *hb_lcr_scpi(hb_lcr *lcr)
 {
-	return lcr ? lcr->scpi : NULL;
+	return lcr ? lcr->in.scpi : NULL;
 }
 
 bool hb_lcr_supports(const hb_lcr *lcr, const char *operation)
 {
-	return lcr && hb_profile_supports(lcr->profile, HB_KIND_LCR, operation);
+	return lcr && hb_profile_supports(lcr->in.profile, HB_KIND_LCR, operation);
 }
 
 static int usable(hb_lcr *lcr)
 {
-	if (!lcr)
-		return HB_ERR_ARG;
-	if (!lcr->scpi || !lcr->profile)
-		return lcr_fail(lcr, HB_ERR_ARG, "lcr meter not open");
-	return HB_OK;
-}
-
-static int send_op(hb_lcr *lcr, hb_pkey op, const hb_parg *args, size_t nargs, const char *what)
-{
-	char err[LCR_ERRMSG_MAX];
-	int rc = hb_profile_send(lcr->scpi, lcr->profile, op, args, nargs, what, err, sizeof err);
-	if (rc < 0)
-		return lcr_fail(lcr, rc, "%s", err);
-	return HB_OK;
+	return lcr ? hb_instrument_usable(&lcr->in) : HB_ERR_ARG;
 }
 
 int hb_lcr_reset(hb_lcr *lcr)
@@ -133,24 +77,16 @@ int hb_lcr_reset(hb_lcr *lcr)
 	int rc = usable(lcr);
 	if (rc < 0)
 		return rc;
-	const char *command = hb_profile_text(lcr->profile, HB_PK_LCR_RESET);
+	const char *command = hb_profile_text(lcr->in.profile, HB_PK_LCR_RESET);
 	if (!command)
 		command = "*RST";
-	rc = hb_scpi_write(lcr->scpi, command);
-	if (rc == HB_OK)
-		rc = hb_scpi_opc(lcr->scpi);
+	rc = hb_instrument_command_opc(&lcr->in, command, "reset");
 	if (rc < 0)
-		return lcr_fail(lcr, rc, "reset: %s", hb_scpi_errmsg(lcr->scpi));
+		return rc;
 	lcr->bias_on = false;
 	lcr->pair = HB_PAIR_L_R;
-	sleep_ms((int)hb_profile_number(lcr->profile, HB_PK_LCR_SETTLE_MS, 0));
-	if (lcr->profile->check_errors) {
-		char err[LCR_ERRMSG_MAX];
-		rc = hb_profile_check_errors(lcr->scpi, "reset", command, err, sizeof err);
-		if (rc < 0)
-			return lcr_fail(lcr, rc, "%s", err);
-	}
-	return HB_OK;
+	return hb_instrument_settle_check(&lcr->in, (int)hb_profile_number(lcr->in.profile, HB_PK_LCR_SETTLE_MS, 0),
+					  "reset", command);
 }
 
 int hb_lcr_set_frequency(hb_lcr *lcr, double hertz)
@@ -159,11 +95,12 @@ int hb_lcr_set_frequency(hb_lcr *lcr, double hertz)
 	if (rc < 0)
 		return rc;
 	if (!isfinite(hertz) || hertz <= 0)
-		return lcr_fail(lcr, HB_ERR_ARG, "set frequency: %g Hz is not a positive frequency", hertz);
+		return hb_instrument_fail(&lcr->in, HB_ERR_ARG, "set frequency: %g Hz is not a positive frequency",
+					  hertz);
 	char what[80];
 	snprintf(what, sizeof what, "set frequency to %g Hz", hertz);
 	hb_parg arg = { .name = "hz", .real = hertz };
-	return send_op(lcr, HB_PK_LCR_FREQUENCY, &arg, 1, what);
+	return hb_instrument_send(&lcr->in, HB_PK_LCR_FREQUENCY, &arg, 1, what);
 }
 
 int hb_lcr_set_level(hb_lcr *lcr, hb_level_kind kind, double value)
@@ -174,11 +111,12 @@ int hb_lcr_set_level(hb_lcr *lcr, hb_level_kind kind, double value)
 	bool volts = kind == HB_LEVEL_VOLTAGE;
 	const char *unit = volts ? "V" : "A";
 	if (!isfinite(value) || value <= 0)
-		return lcr_fail(lcr, HB_ERR_ARG, "set level: %g %s is not a positive level", value, unit);
+		return hb_instrument_fail(&lcr->in, HB_ERR_ARG, "set level: %g %s is not a positive level", value,
+					  unit);
 	char what[80];
 	snprintf(what, sizeof what, "set %s level to %g %s", volts ? "voltage" : "current", value, unit);
 	hb_parg arg = { .name = volts ? "volts" : "amps", .real = value };
-	return send_op(lcr, volts ? HB_PK_LCR_LEVEL_VOLTAGE : HB_PK_LCR_LEVEL_CURRENT, &arg, 1, what);
+	return hb_instrument_send(&lcr->in, volts ? HB_PK_LCR_LEVEL_VOLTAGE : HB_PK_LCR_LEVEL_CURRENT, &arg, 1, what);
 }
 
 static const char *pair_name(hb_pair pair)
@@ -193,12 +131,13 @@ int hb_lcr_set_function(hb_lcr *lcr, hb_equiv equiv, hb_pair pair)
 	if (rc < 0)
 		return rc;
 	if ((equiv != HB_EQUIV_SERIES && equiv != HB_EQUIV_PARALLEL) || pair < HB_PAIR_L_R || pair > HB_PAIR_Z_THETA)
-		return lcr_fail(lcr, HB_ERR_ARG, "set function: unknown circuit %d or pair %d", (int)equiv, (int)pair);
+		return hb_instrument_fail(&lcr->in, HB_ERR_ARG, "set function: unknown circuit %d or pair %d",
+					  (int)equiv, (int)pair);
 	char what[80];
 	snprintf(what, sizeof what, "set function to %s %s", equiv == HB_EQUIV_SERIES ? "series" : "parallel",
 		 pair_name(pair));
 	hb_parg args[2] = { { .name = "equiv", .choice = (int)equiv }, { .name = "pair", .choice = (int)pair } };
-	rc = send_op(lcr, HB_PK_LCR_FUNCTION, args, 2, what);
+	rc = hb_instrument_send(&lcr->in, HB_PK_LCR_FUNCTION, args, 2, what);
 	if (rc == HB_OK)
 		lcr->pair = pair;
 	return rc;
@@ -210,12 +149,12 @@ int hb_lcr_set_averaging(hb_lcr *lcr, int count, hb_aperture aperture)
 	if (rc < 0)
 		return rc;
 	if (count < 1)
-		return lcr_fail(lcr, HB_ERR_ARG, "set averaging: count %d is below 1", count);
+		return hb_instrument_fail(&lcr->in, HB_ERR_ARG, "set averaging: count %d is below 1", count);
 	if (aperture < HB_APERTURE_SHORT || aperture > HB_APERTURE_LONG)
-		return lcr_fail(lcr, HB_ERR_ARG, "set averaging: unknown aperture %d", (int)aperture);
+		return hb_instrument_fail(&lcr->in, HB_ERR_ARG, "set averaging: unknown aperture %d", (int)aperture);
 	static const char *const apertures[] = { "short", "medium", "long" };
-	const hb_profile *p = lcr->profile;
-	char avg_cmd[256] = "", ap_cmd[256] = "", err[LCR_ERRMSG_MAX - 64];
+	const hb_profile *p = lcr->in.profile;
+	char avg_cmd[256] = "", ap_cmd[256] = "", err[HB_INSTRUMENT_ERRMSG_MAX - 64];
 	char avg_what[64], ap_what[64];
 	snprintf(avg_what, sizeof avg_what, "set averaging to %d", count);
 	snprintf(ap_what, sizeof ap_what, "set aperture to %s", apertures[aperture]);
@@ -226,25 +165,25 @@ int hb_lcr_set_averaging(hb_lcr *lcr, int count, hb_aperture aperture)
 		hb_parg arg = { .name = "count", .integer = count };
 		rc = hb_profile_expand(p, HB_PK_LCR_AVERAGING, &arg, 1, avg_cmd, sizeof avg_cmd, err, sizeof err);
 		if (rc < 0)
-			return lcr_fail(lcr, rc, "%s: %s", avg_what, err);
+			return hb_instrument_fail(&lcr->in, rc, "%s: %s", avg_what, err);
 	} else if (count != 1) {
-		return lcr_fail(lcr, HB_ERR_UNSUPPORTED, "%s: profile '%s' has no 'averaging' operation", avg_what,
-				hb_profile_name(p));
+		return hb_instrument_fail(&lcr->in, HB_ERR_UNSUPPORTED, "%s: profile '%s' has no 'averaging' operation",
+					  avg_what, hb_profile_name(p));
 	}
 	if (hb_profile_has(p, HB_PK_LCR_APERTURE)) {
 		hb_parg arg = { .name = "aperture", .choice = (int)aperture };
 		rc = hb_profile_expand(p, HB_PK_LCR_APERTURE, &arg, 1, ap_cmd, sizeof ap_cmd, err, sizeof err);
 		if (rc < 0)
-			return lcr_fail(lcr, rc, "%s: %s", ap_what, err);
+			return hb_instrument_fail(&lcr->in, rc, "%s: %s", ap_what, err);
 	} else if (aperture != HB_APERTURE_MEDIUM) {
-		return lcr_fail(lcr, HB_ERR_UNSUPPORTED, "%s: profile '%s' has no 'aperture' operation", ap_what,
-				hb_profile_name(p));
+		return hb_instrument_fail(&lcr->in, HB_ERR_UNSUPPORTED, "%s: profile '%s' has no 'aperture' operation",
+					  ap_what, hb_profile_name(p));
 	}
-	char why[LCR_ERRMSG_MAX];
-	if (avg_cmd[0] && (rc = hb_profile_send_text(lcr->scpi, p, avg_cmd, avg_what, why, sizeof why)) < 0)
-		return lcr_fail(lcr, rc, "%s", why);
-	if (ap_cmd[0] && (rc = hb_profile_send_text(lcr->scpi, p, ap_cmd, ap_what, why, sizeof why)) < 0)
-		return lcr_fail(lcr, rc, "%s", why);
+	char why[HB_INSTRUMENT_ERRMSG_MAX];
+	if (avg_cmd[0] && (rc = hb_profile_send_text(lcr->in.scpi, p, avg_cmd, avg_what, why, sizeof why)) < 0)
+		return hb_instrument_fail(&lcr->in, rc, "%s", why);
+	if (ap_cmd[0] && (rc = hb_profile_send_text(lcr->in.scpi, p, ap_cmd, ap_what, why, sizeof why)) < 0)
+		return hb_instrument_fail(&lcr->in, rc, "%s", why);
 	return HB_OK;
 }
 
@@ -292,15 +231,15 @@ int hb_lcr_measure(hb_lcr *lcr, hb_lcr_reading *reading)
 	if (rc < 0)
 		return rc;
 	if (!reading)
-		return lcr_fail(lcr, HB_ERR_ARG, "measure: no place for the reading");
+		return hb_instrument_fail(&lcr->in, HB_ERR_ARG, "measure: no place for the reading");
 	memset(reading, 0, sizeof *reading);
 	reading->primary = NAN;
 	reading->secondary = NAN;
-	const hb_profile *p = lcr->profile;
-	char reply[LCR_REPLY_MAX], err[LCR_ERRMSG_MAX];
-	rc = hb_profile_ask(lcr->scpi, p, HB_PK_LCR_MEASURE, "measure", reply, sizeof reply, err, sizeof err);
+	const hb_profile *p = lcr->in.profile;
+	char reply[LCR_REPLY_MAX], err[HB_INSTRUMENT_ERRMSG_MAX];
+	rc = hb_profile_ask(lcr->in.scpi, p, HB_PK_LCR_MEASURE, "measure", reply, sizeof reply, err, sizeof err);
 	if (rc < 0)
-		return lcr_fail(lcr, rc, "%s", err);
+		return hb_instrument_fail(&lcr->in, rc, "%s", err);
 
 	int fprim = (int)hb_profile_number(p, HB_PK_LCR_MEASURE_PRIMARY, 1);
 	int fsec = (int)hb_profile_number(p, HB_PK_LCR_MEASURE_SECONDARY, 2);
@@ -312,16 +251,18 @@ int hb_lcr_measure(hb_lcr *lcr, hb_lcr_reading *reading)
 	need = fstat > need ? fstat : need;
 	if (hb_profile_has(p, HB_PK_LCR_MEASURE_FIELDS) ? nfields != (int)hb_profile_number(p, HB_PK_LCR_MEASURE_FIELDS, 0)
 						       : nfields < need)
-		return lcr_fail(lcr, HB_ERR_PROTOCOL, "measure: reply '%.100s' has %d field(s), profile '%s' expects %d",
-				reply, nfields, hb_profile_name(p),
-				(int)hb_profile_number(p, HB_PK_LCR_MEASURE_FIELDS, need));
+		return hb_instrument_fail(&lcr->in, HB_ERR_PROTOCOL,
+					  "measure: reply '%.100s' has %d field(s), profile '%s' expects %d", reply,
+					  nfields, hb_profile_name(p),
+					  (int)hb_profile_number(p, HB_PK_LCR_MEASURE_FIELDS, need));
 
 	bool overload = false;
 	if (fstat) {
 		long code;
 		if (hb_profile_reply_field(reply, fstat, text, sizeof text, NULL) < 0 || status_code(p, text, &code) < 0)
-			return lcr_fail(lcr, HB_ERR_PROTOCOL, "measure: status field %d of reply '%.100s' is not a known code",
-					fstat, reply);
+			return hb_instrument_fail(&lcr->in, HB_ERR_PROTOCOL,
+						  "measure: status field %d of reply '%.100s' is not a known code",
+						  fstat, reply);
 		reading->status = (int)code;
 		overload = status_is_overload(p, code);
 	}
@@ -329,18 +270,21 @@ int hb_lcr_measure(hb_lcr *lcr, hb_lcr_reading *reading)
 	const int fields[2] = { fprim, fsec };
 	for (int i = 0; i < 2; i++) {
 		if (hb_profile_reply_field(reply, fields[i], text, sizeof text, NULL) < 0)
-			return lcr_fail(lcr, HB_ERR_PROTOCOL, "measure: reply '%.100s' lacks field %d", reply, fields[i]);
+			return hb_instrument_fail(&lcr->in, HB_ERR_PROTOCOL, "measure: reply '%.100s' lacks field %d",
+						  reply, fields[i]);
 		rc = hb_scpi_parse_double(text, &values[i]);
 		if (rc == HB_ERR_OVERLOAD) {
 			overload = true;
 		} else if (rc < 0) {
-			return lcr_fail(lcr, HB_ERR_PROTOCOL, "measure: field %d of reply '%.100s' is not a number",
-					fields[i], reply);
+			return hb_instrument_fail(&lcr->in, HB_ERR_PROTOCOL,
+						  "measure: field %d of reply '%.100s' is not a number", fields[i],
+						  reply);
 		}
 	}
 	if (overload) {
 		reading->overload = true;
-		return lcr_fail(lcr, HB_ERR_OVERLOAD, "measure: the meter reports overload (reply '%.100s')", reply);
+		return hb_instrument_fail(&lcr->in, HB_ERR_OVERLOAD,
+					  "measure: the meter reports overload (reply '%.100s')", reply);
 	}
 	double pscale = lcr->pair == HB_PAIR_Z_THETA ? hb_profile_number(p, HB_PK_LCR_MEASURE_PRIMARY_SCALE_ZTH, 1.0)
 						     : hb_profile_number(p, HB_PK_LCR_MEASURE_PRIMARY_SCALE, 1.0);
@@ -354,22 +298,25 @@ int hb_lcr_set_internal_bias(hb_lcr *lcr, bool on, double amps)
 	int rc = usable(lcr);
 	if (rc < 0)
 		return rc;
-	if (!hb_profile_has(lcr->profile, HB_PK_LCR_BIAS_STATE))
-		return lcr_fail(lcr, HB_ERR_UNSUPPORTED, "internal bias: profile '%s' has no 'bias.state' operation",
-				hb_profile_name(lcr->profile));
+	if (!hb_profile_has(lcr->in.profile, HB_PK_LCR_BIAS_STATE))
+		return hb_instrument_fail(&lcr->in, HB_ERR_UNSUPPORTED,
+					  "internal bias: profile '%s' has no 'bias.state' operation",
+					  hb_profile_name(lcr->in.profile));
 	if (on) {
 		if (!isfinite(amps) || amps < 0)
-			return lcr_fail(lcr, HB_ERR_ARG, "internal bias: %g A is not a current >= 0", amps);
-		if (hb_profile_has(lcr->profile, HB_PK_LCR_BIAS_CURRENT)) {
+			return hb_instrument_fail(&lcr->in, HB_ERR_ARG, "internal bias: %g A is not a current >= 0",
+						  amps);
+		if (hb_profile_has(lcr->in.profile, HB_PK_LCR_BIAS_CURRENT)) {
 			char what[80];
 			snprintf(what, sizeof what, "set internal bias to %g A", amps);
 			hb_parg arg = { .name = "amps", .real = amps };
-			rc = send_op(lcr, HB_PK_LCR_BIAS_CURRENT, &arg, 1, what);
+			rc = hb_instrument_send(&lcr->in, HB_PK_LCR_BIAS_CURRENT, &arg, 1, what);
 			if (rc < 0)
 				return rc;
 		} else if (amps != 0) {
-			return lcr_fail(lcr, HB_ERR_UNSUPPORTED, "internal bias: profile '%s' has no 'bias.current' operation",
-					hb_profile_name(lcr->profile));
+			return hb_instrument_fail(&lcr->in, HB_ERR_UNSUPPORTED,
+						  "internal bias: profile '%s' has no 'bias.current' operation",
+						  hb_profile_name(lcr->in.profile));
 		}
 	}
 	hb_parg state = { .name = "state", .choice = on ? 1 : 0 };
@@ -377,7 +324,8 @@ int hb_lcr_set_internal_bias(hb_lcr *lcr, bool on, double amps)
 	 * is lost, close must still switch it off. */
 	if (on)
 		lcr->bias_on = true;
-	rc = send_op(lcr, HB_PK_LCR_BIAS_STATE, &state, 1, on ? "internal bias on" : "internal bias off");
+	rc = hb_instrument_send(&lcr->in, HB_PK_LCR_BIAS_STATE, &state, 1,
+				on ? "internal bias on" : "internal bias off");
 	if (rc == HB_OK && !on)
 		lcr->bias_on = false;
 	return rc;
@@ -391,23 +339,15 @@ int hb_lcr_correct(hb_lcr *lcr, hb_correction which)
 	bool open = which == HB_CORRECTION_OPEN;
 	hb_pkey op = open ? HB_PK_LCR_CORRECT_OPEN : HB_PK_LCR_CORRECT_SHORT;
 	const char *what = open ? "open correction" : "short correction";
-	const char *command = hb_profile_text(lcr->profile, op);
+	const char *command = hb_profile_text(lcr->in.profile, op);
 	if (!command)
-		return lcr_fail(lcr, HB_ERR_UNSUPPORTED, "%s: profile '%s' has no '%s' operation", what,
-				hb_profile_name(lcr->profile), hb_profile_key_name(op));
-	rc = hb_scpi_write(lcr->scpi, command);
+		return hb_instrument_fail(&lcr->in, HB_ERR_UNSUPPORTED, "%s: profile '%s' has no '%s' operation", what,
+					  hb_profile_name(lcr->in.profile), hb_profile_key_name(op));
 	/* The compensation sweep takes a while; *OPC? waits for its end. */
-	if (rc == HB_OK)
-		rc = hb_scpi_opc(lcr->scpi);
+	rc = hb_instrument_command_opc(&lcr->in, command, what);
 	if (rc < 0)
-		return lcr_fail(lcr, rc, "%s: %s", what, hb_scpi_errmsg(lcr->scpi));
-	if (lcr->profile->check_errors) {
-		char err[LCR_ERRMSG_MAX];
-		rc = hb_profile_check_errors(lcr->scpi, what, command, err, sizeof err);
-		if (rc < 0)
-			return lcr_fail(lcr, rc, "%s", err);
-	}
-	return HB_OK;
+		return rc;
+	return hb_instrument_settle_check(&lcr->in, 0, what, command);
 }
 
 int hb_lcr_measure_dcr(hb_lcr *lcr, double *ohms)
@@ -416,16 +356,11 @@ int hb_lcr_measure_dcr(hb_lcr *lcr, double *ohms)
 	if (rc < 0)
 		return rc;
 	if (!ohms)
-		return lcr_fail(lcr, HB_ERR_ARG, "dcr: no place for the value");
-	if (!hb_profile_has(lcr->profile, HB_PK_LCR_DCR))
-		return lcr_fail(lcr, HB_ERR_UNSUPPORTED, "dcr: profile '%s' has no 'dcr' operation",
-				hb_profile_name(lcr->profile));
-	char err[LCR_ERRMSG_MAX];
-	rc = hb_profile_ask_number(lcr->scpi, lcr->profile, HB_PK_LCR_DCR, HB_PK_LCR_DCR_FIELD, HB_PK_LCR_DCR_SCALE,
-				   "dcr", ohms, err, sizeof err);
-	if (rc < 0)
-		return lcr_fail(lcr, rc, "%s", err);
-	return HB_OK;
+		return hb_instrument_fail(&lcr->in, HB_ERR_ARG, "dcr: no place for the value");
+	if (!hb_profile_has(lcr->in.profile, HB_PK_LCR_DCR))
+		return hb_instrument_fail(&lcr->in, HB_ERR_UNSUPPORTED, "dcr: profile '%s' has no 'dcr' operation",
+					  hb_profile_name(lcr->in.profile));
+	return hb_instrument_ask_number(&lcr->in, HB_PK_LCR_DCR, HB_PK_LCR_DCR_FIELD, HB_PK_LCR_DCR_SCALE, "dcr", ohms);
 }
 
 int hb_lcr_errors(hb_lcr *lcr, hb_scpi_error *list, size_t cap, size_t *count, bool *lost)
@@ -433,8 +368,5 @@ int hb_lcr_errors(hb_lcr *lcr, hb_scpi_error *list, size_t cap, size_t *count, b
 	int rc = usable(lcr);
 	if (rc < 0)
 		return rc;
-	rc = hb_scpi_errors(lcr->scpi, list, cap, count, lost);
-	if (rc < 0)
-		return lcr_fail(lcr, rc, "error queue: %s", hb_scpi_errmsg(lcr->scpi));
-	return HB_OK;
+	return hb_instrument_errors(&lcr->in, list, cap, count, lost);
 }

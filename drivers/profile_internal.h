@@ -5,6 +5,7 @@
 #include <regex.h>
 #include <stdbool.h>
 #include <stddef.h>
+#include <stdio.h>
 
 #include "hb_drivers.h"
 
@@ -180,5 +181,45 @@ int hb_profile_reply_bool(const hb_profile *p, hb_pkey on_key, hb_pkey off_key, 
 bool hb_profile_word_in(const char *list, const char *token);
 /* Parses a whole decimal integer reply field. */
 int hb_profile_parse_long(const char *text, long *value);
+
+/* ---- what a meter and a supply handle have in common (instrument.c) ---- */
+
+enum { HB_INSTRUMENT_ERRMSG_MAX = 512 };
+
+/* The part of hb_lcr and hb_supply that opening, error reporting and the
+ * plain profile operations need, so both drivers share one version of them. */
+typedef struct hb_instrument {
+	const char *label; /* "lcr meter", "supply": starts every open message */
+	hb_scpi *scpi;
+	hb_profile *profile;
+	hb_idn idn;
+	char errmsg[HB_INSTRUMENT_ERRMSG_MAX];
+} hb_instrument;
+
+/* Records the message on the handle and passes status through. */
+int hb_instrument_fail(hb_instrument *in, int status, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
+/* Opens the link, asks *IDN?, chooses the profile of kind and clears the
+ * error queue; trace lines carry tag. On failure the handle keeps what was
+ * opened, for hb_instrument_release. */
+int hb_instrument_open(hb_instrument *in, const char *label, const char *tag, hb_instrument_kind kind,
+		       const char *resource, FILE *trace);
+/* Frees the profile and closes the link; the caller switches outputs off first. */
+void hb_instrument_release(hb_instrument *in);
+/* "out of memory" for NULL: open hands back NULL only when calloc failed. */
+const char *hb_instrument_errmsg(const hb_instrument *in);
+/* HB_ERR_ARG with "<label> not open" unless the link and profile are there. */
+int hb_instrument_usable(hb_instrument *in);
+/* hb_profile_send with the failure recorded on the handle. */
+int hb_instrument_send(hb_instrument *in, hb_pkey op, const hb_parg *args, size_t nargs, const char *what);
+/* hb_profile_ask_number with the failure recorded on the handle. */
+int hb_instrument_ask_number(hb_instrument *in, hb_pkey op, hb_pkey field_key, hb_pkey scale_key, const char *what,
+			     double *value);
+/* Writes a command that runs to completion (reset, compensation) and waits
+ * for it with *OPC?; "what: link message" on failure. */
+int hb_instrument_command_opc(hb_instrument *in, const char *command, const char *what);
+/* Waits settle_ms, then reads the error queue when the profile checks errors. */
+int hb_instrument_settle_check(hb_instrument *in, int settle_ms, const char *what, const char *command);
+/* hb_scpi_errors with the failure recorded on the handle. */
+int hb_instrument_errors(hb_instrument *in, hb_scpi_error *list, size_t cap, size_t *count, bool *lost);
 
 #endif

@@ -258,8 +258,9 @@ int hb_cmd_demo(int argc, char **argv)
 
 	printf("stored: bias sweeps %lld, %lld, %lld and frequency sweep %lld in %s\n", (long long)ids[0],
 	       (long long)ids[1], (long long)ids[2], (long long)fid, db_path);
-	printf("try:    ./henrybench --db %s sweeps\n        ./henrybench --db %s show %lld\n", db_path, db_path,
-	       (long long)ids[0]);
+	printf("try:    ./henrybench --db %s sweeps\n        ./henrybench --db %s show %lld\n"
+	       "        ./henrybench --db %s history %s\n",
+	       db_path, db_path, (long long)ids[0], db_path, part.part_number);
 	exit_code = HB_EXIT_OK;
 out:
 	free(an);

@@ -103,9 +103,5 @@ int hb_demo_extras(hb_db *db, hb_lcr *lcr, hb_supply *supply, const hb_station *
 	}
 	printf("  (simulated: unit %d of the draw had a %.2f mm gap instead of %.2f mm)\n\n", DEMO_BAD_SEQUENCE,
 	       bad_gap_m * 1e3, nominal_gap_m * 1e3);
-	rc = hb_demo_reports(db, part, res.lot_id, DEMO_LOT_CODE, out_dir);
-	if (rc != HB_OK)
-		return rc;
-	printf("try:    ./henrybench --db %s/bench.db history %s\n", out_dir, part->part_number);
-	return HB_OK;
+	return hb_demo_reports(db, part, res.lot_id, DEMO_LOT_CODE, out_dir);
 }

@@ -69,8 +69,8 @@ int hb_demo_reports(hb_db *db, const hb_db_part *part, int64_t lot_id, const cha
 		return rc;
 	printf("reports (self-contained HTML, print to PDF from any browser):\n");
 	if (first > 0)
-		printf("  sweep %lld, the first prototype:      %s\n", (long long)first, sweep_path);
-	printf("  lot %s, plan, units and decision: %s\n", lot_code, lot_path);
-	printf("  every unit of %s and the trend:   %s\n\n", part->part_number, part_path);
+		printf("  %-44s %s\n", "sweep of the first prototype:", sweep_path);
+	printf("  lot %-40s %s\n", lot_code, lot_path);
+	printf("  %-44s %s\n\n", "every unit of the part and its trend:", part_path);
 	return HB_OK;
 }

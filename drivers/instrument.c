@@ -1,0 +1,118 @@
+/* drivers/instrument.c - open, error reporting and plain profile operations shared by the meter and supply drivers */
+#include <stdarg.h>
+#include <stdio.h>
+#include <time.h>
+
+#include "hb_drivers.h"
+#include "profile_internal.h"
+
+int hb_instrument_fail(hb_instrument *in, int status, const char *fmt, ...)
+{
+	va_list ap;
+	va_start(ap, fmt);
+	vsnprintf(in->errmsg, sizeof in->errmsg, fmt, ap);
+	va_end(ap);
+	return status;
+}
+
+static void sleep_ms(int ms)
+{
+	if (ms <= 0)
+		return;
+	struct timespec ts = { ms / 1000, (long)(ms % 1000) * 1000000L };
+	while (nanosleep(&ts, &ts) != 0)
+		;
+}
+
+int hb_instrument_open(hb_instrument *in, const char *label, const char *tag, hb_instrument_kind kind,
+		       const char *resource, FILE *trace)
+{
+	in->label = label;
+	int rc = hb_scpi_open(resource, &in->scpi);
+	if (rc < 0)
+		return hb_instrument_fail(in, rc, "%s %s: %s", label, resource ? resource : "(none)",
+					  hb_scpi_errmsg(in->scpi));
+	if (trace)
+		hb_scpi_set_trace(in->scpi, trace, tag);
+	rc = hb_scpi_idn(in->scpi, &in->idn);
+	if (rc < 0)
+		return hb_instrument_fail(in, rc, "%s %s: *IDN?: %s", label, resource, hb_scpi_errmsg(in->scpi));
+	char err[HB_INSTRUMENT_ERRMSG_MAX - 64];
+	rc = hb_profile_choose(hb_scpi_resource(in->scpi), kind, &in->idn, &in->profile, err, sizeof err);
+	if (rc < 0)
+		return hb_instrument_fail(in, rc, "%s %s: %s", label, resource, err);
+	/* Start from an empty error queue so a later entry belongs to us. */
+	rc = hb_scpi_clear(in->scpi);
+	if (rc < 0)
+		return hb_instrument_fail(in, rc, "%s %s: *CLS: %s", label, resource, hb_scpi_errmsg(in->scpi));
+	return HB_OK;
+}
+
+void hb_instrument_release(hb_instrument *in)
+{
+	hb_profile_free(in->profile);
+	hb_scpi_close(in->scpi);
+}
+
+const char *hb_instrument_errmsg(const hb_instrument *in)
+{
+	if (!in)
+		return "out of memory";
+	return in->errmsg[0] ? in->errmsg : "no error";
+}
+
+int hb_instrument_usable(hb_instrument *in)
+{
+	if (!in->scpi || !in->profile)
+		return hb_instrument_fail(in, HB_ERR_ARG, "%s not open", in->label);
+	return HB_OK;
+}
+
+int hb_instrument_send(hb_instrument *in, hb_pkey op, const hb_parg *args, size_t nargs, const char *what)
+{
+	char err[HB_INSTRUMENT_ERRMSG_MAX];
+	int rc = hb_profile_send(in->scpi, in->profile, op, args, nargs, what, err, sizeof err);
+	if (rc < 0)
+		return hb_instrument_fail(in, rc, "%s", err);
+	return HB_OK;
+}
+
+int hb_instrument_ask_number(hb_instrument *in, hb_pkey op, hb_pkey field_key, hb_pkey scale_key, const char *what,
+			     double *value)
+{
+	char err[HB_INSTRUMENT_ERRMSG_MAX];
+	int rc = hb_profile_ask_number(in->scpi, in->profile, op, field_key, scale_key, what, value, err, sizeof err);
+	if (rc < 0)
+		return hb_instrument_fail(in, rc, "%s", err);
+	return HB_OK;
+}
+
+int hb_instrument_command_opc(hb_instrument *in, const char *command, const char *what)
+{
+	int rc = hb_scpi_write(in->scpi, command);
+	if (rc == HB_OK)
+		rc = hb_scpi_opc(in->scpi);
+	if (rc < 0)
+		return hb_instrument_fail(in, rc, "%s: %s", what, hb_scpi_errmsg(in->scpi));
+	return HB_OK;
+}
+
+int hb_instrument_settle_check(hb_instrument *in, int settle_ms, const char *what, const char *command)
+{
+	sleep_ms(settle_ms);
+	if (!in->profile->check_errors)
+		return HB_OK;
+	char err[HB_INSTRUMENT_ERRMSG_MAX];
+	int rc = hb_profile_check_errors(in->scpi, what, command, err, sizeof err);
+	if (rc < 0)
+		return hb_instrument_fail(in, rc, "%s", err);
+	return HB_OK;
+}
+
+int hb_instrument_errors(hb_instrument *in, hb_scpi_error *list, size_t cap, size_t *count, bool *lost)
+{
+	int rc = hb_scpi_errors(in->scpi, list, cap, count, lost);
+	if (rc < 0)
+		return hb_instrument_fail(in, rc, "error queue: %s", hb_scpi_errmsg(in->scpi));
+	return HB_OK;
+}

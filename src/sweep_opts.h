@@ -1,0 +1,58 @@
+/* src/sweep_opts.h - the sweep options that sweep, fsweep and inspect share, and the limits they resolve to */
+#ifndef HB_SWEEP_OPTS_H
+#define HB_SWEEP_OPTS_H
+
+#include <getopt.h>
+#include <stdbool.h>
+
+#include "../db/hb_db.h"
+#include "station.h"
+#include "sweep.h"
+
+/* getopt_long values of the shared options; above any command's own enum
+ * (which start at 256) so the two never collide. */
+enum {
+	HB_SWEEP_OPT_FREQ = 1000, HB_SWEEP_OPT_STEPS, HB_SWEEP_OPT_AVG, HB_SWEEP_OPT_APERTURE, HB_SWEEP_OPT_SETTLE,
+	HB_SWEEP_OPT_SETTLE_TIMEOUT, HB_SWEEP_OPT_MAX_CURRENT, HB_SWEEP_OPT_MAX_VOLTAGE, HB_SWEEP_OPT_MAX_POWER,
+	HB_SWEEP_OPT_RAMP, HB_SWEEP_OPT_AMBIENT
+};
+
+/* The shared entries of a command's struct option table. */
+#define HB_SWEEP_LONG_OPTIONS                                                   \
+	{ "freq", required_argument, NULL, HB_SWEEP_OPT_FREQ },                 \
+	{ "steps", required_argument, NULL, HB_SWEEP_OPT_STEPS },               \
+	{ "avg", required_argument, NULL, HB_SWEEP_OPT_AVG },                   \
+	{ "aperture", required_argument, NULL, HB_SWEEP_OPT_APERTURE },         \
+	{ "settle", required_argument, NULL, HB_SWEEP_OPT_SETTLE },             \
+	{ "settle-timeout", required_argument, NULL, HB_SWEEP_OPT_SETTLE_TIMEOUT }, \
+	{ "max-current", required_argument, NULL, HB_SWEEP_OPT_MAX_CURRENT },   \
+	{ "max-voltage", required_argument, NULL, HB_SWEEP_OPT_MAX_VOLTAGE },   \
+	{ "max-power", required_argument, NULL, HB_SWEEP_OPT_MAX_POWER },       \
+	{ "ramp", required_argument, NULL, HB_SWEEP_OPT_RAMP },                 \
+	{ "ambient", required_argument, NULL, HB_SWEEP_OPT_AMBIENT }
+
+/* What the command line said beyond the plan: which plan fields it set
+ * (the part's spec fills the others) and the limits it asked for. */
+typedef struct hb_sweep_opts {
+	bool freq_given, level_given, steps_given;
+	double max_current, max_voltage, max_power, ramp; /* NAN = not given */
+	double ambient_c;                                  /* NAN = not given */
+} hb_sweep_opts;
+
+void hb_sweep_opts_init(hb_sweep_opts *o);
+
+/* Takes one of the HB_SWEEP_OPT_* options into the plan or o; false when
+ * opt is not one of them. *rc is HB_ERR_ARG after the one-line error. */
+bool hb_sweep_opts_parse(int opt, const char *arg, hb_sweep_plan *plan, hb_sweep_opts *o, int *rc);
+
+/* Opens the store and reads the part to be swept; prints the error and
+ * returns the exit code (HB_EXIT_OK when both worked). *db is set whenever
+ * it was opened, so the caller closes it on every path. */
+int hb_sweep_opts_open_part(const char *part_number, hb_db **db, hb_db_part *part);
+
+/* The part's test conditions where the command line gave none, and the
+ * limits in force: the strictest of the command line, the station file and
+ * the part's ratings. */
+void hb_sweep_opts_apply(const hb_sweep_opts *o, const hb_station *st, const hb_db_part *part, hb_sweep_plan *plan);
+
+#endif
