@@ -25,8 +25,10 @@ void hb_db_part_init(hb_db_part *p)
 	p->mu_i = p->bsat_t = NAN;
 }
 
-static void read_part(sqlite3_stmt *st, hb_db_part *p)
+static void read_part(sqlite3_stmt *st, void *row, const void *ctx)
 {
+	(void)ctx;
+	hb_db_part *p = row;
 	hb_db_part_init(p);
 	p->id = sqlite3_column_int64(st, 0);
 	db_col_text(st, 1, p->part_number, sizeof p->part_number);
@@ -115,20 +117,6 @@ int hb_db_part_put(hb_db *db, hb_db_part *p)
 	return status;
 }
 
-static int get_one_part(hb_db *db, sqlite3_stmt *st, hb_db_part *out, const char *what)
-{
-	int rc = sqlite3_step(st);
-	int status = HB_OK;
-	if (rc == SQLITE_ROW)
-		read_part(st, out);
-	else if (rc == SQLITE_DONE)
-		status = db_error(db, HB_ERR_NOTFOUND, "no part %s in %s", what, db->path);
-	else
-		status = db_fail(db, rc, "reading a part");
-	db_release(st);
-	return status;
-}
-
 int hb_db_part_get(hb_db *db, const char *part_number, hb_db_part *out)
 {
 	if (!db || !part_number || !out)
@@ -137,7 +125,7 @@ int hb_db_part_get(hb_db *db, const char *part_number, hb_db_part *out)
 	if (!st)
 		return HB_ERR_DB;
 	db_bind_text(st, 1, part_number);
-	return get_one_part(db, st, out, part_number);
+	return db_read_one(db, st, read_part, out, NULL, "part", part_number, "reading a part");
 }
 
 int hb_db_part_get_id(hb_db *db, int64_t id, hb_db_part *out)
@@ -150,7 +138,7 @@ int hb_db_part_get_id(hb_db *db, int64_t id, hb_db_part *out)
 	sqlite3_bind_int64(st, 1, id);
 	char what[32];
 	snprintf(what, sizeof what, "id %lld", (long long)id);
-	return get_one_part(db, st, out, what);
+	return db_read_one(db, st, read_part, out, NULL, "part", what, "reading a part");
 }
 
 int hb_db_part_list(hb_db *db, hb_db_part **out, size_t *count)
@@ -162,25 +150,7 @@ int hb_db_part_list(hb_db *db, hb_db_part **out, size_t *count)
 	sqlite3_stmt *st = db_stmt(db, ST_PART_LIST, "SELECT " PART_COLUMNS " FROM parts ORDER BY part_number");
 	if (!st)
 		return HB_ERR_DB;
-	hb_db_part *arr = NULL;
-	size_t n = 0, cap = 0;
-	int status = HB_OK, rc;
-	while ((rc = sqlite3_step(st)) == SQLITE_ROW) {
-		status = db_grow(db, (void **)&arr, &cap, n, sizeof *arr);
-		if (status < 0)
-			break;
-		read_part(st, &arr[n++]);
-	}
-	if (status == HB_OK && rc != SQLITE_DONE)
-		status = db_fail(db, rc, "listing parts");
-	db_release(st);
-	if (status < 0) {
-		free(arr);
-		return status;
-	}
-	*out = arr;
-	*count = n;
-	return HB_OK;
+	return db_read_all(db, st, read_part, NULL, sizeof **out, "listing parts", (void **)out, count);
 }
 
 void hb_db_parts_free(hb_db_part *parts)
@@ -202,8 +172,10 @@ void hb_db_lot_init(hb_db_lot *lot)
 	lot->aql = NAN;
 }
 
-static void read_lot(sqlite3_stmt *st, hb_db_lot *l)
+static void read_lot(sqlite3_stmt *st, void *row, const void *ctx)
 {
+	(void)ctx;
+	hb_db_lot *l = row;
 	hb_db_lot_init(l);
 	l->id = sqlite3_column_int64(st, 0);
 	l->part_id = sqlite3_column_int64(st, 1);
@@ -245,20 +217,6 @@ int hb_db_lot_ensure(hb_db *db, int64_t part_id, const char *lot_code, int64_t *
 	return db_write_one(db, st, "storing a lot", lot_id, NULL);
 }
 
-static int get_one_lot(hb_db *db, sqlite3_stmt *st, hb_db_lot *out, const char *what)
-{
-	int rc = sqlite3_step(st);
-	int status = HB_OK;
-	if (rc == SQLITE_ROW)
-		read_lot(st, out);
-	else if (rc == SQLITE_DONE)
-		status = db_error(db, HB_ERR_NOTFOUND, "no lot %s in %s", what, db->path);
-	else
-		status = db_fail(db, rc, "reading a lot");
-	db_release(st);
-	return status;
-}
-
 int hb_db_lot_get(hb_db *db, int64_t lot_id, hb_db_lot *out)
 {
 	if (!db || !out)
@@ -269,7 +227,7 @@ int hb_db_lot_get(hb_db *db, int64_t lot_id, hb_db_lot *out)
 	sqlite3_bind_int64(st, 1, lot_id);
 	char what[32];
 	snprintf(what, sizeof what, "id %lld", (long long)lot_id);
-	return get_one_lot(db, st, out, what);
+	return db_read_one(db, st, read_lot, out, NULL, "lot", what, "reading a lot");
 }
 
 int hb_db_lot_find(hb_db *db, int64_t part_id, const char *lot_code, hb_db_lot *out)
@@ -282,7 +240,7 @@ int hb_db_lot_find(hb_db *db, int64_t part_id, const char *lot_code, hb_db_lot *
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, part_id);
 	db_bind_text(st, 2, lot_code);
-	return get_one_lot(db, st, out, lot_code);
+	return db_read_one(db, st, read_lot, out, NULL, "lot", lot_code, "reading a lot");
 }
 
 int hb_db_lot_update(hb_db *db, const hb_db_lot *lot)
@@ -345,6 +303,17 @@ int hb_db_unit_ensure(hb_db *db, int64_t part_id, const char *serial, int64_t lo
 	return db_write_one(db, st, "storing a unit", unit_id, NULL);
 }
 
+static void read_unit(sqlite3_stmt *st, void *row, const void *ctx)
+{
+	(void)ctx;
+	hb_db_unit *u = row;
+	memset(u, 0, sizeof *u);
+	u->id = sqlite3_column_int64(st, 0);
+	u->part_id = sqlite3_column_int64(st, 1);
+	u->lot_id = sqlite3_column_int64(st, 2);
+	db_col_text(st, 3, u->serial, sizeof u->serial);
+}
+
 int hb_db_unit_get(hb_db *db, int64_t unit_id, hb_db_unit *out)
 {
 	if (!db || !out)
@@ -353,21 +322,9 @@ int hb_db_unit_get(hb_db *db, int64_t unit_id, hb_db_unit *out)
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, unit_id);
-	int rc = sqlite3_step(st);
-	int status = HB_OK;
-	if (rc == SQLITE_ROW) {
-		memset(out, 0, sizeof *out);
-		out->id = sqlite3_column_int64(st, 0);
-		out->part_id = sqlite3_column_int64(st, 1);
-		out->lot_id = sqlite3_column_int64(st, 2);
-		db_col_text(st, 3, out->serial, sizeof out->serial);
-	} else if (rc == SQLITE_DONE) {
-		status = db_error(db, HB_ERR_NOTFOUND, "no unit id %lld in %s", (long long)unit_id, db->path);
-	} else {
-		status = db_fail(db, rc, "reading a unit");
-	}
-	db_release(st);
-	return status;
+	char what[32];
+	snprintf(what, sizeof what, "id %lld", (long long)unit_id);
+	return db_read_one(db, st, read_unit, out, NULL, "unit", what, "reading a unit");
 }
 
 /* ---------------- inspection records ---------------- */
@@ -408,6 +365,27 @@ int hb_db_inspection_put(hb_db *db, hb_db_inspection *rec)
 	return db_write_one(db, st, "storing an inspection record", &rec->id, NULL);
 }
 
+static void read_inspection(sqlite3_stmt *st, void *row, const void *ctx)
+{
+	(void)ctx;
+	hb_db_inspection *r = row;
+	hb_db_inspection_init(r);
+	r->id = sqlite3_column_int64(st, 0);
+	r->lot_id = sqlite3_column_int64(st, 1);
+	r->unit_id = sqlite3_column_int64(st, 2);
+	r->sweep_id = sqlite3_column_int64(st, 3);
+	r->sequence = sqlite3_column_int(st, 4);
+	const char *o = (const char *)sqlite3_column_text(st, 5);
+	r->outcome = !o ? HB_DB_SKIPPED
+		     : strcmp(o, "pass") == 0 ? HB_DB_PASS
+		     : strcmp(o, "fail") == 0 ? HB_DB_FAIL
+					      : HB_DB_SKIPPED;
+	r->at = sqlite3_column_double(st, 6);
+	db_col_text(st, 7, r->at_iso, sizeof r->at_iso);
+	db_col_text(st, 8, r->serial, sizeof r->serial);
+	db_col_text(st, 9, r->note, sizeof r->note);
+}
+
 int hb_db_inspection_list(hb_db *db, int64_t lot_id, hb_db_inspection **out, size_t *count)
 {
 	if (!db || !out || !count)
@@ -421,40 +399,8 @@ int hb_db_inspection_list(hb_db *db, int64_t lot_id, hb_db_inspection **out, siz
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, lot_id);
-	hb_db_inspection *arr = NULL;
-	size_t n = 0, cap = 0;
-	int status = HB_OK, rc;
-	while ((rc = sqlite3_step(st)) == SQLITE_ROW) {
-		status = db_grow(db, (void **)&arr, &cap, n, sizeof *arr);
-		if (status < 0)
-			break;
-		hb_db_inspection *r = &arr[n++];
-		hb_db_inspection_init(r);
-		r->id = sqlite3_column_int64(st, 0);
-		r->lot_id = sqlite3_column_int64(st, 1);
-		r->unit_id = sqlite3_column_int64(st, 2);
-		r->sweep_id = sqlite3_column_int64(st, 3);
-		r->sequence = sqlite3_column_int(st, 4);
-		const char *o = (const char *)sqlite3_column_text(st, 5);
-		r->outcome = !o ? HB_DB_SKIPPED
-			     : strcmp(o, "pass") == 0 ? HB_DB_PASS
-			     : strcmp(o, "fail") == 0 ? HB_DB_FAIL
-						      : HB_DB_SKIPPED;
-		r->at = sqlite3_column_double(st, 6);
-		db_col_text(st, 7, r->at_iso, sizeof r->at_iso);
-		db_col_text(st, 8, r->serial, sizeof r->serial);
-		db_col_text(st, 9, r->note, sizeof r->note);
-	}
-	if (status == HB_OK && rc != SQLITE_DONE)
-		status = db_fail(db, rc, "listing inspection records");
-	db_release(st);
-	if (status < 0) {
-		free(arr);
-		return status;
-	}
-	*out = arr;
-	*count = n;
-	return HB_OK;
+	return db_read_all(db, st, read_inspection, NULL, sizeof **out, "listing inspection records", (void **)out,
+			   count);
 }
 
 void hb_db_inspections_free(hb_db_inspection *recs)

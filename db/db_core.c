@@ -211,6 +211,45 @@ int db_grow(hb_db *db, void **arr, size_t *cap, size_t n, size_t elem)
 	return HB_OK;
 }
 
+int db_read_one(hb_db *db, sqlite3_stmt *st, db_row_reader *read, void *row, const void *ctx, const char *noun,
+		const char *key, const char *reading)
+{
+	int rc = sqlite3_step(st);
+	int status = HB_OK;
+	if (rc == SQLITE_ROW)
+		read(st, row, ctx);
+	else if (rc == SQLITE_DONE)
+		status = db_error(db, HB_ERR_NOTFOUND, "no %s %s in %s", noun, key, db->path);
+	else
+		status = db_fail(db, rc, reading);
+	db_release(st);
+	return status;
+}
+
+int db_read_all(hb_db *db, sqlite3_stmt *st, db_row_reader *read, const void *ctx, size_t elem, const char *reading,
+		void **out, size_t *count)
+{
+	void *arr = NULL;
+	size_t n = 0, cap = 0;
+	int status = HB_OK, rc;
+	while ((rc = sqlite3_step(st)) == SQLITE_ROW) {
+		status = db_grow(db, &arr, &cap, n, elem);
+		if (status < 0)
+			break;
+		read(st, (char *)arr + n++ * elem, ctx);
+	}
+	if (status == HB_OK && rc != SQLITE_DONE)
+		status = db_fail(db, rc, reading);
+	db_release(st);
+	if (status < 0) {
+		free(arr);
+		return status;
+	}
+	*out = arr;
+	*count = n;
+	return HB_OK;
+}
+
 /* ---------------- names ---------------- */
 
 static const char *const kind_names[] = { "bias", "frequency" };

@@ -72,6 +72,18 @@ void db_iso_time(double unix_s, char *buf, size_t cap);
 /* Grows *arr (of elem bytes) so index n fits. */
 int db_grow(hb_db *db, void **arr, size_t *cap, size_t n, size_t elem);
 
+/* Copies one result row into the struct at row; ctx carries what the query
+ * knew but the row does not (the sweep id of a point, say). */
+typedef void db_row_reader(sqlite3_stmt *st, void *row, const void *ctx);
+/* Steps a bound single-row query into row and releases the statement: no row
+ * is HB_ERR_NOTFOUND "no <noun> <key> in <path>", a failure names reading. */
+int db_read_one(hb_db *db, sqlite3_stmt *st, db_row_reader *read, void *row, const void *ctx, const char *noun,
+		const char *key, const char *reading);
+/* Steps a bound query to its end, one elem-byte struct per row, and releases
+ * the statement; only on success do *out (for free()) and *count change. */
+int db_read_all(hb_db *db, sqlite3_stmt *st, db_row_reader *read, const void *ctx, size_t elem, const char *reading,
+		void **out, size_t *count);
+
 int db_recover_running(hb_db *db);
 
 #endif

@@ -41,8 +41,10 @@ void hb_db_sweep_filter_init(hb_db_sweep_filter *f)
 	f->kind = -1;
 }
 
-static void read_sweep(sqlite3_stmt *st, hb_db_sweep *s)
+static void read_sweep(sqlite3_stmt *st, void *row, const void *ctx)
 {
+	(void)ctx;
+	hb_db_sweep *s = row;
 	hb_db_sweep_init(s);
 	s->id = sqlite3_column_int64(st, 0);
 	hb_db_sweep_kind_parse((const char *)sqlite3_column_text(st, 1), &s->kind);
@@ -210,36 +212,34 @@ int hb_db_sweep_end(hb_db *db, int64_t sweep_id, hb_db_sweep_status status, cons
 	return db_error(db, HB_ERR_ARG, "sweep %lld has already ended", (long long)sweep_id);
 }
 
-int hb_db_sweep_set_noise(hb_db *db, int64_t sweep_id, double noise_rel)
+/* One measured number recorded on the sweep after it began, whatever its state. */
+static int sweep_set_real(hb_db *db, enum db_stmt_slot slot, const char *sql, int64_t sweep_id, double value,
+			  const char *what)
 {
 	if (!db)
 		return HB_ERR_ARG;
-	sqlite3_stmt *st = db_stmt(db, ST_SWEEP_NOISE, "UPDATE sweeps SET reading_noise_rel = ?2 WHERE id = ?1");
+	sqlite3_stmt *st = db_stmt(db, slot, sql);
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, sweep_id);
-	db_bind_real(st, 2, noise_rel);
+	db_bind_real(st, 2, value);
 	int changes = 0;
-	int rc = db_write_one(db, st, "recording the reading noise", NULL, &changes);
+	int rc = db_write_one(db, st, what, NULL, &changes);
 	if (rc < 0)
 		return rc;
 	return changes > 0 ? HB_OK : db_error(db, HB_ERR_NOTFOUND, "no sweep %lld", (long long)sweep_id);
 }
 
+int hb_db_sweep_set_noise(hb_db *db, int64_t sweep_id, double noise_rel)
+{
+	return sweep_set_real(db, ST_SWEEP_NOISE, "UPDATE sweeps SET reading_noise_rel = ?2 WHERE id = ?1", sweep_id,
+			      noise_rel, "recording the reading noise");
+}
+
 int hb_db_sweep_set_dcr(hb_db *db, int64_t sweep_id, double ohms)
 {
-	if (!db)
-		return HB_ERR_ARG;
-	sqlite3_stmt *st = db_stmt(db, ST_SWEEP_DCR, "UPDATE sweeps SET dcr_meter_ohm = ?2 WHERE id = ?1");
-	if (!st)
-		return HB_ERR_DB;
-	sqlite3_bind_int64(st, 1, sweep_id);
-	db_bind_real(st, 2, ohms);
-	int changes = 0;
-	int rc = db_write_one(db, st, "recording the meter's DC resistance", NULL, &changes);
-	if (rc < 0)
-		return rc;
-	return changes > 0 ? HB_OK : db_error(db, HB_ERR_NOTFOUND, "no sweep %lld", (long long)sweep_id);
+	return sweep_set_real(db, ST_SWEEP_DCR, "UPDATE sweeps SET dcr_meter_ohm = ?2 WHERE id = ?1", sweep_id, ohms,
+			      "recording the meter's DC resistance");
 }
 
 int hb_db_sweep_get(hb_db *db, int64_t sweep_id, hb_db_sweep *out)
@@ -252,16 +252,9 @@ int hb_db_sweep_get(hb_db *db, int64_t sweep_id, hb_db_sweep *out)
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, sweep_id);
-	int rc = sqlite3_step(st);
-	int status = HB_OK;
-	if (rc == SQLITE_ROW)
-		read_sweep(st, out);
-	else if (rc == SQLITE_DONE)
-		status = db_error(db, HB_ERR_NOTFOUND, "no sweep %lld in %s", (long long)sweep_id, db->path);
-	else
-		status = db_fail(db, rc, "reading a sweep");
-	db_release(st);
-	return status;
+	char what[32];
+	snprintf(what, sizeof what, "%lld", (long long)sweep_id);
+	return db_read_one(db, st, read_sweep, out, NULL, "sweep", what, "reading a sweep");
 }
 
 enum { F_PART = 1, F_SERIAL = 2, F_LOT = 4, F_STATUS = 8, F_KIND = 16, F_SINCE = 32 };
@@ -331,26 +324,7 @@ int hb_db_sweep_list(hb_db *db, const hb_db_sweep_filter *f, hb_db_sweep **out, 
 	if (mask & F_SINCE)
 		sqlite3_bind_double(st, 6, f->since);
 	sqlite3_bind_int64(st, 7, f->limit > 0 ? f->limit : -1);
-
-	hb_db_sweep *arr = NULL;
-	size_t n = 0, cap = 0;
-	int status = HB_OK, rc;
-	while ((rc = sqlite3_step(st)) == SQLITE_ROW) {
-		status = db_grow(db, (void **)&arr, &cap, n, sizeof *arr);
-		if (status < 0)
-			break;
-		read_sweep(st, &arr[n++]);
-	}
-	if (status == HB_OK && rc != SQLITE_DONE)
-		status = db_fail(db, rc, "listing sweeps");
-	db_release(st);
-	if (status < 0) {
-		free(arr);
-		return status;
-	}
-	*out = arr;
-	*count = n;
-	return HB_OK;
+	return db_read_all(db, st, read_sweep, NULL, sizeof **out, "listing sweeps", (void **)out, count);
 }
 
 void hb_db_sweeps_free(hb_db_sweep *sweeps)
@@ -407,6 +381,25 @@ int hb_db_point_add(hb_db *db, const hb_db_point *p)
 			(long long)p->sweep_id);
 }
 
+static void read_point(sqlite3_stmt *st, void *row, const void *ctx)
+{
+	hb_db_point *p = row;
+	p->sweep_id = *(const int64_t *)ctx;
+	p->seq = sqlite3_column_int(st, 0);
+	p->bias_set_a = db_col_real(st, 1);
+	p->bias_meas_a = db_col_real(st, 2);
+	p->supply_v = db_col_real(st, 3);
+	p->freq_hz = db_col_real(st, 4);
+	p->primary = db_col_real(st, 5);
+	p->secondary = db_col_real(st, 6);
+	p->reading_status = sqlite3_column_int(st, 7);
+	p->t_s = db_col_real(st, 8);
+	p->settle_readings = sqlite3_column_int(st, 9);
+	p->settle_s = db_col_real(st, 10);
+	const unsigned char *d = sqlite3_column_text(st, 11);
+	p->direction = (d && d[0] == 'd') ? HB_DB_DIR_DOWN : HB_DB_DIR_UP;
+}
+
 int hb_db_points_get(hb_db *db, int64_t sweep_id, hb_db_point **out, size_t *count)
 {
 	if (!db || !out || !count)
@@ -420,39 +413,7 @@ int hb_db_points_get(hb_db *db, int64_t sweep_id, hb_db_point **out, size_t *cou
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, sweep_id);
-	hb_db_point *arr = NULL;
-	size_t n = 0, cap = 0;
-	int status = HB_OK, rc;
-	while ((rc = sqlite3_step(st)) == SQLITE_ROW) {
-		status = db_grow(db, (void **)&arr, &cap, n, sizeof *arr);
-		if (status < 0)
-			break;
-		hb_db_point *p = &arr[n++];
-		p->sweep_id = sweep_id;
-		p->seq = sqlite3_column_int(st, 0);
-		p->bias_set_a = db_col_real(st, 1);
-		p->bias_meas_a = db_col_real(st, 2);
-		p->supply_v = db_col_real(st, 3);
-		p->freq_hz = db_col_real(st, 4);
-		p->primary = db_col_real(st, 5);
-		p->secondary = db_col_real(st, 6);
-		p->reading_status = sqlite3_column_int(st, 7);
-		p->t_s = db_col_real(st, 8);
-		p->settle_readings = sqlite3_column_int(st, 9);
-		p->settle_s = db_col_real(st, 10);
-		const unsigned char *d = sqlite3_column_text(st, 11);
-		p->direction = (d && d[0] == 'd') ? HB_DB_DIR_DOWN : HB_DB_DIR_UP;
-	}
-	if (status == HB_OK && rc != SQLITE_DONE)
-		status = db_fail(db, rc, "reading points");
-	db_release(st);
-	if (status < 0) {
-		free(arr);
-		return status;
-	}
-	*out = arr;
-	*count = n;
-	return HB_OK;
+	return db_read_all(db, st, read_point, &sweep_id, sizeof **out, "reading points", (void **)out, count);
 }
 
 void hb_db_points_free(hb_db_point *points)
@@ -539,6 +500,24 @@ fail:
 	return status;
 }
 
+static void read_fit(sqlite3_stmt *st, void *row, const void *ctx)
+{
+	(void)ctx;
+	hb_db_fit *f = row;
+	hb_db_fit_init(f);
+	f->id = sqlite3_column_int64(st, 0);
+	f->sweep_id = sqlite3_column_int64(st, 1);
+	db_col_text(st, 2, f->model, sizeof f->model);
+	db_col_text(st, 3, f->law, sizeof f->law);
+	db_col_text(st, 4, f->code_version, sizeof f->code_version);
+	db_col_text(st, 5, f->created, sizeof f->created);
+	f->rss = db_col_real(st, 6);
+	f->dof = sqlite3_column_int(st, 7);
+	f->aic = db_col_real(st, 8);
+	db_col_text(st, 9, f->covariance_json, sizeof f->covariance_json);
+	db_col_text(st, 10, f->flags, sizeof f->flags);
+}
+
 int hb_db_fit_get_latest(hb_db *db, int64_t sweep_id, const char *model, hb_db_fit *out)
 {
 	if (!db || !out)
@@ -557,32 +536,15 @@ int hb_db_fit_get_latest(hb_db *db, int64_t sweep_id, const char *model, hb_db_f
 	sqlite3_bind_int64(st, 1, sweep_id);
 	if (model)
 		db_bind_text(st, 2, model);
-	int rc = sqlite3_step(st);
-	int status = HB_OK;
-	if (rc == SQLITE_ROW) {
-		hb_db_fit_init(out);
-		out->id = sqlite3_column_int64(st, 0);
-		out->sweep_id = sqlite3_column_int64(st, 1);
-		db_col_text(st, 2, out->model, sizeof out->model);
-		db_col_text(st, 3, out->law, sizeof out->law);
-		db_col_text(st, 4, out->code_version, sizeof out->code_version);
-		db_col_text(st, 5, out->created, sizeof out->created);
-		out->rss = db_col_real(st, 6);
-		out->dof = sqlite3_column_int(st, 7);
-		out->aic = db_col_real(st, 8);
-		db_col_text(st, 9, out->covariance_json, sizeof out->covariance_json);
-		db_col_text(st, 10, out->flags, sizeof out->flags);
-	} else if (rc == SQLITE_DONE) {
-		status = db_error(db, HB_ERR_NOTFOUND, "no %s%sfit of sweep %lld in %s", model ? model : "",
-				  model ? " " : "", (long long)sweep_id, db->path);
-	} else {
-		status = db_fail(db, rc, "reading a fit");
-	}
-	db_release(st);
+	/* Reads "no <model> fit of sweep N" or "no fit of sweep N" when missing. */
+	char what[64];
+	snprintf(what, sizeof what, "%sof sweep %lld", model ? "fit " : "", (long long)sweep_id);
+	int status = db_read_one(db, st, read_fit, out, NULL, model ? model : "fit", what, "reading a fit");
 	if (status < 0)
 		return status;
 
 	sqlite3_bind_int64(sv, 1, out->id);
+	int rc;
 	while ((rc = sqlite3_step(sv)) == SQLITE_ROW && out->n_values < HB_DB_FIT_MAX_VALUES) {
 		hb_db_fit_value *v = &out->values[out->n_values++];
 		db_col_text(sv, 0, v->name, sizeof v->name);
@@ -648,6 +610,21 @@ static hb_db_outcome outcome_of(const unsigned char *text)
 	return HB_DB_NOT_TESTED;
 }
 
+static void read_verdict(sqlite3_stmt *st, void *row, const void *ctx)
+{
+	hb_db_verdict *v = row;
+	hb_db_verdict_init(v);
+	v->id = sqlite3_column_int64(st, 0);
+	v->sweep_id = *(const int64_t *)ctx;
+	db_col_text(st, 1, v->check_name, sizeof v->check_name);
+	v->measured = db_col_real(st, 2);
+	v->limit_low = db_col_real(st, 3);
+	v->limit_high = db_col_real(st, 4);
+	v->margin = db_col_real(st, 5);
+	v->outcome = outcome_of(sqlite3_column_text(st, 6));
+	db_col_text(st, 7, v->note, sizeof v->note);
+}
+
 int hb_db_verdict_list(hb_db *db, int64_t sweep_id, hb_db_verdict **out, size_t *count)
 {
 	if (!db || !out || !count)
@@ -660,35 +637,7 @@ int hb_db_verdict_list(hb_db *db, int64_t sweep_id, hb_db_verdict **out, size_t 
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, sweep_id);
-	hb_db_verdict *arr = NULL;
-	size_t n = 0, cap = 0;
-	int status = HB_OK, rc;
-	while ((rc = sqlite3_step(st)) == SQLITE_ROW) {
-		status = db_grow(db, (void **)&arr, &cap, n, sizeof *arr);
-		if (status < 0)
-			break;
-		hb_db_verdict *v = &arr[n++];
-		hb_db_verdict_init(v);
-		v->id = sqlite3_column_int64(st, 0);
-		v->sweep_id = sweep_id;
-		db_col_text(st, 1, v->check_name, sizeof v->check_name);
-		v->measured = db_col_real(st, 2);
-		v->limit_low = db_col_real(st, 3);
-		v->limit_high = db_col_real(st, 4);
-		v->margin = db_col_real(st, 5);
-		v->outcome = outcome_of(sqlite3_column_text(st, 6));
-		db_col_text(st, 7, v->note, sizeof v->note);
-	}
-	if (status == HB_OK && rc != SQLITE_DONE)
-		status = db_fail(db, rc, "listing verdicts");
-	db_release(st);
-	if (status < 0) {
-		free(arr);
-		return status;
-	}
-	*out = arr;
-	*count = n;
-	return HB_OK;
+	return db_read_all(db, st, read_verdict, &sweep_id, sizeof **out, "listing verdicts", (void **)out, count);
 }
 
 void hb_db_verdicts_free(hb_db_verdict *verdicts)
@@ -712,6 +661,26 @@ void hb_db_history_filter_init(hb_db_history_filter *f)
 #define FIT_VALUE(param)                                                                     \
 	" (SELECT v.value FROM fits f JOIN fit_values v ON v.fit_id = f.id WHERE f.sweep_id = s.id" \
 	" AND v.name = " param " ORDER BY f.id DESC LIMIT 1)"
+
+static void read_history_row(sqlite3_stmt *st, void *row, const void *ctx)
+{
+	(void)ctx;
+	hb_db_history_row *r = row;
+	memset(r, 0, sizeof *r);
+	r->sweep_id = sqlite3_column_int64(st, 0);
+	r->unit_id = sqlite3_column_int64(st, 1);
+	r->started = sqlite3_column_double(st, 2);
+	db_col_text(st, 3, r->started_iso, sizeof r->started_iso);
+	db_col_text(st, 4, r->station, sizeof r->station);
+	db_col_text(st, 5, r->lot_code, sizeof r->lot_code);
+	db_col_text(st, 6, r->serial, sizeof r->serial);
+	r->l0_h = db_col_real(st, 7);
+	for (int i = 0; i < HB_DB_HISTORY_DROPS; i++)
+		r->i_drop_a[i] = db_col_real(st, 8 + i);
+	r->mu_e = db_col_real(st, 11);
+	r->gap_m = db_col_real(st, 12);
+	r->verdict = (hb_db_outcome)sqlite3_column_int(st, 13);
+}
 
 int hb_db_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **out, size_t *count)
 {
@@ -758,40 +727,7 @@ int hb_db_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **
 	}
 	db_bind_text(st, 9, HB_DB_FV_MU_E);
 	db_bind_text(st, 10, HB_DB_FV_GAP);
-
-	hb_db_history_row *arr = NULL;
-	size_t n = 0, cap = 0;
-	int rc;
-	while ((rc = sqlite3_step(st)) == SQLITE_ROW) {
-		status = db_grow(db, (void **)&arr, &cap, n, sizeof *arr);
-		if (status < 0)
-			break;
-		hb_db_history_row *r = &arr[n++];
-		memset(r, 0, sizeof *r);
-		r->sweep_id = sqlite3_column_int64(st, 0);
-		r->unit_id = sqlite3_column_int64(st, 1);
-		r->started = sqlite3_column_double(st, 2);
-		db_col_text(st, 3, r->started_iso, sizeof r->started_iso);
-		db_col_text(st, 4, r->station, sizeof r->station);
-		db_col_text(st, 5, r->lot_code, sizeof r->lot_code);
-		db_col_text(st, 6, r->serial, sizeof r->serial);
-		r->l0_h = db_col_real(st, 7);
-		for (int i = 0; i < HB_DB_HISTORY_DROPS; i++)
-			r->i_drop_a[i] = db_col_real(st, 8 + i);
-		r->mu_e = db_col_real(st, 11);
-		r->gap_m = db_col_real(st, 12);
-		r->verdict = (hb_db_outcome)sqlite3_column_int(st, 13);
-	}
-	if (status == HB_OK && rc != SQLITE_DONE)
-		status = db_fail(db, rc, "reading history");
-	db_release(st);
-	if (status < 0) {
-		free(arr);
-		return status;
-	}
-	*out = arr;
-	*count = n;
-	return HB_OK;
+	return db_read_all(db, st, read_history_row, NULL, sizeof **out, "reading history", (void **)out, count);
 }
 
 void hb_db_history_free(hb_db_history_row *rows)

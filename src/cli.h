@@ -62,6 +62,21 @@ char *hb_format_si(char *buf, size_t cap, double value, const char *unit, int di
 /* Parses a positive sweep id or prints the one-line error. */
 int hb_cli_parse_sweep_id(const char *text, long long *id);
 
+/* ---------------- output shared by the commands (cli_common.c) ---------------- */
+/* Declared, not included, so that including cli.h needs neither jansson nor db/. */
+struct json_t;
+struct hb_db;
+
+/* A JSON number, or null for NaN and infinity (JSON has neither). */
+struct json_t *hb_json_num(double v);
+/* Prints root as indented JSON and a newline on stdout, then drops root
+ * (NULL is taken as out of memory); HB_OK, HB_ERR_NOMEM or HB_ERR_IO. */
+int hb_print_json(struct json_t *root);
+/* hb_format_si with 4 digits, or "-" for a value not known (NaN, infinity). */
+const char *hb_si_or_dash(char *buf, size_t cap, double v, const char *unit);
+/* Opens the store named by --db; NULL after printing the error. */
+struct hb_db *hb_cli_open_store(void);
+
 /* ---------------- commands ---------------- */
 int hb_cmd_ports(int argc, char **argv);
 int hb_cmd_identify(int argc, char **argv);

@@ -173,32 +173,27 @@ int hb_export_csv(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err,
 	return rc;
 }
 
-static json_t *jnum(double v)
-{
-	return isfinite(v) ? json_real(v) : json_null();
-}
-
 static json_t *part_json(const hb_db_part *p)
 {
 	json_t *o = json_object();
 	json_object_set_new(o, "part_number", json_string(p->part_number));
 	json_object_set_new(o, "description", json_string(p->description));
 	json_object_set_new(o, "maker", json_string(p->maker));
-	json_object_set_new(o, "nominal_H", jnum(p->nominal_h));
-	json_object_set_new(o, "tolerance", jnum(p->tolerance));
-	json_object_set_new(o, "test_frequency_Hz", jnum(p->test_freq_hz));
-	json_object_set_new(o, "test_level", jnum(p->test_level));
+	json_object_set_new(o, "nominal_H", hb_json_num(p->nominal_h));
+	json_object_set_new(o, "tolerance", hb_json_num(p->tolerance));
+	json_object_set_new(o, "test_frequency_Hz", hb_json_num(p->test_freq_hz));
+	json_object_set_new(o, "test_level", hb_json_num(p->test_level));
 	json_object_set_new(o, "test_level_unit", json_string(p->test_level_kind == HB_DB_LEVEL_CURRENT ? "A" : "V"));
-	json_object_set_new(o, "sat_current_A", jnum(p->sat_current_a));
-	json_object_set_new(o, "sat_drop", jnum(p->sat_drop));
-	json_object_set_new(o, "rated_current_A", jnum(p->rated_current_a));
-	json_object_set_new(o, "dcr_max_ohm", jnum(p->dcr_max_ohm));
+	json_object_set_new(o, "sat_current_A", hb_json_num(p->sat_current_a));
+	json_object_set_new(o, "sat_drop", hb_json_num(p->sat_drop));
+	json_object_set_new(o, "rated_current_A", hb_json_num(p->rated_current_a));
+	json_object_set_new(o, "dcr_max_ohm", hb_json_num(p->dcr_max_ohm));
 	json_object_set_new(o, "turns", p->turns > 0 ? json_integer(p->turns) : json_null());
-	json_object_set_new(o, "Ae_m2", jnum(p->ae_m2));
-	json_object_set_new(o, "le_m", jnum(p->le_m));
-	json_object_set_new(o, "window_m", jnum(p->window_m));
-	json_object_set_new(o, "mu_i", jnum(p->mu_i));
-	json_object_set_new(o, "bsat_T", jnum(p->bsat_t));
+	json_object_set_new(o, "Ae_m2", hb_json_num(p->ae_m2));
+	json_object_set_new(o, "le_m", hb_json_num(p->le_m));
+	json_object_set_new(o, "window_m", hb_json_num(p->window_m));
+	json_object_set_new(o, "mu_i", hb_json_num(p->mu_i));
+	json_object_set_new(o, "bsat_T", hb_json_num(p->bsat_t));
 	return o;
 }
 
@@ -224,28 +219,28 @@ static json_t *sweep_json(const hb_db_sweep *s)
 	json_object_set_new(inst, "supply_profile", json_string(s->supply_profile));
 	json_object_set_new(o, "instruments", inst);
 	json_t *set = json_object();
-	json_object_set_new(set, "test_frequency_Hz", jnum(s->test_freq_hz));
-	json_object_set_new(set, "test_level", jnum(s->test_level));
+	json_object_set_new(set, "test_frequency_Hz", hb_json_num(s->test_freq_hz));
+	json_object_set_new(set, "test_level", hb_json_num(s->test_level));
 	json_object_set_new(set, "test_level_unit", json_string(s->test_level_kind == HB_DB_LEVEL_CURRENT ? "A" : "V"));
-	json_object_set_new(set, "bias_A", jnum(s->bias_a));
+	json_object_set_new(set, "bias_A", hb_json_num(s->bias_a));
 	json_object_set_new(set, "circuit", json_string(s->circuit));
 	json_object_set_new(set, "measured_pair", json_string(s->measured_pair));
 	json_object_set_new(set, "averaging", json_integer(s->averaging));
 	json_object_set_new(set, "aperture", json_string(s->aperture));
 	json_object_set_new(set, "settle_mode", json_string(s->settle_mode));
-	json_object_set_new(set, "settle_delay_s", jnum(s->settle_delay_s));
-	json_object_set_new(set, "settle_tolerance", jnum(s->settle_tolerance));
+	json_object_set_new(set, "settle_delay_s", hb_json_num(s->settle_delay_s));
+	json_object_set_new(set, "settle_tolerance", hb_json_num(s->settle_tolerance));
 	json_object_set_new(set, "settle_max_readings", json_integer(s->settle_max_readings));
-	json_object_set_new(set, "settle_max_s", jnum(s->settle_max_s));
-	json_object_set_new(set, "plan_from", jnum(s->plan_from));
-	json_object_set_new(set, "plan_to", jnum(s->plan_to));
+	json_object_set_new(set, "settle_max_s", hb_json_num(s->settle_max_s));
+	json_object_set_new(set, "plan_from", hb_json_num(s->plan_from));
+	json_object_set_new(set, "plan_to", hb_json_num(s->plan_to));
 	json_object_set_new(set, "plan_unit", json_string(s->kind == HB_DB_SWEEP_FREQUENCY ? "Hz" : "A"));
 	json_object_set_new(set, "plan_steps", json_integer(s->plan_steps));
 	json_object_set_new(set, "plan_spacing", json_string(s->plan_spacing));
-	json_object_set_new(set, "limit_current_A", jnum(s->limit_current_a));
-	json_object_set_new(set, "limit_voltage_V", jnum(s->limit_voltage_v));
-	json_object_set_new(set, "ambient_C", jnum(s->ambient_c));
-	json_object_set_new(set, "reading_noise_rel", jnum(s->reading_noise_rel));
+	json_object_set_new(set, "limit_current_A", hb_json_num(s->limit_current_a));
+	json_object_set_new(set, "limit_voltage_V", hb_json_num(s->limit_voltage_v));
+	json_object_set_new(set, "ambient_C", hb_json_num(s->ambient_c));
+	json_object_set_new(set, "reading_noise_rel", hb_json_num(s->reading_noise_rel));
 	json_object_set_new(o, "settings", set);
 	json_object_set_new(o, "note", json_string(s->note));
 	return o;
@@ -259,9 +254,9 @@ static json_t *fit_json(const hb_db_fit *f)
 	json_object_set_new(o, "law", json_string(f->law));
 	json_object_set_new(o, "code_version", json_string(f->code_version));
 	json_object_set_new(o, "created", json_string(f->created));
-	json_object_set_new(o, "rss", jnum(f->rss));
+	json_object_set_new(o, "rss", hb_json_num(f->rss));
 	json_object_set_new(o, "dof", json_integer(f->dof));
-	json_object_set_new(o, "aic", jnum(f->aic));
+	json_object_set_new(o, "aic", hb_json_num(f->aic));
 	json_t *cov = f->covariance_json[0] ? json_loads(f->covariance_json, 0, NULL) : NULL;
 	json_object_set_new(o, "covariance", cov ? cov : json_null());
 	json_object_set_new(o, "flags", json_string(f->flags));
@@ -269,8 +264,8 @@ static json_t *fit_json(const hb_db_fit *f)
 	json_t *vals = json_object();
 	for (size_t i = 0; i < f->n_values; i++) {
 		json_t *v = json_object();
-		json_object_set_new(v, "value", jnum(f->values[i].value));
-		json_object_set_new(v, "std_err", jnum(f->values[i].std_error));
+		json_object_set_new(v, "value", hb_json_num(f->values[i].value));
+		json_object_set_new(v, "std_err", hb_json_num(f->values[i].std_error));
 		json_object_set_new(v, "unit", json_string(f->values[i].unit));
 		json_object_set_new(vals, f->values[i].name, v);
 	}
@@ -296,17 +291,17 @@ static json_t *sweep_full_json(hb_db *db, const hb_db_sweep *s, hb_db_fit *fit, 
 		json_t *q = json_object();
 		json_object_set_new(q, "seq", json_integer(p->seq));
 		json_object_set_new(q, "direction", json_string(p->direction == HB_DB_DIR_DOWN ? "down" : "up"));
-		json_object_set_new(q, "bias_set_A", jnum(p->bias_set_a));
-		json_object_set_new(q, "bias_measured_A", jnum(p->bias_meas_a));
-		json_object_set_new(q, "supply_V", jnum(p->supply_v));
-		json_object_set_new(q, "frequency_Hz", jnum(p->freq_hz));
-		json_object_set_new(q, c1, jnum(p->primary));
-		json_object_set_new(q, c2, jnum(p->secondary));
+		json_object_set_new(q, "bias_set_A", hb_json_num(p->bias_set_a));
+		json_object_set_new(q, "bias_measured_A", hb_json_num(p->bias_meas_a));
+		json_object_set_new(q, "supply_V", hb_json_num(p->supply_v));
+		json_object_set_new(q, "frequency_Hz", hb_json_num(p->freq_hz));
+		json_object_set_new(q, c1, hb_json_num(p->primary));
+		json_object_set_new(q, c2, hb_json_num(p->secondary));
 		json_object_set_new(q, "reading_status",
 				    json_string(p->reading_status == HB_OK ? "ok" : hb_status_name(p->reading_status)));
-		json_object_set_new(q, "t_s", jnum(p->t_s));
+		json_object_set_new(q, "t_s", hb_json_num(p->t_s));
 		json_object_set_new(q, "settle_readings", json_integer(p->settle_readings));
-		json_object_set_new(q, "settle_s", jnum(p->settle_s));
+		json_object_set_new(q, "settle_s", hb_json_num(p->settle_s));
 		json_array_append_new(arr, q);
 	}
 	json_object_set_new(o, "points", arr);
@@ -317,10 +312,10 @@ static json_t *sweep_full_json(hb_db *db, const hb_db_sweep *s, hb_db_fit *fit, 
 		json_t *q = json_object();
 		json_object_set_new(q, "check", json_string(v[i].check_name));
 		json_object_set_new(q, "outcome", json_string(hb_db_outcome_name(v[i].outcome)));
-		json_object_set_new(q, "measured", jnum(v[i].measured));
-		json_object_set_new(q, "limit_low", jnum(v[i].limit_low));
-		json_object_set_new(q, "limit_high", jnum(v[i].limit_high));
-		json_object_set_new(q, "margin", jnum(v[i].margin));
+		json_object_set_new(q, "measured", hb_json_num(v[i].measured));
+		json_object_set_new(q, "limit_low", hb_json_num(v[i].limit_low));
+		json_object_set_new(q, "limit_high", hb_json_num(v[i].limit_high));
+		json_object_set_new(q, "margin", hb_json_num(v[i].margin));
 		json_object_set_new(q, "note", json_string(v[i].note));
 		json_array_append_new(arr, q);
 	}

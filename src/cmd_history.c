@@ -172,29 +172,6 @@ void hb_history_summary_free(hb_history_summary *s)
 
 /* ---------------- output helpers ---------------- */
 
-static json_t *jnum(double v)
-{
-	return isfinite(v) ? json_real(v) : json_null();
-}
-
-static const char *si(char *buf, size_t cap, double v, const char *unit)
-{
-	if (!isfinite(v))
-		return "-";
-	return hb_format_si(buf, cap, v, unit, 4);
-}
-
-static int print_json_value(json_t *j)
-{
-	char *text = j ? json_dumps(j, JSON_INDENT(2) | JSON_REAL_PRECISION(10)) : NULL;
-	json_decref(j);
-	if (!text)
-		return HB_ERR_NOMEM;
-	int rc = printf("%s\n", text) < 0 ? HB_ERR_IO : HB_OK;
-	free(text);
-	return rc;
-}
-
 /* RFC 4180: quote a field holding a comma, quote or line break. */
 static void csv_text(FILE *out, const char *s)
 {
@@ -258,7 +235,7 @@ static void print_history_text(const hb_db_part *part, const hb_db_history_row *
 	char a[32], b[32], c[32], d[32], e[32];
 	printf("part %s", part->part_number);
 	if (isfinite(part->nominal_h))
-		printf(": nominal %s", si(a, sizeof a, part->nominal_h, "H"));
+		printf(": nominal %s", hb_si_or_dash(a, sizeof a, part->nominal_h, "H"));
 	if (isfinite(part->tolerance))
 		printf(" +-%.3g %%", part->tolerance * 100);
 	printf("; %zu unit%s measured\n\n", n, n == 1 ? "" : "s");
@@ -274,14 +251,14 @@ static void print_history_text(const hb_db_part *part, const hb_db_history_row *
 	for (size_t i = 0; i < n; i++) {
 		const hb_db_history_row *r = &rows[i];
 		printf("%-20s %-12s %-12s %-14s %6lld %-11s", r->started_iso, r->station, r->lot_code[0] ? r->lot_code : "-",
-		       r->serial, (long long)r->sweep_id, si(a, sizeof a, r->l0_h, "H"));
+		       r->serial, (long long)r->sweep_id, hb_si_or_dash(a, sizeof a, r->l0_h, "H"));
 		for (int k = 0; k < HB_DB_HISTORY_DROPS; k++)
-			printf(" %-9s", si(b, sizeof b, r->i_drop_a[k], "A"));
+			printf(" %-9s", hb_si_or_dash(b, sizeof b, r->i_drop_a[k], "A"));
 		if (isfinite(r->mu_e))
 			snprintf(c, sizeof c, "%.1f", r->mu_e);
 		else
 			snprintf(c, sizeof c, "-");
-		printf(" %-8s %-10s %s\n", c, si(d, sizeof d, r->gap_m, "m"), hb_db_outcome_name(r->verdict));
+		printf(" %-8s %-10s %s\n", c, hb_si_or_dash(d, sizeof d, r->gap_m, "m"), hb_db_outcome_name(r->verdict));
 	}
 	printf("\nper lot (L0; Cp/Cpk against nominal +- tolerance, ISO 22514-2 with the sample s):\n");
 	printf("%-14s %5s %5s %5s %-11s %-10s %-11s %-11s %6s %6s  %s\n", "lot", "units", "pass", "fail", "mean", "s", "min",
@@ -289,8 +266,9 @@ static void print_history_text(const hb_db_part *part, const hb_db_history_row *
 	for (size_t k = 0; k < s->n_lots; k++) {
 		const hb_history_lot *l = &s->lots[k];
 		printf("%-14s %5zu %5zu %5zu %-11s %-10s %-11s %-11s", l->lot_code[0] ? l->lot_code : "(no lot)", l->n_units,
-		       l->n_pass, l->n_fail, si(a, sizeof a, l->l0.mean, "H"), si(b, sizeof b, l->l0.stddev, "H"),
-		       si(c, sizeof c, l->l0.min, "H"), si(d, sizeof d, l->l0.max, "H"));
+		       l->n_pass, l->n_fail, hb_si_or_dash(a, sizeof a, l->l0.mean, "H"),
+		       hb_si_or_dash(b, sizeof b, l->l0.stddev, "H"), hb_si_or_dash(c, sizeof c, l->l0.min, "H"),
+		       hb_si_or_dash(d, sizeof d, l->l0.max, "H"));
 		if (isfinite(l->cp))
 			printf(" %6.2f", l->cp);
 		else
@@ -312,14 +290,14 @@ static void print_history_text(const hb_db_part *part, const hb_db_history_row *
 		const hb_history_lot *l = &s->lots[k];
 		if (!l->lot_code[0] || l->l0.n == 0)
 			continue;
-		printf("%-14s %-11s ", l->lot_code, si(a, sizeof a, l->l0.mean, "H"));
+		printf("%-14s %-11s ", l->lot_code, hb_si_or_dash(a, sizeof a, l->l0.mean, "H"));
 		if (isfinite(l->l0_change_h))
-			printf("%-10s %+7.2f%%", si(b, sizeof b, l->l0_change_h, "H"), l->l0_change_rel * 100);
+			printf("%-10s %+7.2f%%", hb_si_or_dash(b, sizeof b, l->l0_change_h, "H"), l->l0_change_rel * 100);
 		else
 			printf("%-10s %8s", "(first)", "");
-		printf("  %-10s ", si(e, sizeof e, l->isat.mean, "A"));
+		printf("  %-10s ", hb_si_or_dash(e, sizeof e, l->isat.mean, "A"));
 		if (isfinite(l->isat_change_a))
-			printf("%-10s %+7.2f%%", si(c, sizeof c, l->isat_change_a, "A"), l->isat_change_rel * 100);
+			printf("%-10s %+7.2f%%", hb_si_or_dash(c, sizeof c, l->isat_change_a, "A"), l->isat_change_rel * 100);
 		else
 			printf("%-10s %8s", "-", "");
 		printf("%s%s\n", l->l0_shift ? "  L0 SHIFT" : "", l->isat_shift ? "  Isat SHIFT" : "");
@@ -340,10 +318,10 @@ static json_t *stats_json(const hb_stats *st)
 {
 	json_t *o = json_object();
 	json_object_set_new(o, "n", json_integer((json_int_t)st->n));
-	json_object_set_new(o, "mean", jnum(st->mean));
-	json_object_set_new(o, "stddev", jnum(st->stddev));
-	json_object_set_new(o, "min", jnum(st->min));
-	json_object_set_new(o, "max", jnum(st->max));
+	json_object_set_new(o, "mean", hb_json_num(st->mean));
+	json_object_set_new(o, "stddev", hb_json_num(st->stddev));
+	json_object_set_new(o, "min", hb_json_num(st->min));
+	json_object_set_new(o, "max", hb_json_num(st->max));
 	return o;
 }
 
@@ -352,8 +330,8 @@ static json_t *history_json(const hb_db_part *part, const hb_db_history_row *row
 {
 	json_t *j = json_object();
 	json_object_set_new(j, "part", json_string(part->part_number));
-	json_object_set_new(j, "nominal_H", jnum(part->nominal_h));
-	json_object_set_new(j, "tolerance", jnum(part->tolerance));
+	json_object_set_new(j, "nominal_H", hb_json_num(part->nominal_h));
+	json_object_set_new(j, "tolerance", hb_json_num(part->tolerance));
 	json_t *units = json_array();
 	for (size_t i = 0; i < n; i++) {
 		const hb_db_history_row *r = &rows[i];
@@ -363,16 +341,16 @@ static json_t *history_json(const hb_db_part *part, const hb_db_history_row *row
 		json_object_set_new(u, "lot", r->lot_code[0] ? json_string(r->lot_code) : json_null());
 		json_object_set_new(u, "serial", json_string(r->serial));
 		json_object_set_new(u, "sweep_id", json_integer(r->sweep_id));
-		json_object_set_new(u, "L0_H", jnum(r->l0_h));
+		json_object_set_new(u, "L0_H", hb_json_num(r->l0_h));
 		json_t *drops = json_object();
 		for (int k = 0; k < HB_DB_HISTORY_DROPS; k++) {
 			char key[16];
 			snprintf(key, sizeof key, "%d", f->drop_percent[k]);
-			json_object_set_new(drops, key, jnum(r->i_drop_a[k]));
+			json_object_set_new(drops, key, hb_json_num(r->i_drop_a[k]));
 		}
 		json_object_set_new(u, "I_drop_A", drops);
-		json_object_set_new(u, "mu_e", jnum(r->mu_e));
-		json_object_set_new(u, "gap_m", jnum(r->gap_m));
+		json_object_set_new(u, "mu_e", hb_json_num(r->mu_e));
+		json_object_set_new(u, "gap_m", hb_json_num(r->gap_m));
 		json_object_set_new(u, "verdict", json_string(hb_db_outcome_name(r->verdict)));
 		json_array_append_new(units, u);
 	}
@@ -389,13 +367,13 @@ static json_t *history_json(const hb_db_part *part, const hb_db_history_row *row
 		json_object_set_new(o, "first_measured", json_string(l->first_iso));
 		json_object_set_new(o, "last_measured", json_string(l->last_iso));
 		json_object_set_new(o, "L0_H", stats_json(&l->l0));
-		json_object_set_new(o, "Cp", jnum(l->cp));
-		json_object_set_new(o, "Cpk", jnum(l->cpk));
+		json_object_set_new(o, "Cp", hb_json_num(l->cp));
+		json_object_set_new(o, "Cpk", hb_json_num(l->cpk));
 		json_object_set_new(o, "I_sat_A", stats_json(&l->isat));
-		json_object_set_new(o, "L0_change_H", jnum(l->l0_change_h));
-		json_object_set_new(o, "L0_change_rel", jnum(l->l0_change_rel));
-		json_object_set_new(o, "I_sat_change_A", jnum(l->isat_change_a));
-		json_object_set_new(o, "I_sat_change_rel", jnum(l->isat_change_rel));
+		json_object_set_new(o, "L0_change_H", hb_json_num(l->l0_change_h));
+		json_object_set_new(o, "L0_change_rel", hb_json_num(l->l0_change_rel));
+		json_object_set_new(o, "I_sat_change_A", hb_json_num(l->isat_change_a));
+		json_object_set_new(o, "I_sat_change_rel", hb_json_num(l->isat_change_rel));
 		json_object_set_new(o, "L0_shift", json_boolean(l->l0_shift));
 		json_object_set_new(o, "I_sat_shift", json_boolean(l->isat_shift));
 		json_array_append_new(lots, o);
@@ -512,7 +490,7 @@ int hb_cmd_history(int argc, char **argv)
 		goto out;
 	}
 	if (json) {
-		if (print_json_value(history_json(&part, rows, n, &f, &sum)) != HB_OK) {
+		if (hb_print_json(history_json(&part, rows, n, &f, &sum)) != HB_OK) {
 			hb_cli_error("history: cannot write the JSON output");
 			goto out;
 		}
@@ -704,20 +682,20 @@ json_t *hb_compare_json(const hb_compare_table *t)
 		json_object_set_new(o, "lot", c->lot_code[0] ? json_string(c->lot_code) : json_null());
 		json_object_set_new(o, "started", json_string(c->started_iso));
 		json_object_set_new(o, "status", json_string(c->status));
-		json_object_set_new(o, "L0_H", jnum(c->l0_h));
+		json_object_set_new(o, "L0_H", hb_json_num(c->l0_h));
 		json_t *drops = json_object();
 		for (int k = 0; k < HB_DB_HISTORY_DROPS; k++) {
 			char key[16];
 			snprintf(key, sizeof key, "%d", t->drop_percent[k]);
-			json_object_set_new(drops, key, jnum(c->i_drop_a[k]));
+			json_object_set_new(drops, key, hb_json_num(c->i_drop_a[k]));
 		}
 		json_object_set_new(o, "I_drop_A", drops);
-		json_object_set_new(o, "mu_e", jnum(c->mu_e));
-		json_object_set_new(o, "gap_m", jnum(c->gap_m));
+		json_object_set_new(o, "mu_e", hb_json_num(c->mu_e));
+		json_object_set_new(o, "gap_m", hb_json_num(c->gap_m));
 		json_object_set_new(o, "verdict", json_string(hb_db_outcome_name(c->verdict)));
 		json_t *l = json_array();
 		for (size_t k = 0; k < t->n_currents; k++)
-			json_array_append_new(l, jnum(c->l_at[k]));
+			json_array_append_new(l, hb_json_num(c->l_at[k]));
 		json_object_set_new(o, "L_at_H", l);
 		json_array_append_new(arr, o);
 	}
@@ -745,13 +723,13 @@ static void print_compare_text(const hb_compare_table *t)
 		printf(" %13.10s", t->cols[i].started_iso);
 	printf("\n%-18s", "L0");
 	for (size_t i = 0; i < t->n; i++)
-		printf(" %13s", si(buf, sizeof buf, t->cols[i].l0_h, "H"));
+		printf(" %13s", hb_si_or_dash(buf, sizeof buf, t->cols[i].l0_h, "H"));
 	for (int k = 0; k < HB_DB_HISTORY_DROPS; k++) {
 		char label[32];
 		snprintf(label, sizeof label, "I at -%d %% L", t->drop_percent[k]);
 		printf("\n%-18s", label);
 		for (size_t i = 0; i < t->n; i++)
-			printf(" %13s", si(buf, sizeof buf, t->cols[i].i_drop_a[k], "A"));
+			printf(" %13s", hb_si_or_dash(buf, sizeof buf, t->cols[i].i_drop_a[k], "A"));
 	}
 	printf("\n%-18s", "mu_e");
 	for (size_t i = 0; i < t->n; i++)
@@ -761,7 +739,7 @@ static void print_compare_text(const hb_compare_table *t)
 			printf(" %13s", "-");
 	printf("\n%-18s", "gap");
 	for (size_t i = 0; i < t->n; i++)
-		printf(" %13s", si(buf, sizeof buf, t->cols[i].gap_m, "m"));
+		printf(" %13s", hb_si_or_dash(buf, sizeof buf, t->cols[i].gap_m, "m"));
 	printf("\n%-18s", "verdict");
 	for (size_t i = 0; i < t->n; i++)
 		printf(" %13s", hb_db_outcome_name(t->cols[i].verdict));
@@ -775,7 +753,7 @@ static void print_compare_text(const hb_compare_table *t)
 		snprintf(label, sizeof label, "L at %.3g A", t->currents[k]);
 		printf("%-18s", label);
 		for (size_t i = 0; i < t->n; i++)
-			printf(" %13s", si(buf, sizeof buf, t->cols[i].l_at[k], "H"));
+			printf(" %13s", hb_si_or_dash(buf, sizeof buf, t->cols[i].l_at[k], "H"));
 		printf("\n");
 	}
 }
@@ -866,7 +844,7 @@ int hb_cmd_compare(int argc, char **argv)
 		goto out;
 	}
 	if (json) {
-		if (print_json_value(hb_compare_json(&t)) != HB_OK) {
+		if (hb_print_json(hb_compare_json(&t)) != HB_OK) {
 			hb_cli_error("compare: cannot write the JSON output");
 			goto out;
 		}

@@ -13,6 +13,7 @@
 #include "cli.h"
 #include "inspect.h"
 #include "session.h"
+#include "sweep_opts.h"
 
 static void inspect_usage(FILE *out)
 {
@@ -54,9 +55,8 @@ static void inspect_usage(FILE *out)
 
 enum {
 	OPT_PART = 256, OPT_LOT, OPT_LOT_SIZE, OPT_AQL, OPT_LCR, OPT_SUPPLY, OPT_LEVEL, OPT_SEVERITY, OPT_SERIALS,
-	OPT_FIRST_SERIAL, OPT_AUTO, OPT_FROM, OPT_TO, OPT_STEPS, OPT_SPACING, OPT_FREQ, OPT_TEST_LEVEL, OPT_AVG,
-	OPT_APERTURE, OPT_SETTLE, OPT_SETTLE_TIMEOUT, OPT_MAX_CURRENT, OPT_MAX_VOLTAGE, OPT_MAX_POWER, OPT_RAMP,
-	OPT_AMBIENT, OPT_YES, OPT_SHOW_FIT, OPT_JSON, OPT_HELP
+	OPT_FIRST_SERIAL, OPT_AUTO, OPT_FROM, OPT_TO, OPT_SPACING, OPT_TEST_LEVEL, OPT_YES, OPT_SHOW_FIT, OPT_JSON,
+	OPT_HELP
 };
 
 static const struct option long_options[] = {
@@ -73,23 +73,13 @@ static const struct option long_options[] = {
 	{ "auto", no_argument, NULL, OPT_AUTO },
 	{ "from", required_argument, NULL, OPT_FROM },
 	{ "to", required_argument, NULL, OPT_TO },
-	{ "steps", required_argument, NULL, OPT_STEPS },
 	{ "spacing", required_argument, NULL, OPT_SPACING },
-	{ "freq", required_argument, NULL, OPT_FREQ },
 	{ "test-level", required_argument, NULL, OPT_TEST_LEVEL },
-	{ "avg", required_argument, NULL, OPT_AVG },
-	{ "aperture", required_argument, NULL, OPT_APERTURE },
-	{ "settle", required_argument, NULL, OPT_SETTLE },
-	{ "settle-timeout", required_argument, NULL, OPT_SETTLE_TIMEOUT },
-	{ "max-current", required_argument, NULL, OPT_MAX_CURRENT },
-	{ "max-voltage", required_argument, NULL, OPT_MAX_VOLTAGE },
-	{ "max-power", required_argument, NULL, OPT_MAX_POWER },
-	{ "ramp", required_argument, NULL, OPT_RAMP },
-	{ "ambient", required_argument, NULL, OPT_AMBIENT },
 	{ "yes", no_argument, NULL, OPT_YES },
 	{ "show-fit", no_argument, NULL, OPT_SHOW_FIT },
 	{ "json", no_argument, NULL, OPT_JSON },
 	{ "help", no_argument, NULL, OPT_HELP },
+	HB_SWEEP_LONG_OPTIONS,
 	{ NULL, 0, NULL, 0 },
 };
 
@@ -100,8 +90,8 @@ typedef struct inspect_args {
 	hb_insp_level level;
 	hb_severity severity;
 	hb_sweep_plan plan;
-	bool to_given, freq_given, level_given;
-	double cli_max_current, cli_max_voltage, cli_max_power, cli_ramp, ambient_c;
+	hb_sweep_opts opts;
+	bool to_given;
 	bool autorun, yes, json, show_fit;
 } inspect_args;
 
@@ -143,13 +133,12 @@ static int parse_args(int argc, char **argv, inspect_args *a)
 	a->lot_size = -1;
 	a->level = HB_LEVEL_II;
 	a->severity = HB_SEVERITY_NORMAL;
-	a->cli_max_current = a->cli_max_voltage = a->cli_max_power = a->cli_ramp = a->ambient_c = NAN;
+	hb_sweep_opts_init(&a->opts);
 	hb_sweep_plan *p = &a->plan;
 	char series[200];
 	optind = 1;
 	opterr = 0;
 	int c;
-	long n;
 	while ((c = getopt_long(argc, argv, "h", long_options, NULL)) != -1) {
 		int rc = HB_OK;
 		switch (c) {
@@ -186,10 +175,6 @@ static int parse_args(int argc, char **argv, inspect_args *a)
 			rc = hb_opt_value("--to", optarg, "A", 1e-6, 1000, &p->to);
 			a->to_given = true;
 			break;
-		case OPT_STEPS:
-			rc = hb_opt_int("--steps", optarg, 2, 10000, &n);
-			p->steps = (int)n;
-			break;
 		case OPT_SPACING:
 			if (strcmp(optarg, "lin") == 0)
 				p->spacing = HB_SPACING_LIN;
@@ -200,46 +185,10 @@ static int parse_args(int argc, char **argv, inspect_args *a)
 				rc = HB_ERR_ARG;
 			}
 			break;
-		case OPT_FREQ:
-			rc = hb_opt_value("--freq", optarg, "Hz", 1, 1e9, &p->frequency);
-			a->freq_given = true;
-			break;
 		case OPT_TEST_LEVEL:
 			rc = parse_test_level(optarg, p);
-			a->level_given = true;
+			a->opts.level_given = true;
 			break;
-		case OPT_AVG:
-			rc = hb_opt_int("--avg", optarg, 1, 256, &n);
-			p->averaging = (int)n;
-			break;
-		case OPT_APERTURE:
-			if (strcmp(optarg, "short") == 0)
-				p->aperture = HB_APERTURE_SHORT;
-			else if (strcmp(optarg, "medium") == 0)
-				p->aperture = HB_APERTURE_MEDIUM;
-			else if (strcmp(optarg, "long") == 0)
-				p->aperture = HB_APERTURE_LONG;
-			else {
-				hb_cli_error("--aperture '%s': accepted short, medium or long", optarg);
-				rc = HB_ERR_ARG;
-			}
-			break;
-		case OPT_SETTLE:
-			if (strcmp(optarg, "auto") == 0) {
-				p->settle = HB_SETTLE_AUTO;
-			} else {
-				p->settle = HB_SETTLE_FIXED;
-				rc = hb_opt_value("--settle", optarg, "s", 0, 3600, &p->settle_time);
-			}
-			break;
-		case OPT_SETTLE_TIMEOUT:
-			rc = hb_opt_value("--settle-timeout", optarg, "s", 0.01, 3600, &p->settle_timeout);
-			break;
-		case OPT_MAX_CURRENT: rc = hb_opt_value("--max-current", optarg, "A", 1e-6, 1000, &a->cli_max_current); break;
-		case OPT_MAX_VOLTAGE: rc = hb_opt_value("--max-voltage", optarg, "V", 1e-3, 1000, &a->cli_max_voltage); break;
-		case OPT_MAX_POWER: rc = hb_opt_value("--max-power", optarg, "W", 1e-3, 100000, &a->cli_max_power); break;
-		case OPT_RAMP: rc = hb_opt_value("--ramp", optarg, "A/s", 1e-3, 1000, &a->cli_ramp); break;
-		case OPT_AMBIENT: rc = hb_opt_value("--ambient", optarg, "", -60, 200, &a->ambient_c); break;
 		case OPT_YES: a->yes = true; break;
 		case OPT_SHOW_FIT: a->show_fit = true; break;
 		case OPT_JSON: a->json = true; break;
@@ -248,6 +197,8 @@ static int parse_args(int argc, char **argv, inspect_args *a)
 			inspect_usage(stdout);
 			return 1;
 		default:
+			if (hb_sweep_opts_parse(c, optarg, p, &a->opts, &rc))
+				break;
 			hb_cli_error("inspect: unknown or incomplete option '%s' (try --help)", argv[optind - 1]);
 			return HB_ERR_ARG;
 		}
@@ -431,32 +382,6 @@ static hb_inspect_action sweep_failed(void *ctx, int sequence, const char *seria
 	}
 }
 
-static double min_defined(double a, double b)
-{
-	if (isnan(a))
-		return b;
-	if (isnan(b))
-		return a;
-	return a < b ? a : b;
-}
-
-/* The strictest of the command line, the station file and the part's
- * ratings, as for the sweep command. */
-static void resolve_limits(inspect_args *a, const hb_station *st, const hb_db_part *part)
-{
-	hb_sweep_limits *lim = &a->plan.limits;
-	double rating = fmax(isnan(part->rated_current_a) ? 0 : part->rated_current_a,
-			     isnan(part->sat_current_a) ? 0 : part->sat_current_a);
-	double part_limit = rating > 0 ? rating * st->part_overdrive : NAN;
-	lim->max_current = min_defined(min_defined(a->cli_max_current, st->max_current), part_limit);
-	lim->max_voltage = min_defined(a->cli_max_voltage, st->max_voltage);
-	lim->max_power = min_defined(a->cli_max_power, st->max_power);
-	if (!isnan(a->cli_ramp))
-		lim->ramp_rate = a->cli_ramp;
-	else if (!isnan(st->ramp_rate))
-		lim->ramp_rate = st->ramp_rate;
-}
-
 static int confirm(const inspect_args *a, const hb_station *st, const unit_source *src)
 {
 	if (a->yes || isnan(st->confirm_above) || a->plan.to <= st->confirm_above)
@@ -507,30 +432,16 @@ int hb_cmd_inspect(int argc, char **argv)
 		exit_code = HB_EXIT_USAGE;
 		goto out;
 	}
-	rc = hb_db_open(hb_global.db_path, &db);
-	if (rc != HB_OK) {
-		hb_cli_error("store: %s", db ? hb_db_errmsg(db) : "out of memory");
-		goto out;
-	}
 	hb_db_part part;
-	rc = hb_db_part_get(db, a.part, &part);
-	if (rc == HB_ERR_NOTFOUND) {
-		hb_cli_error("no part '%s' in %s: add it with 'henrybench part add %s ...'", a.part, hb_db_path(db), a.part);
-		exit_code = HB_EXIT_USAGE;
-		goto out;
-	} else if (rc != HB_OK) {
-		hb_cli_error("store: %s", hb_db_errmsg(db));
+	rc = hb_sweep_opts_open_part(a.part, &db, &part);
+	if (rc != HB_EXIT_OK) {
+		exit_code = rc;
 		goto out;
 	}
 	/* Judging needs the spec's own test conditions, and a sweep a little
 	 * past the saturation-spec current so L there is interpolated, not
 	 * extrapolated. */
-	if (!a.freq_given && isfinite(part.test_freq_hz))
-		a.plan.frequency = part.test_freq_hz;
-	if (!a.level_given && isfinite(part.test_level) && part.test_level > 0) {
-		a.plan.level = part.test_level;
-		a.plan.level_kind = part.test_level_kind == HB_DB_LEVEL_CURRENT ? HB_LEVEL_CURRENT : HB_LEVEL_VOLTAGE;
-	}
+	hb_sweep_opts_apply(&a.opts, &station, &part, &a.plan);
 	if (!a.to_given) {
 		double spec = isfinite(part.sat_current_a) && part.sat_current_a > 0 ? part.sat_current_a :
 			      isfinite(part.rated_current_a) && part.rated_current_a > 0 ? part.rated_current_a : NAN;
@@ -541,7 +452,6 @@ int hb_cmd_inspect(int argc, char **argv)
 		}
 		a.plan.to = 1.25 * spec;
 	}
-	resolve_limits(&a, &station, &part);
 	rc = hb_sweep_plan_check(&a.plan, true, err, sizeof err);
 	if (rc != HB_OK) {
 		hb_cli_error("refusing to start: %s", err);
@@ -588,7 +498,7 @@ int hb_cmd_inspect(int argc, char **argv)
 	cfg.level = a.level;
 	cfg.severity = a.severity;
 	cfg.plan = a.plan;
-	cfg.ambient_c = a.ambient_c;
+	cfg.ambient_c = a.opts.ambient_c;
 	cfg.out = info;
 	cfg.progress = info;
 	cfg.progress_tty = isatty(fileno(info));

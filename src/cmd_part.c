@@ -300,17 +300,6 @@ static void merge(hb_db_part *dst, const part_edit *e)
 		dst->bsat_t = s->bsat_t;
 }
 
-static hb_db *open_store(void)
-{
-	hb_db *db = NULL;
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
-		hb_cli_error("%s", hb_db_errmsg(db));
-		hb_db_close(db);
-		return NULL;
-	}
-	return db;
-}
-
 static int part_write(int argc, char **argv, bool add)
 {
 	part_edit e;
@@ -341,7 +330,7 @@ static int part_write(int argc, char **argv, bool add)
 	if (e.core && toroid_effective(&e.p) != HB_OK)
 		return HB_EXIT_USAGE;
 
-	hb_db *db = open_store();
+	hb_db *db = hb_cli_open_store();
 	if (!db)
 		return HB_EXIT_RUNTIME;
 	hb_db_part stored;
@@ -372,61 +361,40 @@ out:
 	return exit_code;
 }
 
-static json_t *num_or_null(double v)
-{
-	return isnan(v) ? json_null() : json_real(v);
-}
-
 static json_t *part_json(const hb_db_part *p)
 {
 	json_t *o = json_object();
 	json_object_set_new(o, "part_number", json_string(p->part_number));
 	json_object_set_new(o, "description", json_string(p->description));
 	json_object_set_new(o, "maker", json_string(p->maker));
-	json_object_set_new(o, "nominal_H", num_or_null(p->nominal_h));
-	json_object_set_new(o, "tolerance", num_or_null(p->tolerance));
-	json_object_set_new(o, "test_frequency_Hz", num_or_null(p->test_freq_hz));
-	json_object_set_new(o, "test_level", num_or_null(p->test_level));
+	json_object_set_new(o, "nominal_H", hb_json_num(p->nominal_h));
+	json_object_set_new(o, "tolerance", hb_json_num(p->tolerance));
+	json_object_set_new(o, "test_frequency_Hz", hb_json_num(p->test_freq_hz));
+	json_object_set_new(o, "test_level", hb_json_num(p->test_level));
 	json_object_set_new(o, "test_level_unit",
 			    json_string(p->test_level_kind == HB_DB_LEVEL_CURRENT ? "A" : "V"));
-	json_object_set_new(o, "sat_current_A", num_or_null(p->sat_current_a));
-	json_object_set_new(o, "sat_drop", num_or_null(p->sat_drop));
-	json_object_set_new(o, "rated_current_A", num_or_null(p->rated_current_a));
-	json_object_set_new(o, "dcr_max_ohm", num_or_null(p->dcr_max_ohm));
+	json_object_set_new(o, "sat_current_A", hb_json_num(p->sat_current_a));
+	json_object_set_new(o, "sat_drop", hb_json_num(p->sat_drop));
+	json_object_set_new(o, "rated_current_A", hb_json_num(p->rated_current_a));
+	json_object_set_new(o, "dcr_max_ohm", hb_json_num(p->dcr_max_ohm));
 	json_object_set_new(o, "turns", p->turns > 0 ? json_integer(p->turns) : json_null());
-	json_object_set_new(o, "ae_m2", num_or_null(p->ae_m2));
-	json_object_set_new(o, "le_m", num_or_null(p->le_m));
-	json_object_set_new(o, "window_m", num_or_null(p->window_m));
+	json_object_set_new(o, "ae_m2", hb_json_num(p->ae_m2));
+	json_object_set_new(o, "le_m", hb_json_num(p->le_m));
+	json_object_set_new(o, "window_m", hb_json_num(p->window_m));
 	if (isnan(p->toroid_od_m)) {
 		json_object_set_new(o, "toroid", json_null());
 	} else {
 		json_t *t = json_object();
 		json_object_set_new(t, "od_m", json_real(p->toroid_od_m));
 		json_object_set_new(t, "id_m", json_real(p->toroid_id_m));
-		json_object_set_new(t, "h_m", num_or_null(p->toroid_h_m));
+		json_object_set_new(t, "h_m", hb_json_num(p->toroid_h_m));
 		json_object_set_new(o, "toroid", t);
 	}
-	json_object_set_new(o, "mu_i", num_or_null(p->mu_i));
-	json_object_set_new(o, "bsat_T", num_or_null(p->bsat_t));
+	json_object_set_new(o, "mu_i", hb_json_num(p->mu_i));
+	json_object_set_new(o, "bsat_T", hb_json_num(p->bsat_t));
 	json_object_set_new(o, "created", json_string(p->created));
 	json_object_set_new(o, "updated", json_string(p->updated));
 	return o;
-}
-
-static int print_json(json_t *root)
-{
-	int rc = json_dumpf(root, stdout, JSON_INDENT(2) | JSON_REAL_PRECISION(10)) == 0 ? HB_EXIT_OK
-											  : HB_EXIT_RUNTIME;
-	putchar('\n');
-	json_decref(root);
-	return rc;
-}
-
-static const char *si(char *buf, size_t cap, double v, const char *unit)
-{
-	if (isnan(v))
-		return "-";
-	return hb_format_si(buf, cap, v, unit, 4);
 }
 
 static const char *pct(char *buf, size_t cap, double v)
@@ -450,7 +418,7 @@ static int part_list(int argc, char **argv)
 		hb_cli_error("part list takes no PARTNO (use 'henrybench part show PARTNO')");
 		return HB_EXIT_USAGE;
 	}
-	hb_db *db = open_store();
+	hb_db *db = hb_cli_open_store();
 	if (!db)
 		return HB_EXIT_RUNTIME;
 	hb_db_part *parts = NULL;
@@ -466,14 +434,14 @@ static int part_list(int argc, char **argv)
 		for (size_t i = 0; i < n; i++)
 			json_array_append_new(arr, part_json(&parts[i]));
 		hb_db_parts_free(parts);
-		return print_json(arr);
+		return hb_print_json(arr) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	}
 	printf("%-24s %-12s %-8s %-12s %-16s %s\n", "part", "nominal", "tol", "test freq", "maker", "description");
 	for (size_t i = 0; i < n; i++) {
 		const hb_db_part *p = &parts[i];
 		char a[32], b[32], c[32];
-		printf("%-24s %-12s %-8s %-12s %-16s %s\n", p->part_number, si(a, sizeof a, p->nominal_h, "H"),
-		       pct(b, sizeof b, p->tolerance), si(c, sizeof c, p->test_freq_hz, "Hz"), p->maker,
+		printf("%-24s %-12s %-8s %-12s %-16s %s\n", p->part_number, hb_si_or_dash(a, sizeof a, p->nominal_h, "H"),
+		       pct(b, sizeof b, p->tolerance), hb_si_or_dash(c, sizeof c, p->test_freq_hz, "Hz"), p->maker,
 		       p->description);
 	}
 	hb_db_parts_free(parts);
@@ -498,7 +466,7 @@ static int part_show(int argc, char **argv)
 		hb_cli_error("part show needs exactly one PARTNO");
 		return HB_EXIT_USAGE;
 	}
-	hb_db *db = open_store();
+	hb_db *db = hb_cli_open_store();
 	if (!db)
 		return HB_EXIT_RUNTIME;
 	hb_db_part p;
@@ -509,24 +477,25 @@ static int part_show(int argc, char **argv)
 	}
 	hb_db_close(db);
 	if (e.json)
-		return print_json(part_json(&p));
+		return hb_print_json(part_json(&p)) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	char a[64], b[64], c[160];
 	printf("part %s\n", p.part_number);
 	show_line("description", p.description[0] ? p.description : "-");
 	show_line("maker", p.maker[0] ? p.maker : "-");
-	show_line("nominal", si(a, sizeof a, p.nominal_h, "H"));
+	show_line("nominal", hb_si_or_dash(a, sizeof a, p.nominal_h, "H"));
 	show_line("tolerance", pct(a, sizeof a, p.tolerance));
-	show_line("test frequency", si(a, sizeof a, p.test_freq_hz, "Hz"));
-	show_line("test level", si(a, sizeof a, p.test_level, p.test_level_kind == HB_DB_LEVEL_CURRENT ? "A" : "V"));
+	show_line("test frequency", hb_si_or_dash(a, sizeof a, p.test_freq_hz, "Hz"));
+	show_line("test level",
+		  hb_si_or_dash(a, sizeof a, p.test_level, p.test_level_kind == HB_DB_LEVEL_CURRENT ? "A" : "V"));
 	if (!isnan(p.sat_current_a)) {
 		snprintf(c, sizeof c, "L drop <= %s at %s", pct(a, sizeof a, p.sat_drop),
-			 si(b, sizeof b, p.sat_current_a, "A"));
+			 hb_si_or_dash(b, sizeof b, p.sat_current_a, "A"));
 		show_line("saturation", c);
 	} else {
 		show_line("saturation", "-");
 	}
-	show_line("rated current", si(a, sizeof a, p.rated_current_a, "A"));
-	show_line("DCR max", si(a, sizeof a, p.dcr_max_ohm, "ohm"));
+	show_line("rated current", hb_si_or_dash(a, sizeof a, p.rated_current_a, "A"));
+	show_line("DCR max", hb_si_or_dash(a, sizeof a, p.dcr_max_ohm, "ohm"));
 	snprintf(a, sizeof a, "%d", p.turns);
 	show_line("turns", p.turns > 0 ? a : "-");
 	if (!isnan(p.toroid_od_m)) {
@@ -540,15 +509,15 @@ static int part_show(int argc, char **argv)
 		snprintf(a, sizeof a, "%.4g mm2", p.ae_m2 * 1e6);
 		show_line("Ae", a);
 	}
-	show_line("le", si(a, sizeof a, p.le_m, "m"));
-	show_line("window height", si(a, sizeof a, p.window_m, "m"));
+	show_line("le", hb_si_or_dash(a, sizeof a, p.le_m, "m"));
+	show_line("window height", hb_si_or_dash(a, sizeof a, p.window_m, "m"));
 	if (isnan(p.mu_i))
 		show_line("mu_i", "-");
 	else {
 		snprintf(a, sizeof a, "%g", p.mu_i);
 		show_line("mu_i", a);
 	}
-	show_line("Bsat", si(a, sizeof a, p.bsat_t, "T"));
+	show_line("Bsat", hb_si_or_dash(a, sizeof a, p.bsat_t, "T"));
 	show_line("created", p.created);
 	show_line("updated", p.updated);
 	return HB_EXIT_OK;

@@ -12,14 +12,14 @@
 #include "analysis.h"
 #include "cli.h"
 #include "session.h"
+#include "sweep_opts.h"
 
 typedef struct sweep_args {
 	const char *part, *unit, *lcr, *supply, *note, *lot;
 	hb_sweep_plan plan;
-	bool from_given, freq_given, level_given, steps_given, step_given;
+	hb_sweep_opts opts;
+	bool from_given, step_given;
 	double step;
-	double cli_max_current, cli_max_voltage, cli_max_power, cli_ramp;
-	double ambient_c;
 	bool yes, dry_run, json, no_fit, dcr_meter;
 } sweep_args;
 
@@ -69,10 +69,9 @@ static void fsweep_usage(FILE *out)
 }
 
 enum {
-	OPT_PART = 256, OPT_UNIT, OPT_LCR, OPT_SUPPLY, OPT_FROM, OPT_TO, OPT_STEPS, OPT_STEP, OPT_SPACING,
-	OPT_FREQ, OPT_LEVEL, OPT_CIRCUIT, OPT_PAIR, OPT_AVG, OPT_APERTURE, OPT_SETTLE, OPT_SETTLE_TIMEOUT,
-	OPT_RETURN, OPT_STOP_BELOW, OPT_MAX_CURRENT, OPT_MAX_VOLTAGE, OPT_MAX_POWER, OPT_RAMP, OPT_NOTE,
-	OPT_YES, OPT_DRY_RUN, OPT_JSON, OPT_POINTS, OPT_BIAS, OPT_LOT, OPT_AMBIENT, OPT_NO_FIT, OPT_DCR_METER, OPT_HELP
+	OPT_PART = 256, OPT_UNIT, OPT_LCR, OPT_SUPPLY, OPT_FROM, OPT_TO, OPT_STEP, OPT_SPACING, OPT_LEVEL,
+	OPT_CIRCUIT, OPT_PAIR, OPT_RETURN, OPT_STOP_BELOW, OPT_NOTE, OPT_YES, OPT_DRY_RUN, OPT_JSON, OPT_POINTS,
+	OPT_BIAS, OPT_LOT, OPT_NO_FIT, OPT_DCR_METER, OPT_HELP
 };
 
 static const struct option long_options[] = {
@@ -82,27 +81,16 @@ static const struct option long_options[] = {
 	{ "supply", required_argument, NULL, OPT_SUPPLY },
 	{ "from", required_argument, NULL, OPT_FROM },
 	{ "to", required_argument, NULL, OPT_TO },
-	{ "steps", required_argument, NULL, OPT_STEPS },
 	{ "step", required_argument, NULL, OPT_STEP },
 	{ "points", required_argument, NULL, OPT_POINTS },
 	{ "spacing", required_argument, NULL, OPT_SPACING },
-	{ "freq", required_argument, NULL, OPT_FREQ },
 	{ "level", required_argument, NULL, OPT_LEVEL },
 	{ "circuit", required_argument, NULL, OPT_CIRCUIT },
 	{ "pair", required_argument, NULL, OPT_PAIR },
-	{ "avg", required_argument, NULL, OPT_AVG },
-	{ "aperture", required_argument, NULL, OPT_APERTURE },
-	{ "settle", required_argument, NULL, OPT_SETTLE },
-	{ "settle-timeout", required_argument, NULL, OPT_SETTLE_TIMEOUT },
 	{ "return", no_argument, NULL, OPT_RETURN },
 	{ "stop-below", required_argument, NULL, OPT_STOP_BELOW },
-	{ "max-current", required_argument, NULL, OPT_MAX_CURRENT },
-	{ "max-voltage", required_argument, NULL, OPT_MAX_VOLTAGE },
-	{ "max-power", required_argument, NULL, OPT_MAX_POWER },
-	{ "ramp", required_argument, NULL, OPT_RAMP },
 	{ "bias", required_argument, NULL, OPT_BIAS },
 	{ "lot", required_argument, NULL, OPT_LOT },
-	{ "ambient", required_argument, NULL, OPT_AMBIENT },
 	{ "note", required_argument, NULL, OPT_NOTE },
 	{ "yes", no_argument, NULL, OPT_YES },
 	{ "dry-run", no_argument, NULL, OPT_DRY_RUN },
@@ -110,6 +98,7 @@ static const struct option long_options[] = {
 	{ "dcr-meter", no_argument, NULL, OPT_DCR_METER },
 	{ "json", no_argument, NULL, OPT_JSON },
 	{ "help", no_argument, NULL, OPT_HELP },
+	HB_SWEEP_LONG_OPTIONS,
 	{ NULL, 0, NULL, 0 },
 };
 
@@ -144,8 +133,7 @@ static int parse_args(int argc, char **argv, bool fsweep, sweep_args *a)
 	memset(a, 0, sizeof *a);
 	hb_sweep_plan_defaults(&a->plan);
 	a->plan.kind = fsweep ? HB_SWEEP_FREQUENCY : HB_SWEEP_BIAS;
-	a->cli_max_current = a->cli_max_voltage = a->cli_max_power = a->cli_ramp = NAN;
-	a->ambient_c = NAN;
+	hb_sweep_opts_init(&a->opts);
 	hb_sweep_plan *p = &a->plan;
 	optind = 1;
 	opterr = 0;
@@ -173,11 +161,6 @@ static int parse_args(int argc, char **argv, bool fsweep, sweep_args *a)
 			else
 				rc = hb_opt_value("--to", optarg, "A", 1e-6, 1000, &p->to);
 			break;
-		case OPT_STEPS:
-			rc = hb_opt_int("--steps", optarg, 2, 10000, &n);
-			p->steps = (int)n;
-			a->steps_given = true;
-			break;
 		case OPT_POINTS:
 			rc = hb_opt_int("--points", optarg, 2, 10000, &n);
 			p->f_points = (int)n;
@@ -196,13 +179,9 @@ static int parse_args(int argc, char **argv, bool fsweep, sweep_args *a)
 				rc = HB_ERR_ARG;
 			}
 			break;
-		case OPT_FREQ:
-			rc = hb_opt_value("--freq", optarg, "Hz", 1, 1e9, &p->frequency);
-			a->freq_given = true;
-			break;
 		case OPT_LEVEL:
 			rc = parse_level(optarg, p);
-			a->level_given = true;
+			a->opts.level_given = true;
 			break;
 		case OPT_CIRCUIT:
 			if (strcmp(optarg, "series") == 0)
@@ -228,43 +207,11 @@ static int parse_args(int argc, char **argv, bool fsweep, sweep_args *a)
 				rc = HB_ERR_ARG;
 			}
 			break;
-		case OPT_AVG:
-			rc = hb_opt_int("--avg", optarg, 1, 256, &n);
-			p->averaging = (int)n;
-			break;
-		case OPT_APERTURE:
-			if (strcmp(optarg, "short") == 0)
-				p->aperture = HB_APERTURE_SHORT;
-			else if (strcmp(optarg, "medium") == 0)
-				p->aperture = HB_APERTURE_MEDIUM;
-			else if (strcmp(optarg, "long") == 0)
-				p->aperture = HB_APERTURE_LONG;
-			else {
-				hb_cli_error("--aperture '%s': accepted short, medium or long", optarg);
-				rc = HB_ERR_ARG;
-			}
-			break;
-		case OPT_SETTLE:
-			if (strcmp(optarg, "auto") == 0) {
-				p->settle = HB_SETTLE_AUTO;
-			} else {
-				p->settle = HB_SETTLE_FIXED;
-				rc = hb_opt_value("--settle", optarg, "s", 0, 3600, &p->settle_time);
-			}
-			break;
-		case OPT_SETTLE_TIMEOUT:
-			rc = hb_opt_value("--settle-timeout", optarg, "s", 0.01, 3600, &p->settle_timeout);
-			break;
 		case OPT_RETURN: p->return_down = true; break;
 		case OPT_STOP_BELOW:
 			rc = hb_opt_value("--stop-below", optarg, "%", 0.01, 0.99, &p->stop_below);
 			break;
-		case OPT_MAX_CURRENT: rc = hb_opt_value("--max-current", optarg, "A", 1e-6, 1000, &a->cli_max_current); break;
-		case OPT_MAX_VOLTAGE: rc = hb_opt_value("--max-voltage", optarg, "V", 1e-3, 1000, &a->cli_max_voltage); break;
-		case OPT_MAX_POWER: rc = hb_opt_value("--max-power", optarg, "W", 1e-3, 100000, &a->cli_max_power); break;
-		case OPT_RAMP: rc = hb_opt_value("--ramp", optarg, "A/s", 1e-3, 1000, &a->cli_ramp); break;
 		case OPT_BIAS: rc = hb_opt_value("--bias", optarg, "A", 0, 1000, &p->bias); break;
-		case OPT_AMBIENT: rc = hb_opt_value("--ambient", optarg, "", -60, 200, &a->ambient_c); break;
 		case OPT_YES: a->yes = true; break;
 		case OPT_DRY_RUN: a->dry_run = true; break;
 		case OPT_NO_FIT: a->no_fit = true; break;
@@ -275,6 +222,8 @@ static int parse_args(int argc, char **argv, bool fsweep, sweep_args *a)
 			(fsweep ? fsweep_usage : sweep_usage)(stdout);
 			return 1;
 		default:
+			if (hb_sweep_opts_parse(c, optarg, p, &a->opts, &rc))
+				break;
 			hb_cli_error("%s: unknown or incomplete option '%s' (try --help)", fsweep ? "fsweep" : "sweep",
 				     argv[optind - 1]);
 			return HB_ERR_ARG;
@@ -303,7 +252,7 @@ static int parse_args(int argc, char **argv, bool fsweep, sweep_args *a)
 		hb_cli_error("--bias %g A needs --supply RESOURCE", p->bias);
 		return HB_ERR_ARG;
 	}
-	if (a->steps_given && a->step_given) {
+	if (a->opts.steps_given && a->step_given) {
 		hb_cli_error("give --steps or --step, not both");
 		return HB_ERR_ARG;
 	}
@@ -318,34 +267,6 @@ static int parse_args(int argc, char **argv, bool fsweep, sweep_args *a)
 		p->to = p->from + k * a->step;
 	}
 	return HB_OK;
-}
-
-static double min_defined(double a, double b)
-{
-	if (isnan(a))
-		return b;
-	if (isnan(b))
-		return a;
-	return a < b ? a : b;
-}
-
-/* The limits in force: the strictest of the command line, the station file
- * and the part's ratings. */
-static void resolve_limits(sweep_args *a, const hb_station *st, const hb_db_part *part)
-{
-	hb_sweep_limits *lim = &a->plan.limits;
-	double part_limit = NAN;
-	double rating = fmax(isnan(part->rated_current_a) ? 0 : part->rated_current_a,
-			     isnan(part->sat_current_a) ? 0 : part->sat_current_a);
-	if (rating > 0)
-		part_limit = rating * st->part_overdrive;
-	lim->max_current = min_defined(min_defined(a->cli_max_current, st->max_current), part_limit);
-	lim->max_voltage = min_defined(a->cli_max_voltage, st->max_voltage);
-	lim->max_power = min_defined(a->cli_max_power, st->max_power);
-	if (!isnan(a->cli_ramp))
-		lim->ramp_rate = a->cli_ramp;
-	else if (!isnan(st->ramp_rate))
-		lim->ramp_rate = st->ramp_rate;
 }
 
 static void print_plan(FILE *out, const sweep_args *a, const hb_db_part *part, const hb_station *st)
@@ -447,30 +368,13 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 		hb_cli_error("%s", err);
 		return HB_EXIT_USAGE;
 	}
-	rc = hb_db_open(hb_global.db_path, &db);
-	if (rc != HB_OK) {
-		hb_cli_error("store: %s", db ? hb_db_errmsg(db) : "out of memory");
-		goto out;
-	}
 	hb_db_part part;
-	rc = hb_db_part_get(db, a.part, &part);
-	if (rc == HB_ERR_NOTFOUND) {
-		hb_cli_error("no part '%s' in %s: add it with 'henrybench part add %s ...'", a.part, hb_db_path(db), a.part);
-		exit_code = HB_EXIT_USAGE;
-		goto out;
-	} else if (rc != HB_OK) {
-		hb_cli_error("store: %s", hb_db_errmsg(db));
+	rc = hb_sweep_opts_open_part(a.part, &db, &part);
+	if (rc != HB_EXIT_OK) {
+		exit_code = rc;
 		goto out;
 	}
-	/* A datasheet's test conditions are the defaults: verdicts only mean
-	 * something when the part is measured the way its spec says. */
-	if (!a.freq_given && isfinite(part.test_freq_hz))
-		a.plan.frequency = part.test_freq_hz;
-	if (!a.level_given && isfinite(part.test_level) && part.test_level > 0) {
-		a.plan.level = part.test_level;
-		a.plan.level_kind = part.test_level_kind == HB_DB_LEVEL_CURRENT ? HB_LEVEL_CURRENT : HB_LEVEL_VOLTAGE;
-	}
-	resolve_limits(&a, &station, &part);
+	hb_sweep_opts_apply(&a.opts, &station, &part, &a.plan);
 	rc = hb_sweep_plan_check(&a.plan, a.supply != NULL, err, sizeof err);
 	if (rc != HB_OK) {
 		hb_cli_error("refusing to start: %s", err);
@@ -518,7 +422,7 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 		goto out;
 	}
 	hb_session s = { .db = db, .lcr = lcr, .supply = supply, .station = &station, .progress = info,
-			 .progress_tty = isatty(fileno(info)), .ambient_c = a.ambient_c, .dcr_from_meter = a.dcr_meter };
+			 .progress_tty = isatty(fileno(info)), .ambient_c = a.opts.ambient_c, .dcr_from_meter = a.dcr_meter };
 	int64_t sweep_id = 0;
 	hb_sweep_result result;
 	hb_session_measure(&s, &part, a.unit, lot_id, &a.plan, a.note, &sweep_id, &result);

@@ -14,31 +14,6 @@
 #include "../db/hb_db.h"
 #include "cli.h"
 
-static hb_db *open_store(void)
-{
-	hb_db *db = NULL;
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
-		hb_cli_error("%s", hb_db_errmsg(db));
-		hb_db_close(db);
-		return NULL;
-	}
-	return db;
-}
-
-static json_t *num_or_null(double v)
-{
-	return isnan(v) || isinf(v) ? json_null() : json_real(v);
-}
-
-static int print_json(json_t *root)
-{
-	int rc = json_dumpf(root, stdout, JSON_INDENT(2) | JSON_REAL_PRECISION(10)) == 0 ? HB_EXIT_OK
-											  : HB_EXIT_RUNTIME;
-	putchar('\n');
-	json_decref(root);
-	return rc;
-}
-
 /* "YYYY-MM-DD" or "YYYY-MM-DDTHH:MM[:SS][Z]", always UTC. */
 static int parse_since(const char *text, double *out)
 {
@@ -190,7 +165,7 @@ int hb_cmd_sweeps(int argc, char **argv)
 		hb_cli_error("sweeps: unexpected argument '%s' (try 'henrybench sweeps --help')", argv[optind]);
 		return HB_EXIT_USAGE;
 	}
-	hb_db *db = open_store();
+	hb_db *db = hb_cli_open_store();
 	if (!db)
 		return HB_EXIT_RUNTIME;
 	hb_db_sweep *list = NULL;
@@ -206,7 +181,7 @@ int hb_cmd_sweeps(int argc, char **argv)
 		for (size_t i = 0; i < n; i++)
 			json_array_append_new(arr, sweep_summary_json(&list[i]));
 		hb_db_sweeps_free(list);
-		return print_json(arr);
+		return hb_print_json(arr) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	}
 	printf("%8s  %-20s  %-20s  %-14s  %-9s  %-11s  %6s  %s\n", "id", "started (UTC)", "part", "unit", "kind",
 	       "status", "points", "station");
@@ -262,35 +237,35 @@ static json_t *sweep_detail_json(const hb_db_sweep *s)
 	json_object_set_new(inst, "supply_profile", json_string(s->supply_profile));
 	json_object_set_new(o, "instruments", inst);
 	json_t *set = json_object();
-	json_object_set_new(set, "test_frequency_Hz", num_or_null(s->test_freq_hz));
-	json_object_set_new(set, "test_level", num_or_null(s->test_level));
+	json_object_set_new(set, "test_frequency_Hz", hb_json_num(s->test_freq_hz));
+	json_object_set_new(set, "test_level", hb_json_num(s->test_level));
 	json_object_set_new(set, "test_level_unit", json_string(s->test_level_kind == HB_DB_LEVEL_CURRENT ? "A" : "V"));
-	json_object_set_new(set, "bias_A", num_or_null(s->bias_a));
+	json_object_set_new(set, "bias_A", hb_json_num(s->bias_a));
 	json_object_set_new(set, "circuit", json_string(s->circuit));
 	json_object_set_new(set, "measured_pair", json_string(s->measured_pair));
 	json_object_set_new(set, "averaging", s->averaging > 0 ? json_integer(s->averaging) : json_null());
 	json_object_set_new(set, "aperture", json_string(s->aperture));
 	json_t *settle = json_object();
 	json_object_set_new(settle, "mode", json_string(s->settle_mode));
-	json_object_set_new(settle, "delay_s", num_or_null(s->settle_delay_s));
-	json_object_set_new(settle, "tolerance", num_or_null(s->settle_tolerance));
+	json_object_set_new(settle, "delay_s", hb_json_num(s->settle_delay_s));
+	json_object_set_new(settle, "tolerance", hb_json_num(s->settle_tolerance));
 	json_object_set_new(settle, "max_readings",
 			    s->settle_max_readings > 0 ? json_integer(s->settle_max_readings) : json_null());
-	json_object_set_new(settle, "max_s", num_or_null(s->settle_max_s));
+	json_object_set_new(settle, "max_s", hb_json_num(s->settle_max_s));
 	json_object_set_new(set, "settle", settle);
 	json_t *plan = json_object();
 	const char *unit = s->kind == HB_DB_SWEEP_FREQUENCY ? "Hz" : "A";
 	json_object_set_new(plan, "unit", json_string(unit));
-	json_object_set_new(plan, "from", num_or_null(s->plan_from));
-	json_object_set_new(plan, "to", num_or_null(s->plan_to));
+	json_object_set_new(plan, "from", hb_json_num(s->plan_from));
+	json_object_set_new(plan, "to", hb_json_num(s->plan_to));
 	json_object_set_new(plan, "steps", s->plan_steps > 0 ? json_integer(s->plan_steps) : json_null());
 	json_object_set_new(plan, "spacing", json_string(s->plan_spacing));
 	json_object_set_new(set, "plan", plan);
 	json_t *lim = json_object();
-	json_object_set_new(lim, "current_A", num_or_null(s->limit_current_a));
-	json_object_set_new(lim, "voltage_V", num_or_null(s->limit_voltage_v));
+	json_object_set_new(lim, "current_A", hb_json_num(s->limit_current_a));
+	json_object_set_new(lim, "voltage_V", hb_json_num(s->limit_voltage_v));
 	json_object_set_new(set, "limits", lim);
-	json_object_set_new(set, "ambient_C", num_or_null(s->ambient_c));
+	json_object_set_new(set, "ambient_C", hb_json_num(s->ambient_c));
 	json_object_set_new(o, "settings", set);
 	json_object_set_new(o, "note", json_string(s->note));
 	return o;
@@ -305,16 +280,16 @@ static json_t *points_json(const hb_db_sweep *s, const hb_db_point *pts, size_t 
 		json_t *o = json_object();
 		json_object_set_new(o, "seq", json_integer(p->seq));
 		json_object_set_new(o, "direction", json_string(p->direction == HB_DB_DIR_DOWN ? "down" : "up"));
-		json_object_set_new(o, "bias_set_A", num_or_null(p->bias_set_a));
-		json_object_set_new(o, "bias_A", num_or_null(p->bias_meas_a));
-		json_object_set_new(o, "supply_V", num_or_null(p->supply_v));
-		json_object_set_new(o, "freq_Hz", num_or_null(p->freq_hz));
-		json_object_set_new(o, c1, num_or_null(p->primary));
-		json_object_set_new(o, c2, num_or_null(p->secondary));
+		json_object_set_new(o, "bias_set_A", hb_json_num(p->bias_set_a));
+		json_object_set_new(o, "bias_A", hb_json_num(p->bias_meas_a));
+		json_object_set_new(o, "supply_V", hb_json_num(p->supply_v));
+		json_object_set_new(o, "freq_Hz", hb_json_num(p->freq_hz));
+		json_object_set_new(o, c1, hb_json_num(p->primary));
+		json_object_set_new(o, c2, hb_json_num(p->secondary));
 		json_object_set_new(o, "reading_status", json_string(hb_status_name(p->reading_status)));
-		json_object_set_new(o, "t_s", num_or_null(p->t_s));
+		json_object_set_new(o, "t_s", hb_json_num(p->t_s));
 		json_object_set_new(o, "settle_readings", json_integer(p->settle_readings));
-		json_object_set_new(o, "settle_s", num_or_null(p->settle_s));
+		json_object_set_new(o, "settle_s", hb_json_num(p->settle_s));
 		json_array_append_new(arr, o);
 	}
 	return arr;
@@ -326,10 +301,10 @@ static json_t *verdicts_json(const hb_db_verdict *v, size_t n)
 	for (size_t i = 0; i < n; i++) {
 		json_t *o = json_object();
 		json_object_set_new(o, "check", json_string(v[i].check_name));
-		json_object_set_new(o, "measured", num_or_null(v[i].measured));
-		json_object_set_new(o, "limit_low", num_or_null(v[i].limit_low));
-		json_object_set_new(o, "limit_high", num_or_null(v[i].limit_high));
-		json_object_set_new(o, "margin", num_or_null(v[i].margin));
+		json_object_set_new(o, "measured", hb_json_num(v[i].measured));
+		json_object_set_new(o, "limit_low", hb_json_num(v[i].limit_low));
+		json_object_set_new(o, "limit_high", hb_json_num(v[i].limit_high));
+		json_object_set_new(o, "margin", hb_json_num(v[i].margin));
 		json_object_set_new(o, "outcome", json_string(hb_db_outcome_name(v[i].outcome)));
 		json_object_set_new(o, "note", json_string(v[i].note));
 		json_array_append_new(arr, o);
@@ -464,7 +439,7 @@ int hb_cmd_show(int argc, char **argv)
 		return HB_EXIT_USAGE;
 	}
 
-	hb_db *db = open_store();
+	hb_db *db = hb_cli_open_store();
 	if (!db)
 		return HB_EXIT_RUNTIME;
 	int exit_code = HB_EXIT_RUNTIME;
@@ -481,7 +456,7 @@ int hb_cmd_show(int argc, char **argv)
 		json_t *root = sweep_detail_json(&s);
 		json_object_set_new(root, "verdicts", verdicts_json(verdicts, nv));
 		json_object_set_new(root, "data", points_json(&s, pts, n));
-		exit_code = print_json(root);
+		exit_code = hb_print_json(root) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	} else if (csv) {
 		print_csv(&s, pts, n);
 		exit_code = HB_EXIT_OK;
