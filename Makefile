@@ -2,6 +2,7 @@
 #
 #   make            build ./henrybench
 #   make check      build and run every test (SANITIZE=1: under ASan + UBSan)
+#   make memcheck   the same tests under valgrind
 #   make demo       run the main job on the simulated bench
 #   make bench      benchmarks (ratios measured in one run; not tests)
 #   make install    PREFIX=/usr/local DESTDIR=
@@ -65,7 +66,7 @@ Q := @
 say = @echo "  $(1) $(2)"
 endif
 
-.PHONY: all deps check demo bench install uninstall clean
+.PHONY: all deps check memcheck demo bench install uninstall clean
 # Keep test objects between runs.
 .SECONDARY:
 .DEFAULT_GOAL := all
@@ -123,6 +124,13 @@ check: deps
 	@HB_EXTRA_TOOLS="chromium:chromium" sh scripts/ensure-deps
 	@$(MAKE) --no-print-directory henrybench $(TEST_BINS)
 	@sh tests/run-tests $(BUILD) $(TEST_BINS)
+
+# The tests under valgrind's memcheck: any error or definite leak fails the test.
+memcheck: deps
+	@HB_EXTRA_TOOLS="valgrind:valgrind" sh scripts/ensure-deps
+	@$(MAKE) --no-print-directory henrybench $(TEST_BINS)
+	@HB_TEST_WRAPPER="valgrind -q --error-exitcode=99 --leak-check=full --errors-for-leak-kinds=definite" \
+		sh tests/run-tests $(BUILD) $(TEST_BINS)
 
 demo: deps
 	@$(MAKE) --no-print-directory henrybench
