@@ -68,7 +68,7 @@ endif
 
 .PHONY: all deps check memcheck demo bench install uninstall clean
 # Keep test objects between runs.
-.SECONDARY:
+.SECONDARY: $(TEST_SRCS:tests/%.c=$(BUILD)/tests/%.o)
 .DEFAULT_GOAL := all
 
 all: henrybench

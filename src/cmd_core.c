@@ -81,6 +81,7 @@ static int parse_args(int argc, char **argv, core_args *a)
 {
 	int c;
 	optind = 1;
+	opterr = 0;
 	while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
 		int rc = HB_OK;
 		switch (c) {
@@ -130,7 +131,8 @@ static int parse_args(int argc, char **argv, core_args *a)
 			usage(stdout);
 			return 1;
 		default:
-			usage(stderr);
+			hb_cli_error("core: unknown or incomplete option '%s' (try 'henrybench core --help')",
+				     argv[optind - 1]);
 			return HB_ERR_ARG;
 		}
 		if (rc != HB_OK)
@@ -264,7 +266,8 @@ static int run_solenoid(core_args *a)
 	}
 	double Le, Lw, k;
 	if (hb_fit_solenoid(a->diameter, a->length, a->w.turns, &Le, &Lw, &k) != HB_OK) {
-		hb_cli_error("solenoid rejected: diameter/length %g out of range", a->diameter / a->length);
+		hb_cli_error("core solenoid: diameter/length %g is too short a coil for Nagaoka's coefficient (give a longer --length)",
+			     a->diameter / a->length);
 		return HB_EXIT_USAGE;
 	}
 	if (a->json) {

@@ -1283,6 +1283,8 @@ int hb_cmd_export(int argc, char **argv)
 	}
 	if (rc != HB_OK) {
 		hb_cli_error("export: %s", err[0] ? err : hb_status_name(rc));
+		if (rc == HB_ERR_NOTFOUND)
+			exit_code = HB_EXIT_USAGE;
 		goto done;
 	}
 	if (out_path)

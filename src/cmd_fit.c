@@ -144,6 +144,7 @@ int hb_cmd_fit(int argc, char **argv)
 	int rc = hb_analysis_sweep(db, (int64_t)id, &opt, an);
 	if (rc == HB_ERR_NOTFOUND) {
 		hb_cli_error("no sweep %lld in %s", id, hb_db_path(db));
+		exit_code = HB_EXIT_USAGE;
 		goto out;
 	}
 	if (json) {

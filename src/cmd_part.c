@@ -343,6 +343,8 @@ static int part_write(int argc, char **argv, bool add)
 	}
 	if (status != HB_OK && (!add || status != HB_ERR_NOTFOUND)) {
 		hb_cli_error("%s", hb_db_errmsg(db));
+		if (status == HB_ERR_NOTFOUND)
+			exit_code = HB_EXIT_USAGE;
 		goto out;
 	}
 	if (add) {
@@ -470,10 +472,11 @@ static int part_show(int argc, char **argv)
 	if (!db)
 		return HB_EXIT_RUNTIME;
 	hb_db_part p;
-	if (hb_db_part_get(db, argv[optind], &p) != HB_OK) {
+	int status = hb_db_part_get(db, argv[optind], &p);
+	if (status != HB_OK) {
 		hb_cli_error("%s", hb_db_errmsg(db));
 		hb_db_close(db);
-		return HB_EXIT_RUNTIME;
+		return status == HB_ERR_NOTFOUND ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
 	}
 	hb_db_close(db);
 	if (e.json)

@@ -97,6 +97,7 @@ int hb_cmd_plan(int argc, char **argv)
 	char series[200];
 
 	optind = 1;
+	opterr = 0;
 	for (;;) {
 		int c = getopt_long(argc, argv, "h", options, NULL);
 		if (c == -1)
@@ -134,7 +135,7 @@ int hb_cmd_plan(int argc, char **argv)
 			plan_usage(stdout);
 			return HB_EXIT_OK;
 		default:
-			hb_cli_error("plan: unknown option (try 'henrybench plan --help')");
+			hb_cli_error("plan: unknown or incomplete option '%s' (try 'henrybench plan --help')", argv[optind - 1]);
 			return HB_EXIT_USAGE;
 		}
 	}

@@ -112,7 +112,7 @@ int hb_cmd_report(int argc, char **argv)
 	}
 	if (rc != HB_OK) {
 		hb_cli_error("report: %s", err[0] ? err : hb_status_name(rc));
-		return rc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
+		return rc == HB_ERR_ARG || rc == HB_ERR_NOTFOUND ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
 	}
 	if (!to_stdout)
 		printf("report written: %s\n", out_path);

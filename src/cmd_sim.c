@@ -150,6 +150,7 @@ int hb_cmd_sim(int argc, char **argv)
 	}
 
 	optind = 1;
+	opterr = 0;
 	int c;
 	while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
 		switch (c) {
@@ -171,7 +172,7 @@ int hb_cmd_sim(int argc, char **argv)
 			sim_usage(stdout);
 			goto out;
 		default:
-			sim_usage(stderr);
+			hb_cli_error("sim: unknown or incomplete option '%s' (try 'henrybench sim --help')", argv[optind - 1]);
 			rc = HB_EXIT_USAGE;
 			goto out;
 		}

@@ -447,9 +447,15 @@ int hb_cmd_show(int argc, char **argv)
 	hb_db_point *pts = NULL;
 	hb_db_verdict *verdicts = NULL;
 	size_t n = 0, nv = 0;
-	if (hb_db_sweep_get(db, id, &s) != HB_OK || hb_db_points_get(db, id, &pts, &n) != HB_OK ||
-	    hb_db_verdict_list(db, id, &verdicts, &nv) != HB_OK) {
+	int status = hb_db_sweep_get(db, id, &s);
+	if (status == HB_OK)
+		status = hb_db_points_get(db, id, &pts, &n);
+	if (status == HB_OK)
+		status = hb_db_verdict_list(db, id, &verdicts, &nv);
+	if (status != HB_OK) {
 		hb_cli_error("%s", hb_db_errmsg(db));
+		if (status == HB_ERR_NOTFOUND)
+			exit_code = HB_EXIT_USAGE;
 		goto out;
 	}
 	if (json) {

@@ -167,6 +167,14 @@ static int scpi_suffix(const char *suffix, const unit_spelling *u, const char *u
 	return scpi_multiplier(suffix, factor);
 }
 
+/* 10 * 1e-6 is 9.999999999999999e-06 (1e-6 is inexact) while 10 / 1e6 is
+ * 1e-05: dividing by the exact power of ten keeps "10um" equal to a limit
+ * written as 1e-5 in the source. */
+static double apply_prefix(double number, double factor)
+{
+	return factor < 1 ? number / (1 / factor) : number * factor;
+}
+
 int hb_parse_value(const char *text, const char *unit, double *value, char *err, size_t errlen)
 {
 	if (!text || !value)
@@ -223,7 +231,7 @@ int hb_parse_value(const char *text, const char *unit, double *value, char *err,
 	/* Two or more upper-case letters ("MA", "KHZ", "MV") are read by the
 	 * SCPI rule, as an instrument would; a lone "M" stays SI mega. */
 	if (strlen(suffix) >= 2 && is_upper_scpi(suffix) && scpi_suffix(suffix, u, unit, &factor)) {
-		*value = number * (squared ? factor * factor : factor);
+		*value = apply_prefix(number, squared ? factor * factor : factor);
 		return HB_OK;
 	}
 	/* Prefix followed by the unit or by nothing. Longest prefix first is
@@ -236,7 +244,7 @@ int hb_parse_value(const char *text, const char *unit, double *value, char *err,
 		const char *rest = suffix + pl;
 		if (*rest == '\0' || is_unit(u, rest)) {
 			double f = squared && *rest ? pr->factor * pr->factor : pr->factor;
-			*value = number * f;
+			*value = apply_prefix(number, f);
 			return HB_OK;
 		}
 	}

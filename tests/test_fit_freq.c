@@ -50,6 +50,7 @@ static void test_recovery(void **state)
 	assert_true(fabs(res.param[HB_FREQ_R] - 0.5) < 4 * res.std_err[HB_FREQ_R]);
 	assert_true(fabs(res.param[HB_FREQ_C] - 20e-12) < 4 * res.std_err[HB_FREQ_C]);
 	assert_true(isinf(res.param[HB_FREQ_RP]));
+	/* Thomson's resonance f = 1 / (2 pi sqrt(L C)) (common practice) */
 	double srf = 1 / (2 * M_PI * sqrt(100e-6 * 20e-12));
 	assert_true(fabs(res.srf - srf) < 4 * res.srf_se + 1e-6 * srf);
 	/* Q peak lies inside the sweep and beats its neighbours */

@@ -30,7 +30,7 @@ static hb_sampling_plan plan_of(long lot, double aql, hb_insp_level level, hb_se
 static void test_issue_checks(void **state)
 {
 	(void)state;
-	/* The issue's checks (ISO 2859-1 Tables 1 and 2-A, same as ANSI/ASQ Z1.4):
+	/* Worked plans from ISO 2859-1 Tables 1 and 2-A (same as ANSI/ASQ Z1.4):
 	 * 2000 units, level II -> K, n = 125, AQL 1.0 -> Ac 3, Re 4. */
 	hb_sampling_plan p = plan_of(2000, 1.0, HB_LEVEL_II, HB_SEVERITY_NORMAL);
 	assert_int_equal(p.initial_letter, 'K');

@@ -231,6 +231,7 @@ static void test_resonance(void **state)
 	sim_params_defaults(&p);
 	sim_state s = { .temp_c = 20 };
 	double l0 = sim_inductance(&p, 0), pri, sec;
+	/* Thomson's resonance f = 1 / (2 pi sqrt(L C)) (common practice) */
 	double srf = 1 / (2 * M_PI * sqrt(l0 * p.cp));
 	sim_reading_from_z(sim_impedance(&p, &s, 1000, 0, true, true), 1000, HB_EQUIV_SERIES, HB_PAIR_L_R, &pri, &sec);
 	assert_true(fabs(pri / l0 - 1) < 1e-3);
