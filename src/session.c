@@ -48,8 +48,13 @@ static void show_progress(void *ctx, const hb_sweep_point *p, int index, int tot
 	double change = isfinite(l_first) && l_first != 0 ? (p->primary / l_first - 1) * 100 : NAN;
 	if (p->direction == 0)
 		hb_format_si(x_text, sizeof x_text, p->frequency, "Hz", 4);
-	else
-		snprintf(x_text, sizeof x_text, "%8.4f A", isfinite(p->bias_measured) ? p->bias_measured : p->bias_set);
+	else {
+		double amps = isfinite(p->bias_measured) ? p->bias_measured : p->bias_set;
+		/* Read-back offset noise around zero would print as "-0.0000 A". */
+		if (fabs(amps) < 5e-5)
+			amps = 0;
+		snprintf(x_text, sizeof x_text, "%8.4f A", amps);
+	}
 	if (c->s->progress_tty) {
 		fprintf(out, "\r\033[K  point %d/%d  %s  L %s  %+6.2f %%  %s  ~%.0f s left", index + 1, total,
 			x_text, l_text, change, p->settled ? "" : "(not settled)", left);
