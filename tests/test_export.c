@@ -14,6 +14,7 @@
 #include <jansson.h>
 
 #include "src/report.h"
+#include "store_fixture.h"
 
 typedef struct fixture {
 	char dir[256];
@@ -26,12 +27,8 @@ static int setup(void **state)
 	fixture *fx = calloc(1, sizeof *fx);
 	if (!fx)
 		return -1;
-	snprintf(fx->dir, sizeof fx->dir, "/tmp/hb-test-export-XXXXXX");
-	if (!mkdtemp(fx->dir))
-		return -1;
 	char path[400];
-	snprintf(path, sizeof path, "%s/bench.db", fx->dir);
-	if (hb_db_open(path, &fx->db) != HB_OK)
+	if (temp_store_open(fx->dir, sizeof fx->dir, "export", path, sizeof path, &fx->db) != 0)
 		return -1;
 	hb_db_part p;
 	hb_db_part_init(&p);
@@ -48,13 +45,9 @@ static int setup(void **state)
 static int teardown(void **state)
 {
 	fixture *fx = *state;
-	hb_db_close(fx->db);
-	char cmd[400];
-	snprintf(cmd, sizeof cmd, "rm -rf '%s'", fx->dir);
-	if (system(cmd) != 0)
-		return -1;
+	int rc = temp_store_remove(fx->dir, fx->db);
 	free(fx);
-	return 0;
+	return rc;
 }
 
 static const char *write_file(fixture *fx, const char *name, const char *content, size_t len)
@@ -281,14 +274,7 @@ static char *export_text(fixture *fx, const int64_t *ids, size_t n, bool json)
 	int rc = json ? hb_export_json(fx->db, ids, n, f, err, sizeof err) : hb_export_csv(fx->db, ids, n, f, err, sizeof err);
 	if (rc != HB_OK)
 		fail_msg("export: %s", err);
-	long len = ftell(f);
-	rewind(f);
-	char *buf = malloc((size_t)len + 1);
-	assert_non_null(buf);
-	assert_int_equal(fread(buf, 1, (size_t)len, f), (size_t)len);
-	buf[len] = '\0';
-	fclose(f);
-	return buf;
+	return stream_read_back(f, NULL);
 }
 
 static void test_export_csv_shape(void **state)

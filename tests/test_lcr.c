@@ -15,15 +15,14 @@
 #include <unistd.h>
 
 #include "drivers/hb_drivers.h"
-#include "scripted_peer.h"
+#include "bench_fixture.h"
 
 static char profiles_dir[1024]; /* drivers/profiles of the source tree */
 
 static int setup(void **state)
 {
-	(void)state;
-	/* The user's own profiles must not change what these tests see. */
-	unsetenv("HENRYBENCH_PROFILE_PATH");
+	bench_fixture_setup(state);
+	/* The forced-profile test opens an example profile by path. */
 	char exe[900];
 	ssize_t n = readlink("/proc/self/exe", exe, sizeof exe - 1);
 	assert_true(n > 0);
@@ -36,18 +35,6 @@ static int setup(void **state)
 		if (access(profiles_dir, F_OK) == 0)
 			break;
 	}
-	hb_sim *sim = hb_sim_inproc();
-	assert_non_null(sim);
-	/* Simulated integration and settling times shrink a thousandfold so
-	 * the suite stays quick; the protocol is unchanged. */
-	assert_int_equal(hb_sim_set_param(sim, "time_scale", 1e-3), HB_OK);
-	return 0;
-}
-
-static int teardown(void **state)
-{
-	(void)state;
-	hb_sim_inproc_shutdown();
 	return 0;
 }
 
@@ -266,8 +253,6 @@ static void test_over_tcp(void **state)
 
 /* ---------------- scripted meter: another dialect, through the profile alone ---------------- */
 
-#define OK_ERR "0,\"No error\"\n"
-
 static hb_lcr *open_peer(peer *p, const peer_step *steps, size_t n, const char *profile)
 {
 	assert_int_equal(peer_start_tcp(p, steps, n), 0);
@@ -287,10 +272,7 @@ static hb_lcr *open_peer(peer *p, const peer_step *steps, size_t n, const char *
 static void close_peer(peer *p, hb_lcr *lcr)
 {
 	hb_lcr_close(lcr);
-	peer_finish(p);
-	if (p->mismatches)
-		print_error("%s\n", p->mismatch);
-	assert_int_equal(p->mismatches, 0);
+	bench_peer_finish(p);
 }
 
 static void test_other_dialect(void **state)
@@ -419,5 +401,5 @@ int main(void)
 		cmocka_unit_test(test_overload_generic),
 		cmocka_unit_test(test_open_failures),
 	};
-	return cmocka_run_group_tests(tests, setup, teardown);
+	return cmocka_run_group_tests(tests, setup, bench_fixture_teardown);
 }

@@ -24,18 +24,32 @@
 /* SIGPIPE keeps its default action here on purpose: a send to a dead
  * peer without MSG_NOSIGNAL would kill this test. */
 
-static hb_link *open_tcp(const peer *p, int timeout_ms)
+/* Every resource text these tests write is well formed: what they look at
+ * is the open and the traffic, so a parse failure is only a broken test. */
+static void parse_ok(const char *text, hb_resource *res)
 {
-	char text[128];
-	hb_resource res;
 	char err[256];
-	snprintf(text, sizeof text, "tcp://127.0.0.1:%d?timeout=%d", p->port, timeout_ms);
-	assert_int_equal(hb_resource_parse(text, &res, err, sizeof err), HB_OK);
+	assert_int_equal(hb_resource_parse(text, res, err, sizeof err), HB_OK);
+}
+
+static hb_link *open_text(const char *text)
+{
+	hb_resource res;
+	parse_ok(text, &res);
 	hb_link *link = NULL;
 	int rc = hb_link_open(&res, &link);
 	if (rc != HB_OK)
 		fail_msg("open %s: %s", text, hb_link_errmsg(link));
 	return link;
+}
+
+/* A scripted peer on TCP loopback and a link to it. */
+static hb_link *start_tcp(peer *p, const peer_step *steps, size_t nsteps, int timeout_ms)
+{
+	assert_int_equal(peer_start_tcp(p, steps, nsteps), 0);
+	char text[128];
+	snprintf(text, sizeof text, "tcp://127.0.0.1:%d?timeout=%d", p->port, timeout_ms);
+	return open_text(text);
 }
 
 static void send_text(hb_link *link, const char *text)
@@ -53,6 +67,13 @@ static void expect_line(hb_link *link, const char *want)
 	assert_int_equal(n, (int)strlen(want));
 }
 
+/* The commonest exchange: one command, one line back. */
+static void ask(hb_link *link, const char *command, const char *want)
+{
+	send_text(link, command);
+	expect_line(link, want);
+}
+
 static void finish(hb_link *link, peer *p)
 {
 	hb_link_close(link);
@@ -68,11 +89,9 @@ static void test_tcp_basic(void **state)
 		{ "*IDN?", PEER_REPLY, "ACME,LCR-1,0042,1.0\n", 0, 0 },
 	};
 	peer p;
-	assert_int_equal(peer_start_tcp(&p, steps, N(steps)), 0);
-	hb_link *link = open_tcp(&p, 2000);
+	hb_link *link = start_tcp(&p, steps, N(steps), 2000);
 	assert_int_equal(hb_link_resource(link)->port, p.port);
-	send_text(link, "*IDN?\n");
-	expect_line(link, "ACME,LCR-1,0042,1.0");
+	ask(link, "*IDN?\n", "ACME,LCR-1,0042,1.0");
 	finish(link, &p);
 }
 
@@ -83,10 +102,8 @@ static void test_tcp_byte_by_byte(void **state)
 		{ "MEAS?", PEER_SPLIT, "1.2345E-3\r\n", 0, 0 },
 	};
 	peer p;
-	assert_int_equal(peer_start_tcp(&p, steps, N(steps)), 0);
-	hb_link *link = open_tcp(&p, 3000);
-	send_text(link, "MEAS?\n");
-	expect_line(link, "1.2345E-3");
+	hb_link *link = start_tcp(&p, steps, N(steps), 3000);
+	ask(link, "MEAS?\n", "1.2345E-3");
 	finish(link, &p);
 }
 
@@ -97,10 +114,8 @@ static void test_tcp_two_replies_one_packet(void **state)
 		{ "A?", PEER_REPLY, "first\nsecond\r\n", 0, 0 },
 	};
 	peer p;
-	assert_int_equal(peer_start_tcp(&p, steps, N(steps)), 0);
-	hb_link *link = open_tcp(&p, 2000);
-	send_text(link, "A?\n");
-	expect_line(link, "first");
+	hb_link *link = start_tcp(&p, steps, N(steps), 2000);
+	ask(link, "A?\n", "first");
 	expect_line(link, "second"); /* surplus kept in the buffer */
 	finish(link, &p);
 }
@@ -114,14 +129,10 @@ static void test_tcp_crlf_and_stray_cr(void **state)
 		{ "C?", PEER_REPLY, "\n", 0, 0 },
 	};
 	peer p;
-	assert_int_equal(peer_start_tcp(&p, steps, N(steps)), 0);
-	hb_link *link = open_tcp(&p, 2000);
-	send_text(link, "A?\n");
-	expect_line(link, "one");
-	send_text(link, "B?\n");
-	expect_line(link, "two");
-	send_text(link, "C?\n");
-	expect_line(link, "");
+	hb_link *link = start_tcp(&p, steps, N(steps), 2000);
+	ask(link, "A?\n", "one");
+	ask(link, "B?\n", "two");
+	ask(link, "C?\n", "");
 	finish(link, &p);
 }
 
@@ -133,15 +144,13 @@ static void test_tcp_timeout_then_late_bytes_kept(void **state)
 		{ "NEXT?", PEER_REPLY, "ok\n", 0, 0 },
 	};
 	peer p;
-	assert_int_equal(peer_start_tcp(&p, steps, N(steps)), 0);
-	hb_link *link = open_tcp(&p, 2000);
+	hb_link *link = start_tcp(&p, steps, N(steps), 2000);
 	send_text(link, "SLOW?\n");
 	char line[64];
 	assert_int_equal(hb_link_read_line(link, line, sizeof line, 150), HB_ERR_TIMEOUT);
 	assert_non_null(strstr(hb_link_errmsg(link), "no reply within 150 ms"));
 	assert_non_null(strstr(hb_link_errmsg(link), "tcp://127.0.0.1:"));
-	send_text(link, "NEXT?\n");
-	expect_line(link, "ok");
+	ask(link, "NEXT?\n", "ok");
 	finish(link, &p);
 }
 
@@ -153,8 +162,7 @@ static void test_tcp_partial_line_timeout(void **state)
 		{ NULL, PEER_REPLY, "34\n", 300, 0 },
 	};
 	peer p;
-	assert_int_equal(peer_start_tcp(&p, steps, N(steps)), 0);
-	hb_link *link = open_tcp(&p, 2000);
+	hb_link *link = start_tcp(&p, steps, N(steps), 2000);
 	send_text(link, "A?\n");
 	char line[64];
 	assert_int_equal(hb_link_read_line(link, line, sizeof line, 100), HB_ERR_TIMEOUT);
@@ -171,8 +179,7 @@ static void test_tcp_peer_closes(void **state)
 		{ "BYE?", PEER_CLOSE, NULL, 0, 0 },
 	};
 	peer p;
-	assert_int_equal(peer_start_tcp(&p, steps, N(steps)), 0);
-	hb_link *link = open_tcp(&p, 5000);
+	hb_link *link = start_tcp(&p, steps, N(steps), 5000);
 	send_text(link, "BYE?\n");
 	char line[64];
 	assert_int_equal(hb_link_read_line(link, line, sizeof line, 5000), HB_ERR_CLOSED);
@@ -201,8 +208,7 @@ static void test_tcp_connect_refused(void **state)
 	char text[96];
 	snprintf(text, sizeof text, "tcp://127.0.0.1:%d?timeout=2000", port);
 	hb_resource res;
-	char err[256];
-	assert_int_equal(hb_resource_parse(text, &res, err, sizeof err), HB_OK);
+	parse_ok(text, &res);
 	hb_link *link = NULL;
 	assert_int_equal(hb_link_open(&res, &link), HB_ERR_IO);
 	assert_non_null(link); /* set on failure, so the reason can be read */
@@ -222,14 +228,12 @@ static void test_tcp_drain(void **state)
 		{ "PING?", PEER_REPLY, "pong\n", 0, 0 },
 	};
 	peer p;
-	assert_int_equal(peer_start_tcp(&p, steps, N(steps)), 0);
-	hb_link *link = open_tcp(&p, 2000);
+	hb_link *link = start_tcp(&p, steps, N(steps), 2000);
 	send_text(link, "GO\n");
 	/* Quiet 400 ms: the split tail (a byte per 2 ms) cannot slip through. */
 	int n = hb_link_drain(link, 400, 4000);
 	assert_int_equal(n, (int)strlen("junk-1\njunk-2\ntail\n"));
-	send_text(link, "PING?\n");
-	expect_line(link, "pong");
+	ask(link, "PING?\n", "pong");
 	assert_int_equal(hb_link_drain(link, 0, 100), 0);
 	finish(link, &p);
 }
@@ -245,8 +249,7 @@ static void test_tcp_overlong_lines(void **state)
 		{ "HUGE?", PEER_REPLY, big, 0, 0 },
 	};
 	peer p;
-	assert_int_equal(peer_start_tcp(&p, steps, N(steps)), 0);
-	hb_link *link = open_tcp(&p, 2000);
+	hb_link *link = start_tcp(&p, steps, N(steps), 2000);
 	send_text(link, "LONG?\n");
 	char line[8];
 	assert_int_equal(hb_link_read_line(link, line, sizeof line, 2000), HB_ERR_PROTOCOL);
@@ -274,8 +277,7 @@ static void test_tcp_eintr_storm(void **state)
 		{ "NONE?", PEER_SILENT, NULL, 0, 0 },
 	};
 	peer p;
-	assert_int_equal(peer_start_tcp(&p, steps, N(steps)), 0);
-	hb_link *link = open_tcp(&p, 2000);
+	hb_link *link = start_tcp(&p, steps, N(steps), 2000);
 
 	/* No SA_RESTART: every tick interrupts poll() with EINTR. */
 	struct sigaction sa = { .sa_handler = on_alarm }, old;
@@ -301,14 +303,14 @@ static void test_tcp_eintr_storm(void **state)
 
 /* ---------------- pseudo-terminal ---------------- */
 
+/* Returns the master side; every test needs one, so failing to get it fails the test. */
 static int open_pty(char *slave, size_t cap)
 {
 	int m = posix_openpt(O_RDWR | O_NOCTTY);
-	if (m < 0 || grantpt(m) < 0 || unlockpt(m) < 0)
-		return -1;
+	assert_true(m >= 0);
+	assert_true(grantpt(m) == 0 && unlockpt(m) == 0);
 	const char *name = ptsname(m);
-	if (!name)
-		return -1;
+	assert_non_null(name);
 	snprintf(slave, cap, "%s", name);
 	return m;
 }
@@ -316,15 +318,8 @@ static int open_pty(char *slave, size_t cap)
 static hb_link *open_tty(const char *slave, const char *options)
 {
 	char text[160];
-	hb_resource res;
-	char err[256];
 	snprintf(text, sizeof text, "tty:%s%s", slave, options);
-	assert_int_equal(hb_resource_parse(text, &res, err, sizeof err), HB_OK);
-	hb_link *link = NULL;
-	int rc = hb_link_open(&res, &link);
-	if (rc != HB_OK)
-		fail_msg("open %s: %s", text, hb_link_errmsg(link));
-	return link;
+	return open_text(text);
 }
 
 static void test_pty_exchange_raw(void **state)
@@ -339,17 +334,13 @@ static void test_pty_exchange_raw(void **state)
 	};
 	char slave[128];
 	int master = open_pty(slave, sizeof slave);
-	assert_true(master >= 0);
 	hb_link *link = open_tty(slave, "?baud=115200&timeout=2000");
 	peer p;
 	assert_int_equal(peer_start_fd(&p, master, steps, N(steps)), 0);
 
-	send_text(link, "*IDN?\n");
-	expect_line(link, "ACME,PTY,1,2");
-	send_text(link, "RAW?\n");
-	expect_line(link, "a\x13" "b\x11" "c\x03" "d\x7f" "e");
-	send_text(link, "CR?\r\n");
-	expect_line(link, "x");
+	ask(link, "*IDN?\n", "ACME,PTY,1,2");
+	ask(link, "RAW?\n", "a\x13" "b\x11" "c\x03" "d\x7f" "e");
+	ask(link, "CR?\r\n", "x");
 	/* No echo and no CR->LF translation: nothing more is waiting. */
 	assert_int_equal(hb_link_drain(link, 100, 1000), 0);
 
@@ -377,7 +368,6 @@ static void test_pty_line_settings(void **state)
 	(void)state;
 	char slave[128];
 	int master = open_pty(slave, sizeof slave);
-	assert_true(master >= 0);
 	hb_link *link = open_tty(slave, "?baud=19200&data=7&parity=even&stop=2&flow=xonxoff");
 	int fd = open(slave, O_RDWR | O_NOCTTY | O_NONBLOCK);
 	if (fd >= 0) {
@@ -395,12 +385,10 @@ static void test_pty_line_settings(void **state)
 
 	/* A rate termios cannot set is refused by name. */
 	master = open_pty(slave, sizeof slave);
-	assert_true(master >= 0);
 	char text[160];
-	hb_resource res;
-	char err[256];
 	snprintf(text, sizeof text, "tty:%s?baud=12345", slave);
-	assert_int_equal(hb_resource_parse(text, &res, err, sizeof err), HB_OK);
+	hb_resource res;
+	parse_ok(text, &res);
 	link = NULL;
 	assert_int_equal(hb_link_open(&res, &link), HB_ERR_ARG);
 	assert_non_null(strstr(hb_link_errmsg(link), "12345"));
@@ -413,13 +401,11 @@ static void test_pty_exclusive(void **state)
 	(void)state;
 	char slave[128];
 	int master = open_pty(slave, sizeof slave);
-	assert_true(master >= 0);
 	hb_link *first = open_tty(slave, "");
 	char text[160];
-	hb_resource res;
-	char err[256];
 	snprintf(text, sizeof text, "tty:%s", slave);
-	assert_int_equal(hb_resource_parse(text, &res, err, sizeof err), HB_OK);
+	hb_resource res;
+	parse_ok(text, &res);
 	hb_link *second = NULL;
 	assert_true(hb_link_open(&res, &second) < 0);
 	assert_non_null(strstr(hb_link_errmsg(second), "in use"));
@@ -441,7 +427,6 @@ static void test_pty_timeout_and_hangup(void **state)
 	};
 	char slave[128];
 	int master = open_pty(slave, sizeof slave);
-	assert_true(master >= 0);
 	hb_link *link = open_tty(slave, "?timeout=5000");
 	peer p;
 	assert_int_equal(peer_start_fd(&p, master, steps, N(steps)), 0);
@@ -461,14 +446,13 @@ static void test_tty_not_a_terminal(void **state)
 {
 	(void)state;
 	hb_resource res;
-	char err[256];
 	hb_link *link = NULL;
-	assert_int_equal(hb_resource_parse("tty:/dev/null", &res, err, sizeof err), HB_OK);
+	parse_ok("tty:/dev/null", &res);
 	assert_int_equal(hb_link_open(&res, &link), HB_ERR_ARG);
 	assert_non_null(strstr(hb_link_errmsg(link), "not a terminal"));
 	hb_link_close(link);
 	link = NULL;
-	assert_int_equal(hb_resource_parse("tty:/dev/no-such-tty-here", &res, err, sizeof err), HB_OK);
+	parse_ok("tty:/dev/no-such-tty-here", &res);
 	assert_int_equal(hb_link_open(&res, &link), HB_ERR_NOTFOUND);
 	assert_non_null(strstr(hb_link_errmsg(link), "/dev/no-such-tty-here"));
 	hb_link_close(link);
@@ -495,12 +479,7 @@ static void test_sim_if_present(void **state)
 	(void)state;
 	if (!hb_sim_inproc())
 		skip(); /* simulator not built yet: drivers/sim tests cover it */
-	hb_resource res;
-	char err[256];
-	assert_int_equal(hb_resource_parse("sim:lcr", &res, err, sizeof err), HB_OK);
-	hb_link *link = NULL;
-	if (hb_link_open(&res, &link) != HB_OK)
-		fail_msg("sim:lcr: %s", hb_link_errmsg(link));
+	hb_link *link = open_text("sim:lcr");
 	send_text(link, "*IDN?\n");
 	char line[256];
 	int n = hb_link_read_line(link, line, sizeof line, 3000);

@@ -16,6 +16,7 @@
 #include "fit/hb_fit.h"
 #include "src/analysis.h"
 #include "src/report.h"
+#include "store_fixture.h"
 
 #define EVIL_DESCRIPTION "Test choke <script>alert(\"x\")</script> & 'quoted'"
 
@@ -34,19 +35,39 @@ static double noise(unsigned *state)
 	return ((double)((*state >> 8) & 0xffff) / 65535.0 - 0.5) * 2e-4;
 }
 
-/* Invented knee-shaped part: L0 scaled by l0_scale, knee near 3 A. */
-static int64_t add_bias_sweep(fixture *fx, const char *serial, int64_t lot_id, double l0_scale, unsigned seed)
+/* Both invented sweeps are Ls-Rs records of a unit of the fixture's part;
+ * the caller fills in the rest before hb_db_sweep_begin. */
+static void sweep_of_unit(fixture *fx, const char *serial, int64_t lot_id, hb_db_sweep_kind kind, hb_db_sweep *s)
 {
 	int64_t unit = 0;
 	assert_int_equal(hb_db_unit_ensure(fx->db, fx->part.id, serial, lot_id, &unit), HB_OK);
+	hb_db_sweep_init(s);
+	s->kind = kind;
+	s->unit_id = unit;
+	snprintf(s->measured_pair, sizeof s->measured_pair, "Ls-Rs");
+}
+
+/* Ends the sweep complete and stores its analysis, as a measurement would. */
+static int end_and_analyse(fixture *fx, int64_t sweep_id)
+{
+	assert_int_equal(hb_db_sweep_end(fx->db, sweep_id, HB_DB_COMPLETE, NULL), HB_OK);
+	hb_analysis_options opt;
+	hb_analysis_options_init(&opt);
+	hb_analysis_summary *an = calloc(1, sizeof *an);
+	assert_non_null(an);
+	int rc = hb_analysis_sweep(fx->db, sweep_id, &opt, an);
+	free(an);
+	return rc;
+}
+
+/* Invented knee-shaped part: L0 scaled by l0_scale, knee near 3 A. */
+static int64_t add_bias_sweep(fixture *fx, const char *serial, int64_t lot_id, double l0_scale, unsigned seed)
+{
 	hb_db_sweep s;
-	hb_db_sweep_init(&s);
-	s.kind = HB_DB_SWEEP_BIAS;
-	s.unit_id = unit;
+	sweep_of_unit(fx, serial, lot_id, HB_DB_SWEEP_BIAS, &s);
 	snprintf(s.station, sizeof s.station, "test-bench");
 	snprintf(s.operator_name, sizeof s.operator_name, "tester");
 	snprintf(s.lcr_idn, sizeof s.lcr_idn, "Example,LCR-1,0001,1.0");
-	snprintf(s.measured_pair, sizeof s.measured_pair, "Ls-Rs");
 	s.test_freq_hz = 100e3;
 	s.test_level = 0.5;
 	s.plan_from = 0;
@@ -65,25 +86,14 @@ static int64_t add_bias_sweep(fixture *fx, const char *serial, int64_t lot_id, d
 		p.secondary = 0.1;
 		assert_int_equal(hb_db_point_add(fx->db, &p), HB_OK);
 	}
-	assert_int_equal(hb_db_sweep_end(fx->db, s.id, HB_DB_COMPLETE, NULL), HB_OK);
-	hb_analysis_options opt;
-	hb_analysis_options_init(&opt);
-	hb_analysis_summary *an = calloc(1, sizeof *an);
-	assert_non_null(an);
-	assert_int_equal(hb_analysis_sweep(fx->db, s.id, &opt, an), HB_OK);
-	free(an);
+	assert_int_equal(end_and_analyse(fx, s.id), HB_OK);
 	return s.id;
 }
 
 static int64_t add_freq_sweep(fixture *fx)
 {
-	int64_t unit = 0;
-	assert_int_equal(hb_db_unit_ensure(fx->db, fx->part.id, "T-0001", 0, &unit), HB_OK);
 	hb_db_sweep s;
-	hb_db_sweep_init(&s);
-	s.kind = HB_DB_SWEEP_FREQUENCY;
-	s.unit_id = unit;
-	snprintf(s.measured_pair, sizeof s.measured_pair, "Ls-Rs");
+	sweep_of_unit(fx, "T-0001", 0, HB_DB_SWEEP_FREQUENCY, &s);
 	assert_int_equal(hb_db_sweep_begin(fx->db, &s), HB_OK);
 	/* (R + jwL) || C with invented values: SRF = 1/(2 pi sqrt(LC)) = 3.56 MHz. */
 	hb_fit_freq_result model;
@@ -105,13 +115,7 @@ static int64_t add_freq_sweep(fixture *fx)
 		p.secondary *= 1 + noise(&seed);
 		assert_int_equal(hb_db_point_add(fx->db, &p), HB_OK);
 	}
-	assert_int_equal(hb_db_sweep_end(fx->db, s.id, HB_DB_COMPLETE, NULL), HB_OK);
-	hb_analysis_options opt;
-	hb_analysis_options_init(&opt);
-	hb_analysis_summary *an = calloc(1, sizeof *an);
-	assert_non_null(an);
-	hb_analysis_sweep(fx->db, s.id, &opt, an);
-	free(an);
+	end_and_analyse(fx, s.id);
 	return s.id;
 }
 
@@ -120,11 +124,7 @@ static int setup(void **state)
 	fixture *fx = calloc(1, sizeof *fx);
 	if (!fx)
 		return -1;
-	snprintf(fx->dir, sizeof fx->dir, "/tmp/hb-test-report-XXXXXX");
-	if (!mkdtemp(fx->dir))
-		return -1;
-	snprintf(fx->db_path, sizeof fx->db_path, "%s/bench.db", fx->dir);
-	if (hb_db_open(fx->db_path, &fx->db) != HB_OK)
+	if (temp_store_open(fx->dir, sizeof fx->dir, "report", fx->db_path, sizeof fx->db_path, &fx->db) != 0)
 		return -1;
 	hb_db_part *p = &fx->part;
 	hb_db_part_init(p);
@@ -183,13 +183,9 @@ static int setup(void **state)
 static int teardown(void **state)
 {
 	fixture *fx = *state;
-	hb_db_close(fx->db);
-	char cmd[400];
-	snprintf(cmd, sizeof cmd, "rm -rf '%s'", fx->dir);
-	if (system(cmd) != 0)
-		return -1;
+	int rc = temp_store_remove(fx->dir, fx->db);
 	free(fx);
-	return 0;
+	return rc;
 }
 
 /* Runs a report into a malloc'd string. */
@@ -207,14 +203,9 @@ static char *report_text(fixture *fx, report_kind kind, int64_t id, const char *
 				   hb_report_part(fx->db, "TST-100", f, err, sizeof err);
 	if (rc != HB_OK)
 		fail_msg("report: %d %s", rc, err);
-	long len = ftell(f);
+	long len = 0;
+	char *buf = stream_read_back(f, &len);
 	assert_true(len > 1000);
-	rewind(f);
-	char *buf = malloc((size_t)len + 1);
-	assert_non_null(buf);
-	assert_int_equal(fread(buf, 1, (size_t)len, f), (size_t)len);
-	buf[len] = '\0';
-	fclose(f);
 	return buf;
 }
 

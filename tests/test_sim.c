@@ -111,6 +111,28 @@ static double query_double(hb_sim *sim, client *c, const char *cmd)
 	return strtod(reply, NULL);
 }
 
+static void expect_reply(hb_sim *sim, client *c, const char *cmd, const char *want)
+{
+	char reply[512];
+	query(sim, c, cmd, reply, sizeof reply);
+	assert_string_equal(reply, want);
+}
+
+/* Only maker and model are fixed; serial and firmware may change. */
+static void expect_idn(hb_sim *sim, client *c, const char *maker_model)
+{
+	char reply[256];
+	query(sim, c, "*IDN?", reply, sizeof reply);
+	assert_true(strncmp(reply, maker_model, strlen(maker_model)) == 0);
+}
+
+/* Faults add up, so each new one starts from a clean instrument. */
+static int replace_fault(hb_sim *sim, hb_sim_role role, const char *spec)
+{
+	hb_sim_set_fault(sim, role, "none");
+	return hb_sim_set_fault(sim, role, spec);
+}
+
 static int next_error(hb_sim *sim, client *c)
 {
 	char reply[256];
@@ -341,8 +363,7 @@ static void test_scpi_commands(void **state)
 	char r[512];
 	client_attach(sim, HB_SIM_LCR, &lcr);
 	client_attach(sim, HB_SIM_SUPPLY, &dcs);
-	query(sim, &lcr, "*IDN?", r, sizeof r);
-	assert_true(strncmp(r, "Henrybench,SIM-LCR1,", 20) == 0);
+	expect_idn(sim, &lcr, "Henrybench,SIM-LCR1,");
 	query(sim, &dcs, "*idn?", r, sizeof r);
 	assert_true(strncmp(r, "Henrybench,SIM-DCS1,", 20) == 0);
 
@@ -353,8 +374,7 @@ static void test_scpi_commands(void **state)
 	client_send(&lcr, "IMP:LEV:VOLT 500MV");
 	assert_near(query_double(sim, &lcr, "IMP:LEV:VOLT?"), 0.5, 1e-12);
 	client_send(&lcr, "IMP:FUNC PAR,LR;IMP:APER LONG;IMP:AVER 4");
-	query(sim, &lcr, "IMP:FUNC?;IMP:APER?;IMP:AVER?", r, sizeof r);
-	assert_string_equal(r, "PAR,LR;LONG;4");
+	expect_reply(sim, &lcr, "IMP:FUNC?;IMP:APER?;IMP:AVER?", "PAR,LR;LONG;4");
 	assert_int_equal(next_error(sim, &lcr), 0);
 
 	/* a reading at 1 kHz, series L-R, near the unbiased value */
@@ -416,7 +436,6 @@ static void test_bias_compliance_heating(void **state)
 	(void)state;
 	hb_sim *sim = new_sim(NULL);
 	client lcr, dcs;
-	char r[512];
 	client_attach(sim, HB_SIM_LCR, &lcr);
 	client_attach(sim, HB_SIM_SUPPLY, &dcs);
 	client_send(&lcr, "IMP:FUNC SER,LR");
@@ -425,8 +444,7 @@ static void test_bias_compliance_heating(void **state)
 	/* the supply's current is the meter's bias */
 	client_send(&dcs, "VOLT 5;CURR 6;OUTP ON");
 	settle(sim, 20);
-	query(sim, &dcs, "STAT:QUES:COND?", r, sizeof r);
-	assert_string_equal(r, "1");
+	expect_reply(sim, &dcs, "STAT:QUES:COND?", "1");
 	assert_near(query_double(sim, &dcs, "MEAS:CURR?"), 6.0, 0.01);
 	double l6 = query_double(sim, &lcr, "IMP:READ?");
 	assert_true(l6 < 0.5 * l0);
@@ -440,8 +458,7 @@ static void test_bias_compliance_heating(void **state)
 	/* compliance: 6 A through about 31 mOhm needs more than 50 mV */
 	client_send(&dcs, "VOLT 0.05");
 	settle(sim, 20);
-	query(sim, &dcs, "STAT:QUES:COND?", r, sizeof r);
-	assert_string_equal(r, "2");
+	expect_reply(sim, &dcs, "STAT:QUES:COND?", "2");
 	double amps = query_double(sim, &dcs, "MEAS:CURR?");
 	double volts = query_double(sim, &dcs, "MEAS:VOLT?");
 	assert_true(amps < 6.0 && amps > 1.0);
@@ -450,8 +467,7 @@ static void test_bias_compliance_heating(void **state)
 	client_send(&dcs, "OUTP OFF");
 	settle(sim, 20);
 	assert_near(query_double(sim, &dcs, "MEAS:CURR?"), 0.0, 0.005);
-	query(sim, &dcs, "OUTP?;STAT:QUES:COND?", r, sizeof r);
-	assert_string_equal(r, "0;0");
+	expect_reply(sim, &dcs, "OUTP?;STAT:QUES:COND?", "0;0");
 	close(lcr.fd);
 	close(dcs.fd);
 	hb_sim_free(sim);
@@ -531,8 +547,7 @@ static void test_fault_delay_late(void **state)
 	/* late is one-shot: the next query elsewhere is answered at once */
 	client c;
 	client_attach(sim, HB_SIM_LCR, &c);
-	query(sim, &c, "*OPC?", r, sizeof r);
-	assert_string_equal(r, "1");
+	expect_reply(sim, &c, "*OPC?", "1");
 	close(a.fd);
 	close(b.fd);
 	close(c.fd);
@@ -553,21 +568,16 @@ static void test_fault_drop_garble_crlf_echo(void **state)
 	query(sim, &c, "*IDN?", r, sizeof r);
 	assert_true(strncmp(r, "Henrybench", 10) == 0);
 
-	hb_sim_set_fault(sim, HB_SIM_LCR, "none");
-	hb_sim_set_fault(sim, HB_SIM_LCR, "garble=1");
+	replace_fault(sim, HB_SIM_LCR, "garble=1");
 	query(sim, &c, "*IDN?", r, sizeof r);
 	assert_true(strncmp(r, "Henrybench", 10) != 0);
 	assert_int_equal(strlen(r), strlen("Henrybench,SIM-LCR1,SL0001,1.0"));
 
-	hb_sim_set_fault(sim, HB_SIM_LCR, "none");
-	hb_sim_set_fault(sim, HB_SIM_LCR, "crlf");
-	query(sim, &c, "*OPC?", r, sizeof r);
-	assert_string_equal(r, "1\r");
+	replace_fault(sim, HB_SIM_LCR, "crlf");
+	expect_reply(sim, &c, "*OPC?", "1\r");
 
-	hb_sim_set_fault(sim, HB_SIM_LCR, "none");
-	hb_sim_set_fault(sim, HB_SIM_LCR, "echo");
-	query(sim, &c, "*OPC?", r, sizeof r);
-	assert_string_equal(r, "*OPC?");
+	replace_fault(sim, HB_SIM_LCR, "echo");
+	expect_reply(sim, &c, "*OPC?", "*OPC?");
 	assert_int_equal(client_line(sim, &c, r, sizeof r, 2000), 1);
 	assert_string_equal(r, "1");
 	close(c.fd);
@@ -582,24 +592,20 @@ static void test_fault_split_error_disconnect(void **state)
 	char r[256];
 	client_attach(sim, HB_SIM_SUPPLY, &c);
 	assert_int_equal(hb_sim_set_fault(sim, HB_SIM_SUPPLY, "split"), HB_OK);
-	query(sim, &c, "*IDN?", r, sizeof r);
-	assert_true(strncmp(r, "Henrybench,SIM-DCS1,", 20) == 0);
+	expect_idn(sim, &c, "Henrybench,SIM-DCS1,");
 
-	hb_sim_set_fault(sim, HB_SIM_SUPPLY, "none");
-	assert_int_equal(hb_sim_set_fault(sim, HB_SIM_SUPPLY, "error=-222"), HB_OK);
+	assert_int_equal(replace_fault(sim, HB_SIM_SUPPLY, "error=-222"), HB_OK);
 	assert_int_equal(next_error(sim, &c), -222);
 	assert_int_equal(next_error(sim, &c), 0);
 
 	/* the count runs per connection: this one has had 3 commands */
-	hb_sim_set_fault(sim, HB_SIM_SUPPLY, "none");
-	hb_sim_set_fault(sim, HB_SIM_SUPPLY, "disconnect=5");
+	replace_fault(sim, HB_SIM_SUPPLY, "disconnect=5");
 	query(sim, &c, "*OPC?", r, sizeof r);
 	client_send(&c, "*OPC?");
 	assert_int_equal(client_line(sim, &c, r, sizeof r, 2000), -1);
 	/* the server survives and serves a new client */
 	client_attach(sim, HB_SIM_SUPPLY, &other);
-	query(sim, &other, "*OPC?", r, sizeof r);
-	assert_string_equal(r, "1");
+	expect_reply(sim, &other, "*OPC?", "1");
 	close(c.fd);
 	close(other.fd);
 	hb_sim_free(sim);
@@ -621,12 +627,10 @@ static void test_fault_deaf_trip(void **state)
 	client_attach(sim, HB_SIM_SUPPLY, &d);
 	assert_int_equal(hb_sim_set_fault(sim, HB_SIM_SUPPLY, "trip"), HB_OK);
 	client_send(&d, "VOLT 5;CURR 1;OUTP ON");
-	query(sim, &d, "OUTP?;SOUR:VOLT:PROT:TRIP?", r, sizeof r);
-	assert_string_equal(r, "0;1");
+	expect_reply(sim, &d, "OUTP?;SOUR:VOLT:PROT:TRIP?", "0;1");
 	assert_int_equal(next_error(sim, &d), -221);
 	client_send(&d, "OUTP:PROT:CLE;OUTP ON");
-	query(sim, &d, "OUTP?;VOLT:PROT:TRIP?", r, sizeof r);
-	assert_string_equal(r, "1;0");
+	expect_reply(sim, &d, "OUTP?;VOLT:PROT:TRIP?", "1;0");
 	client_send(&d, "OUTP OFF");
 	query(sim, &d, "*OPC?", r, sizeof r);
 	close(c.fd);
@@ -694,9 +698,7 @@ static void test_tcp_listener(void **state)
 		inet_pton(AF_INET, "127.0.0.1", &a.sin_addr);
 		assert_int_equal(connect(c.fd, (struct sockaddr *)&a, sizeof a), 0);
 		fcntl(c.fd, F_SETFL, fcntl(c.fd, F_GETFL) | O_NONBLOCK);
-		char r[256];
-		query(sim, &c, "*IDN?", r, sizeof r);
-		assert_true(strncmp(r, "Henrybench,SIM-LCR1,", 20) == 0);
+		expect_idn(sim, &c, "Henrybench,SIM-LCR1,");
 		close(c.fd);
 		settle(sim, 5);
 	}
@@ -717,9 +719,7 @@ static void test_pty(void **state)
 		tcgetattr(c.fd, &t);
 		cfmakeraw(&t);
 		tcsetattr(c.fd, TCSANOW, &t);
-		char r[256];
-		query(sim, &c, "*IDN?", r, sizeof r);
-		assert_true(strncmp(r, "Henrybench,SIM-DCS1,", 20) == 0);
+		expect_idn(sim, &c, "Henrybench,SIM-DCS1,");
 		close(c.fd);
 		settle(sim, 5);
 	}

@@ -13,25 +13,7 @@
 #include <unistd.h>
 
 #include "drivers/hb_drivers.h"
-#include "scripted_peer.h"
-
-static int setup(void **state)
-{
-	(void)state;
-	unsetenv("HENRYBENCH_PROFILE_PATH");
-	hb_sim *sim = hb_sim_inproc();
-	assert_non_null(sim);
-	/* a thousandfold faster bench: same protocol, shorter waits */
-	assert_int_equal(hb_sim_set_param(sim, "time_scale", 1e-3), HB_OK);
-	return 0;
-}
-
-static int teardown(void **state)
-{
-	(void)state;
-	hb_sim_inproc_shutdown();
-	return 0;
-}
+#include "bench_fixture.h"
 
 static void clear_faults(void)
 {
@@ -185,8 +167,6 @@ static void test_error_paths(void **state)
 	hb_supply_close(s);
 }
 
-#define OK_ERR "0,\"No error\"\n"
-
 static void test_token_dialect(void **state)
 {
 	(void)state;
@@ -244,10 +224,7 @@ static void test_token_dialect(void **state)
 	assert_int_equal(hb_supply_measure_current(s, &amps), HB_ERR_PROTOCOL);
 	assert_non_null(strstr(hb_supply_errmsg(s), "field 2"));
 	hb_supply_close(s);
-	peer_finish(&p);
-	if (p.mismatches)
-		print_error("%s\n", p.mismatch);
-	assert_int_equal(p.mismatches, 0);
+	bench_peer_finish(&p);
 }
 
 static void test_mode_unreported(void **state)
@@ -282,8 +259,7 @@ static void test_mode_unreported(void **state)
 	double v;
 	assert_int_equal(hb_supply_measure_voltage(s, &v), HB_ERR_UNSUPPORTED);
 	hb_supply_close(s);
-	peer_finish(&p);
-	assert_int_equal(p.mismatches, 0);
+	bench_peer_finish(&p);
 	unlink(path);
 	rmdir(dir);
 }
@@ -300,5 +276,5 @@ int main(void)
 		cmocka_unit_test(test_token_dialect),
 		cmocka_unit_test(test_mode_unreported),
 	};
-	return cmocka_run_group_tests(tests, setup, teardown);
+	return cmocka_run_group_tests(tests, bench_fixture_setup, bench_fixture_teardown);
 }

@@ -174,11 +174,48 @@ static int run_recorded(hb_lcr *lcr, hb_supply *supply, const hb_sweep_plan *pla
 	return hb_sweep_run(lcr, supply, plan, &cb, res);
 }
 
+/* Most engine tests differ only in the resources they open, a tweak to the
+ * small plan and how the sink misbehaves; the rest of the bench is kept here
+ * so each test reads as its scenario and its checks. */
+typedef struct engine_run {
+	hb_lcr *lcr;
+	hb_supply *supply;
+	hb_sweep_plan plan;
+	recorder rec;
+	hb_sweep_result res;
+} engine_run;
+
+static void engine_open(engine_run *r, const char *lcr_res, const char *supply_res, int act_at, sink_action act)
+{
+	memset(r, 0, sizeof *r);
+	open_bench(lcr_res, supply_res, &r->lcr, &r->supply);
+	small_plan(&r->plan);
+	r->rec.act_at = act_at;
+	r->rec.act = act;
+}
+
+static int engine_sweep(engine_run *r)
+{
+	return run_recorded(r->lcr, r->supply, &r->plan, &r->rec, &r->res);
+}
+
+static void engine_close(engine_run *r)
+{
+	hb_supply_close(r->supply);
+	hb_lcr_close(r->lcr);
+}
+
 /* The supply must be at zero and off: the one rule every end obeys. */
 static void assert_supply_safe(void)
 {
 	assert_true(sim_state("state.output") == 0);
 	assert_true(sim_state("state.setpoint") == 0);
+}
+
+static void engine_close_safe(engine_run *r)
+{
+	assert_supply_safe();
+	engine_close(r);
 }
 
 /* ------------------------------------------------------------------ */
@@ -256,58 +293,44 @@ static void test_setpoints(void **state)
 static void test_complete_sweep_leaves_supply_off(void **state)
 {
 	(void)state;
-	hb_lcr *lcr = NULL;
-	hb_supply *supply = NULL;
-	open_bench("sim:lcr", "sim:supply", &lcr, &supply);
-	hb_sweep_plan plan;
-	small_plan(&plan);
-	plan.return_down = true;
-	recorder rec = { .act_at = -1 };
-	hb_sweep_result res;
-	assert_int_equal(run_recorded(lcr, supply, &plan, &rec, &res), HB_OK);
-	assert_int_equal(res.end, HB_SWEEP_COMPLETE);
-	assert_int_equal(res.points, 21);
-	assert_int_equal(rec.n, 21);
-	for (int i = 0; i < rec.n; i++) {
-		const hb_sweep_point *p = &rec.pts[i];
+	engine_run r;
+	engine_open(&r, "sim:lcr", "sim:supply", -1, ACT_NONE);
+	r.plan.return_down = true;
+	assert_int_equal(engine_sweep(&r), HB_OK);
+	assert_int_equal(r.res.end, HB_SWEEP_COMPLETE);
+	assert_int_equal(r.res.points, 21);
+	assert_int_equal(r.rec.n, 21);
+	for (int i = 0; i < r.rec.n; i++) {
+		const hb_sweep_point *p = &r.rec.pts[i];
 		assert_int_equal(p->sequence, i);
 		assert_int_equal(p->direction, i < 11 ? 1 : -1);
 		assert_true(isfinite(p->primary) && p->primary > 0);
 		/* The supply read back what was asked, within its settling. */
 		assert_true(fabs(p->bias_measured - p->bias_set) < 0.02);
 		if (i > 0)
-			assert_true(p->t > rec.pts[i - 1].t);
+			assert_true(p->t > r.rec.pts[i - 1].t);
 	}
 	/* A gapped core loses inductance under bias, and the way back down
 	 * meets the way up at zero. */
-	assert_true(rec.pts[10].primary < 0.9 * rec.pts[0].primary);
-	assert_near_rel(rec.pts[20].primary, rec.pts[0].primary, 0.01);
-	assert_false(res.current_may_flow);
-	assert_supply_safe();
-	hb_supply_close(supply);
-	hb_lcr_close(lcr);
+	assert_true(r.rec.pts[10].primary < 0.9 * r.rec.pts[0].primary);
+	assert_near_rel(r.rec.pts[20].primary, r.rec.pts[0].primary, 0.01);
+	assert_false(r.res.current_may_flow);
+	engine_close_safe(&r);
 }
 
 static void test_signal_ramps_down_and_aborts(void **state)
 {
 	(void)state;
-	hb_lcr *lcr = NULL;
-	hb_supply *supply = NULL;
-	open_bench("sim:lcr", "sim:supply", &lcr, &supply);
-	hb_sweep_plan plan;
-	small_plan(&plan);
-	recorder rec = { .act_at = 3, .act = ACT_SIGINT };
-	hb_sweep_result res;
-	assert_int_equal(run_recorded(lcr, supply, &plan, &rec, &res), HB_ERR_INTERRUPTED);
-	assert_int_equal(res.end, HB_SWEEP_ABORTED);
-	assert_true(res.interrupted_by_signal);
-	assert_int_equal(res.signal_number, SIGINT);
-	assert_int_equal(res.points, 4);
-	assert_non_null(strstr(res.reason, "SIGINT"));
-	assert_int_equal(hb_session_exit_code(&res), 130);
-	assert_supply_safe();
-	hb_supply_close(supply);
-	hb_lcr_close(lcr);
+	engine_run r;
+	engine_open(&r, "sim:lcr", "sim:supply", 3, ACT_SIGINT);
+	assert_int_equal(engine_sweep(&r), HB_ERR_INTERRUPTED);
+	assert_int_equal(r.res.end, HB_SWEEP_ABORTED);
+	assert_true(r.res.interrupted_by_signal);
+	assert_int_equal(r.res.signal_number, SIGINT);
+	assert_int_equal(r.res.points, 4);
+	assert_non_null(strstr(r.res.reason, "SIGINT"));
+	assert_int_equal(hb_session_exit_code(&r.res), 130);
+	engine_close_safe(&r);
 }
 
 /* A Ctrl-C while the instruments are still being opened: the sweep stops
@@ -320,20 +343,14 @@ static void test_signal_before_start_switches_nothing_on(void **state)
 	FILE *log = fopen(log_path, "w+");
 	assert_non_null(log);
 	hb_sim_set_log(hb_sim_inproc(), log);
-	hb_lcr *lcr = NULL;
-	hb_supply *supply = NULL;
-	open_bench("sim:lcr", "sim:supply", &lcr, &supply);
-	hb_sweep_plan plan;
-	small_plan(&plan);
-	recorder rec = { .act_at = -1 };
-	hb_sweep_result res;
+	engine_run r;
+	engine_open(&r, "sim:lcr", "sim:supply", -1, ACT_NONE);
 	raise(SIGINT);
-	assert_int_equal(run_recorded(lcr, supply, &plan, &rec, &res), HB_ERR_INTERRUPTED);
-	assert_int_equal(res.end, HB_SWEEP_ABORTED);
-	assert_int_equal(res.points, 0);
-	assert_int_equal(hb_session_exit_code(&res), 130);
-	hb_supply_close(supply);
-	hb_lcr_close(lcr);
+	assert_int_equal(engine_sweep(&r), HB_ERR_INTERRUPTED);
+	assert_int_equal(r.res.end, HB_SWEEP_ABORTED);
+	assert_int_equal(r.res.points, 0);
+	assert_int_equal(hb_session_exit_code(&r.res), 130);
+	engine_close(&r);
 	hb_sim_set_log(hb_sim_inproc(), NULL);
 	rewind(log);
 	char line[512];
@@ -346,86 +363,59 @@ static void test_signal_before_start_switches_nothing_on(void **state)
 static void test_store_failure_ends_safely(void **state)
 {
 	(void)state;
-	hb_lcr *lcr = NULL;
-	hb_supply *supply = NULL;
-	open_bench("sim:lcr", "sim:supply", &lcr, &supply);
-	hb_sweep_plan plan;
-	small_plan(&plan);
-	recorder rec = { .act_at = 2, .act = ACT_STORE_FULL };
-	hb_sweep_result res;
-	assert_int_equal(run_recorded(lcr, supply, &plan, &rec, &res), HB_ERR_DB_FULL);
-	assert_int_equal(res.end, HB_SWEEP_FAILED);
-	assert_int_equal(res.points, 2);
-	assert_non_null(strstr(res.reason, "could not store point 3"));
-	assert_int_equal(hb_session_exit_code(&res), 1);
-	assert_supply_safe();
-	hb_supply_close(supply);
-	hb_lcr_close(lcr);
+	engine_run r;
+	engine_open(&r, "sim:lcr", "sim:supply", 2, ACT_STORE_FULL);
+	assert_int_equal(engine_sweep(&r), HB_ERR_DB_FULL);
+	assert_int_equal(r.res.end, HB_SWEEP_FAILED);
+	assert_int_equal(r.res.points, 2);
+	assert_non_null(strstr(r.res.reason, "could not store point 3"));
+	assert_int_equal(hb_session_exit_code(&r.res), 1);
+	engine_close_safe(&r);
 }
 
 static void test_compliance_aborts(void **state)
 {
 	(void)state;
-	hb_lcr *lcr = NULL;
-	hb_supply *supply = NULL;
-	open_bench("sim:lcr", "sim:supply", &lcr, &supply);
-	hb_sweep_plan plan;
-	small_plan(&plan);
+	engine_run r;
+	engine_open(&r, "sim:lcr", "sim:supply", -1, ACT_NONE);
 	/* 30 mOhm of winding and leads need 0.12 V at 4 A: 0.05 V runs out near 1.7 A. */
-	plan.limits.max_voltage = 0.05;
-	recorder rec = { .act_at = -1 };
-	hb_sweep_result res;
-	assert_int_equal(run_recorded(lcr, supply, &plan, &rec, &res), HB_ERR_COMPLIANCE);
-	assert_int_equal(res.end, HB_SWEEP_ABORTED);
-	assert_non_null(strstr(res.reason, "compliance"));
-	assert_true(res.points >= 2 && res.points < 11);
-	for (int i = 0; i < rec.n; i++)
-		assert_true(rec.pts[i].bias_set * 0.030 < 0.05 * 1.05);
-	assert_supply_safe();
-	hb_supply_close(supply);
-	hb_lcr_close(lcr);
+	r.plan.limits.max_voltage = 0.05;
+	assert_int_equal(engine_sweep(&r), HB_ERR_COMPLIANCE);
+	assert_int_equal(r.res.end, HB_SWEEP_ABORTED);
+	assert_non_null(strstr(r.res.reason, "compliance"));
+	assert_true(r.res.points >= 2 && r.res.points < 11);
+	for (int i = 0; i < r.rec.n; i++)
+		assert_true(r.rec.pts[i].bias_set * 0.030 < 0.05 * 1.05);
+	engine_close_safe(&r);
 }
 
 static void test_meter_timeout_fails_safely(void **state)
 {
 	(void)state;
-	hb_lcr *lcr = NULL;
-	hb_supply *supply = NULL;
-	open_bench("sim:lcr?timeout=200", "sim:supply", &lcr, &supply);
-	hb_sweep_plan plan;
-	small_plan(&plan);
-	recorder rec = { .act_at = 2, .act = ACT_LCR_LATE };
-	hb_sweep_result res;
-	assert_int_equal(run_recorded(lcr, supply, &plan, &rec, &res), HB_ERR_TIMEOUT);
-	assert_int_equal(res.end, HB_SWEEP_FAILED);
-	assert_int_equal(res.points, 3);
-	assert_non_null(strstr(res.reason, "meter"));
-	assert_false(res.current_may_flow);
-	assert_supply_safe();
-	hb_supply_close(supply);
-	hb_lcr_close(lcr);
+	engine_run r;
+	engine_open(&r, "sim:lcr?timeout=200", "sim:supply", 2, ACT_LCR_LATE);
+	assert_int_equal(engine_sweep(&r), HB_ERR_TIMEOUT);
+	assert_int_equal(r.res.end, HB_SWEEP_FAILED);
+	assert_int_equal(r.res.points, 3);
+	assert_non_null(strstr(r.res.reason, "meter"));
+	assert_false(r.res.current_may_flow);
+	engine_close_safe(&r);
 }
 
 static void test_lost_supply_says_current_may_flow(void **state)
 {
 	(void)state;
-	hb_lcr *lcr = NULL;
-	hb_supply *supply = NULL;
-	open_bench("sim:lcr", "sim:supply?timeout=300", &lcr, &supply);
-	hb_sweep_plan plan;
-	small_plan(&plan);
-	recorder rec = { .act_at = 2, .act = ACT_SUPPLY_GONE };
-	hb_sweep_result res;
-	assert_true(run_recorded(lcr, supply, &plan, &rec, &res) < 0);
-	assert_int_equal(res.end, HB_SWEEP_FAILED);
-	assert_true(res.current_may_flow);
-	assert_non_null(strstr(res.reason, "could not be switched off"));
-	assert_int_equal(hb_session_exit_code(&res), 1);
+	engine_run r;
+	engine_open(&r, "sim:lcr", "sim:supply?timeout=300", 2, ACT_SUPPLY_GONE);
+	assert_true(engine_sweep(&r) < 0);
+	assert_int_equal(r.res.end, HB_SWEEP_FAILED);
+	assert_true(r.res.current_may_flow);
+	assert_non_null(strstr(r.res.reason, "could not be switched off"));
+	assert_int_equal(hb_session_exit_code(&r.res), 1);
 	/* The honest outcome: nobody could reach the supply, so it still drives current. */
 	assert_true(sim_state("state.output") == 1);
 	assert_true(sim_state("state.setpoint") > 0);
-	hb_supply_close(supply);
-	hb_lcr_close(lcr);
+	engine_close(&r);
 }
 
 /* The auto rule's points against the settled value of the same current:
@@ -689,6 +679,16 @@ static void prepare_store(char *path, size_t cap)
 	hb_db_close(db);
 }
 
+/* Every sweep in the store, unfiltered; the listing must succeed. */
+static size_t list_all_sweeps(hb_db *db, hb_db_sweep **list)
+{
+	hb_db_sweep_filter f;
+	hb_db_sweep_filter_init(&f);
+	size_t n = 0;
+	assert_int_equal(hb_db_sweep_list(db, &f, list, &n), HB_OK);
+	return n;
+}
+
 static void test_sigkill_keeps_points_marks_interrupted(void **state)
 {
 	(void)state;
@@ -706,12 +706,8 @@ static void test_sigkill_keeps_points_marks_interrupted(void **state)
 	hb_db *db = NULL;
 	assert_int_equal(hb_db_open(path, &db), HB_OK);
 	assert_int_equal(hb_db_recovered_count(db), 1);
-	hb_db_sweep_filter f;
-	hb_db_sweep_filter_init(&f);
 	hb_db_sweep *list = NULL;
-	size_t n = 0;
-	assert_int_equal(hb_db_sweep_list(db, &f, &list, &n), HB_OK);
-	assert_int_equal(n, 1);
+	assert_int_equal(list_all_sweeps(db, &list), 1);
 	assert_int_equal(list[0].status, HB_DB_INTERRUPTED);
 	/* Every point reported before the kill was committed first. */
 	hb_db_point *pts = NULL;
@@ -782,11 +778,8 @@ static void test_two_processes_one_store(void **state)
 	assert_true(WIFEXITED(sb) && WEXITSTATUS(sb) == 0);
 	hb_db *db = NULL;
 	assert_int_equal(hb_db_open(path, &db), HB_OK);
-	hb_db_sweep_filter f;
-	hb_db_sweep_filter_init(&f);
 	hb_db_sweep *list = NULL;
-	size_t n = 0;
-	assert_int_equal(hb_db_sweep_list(db, &f, &list, &n), HB_OK);
+	size_t n = list_all_sweeps(db, &list);
 	assert_int_equal(n, 2);
 	for (size_t i = 0; i < n; i++) {
 		assert_int_equal(list[i].status, HB_DB_COMPLETE);
