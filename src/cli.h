@@ -66,6 +66,7 @@ int hb_cli_parse_sweep_id(const char *text, long long *id);
 /* Declared, not included, so that including cli.h needs neither jansson nor db/. */
 struct json_t;
 struct hb_db;
+struct hb_db_sweep;
 
 /* A JSON number, or null for NaN and infinity (JSON has neither). */
 struct json_t *hb_json_num(double v);
@@ -76,6 +77,14 @@ int hb_print_json(struct json_t *root);
 const char *hb_si_or_dash(char *buf, size_t cap, double v, const char *unit);
 /* Opens the store named by --db; NULL after printing the error. */
 struct hb_db *hb_cli_open_store(void);
+/* The parts of a stored sweep that show and export write with the same keys,
+ * so the two documents cannot drift apart: the sweep object begun with its id,
+ * kind, status and times; its "instruments" object; and a "settings" object
+ * begun with the test conditions (frequency, level, bias, circuit, pair).
+ * The caller completes each in its own layout. */
+struct json_t *hb_json_sweep_head(const struct hb_db_sweep *s);
+struct json_t *hb_json_sweep_instruments(const struct hb_db_sweep *s);
+struct json_t *hb_json_sweep_conditions(const struct hb_db_sweep *s);
 
 /* ---------------- commands ---------------- */
 int hb_cmd_ports(int argc, char **argv);

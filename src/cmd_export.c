@@ -199,32 +199,15 @@ static json_t *part_json(const hb_db_part *p)
 
 static json_t *sweep_json(const hb_db_sweep *s)
 {
-	json_t *o = json_object();
-	json_object_set_new(o, "id", json_integer(s->id));
-	json_object_set_new(o, "kind", json_string(hb_db_sweep_kind_name(s->kind)));
-	json_object_set_new(o, "status", json_string(hb_db_sweep_status_name(s->status)));
-	json_object_set_new(o, "status_reason", json_string(s->status_reason));
-	json_object_set_new(o, "started", json_string(s->started_iso));
-	json_object_set_new(o, "ended", s->ended_iso[0] ? json_string(s->ended_iso) : json_null());
+	json_t *o = hb_json_sweep_head(s);
 	json_object_set_new(o, "part_number", json_string(s->part_number));
 	json_object_set_new(o, "serial", json_string(s->serial));
 	json_object_set_new(o, "lot_code", json_string(s->lot_code));
 	json_object_set_new(o, "station", json_string(s->station));
 	json_object_set_new(o, "operator", json_string(s->operator_name));
 	json_object_set_new(o, "host", json_string(s->host));
-	json_t *inst = json_object();
-	json_object_set_new(inst, "lcr_idn", json_string(s->lcr_idn));
-	json_object_set_new(inst, "lcr_profile", json_string(s->lcr_profile));
-	json_object_set_new(inst, "supply_idn", json_string(s->supply_idn));
-	json_object_set_new(inst, "supply_profile", json_string(s->supply_profile));
-	json_object_set_new(o, "instruments", inst);
-	json_t *set = json_object();
-	json_object_set_new(set, "test_frequency_Hz", hb_json_num(s->test_freq_hz));
-	json_object_set_new(set, "test_level", hb_json_num(s->test_level));
-	json_object_set_new(set, "test_level_unit", json_string(s->test_level_kind == HB_DB_LEVEL_CURRENT ? "A" : "V"));
-	json_object_set_new(set, "bias_A", hb_json_num(s->bias_a));
-	json_object_set_new(set, "circuit", json_string(s->circuit));
-	json_object_set_new(set, "measured_pair", json_string(s->measured_pair));
+	json_object_set_new(o, "instruments", hb_json_sweep_instruments(s));
+	json_t *set = hb_json_sweep_conditions(s);
 	json_object_set_new(set, "averaging", json_integer(s->averaging));
 	json_object_set_new(set, "aperture", json_string(s->aperture));
 	json_object_set_new(set, "settle_mode", json_string(s->settle_mode));

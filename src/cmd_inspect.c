@@ -175,16 +175,7 @@ static int parse_args(int argc, char **argv, inspect_args *a)
 			rc = hb_opt_value("--to", optarg, "A", 1e-6, 1000, &p->to);
 			a->to_given = true;
 			break;
-		case OPT_SPACING:
-			if (strcmp(optarg, "lin") == 0)
-				p->spacing = HB_SPACING_LIN;
-			else if (strcmp(optarg, "log") == 0)
-				p->spacing = HB_SPACING_LOG;
-			else {
-				hb_cli_error("--spacing '%s': accepted lin or log", optarg);
-				rc = HB_ERR_ARG;
-			}
-			break;
+		case OPT_SPACING: rc = hb_sweep_opts_parse_spacing(optarg, &p->spacing); break;
 		case OPT_TEST_LEVEL:
 			rc = parse_test_level(optarg, p);
 			a->opts.level_given = true;
@@ -384,21 +375,13 @@ static hb_inspect_action sweep_failed(void *ctx, int sequence, const char *seria
 
 static int confirm(const inspect_args *a, const hb_station *st, const unit_source *src)
 {
-	if (a->yes || isnan(st->confirm_above) || a->plan.to <= st->confirm_above)
-		return HB_OK;
-	if (a->autorun || !isatty(fileno(src->in))) {
-		hb_cli_error("top current %.4g A is above the station's confirmation threshold %.4g A: add --yes to proceed",
-			     a->plan.to, st->confirm_above);
-		return HB_ERR_LIMIT;
-	}
-	fprintf(src->prompt, "Each unit is swept to %.4g A, above this station's threshold of %.4g A. Type 'yes' to go on: ",
-		a->plan.to, st->confirm_above);
-	char line[16] = "";
-	if (!fgets(line, sizeof line, src->in) || strncmp(line, "yes", 3) != 0) {
-		hb_cli_error("not confirmed; nothing was switched on");
-		return HB_ERR_LIMIT;
-	}
-	return HB_OK;
+	char question[160];
+	snprintf(question, sizeof question,
+		 "Each unit is swept to %.4g A, above this station's threshold of %.4g A. Type 'yes' to go on: ",
+		 a->plan.to, st->confirm_above);
+	/* With --auto nobody is there to answer. */
+	return hb_sweep_opts_confirm(st, a->plan.to, a->yes, !a->autorun && isatty(fileno(src->in)), src->in,
+				     src->prompt, question);
 }
 
 int hb_cmd_inspect(int argc, char **argv)
@@ -466,20 +449,11 @@ int hb_cmd_inspect(int argc, char **argv)
 
 	hb_sweep_install_signals();
 	hb_sweep_clear_signal();
-	rc = hb_lcr_open(a.lcr, hb_global.trace, &lcr);
-	if (rc != HB_OK) {
-		hb_cli_error("meter %s: %s", a.lcr, lcr ? hb_lcr_errmsg(lcr) : "out of memory");
-		exit_code = rc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
+	rc = hb_sweep_opts_open_bench(info, a.lcr, a.supply, &lcr, &supply);
+	if (rc != HB_EXIT_OK) {
+		exit_code = rc;
 		goto out;
 	}
-	rc = hb_supply_open(a.supply, hb_global.trace, &supply);
-	if (rc != HB_OK) {
-		hb_cli_error("supply %s: %s", a.supply, supply ? hb_supply_errmsg(supply) : "out of memory");
-		exit_code = rc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
-		goto out;
-	}
-	fprintf(info, "meter:  %s (profile %s)\n", hb_lcr_idn(lcr)->raw, hb_lcr_profile_name(lcr));
-	fprintf(info, "supply: %s (profile %s)\n", hb_supply_idn(supply)->raw, hb_supply_profile_name(supply));
 	fprintf(info, "part %s, lot %s: each unit swept 0 to %.4g A in %d points at %s\n", part.part_number, a.lot,
 		a.plan.to, a.plan.steps, hb_format_si(err, sizeof err, a.plan.frequency, "Hz", 4));
 	/* Once for the whole lot: the same current flows through every unit. */
@@ -516,12 +490,8 @@ int hb_cmd_inspect(int argc, char **argv)
 	if (res.end == HB_INSPECT_ALREADY_DECIDED)
 		fprintf(info, "%s; nothing measured\n", res.message);
 	if (a.json) {
-		json_t *j = hb_inspect_lot_json(db, res.lot_id, &res);
-		char *text = j ? json_dumps(j, JSON_INDENT(2) | JSON_REAL_PRECISION(10)) : NULL;
-		if (text)
-			printf("%s\n", text);
-		free(text);
-		json_decref(j);
+		/* The exit code is the lot's, not the printout's. */
+		(void)hb_print_json(hb_inspect_lot_json(db, res.lot_id, &res));
 	}
 	if (res.end == HB_INSPECT_PAUSED)
 		exit_code = res.signal_number == SIGINT ? HB_EXIT_SIGINT :

@@ -2,6 +2,7 @@
 #include <getopt.h>
 #include <math.h>
 #include <stdbool.h>
+#include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -46,6 +47,65 @@ typedef struct part_edit {
 		window, mu_i, bsat;
 	bool json;
 } part_edit;
+
+/* getopt_long values of the spec options. */
+enum {
+	O_DESC = 256, O_MAKER, O_NOMINAL, O_TOL, O_FREQ, O_LEVEL, O_SATI, O_SATD, O_RATED, O_DCR,
+	O_TURNS, O_CORE, O_AE, O_LE, O_WINDOW, O_MUI, O_BSAT, O_JSON, O_HELP
+};
+
+/* The specs that are one number in one field, so parsing and merging them
+ * is the same code: the option, its accepted range, the field of
+ * hb_db_part it sets and the flag of part_edit that says it was given. */
+typedef struct number_spec {
+	int opt;
+	const char *name, *unit;
+	double min, max;
+	size_t field, given;
+} number_spec;
+
+static const number_spec number_specs[] = {
+	{ O_NOMINAL, "--nominal", "H", 1e-12, 100, offsetof(hb_db_part, nominal_h), offsetof(part_edit, nominal) },
+	{ O_TOL, "--tol", "%", 1e-4, 1, offsetof(hb_db_part, tolerance), offsetof(part_edit, tol) },
+	{ O_FREQ, "--freq", "Hz", 1e-3, 1e10, offsetof(hb_db_part, test_freq_hz), offsetof(part_edit, freq) },
+	{ O_SATI, "--sat-current", "A", 1e-6, 1e4, offsetof(hb_db_part, sat_current_a), offsetof(part_edit, sat_current) },
+	{ O_SATD, "--sat-drop", "%", 1e-3, 0.99, offsetof(hb_db_part, sat_drop), offsetof(part_edit, sat_drop) },
+	{ O_RATED, "--rated", "A", 1e-6, 1e4, offsetof(hb_db_part, rated_current_a), offsetof(part_edit, rated) },
+	{ O_DCR, "--dcr-max", "ohm", 1e-6, 1e6, offsetof(hb_db_part, dcr_max_ohm), offsetof(part_edit, dcr) },
+	{ O_AE, "--ae", "m2", 1e-10, 1e-1, offsetof(hb_db_part, ae_m2), offsetof(part_edit, ae) },
+	{ O_LE, "--le", "m", 1e-5, 10, offsetof(hb_db_part, le_m), offsetof(part_edit, le) },
+	{ O_WINDOW, "--window", "m", 1e-5, 1, offsetof(hb_db_part, window_m), offsetof(part_edit, window) },
+	{ O_MUI, "--mu-i", "", 1, 1e6, offsetof(hb_db_part, mu_i), offsetof(part_edit, mu_i) },
+	{ O_BSAT, "--bsat", "T", 1e-3, 10, offsetof(hb_db_part, bsat_t), offsetof(part_edit, bsat) },
+};
+
+static double *spec_field(hb_db_part *p, const number_spec *spec)
+{
+	return (double *)((char *)p + spec->field);
+}
+
+static bool *spec_given(part_edit *e, const number_spec *spec)
+{
+	return (bool *)((char *)e + spec->given);
+}
+
+static bool spec_was_given(const part_edit *e, const number_spec *spec)
+{
+	return *(const bool *)((const char *)e + spec->given);
+}
+
+static double spec_value(const hb_db_part *p, const number_spec *spec)
+{
+	return *(const double *)((const char *)p + spec->field);
+}
+
+static const number_spec *number_spec_of(int opt)
+{
+	for (size_t i = 0; i < sizeof number_specs / sizeof number_specs[0]; i++)
+		if (number_specs[i].opt == opt)
+			return &number_specs[i];
+	return NULL;
+}
 
 static int parse_level(const char *text, double *v, hb_db_level_kind *kind)
 {
@@ -107,10 +167,6 @@ static int parse_core(const char *text, hb_db_part *p)
 
 static int parse_spec_options(int argc, char **argv, part_edit *e, bool allow_json)
 {
-	enum {
-		O_DESC = 256, O_MAKER, O_NOMINAL, O_TOL, O_FREQ, O_LEVEL, O_SATI, O_SATD, O_RATED, O_DCR,
-		O_TURNS, O_CORE, O_AE, O_LE, O_WINDOW, O_MUI, O_BSAT, O_JSON, O_HELP
-	};
 	static const struct option options[] = {
 		{ "desc", required_argument, NULL, O_DESC },
 		{ "maker", required_argument, NULL, O_MAKER },
@@ -151,37 +207,9 @@ static int parse_spec_options(int argc, char **argv, part_edit *e, bool allow_js
 			snprintf(p->maker, sizeof p->maker, "%s", optarg);
 			e->maker = true;
 			break;
-		case O_NOMINAL:
-			rc = hb_opt_value("--nominal", optarg, "H", 1e-12, 100, &p->nominal_h);
-			e->nominal = true;
-			break;
-		case O_TOL:
-			rc = hb_opt_value("--tol", optarg, "%", 1e-4, 1, &p->tolerance);
-			e->tol = true;
-			break;
-		case O_FREQ:
-			rc = hb_opt_value("--freq", optarg, "Hz", 1e-3, 1e10, &p->test_freq_hz);
-			e->freq = true;
-			break;
 		case O_LEVEL:
 			rc = parse_level(optarg, &p->test_level, &p->test_level_kind);
 			e->level = true;
-			break;
-		case O_SATI:
-			rc = hb_opt_value("--sat-current", optarg, "A", 1e-6, 1e4, &p->sat_current_a);
-			e->sat_current = true;
-			break;
-		case O_SATD:
-			rc = hb_opt_value("--sat-drop", optarg, "%", 1e-3, 0.99, &p->sat_drop);
-			e->sat_drop = true;
-			break;
-		case O_RATED:
-			rc = hb_opt_value("--rated", optarg, "A", 1e-6, 1e4, &p->rated_current_a);
-			e->rated = true;
-			break;
-		case O_DCR:
-			rc = hb_opt_value("--dcr-max", optarg, "ohm", 1e-6, 1e6, &p->dcr_max_ohm);
-			e->dcr = true;
 			break;
 		case O_TURNS:
 			rc = hb_opt_int("--turns", optarg, 1, 100000, &turns);
@@ -191,26 +219,6 @@ static int parse_spec_options(int argc, char **argv, part_edit *e, bool allow_js
 		case O_CORE:
 			rc = parse_core(optarg, p);
 			e->core = true;
-			break;
-		case O_AE:
-			rc = hb_opt_value("--ae", optarg, "m2", 1e-10, 1e-1, &p->ae_m2);
-			e->ae = true;
-			break;
-		case O_LE:
-			rc = hb_opt_value("--le", optarg, "m", 1e-5, 10, &p->le_m);
-			e->le = true;
-			break;
-		case O_WINDOW:
-			rc = hb_opt_value("--window", optarg, "m", 1e-5, 1, &p->window_m);
-			e->window = true;
-			break;
-		case O_MUI:
-			rc = hb_opt_value("--mu-i", optarg, "", 1, 1e6, &p->mu_i);
-			e->mu_i = true;
-			break;
-		case O_BSAT:
-			rc = hb_opt_value("--bsat", optarg, "T", 1e-3, 10, &p->bsat_t);
-			e->bsat = true;
 			break;
 		case O_JSON:
 			if (!allow_json) {
@@ -222,10 +230,17 @@ static int parse_spec_options(int argc, char **argv, part_edit *e, bool allow_js
 		case O_HELP:
 			part_usage(stdout);
 			return -1;
-		default:
+		default: {
+			const number_spec *spec = number_spec_of(c);
+			if (spec) {
+				rc = hb_opt_value(spec->name, optarg, spec->unit, spec->min, spec->max, spec_field(p, spec));
+				*spec_given(e, spec) = true;
+				break;
+			}
 			hb_cli_error("part %s: unknown option '%s' (try 'henrybench part --help')", argv[0],
 				     argv[optind - 1]);
 			return HB_EXIT_USAGE;
+		}
 		}
 		if (rc != HB_OK)
 			return HB_EXIT_USAGE;
@@ -258,24 +273,14 @@ static void merge(hb_db_part *dst, const part_edit *e)
 		memcpy(dst->description, s->description, sizeof dst->description);
 	if (e->maker)
 		memcpy(dst->maker, s->maker, sizeof dst->maker);
-	if (e->nominal)
-		dst->nominal_h = s->nominal_h;
-	if (e->tol)
-		dst->tolerance = s->tolerance;
-	if (e->freq)
-		dst->test_freq_hz = s->test_freq_hz;
+	/* Order does not matter: each field has one option, and --core excludes --ae/--le. */
+	for (size_t i = 0; i < sizeof number_specs / sizeof number_specs[0]; i++)
+		if (spec_was_given(e, &number_specs[i]))
+			*spec_field(dst, &number_specs[i]) = spec_value(s, &number_specs[i]);
 	if (e->level) {
 		dst->test_level = s->test_level;
 		dst->test_level_kind = s->test_level_kind;
 	}
-	if (e->sat_current)
-		dst->sat_current_a = s->sat_current_a;
-	if (e->sat_drop)
-		dst->sat_drop = s->sat_drop;
-	if (e->rated)
-		dst->rated_current_a = s->rated_current_a;
-	if (e->dcr)
-		dst->dcr_max_ohm = s->dcr_max_ohm;
 	if (e->turns)
 		dst->turns = s->turns;
 	if (e->core) {
@@ -288,16 +293,6 @@ static void merge(hb_db_part *dst, const part_edit *e)
 	/* Explicit Ae/le describe a non-toroid core: old toroid dimensions no longer apply. */
 	if (e->ae || e->le)
 		dst->toroid_od_m = dst->toroid_id_m = dst->toroid_h_m = NAN;
-	if (e->ae)
-		dst->ae_m2 = s->ae_m2;
-	if (e->le)
-		dst->le_m = s->le_m;
-	if (e->window)
-		dst->window_m = s->window_m;
-	if (e->mu_i)
-		dst->mu_i = s->mu_i;
-	if (e->bsat)
-		dst->bsat_t = s->bsat_t;
 }
 
 static int part_write(int argc, char **argv, bool add)

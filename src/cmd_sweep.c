@@ -170,14 +170,8 @@ static int parse_args(int argc, char **argv, bool fsweep, sweep_args *a)
 			a->step_given = true;
 			break;
 		case OPT_SPACING:
-			if (strcmp(optarg, "lin") == 0)
-				p->spacing = p->f_spacing = HB_SPACING_LIN;
-			else if (strcmp(optarg, "log") == 0)
-				p->spacing = p->f_spacing = HB_SPACING_LOG;
-			else {
-				hb_cli_error("--spacing '%s': accepted lin or log", optarg);
-				rc = HB_ERR_ARG;
-			}
+			rc = hb_sweep_opts_parse_spacing(optarg, &p->spacing);
+			p->f_spacing = p->spacing;
 			break;
 		case OPT_LEVEL:
 			rc = parse_level(optarg, p);
@@ -312,21 +306,11 @@ static void print_plan(FILE *out, const sweep_args *a, const hb_db_part *part, c
 static int confirm(const sweep_args *a, const hb_station *st)
 {
 	double top = a->plan.kind == HB_SWEEP_BIAS ? a->plan.to : a->plan.bias;
-	if (a->yes || isnan(st->confirm_above) || top <= st->confirm_above)
-		return HB_OK;
-	if (!isatty(STDIN_FILENO)) {
-		hb_cli_error("top current %.4g A is above the station's confirmation threshold %.4g A: add --yes to proceed",
-			     top, st->confirm_above);
-		return HB_ERR_LIMIT;
-	}
-	fprintf(stderr, "The top current %.4g A is above this station's threshold of %.4g A. Type 'yes' to go on: ",
-		top, st->confirm_above);
-	char line[16] = "";
-	if (!fgets(line, sizeof line, stdin) || strncmp(line, "yes", 3) != 0) {
-		hb_cli_error("not confirmed; nothing was switched on");
-		return HB_ERR_LIMIT;
-	}
-	return HB_OK;
+	char question[160];
+	snprintf(question, sizeof question,
+		 "The top current %.4g A is above this station's threshold of %.4g A. Type 'yes' to go on: ", top,
+		 st->confirm_above);
+	return hb_sweep_opts_confirm(st, top, a->yes, isatty(STDIN_FILENO), stdin, stderr, question);
 }
 
 static json_t *result_json(const sweep_args *a, int64_t sweep_id, const hb_sweep_result *r, const hb_analysis_summary *an)
@@ -395,23 +379,14 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 
 	hb_sweep_install_signals();
 	hb_sweep_clear_signal();
-	rc = hb_lcr_open(a.lcr, hb_global.trace, &lcr);
-	if (rc != HB_OK) {
-		hb_cli_error("meter %s: %s", a.lcr, lcr ? hb_lcr_errmsg(lcr) : "out of memory");
-		exit_code = rc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
+	/* An fsweep without bias leaves the supply closed: nothing to source. */
+	rc = hb_sweep_opts_open_bench(info, a.lcr, a.supply && (!fsweep || a.plan.bias > 0) ? a.supply : NULL, &lcr,
+				      &supply);
+	if (rc != HB_EXIT_OK) {
+		exit_code = rc;
 		goto out;
 	}
-	if (a.supply && (!fsweep || a.plan.bias > 0)) {
-		rc = hb_supply_open(a.supply, hb_global.trace, &supply);
-		if (rc != HB_OK) {
-			hb_cli_error("supply %s: %s", a.supply, supply ? hb_supply_errmsg(supply) : "out of memory");
-			exit_code = rc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
-			goto out;
-		}
-	}
-	fprintf(info, "meter:  %s (profile %s)\n", hb_lcr_idn(lcr)->raw, hb_lcr_profile_name(lcr));
 	if (supply) {
-		fprintf(info, "supply: %s (profile %s)\n", hb_supply_idn(supply)->raw, hb_supply_profile_name(supply));
 		double top = fsweep ? a.plan.bias : a.plan.to;
 		hb_sweep_print_cautions(info, isfinite(part.nominal_h) ? part.nominal_h : 0, top,
 					a.plan.limits.max_voltage);
@@ -444,12 +419,8 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 			fprintf(info, "analysis: %s\n", an.message);
 	}
 	if (a.json) {
-		json_t *j = result_json(&a, sweep_id, &result, &an);
-		char *text = json_dumps(j, JSON_INDENT(2) | JSON_REAL_PRECISION(10));
-		if (text)
-			printf("%s\n", text);
-		free(text);
-		json_decref(j);
+		/* The exit code is the sweep's, not the printout's. */
+		(void)hb_print_json(result_json(&a, sweep_id, &result, &an));
 	}
 	exit_code = hb_session_exit_code(&result);
 out:

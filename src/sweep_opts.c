@@ -2,6 +2,7 @@
 #include "sweep_opts.h"
 
 #include <math.h>
+#include <stdio.h>
 #include <string.h>
 
 #include "cli.h"
@@ -123,4 +124,58 @@ void hb_sweep_opts_apply(const hb_sweep_opts *o, const hb_station *st, const hb_
 		lim->ramp_rate = o->ramp;
 	else if (!isnan(st->ramp_rate))
 		lim->ramp_rate = st->ramp_rate;
+}
+
+int hb_sweep_opts_parse_spacing(const char *arg, hb_spacing *spacing)
+{
+	if (strcmp(arg, "lin") == 0)
+		*spacing = HB_SPACING_LIN;
+	else if (strcmp(arg, "log") == 0)
+		*spacing = HB_SPACING_LOG;
+	else {
+		hb_cli_error("--spacing '%s': accepted lin or log", arg);
+		return HB_ERR_ARG;
+	}
+	return HB_OK;
+}
+
+int hb_sweep_opts_confirm(const hb_station *st, double top, bool yes, bool may_ask, FILE *in, FILE *prompt,
+			  const char *question)
+{
+	if (yes || isnan(st->confirm_above) || top <= st->confirm_above)
+		return HB_OK;
+	if (!may_ask) {
+		hb_cli_error("top current %.4g A is above the station's confirmation threshold %.4g A: add --yes to proceed",
+			     top, st->confirm_above);
+		return HB_ERR_LIMIT;
+	}
+	fputs(question, prompt);
+	char line[16] = "";
+	if (!fgets(line, sizeof line, in) || strncmp(line, "yes", 3) != 0) {
+		hb_cli_error("not confirmed; nothing was switched on");
+		return HB_ERR_LIMIT;
+	}
+	return HB_OK;
+}
+
+int hb_sweep_opts_open_bench(FILE *info, const char *lcr_resource, const char *supply_resource, hb_lcr **lcr,
+			     hb_supply **supply)
+{
+	int rc = hb_lcr_open(lcr_resource, hb_global.trace, lcr);
+	if (rc != HB_OK) {
+		hb_cli_error("meter %s: %s", lcr_resource, *lcr ? hb_lcr_errmsg(*lcr) : "out of memory");
+		return rc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
+	}
+	if (supply_resource) {
+		rc = hb_supply_open(supply_resource, hb_global.trace, supply);
+		if (rc != HB_OK) {
+			hb_cli_error("supply %s: %s", supply_resource, *supply ? hb_supply_errmsg(*supply) : "out of memory");
+			return rc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
+		}
+	}
+	/* Named only once both answered, so a failed supply leaves just its error. */
+	fprintf(info, "meter:  %s (profile %s)\n", hb_lcr_idn(*lcr)->raw, hb_lcr_profile_name(*lcr));
+	if (*supply)
+		fprintf(info, "supply: %s (profile %s)\n", hb_supply_idn(*supply)->raw, hb_supply_profile_name(*supply));
+	return HB_EXIT_OK;
 }

@@ -4,6 +4,7 @@
 
 #include <getopt.h>
 #include <stdbool.h>
+#include <stdio.h>
 
 #include "../db/hb_db.h"
 #include "station.h"
@@ -54,5 +55,21 @@ int hb_sweep_opts_open_part(const char *part_number, hb_db **db, hb_db_part *par
  * limits in force: the strictest of the command line, the station file and
  * the part's ratings. */
 void hb_sweep_opts_apply(const hb_sweep_opts *o, const hb_station *st, const hb_db_part *part, hb_sweep_plan *plan);
+
+/* --spacing lin|log into *spacing; HB_ERR_ARG after the one-line error. */
+int hb_sweep_opts_parse_spacing(const char *arg, hb_spacing *spacing);
+
+/* Asks before a sweep whose top current is above the station's confirmation
+ * threshold; yes skips the question, and without may_ask (no terminal, or no
+ * one to answer) the sweep is refused. question is the prompt written on
+ * prompt. HB_OK to go on, else HB_ERR_LIMIT after the one-line error. */
+int hb_sweep_opts_confirm(const hb_station *st, double top, bool yes, bool may_ask, FILE *in, FILE *prompt,
+			  const char *question);
+
+/* Opens the meter and, when supply_resource is not NULL, the supply, then
+ * names both on info. Prints the error and returns the exit code
+ * (HB_EXIT_OK when all worked); the caller closes both on every path. */
+int hb_sweep_opts_open_bench(FILE *info, const char *lcr_resource, const char *supply_resource, hb_lcr **lcr,
+			     hb_supply **supply);
 
 #endif
