@@ -176,6 +176,22 @@ static void add_bias_models(hb_plot *plot, const sweep_data *d, double i_max)
 	}
 }
 
+/* Every per-sweep plot starts the same way: refuse an empty sweep, then a
+ * titled plot naming sweep, part and unit so a printed page stays traceable. */
+static int sweep_plot_open(const sweep_data *d, int64_t sweep_id, size_t points, const char *what, hb_plot **plot,
+			   char *err, size_t errlen)
+{
+	if (points == 0) {
+		set_err(err, errlen, "sweep %lld has no finite readings to plot", (long long)sweep_id);
+		return HB_ERR_DATA;
+	}
+	char title[160];
+	snprintf(title, sizeof title, "Sweep %lld: %s, %s %s", (long long)sweep_id, what, d->sweep.part_number,
+		 d->sweep.serial);
+	*plot = hb_plot_new(title);
+	return *plot ? HB_OK : HB_ERR_NOMEM;
+}
+
 int hb_report_bias_svg(hb_db *db, int64_t sweep_id, char **svg, char *err, size_t errlen)
 {
 	*svg = NULL;
@@ -194,19 +210,9 @@ int hb_report_bias_svg(hb_db *db, int64_t sweep_id, char **svg, char *err, size_
 	rc = hb_analysis_bias_arrays(d.pts, d.n, &I, &L, &m);
 	if (rc != HB_OK)
 		goto out;
-	if (m == 0) {
-		set_err(err, errlen, "sweep %lld has no finite readings to plot", (long long)sweep_id);
-		rc = HB_ERR_DATA;
+	rc = sweep_plot_open(&d, sweep_id, m, "L against DC bias", &plot, err, errlen);
+	if (rc != HB_OK)
 		goto out;
-	}
-	char title[160];
-	snprintf(title, sizeof title, "Sweep %lld: L against DC bias, %s %s", (long long)sweep_id,
-		 d.sweep.part_number, d.sweep.serial);
-	plot = hb_plot_new(title);
-	if (!plot) {
-		rc = HB_ERR_NOMEM;
-		goto out;
-	}
 	hb_plot_set_axis(plot, HB_AXIS_X, "DC bias current", "A", false);
 	hb_plot_set_axis(plot, HB_AXIS_Y, "Incremental inductance", "H", false);
 	hb_plot_set_range(plot, HB_AXIS_Y, 0, NAN);
@@ -350,26 +356,15 @@ int hb_report_freq_svg(hb_db *db, int64_t sweep_id, char **svg, char *err, size_
 			}
 			m++;
 		}
-	if (m == 0) {
-		set_err(err, errlen, "sweep %lld has no finite readings to plot", (long long)sweep_id);
-		rc = HB_ERR_DATA;
+	rc = sweep_plot_open(&d, sweep_id, m, "series L and R against frequency", &plot, err, errlen);
+	if (rc != HB_OK)
 		goto out;
-	}
-	char title[160];
-	snprintf(title, sizeof title, "Sweep %lld: series L and R against frequency, %s %s", (long long)sweep_id,
-		 d.sweep.part_number, d.sweep.serial);
-	plot = hb_plot_new(title);
-	if (!plot) {
-		rc = HB_ERR_NOMEM;
-		goto out;
-	}
 	hb_plot_set_axis(plot, HB_AXIS_X, "Frequency", "Hz", true);
 	hb_plot_set_axis(plot, HB_AXIS_Y, "Series inductance Ls", "H", false);
-	/* Linear on purpose: the right-hand log axis of src/plot.h is labelled
-	 * with bare exponents for now. */
-	(void)r_positive;
+	/* Rs spans decades from the winding's DC value to resonance; a log axis
+	 * keeps the low-frequency end readable, where every value allows it. */
 	if (any_r)
-		hb_plot_set_axis(plot, HB_AXIS_Y2, "Series resistance Rs", "ohm", false);
+		hb_plot_set_axis(plot, HB_AXIS_Y2, "Series resistance Rs", "ohm", r_positive);
 	hb_plot_add_series(plot, HB_AXIS_Y, f, Ls, m, "Ls measured", HB_PLOT_POINTS);
 	if (any_r)
 		hb_plot_add_series(plot, HB_AXIS_Y2, f, Rs, m, "Rs measured", HB_PLOT_POINTS);
