@@ -227,6 +227,12 @@ int hb_supply_output(hb_supply *supply, bool on);
 int hb_supply_measure_current(hb_supply *supply, double *amps);
 int hb_supply_measure_voltage(hb_supply *supply, double *volts);
 int hb_supply_get_mode(hb_supply *supply, hb_supply_mode *mode);
+/* Whether the output is switched on (profile operation output.state);
+ * HB_ERR_UNSUPPORTED when the profile cannot ask. */
+int hb_supply_output_state(hb_supply *supply, bool *on);
+/* The current set-point as the supply holds it (profile operation
+ * current.query); HB_ERR_UNSUPPORTED when the profile cannot ask. */
+int hb_supply_query_current(hb_supply *supply, double *amps);
 /* *tripped set when over-voltage/over-current protection has tripped. */
 int hb_supply_protection(hb_supply *supply, bool *tripped);
 int hb_supply_errors(hb_supply *supply, hb_scpi_error *list, size_t cap, size_t *count, bool *lost);
@@ -285,4 +291,21 @@ void hb_sim_inproc_lock(void);
 void hb_sim_inproc_unlock(void);
 void hb_sim_inproc_shutdown(void);
 
+/* ------------------------------------------------------------------ */
+/* The bench clock                                                     */
+/* ------------------------------------------------------------------ */
+/* Every wait and every time stamp of the sweep engine goes through here:
+ * the monotonic wall clock on a real bench; the simulated bench's own
+ * clock when it runs in virtual time, so seeded runs repeat to the bit. */
+double hb_clock_now(void);
+/* Waits up to seconds; returns early (HB_ERR_INTERRUPTED) when *stop
+ * becomes nonzero (checked at least every 20 ms of wall time). */
+int hb_clock_sleep(double seconds, volatile sig_atomic_t *stop);
+/* Installs a clock (NULL functions: back to the wall clock). */
+typedef struct hb_clock_ops {
+	double (*now)(void *ctx);
+	int (*sleep)(void *ctx, double seconds, volatile sig_atomic_t *stop);
+	void *ctx;
+} hb_clock_ops;
+void hb_clock_install(const hb_clock_ops *ops);
 #endif

@@ -273,3 +273,37 @@ int hb_supply_errors(hb_supply *s, hb_scpi_error *list, size_t cap, size_t *coun
 		return rc;
 	return hb_instrument_errors(&s->in, list, cap, count, lost);
 }
+
+int hb_supply_output_state(hb_supply *s, bool *on)
+{
+	int rc = usable(s);
+	if (rc < 0)
+		return rc;
+	if (!on)
+		return hb_instrument_fail(&s->in, HB_ERR_ARG, "output state: no place for the value");
+	if (!hb_profile_has(s->in.profile, HB_PK_SUP_OUTPUT_STATE))
+		return hb_instrument_fail(&s->in, HB_ERR_UNSUPPORTED,
+					  "output state: profile '%s' has no 'output.state' operation",
+					  hb_profile_name(s->in.profile));
+	char field[96];
+	rc = ask_field(s, HB_PK_SUP_OUTPUT_STATE, HB_PK_SUP_OUTPUT_STATE_FIELD, "output state", field, sizeof field);
+	if (rc < 0)
+		return rc;
+	if (hb_profile_reply_bool(s->in.profile, HB_PK_SUP_STATE_ON, HB_PK_SUP_STATE_OFF, field, on) < 0)
+		return hb_instrument_fail(&s->in, HB_ERR_PROTOCOL, "output state: reply field '%s' is neither on nor off",
+					  field);
+	return HB_OK;
+}
+
+int hb_supply_query_current(hb_supply *s, double *amps)
+{
+	int rc = usable(s);
+	if (rc < 0)
+		return rc;
+	if (!amps)
+		return hb_instrument_fail(&s->in, HB_ERR_ARG, "current set-point: no place for the value");
+	/* The profile key current.query arrives with the profile work; until
+	 * then the engine falls back to the measured current. */
+	return hb_instrument_fail(&s->in, HB_ERR_UNSUPPORTED, "current set-point: profile '%s' cannot ask for it",
+				  hb_profile_name(s->in.profile));
+}

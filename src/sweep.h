@@ -19,6 +19,16 @@ typedef enum hb_sweep_end {
 	HB_SWEEP_FAILED   /* stopped by a fault: instrument error, time-out, lost link, store */
 } hb_sweep_end;
 
+/* Why a sweep that did not complete stopped: an inspection treats a part
+ * that cannot be measured differently from a bench that cannot measure. */
+typedef enum hb_sweep_cause {
+	HB_CAUSE_NONE,     /* complete */
+	HB_CAUSE_OPERATOR, /* signal, or a stop the operator asked for */
+	HB_CAUSE_PART,     /* the part: compliance (too much resistance), open winding, reading out of range */
+	HB_CAUSE_BENCH,    /* the bench: instrument error, lost link, time-out, supply dropout, store failure */
+	HB_CAUSE_LIMIT     /* a safety limit stopped or refused it */
+} hb_sweep_cause;
+
 typedef struct hb_sweep_limits {
 	double max_current; /* A; required */
 	double max_voltage; /* V; the supply's compliance limit; required */
@@ -76,6 +86,9 @@ typedef struct hb_sweep_point {
 	int settle_readings;
 	double settle_seconds;
 	bool settled;          /* false when the auto rule timed out */
+	double bias_spread;    /* A, max - min of the read-backs bracketing the accepted readings */
+	int bias_readbacks;    /* how many read-backs that mean rests on */
+	int readings;          /* accepted meter readings averaged into primary/secondary */
 } hb_sweep_point;
 
 typedef struct hb_sweep_callbacks {
@@ -98,6 +111,10 @@ typedef struct hb_sweep_result {
 	bool current_may_flow;   /* the supply link was lost: nobody switched it off */
 	bool interrupted_by_signal;
 	int signal_number;
+	hb_sweep_cause cause;    /* HB_CAUSE_NONE when complete */
+	double start_amps;       /* A found flowing when the supply was opened (NAN: unknown) */
+	double off_amps;         /* A still flowing when the output was switched off (NAN: unknown) */
+	double decay_seconds;    /* s from the zero set-point until the current fell below the threshold */
 } hb_sweep_result;
 
 /* Fills defaults: 21 steps, 100 kHz, 0.5 V, series L-R, auto settle. */
