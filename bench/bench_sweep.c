@@ -71,7 +71,7 @@ static int record(void *ctx, const hb_sweep_point *p, int total)
 static double timed_run(hb_lcr *lcr, hb_supply *supply, const hb_sweep_plan *plan, recorder *rec)
 {
 	memset(rec, 0, sizeof *rec);
-	hb_sweep_callbacks cb = { rec, record, NULL };
+	hb_sweep_callbacks cb = { rec, record, NULL, NULL };
 	hb_sweep_result res;
 	double t0 = now_s();
 	int rc = hb_sweep_run(lcr, supply, plan, &cb, &res);

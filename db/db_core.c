@@ -581,7 +581,10 @@ int hb_db_open_version(const char *path, int version, hb_db **out)
 {
 	if (version <= 0)
 		return out ? (*out = NULL, HB_ERR_ARG) : HB_ERR_ARG;
-	return open_at(path, version, out);
+	int rc = open_at(path, version, out);
+	if (*out && version < hb_db_latest_version())
+		(*out)->old_version = version;
+	return rc;
 }
 
 void hb_db_close(hb_db *db)

@@ -12,7 +12,7 @@ enum db_stmt_slot {
 	ST_PART_UPSERT, ST_PART_GET, ST_PART_GET_ID, ST_PART_LIST,
 	ST_LOT_FIND, ST_LOT_INSERT, ST_LOT_GET, ST_LOT_UPDATE,
 	ST_UNIT_FIND, ST_UNIT_INSERT, ST_UNIT_SET_LOT, ST_UNIT_GET,
-	ST_SWEEP_INSERT, ST_SWEEP_END, ST_SWEEP_GET, ST_SWEEP_EXISTS, ST_SWEEP_NOISE, ST_SWEEP_DCR,
+	ST_SWEEP_INSERT, ST_SWEEP_END, ST_SWEEP_GET, ST_SWEEP_EXISTS, ST_SWEEP_NOISE, ST_SWEEP_DCR, ST_SWEEP_SUPPLY, ST_POINT_ADD_V4,
 	ST_RUNNING_MINE, ST_MARK_INTERRUPTED,
 	ST_POINT_ADD, ST_POINTS_GET,
 	ST_FIT_INSERT, ST_FIT_VALUE_INSERT, ST_FIT_LATEST, ST_FIT_LATEST_ANY, ST_FIT_VALUES,
@@ -33,6 +33,7 @@ struct hb_db {
 	sqlite3_stmt *sweep_list[1 << DB_SWEEP_FILTERS];
 	int batch;          /* inside hb_db_batch_begin */
 	int recovered;
+	int old_version;     /* opened at an older schema on purpose (migration tests): 0 = latest */
 	char host[HB_DB_ID_LEN];
 	char boot_id[64];
 };

@@ -242,6 +242,21 @@ int hb_db_sweep_set_dcr(hb_db *db, int64_t sweep_id, double ohms)
 			      "recording the meter's DC resistance");
 }
 
+int hb_db_sweep_set_supply_record(hb_db *db, int64_t sweep_id, double found_a, double off_a, double decay_s)
+{
+	if (!db)
+		return HB_ERR_ARG;
+	sqlite3_stmt *st = db_stmt(db, ST_SWEEP_SUPPLY,
+		"UPDATE sweeps SET supply_found_a = ?2, supply_off_a = ?3, supply_decay_s = ?4 WHERE id = ?1");
+	if (!st)
+		return HB_ERR_DB;
+	sqlite3_bind_int64(st, 1, sweep_id);
+	db_bind_real(st, 2, found_a);
+	db_bind_real(st, 3, off_a);
+	db_bind_real(st, 4, decay_s);
+	return db_write_one(db, st, "recording the supply's start and switch-off", NULL, NULL);
+}
+
 int hb_db_sweep_get(hb_db *db, int64_t sweep_id, hb_db_sweep *out)
 {
 	if (!db || !out)
@@ -341,6 +356,8 @@ void hb_db_point_init(hb_db_point *p)
 	memset(p, 0, sizeof *p);
 	p->bias_set_a = p->bias_meas_a = p->supply_v = p->freq_hz = NAN;
 	p->primary = p->secondary = p->t_s = p->settle_s = NAN;
+	p->bias_spread_a = NAN;
+	p->settled = true;
 }
 
 int hb_db_point_add(hb_db *db, const hb_db_point *p)
@@ -350,10 +367,19 @@ int hb_db_point_add(hb_db *db, const hb_db_point *p)
 	if (p->seq < 0)
 		return db_error(db, HB_ERR_ARG, "point sequence %d: must be 0 or more", p->seq);
 	/* Only a running sweep takes points: an interrupted one stays as found. */
-	sqlite3_stmt *st = db_stmt(db, ST_POINT_ADD,
+	/* A store held at an older schema (only the migration tests do that)
+	 * has no columns for the read-back spread and the settled flag. */
+	sqlite3_stmt *st = db->old_version && db->old_version < 5 ?
+		db_stmt(db, ST_POINT_ADD_V4,
 		"INSERT INTO points (sweep_id, seq, bias_set_a, bias_meas_a, supply_v, freq_hz,"
 		" primary_value, secondary_value, reading_status, t_s, settle_readings, settle_s, direction)"
 		" SELECT ?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13"
+		" WHERE EXISTS (SELECT 1 FROM sweeps WHERE id = ?1 AND status = 'running')") :
+		db_stmt(db, ST_POINT_ADD,
+		"INSERT INTO points (sweep_id, seq, bias_set_a, bias_meas_a, supply_v, freq_hz,"
+		" primary_value, secondary_value, reading_status, t_s, settle_readings, settle_s, direction,"
+		" bias_spread_a, settled)"
+		" SELECT ?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13, ?14, ?15"
 		" WHERE EXISTS (SELECT 1 FROM sweeps WHERE id = ?1 AND status = 'running')");
 	if (!st)
 		return HB_ERR_DB;
@@ -370,6 +396,10 @@ int hb_db_point_add(hb_db *db, const hb_db_point *p)
 	sqlite3_bind_int(st, 11, p->settle_readings);
 	db_bind_real(st, 12, p->settle_s);
 	db_bind_text(st, 13, p->direction == HB_DB_DIR_DOWN ? "down" : "up");
+	if (!(db->old_version && db->old_version < 5)) {
+		db_bind_real(st, 14, p->bias_spread_a);
+		sqlite3_bind_int(st, 15, p->settled ? 1 : 0);
+	}
 	int changes = 0;
 	int rc = db_write_one(db, st, "storing a point", NULL, &changes);
 	if (rc < 0 || changes > 0)
@@ -398,6 +428,8 @@ static void read_point(sqlite3_stmt *st, void *row, const void *ctx)
 	p->settle_s = db_col_real(st, 10);
 	const unsigned char *d = sqlite3_column_text(st, 11);
 	p->direction = (d && d[0] == 'd') ? HB_DB_DIR_DOWN : HB_DB_DIR_UP;
+	p->bias_spread_a = db_col_real(st, 12);
+	p->settled = sqlite3_column_int(st, 13) != 0;
 }
 
 int hb_db_points_get(hb_db *db, int64_t sweep_id, hb_db_point **out, size_t *count)
@@ -408,7 +440,7 @@ int hb_db_points_get(hb_db *db, int64_t sweep_id, hb_db_point **out, size_t *cou
 	*count = 0;
 	sqlite3_stmt *st = db_stmt(db, ST_POINTS_GET,
 		"SELECT seq, bias_set_a, bias_meas_a, supply_v, freq_hz, primary_value, secondary_value,"
-		" reading_status, t_s, settle_readings, settle_s, direction FROM points"
+		" reading_status, t_s, settle_readings, settle_s, direction, bias_spread_a, settled FROM points"
 		" WHERE sweep_id = ?1 ORDER BY seq");
 	if (!st)
 		return HB_ERR_DB;

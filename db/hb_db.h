@@ -3,6 +3,7 @@
 #define HB_DB_H
 
 #include <stddef.h>
+#include <stdbool.h>
 #include <stdint.h>
 
 #include "../common/hb_status.h"
@@ -213,6 +214,10 @@ int hb_db_sweep_get(hb_db *db, int64_t sweep_id, hb_db_sweep *out);
 int hb_db_sweep_set_noise(hb_db *db, int64_t sweep_id, double noise_rel);
 /* Records the meter's own DC-resistance reading of the winding. */
 int hb_db_sweep_set_dcr(hb_db *db, int64_t sweep_id, double ohms);
+/* What the supply did around the sweep: current found flowing when it was
+ * opened, current when the output was switched off, decay time from the
+ * zero set-point (NAN where unknown). */
+int hb_db_sweep_set_supply_record(hb_db *db, int64_t sweep_id, double found_a, double off_a, double decay_s);
 
 typedef struct hb_db_sweep_filter {
 	const char *part_number;  /* NULL = any */
@@ -246,6 +251,8 @@ typedef struct hb_db_point {
 	int settle_readings;     /* readings taken until settled */
 	double settle_s;
 	hb_db_direction direction;
+	double bias_spread_a;    /* max - min of the read-backs bracketing the readings (NAN: not recorded) */
+	bool settled;            /* false: the settle rule timed out; the point is flagged */
 } hb_db_point;
 
 void hb_db_point_init(hb_db_point *point);

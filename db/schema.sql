@@ -184,3 +184,10 @@ CREATE TABLE inspections (
 ALTER TABLE sweeps ADD COLUMN reading_noise_rel REAL;
 -- the meter's own DC-resistance reading of the winding, where its profile has that operation
 ALTER TABLE sweeps ADD COLUMN dcr_meter_ohm REAL;
+
+-- step 5: what the readings saw and what the supply did: the spread of the current read-backs that bracket each point's readings, whether the point settled, and the supply's state at start and at switch-off
+ALTER TABLE points ADD COLUMN bias_spread_a REAL;
+ALTER TABLE points ADD COLUMN settled INTEGER NOT NULL DEFAULT 1;
+ALTER TABLE sweeps ADD COLUMN supply_found_a REAL;
+ALTER TABLE sweeps ADD COLUMN supply_off_a REAL;
+ALTER TABLE sweeps ADD COLUMN supply_decay_s REAL;

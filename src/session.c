@@ -30,6 +30,8 @@ static int store_point(void *ctx, const hb_sweep_point *p, int total)
 	pt.settle_readings = p->settle_readings;
 	pt.settle_s = p->settle_seconds;
 	pt.direction = p->direction < 0 ? HB_DB_DIR_DOWN : HB_DB_DIR_UP;
+	pt.bias_spread_a = p->bias_readbacks > 0 ? p->bias_spread : NAN;
+	pt.settled = p->settled;
 	int rc = hb_db_point_add(c->s->db, &pt);
 	if (rc != HB_OK && c->s->progress)
 		fprintf(c->s->progress, "%shenrybench: store: %s\n", c->s->progress_tty ? "\n" : "",
@@ -65,6 +67,13 @@ static void show_progress(void *ctx, const hb_sweep_point *p, int index, int tot
 			p->settled ? "" : " not-settled", left);
 	}
 	fflush(out);
+}
+
+static void show_notice(void *ctx, const char *text)
+{
+	sink_ctx *c = ctx;
+	/* Safety notices go to stderr even when progress is quiet. */
+	fprintf(stderr, "%shenrybench: %s\n", c->s->progress && c->s->progress_tty ? "\n" : "", text);
 }
 
 static const char *pair_name(hb_equiv e, hb_pair p)
@@ -163,13 +172,18 @@ int hb_session_measure(hb_session *s, const hb_db_part *part, const char *serial
 	}
 
 	sink_ctx ctx = { s, sw.id };
-	hb_sweep_callbacks cb = { &ctx, store_point, show_progress };
+	hb_sweep_callbacks cb = { &ctx, store_point, show_progress, show_notice };
 	rc = hb_sweep_run(s->lcr, s->supply, plan, &cb, result);
 	if (s->progress && s->progress_tty && result->points > 0 && rc != HB_OK)
 		fputc('\n', s->progress);
 
 	if (result->noise_rel > 0)
 		hb_db_sweep_set_noise(s->db, sw.id, result->noise_rel);
+	if (s->supply)
+		hb_db_sweep_set_supply_record(s->db, sw.id, result->start_amps, result->off_amps, result->decay_seconds);
+	if (s->progress && s->supply && isfinite(result->decay_seconds))
+		fprintf(s->progress, "supply off: current below %.3g A %.3g s after the zero set-point\n",
+			plan->limits.off_threshold, result->decay_seconds);
 	/* Recording the end is attempted whatever happened; if even that fails
 	 * the next open marks the sweep interrupted, its points kept. */
 	int end_rc = hb_db_sweep_end(s->db, sw.id, end_status(result), result->reason);

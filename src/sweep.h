@@ -34,6 +34,7 @@ typedef struct hb_sweep_limits {
 	double max_voltage; /* V; the supply's compliance limit; required */
 	double max_power;   /* W; V*I at the top step may not exceed it; required */
 	double ramp_rate;   /* A/s between steps and on shut-down */
+	double off_threshold; /* A; the output is switched off only below this measured current */
 } hb_sweep_limits;
 
 typedef struct hb_sweep_plan {
@@ -64,9 +65,11 @@ typedef struct hb_sweep_plan {
 	/* settling after each step */
 	hb_settle_rule settle;
 	double settle_time;      /* s, fixed rule */
-	double settle_timeout;   /* s, auto rule: give up waiting and record anyway */
-	double settle_k;         /* auto rule: agreement within k * noise; default 3 */
-	int noise_readings;      /* readings at the first step to learn the meter's noise */
+	double settle_timeout;   /* s, auto rule: give up waiting and record anyway (the point is flagged) */
+	double settle_k;         /* frequency sweeps: successive readings agree within k * noise; default 3 */
+	double settle_fraction;  /* bias sweeps: accept when the predicted remaining change of L is below
+	                          * this fraction of one reading's noise; default 0.25 */
+	int noise_readings;      /* readings at the first step to learn the meter's noise; at least 20 */
 
 	hb_sweep_limits limits;
 } hb_sweep_plan;
@@ -99,6 +102,9 @@ typedef struct hb_sweep_callbacks {
 	/* Optional progress text; called after each stored point. */
 	void (*progress)(void *ctx, const hb_sweep_point *point, int index, int total_planned,
 			 double l_first, double seconds_left);
+	/* Optional: something the operator should know (current found flowing
+	 * at start, a slow decay); one line, no newline. */
+	void (*notice)(void *ctx, const char *text);
 } hb_sweep_callbacks;
 
 typedef struct hb_sweep_result {
@@ -128,17 +134,14 @@ int hb_sweep_frequencies(const hb_sweep_plan *plan, double **values, int *count)
 /* Rough duration in seconds from the plan alone (for --dry-run). */
 double hb_sweep_estimate_seconds(const hb_sweep_plan *plan);
 
-/* Runs the sweep. supply may be NULL for an unbiased frequency sweep. Every
- * way out (complete, signal, instrument error, compliance, store failure)
- * goes through one routine that ramps the current down and switches the
- * output off before returning. Returns the status that ended the sweep. */
+/* Runs the sweep. supply may be NULL for an unbiased frequency sweep. The
+ * supply is changed only through its state machine (src/bias_supply.h):
+ * current found flowing at the start is ramped down first, and every way
+ * out (complete, signal, instrument error, compliance, dropout, store
+ * failure) goes through its one shut-down: ramp down, confirm the decay,
+ * output off. Returns the status that ended the sweep. */
 int hb_sweep_run(hb_lcr *lcr, hb_supply *supply, const hb_sweep_plan *plan,
 		 const hb_sweep_callbacks *cb, hb_sweep_result *result);
-
-/* Brings the supply to zero and switches it off, at the ramp rate (fast
- * when a second signal arrives). Safe to call at any time. Returns HB_OK
- * or the link error (then current may still flow). */
-int hb_sweep_safe_off(hb_supply *supply, double ramp_rate);
 
 /* Signal handling: SIGINT, SIGTERM and SIGHUP set a flag the engine polls;
  * the process is never killed with current flowing by these signals. */

@@ -614,10 +614,10 @@ static void test_meter_timeout_mid_sweep(void **state)
 {
 	(void)state;
 	sim_server sim;
-	/* Every 20th meter reply is lost: with the fixed dwell the first lost
-	 * one is a reading a few points into the sweep, after the noise has
-	 * been learnt at the first point. */
-	sim_start(&sim, "--fault-lcr", "drop=20", NULL);
+	/* Every 35th meter reply is lost: the first lost one is a reading a few
+	 * points into the sweep, after the noise has been learnt from 24
+	 * readings at the first point. */
+	sim_start(&sim, "--fault-lcr", "drop=35", NULL);
 	char lcr[200];
 	snprintf(lcr, sizeof lcr, "%s?timeout=300", sim.lcr);
 	run r;
