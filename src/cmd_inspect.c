@@ -378,12 +378,11 @@ static hb_inspect_action next_unit(void *ctx, int sequence, const char *complain
 static hb_inspect_action sweep_failed(void *ctx, int sequence, const char *serial, const hb_sweep_result *r)
 {
 	unit_source *src = ctx;
-	(void)r;
 	if (src->autorun)
 		return HB_INSPECT_RECORD;
+	fprintf(src->prompt, "unit #%d (%s) could not be measured because of the part: %s\n", sequence, serial, r->reason);
 	for (;;) {
-		fprintf(src->prompt, "unit #%d (%s) could not be measured because of the part: Enter = %s, "
-				     "r = retry (re-seat it first), q = pause: ", sequence, serial,
+		fprintf(src->prompt, "  Enter = %s, r = retry (re-seat it first), q = pause: ",
 			src->part_fault == HB_INSPECT_PART_RETEST ? "leave it for a retest (pauses)" : "record it NONCONFORMING");
 		fflush(src->prompt);
 		char line[64];

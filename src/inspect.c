@@ -342,11 +342,7 @@ static unit_end measure_unit(run_state *st, int sequence, const char *serial, hb
 		st->bench_in_row = 0;
 		out->bench_failures = 0;
 		if (cause == HB_CAUSE_PART) {
-			if (cfg->out) {
-				fprintf(cfg->out, "  #%-3d %-18s cannot be measured because of the part: sweep %lld: %s\n", sequence,
-					serial, (long long)sweep_id, res.reason);
-				fflush(cfg->out);
-			}
+			/* The reason is printed with the record (or the pause), once. */
 			hb_inspect_action act = st->cb->sweep_failed ?
 						st->cb->sweep_failed(st->cb->ctx, sequence, serial, &res) : HB_INSPECT_RECORD;
 			if (act == HB_INSPECT_RETRY)
