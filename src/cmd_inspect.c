@@ -21,7 +21,8 @@ static void inspect_usage(FILE *out)
 		"usage: henrybench inspect --part P --lot LOT --lot-size N --aql AQL --lcr RES --supply RES [options]\n"
 		"Inspects a lot by ISO 2859-1 single sampling: shows the plan, stores it on the lot, then\n"
 		"sweeps, fits and judges each sample unit, keeps the tally and decides the lot (rejecting as\n"
-		"soon as Re nonconforming units are found). Interrupted, it resumes where it stopped.\n\n"
+		"soon as Re nonconforming units are found). Paused or interrupted, the same command resumes\n"
+		"the lot where it stopped.\n\n"
 		"sampling:\n"
 		"  --lot-size N         units in the lot (2 or more)\n"
 		"  --aql AQL            acceptance quality limit, one of the ISO 2859-1 series (e.g. 0.65 1.0 2.5 4.0)\n"
@@ -31,8 +32,12 @@ static void inspect_usage(FILE *out)
 		"  --serials FILE       serial numbers in draw order, one per line\n"
 		"  --first-serial S     count the trailing number up: LOT7-0001, LOT7-0002, ...\n"
 		"                       (neither: type or scan each serial at the prompt)\n"
-		"  --auto               no prompts: measure the units one after another (needs a serial source);\n"
-		"                       a sweep that fails is recorded as skipped\n"
+		"  --auto               no prompts: measure the units one after another (needs a serial source)\n"
+		"  --part-fault nonconforming|retest\n"
+		"                       a unit the part keeps from being measured (compliance, open winding,\n"
+		"                       reading out of range): nonconforming (default) or not judged, pausing\n"
+		"                       so it is checked and measured again\n"
+		"  --resume             continue a begun lot only (refuses a lot code never begun)\n"
 		"sweep of each unit (as for sweep; defaults from the part):\n"
 		"  --from A --to A      current range (default 0 to 1.25 x the part's saturation-spec current)\n"
 		"  --steps N            points on the way up (default 21)\n"
@@ -48,15 +53,18 @@ static void inspect_usage(FILE *out)
 		"  --json               the lot, plan, decision and every unit as JSON on stdout\n\n"
 		"At each prompt: Enter measures the unit named, a typed serial replaces it, 's' records it\n"
 		"skipped (could not be tested; the next unit drawn replaces it), 'q' pauses with the lot open.\n"
-		"A unit whose verdict is incomplete counts as nonconforming (docs/inspection.md).\n"
-		"Exit status: 0 lot decided (accept or reject: see the output), 1 lot still open, 2 usage,\n"
-		"130 stopped by Ctrl-C (lot still open).\n");
+		"A unit whose verdict is incomplete counts as nonconforming. A bench fault (lost link,\n"
+		"instrument error, time-out) judges nothing and uses no sample position; 2 in a row pause\n"
+		"the inspection with the lot open (docs/inspection.md).\n"
+		"Exit status: 0 lot decided (accept or reject: see the output), 1 lot still open (paused:\n"
+		"bench fault, safety limit, 'q', end of the serial list), 2 usage, 130 stopped by Ctrl-C\n"
+		"(lot still open).\n");
 }
 
 enum {
 	OPT_PART = 256, OPT_LOT, OPT_LOT_SIZE, OPT_AQL, OPT_LCR, OPT_SUPPLY, OPT_LEVEL, OPT_SEVERITY, OPT_SERIALS,
 	OPT_FIRST_SERIAL, OPT_AUTO, OPT_FROM, OPT_TO, OPT_SPACING, OPT_TEST_LEVEL, OPT_YES, OPT_SHOW_FIT, OPT_JSON,
-	OPT_HELP
+	OPT_PART_FAULT, OPT_RESUME, OPT_HELP
 };
 
 static const struct option long_options[] = {
@@ -71,6 +79,8 @@ static const struct option long_options[] = {
 	{ "serials", required_argument, NULL, OPT_SERIALS },
 	{ "first-serial", required_argument, NULL, OPT_FIRST_SERIAL },
 	{ "auto", no_argument, NULL, OPT_AUTO },
+	{ "part-fault", required_argument, NULL, OPT_PART_FAULT },
+	{ "resume", no_argument, NULL, OPT_RESUME },
 	{ "from", required_argument, NULL, OPT_FROM },
 	{ "to", required_argument, NULL, OPT_TO },
 	{ "spacing", required_argument, NULL, OPT_SPACING },
@@ -92,7 +102,8 @@ typedef struct inspect_args {
 	hb_sweep_plan plan;
 	hb_sweep_opts opts;
 	bool to_given;
-	bool autorun, yes, json, show_fit;
+	bool autorun, yes, json, show_fit, resume;
+	hb_inspect_part_policy part_fault;
 } inspect_args;
 
 /* Where the serial numbers come from, and the prompt's streams. */
@@ -102,6 +113,7 @@ typedef struct unit_source {
 	const char *serials_file;
 	const char *first_serial;
 	bool autorun;
+	hb_inspect_part_policy part_fault;
 	FILE *in, *prompt;
 } unit_source;
 
@@ -149,6 +161,17 @@ static int parse_args(int argc, char **argv, inspect_args *a)
 		case OPT_SERIALS: a->serials_file = optarg; break;
 		case OPT_FIRST_SERIAL: a->first_serial = optarg; break;
 		case OPT_AUTO: a->autorun = true; break;
+		case OPT_RESUME: a->resume = true; break;
+		case OPT_PART_FAULT:
+			if (strcasecmp(optarg, "nonconforming") == 0)
+				a->part_fault = HB_INSPECT_PART_NONCONFORMING;
+			else if (strcasecmp(optarg, "retest") == 0)
+				a->part_fault = HB_INSPECT_PART_RETEST;
+			else {
+				hb_cli_error("--part-fault '%s' unknown (accepted: nonconforming, retest)", optarg);
+				rc = HB_ERR_ARG;
+			}
+			break;
 		case OPT_LOT_SIZE: rc = hb_opt_int("--lot-size", optarg, 2, 1000000000L, &a->lot_size); break;
 		case OPT_AQL:
 			rc = hb_opt_value("--aql", optarg, "", -INFINITY, INFINITY, &a->aql);
@@ -348,26 +371,32 @@ static hb_inspect_action next_unit(void *ctx, int sequence, const char *complain
 	return HB_INSPECT_MEASURE;
 }
 
+/* Only for a unit the part kept from being measured: a loose contact looks
+ * like a high-resistance winding, so the operator may re-seat and retry
+ * before the policy applies. No skip: replacing a unit that would not
+ * measure by the next one would bias the sample toward acceptance. */
 static hb_inspect_action sweep_failed(void *ctx, int sequence, const char *serial, const hb_sweep_result *r)
 {
 	unit_source *src = ctx;
-	(void)r;
 	if (src->autorun)
-		return HB_INSPECT_SKIP;
+		return HB_INSPECT_RECORD;
+	fprintf(src->prompt, "unit #%d (%s) could not be measured because of the part: %s\n", sequence, serial, r->reason);
 	for (;;) {
-		fprintf(src->prompt, "unit #%d (%s) could not be measured: r = retry (check the contacts first), "
-				     "s = skip, q = pause: ", sequence, serial);
+		fprintf(src->prompt, "  Enter = %s, r = retry (re-seat it first), q = pause: ",
+			src->part_fault == HB_INSPECT_PART_RETEST ? "leave it for a retest (pauses)" : "record it NONCONFORMING");
 		fflush(src->prompt);
 		char line[64];
 		if (!fgets(line, sizeof line, src->in)) {
 			fputc('\n', src->prompt);
 			return HB_INSPECT_PAUSE;
 		}
+		if (!isatty(fileno(src->in)))
+			fputc('\n', src->prompt);
 		char *s = trim(line);
+		if (!*s)
+			return HB_INSPECT_RECORD;
 		if (strcasecmp(s, "r") == 0)
 			return HB_INSPECT_RETRY;
-		if (strcasecmp(s, "s") == 0)
-			return HB_INSPECT_SKIP;
 		if (strcasecmp(s, "q") == 0)
 			return HB_INSPECT_PAUSE;
 	}
@@ -398,7 +427,7 @@ int hb_cmd_inspect(int argc, char **argv)
 	hb_lcr *lcr = NULL;
 	hb_supply *supply = NULL;
 	unit_source src = { .serials_file = a.serials_file, .first_serial = a.first_serial, .autorun = a.autorun,
-			    .in = stdin, .prompt = stderr };
+			    .part_fault = a.part_fault, .in = stdin, .prompt = stderr };
 	char err[320];
 	hb_station station;
 	if (hb_station_load(&station, err, sizeof err) != HB_OK) {
@@ -477,6 +506,8 @@ int hb_cmd_inspect(int argc, char **argv)
 	cfg.progress = info;
 	cfg.progress_tty = isatty(fileno(info));
 	cfg.verbose_fit = a.show_fit;
+	cfg.part_fault = a.part_fault;
+	cfg.resume_only = a.resume;
 	hb_inspect_callbacks cb = { .ctx = &src, .next_unit = next_unit, .sweep_failed = sweep_failed };
 	hb_inspect_result res;
 	rc = hb_inspect_run(&cfg, &cb, &res);
@@ -493,9 +524,15 @@ int hb_cmd_inspect(int argc, char **argv)
 		/* The exit code is the lot's, not the printout's. */
 		(void)hb_print_json(hb_inspect_lot_json(db, res.lot_id, &res));
 	}
-	if (res.end == HB_INSPECT_PAUSED)
+	if (res.end == HB_INSPECT_PAUSED) {
+		/* The pause line went to the output; a sick bench or a limit also
+		 * gets one line on stderr, where a script or a log looks. */
+		if (res.pause_cause == HB_CAUSE_BENCH || res.pause_cause == HB_CAUSE_LIMIT)
+			hb_cli_error("inspect: lot %s paused at sample position %d: %s", a.lot, res.pause_sequence,
+				     res.message);
 		exit_code = res.signal_number == SIGINT ? HB_EXIT_SIGINT :
 			    res.signal_number ? 128 + res.signal_number : HB_EXIT_RUNTIME;
+	}
 	else
 		exit_code = HB_EXIT_OK;
 out:

@@ -1,6 +1,7 @@
 /* src/inspect.c - the lot inspection core shared by the `inspect` command, the demo and the tests */
 #include <ctype.h>
 #include <math.h>
+#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -16,9 +17,45 @@ void hb_inspect_config_init(hb_inspect_config *cfg)
 	cfg->severity = HB_SEVERITY_NORMAL;
 	cfg->aql = NAN;
 	cfg->ambient_c = NAN;
+	cfg->part_fault = HB_INSPECT_PART_NONCONFORMING;
+	cfg->bench_failures_to_pause = HB_INSPECT_BENCH_FAILURES_TO_PAUSE;
 	hb_sweep_plan_defaults(&cfg->plan);
 	cfg->plan.kind = HB_SWEEP_BIAS;
 	hb_analysis_options_init(&cfg->analysis);
+}
+
+hb_sweep_cause hb_inspect_sweep_cause(const hb_sweep_result *r)
+{
+	if (r->cause != HB_CAUSE_NONE)
+		return r->cause;
+	if (r->end == HB_SWEEP_COMPLETE && r->status == HB_OK)
+		return HB_CAUSE_NONE;
+	if (r->interrupted_by_signal)
+		return HB_CAUSE_OPERATOR;
+	switch (r->status) {
+	case HB_ERR_COMPLIANCE:
+	case HB_ERR_OVERLOAD:
+		return HB_CAUSE_PART;
+	case HB_ERR_INTERRUPTED:
+		return HB_CAUSE_OPERATOR;
+	case HB_ERR_LIMIT:
+		return HB_CAUSE_LIMIT;
+	default:
+		/* Time-out, lost link, protocol, instrument, I/O, store, and
+		 * anything not foreseen: a unit is never judged on a doubt. */
+		return HB_CAUSE_BENCH;
+	}
+}
+
+const char *hb_inspect_cause_name(hb_sweep_cause c)
+{
+	switch (c) {
+	case HB_CAUSE_OPERATOR: return "operator";
+	case HB_CAUSE_PART: return "part";
+	case HB_CAUSE_BENCH: return "bench";
+	case HB_CAUSE_LIMIT: return "limit";
+	default: return "none";
+	}
 }
 
 int hb_inspect_serial_nth(const char *first, int k, char *out, size_t cap)
@@ -65,6 +102,22 @@ void hb_inspect_print_plan(FILE *out, const hb_sampling_plan *p)
 		p->re);
 }
 
+void hb_inspect_print_rules(FILE *out, const hb_inspect_config *cfg)
+{
+	int bench = cfg->bench_failures_to_pause > 0 ? cfg->bench_failures_to_pause : HB_INSPECT_BENCH_FAILURES_TO_PAUSE;
+	fprintf(out, "units that cannot be measured:\n");
+	if (cfg->part_fault == HB_INSPECT_PART_RETEST)
+		fprintf(out, "  because of the part (compliance: the winding needs more voltage than the limit; open winding;\n"
+			     "    reading out of range): not judged, the inspection pauses so the unit is checked and measured again\n");
+	else
+		fprintf(out, "  because of the part (compliance: the winding needs more voltage than the limit; open winding;\n"
+			     "    reading out of range): NONCONFORMING, counted in the sample, the reason in its record\n");
+	fprintf(out, "  because of the bench (lost link, instrument error, time-out, supply dropout): not judged, no sample\n"
+		     "    position used, the same unit is measured again; %d in a row pause the inspection (resumable)\n"
+		     "  stopped by a safety limit or by the operator: not judged; the inspection pauses (resumable)\n"
+		     "  incomplete verdict (a check could not be made): NONCONFORMING\n", bench);
+}
+
 static bool lot_plan_differs(const hb_db_lot *lot, const hb_sampling_plan *p)
 {
 	char letter[2] = { p->letter, 0 };
@@ -79,6 +132,8 @@ typedef struct run_state {
 	const hb_inspect_callbacks *cb;
 	hb_inspect_result *out;
 	hb_db_lot lot;
+	int bench_in_row;   /* bench failures since the last sweep that reached the part */
+	int bench_limit;
 } run_state;
 
 static void tally_from_records(const hb_db_inspection *recs, size_t n, hb_inspect_tally *t)
@@ -181,7 +236,45 @@ static void verdict_note(const hb_analysis_summary *an, char *buf, size_t cap)
 	}
 }
 
-typedef enum { UNIT_RECORDED, UNIT_PAUSE, UNIT_ERROR } unit_end;
+typedef enum {
+	UNIT_RECORDED, /* the position is recorded (pass or fail) */
+	UNIT_BENCH,    /* the bench failed: nothing recorded, the same position is asked for again */
+	UNIT_PAUSE,    /* nothing recorded; the run stops with the lot open */
+	UNIT_ERROR     /* the store failed */
+} unit_end;
+
+static unit_end pause_with(run_state *st, hb_sweep_cause cause, const char *serial, const char *fmt, ...)
+	__attribute__((format(printf, 4, 5)));
+
+/* Ends a unit without recording it: the resumed run starts with this
+ * serial at this position. */
+static unit_end pause_with(run_state *st, hb_sweep_cause cause, const char *serial, const char *fmt, ...)
+{
+	hb_inspect_result *out = st->out;
+	va_list ap;
+	va_start(ap, fmt);
+	vsnprintf(out->message, sizeof out->message, fmt, ap);
+	va_end(ap);
+	out->pause_cause = cause;
+	snprintf(out->pause_serial, sizeof out->pause_serial, "%s", serial);
+	return UNIT_PAUSE;
+}
+
+/* The record of a unit that the part itself kept from being measured: the
+ * bench is fine (it measured others) and the part demanded what a good
+ * part never does, so it is nonconforming, the reason in its record. */
+static unit_end record_part_fault(run_state *st, hb_inspect_unit *u, int64_t sweep_id, const hb_sweep_result *res)
+{
+	u->outcome = HB_DB_FAIL;
+	u->overall = HB_OVERALL_INCOMPLETE;
+	u->cause = HB_CAUSE_PART;
+	u->sweep_id = sweep_id;
+	int n = snprintf(u->note, sizeof u->note, "not measurable (part), counted nonconforming: sweep %lld: %s",
+			 (long long)sweep_id, res->reason);
+	if (n >= (int)sizeof u->note)
+		memcpy(u->note + sizeof u->note - 4, "...", 4);
+	return record(st, u) == HB_OK ? UNIT_RECORDED : UNIT_ERROR;
+}
 
 static unit_end measure_unit(run_state *st, int sequence, const char *serial, hb_analysis_summary *an,
 			     hb_inspect_unit *unit)
@@ -195,10 +288,8 @@ static unit_end measure_unit(run_state *st, int sequence, const char *serial, hb
 	snprintf(u.serial, sizeof u.serial, "%s", serial);
 	*unit = u;
 	for (;;) {
-		if (st->cb->before_unit && st->cb->before_unit(st->cb->ctx, sequence, serial) != HB_OK) {
-			snprintf(out->message, sizeof out->message, "the set-up of unit %s failed", serial);
-			return UNIT_PAUSE;
-		}
+		if (st->cb->before_unit && st->cb->before_unit(st->cb->ctx, sequence, serial) != HB_OK)
+			return pause_with(st, HB_CAUSE_NONE, serial, "the set-up of unit %s failed", serial);
 		hb_session s = { .db = cfg->db, .lcr = cfg->lcr, .supply = cfg->supply, .station = cfg->station,
 				 .progress = cfg->progress, .progress_tty = cfg->progress_tty, .ambient_c = cfg->ambient_c };
 		char note[160];
@@ -208,36 +299,65 @@ static unit_end measure_unit(run_state *st, int sequence, const char *serial, hb
 		hb_sweep_result res;
 		hb_session_measure(&s, cfg->part, serial, st->lot.id, &cfg->plan, note, &sweep_id, &res);
 		if (res.current_may_flow) {
+			/* No retry: nobody may touch the bench until the supply is
+			 * switched off by hand. */
 			out->current_may_flow = true;
-			snprintf(out->message, sizeof out->message, "unit %s: the supply link was lost (%s)", serial,
-				 res.reason);
-			return UNIT_PAUSE;
+			out->bench_failures = ++st->bench_in_row;
+			return pause_with(st, HB_CAUSE_BENCH, serial, "unit %s: the supply link was lost (%s)", serial,
+					  res.reason);
 		}
-		if (res.interrupted_by_signal) {
+		hb_sweep_cause cause = hb_inspect_sweep_cause(&res);
+		if (cause == HB_CAUSE_OPERATOR) {
 			out->signal_number = res.signal_number;
-			snprintf(out->message, sizeof out->message,
-				 "unit %s: sweep %lld stopped by signal %d; the position is not recorded", serial,
-				 (long long)sweep_id, res.signal_number);
-			return UNIT_PAUSE;
+			if (res.interrupted_by_signal)
+				return pause_with(st, cause, serial,
+						  "unit %s: sweep %lld stopped by signal %d; the position is not recorded",
+						  serial, (long long)sweep_id, res.signal_number);
+			return pause_with(st, cause, serial, "unit %s: sweep %lld stopped by the operator: %s", serial,
+					  (long long)sweep_id, res.reason);
 		}
-		if (res.end != HB_SWEEP_COMPLETE) {
-			if (cfg->out)
-				fprintf(cfg->out, "  unit %s: sweep %lld %s: %s\n", serial, (long long)sweep_id,
-					res.end == HB_SWEEP_ABORTED ? "aborted" : "failed", res.reason);
+		if (cause == HB_CAUSE_LIMIT)
+			/* A limit is the set-up's business (limits, sweep range): no
+			 * verdict on the unit, and the next unit would meet it too. */
+			return pause_with(st, cause, serial,
+					  "unit %s: sweep %lld stopped by a safety limit: %s; check the limits and the sweep "
+					  "range, the unit is not judged",
+					  serial, (long long)sweep_id, res.reason);
+		if (cause == HB_CAUSE_BENCH) {
+			out->bench_failures = ++st->bench_in_row;
+			if (cfg->out) {
+				fprintf(cfg->out, "  #%-3d %-18s bench fault, not judged (%d of %d in a row pauses): sweep %lld: %s\n",
+					sequence, serial, st->bench_in_row, st->bench_limit, (long long)sweep_id, res.reason);
+				fflush(cfg->out);
+			}
+			if (st->bench_in_row >= st->bench_limit)
+				return pause_with(st, cause, serial,
+						  "the bench failed %d times in a row, last on unit %s (sweep %lld: %s); "
+						  "nothing was judged",
+						  st->bench_in_row, serial, (long long)sweep_id, res.reason);
+			return UNIT_BENCH;
+		}
+		/* A sweep that reached a verdict (or the part's fault) shows the
+		 * bench works. */
+		st->bench_in_row = 0;
+		out->bench_failures = 0;
+		if (cause == HB_CAUSE_PART) {
+			/* The reason is printed with the record (or the pause), once. */
 			hb_inspect_action act = st->cb->sweep_failed ?
-						st->cb->sweep_failed(st->cb->ctx, sequence, serial, &res) : HB_INSPECT_SKIP;
+						st->cb->sweep_failed(st->cb->ctx, sequence, serial, &res) : HB_INSPECT_RECORD;
 			if (act == HB_INSPECT_RETRY)
 				continue;
-			if (act == HB_INSPECT_PAUSE) {
-				snprintf(out->message, sizeof out->message, "paused after the sweep of %s failed", serial);
-				return UNIT_PAUSE;
-			}
-			u.outcome = HB_DB_SKIPPED;
-			u.sweep_id = sweep_id;
-			snprintf(u.note, sizeof u.note, "not tested: sweep %lld %s: %s", (long long)sweep_id,
-				 res.end == HB_SWEEP_ABORTED ? "aborted" : "failed", res.reason);
+			if (act == HB_INSPECT_PAUSE)
+				return pause_with(st, HB_CAUSE_OPERATOR, serial, "paused after unit %s could not be measured",
+						  serial);
+			if (cfg->part_fault == HB_INSPECT_PART_RETEST)
+				return pause_with(st, cause, serial,
+						  "unit %s could not be measured because of the part (sweep %lld: %s); "
+						  "not judged: check it and its contacts, it is measured again on resume",
+						  serial, (long long)sweep_id, res.reason);
+			unit_end e = record_part_fault(st, &u, sweep_id, &res);
 			*unit = u;
-			return record(st, &u) == HB_OK ? UNIT_RECORDED : UNIT_ERROR;
+			return e;
 		}
 		hb_analysis_options opt = cfg->analysis;
 		opt.noise_rel = res.noise_rel;
@@ -295,7 +415,8 @@ int hb_inspect_run(const hb_inspect_config *cfg, const hb_inspect_callbacks *cb,
 		snprintf(out->message, sizeof out->message, "%s", err);
 		return HB_ERR_ARG;
 	}
-	run_state st = { cfg, cb, out, { 0 } };
+	run_state st = { cfg, cb, out, { 0 }, 0,
+			 cfg->bench_failures_to_pause > 0 ? cfg->bench_failures_to_pause : HB_INSPECT_BENCH_FAILURES_TO_PAUSE };
 	hb_analysis_summary *an = calloc(1, sizeof *an);
 	hb_db_inspection *recs = NULL;
 	size_t nrecs = 0;
@@ -305,6 +426,22 @@ int hb_inspect_run(const hb_inspect_config *cfg, const hb_inspect_callbacks *cb,
 		goto done;
 	}
 	int64_t lot_id = 0;
+	if (cfg->resume_only) {
+		/* A lot is begun once its plan is stored: a mistyped lot code must
+		 * not start a new lot when the operator meant to continue one. */
+		rc = hb_db_lot_find(cfg->db, cfg->part->id, cfg->lot_code, &st.lot);
+		if (rc == HB_ERR_NOTFOUND || (rc == HB_OK && st.lot.sample_size <= 0)) {
+			snprintf(out->message, sizeof out->message,
+				 "lot %s of part %s has not been begun: nothing to resume", cfg->lot_code,
+				 cfg->part->part_number);
+			rc = HB_ERR_ARG;
+			goto done;
+		}
+		if (rc != HB_OK) {
+			snprintf(out->message, sizeof out->message, "store: %s", hb_db_errmsg(cfg->db));
+			goto done;
+		}
+	}
 	rc = hb_db_lot_ensure(cfg->db, cfg->part->id, cfg->lot_code, &lot_id);
 	if (rc == HB_OK)
 		rc = hb_db_lot_get(cfg->db, lot_id, &st.lot);
@@ -354,6 +491,7 @@ int hb_inspect_run(const hb_inspect_config *cfg, const hb_inspect_callbacks *cb,
 	out->resumed_at = out->tally.next_sequence;
 	if (cfg->out) {
 		hb_inspect_print_plan(cfg->out, &out->plan);
+		hb_inspect_print_rules(cfg->out, cfg);
 		if (out->resumed)
 			fprintf(cfg->out, "resuming lot %s at sample position %d: tested %d, nonconforming %d, skipped %d\n",
 				cfg->lot_code, out->tally.next_sequence, out->tally.tested, out->tally.nonconforming,
@@ -375,10 +513,19 @@ int hb_inspect_run(const hb_inspect_config *cfg, const hb_inspect_callbacks *cb,
 		}
 		if (hb_sweep_pending_signal()) {
 			out->signal_number = hb_sweep_pending_signal();
+			out->pause_cause = HB_CAUSE_OPERATOR;
 			snprintf(out->message, sizeof out->message, "signal %d received", out->signal_number);
 			goto done;
 		}
 		int seq = out->tally.next_sequence;
+		/* Only skips can get here, but a lot has no more units than its
+		 * size: drawing past it would be inventing units. */
+		if (seq > out->plan.lot_size) {
+			snprintf(out->message, sizeof out->message,
+				 "sample position %d is beyond the lot of %ld units (%d skipped); no unit left to draw", seq,
+				 out->plan.lot_size, out->tally.skipped);
+			goto done;
+		}
 		char serial[HB_DB_ID_LEN];
 		char complaint[200];
 		const char *why = NULL;
@@ -405,15 +552,17 @@ int hb_inspect_run(const hb_inspect_config *cfg, const hb_inspect_callbacks *cb,
 			why = complaint;
 		}
 		if (act == HB_INSPECT_PAUSE) {
-			if (hb_sweep_pending_signal())
+			if (hb_sweep_pending_signal()) {
 				out->signal_number = hb_sweep_pending_signal();
+				out->pause_cause = HB_CAUSE_OPERATOR;
+			}
 			if (!out->message[0])
 				snprintf(out->message, sizeof out->message, "paused at sample position %d", seq);
 			rc = HB_OK;
 			goto done;
 		}
 		hb_inspect_unit u;
-		if (act == HB_INSPECT_SKIP || act == HB_INSPECT_RETRY) {
+		if (act != HB_INSPECT_MEASURE) {
 			memset(&u, 0, sizeof u);
 			u.sequence = seq;
 			u.outcome = HB_DB_SKIPPED;
@@ -433,8 +582,11 @@ int hb_inspect_run(const hb_inspect_config *cfg, const hb_inspect_callbacks *cb,
 				rc = HB_OK;
 				goto done;
 			}
+			if (ue == UNIT_BENCH)
+				continue; /* the same position again: a bench fault uses none */
 		}
 		if (cb->after_unit && cb->after_unit(cb->ctx, &u, &out->tally) != HB_OK) {
+			out->pause_cause = HB_CAUSE_OPERATOR;
 			snprintf(out->message, sizeof out->message, "stopped after sample position %d", seq);
 			goto done;
 		}
@@ -450,9 +602,22 @@ int hb_inspect_run(const hb_inspect_config *cfg, const hb_inspect_callbacks *cb,
 	out->end = HB_INSPECT_DECIDED;
 	print_decision(&st);
 done:
-	if (out->end == HB_INSPECT_PAUSED && cfg->out && rc == HB_OK)
-		fprintf(cfg->out, "lot %s still open: %s; tested %d of %ld, nonconforming %d. Run the same command again to resume.\n",
-			cfg->lot_code, out->message, out->tally.tested, out->plan.sample_size, out->tally.nonconforming);
+	if (out->end == HB_INSPECT_PAUSED && rc == HB_OK) {
+		out->pause_sequence = out->tally.next_sequence;
+		if (cfg->out) {
+			const char *first = out->pause_cause == HB_CAUSE_BENCH ? "Fix the bench, then run" :
+					    out->pause_cause == HB_CAUSE_LIMIT ? "Fix the set-up, then run" : "Run";
+			char from[HB_DB_ID_LEN + 16] = "";
+			if (out->pause_serial[0])
+				snprintf(from, sizeof from, " with unit %s", out->pause_serial);
+			fprintf(cfg->out,
+				"lot %s still open: %s; tested %d of %ld, nonconforming %d. %s the same command again to "
+				"resume at sample position %d%s.\n",
+				cfg->lot_code, out->message, out->tally.tested, out->plan.sample_size,
+				out->tally.nonconforming, first, out->pause_sequence, from);
+			fflush(cfg->out);
+		}
+	}
 	hb_db_inspections_free(recs);
 	free(an);
 	return rc;
@@ -496,8 +661,14 @@ json_t *hb_inspect_lot_json(hb_db *db, int64_t lot_id, const hb_inspect_result *
 	json_object_set_new(j, "nonconforming", json_integer(r->tally.nonconforming));
 	json_object_set_new(j, "skipped", json_integer(r->tally.skipped));
 	json_object_set_new(j, "next_sequence", json_integer(r->tally.next_sequence));
-	if (r->end == HB_INSPECT_PAUSED && r->message[0])
+	if (r->end == HB_INSPECT_PAUSED && r->message[0]) {
 		json_object_set_new(j, "paused", json_string(r->message));
+		json_object_set_new(j, "pause_cause", json_string(hb_inspect_cause_name(r->pause_cause)));
+		json_object_set_new(j, "bench_failures_in_a_row", json_integer(r->bench_failures));
+		json_object_set_new(j, "resume_at", json_integer(r->pause_sequence));
+		if (r->pause_serial[0])
+			json_object_set_new(j, "resume_with", json_string(r->pause_serial));
+	}
 	json_t *units = json_array();
 	hb_db_inspection *recs = NULL;
 	size_t n = 0;
