@@ -17,7 +17,8 @@
 	" s.aperture, s.settle_mode, s.settle_delay_s, s.settle_tolerance, s.settle_max_readings,"   \
 	" s.settle_max_s, s.plan_from, s.plan_to, s.plan_steps, s.plan_spacing, s.limit_current_a,"  \
 	" s.limit_voltage_v, s.ambient_c, s.note,"                                                  \
-	" (SELECT count(*) FROM points pt WHERE pt.sweep_id = s.id), s.reading_noise_rel, s.dcr_meter_ohm"
+	" (SELECT count(*) FROM points pt WHERE pt.sweep_id = s.id), s.reading_noise_rel, s.dcr_meter_ohm,"        \
+	" s.supply_found_a, s.supply_off_a, s.supply_decay_s"
 
 void hb_db_sweep_init(hb_db_sweep *s)
 {
@@ -29,6 +30,7 @@ void hb_db_sweep_init(hb_db_sweep *s)
 	s->settle_delay_s = s->settle_tolerance = s->settle_max_s = NAN;
 	s->plan_from = s->plan_to = NAN;
 	s->reading_noise_rel = s->dcr_meter_ohm = NAN;
+	s->supply_found_a = s->supply_off_a = s->supply_decay_s = NAN;
 	s->limit_current_a = s->limit_voltage_v = s->ambient_c = NAN;
 }
 
@@ -92,6 +94,9 @@ static void read_sweep(sqlite3_stmt *st, void *row, const void *ctx)
 	s->n_points = (long)sqlite3_column_int64(st, 42);
 	s->reading_noise_rel = db_col_real(st, 43);
 	s->dcr_meter_ohm = db_col_real(st, 44);
+	s->supply_found_a = db_col_real(st, 45);
+	s->supply_off_a = db_col_real(st, 46);
+	s->supply_decay_s = db_col_real(st, 47);
 }
 
 int hb_db_sweep_begin(hb_db *db, hb_db_sweep *s)

@@ -200,6 +200,9 @@ typedef struct hb_db_sweep {
 	char note[HB_DB_NOTE_LEN];
 	double reading_noise_rel;                 /* relative sd of one reading, learnt at the first point */
 	double dcr_meter_ohm;                     /* the meter's DC-resistance reading, NAN if none */
+	double supply_found_a;                    /* current found flowing when the supply was opened */
+	double supply_off_a;                      /* current when the output was switched off */
+	double supply_decay_s;                    /* zero set-point to below the switch-off threshold */
 } hb_db_sweep;
 
 void hb_db_sweep_init(hb_db_sweep *sweep);

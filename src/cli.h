@@ -85,6 +85,9 @@ struct hb_db *hb_cli_open_store(void);
 struct json_t *hb_json_sweep_head(const struct hb_db_sweep *s);
 struct json_t *hb_json_sweep_instruments(const struct hb_db_sweep *s);
 struct json_t *hb_json_sweep_conditions(const struct hb_db_sweep *s);
+/* What the supply's state machine recorded: current found flowing at the
+ * start, current at switch-off, decay time (null where unknown). */
+struct json_t *hb_json_supply_record(const struct hb_db_sweep *s);
 
 /* ---------------- commands ---------------- */
 int hb_cmd_ports(int argc, char **argv);

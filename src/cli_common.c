@@ -65,6 +65,15 @@ json_t *hb_json_sweep_instruments(const hb_db_sweep *s)
 	return inst;
 }
 
+json_t *hb_json_supply_record(const hb_db_sweep *s)
+{
+	json_t *o = json_object();
+	json_object_set_new(o, "found_flowing_A", hb_json_num(s->supply_found_a));
+	json_object_set_new(o, "at_switch_off_A", hb_json_num(s->supply_off_a));
+	json_object_set_new(o, "decay_s", hb_json_num(s->supply_decay_s));
+	return o;
+}
+
 json_t *hb_json_sweep_conditions(const hb_db_sweep *s)
 {
 	json_t *set = json_object();

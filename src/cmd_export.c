@@ -225,6 +225,7 @@ static json_t *sweep_json(const hb_db_sweep *s)
 	json_object_set_new(set, "ambient_C", hb_json_num(s->ambient_c));
 	json_object_set_new(set, "reading_noise_rel", hb_json_num(s->reading_noise_rel));
 	json_object_set_new(o, "settings", set);
+	json_object_set_new(o, "supply_record", hb_json_supply_record(s));
 	json_object_set_new(o, "note", json_string(s->note));
 	return o;
 }
@@ -285,6 +286,8 @@ static json_t *sweep_full_json(hb_db *db, const hb_db_sweep *s, hb_db_fit *fit, 
 		json_object_set_new(q, "t_s", hb_json_num(p->t_s));
 		json_object_set_new(q, "settle_readings", json_integer(p->settle_readings));
 		json_object_set_new(q, "settle_s", hb_json_num(p->settle_s));
+		json_object_set_new(q, "bias_spread_A", hb_json_num(p->bias_spread_a));
+		json_object_set_new(q, "settled", json_boolean(p->settled));
 		json_array_append_new(arr, q);
 	}
 	json_object_set_new(o, "points", arr);

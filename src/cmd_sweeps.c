@@ -250,6 +250,7 @@ static json_t *sweep_detail_json(const hb_db_sweep *s)
 	json_object_set_new(set, "limits", lim);
 	json_object_set_new(set, "ambient_C", hb_json_num(s->ambient_c));
 	json_object_set_new(o, "settings", set);
+	json_object_set_new(o, "supply_record", hb_json_supply_record(s));
 	json_object_set_new(o, "note", json_string(s->note));
 	return o;
 }
@@ -273,6 +274,8 @@ static json_t *points_json(const hb_db_sweep *s, const hb_db_point *pts, size_t 
 		json_object_set_new(o, "t_s", hb_json_num(p->t_s));
 		json_object_set_new(o, "settle_readings", json_integer(p->settle_readings));
 		json_object_set_new(o, "settle_s", hb_json_num(p->settle_s));
+		json_object_set_new(o, "bias_spread_A", hb_json_num(p->bias_spread_a));
+		json_object_set_new(o, "settled", json_boolean(p->settled));
 		json_array_append_new(arr, o);
 	}
 	return arr;

@@ -279,6 +279,8 @@ typedef struct engine {
 	double sigma_amps;  /* noise of one current read-back, A */
 	double rb_seconds;  /* how long one read-back takes */
 	double tau;         /* learnt response time of the read-back to a step, s; 0 until seen */
+	bool overshoot;     /* a step has overshot: the first-order prediction is not trusted */
+	double r_est;       /* V/I of the last point, ohm (NAN until seen) */
 	double i_top;
 	double last_amps[2], last_l[2];
 	int n_last;
@@ -390,11 +392,15 @@ static int series_add(engine *e, rb_sample s)
  * that changes L by less than settle_fraction of one reading's noise,
  * from the slope dL/dI seen at the last two points (doubled, because the
  * slope only steepens towards saturation). Bounded below by what the
- * read-back can resolve, above by 0.2 % of the point so the supply's own
- * V/I (the DC resistance) is read on a still current. */
+ * read-back can resolve, above by 1 % of the point and by what keeps the
+ * supply's V/I (the DC resistance) honest: a current still moving by d
+ * with time constant tau adds L*d/tau to the voltage, which must stay
+ * below 0.1 % of I*R. */
 static double current_tolerance(const engine *e, double setpoint)
 {
-	double hi = 2e-3 * fmax(fabs(setpoint), 0.05 * e->i_top);
+	double hi = 1e-2 * fmax(fabs(setpoint), 0.05 * e->i_top);
+	if (e->n_last >= 1 && e->tau > 0 && isfinite(e->r_est) && e->r_est > 0 && fabs(e->last_l[e->n_last - 1]) > 0)
+		hi = fmin(hi, 1e-3 * fabs(setpoint) * e->r_est * e->tau / fabs(e->last_l[e->n_last - 1]));
 	double lo = fmax(2.0 * e->sigma_amps, 1e-4 * e->i_top);
 	double tol = hi;
 	if (e->n_last >= 2) {
@@ -430,6 +436,79 @@ static double series_slope(const engine *e, size_t from, double *sxx_out)
 	return sxx > 0 ? sxy / sxx : 0;
 }
 
+/* Least-squares a_inf, c of a(t) = a_inf + c*exp(-(t - t0)/tau) over the
+ * read-backs from index `from` on, for a given tau; returns the residual
+ * sum of squares (INFINITY when the system is singular). */
+static double exp_fit(const engine *e, size_t from, double t0, double tau, double *a_inf)
+{
+	double s1 = 0, sx = 0, sxx = 0, sy = 0, sxy = 0;
+	for (size_t i = from; i < e->n_series; i++) {
+		double x = exp(-(e->series[i].t - t0) / tau);
+		double y = e->series[i].amps;
+		s1 += 1;
+		sx += x;
+		sxx += x * x;
+		sy += y;
+		sxy += x * y;
+	}
+	double det = s1 * sxx - sx * sx;
+	if (!(det > 1e-12 * s1 * sxx))
+		return INFINITY;
+	double c = (s1 * sxy - sx * sy) / det;
+	double a = (sy - c * sx) / s1;
+	double ss = 0;
+	for (size_t i = from; i < e->n_series; i++) {
+		double r = e->series[i].amps - (a + c * exp(-(e->series[i].t - t0) / tau));
+		ss += r * r;
+	}
+	*a_inf = a;
+	return ss;
+}
+
+/* First-order prediction of where the read-back is going: the fit above
+ * over the read-backs of the last three learnt response times, with its
+ * own time constant found by a golden-section search between a quarter
+ * and four times the learnt one (a lag is rarely the same at every
+ * current). Returns false when the fit is not usable; *rms gets the
+ * residual spread. */
+static bool predict_final(const engine *e, double *a_inf, double *rms)
+{
+	size_t n = e->n_series;
+	if (n < 6 || !(e->tau > 0))
+		return false;
+	double t_end = e->series[n - 1].t;
+	size_t from = n;
+	while (from > 0 && t_end - e->series[from - 1].t <= 3.0 * e->tau)
+		from--;
+	if (n - from < 6)
+		return false;
+	double t0 = e->series[from].t;
+	const double g = 0.5 * (sqrt(5.0) - 1.0);
+	double lo = log(e->tau / 4), hi = log(e->tau * 4);
+	double x1 = hi - g * (hi - lo), x2 = lo + g * (hi - lo), a1, a2;
+	double f1 = exp_fit(e, from, t0, exp(x1), &a1), f2 = exp_fit(e, from, t0, exp(x2), &a2);
+	for (int it = 0; it < 30; it++) {
+		if (f1 < f2) {
+			hi = x2;
+			x2 = x1;
+			f2 = f1;
+			x1 = hi - g * (hi - lo);
+			f1 = exp_fit(e, from, t0, exp(x1), &a1);
+		} else {
+			lo = x1;
+			x1 = x2;
+			f1 = f2;
+			x2 = lo + g * (hi - lo);
+			f2 = exp_fit(e, from, t0, exp(x2), &a2);
+		}
+	}
+	double ss = exp_fit(e, from, t0, exp(0.5 * (lo + hi)), a_inf);
+	if (!isfinite(ss))
+		return false;
+	*rms = sqrt(ss / (double)(n - from - 3));
+	return true;
+}
+
 /* Waits until the current has arrived, judged from the read-back series
  * since the step (see docs/sweeps.md, "Settling"):
  *  - the response time of this step is the time the read-back took to
@@ -442,7 +521,14 @@ static double series_slope(const engine *e, size_t from, double *sxx_out)
  *    prediction of the change still to come — must be within it too.
  * Until a response time is seen (offset read-back, tiny step) the window
  * is half the time since the step, which only accepts a current that has
- * held still for as long as it took to get there. */
+ * held still for as long as it took to get there.
+ * Once a response time has been learnt and no step has overshot, a
+ * quicker test comes first: when a first-order response with the learnt
+ * time constant fits the read-backs since the step within their noise,
+ * the distance from the last read-back to the predicted final value is
+ * the change still to come, and the point is read once it is within the
+ * tolerance. A response that is not first-order (slew limit, filtered or
+ * late read-back, ringing) fails the fit and falls back to the window. */
 static int settle_current(engine *e, double setpoint, double t_step, double tol, bool *settled)
 {
 	*settled = false;
@@ -474,6 +560,14 @@ static int settle_current(engine *e, double setpoint, double t_step, double tol,
 		while (from > 0 && s.t - e->series[from - 1].t <= window)
 			from--;
 		bool full = from > 0 || (s.t - e->series[0].t) >= 0.9 * window;
+		double a_inf, rms;
+		bool pf = !e->overshoot && e->tau > 0 && since >= e->tau && predict_final(e, &a_inf, &rms);
+		if (pf &&
+		    rms <= 3.0 * e->sigma_amps + 0.1 * tol && fabs(s.amps - a_inf) <= tol &&
+		    fabs(a_inf - setpoint) <= 0.02 * fabs(setpoint) + 0.01) {
+			*settled = true;
+			return HB_OK;
+		}
 		if (full && e->n_series - from >= 3) {
 			double lo = INFINITY, hi = -INFINITY;
 			for (size_t i = from; i < e->n_series; i++) {
@@ -501,8 +595,15 @@ static void learn_response(engine *e, double t_step, double final_amps, double t
 	if (e->n_series < 2)
 		return;
 	double first_dev = fabs(e->series[0].amps - final_amps);
-	if (first_dev <= 4.0 * (tol + 5.0 * e->sigma_amps))
+	double band = tol + 5.0 * e->sigma_amps;
+	if (first_dev <= 4.0 * band)
 		return;
+	/* Gone past the final value, on the far side from where it started:
+	 * an overshoot, which a first-order prediction would misjudge. */
+	double side = e->series[0].amps - final_amps;
+	for (size_t i = 0; i < e->n_series; i++)
+		if ((e->series[i].amps - final_amps) * side < 0 && fabs(e->series[i].amps - final_amps) > 2.0 * band)
+			e->overshoot = true;
 	for (size_t i = 0; i < e->n_series; i++) {
 		if (fabs(e->series[i].amps - final_amps) <= first_dev / M_E) {
 			double t = e->series[i].t - t_step;
@@ -663,6 +764,8 @@ static int check_supply(engine *e, hb_sweep_point *p, double setpoint)
 	if (rc != HB_OK && rc != HB_ERR_UNSUPPORTED)
 		return supply_fault(e, rc, "voltage read-back");
 	p->supply_voltage = volts;
+	if (isfinite(volts) && isfinite(amps) && amps > 0.05 * e->i_top)
+		e->r_est = volts / amps;
 	hb_supply_mode mode = HB_SUPPLY_MODE_UNKNOWN;
 	rc = hb_supply_get_mode(e->supply, &mode);
 	if (rc != HB_OK && rc != HB_ERR_UNSUPPORTED)
@@ -967,7 +1070,7 @@ int hb_sweep_run(hb_lcr *lcr, hb_supply *supply, const hb_sweep_plan *plan, cons
 	result->off_amps = NAN;
 	result->decay_seconds = NAN;
 	engine e = { .lcr = lcr, .supply = supply, .plan = plan, .cb = cb, .result = result,
-		     .t0 = now_seconds(), .noise_rel = 1e-4 };
+		     .t0 = now_seconds(), .noise_rel = 1e-4, .r_est = NAN };
 	char err[256];
 	int rc = hb_sweep_plan_check(plan, supply != NULL, err, sizeof err);
 	if (rc != HB_OK)
