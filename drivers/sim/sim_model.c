@@ -350,9 +350,11 @@ double sim_step_max(const sim_params *p)
 	 * temperature and the history fine enough to show the ringing. */
 	if (p->f_n > 0 && 1.0 / (40.0 * p->f_n) < h)
 		h = 1.0 / (40.0 * p->f_n);
+	/* Fine enough that the read-back's trapezoids and interpolation over
+	 * the history stay within about 1e-4 of a step. */
 	double window = p->rb_latency + p->rb_average;
-	if (window > 0 && window / 64.0 < h)
-		h = window / 64.0;
+	if (window > 0 && window / 256.0 < h)
+		h = window / 256.0;
 	return h;
 }
 
@@ -422,6 +424,12 @@ void sim_state_step(const sim_params *p, sim_state *s, double dt)
 				s->dadt = p->slew;
 			else if (s->dadt < -p->slew)
 				s->dadt = -p->slew;
+		}
+		/* A single-quadrant output stage cannot drive the current
+		 * negative: with the output off it rings down to 0, not past it. */
+		if (!s->output && s->amps < 0) {
+			s->amps = 0;
+			s->dadt = 0;
 		}
 		if (p->f_n <= 0)
 			s->dadt = (s->amps - before) / h;
