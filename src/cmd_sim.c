@@ -64,6 +64,12 @@ static int apply_param(hb_sim *sim, const char *text)
 	}
 	memcpy(key, text, (size_t)(eq - text));
 	key[eq - text] = '\0';
+	/* Nothing would move a virtual clock in a served bench: its clients'
+	 * waits are their own, on the wall clock. */
+	if (strcmp(key, "virtual_time") == 0) {
+		hb_cli_error("sim: --param virtual_time: only the in-process bench (sim:lcr, sim:supply) runs in virtual time");
+		return HB_ERR_ARG;
+	}
 	const char *unit = hb_sim_param_unit(key);
 	if (!unit) {
 		hb_cli_error("sim: --param: parameter '%s' unknown (see --list-params)", key);
