@@ -362,10 +362,14 @@ double sim_step_max(const sim_params *p)
  * held: x(h) = exp(A h) x(0) for the deviation x = (I - target, I'). For
  * the 2x2 companion matrix, with s = -zeta w and d^2 = w^2 (zeta^2 - 1),
  * exp(A h) = e^(s h) [C 1 + S (A - s 1)], C = cosh(d h), S = sinh(d h)/d
- * (cos and sin for d^2 < 0; 1 and h at d = 0): Cayley-Hamilton. */
-static void second_order_step(double w, double zeta, double h, double target, double *amps, double *dadt)
+ * (cos and sin for d^2 < 0; 1 and h at d = 0): Cayley-Hamilton. The
+ * matrix depends on h only, so it is made once per call. */
+typedef struct second_order {
+	double m11, m12, m21, m22;
+} second_order;
+
+static second_order second_order_make(double w, double zeta, double h)
 {
-	double x = *amps - target, v = *dadt;
 	double s = -zeta * w, d2 = w * w * (zeta * zeta - 1.0);
 	double c, sn;
 	if (d2 < -1e-12 * w * w) {
@@ -381,10 +385,14 @@ static void second_order_step(double w, double zeta, double h, double target, do
 		sn = h;
 	}
 	double e = exp(s * h);
-	double x1 = e * (c * x + sn * (zeta * w * x + v));
-	double v1 = e * (c * v + sn * (-w * w * x - zeta * w * v));
-	*amps = target + x1;
-	*dadt = v1;
+	return (second_order){ e * (c + sn * zeta * w), e * sn, -e * sn * w * w, e * (c - sn * zeta * w) };
+}
+
+static void second_order_step(const second_order *m, double target, double *amps, double *dadt)
+{
+	double x = *amps - target, v = *dadt;
+	*amps = target + m->m11 * x + m->m12 * v;
+	*dadt = m->m21 * x + m->m22 * v;
 }
 
 void sim_state_step(const sim_params *p, sim_state *s, double dt)
@@ -400,7 +408,7 @@ void sim_state_step(const sim_params *p, sim_state *s, double dt)
 	double h = dt / steps;
 	double k_i = 1.0 - exp(-h / p->tau_settle);
 	double k_t = 1.0 - exp(-h / p->tau_th);
-	double w = 2.0 * M_PI * p->f_n;
+	second_order m2 = second_order_make(2.0 * M_PI * p->f_n, p->zeta, h);
 	/* History samples need only resolve the read-back window. */
 	double gap = (p->rb_latency + p->rb_average) / (SIM_HIST_MAX / 2);
 	for (int i = 0; i < steps; i++) {
@@ -408,7 +416,7 @@ void sim_state_step(const sim_params *p, sim_state *s, double dt)
 		double target = sim_supply_target(p, s, &mode);
 		double before = s->amps;
 		if (p->f_n > 0) {
-			second_order_step(w, p->zeta, h, target, &s->amps, &s->dadt);
+			second_order_step(&m2, target, &s->amps, &s->dadt);
 		} else {
 			s->amps += (target - s->amps) * k_i;
 		}
