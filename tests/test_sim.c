@@ -1,4 +1,4 @@
-/* tests/test_sim.c - simulated bench: core physics, SCPI text, every fault, socketpair/TCP/pty transports, the in-process thread */
+/* tests/test_sim.c - simulated bench: core physics, SCPI text, every fault, witness log, socketpair/TCP/pty transports, the in-process thread */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>

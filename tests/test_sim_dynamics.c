@@ -10,9 +10,11 @@
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
+#include <unistd.h>
 
 #include "drivers/hb_drivers.h"
 #include "drivers/sim/sim_internal.h"
+#include "src/cli.h"
 
 /* cmocka here has no double comparison; |a-b| <= tol with both values shown. */
 static void assert_near(double a, double b, double tol)
@@ -597,6 +599,40 @@ static void test_dynamics_presets(void **state)
 	hb_sim_free(sim);
 }
 
+/* henrybench sim --dynamics: an unknown name and a virtual clock for a
+ * served bench are usage errors (exit 2); the names are in --help. */
+static void test_cli_dynamics(void **state)
+{
+	(void)state;
+	char *bad[] = { "sim", "--dynamics", "bogus", "--lcr", "pty", NULL };
+	assert_int_equal(hb_cmd_sim(5, bad), HB_EXIT_USAGE);
+	char *virt[] = { "sim", "--dynamics", "slew", "--param", "virtual_time=1", "--lcr", "pty", NULL };
+	assert_int_equal(hb_cmd_sim(7, virt), HB_EXIT_USAGE);
+	char *range[] = { "sim", "--dynamics", "latent", "--param", "rb_latency=2s", "--lcr", "pty", NULL };
+	assert_int_equal(hb_cmd_sim(7, range), HB_EXIT_USAGE);
+
+	fflush(stdout);
+	int saved = dup(fileno(stdout));
+	assert_true(saved >= 0);
+	/* --help writes to stdout: catch it in a temporary file */
+	FILE *tmp = tmpfile();
+	assert_non_null(tmp);
+	dup2(fileno(tmp), fileno(stdout));
+	char *help[] = { "sim", "--help", NULL };
+	assert_int_equal(hb_cmd_sim(2, help), HB_EXIT_OK);
+	fflush(stdout);
+	dup2(saved, fileno(stdout));
+	close(saved);
+	rewind(tmp);
+	char buf[4096];
+	size_t got = fread(buf, 1, sizeof buf - 1, tmp);
+	buf[got] = '\0';
+	fclose(tmp);
+	assert_non_null(strstr(buf, "--dynamics NAME"));
+	for (const char *const *n = hb_sim_dynamics(); *n; n++)
+		assert_non_null(strstr(buf, *n));
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -613,6 +649,7 @@ int main(void)
 		cmocka_unit_test(test_virtual_repeatable),
 		cmocka_unit_test(test_virtual_faults),
 		cmocka_unit_test(test_virtual_switch),
+		cmocka_unit_test(test_cli_dynamics),
 	};
 	/* The user's own profiles must not change what the drivers see. */
 	unsetenv("HENRYBENCH_PROFILE_PATH");

@@ -1,4 +1,4 @@
-/* drivers/sim/sim.c - the simulated bench: handle, parameters, faults, log, single-threaded poll server, TCP, pty, in-process thread */
+/* drivers/sim/sim.c - the simulated bench: handle, parameters, faults, log, single-threaded poll server, TCP, pty, in-process thread, virtual time and its direct links */
 #define _GNU_SOURCE /* posix_openpt and ptsname_r are XSI / GNU, not plain POSIX */
 #include <errno.h>
 #include <fcntl.h>

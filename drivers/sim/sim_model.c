@@ -1,4 +1,4 @@
-/* drivers/sim/sim_model.c - the simulated part: parameters, presets, saturating core, winding heat, supply regulation, impedance */
+/* drivers/sim/sim_model.c - the simulated part and supply: parameters, part and dynamics presets, saturating core, winding heat, supply regulation and response, read-back history, impedance */
 #include <math.h>
 #include <stddef.h>
 #include <string.h>
