@@ -739,8 +739,9 @@ static void test_witness_second_connection(void **state)
 	double m[3];
 	for (int k = 0; k < 3; k++)
 		m[k] = query_double(sim, &a, "MEAS:CURR?");
-	/* each MEAS:CURR? takes 10 ms: decaying, not gone at once */
-	assert_true(m[0] < 2.0 && m[0] > 0.05);
+	/* each MEAS:CURR? takes 10 ms: decaying, not gone at once (noise is
+	 * off, so an exponential decay stays above 0 however slow the host) */
+	assert_true(m[0] < 2.0 && m[0] > 0);
 	assert_true(m[1] < m[0] && m[2] < m[1] && m[2] > 0);
 	client_send(&b, "*RST");
 	expect_reply(sim, &b, "*OPC?", "1");
