@@ -262,6 +262,11 @@ void hb_sim_list_params(FILE *out);
 const char *hb_sim_param_unit(const char *key);
 /* The preset names, NULL-terminated. */
 const char *const *hb_sim_presets(void);
+/* Loads a named supply-dynamics preset: sets tau_settle, slew, zeta, f_n,
+ * rb_latency and rb_average (bench parameters; the part is kept). Names:
+ * hb_sim_dynamics(), NULL-terminated; "default" is the original behaviour. */
+int hb_sim_load_dynamics(hb_sim *sim, const char *name);
+const char *const *hb_sim_dynamics(void);
 /* Fault injection, e.g. "delay=300", "drop=5", "garble=7", "disconnect=20",
  * "error=-222", "crlf", "split", "late=2100", "echo", "deaf=500";
  * applies to the given role. */
@@ -290,6 +295,13 @@ hb_sim *hb_sim_inproc(void);
 void hb_sim_inproc_lock(void);
 void hb_sim_inproc_unlock(void);
 void hb_sim_inproc_shutdown(void);
+/* Virtual time for the in-process bench (the same as its parameter
+ * virtual_time): no wall time is involved; each command line costs 0.5 ms
+ * of model time, a measurement its integration time, a read with nothing
+ * to come its time-out, and hb_clock_now/hb_clock_sleep run on the bench's
+ * clock (installed here, uninstalled when switched off or at shutdown).
+ * Switch it on before opening sim: links. Seeded runs repeat to the bit. */
+int hb_sim_inproc_virtual(bool on);
 
 /* ------------------------------------------------------------------ */
 /* The bench clock                                                     */

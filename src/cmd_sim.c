@@ -21,7 +21,7 @@ static void sim_usage(FILE *out)
 {
 	fprintf(out,
 		"usage: henrybench sim [--lcr RESOURCE] [--supply RESOURCE] [--preset NAME]\n"
-		"                      [--param KEY=VALUE ...] [--log FILE]\n"
+		"                      [--dynamics NAME] [--param KEY=VALUE ...] [--log FILE]\n"
 		"                      [--fault-lcr SPEC] [--fault-supply SPEC] [--list-params]\n\n"
 		"Serves the simulated LCR meter and DC supply (one shared part model) until\n"
 		"SIGINT or SIGTERM. RESOURCE is tcp://HOST:PORT (PORT 0 picks a free one) or\n"
@@ -30,8 +30,12 @@ static void sim_usage(FILE *out)
 		"  --preset NAME        part to simulate:");
 	for (const char *const *n = hb_sim_presets(); *n; n++)
 		fprintf(out, " %s", *n);
+	fprintf(out, "\n  --dynamics NAME      supply current dynamics:");
+	for (const char *const *n = hb_sim_dynamics(); *n; n++)
+		fprintf(out, " %s", *n);
 	fprintf(out,
 		"\n"
+		"                       (applied before --param, which can adjust it)\n"
 		"  --param KEY=VALUE    model parameter, with units (gap=0.3mm, cp=10pF); repeatable\n"
 		"  --log FILE           timestamped log of commands and supply output changes\n"
 		"  --fault-lcr SPEC     e.g. delay=300,drop=5 (see docs/simulator.md)\n"
@@ -60,6 +64,12 @@ static int apply_param(hb_sim *sim, const char *text)
 	}
 	memcpy(key, text, (size_t)(eq - text));
 	key[eq - text] = '\0';
+	/* Nothing would move a virtual clock in a served bench: its clients'
+	 * waits are their own, on the wall clock. */
+	if (strcmp(key, "virtual_time") == 0) {
+		hb_cli_error("sim: --param virtual_time: only the in-process bench (sim:lcr, sim:supply) runs in virtual time");
+		return HB_ERR_ARG;
+	}
 	const char *unit = hb_sim_param_unit(key);
 	if (!unit) {
 		hb_cli_error("sim: --param: parameter '%s' unknown (see --list-params)", key);
@@ -125,11 +135,12 @@ static int serve_resource(hb_sim *sim, hb_sim_role role, const char *name, const
 
 int hb_cmd_sim(int argc, char **argv)
 {
-	enum { OPT_LCR = 256, OPT_SUPPLY, OPT_PRESET, OPT_PARAM, OPT_LOG, OPT_FAULT_LCR, OPT_FAULT_SUPPLY, OPT_LIST };
+	enum { OPT_LCR = 256, OPT_SUPPLY, OPT_PRESET, OPT_DYNAMICS, OPT_PARAM, OPT_LOG, OPT_FAULT_LCR, OPT_FAULT_SUPPLY, OPT_LIST };
 	static const struct option options[] = {
 		{ "lcr", required_argument, NULL, OPT_LCR },
 		{ "supply", required_argument, NULL, OPT_SUPPLY },
 		{ "preset", required_argument, NULL, OPT_PRESET },
+		{ "dynamics", required_argument, NULL, OPT_DYNAMICS },
 		{ "param", required_argument, NULL, OPT_PARAM },
 		{ "log", required_argument, NULL, OPT_LOG },
 		{ "fault-lcr", required_argument, NULL, OPT_FAULT_LCR },
@@ -138,7 +149,7 @@ int hb_cmd_sim(int argc, char **argv)
 		{ "help", no_argument, NULL, 'h' },
 		{ NULL, 0, NULL, 0 },
 	};
-	const char *lcr_res = NULL, *supply_res = NULL, *preset = NULL, *log_path = NULL;
+	const char *lcr_res = NULL, *supply_res = NULL, *preset = NULL, *dynamics = NULL, *log_path = NULL;
 	const char *fault_lcr = NULL, *fault_supply = NULL;
 	const char **params = calloc((size_t)argc + 1, sizeof *params);
 	int nparams = 0, rc = HB_EXIT_OK;
@@ -157,6 +168,7 @@ int hb_cmd_sim(int argc, char **argv)
 		case OPT_LCR: lcr_res = optarg; break;
 		case OPT_SUPPLY: supply_res = optarg; break;
 		case OPT_PRESET: preset = optarg; break;
+		case OPT_DYNAMICS: dynamics = optarg; break;
 		case OPT_PARAM: params[nparams++] = optarg; break;
 		case OPT_LOG: log_path = optarg; break;
 		case OPT_FAULT_LCR: fault_lcr = optarg; break;
@@ -165,6 +177,9 @@ int hb_cmd_sim(int argc, char **argv)
 			hb_sim_list_params(stdout);
 			printf("presets:");
 			for (const char *const *n = hb_sim_presets(); *n; n++)
+				printf(" %s", *n);
+			printf("\ndynamics:");
+			for (const char *const *n = hb_sim_dynamics(); *n; n++)
 				printf(" %s", *n);
 			printf("\n");
 			goto out;
@@ -192,6 +207,12 @@ int hb_cmd_sim(int argc, char **argv)
 	if (st != HB_OK) {
 		hb_cli_error("sim: --preset: %s", hb_sim_errmsg(sim));
 		rc = st == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
+		goto out;
+	}
+	/* The preset first, so --param can adjust one of its values. */
+	if (dynamics && hb_sim_load_dynamics(sim, dynamics) != HB_OK) {
+		hb_cli_error("sim: --dynamics: %s", hb_sim_errmsg(sim));
+		rc = HB_EXIT_USAGE;
 		goto out;
 	}
 	for (int i = 0; i < nparams; i++) {

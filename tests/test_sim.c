@@ -1,4 +1,4 @@
-/* tests/test_sim.c - simulated bench: core physics, SCPI text, every fault, socketpair/TCP/pty transports, the in-process thread */
+/* tests/test_sim.c - simulated bench: core physics, SCPI text, every fault, witness log, socketpair/TCP/pty transports, the in-process thread */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -662,9 +662,10 @@ static void test_log(void **state)
 	hb_sim_free(sim);
 	fclose(log);
 
-	const char *want[] = { "supply cmd VOLT 5;CURR 1.5;OUTP ON", "supply setpoint 1.5000 A", "supply output ON",
-			       "supply mode CC", "supply current 1.500 A", "supply output OFF", "supply mode OFF",
-			       "supply current 0.000 A", "supply disconnect" };
+	const char *want[] = { "supply cmd VOLT 5;CURR 1.5;OUTP ON", "supply setpoint 1.5000 A at 0.0000 A",
+			       "supply output ON at 0.0000 A", "supply mode CC", "supply current 1.500 A",
+			       "supply setpoint 0.0000 A at 1.5000 A", "supply output OFF at 1.5000 A",
+			       "supply mode OFF", "supply current 0.000 A", "supply disconnect" };
 	const char *at = text;
 	for (size_t i = 0; i < sizeof want / sizeof want[0]; i++) {
 		const char *hit = strstr(at, want[i]);
@@ -679,6 +680,93 @@ static void test_log(void **state)
 		assert_int_equal(n, 24);
 		assert_true(strncmp(line + 24, "supply ", 7) == 0);
 	}
+	free(text);
+}
+
+static void tcp_connect(int port, client *c)
+{
+	memset(c, 0, sizeof *c);
+	c->fd = socket(AF_INET, SOCK_STREAM, 0);
+	struct sockaddr_in a = { .sin_family = AF_INET, .sin_port = htons((uint16_t)port) };
+	inet_pton(AF_INET, "127.0.0.1", &a.sin_addr);
+	assert_int_equal(connect(c->fd, (struct sockaddr *)&a, sizeof a), 0);
+	fcntl(c->fd, F_SETFL, fcntl(c->fd, F_GETFL) | O_NONBLOCK);
+}
+
+/* The value after the n-th (from 1) occurrence of prefix in text; NAN when
+ * there are fewer. */
+static double log_value(const char *text, const char *prefix, int n)
+{
+	const char *at = text;
+	for (int k = 0; k < n; k++) {
+		at = strstr(at, prefix);
+		if (!at)
+			return NAN;
+		at += strlen(prefix);
+	}
+	return strtod(at, NULL);
+}
+
+/* A second client of the same simulated supply switches it off mid-run:
+ * the first sees the output off and the current decaying, and the log
+ * witnesses the current at each switching instant. Wall time at full
+ * scale: the decay (tau 50 ms) is slow next to one poll round. */
+static void test_witness_second_connection(void **state)
+{
+	(void)state;
+	char *text = NULL;
+	size_t len = 0;
+	FILE *log = open_memstream(&text, &len);
+	hb_sim *sim = NULL;
+	assert_int_equal(hb_sim_new(NULL, &sim), HB_OK);
+	assert_int_equal(hb_sim_set_param(sim, "tau_settle", 0.05), HB_OK);
+	assert_int_equal(hb_sim_set_param(sim, "noise", 0), HB_OK);
+	hb_sim_set_log(sim, log);
+	int port = 0;
+	assert_int_equal(hb_sim_listen_tcp(sim, HB_SIM_SUPPLY, "127.0.0.1", 0, &port), HB_OK);
+	client a, b;
+	tcp_connect(port, &a);
+	tcp_connect(port, &b);
+	client_send(&a, "VOLT 5;CURR 2;OUTP ON");
+	double amps = 0;
+	for (int i = 0; i < 1000 && amps < 1.99; i++)
+		amps = query_double(sim, &a, "MEAS:CURR?");
+	assert_true(amps >= 1.99);
+	/* *OPC? on the second connection: its OUTP OFF has run */
+	client_send(&b, "OUTP OFF");
+	expect_reply(sim, &b, "*OPC?", "1");
+	expect_reply(sim, &a, "OUTP?", "0");
+	double m[3];
+	for (int k = 0; k < 3; k++)
+		m[k] = query_double(sim, &a, "MEAS:CURR?");
+	/* each MEAS:CURR? takes 10 ms: decaying, not gone at once (noise is
+	 * off, so an exponential decay stays above 0 however slow the host) */
+	assert_true(m[0] < 2.0 && m[0] > 0);
+	assert_true(m[1] < m[0] && m[2] < m[1] && m[2] > 0);
+	client_send(&b, "*RST");
+	expect_reply(sim, &b, "*OPC?", "1");
+	close(a.fd);
+	close(b.fd);
+	settle(sim, 5);
+	hb_sim_free(sim);
+	fclose(log);
+
+	assert_near(log_value(text, "supply setpoint ", 1), 2.0, 0);
+	assert_near(log_value(text, "supply setpoint 2.0000 A at ", 1), 0.0, 0);
+	assert_near(log_value(text, "supply output ON at ", 1), 0.0, 0);
+	/* the current flowing when the second client switched it off */
+	double off = log_value(text, "supply output OFF at ", 1);
+	assert_true(off >= 1.99 && off <= 2.0 + 1e-4);
+	assert_true(off >= m[0]);
+	/* *RST switches off again, and sets 0 A, both witnessed */
+	double rst = log_value(text, "supply output OFF at ", 2);
+	assert_true(rst < m[2] && rst >= 0);
+	assert_true(log_value(text, "supply setpoint 0.0000 A at ", 1) <= rst);
+	assert_true(isnan(log_value(text, "supply output OFF at ", 3)));
+	/* the exact text of one line */
+	char want[64];
+	snprintf(want, sizeof want, "supply output OFF at %.4f A\n", off);
+	assert_non_null(strstr(text, want));
 	free(text);
 }
 
@@ -779,6 +867,7 @@ int main(void)
 		cmocka_unit_test(test_fault_split_error_disconnect),
 		cmocka_unit_test(test_fault_deaf_trip),
 		cmocka_unit_test(test_log),
+		cmocka_unit_test(test_witness_second_connection),
 		cmocka_unit_test(test_tcp_listener),
 		cmocka_unit_test(test_pty),
 		cmocka_unit_test(test_inproc),

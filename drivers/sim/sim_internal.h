@@ -27,6 +27,9 @@ typedef struct sim_params {
 	/* bench */
 	double t_amb, alpha_cu, tau_settle, imax, vmax, bias_max;
 	double time_scale, seed, noise, t_short, t_medium, t_long, t_supply;
+	/* supply dynamics and read-back (a dynamics preset sets these) */
+	double slew, zeta, f_n, rb_latency, rb_average;
+	double rb_noise, rb_noise_abs, status_subsystem, virtual_time;
 } sim_params;
 
 typedef struct sim_param_info {
@@ -46,6 +49,9 @@ const sim_param_info *sim_param_find(const char *key);
 void sim_params_defaults(sim_params *p);
 /* Replaces the part parameters; HB_ERR_NOTFOUND for an unknown name. */
 int sim_params_preset(sim_params *p, const char *name);
+/* Replaces the supply-dynamics parameters (tau_settle, slew, zeta, f_n,
+ * rb_latency, rb_average); HB_ERR_NOTFOUND for an unknown name. */
+int sim_params_dynamics(sim_params *p, const char *name);
 
 /* ---- magnetics ---- */
 /* McLyman's fringing factor F = 1 + (g/sqrt(Ae)) ln(2G/g); 1 without a gap. */
@@ -63,13 +69,38 @@ double sim_l0_closed_form(const sim_params *p);
 double sim_winding_r(const sim_params *p, double temp_c);
 
 /* ---- supply and winding state ---- */
+
+/* Recent output current against model time, for delayed and averaged
+ * read-backs. Older samples are thinned to min_gap apart so the ring spans
+ * the read-back window whatever the step size; the newest sample is always
+ * the present. */
+#define SIM_HIST_MAX 8192
+typedef struct sim_history {
+	double t[SIM_HIST_MAX];
+	double amps[SIM_HIST_MAX];
+	size_t head, count; /* oldest at head */
+} sim_history;
+
+void sim_history_push(sim_history *h, double t, double amps, double min_gap);
+/* The current at model time t, linear between samples; the oldest / newest
+ * sample outside the span. NAN when empty. */
+double sim_history_at(const sim_history *h, double t);
+/* Mean over [t0, t1] (trapezoids between samples); sim_history_at(t1)
+ * when the interval is empty. */
+double sim_history_mean(const sim_history *h, double t0, double t1);
+/* Rebases every sample time by -shift (the virtual clock starts at 0). */
+void sim_history_shift(sim_history *h, double shift);
+
 typedef struct sim_state {
 	double amps;     /* real output current */
+	double dadt;     /* its rate of change, A/s (state of the second-order response) */
+	double t;        /* model seconds since the bench started */
 	double temp_c;   /* winding temperature */
 	double setpoint; /* A */
 	double vlimit;   /* V */
 	bool output;
 	bool tripped;
+	sim_history *hist; /* NULL: not recorded */
 } sim_state;
 
 void sim_state_reset(const sim_params *p, sim_state *s);
@@ -77,6 +108,12 @@ void sim_state_reset(const sim_params *p, sim_state *s);
 double sim_supply_target(const sim_params *p, const sim_state *s, hb_supply_mode *mode);
 /* Advances the state by dt model seconds. */
 void sim_state_step(const sim_params *p, sim_state *s, double dt);
+/* The longest step sim_state_step takes inside: a fraction of the fastest
+ * time constant in play. */
+double sim_step_max(const sim_params *p);
+/* What MEAS:CURR? reports before noise: the current rb_latency ago,
+ * averaged over rb_average when that is set. */
+double sim_readback_amps(const sim_params *p, const sim_state *s);
 
 /* Impedance the meter terminals see at a bias; corrections remove the
  * fixture terms as compensation would. */
@@ -133,7 +170,12 @@ typedef struct sim_out {
 	char data[];
 } sim_out;
 
-typedef enum sim_conn_kind { SIM_CONN_STREAM, SIM_CONN_LISTEN, SIM_CONN_PTY } sim_conn_kind;
+/* DIRECT: no descriptor; the sim: link of the in-process bench calls in
+ * synchronously (virtual time), see sim_direct_*. */
+typedef enum sim_conn_kind { SIM_CONN_STREAM, SIM_CONN_LISTEN, SIM_CONN_PTY, SIM_CONN_DIRECT } sim_conn_kind;
+
+/* Points at which a reading samples the impedance over its window. */
+#define SIM_READ_SAMPLES 16
 
 typedef struct sim_conn {
 	struct sim_conn *next;
@@ -153,7 +195,12 @@ typedef struct sim_conn {
 	size_t reply_len;
 	double busy_until, deaf_until, next_send;
 	sim_pending pending;
-	double pend_primary, pend_secondary, pend_value;
+	double pend_value;
+	/* a reading in progress: model-time window and the impedance sum */
+	double pend_t0, pend_t1;
+	int pend_samples;
+	double complex pend_zsum;
+	unsigned long id; /* direct connections are found by it */
 	int pend_status;
 	sim_out *out_head, *out_tail;
 	unsigned long commands, replies;
@@ -168,7 +215,10 @@ struct hb_sim {
 	sim_conn *conns;
 	FILE *log;
 	gsl_rng *rng;
-	double t_model; /* monotonic wall time the state was last advanced to */
+	double t_model; /* clock time the state was last advanced to */
+	bool virtual_on; /* the clock is vnow, advanced only by the bench's users */
+	double vnow;     /* virtual clock, seconds from when virtual time was switched on */
+	sim_history hist;
 	hb_supply_mode last_mode;
 	bool last_output;
 	double last_logged_amps;
@@ -178,6 +228,8 @@ struct hb_sim {
 };
 
 double sim_now(void);
+/* The bench's clock: the monotonic wall clock, or vnow in virtual time. */
+double sim_clock(const hb_sim *sim);
 void sim_log(hb_sim *sim, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 void sim_advance(hb_sim *sim, double now);
 void sim_errq_push(hb_sim *sim, hb_sim_role role, int code, const char *detail);
@@ -185,7 +237,27 @@ void sim_meter_reset(sim_meter *m);
 /* Executes one ';'-separated unit; appends query answers to conn->reply.
  * May start a measurement (conn->pending, conn->busy_until). */
 void sim_execute_unit(hb_sim *sim, sim_conn *conn, char *unit, double now);
+/* Adds the impedance the meter sees now to conn's reading in progress. */
+void sim_sample_reading(hb_sim *sim, sim_conn *conn);
 /* Completes a measurement started by sim_execute_unit. */
 void sim_finish_pending(hb_sim *sim, sim_conn *conn, double now);
+
+/* ---- direct connections of the in-process bench (drivers/link_sim.c) ----
+ * Each takes the bench's lock itself. A connection is named by an id that
+ * is never reused, so a link outliving its bench gets HB_ERR_CLOSED. */
+/* Opens one on the in-process bench when it runs in virtual time; returns
+ * HB_ERR_UNSUPPORTED in wall time (the link then uses a socketpair). */
+int sim_direct_open(hb_sim_role role, unsigned long *id);
+/* Takes whole lines: each costs SIM_LINK_SECONDS of model time in virtual
+ * time, then runs at once. Count taken or a status. */
+int sim_direct_write(unsigned long id, const void *buf, size_t len);
+/* Reply bytes that are due. Waits (virtual time: advances the clock) up to
+ * timeout_s for them; timeout_s < 0 only looks. Count, HB_ERR_TIMEOUT or
+ * HB_ERR_CLOSED. */
+int sim_direct_read(unsigned long id, void *buf, size_t cap, double timeout_s);
+void sim_direct_close(unsigned long id);
+
+/* Model time one command line costs on the virtual link. */
+#define SIM_LINK_SECONDS 0.5e-3
 
 #endif

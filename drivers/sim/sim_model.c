@@ -1,4 +1,4 @@
-/* drivers/sim/sim_model.c - the simulated part: parameters, presets, saturating core, winding heat, supply regulation, impedance */
+/* drivers/sim/sim_model.c - the simulated part and supply: parameters, part and dynamics presets, saturating core, winding heat, supply regulation and response, read-back history, impedance */
 #include <math.h>
 #include <stddef.h>
 #include <string.h>
@@ -39,6 +39,15 @@ const sim_param_info sim_param_table[] = {
 	{ "t_medium", P(t_medium), "s", 1e-4, 100, false, false, "integration time of aperture MEDIUM" },
 	{ "t_long", P(t_long), "s", 1e-4, 100, false, false, "integration time of aperture LONG" },
 	{ "t_supply", P(t_supply), "s", 0, 10, false, false, "supply measurement time (MEAS?)" },
+	{ "slew", P(slew), "A/s", 0, 1e6, false, false, "supply output slew-rate limit (0: none)" },
+	{ "zeta", P(zeta), "", 0.01, 10, false, false, "damping ratio of the second-order response (with f_n)" },
+	{ "f_n", P(f_n), "Hz", 0, 1e4, false, false, "natural frequency of a second-order response (0: first-order lag)" },
+	{ "rb_latency", P(rb_latency), "s", 0, 1, false, false, "MEAS? reports the current as it was this long ago" },
+	{ "rb_average", P(rb_average), "s", 0, 1, false, false, "MEAS? reports the mean current over this window (0: instant)" },
+	{ "rb_noise", P(rb_noise), "", 0, 0.1, false, false, "relative read-back noise (sigma per |I|)" },
+	{ "rb_noise_abs", P(rb_noise_abs), "A", 0, 1, false, false, "absolute read-back noise sigma, added to rb_noise*|I|" },
+	{ "status_subsystem", P(status_subsystem), "", 0, 1, false, true, "1: supply has STATus and protection queries; 0: plain supply, -113" },
+	{ "virtual_time", P(virtual_time), "", 0, 1, false, true, "1: the bench runs on a virtual clock (in-process bench: bit-repeatable)" },
 };
 const size_t sim_param_count = sizeof sim_param_table / sizeof sim_param_table[0];
 
@@ -122,6 +131,49 @@ void sim_params_defaults(sim_params *p)
 	p->t_medium = 0.100;
 	p->t_long = 0.400;
 	p->t_supply = 0.010;
+	p->zeta = 0.7;
+	p->status_subsystem = 1;
+}
+
+typedef struct sim_dynamics {
+	const char *name;
+	double tau_settle, slew, zeta, f_n, rb_latency, rb_average;
+} sim_dynamics;
+
+/* Supply behaviours a sweep engine must cope with; "default" is the
+ * first-order 200 ms lag with an instant read-back the bench always had. */
+static const sim_dynamics dynamics[] = {
+	{ "default", 0.2, 0, 0.7, 0, 0, 0 },
+	{ "ideal", 1e-3, 0, 0.7, 0, 0, 0 },
+	{ "lag40", 40e-3, 0, 0.7, 0, 0, 0 },
+	{ "slew", 5e-3, 10, 0.7, 0, 0, 0 },
+	{ "overshoot", 20e-3, 0, 0.35, 8, 0, 0 },
+	{ "filtered", 20e-3, 0, 0.7, 0, 0, 0.1 },
+	{ "latent", 20e-3, 0, 0.7, 0, 0.06, 0 },
+};
+
+static const char *const dynamics_names[] = { "default", "ideal", "lag40", "slew", "overshoot", "filtered", "latent", NULL };
+
+const char *const *hb_sim_dynamics(void)
+{
+	return dynamics_names;
+}
+
+int sim_params_dynamics(sim_params *p, const char *name)
+{
+	for (size_t i = 0; i < sizeof dynamics / sizeof dynamics[0]; i++) {
+		const sim_dynamics *d = &dynamics[i];
+		if (strcmp(d->name, name) != 0)
+			continue;
+		p->tau_settle = d->tau_settle;
+		p->slew = d->slew;
+		p->zeta = d->zeta;
+		p->f_n = d->f_n;
+		p->rb_latency = d->rb_latency;
+		p->rb_average = d->rb_average;
+		return HB_OK;
+	}
+	return HB_ERR_NOTFOUND;
 }
 
 /* ------------------------------------------------------------------ */
@@ -291,28 +343,210 @@ double sim_supply_target(const sim_params *p, const sim_state *s, hb_supply_mode
 	return s->setpoint;
 }
 
+double sim_step_max(const sim_params *p)
+{
+	double h = (p->tau_settle < p->tau_th ? p->tau_settle : p->tau_th) / 8.0;
+	/* The second-order step is exact for any length; the limit keeps the
+	 * temperature and the history fine enough to show the ringing. */
+	if (p->f_n > 0 && 1.0 / (40.0 * p->f_n) < h)
+		h = 1.0 / (40.0 * p->f_n);
+	/* Fine enough that the read-back's trapezoids and interpolation over
+	 * the history stay within about 1e-4 of a step. */
+	double window = p->rb_latency + p->rb_average;
+	if (window > 0 && window / 256.0 < h)
+		h = window / 256.0;
+	return h;
+}
+
+/* One exact step of I'' + 2 zeta w I' + w^2 I = w^2 target with the target
+ * held: x(h) = exp(A h) x(0) for the deviation x = (I - target, I'). For
+ * the 2x2 companion matrix, with s = -zeta w and d^2 = w^2 (zeta^2 - 1),
+ * exp(A h) = e^(s h) [C 1 + S (A - s 1)], C = cosh(d h), S = sinh(d h)/d
+ * (cos and sin for d^2 < 0; 1 and h at d = 0): Cayley-Hamilton. The
+ * matrix depends on h only, so it is made once per call. */
+typedef struct second_order {
+	double m11, m12, m21, m22;
+} second_order;
+
+static second_order second_order_make(double w, double zeta, double h)
+{
+	double s = -zeta * w, d2 = w * w * (zeta * zeta - 1.0);
+	double c, sn;
+	if (d2 < -1e-12 * w * w) {
+		double d = sqrt(-d2);
+		c = cos(d * h);
+		sn = sin(d * h) / d;
+	} else if (d2 > 1e-12 * w * w) {
+		double d = sqrt(d2);
+		c = cosh(d * h);
+		sn = sinh(d * h) / d;
+	} else {
+		c = 1.0;
+		sn = h;
+	}
+	double e = exp(s * h);
+	return (second_order){ e * (c + sn * zeta * w), e * sn, -e * sn * w * w, e * (c - sn * zeta * w) };
+}
+
+static void second_order_step(const second_order *m, double target, double *amps, double *dadt)
+{
+	double x = *amps - target, v = *dadt;
+	*amps = target + m->m11 * x + m->m12 * v;
+	*dadt = m->m21 * x + m->m22 * v;
+}
+
 void sim_state_step(const sim_params *p, sim_state *s, double dt)
 {
 	if (!(dt > 0))
 		return;
-	double tau_min = p->tau_settle < p->tau_th ? p->tau_settle : p->tau_th;
-	int steps = (int)ceil(dt / (tau_min / 8.0));
+	double h_max = sim_step_max(p);
+	int steps = (int)ceil(dt / h_max);
 	if (steps < 1)
 		steps = 1;
-	if (steps > 4000)
-		steps = 4000;
+	if (steps > 20000)
+		steps = 20000;
 	double h = dt / steps;
 	double k_i = 1.0 - exp(-h / p->tau_settle);
 	double k_t = 1.0 - exp(-h / p->tau_th);
+	second_order m2 = second_order_make(2.0 * M_PI * p->f_n, p->zeta, h);
+	/* History samples need only resolve the read-back window. */
+	double gap = (p->rb_latency + p->rb_average) / (SIM_HIST_MAX / 2);
 	for (int i = 0; i < steps; i++) {
 		hb_supply_mode mode;
 		double target = sim_supply_target(p, s, &mode);
-		s->amps += (target - s->amps) * k_i;
+		double before = s->amps;
+		if (p->f_n > 0) {
+			second_order_step(&m2, target, &s->amps, &s->dadt);
+		} else {
+			s->amps += (target - s->amps) * k_i;
+		}
+		/* A slew-rate limit clips the change the loop asks for: a ramp at
+		 * the limit, then the free response once the error is small. */
+		if (p->slew > 0) {
+			double most = p->slew * h;
+			if (s->amps - before > most)
+				s->amps = before + most;
+			else if (before - s->amps > most)
+				s->amps = before - most;
+			if (s->dadt > p->slew)
+				s->dadt = p->slew;
+			else if (s->dadt < -p->slew)
+				s->dadt = -p->slew;
+		}
+		/* A single-quadrant output stage cannot drive the current
+		 * negative: with the output off it rings down to 0, not past it. */
+		if (!s->output && s->amps < 0) {
+			s->amps = 0;
+			s->dadt = 0;
+		}
+		if (p->f_n <= 0)
+			s->dadt = (s->amps - before) / h;
 		/* First-order thermal model: the copper loss into rth. */
 		double power = s->amps * s->amps * sim_winding_r(p, s->temp_c);
 		double t_final = p->t_amb + power * p->rth;
 		s->temp_c += (t_final - s->temp_c) * k_t;
+		s->t += h;
+		if (s->hist)
+			sim_history_push(s->hist, s->t, s->amps, gap);
 	}
+}
+
+double sim_readback_amps(const sim_params *p, const sim_state *s)
+{
+	if (!s->hist || s->hist->count == 0 || (p->rb_latency <= 0 && p->rb_average <= 0))
+		return s->amps;
+	double t1 = s->t - p->rb_latency;
+	if (p->rb_average > 0)
+		return sim_history_mean(s->hist, t1 - p->rb_average, t1);
+	return sim_history_at(s->hist, t1);
+}
+
+/* ------------------------------------------------------------------ */
+/* history                                                             */
+
+static size_t hist_index(const sim_history *h, size_t k)
+{
+	return (h->head + k) % SIM_HIST_MAX;
+}
+
+void sim_history_push(sim_history *h, double t, double amps, double min_gap)
+{
+	if (h->count >= 2) {
+		/* The newest sample is replaced while it is closer than min_gap to
+		 * the one before it, so the present is always there. */
+		size_t prev = hist_index(h, h->count - 2), last = hist_index(h, h->count - 1);
+		if (t - h->t[prev] < min_gap) {
+			h->t[last] = t;
+			h->amps[last] = amps;
+			return;
+		}
+	}
+	if (h->count == SIM_HIST_MAX) {
+		h->head = (h->head + 1) % SIM_HIST_MAX;
+		h->count--;
+	}
+	size_t at = hist_index(h, h->count);
+	h->t[at] = t;
+	h->amps[at] = amps;
+	h->count++;
+}
+
+/* Index k of the last sample at or before t; -1 when t precedes them all. */
+static long hist_find(const sim_history *h, double t)
+{
+	long lo = -1, hi = (long)h->count; /* t[lo] <= t < t[hi] */
+	while (hi - lo > 1) {
+		long mid = (lo + hi) / 2;
+		if (h->t[hist_index(h, (size_t)mid)] <= t)
+			lo = mid;
+		else
+			hi = mid;
+	}
+	return lo;
+}
+
+double sim_history_at(const sim_history *h, double t)
+{
+	if (h->count == 0)
+		return NAN;
+	long k = hist_find(h, t);
+	if (k < 0)
+		return h->amps[h->head];
+	if ((size_t)k + 1 >= h->count)
+		return h->amps[hist_index(h, h->count - 1)];
+	size_t a = hist_index(h, (size_t)k), b = hist_index(h, (size_t)k + 1);
+	double span = h->t[b] - h->t[a];
+	if (!(span > 0))
+		return h->amps[b];
+	return h->amps[a] + (h->amps[b] - h->amps[a]) * (t - h->t[a]) / span;
+}
+
+double sim_history_mean(const sim_history *h, double t0, double t1)
+{
+	if (h->count == 0)
+		return NAN;
+	if (!(t1 > t0))
+		return sim_history_at(h, t1);
+	/* Trapezoids between t0, the samples inside, and t1: exact for the
+	 * piecewise-linear history. */
+	double area = 0, ta = t0, ia = sim_history_at(h, t0);
+	long k = hist_find(h, t0) + 1;
+	for (; (size_t)k < h->count; k++) {
+		size_t at = hist_index(h, (size_t)k);
+		if (h->t[at] >= t1)
+			break;
+		area += 0.5 * (ia + h->amps[at]) * (h->t[at] - ta);
+		ta = h->t[at];
+		ia = h->amps[at];
+	}
+	area += 0.5 * (ia + sim_history_at(h, t1)) * (t1 - ta);
+	return area / (t1 - t0);
+}
+
+void sim_history_shift(sim_history *h, double shift)
+{
+	for (size_t k = 0; k < h->count; k++)
+		h->t[hist_index(h, k)] -= shift;
 }
 
 double complex sim_impedance(const sim_params *p, const sim_state *s, double hertz, double bias_amps,

@@ -394,19 +394,29 @@ static void start_wait(hb_sim *sim, sim_conn *conn, sim_pending kind, double sec
 	conn->busy_until = now + seconds * sim->p.time_scale;
 }
 
+void sim_sample_reading(hb_sim *sim, sim_conn *conn)
+{
+	conn->pend_zsum += meter_z(sim);
+	conn->pend_samples++;
+}
+
 void sim_finish_pending(hb_sim *sim, sim_conn *conn, double now)
 {
+	/* Advanced while still pending, so the reading takes its samples. */
+	sim_advance(sim, now);
 	sim_pending kind = conn->pending;
 	conn->pending = SIM_PEND_NONE;
-	sim_advance(sim, now);
 	const sim_meter *m = &sim->meter;
 	double ap = aperture_seconds(sim) * m->average;
 	/* Averaging and longer apertures shrink the noise as 1/sqrt(time). */
 	double sigma = sim->p.noise * sqrt(sim->p.t_medium / ap);
 	if (kind == SIM_PEND_READ) {
-		/* The reading integrates while the bias may still settle: the
-		 * mean of the impedance at the start and at the end stands for it. */
-		double complex z = 0.5 * (conn->pend_primary + I * conn->pend_secondary + meter_z(sim));
+		/* The reading integrates while the bias may still move: the mean
+		 * of the impedance over its window, sampled at SIM_READ_SAMPLES
+		 * midpoints (any the clock did not reach are taken now). */
+		while (conn->pend_samples < SIM_READ_SAMPLES)
+			sim_sample_reading(sim, conn);
+		double complex z = conn->pend_zsum / SIM_READ_SAMPLES;
 		double mag = cabs(z);
 		z += sigma * mag * (gsl_ran_gaussian(sim->rng, 1.0) + I * gsl_ran_gaussian(sim->rng, 1.0));
 		int status = 0;
@@ -433,17 +443,23 @@ void sim_finish_pending(hb_sim *sim, sim_conn *conn, double now)
 static void supply_measure(hb_sim *sim, sim_conn *conn, bool volts, double now)
 {
 	sim_advance(sim, now);
-	double noise = gsl_ran_gaussian(sim->rng, 1.0) * sim->p.noise * 1e-3 * sim->p.imax;
-	double amps = sim->s.amps + noise;
+	/* The converter's read-back path: delayed and filtered as set, then
+	 * noise; one draw whatever the terms, so a seed gives the same
+	 * sequence as before these terms existed. */
+	double real = sim_readback_amps(&sim->p, &sim->s);
+	double sigma = sim->p.noise * 1e-3 * sim->p.imax + sim->p.rb_noise * fabs(real) + sim->p.rb_noise_abs;
+	double noise = gsl_ran_gaussian(sim->rng, 1.0) * sigma;
+	double amps = real + noise;
 	double v = 0;
 	if (sim->s.output)
-		v = sim->s.amps * (sim_winding_r(&sim->p, sim->s.temp_c) + sim->p.rlead) + noise * 0.01;
+		v = real * (sim_winding_r(&sim->p, sim->s.temp_c) + sim->p.rlead) + noise * 0.01;
 	conn->pend_value = volts ? v : amps;
 	start_wait(sim, conn, SIM_PEND_WAIT, sim->p.t_supply, now);
 }
 
 static void supply_set_output(hb_sim *sim, bool on)
 {
+	bool asked_on = on;
 	if (on && sim->faults[HB_SIM_SUPPLY].trip) {
 		sim->faults[HB_SIM_SUPPLY].trip = false;
 		sim->s.tripped = true;
@@ -453,10 +469,12 @@ static void supply_set_output(hb_sim *sim, bool on)
 		sim_errq_push(sim, HB_SIM_SUPPLY, -221, "protection tripped");
 		on = false;
 	}
-	if (on != sim->s.output) {
-		sim->s.output = on;
-		sim_log(sim, "supply output %s", on ? "ON" : "OFF");
-	}
+	/* The witness line for the safety tests: every command that leaves
+	 * the output on or switches it off, with the current really flowing at
+	 * that instant. An ON refused by a trip while off switches nothing. */
+	if (!(asked_on && !on && !sim->s.output))
+		sim_log(sim, "supply output %s at %.4f A", on ? "ON" : "OFF", sim->s.amps);
+	sim->s.output = on;
 	sim->last_output = on;
 }
 
@@ -471,7 +489,7 @@ static void instrument_reset(hb_sim *sim, sim_conn *conn, double now)
 	double old_set = sim->s.setpoint, old_v = sim->s.vlimit;
 	sim_state_reset(&sim->p, &sim->s);
 	if (old_set != sim->s.setpoint)
-		sim_log(sim, "supply setpoint %.4f A", sim->s.setpoint);
+		sim_log(sim, "supply setpoint %.4f A at %.4f A", sim->s.setpoint, sim->s.amps);
 	if (old_v != sim->s.vlimit)
 		sim_log(sim, "supply vlimit %.4f V", sim->s.vlimit);
 }
@@ -527,6 +545,10 @@ static int run_command(hb_sim *sim, sim_conn *conn, cmd_id id, bool query, char 
 	/* Queries take no parameters here, settings take exactly the ones they need. */
 	if (query && nargs > 0)
 		return -108;
+	/* A plain SCPI-1999 supply has no STATus subsystem and no protection
+	 * queries: the headers are simply unknown to it. */
+	if (!sim->p.status_subsystem && (id == C_QUES_COND || id == C_VOLT_TRIP || id == C_OUTP_PROT_CLEAR))
+		return -113;
 
 	switch (id) {
 	case C_IDN:
@@ -694,9 +716,11 @@ static int run_command(hb_sim *sim, sim_conn *conn, cmd_id id, bool query, char 
 			return -113;
 		sim_advance(sim, now);
 		if (id == C_READ) {
-			double complex z = meter_z(sim);
-			conn->pend_primary = creal(z);
-			conn->pend_secondary = cimag(z);
+			/* The window in model time; sim_advance samples it. */
+			conn->pend_t0 = sim->s.t;
+			conn->pend_t1 = sim->s.t + aperture_seconds(sim) * m->average;
+			conn->pend_samples = 0;
+			conn->pend_zsum = 0;
 		}
 		start_wait(sim, conn, id == C_READ ? SIM_PEND_READ : SIM_PEND_DCR, aperture_seconds(sim) * m->average,
 			   now);
@@ -743,7 +767,7 @@ static int run_command(hb_sim *sim, sim_conn *conn, cmd_id id, bool query, char 
 		if (!rc) {
 			sim_advance(sim, now);
 			if (v != sim->s.setpoint)
-				sim_log(sim, "supply setpoint %.4f A", v);
+				sim_log(sim, "supply setpoint %.4f A at %.4f A", v, sim->s.amps);
 			sim->s.setpoint = v;
 		}
 		return rc;
