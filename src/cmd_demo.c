@@ -119,14 +119,18 @@ int hb_cmd_demo(int argc, char **argv)
 		{ NULL, 0, NULL, 0 },
 	};
 	const char *out_dir = "demo-out";
-	double time_scale = 0.01;
+	/* Virtual time by default: the simulated bench keeps its own clock, so
+	 * the demo takes seconds and two runs store the same readings to the
+	 * bit. --real-time runs it against the wall clock at physical speed. */
+	double time_scale = 1.0;
+	bool real_time = false;
 	int c;
 	optind = 1;
 	opterr = 0;
 	while ((c = getopt_long(argc, argv, "h", opts, NULL)) != -1) {
 		switch (c) {
 		case 'o': out_dir = optarg; break;
-		case 'r': time_scale = 1.0; break;
+		case 'r': real_time = true; break;
 		case 'h': usage(stdout); return HB_EXIT_OK;
 		default:
 			hb_cli_error("demo: unknown or incomplete option '%s' (try --help)", argv[optind - 1]);
@@ -176,6 +180,10 @@ int hb_cmd_demo(int argc, char **argv)
 	hb_demo_station(&st);
 	if (hb_demo_configure_sim(time_scale, 1, demo_gaps_m[0]) != HB_OK)
 		goto out;
+	if (hb_sim_inproc_virtual(!real_time) != HB_OK) {
+		hb_cli_error("simulated bench: could not switch %s virtual time", real_time ? "off" : "on");
+		goto out;
+	}
 
 	hb_sweep_install_signals();
 	hb_sweep_clear_signal();

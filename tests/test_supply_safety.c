@@ -149,7 +149,7 @@ static void plan_for(hb_sweep_plan *plan, double ramp)
 	plan->limits.off_threshold = OFF_THRESHOLD;
 }
 
-typedef enum { HAND_NONE, HAND_SIGNAL, HAND_OUTPUT_OFF, HAND_METER_DEAF } hand_kind;
+typedef enum { HAND_NONE, HAND_SIGNAL, HAND_OUTPUT_OFF, HAND_METER_DEAF, HAND_MUTE_READBACK } hand_kind;
 
 /* The sink, and a second hand on the bench that acts after a given point. */
 typedef struct sink {
@@ -179,6 +179,9 @@ static int on_point(void *ctx, const hb_sweep_point *p, int total)
 	case HAND_METER_DEAF:
 		assert_int_equal(hb_sim_set_fault(hb_sim_inproc(), HB_SIM_LCR, "late=1500"), HB_OK);
 		break;
+	case HAND_MUTE_READBACK:
+		assert_int_equal(hb_sim_set_fault(hb_sim_inproc(), HB_SIM_SUPPLY, "mute=MEAS:CURR"), HB_OK);
+		break;
 	default:
 		break;
 	}
@@ -197,7 +200,7 @@ static int sweep_with(const hb_sweep_plan *plan, sink *s, hb_sweep_result *res)
 	hb_lcr *lcr = NULL;
 	hb_supply *supply = NULL;
 	assert_int_equal(hb_lcr_open("sim:lcr?timeout=300", NULL, &lcr), HB_OK);
-	assert_int_equal(hb_supply_open("sim:supply", NULL, &supply), HB_OK);
+	assert_int_equal(hb_supply_open("sim:supply?timeout=200", NULL, &supply), HB_OK);
 	hb_sweep_callbacks cb = { s, on_point, NULL, on_notice };
 	int rc = hb_sweep_run(lcr, supply, plan, &cb, res);
 	hb_supply_close(supply);
@@ -330,6 +333,41 @@ static void test_output_off_mid_sweep_ends_failed(void **state)
 	assert_true(sim_state("state.output") == 0);
 }
 
+/* The current read-back stops answering mid-sweep: the sweep fails, and
+ * the shut-down still ramps from the last set-point at the ramp rate,
+ * waits for the decay it cannot see, and only then switches off. */
+static void test_readback_lost_during_shutdown_still_ramps(void **state)
+{
+	(void)state;
+	hb_sweep_plan plan;
+	plan_for(&plan, 20.0); /* 1 A per 50 ms slice */
+	sink s = { .act_after = 6, .hand = HAND_MUTE_READBACK };
+	hb_sweep_result res;
+	assert_int_not_equal(sweep_with(&plan, &s, &res), HB_OK);
+	assert_int_equal(res.end, HB_SWEEP_FAILED);
+	assert_false(res.current_may_flow);
+	assert_non_null(strstr(res.reason, "read-back"));
+	assert_true(sim_state("state.output") == 0);
+	char *log = witness_text();
+	/* From the highest set-point (3 A at point 7) down to zero, no step
+	 * larger than the ramp allows. */
+	const char *top = strstr(log, "supply setpoint 3.0000 A");
+	assert_non_null(top);
+	double sp[64];
+	int n = setpoints_after(top, sp, 64);
+	assert_true(n >= 4);
+	for (int i = 1; i < n; i++) {
+		if (sp[i - 1] - sp[i] > 1.0 + 1e-3)
+			print_error("set-point stepped from %.4f A to %.4f A\n", sp[i - 1], sp[i]);
+		assert_true(sp[i - 1] - sp[i] <= 1.0 + 1e-3);
+	}
+	assert_true(sp[n - 1] == 0);
+	if (getenv("HB_TEST_VERBOSE"))
+		print_message("%s", log);
+	assert_true(assert_every_off_below(log, OFF_THRESHOLD) >= 1);
+	free(log);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -338,6 +376,8 @@ int main(void)
 		cmocka_unit_test_setup_teardown(test_no_output_off_under_current_on_any_path, bench_setup,
 						bench_teardown),
 		cmocka_unit_test_setup_teardown(test_output_off_mid_sweep_ends_failed, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_readback_lost_during_shutdown_still_ramps, bench_setup,
+						bench_teardown),
 	};
 	return cmocka_run_group_tests(tests, group_setup, group_teardown);
 }

@@ -367,6 +367,13 @@ static int fault_one(hb_sim *sim, hb_sim_role role, const char *spec)
 		goto bad;
 	memcpy(name, spec, nl);
 	name[nl] = '\0';
+	if (strcmp(name, "mute") == 0) {
+		/* Text, not a number: the command whose replies are lost. */
+		if (!eq || !eq[1] || strlen(eq + 1) >= sizeof f->mute)
+			goto bad;
+		snprintf(f->mute, sizeof f->mute, "%s", eq + 1);
+		return HB_OK;
+	}
 	long v = 0;
 	if (eq) {
 		char *end;
@@ -417,7 +424,7 @@ static int fault_one(hb_sim *sim, hb_sim_role role, const char *spec)
 bad:
 	return set_error(sim, HB_ERR_ARG,
 			 "fault '%s' unknown; accepted: delay=MS drop=N garble=N disconnect=N error=CODE late=MS "
-			 "deaf=MS crlf split echo trip none (comma-separated)",
+			 "deaf=MS mute=COMMAND crlf split echo trip none (comma-separated)",
 			 spec);
 }
 
@@ -632,6 +639,10 @@ static void emit_reply(hb_sim *sim, sim_conn *c, double now)
 	c->busy_until = now + delay;
 	if (f->drop > 0 && c->replies % (unsigned long)f->drop == 0) {
 		sim_log(sim, "%s fault drop", role_names[c->role]);
+		return;
+	}
+	if (f->mute[0] && strstr(c->line, f->mute)) {
+		sim_log(sim, "%s fault mute %s", role_names[c->role], f->mute);
 		return;
 	}
 	char buf[SIM_REPLY_MAX + 2];

@@ -148,6 +148,7 @@ typedef struct sim_faults {
 	int delay_ms, drop, garble, disconnect, error_code, late_ms, deaf_ms;
 	bool crlf, split, echo, trip;
 	bool late_armed;
+	char mute[32]; /* replies to a command containing this text are lost (empty: none) */
 } sim_faults;
 
 typedef struct sim_meter {
