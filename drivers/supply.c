@@ -26,13 +26,10 @@ void hb_supply_close(hb_supply *s)
 {
 	if (!s)
 		return;
-	/* Whatever happened before, current must not keep flowing through
-	 * the part once we let go of the supply. */
-	if (s->in.scpi && s->in.profile) {
-		char err[64];
-		(void)hb_profile_send(s->in.scpi, s->in.profile, HB_PK_SUP_OUTPUT_OFF, NULL, 0, "output off", err,
-				      sizeof err);
-	}
+	/* Closing sends nothing: the sweep engine's state machine is the one
+	 * place that changes the supply, so it alone ramps down before the
+	 * output goes off. A blind OUTPUT OFF here would cut a current that may
+	 * still be flowing through an inductor. */
 	hb_instrument_release(&s->in);
 	free(s);
 }
