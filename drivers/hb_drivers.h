@@ -182,6 +182,10 @@ const char *hb_lcr_profile_name(const hb_lcr *lcr);
 hb_scpi *hb_lcr_scpi(hb_lcr *lcr);
 /* Whether the profile defines an operation, by its key (e.g. "bias", "dcr"). */
 bool hb_lcr_supports(const hb_lcr *lcr, const char *operation);
+/* False when the instrument's *IDN? is claimed only by supply profiles (it
+ * is a supply, as 'identify' would say); true when a meter profile claims
+ * it, nothing claims it, or the resource forced profile=. */
+bool hb_lcr_answers_as_meter(const hb_lcr *lcr);
 
 int hb_lcr_reset(hb_lcr *lcr);
 int hb_lcr_set_frequency(hb_lcr *lcr, double hertz);
@@ -219,6 +223,8 @@ const hb_idn *hb_supply_idn(const hb_supply *supply);
 const char *hb_supply_profile_name(const hb_supply *supply);
 hb_scpi *hb_supply_scpi(hb_supply *supply);
 bool hb_supply_supports(const hb_supply *supply, const char *operation);
+/* The supply's counterpart of hb_lcr_answers_as_meter. */
+bool hb_supply_answers_as_supply(const hb_supply *supply);
 
 int hb_supply_reset(hb_supply *supply);
 int hb_supply_set_voltage_limit(hb_supply *supply, double volts);

@@ -38,9 +38,23 @@ int hb_instrument_open(hb_instrument *in, const char *label, const char *tag, hb
 	if (rc < 0)
 		return hb_instrument_fail(in, rc, "%s %s: *IDN?: %s", label, resource, hb_scpi_errmsg(in->scpi));
 	char err[HB_INSTRUMENT_ERRMSG_MAX - 64];
-	rc = hb_profile_choose(hb_scpi_resource(in->scpi), kind, &in->idn, &in->profile, err, sizeof err);
+	const hb_resource *res = hb_scpi_resource(in->scpi);
+	rc = hb_profile_choose(res, kind, &in->idn, &in->profile, err, sizeof err);
 	if (rc < 0)
 		return hb_instrument_fail(in, rc, "%s %s: %s", label, resource, err);
+	in->kind_confirmed = true;
+	if (!res->profile[0] && !hb_profile_matches(in->profile, &in->idn)) {
+		/* Fallen back to the generic profile: the kind is in doubt only
+		 * when a profile of the other kind claims the instrument, as
+		 * 'identify' decides it. */
+		hb_profile *other = NULL;
+		hb_instrument_kind other_kind = kind == HB_KIND_LCR ? HB_KIND_SUPPLY : HB_KIND_LCR;
+		rc = hb_profile_match(other_kind, &in->idn, &other, err, sizeof err);
+		if (rc < 0)
+			return hb_instrument_fail(in, rc, "%s %s: %s", label, resource, err);
+		in->kind_confirmed = !hb_profile_matches(other, &in->idn);
+		hb_profile_free(other);
+	}
 	/* Start from an empty error queue so a later entry belongs to us. */
 	rc = hb_scpi_clear(in->scpi);
 	if (rc < 0)

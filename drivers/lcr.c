@@ -67,6 +67,11 @@ bool hb_lcr_supports(const hb_lcr *lcr, const char *operation)
 	return lcr && hb_profile_supports(lcr->in.profile, HB_KIND_LCR, operation);
 }
 
+bool hb_lcr_answers_as_meter(const hb_lcr *lcr)
+{
+	return lcr && lcr->in.profile && lcr->in.kind_confirmed;
+}
+
 static int usable(hb_lcr *lcr)
 {
 	return lcr ? hb_instrument_usable(&lcr->in) : HB_ERR_ARG;

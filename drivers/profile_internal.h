@@ -193,6 +193,10 @@ typedef struct hb_instrument {
 	hb_scpi *scpi;
 	hb_profile *profile;
 	hb_idn idn;
+	/* False when the *IDN? is claimed only by profiles of the other kind
+	 * (a supply opened as a meter): the bench refuses before anything is
+	 * switched on. A forced profile= counts as the operator's word. */
+	bool kind_confirmed;
 	char errmsg[HB_INSTRUMENT_ERRMSG_MAX];
 } hb_instrument;
 

@@ -59,6 +59,11 @@ bool hb_supply_supports(const hb_supply *s, const char *operation)
 	return s && hb_profile_supports(s->in.profile, HB_KIND_SUPPLY, operation);
 }
 
+bool hb_supply_answers_as_supply(const hb_supply *s)
+{
+	return s && s->in.profile && s->in.kind_confirmed;
+}
+
 static int usable(hb_supply *s)
 {
 	return s ? hb_instrument_usable(&s->in) : HB_ERR_ARG;

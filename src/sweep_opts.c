@@ -308,10 +308,30 @@ int hb_sweep_opts_open_bench(FILE *info, const char *lcr_resource, const char *s
 	}
 	if (supply_resource) {
 		rc = hb_supply_open(supply_resource, hb_global.trace, supply);
+		if (rc != HB_OK && !hb_lcr_answers_as_meter(*lcr)) {
+			hb_cli_error("--lcr %s: '%s' is a supply, not a meter: give the meter to --lcr", lcr_resource,
+				     hb_lcr_idn(*lcr)->raw);
+			return HB_EXIT_USAGE;
+		}
 		if (rc != HB_OK) {
 			hb_cli_error("supply %s: %s", supply_resource, *supply ? hb_supply_errmsg(*supply) : "out of memory");
 			return rc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
 		}
+	}
+	/* The role check comes before anything is switched on: a supply on
+	 * --lcr would take the meter's commands as errors, and a meter on
+	 * --supply could never carry the bias. */
+	bool lcr_ok = hb_lcr_answers_as_meter(*lcr), supply_ok = !*supply || hb_supply_answers_as_supply(*supply);
+	if (!lcr_ok || !supply_ok) {
+		char supply_part[400] = "";
+		if (*supply)
+			snprintf(supply_part, sizeof supply_part, "; --supply %s: '%s' is %s", supply_resource,
+				 hb_supply_idn(*supply)->raw, supply_ok ? "a supply" : "a meter, not a supply");
+		hb_cli_error("--lcr %s: '%s' is %s%s: %s", lcr_resource, hb_lcr_idn(*lcr)->raw,
+			     lcr_ok ? "a meter" : "a supply, not a meter", supply_part,
+			     !lcr_ok && *supply && !supply_ok ? "swap the two resources"
+							       : "give the meter to --lcr and the supply to --supply");
+		return HB_EXIT_USAGE;
 	}
 	/* Named only once both answered, so a failed supply leaves just its error. */
 	fprintf(info, "meter:  %s (profile %s)\n", hb_lcr_idn(*lcr)->raw, hb_lcr_profile_name(*lcr));

@@ -975,6 +975,44 @@ static void test_looser_command_line_refused_end_to_end(void **state)
 	run_free(&r);
 }
 
+static void test_swapped_instruments_refused(void **state)
+{
+	(void)state;
+	sim_server sim;
+	sim_start(&sim, NULL);
+	run r;
+	/* The simulated instruments answer *IDN? as SIM-LCR1 and SIM-DCS1
+	 * (drivers/sim/sim_scpi.c), claimed by generic-lcr and generic-supply. */
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "W-1", "--lcr", sim.supply,
+	       "--supply", sim.lcr, "--to", "1", "--yes", NULL);
+	assert_int_equal(r.status, 2);
+	assert_int_equal(count_lines(r.err), 1);
+	assert_non_null(strstr(r.err, "SIM-DCS1"));
+	assert_non_null(strstr(r.err, "is a supply, not a meter"));
+	assert_non_null(strstr(r.err, "SIM-LCR1"));
+	assert_non_null(strstr(r.err, "is a meter, not a supply"));
+	assert_non_null(strstr(r.err, "swap"));
+	run_free(&r);
+	/* only the supply on --lcr: still refused, both named */
+	hb_run(&r, station_limits, "--db", db_path, "fsweep", "--part", "P-CLI", "--unit", "W-1", "--lcr", sim.supply,
+	       "--from", "1kHz", "--to", "10kHz", "--points", "3", NULL);
+	assert_int_equal(r.status, 2);
+	assert_non_null(strstr(r.err, "is a supply, not a meter"));
+	run_free(&r);
+	sim_stop(&sim);
+	/* nothing was switched or set, and no sweep was stored */
+	assert_null(strstr(sim.log, "OUTP ON"));
+	assert_null(strstr(sim.log, "IMP:"));
+	assert_null(strstr(sim.log, "SOUR:"));
+	hb_run(&r, station_limits, "--db", db_path, "sweeps", "--json", NULL);
+	json_t *list = json_loads(r.out, 0, NULL);
+	assert_non_null(list);
+	assert_int_equal(json_array_size(list), 0);
+	json_decref(list);
+	run_free(&r);
+	sim_free(&sim);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -987,6 +1025,7 @@ int main(void)
 		cmocka_unit_test_setup_teardown(test_fsweep_without_supply, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_dry_run_touches_nothing, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_bad_input_is_usage_error, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_swapped_instruments_refused, store_setup, store_teardown),
 		cmocka_unit_test(test_limits_station_binds_command_line),
 		cmocka_unit_test(test_limits_part_cap),
 		cmocka_unit_test(test_limits_defaults_and_lock),
