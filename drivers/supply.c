@@ -19,7 +19,24 @@ int hb_supply_open(const char *resource, FILE *trace, hb_supply **out)
 	*out = s;
 	if (!s)
 		return HB_ERR_NOMEM;
-	return hb_instrument_open(&s->in, "supply", "supply", HB_KIND_SUPPLY, resource, trace);
+	int rc = hb_instrument_open(&s->in, "supply", "supply", HB_KIND_SUPPLY, resource, trace);
+	/* A meter on the supply's resource gets no supply commands: the
+	 * bench refuses it by its IDN (hb_supply_answers_as_supply). */
+	if (rc < 0 || !s->in.kind_confirmed)
+		return rc;
+	/* Before anything is switched on: an optional query the supply rejects
+	 * is marked absent, so a sweep judges compliance from the V and I
+	 * read-backs instead of failing on the first mode question. */
+	static const hb_pkey optional[] = { HB_PK_SUP_OUTPUT_STATE, HB_PK_SUP_MODE, HB_PK_SUP_PROTECTION,
+					    HB_PK_SUP_CURRENT_QUERY };
+	for (size_t i = 0; i < sizeof optional / sizeof optional[0]; i++) {
+		if (!hb_profile_optional(s->in.profile, optional[i]))
+			continue;
+		rc = hb_instrument_probe(&s->in, optional[i], NULL, 0);
+		if (rc < 0)
+			return rc;
+	}
+	return HB_OK;
 }
 
 void hb_supply_close(hb_supply *s)
@@ -56,7 +73,7 @@ hb_scpi *hb_supply_scpi(hb_supply *s)
 
 bool hb_supply_supports(const hb_supply *s, const char *operation)
 {
-	return s && hb_profile_supports(s->in.profile, HB_KIND_SUPPLY, operation);
+	return s && hb_instrument_supports(&s->in, HB_KIND_SUPPLY, operation);
 }
 
 bool hb_supply_answers_as_supply(const hb_supply *s)
@@ -97,6 +114,10 @@ int hb_supply_set_voltage_limit(hb_supply *s, double volts)
 	return hb_instrument_send(&s->in, HB_PK_SUP_VOLTAGE, &arg, 1, what);
 }
 
+/* Default read-back tolerance of a set-point, A: a supply rounds what it is
+ * sent to its own resolution (typically 1 mA or finer for bias sources). */
+#define SUPPLY_CURRENT_TOLERANCE 1e-3
+
 int hb_supply_set_current(hb_supply *s, double amps)
 {
 	int rc = usable(s);
@@ -107,7 +128,22 @@ int hb_supply_set_current(hb_supply *s, double amps)
 	char what[80];
 	snprintf(what, sizeof what, "set current to %g A", amps);
 	hb_parg arg = { .name = "amps", .real = amps };
-	return hb_instrument_send(&s->in, HB_PK_SUP_CURRENT, &arg, 1, what);
+	rc = hb_instrument_send(&s->in, HB_PK_SUP_CURRENT, &arg, 1, what);
+	if (rc < 0 || !hb_instrument_has(&s->in, HB_PK_SUP_CURRENT_QUERY))
+		return rc;
+	/* A set-point the supply did not take (a lost or mangled command) is
+	 * found here, not later as a current that does not match the plan. */
+	double held;
+	rc = hb_supply_query_current(s, &held);
+	if (rc < 0)
+		return rc;
+	double tol = hb_profile_number(s->in.profile, HB_PK_SUP_CURRENT_TOLERANCE, SUPPLY_CURRENT_TOLERANCE) +
+		     1e-3 * amps;
+	if (!(fabs(held - amps) <= tol))
+		return hb_instrument_fail(&s->in, HB_ERR_INSTRUMENT,
+					  "%s: the supply holds %g A (read back with '%s'), off by more than %g A", what,
+					  held, hb_profile_text(s->in.profile, HB_PK_SUP_CURRENT_QUERY), tol);
+	return HB_OK;
 }
 
 int hb_supply_output(hb_supply *s, bool on)
@@ -148,10 +184,10 @@ int hb_supply_measure_voltage(hb_supply *s, double *volts)
 /* Asks a query operation and hands back one trimmed field of its reply. */
 static int ask_field(hb_supply *s, hb_pkey op, hb_pkey field_key, const char *what, char *field, size_t cap)
 {
-	char reply[256], err[HB_INSTRUMENT_ERRMSG_MAX];
-	int rc = hb_profile_ask(s->in.scpi, s->in.profile, op, what, reply, sizeof reply, err, sizeof err);
+	char reply[256];
+	int rc = hb_instrument_ask(&s->in, op, what, reply, sizeof reply);
 	if (rc < 0)
-		return hb_instrument_fail(&s->in, rc, "%s", err);
+		return rc;
 	int n = (int)hb_profile_number(s->in.profile, field_key, 1), nfields;
 	if (hb_profile_reply_field(reply, n, field, cap, &nfields) < 0 || !field[0])
 		return hb_instrument_fail(&s->in, HB_ERR_PROTOCOL, "%s: reply '%.80s' has no field %d", what, reply, n);
@@ -218,7 +254,7 @@ int hb_supply_get_mode(hb_supply *s, hb_supply_mode *mode)
 		return hb_instrument_fail(&s->in, HB_ERR_ARG, "mode: no place for the value");
 	*mode = HB_SUPPLY_MODE_UNKNOWN;
 	char field[96];
-	if (hb_profile_has(s->in.profile, HB_PK_SUP_OUTPUT_STATE)) {
+	if (hb_instrument_has(&s->in, HB_PK_SUP_OUTPUT_STATE)) {
 		rc = ask_field(s, HB_PK_SUP_OUTPUT_STATE, HB_PK_SUP_OUTPUT_STATE_FIELD, "output state", field, sizeof field);
 		if (rc < 0)
 			return rc;
@@ -231,8 +267,8 @@ int hb_supply_get_mode(hb_supply *s, hb_supply_mode *mode)
 			return HB_OK;
 		}
 	}
-	if (!hb_profile_has(s->in.profile, HB_PK_SUP_MODE))
-		return HB_OK; /* the instrument does not report it */
+	if (!hb_instrument_has(&s->in, HB_PK_SUP_MODE))
+		return HB_OK; /* the instrument does not report it: the engine judges from V and I */
 	rc = ask_field(s, HB_PK_SUP_MODE, HB_PK_SUP_MODE_FIELD, "mode", field, sizeof field);
 	if (rc < 0)
 		return rc;
@@ -249,7 +285,7 @@ int hb_supply_protection(hb_supply *s, bool *tripped)
 		return rc;
 	if (!tripped)
 		return hb_instrument_fail(&s->in, HB_ERR_ARG, "protection: no place for the value");
-	if (!hb_profile_has(s->in.profile, HB_PK_SUP_PROTECTION))
+	if (!hb_instrument_has(&s->in, HB_PK_SUP_PROTECTION))
 		return hb_instrument_fail(&s->in, HB_ERR_UNSUPPORTED,
 					  "protection: profile '%s' has no 'protection' operation",
 					  hb_profile_name(s->in.profile));
@@ -283,7 +319,7 @@ int hb_supply_output_state(hb_supply *s, bool *on)
 		return rc;
 	if (!on)
 		return hb_instrument_fail(&s->in, HB_ERR_ARG, "output state: no place for the value");
-	if (!hb_profile_has(s->in.profile, HB_PK_SUP_OUTPUT_STATE))
+	if (!hb_instrument_has(&s->in, HB_PK_SUP_OUTPUT_STATE))
 		return hb_instrument_fail(&s->in, HB_ERR_UNSUPPORTED,
 					  "output state: profile '%s' has no 'output.state' operation",
 					  hb_profile_name(s->in.profile));
@@ -304,8 +340,12 @@ int hb_supply_query_current(hb_supply *s, double *amps)
 		return rc;
 	if (!amps)
 		return hb_instrument_fail(&s->in, HB_ERR_ARG, "current set-point: no place for the value");
-	/* The profile key current.query arrives with the profile work; until
-	 * then the engine falls back to the measured current. */
-	return hb_instrument_fail(&s->in, HB_ERR_UNSUPPORTED, "current set-point: profile '%s' cannot ask for it",
-				  hb_profile_name(s->in.profile));
+	if (!hb_instrument_has(&s->in, HB_PK_SUP_CURRENT_QUERY))
+		return hb_instrument_fail(&s->in, HB_ERR_UNSUPPORTED,
+					  hb_profile_has(s->in.profile, HB_PK_SUP_CURRENT_QUERY)
+						  ? "current set-point: the supply rejected profile '%s''s 'current.query' when probed at open"
+						  : "current set-point: profile '%s' has no 'current.query' operation",
+					  hb_profile_name(s->in.profile));
+	return hb_instrument_ask_number(&s->in, HB_PK_SUP_CURRENT_QUERY, HB_PK_SUP_CURRENT_QUERY_FIELD,
+					HB_PK_SUP_CURRENT_QUERY_SCALE, "current set-point", amps);
 }

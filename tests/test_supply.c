@@ -194,6 +194,8 @@ static void test_token_dialect(void **state)
 		{ "MODE?", PEER_REPLY, "WHAT\n", 0, 0 },
 		{ "TRIP?", PEER_REPLY, "NONE\n", 0, 0 },
 		{ "TRIP?", PEER_REPLY, "OCP\n", 0, 0 },
+		/* a reply short of its field is asked for once more; twice fails */
+		{ "MEASURE?", PEER_REPLY, "3.5\n", 0, 0 },
 		{ "MEASURE?", PEER_REPLY, "3.5\n", 0, 0 },
 		/* close sends nothing (test_close_switches_nothing checks that) */
 	};
