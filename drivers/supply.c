@@ -184,10 +184,11 @@ int hb_supply_measure_voltage(hb_supply *s, double *volts)
 /* Asks a query operation and hands back one trimmed field of its reply. */
 static int ask_field(hb_supply *s, hb_pkey op, hb_pkey field_key, const char *what, char *field, size_t cap)
 {
-	char reply[256];
-	int rc = hb_instrument_ask(&s->in, op, what, reply, sizeof reply);
+	char reply[256], err[HB_INSTRUMENT_ERRMSG_MAX];
+	/* One question only: the callers retry the question and its parsing together. */
+	int rc = hb_profile_ask(s->in.scpi, s->in.profile, op, what, reply, sizeof reply, err, sizeof err);
 	if (rc < 0)
-		return rc;
+		return hb_instrument_fail(&s->in, rc, "%s", err);
 	int n = (int)hb_profile_number(s->in.profile, field_key, 1), nfields;
 	if (hb_profile_reply_field(reply, n, field, cap, &nfields) < 0 || !field[0])
 		return hb_instrument_fail(&s->in, HB_ERR_PROTOCOL, "%s: reply '%.80s' has no field %d", what, reply, n);
@@ -245,13 +246,16 @@ static int mode_from_token(hb_supply *s, const char *field, hb_supply_mode *mode
 				  "mode: reply '%s' matches none of mode.cc, mode.cv, mode.off", field);
 }
 
-int hb_supply_get_mode(hb_supply *s, hb_supply_mode *mode)
+/* Read-only questions are asked once more after a drain when the reply was
+ * lost (time-out) or garbled (a reply that does not parse). */
+static bool worth_retry(int rc)
 {
-	int rc = usable(s);
-	if (rc < 0)
-		return rc;
-	if (!mode)
-		return hb_instrument_fail(&s->in, HB_ERR_ARG, "mode: no place for the value");
+	return rc == HB_ERR_TIMEOUT || rc == HB_ERR_PROTOCOL;
+}
+
+static int mode_once(hb_supply *s, hb_supply_mode *mode)
+{
+	int rc;
 	*mode = HB_SUPPLY_MODE_UNKNOWN;
 	char field[96];
 	if (hb_instrument_has(&s->in, HB_PK_SUP_OUTPUT_STATE)) {
@@ -278,17 +282,22 @@ int hb_supply_get_mode(hb_supply *s, hb_supply_mode *mode)
 	return mode_from_bits(s, field, mode);
 }
 
-int hb_supply_protection(hb_supply *s, bool *tripped)
+int hb_supply_get_mode(hb_supply *s, hb_supply_mode *mode)
 {
 	int rc = usable(s);
 	if (rc < 0)
 		return rc;
-	if (!tripped)
-		return hb_instrument_fail(&s->in, HB_ERR_ARG, "protection: no place for the value");
-	if (!hb_instrument_has(&s->in, HB_PK_SUP_PROTECTION))
-		return hb_instrument_fail(&s->in, HB_ERR_UNSUPPORTED,
-					  "protection: profile '%s' has no 'protection' operation",
-					  hb_profile_name(s->in.profile));
+	if (!mode)
+		return hb_instrument_fail(&s->in, HB_ERR_ARG, "mode: no place for the value");
+	rc = mode_once(s, mode);
+	if (worth_retry(rc) && hb_scpi_drain(s->in.scpi) == HB_OK)
+		rc = mode_once(s, mode);
+	return rc;
+}
+
+static int protection_once(hb_supply *s, bool *tripped)
+{
+	int rc;
 	char field[96];
 	rc = ask_field(s, HB_PK_SUP_PROTECTION, HB_PK_SUP_PROTECTION_FIELD, "protection", field, sizeof field);
 	if (rc < 0)
@@ -304,12 +313,41 @@ int hb_supply_protection(hb_supply *s, bool *tripped)
 	return HB_OK;
 }
 
+int hb_supply_protection(hb_supply *s, bool *tripped)
+{
+	int rc = usable(s);
+	if (rc < 0)
+		return rc;
+	if (!tripped)
+		return hb_instrument_fail(&s->in, HB_ERR_ARG, "protection: no place for the value");
+	if (!hb_instrument_has(&s->in, HB_PK_SUP_PROTECTION))
+		return hb_instrument_fail(&s->in, HB_ERR_UNSUPPORTED,
+					  "protection: profile '%s' has no 'protection' operation",
+					  hb_profile_name(s->in.profile));
+	rc = protection_once(s, tripped);
+	if (worth_retry(rc) && hb_scpi_drain(s->in.scpi) == HB_OK)
+		rc = protection_once(s, tripped);
+	return rc;
+}
+
 int hb_supply_errors(hb_supply *s, hb_scpi_error *list, size_t cap, size_t *count, bool *lost)
 {
 	int rc = usable(s);
 	if (rc < 0)
 		return rc;
 	return hb_instrument_errors(&s->in, list, cap, count, lost);
+}
+
+static int output_state_once(hb_supply *s, bool *on)
+{
+	char field[96];
+	int rc = ask_field(s, HB_PK_SUP_OUTPUT_STATE, HB_PK_SUP_OUTPUT_STATE_FIELD, "output state", field, sizeof field);
+	if (rc < 0)
+		return rc;
+	if (hb_profile_reply_bool(s->in.profile, HB_PK_SUP_STATE_ON, HB_PK_SUP_STATE_OFF, field, on) < 0)
+		return hb_instrument_fail(&s->in, HB_ERR_PROTOCOL, "output state: reply field '%s' is neither on nor off",
+					  field);
+	return HB_OK;
 }
 
 int hb_supply_output_state(hb_supply *s, bool *on)
@@ -323,14 +361,10 @@ int hb_supply_output_state(hb_supply *s, bool *on)
 		return hb_instrument_fail(&s->in, HB_ERR_UNSUPPORTED,
 					  "output state: profile '%s' has no 'output.state' operation",
 					  hb_profile_name(s->in.profile));
-	char field[96];
-	rc = ask_field(s, HB_PK_SUP_OUTPUT_STATE, HB_PK_SUP_OUTPUT_STATE_FIELD, "output state", field, sizeof field);
-	if (rc < 0)
-		return rc;
-	if (hb_profile_reply_bool(s->in.profile, HB_PK_SUP_STATE_ON, HB_PK_SUP_STATE_OFF, field, on) < 0)
-		return hb_instrument_fail(&s->in, HB_ERR_PROTOCOL, "output state: reply field '%s' is neither on nor off",
-					  field);
-	return HB_OK;
+	rc = output_state_once(s, on);
+	if (worth_retry(rc) && hb_scpi_drain(s->in.scpi) == HB_OK)
+		rc = output_state_once(s, on);
+	return rc;
 }
 
 int hb_supply_query_current(hb_supply *s, double *amps)

@@ -191,6 +191,8 @@ static void test_token_dialect(void **state)
 		{ "MODE?", PEER_REPLY, "CC\n", 0, 0 },
 		{ "MODE?", PEER_REPLY, "cv\n", 0, 0 },
 		{ "MODE?", PEER_REPLY, "OFF\n", 0, 0 },
+		/* an unknown word is asked about once more; twice fails */
+		{ "MODE?", PEER_REPLY, "WHAT\n", 0, 0 },
 		{ "MODE?", PEER_REPLY, "WHAT\n", 0, 0 },
 		{ "TRIP?", PEER_REPLY, "NONE\n", 0, 0 },
 		{ "TRIP?", PEER_REPLY, "OCP\n", 0, 0 },
@@ -269,6 +271,88 @@ static void test_mode_unreported(void **state)
 	rmdir(dir);
 }
 
+/* A SCPI source without STAT:QUES:COND? (it queues -113 "Undefined
+ * header", SCPI-99 21.8.9) on the generic profile: the probe at open marks
+ * the mode absent, so asking for the mode never fails; set-points are read
+ * back with SOUR:CURR?; a lost read-only reply is asked for once more. */
+static void test_generic_probe_and_readback(void **state)
+{
+	(void)state;
+	static const peer_step steps[] = {
+		{ "*IDN?", PEER_REPLY, "Nobody,Bench PSU,1,1\n", 0, 0 },
+		{ "*CLS", PEER_SILENT, NULL, 0, 0 },
+		/* probes, each with SYST:ERR? behind it */
+		{ "OUTP?", PEER_REPLY, "0\n", 0, 0 },
+		{ "SYST:ERR?", PEER_REPLY, OK_ERR, 0, 0 },
+		{ "STAT:QUES:COND?", PEER_SILENT, NULL, 0, 0 },
+		{ "SYST:ERR?", PEER_REPLY, "-113,\"Undefined header\"\n", 0, 0 },
+		{ "*CLS", PEER_SILENT, NULL, 0, 0 },
+		{ "SOUR:VOLT:PROT:TRIP?", PEER_REPLY, "0\n", 0, 0 },
+		{ "SYST:ERR?", PEER_REPLY, OK_ERR, 0, 0 },
+		{ "SOUR:CURR?", PEER_REPLY, "+0.000000E+00\n", 0, 0 },
+		{ "SYST:ERR?", PEER_REPLY, OK_ERR, 0, 0 },
+		/* mode: output state only; the status query is never sent again */
+		{ "OUTP?", PEER_REPLY, "1\n", 0, 0 },
+		/* a set-point the supply took */
+		{ "SOUR:CURR 0.5", PEER_SILENT, NULL, 0, 0 },
+		{ "SYST:ERR?", PEER_REPLY, OK_ERR, 0, 0 },
+		{ "SOUR:CURR?", PEER_REPLY, "+5.000000E-01\n", 0, 0 },
+		/* one it did not: the read-back differs */
+		{ "SOUR:CURR 1.5", PEER_SILENT, NULL, 0, 0 },
+		{ "SYST:ERR?", PEER_REPLY, OK_ERR, 0, 0 },
+		{ "SOUR:CURR?", PEER_REPLY, "+5.000000E-01\n", 0, 0 },
+		/* a lost reply, asked again after the drain */
+		{ "MEAS:CURR?", PEER_SILENT, NULL, 0, 0 },
+		{ "MEAS:CURR?", PEER_REPLY, "0.4999\n", 0, 0 },
+		/* a garbled one, asked again */
+		{ "OUTP?", PEER_REPLY, "#~@\n", 0, 0 },
+		{ "OUTP?", PEER_REPLY, "1\n", 0, 0 },
+		/* lost twice: fails */
+		{ "MEAS:VOLT?", PEER_SILENT, NULL, 0, 0 },
+		{ "MEAS:VOLT?", PEER_SILENT, NULL, 0, 0 },
+	};
+	peer p;
+	assert_int_equal(peer_start_tcp(&p, steps, sizeof steps / sizeof steps[0]), 0);
+	char resource[120];
+	snprintf(resource, sizeof resource, "tcp://127.0.0.1:%d?timeout=200&profile=generic-supply", p.port);
+	hb_supply *s = open_supply(resource);
+	assert_false(hb_supply_supports(s, "mode"));
+	assert_true(hb_supply_supports(s, "output.state"));
+	assert_true(hb_supply_supports(s, "current.query"));
+	hb_supply_mode mode = HB_SUPPLY_MODE_CC;
+	assert_int_equal(hb_supply_get_mode(s, &mode), HB_OK);
+	assert_int_equal(mode, HB_SUPPLY_MODE_UNKNOWN);
+	assert_int_equal(hb_supply_set_current(s, 0.5), HB_OK);
+	assert_int_equal(hb_supply_set_current(s, 1.5), HB_ERR_INSTRUMENT);
+	assert_non_null(strstr(hb_supply_errmsg(s), "set current to 1.5 A: the supply holds 0.5 A"));
+	double amps = 0;
+	assert_int_equal(hb_supply_measure_current(s, &amps), HB_OK);
+	assert_true(fabs(amps - 0.4999) < 1e-12);
+	bool on = false;
+	assert_int_equal(hb_supply_output_state(s, &on), HB_OK);
+	assert_true(on);
+	double volts;
+	assert_int_equal(hb_supply_measure_voltage(s, &volts), HB_ERR_TIMEOUT);
+	assert_non_null(strstr(hb_supply_errmsg(s), "measure voltage"));
+	hb_supply_close(s);
+	bench_peer_finish(&p);
+}
+
+/* The simulated supply answers SOUR:CURR? (docs/scpi-dialect.md): the
+ * set-point as it holds it. */
+static void test_query_current_simulated(void **state)
+{
+	(void)state;
+	clear_faults();
+	hb_supply *s = open_supply("sim:supply");
+	assert_int_equal(hb_supply_reset(s), HB_OK);
+	assert_int_equal(hb_supply_set_current(s, 0.25), HB_OK);
+	double amps = -1;
+	assert_int_equal(hb_supply_query_current(s, &amps), HB_OK);
+	assert_true(fabs(amps - 0.25) < 1e-9);
+	hb_supply_close(s);
+}
+
 int main(void)
 {
 	(void)peer_start_fd; /* the pty flavour of the shared peer is not needed here */
@@ -280,6 +364,8 @@ int main(void)
 		cmocka_unit_test(test_error_paths),
 		cmocka_unit_test(test_token_dialect),
 		cmocka_unit_test(test_mode_unreported),
+		cmocka_unit_test(test_generic_probe_and_readback),
+		cmocka_unit_test(test_query_current_simulated),
 	};
 	return cmocka_run_group_tests(tests, bench_fixture_setup, bench_fixture_teardown);
 }
