@@ -1042,6 +1042,57 @@ static void test_swapped_instruments_refused(void **state)
 	sim_free(&sim);
 }
 
+/* A meter profile without averaging and aperture, and one that measures
+ * only parallel L-R: a sweep asking for what they cannot do is refused
+ * before anything is switched on, and nothing is stored as applied. */
+static void test_unsupported_meter_settings_refused(void **state)
+{
+	(void)state;
+	char bare[400], fixed[400];
+	snprintf(bare, sizeof bare, "%s/bare-lcr.ini", tmpdir);
+	write_file(bare, "[profile]\nname = bare-lcr\nkind = lcr\n[lcr]\nfrequency = IMP:FREQ {hz:real}\n"
+			 "level.voltage = IMP:LEV:VOLT {volts:real}\nfunction = IMP:FUNC {equiv:enum},{pair:enum}\n"
+			 "equiv.series = SER\nequiv.parallel = PAR\npair.lr = LR\nmeasure = IMP:READ?\n"
+			 "measure.fields = 3\nmeasure.status = 3\nmeasure.status.overload = 1\n");
+	snprintf(fixed, sizeof fixed, "%s/fixed-lcr.ini", tmpdir);
+	write_file(fixed, "[profile]\nname = fixed-lcr\nkind = lcr\n[lcr]\nfrequency = IMP:FREQ {hz:real}\n"
+			  "level.voltage = IMP:LEV:VOLT {volts:real}\nfunction.fixed = lp-rp\nmeasure = IMP:READ?\n"
+			  "measure.fields = 3\nmeasure.status = 3\n");
+	sim_server sim;
+	sim_start(&sim, NULL);
+	char lcr[800];
+	run r;
+	snprintf(lcr, sizeof lcr, "%s?profile=%s", sim.lcr, bare);
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "U-1", "--lcr", lcr,
+	       "--supply", sim.supply, "--to", "1", "--avg", "8", "--aperture", "long", "--yes", NULL);
+	assert_int_equal(r.status, 2);
+	assert_int_equal(count_lines(r.err), 1);
+	assert_non_null(strstr(r.err, "--avg 8: the meter's profile 'bare-lcr' has no 'averaging' operation"));
+	run_free(&r);
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "U-1", "--lcr", lcr,
+	       "--supply", sim.supply, "--to", "1", "--aperture", "long", "--yes", NULL);
+	assert_int_equal(r.status, 2);
+	assert_non_null(strstr(r.err, "--aperture long: the meter's profile 'bare-lcr' cannot select it"));
+	run_free(&r);
+	snprintf(lcr, sizeof lcr, "%s?profile=%s", sim.lcr, fixed);
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "U-1", "--lcr", lcr,
+	       "--supply", sim.supply, "--to", "1", "--yes", NULL);
+	assert_int_equal(r.status, 2);
+	assert_non_null(strstr(r.err, "--circuit series --pair LR: the meter's profile 'fixed-lcr' cannot measure it"));
+	run_free(&r);
+	sim_stop(&sim);
+	assert_null(strstr(sim.log, "OUTP ON"));
+	assert_null(strstr(sim.log, "IMP:AVER"));
+	assert_null(strstr(sim.log, "IMP:APER"));
+	hb_run(&r, station_limits, "--db", db_path, "sweeps", "--json", NULL);
+	json_t *list = json_loads(r.out, 0, NULL);
+	assert_non_null(list);
+	assert_int_equal(json_array_size(list), 0);
+	json_decref(list);
+	run_free(&r);
+	sim_free(&sim);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -1056,6 +1107,7 @@ int main(void)
 		cmocka_unit_test_setup_teardown(test_dry_run_touches_nothing, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_bad_input_is_usage_error, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_swapped_instruments_refused, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_unsupported_meter_settings_refused, store_setup, store_teardown),
 		cmocka_unit_test(test_limits_station_binds_command_line),
 		cmocka_unit_test(test_limits_part_cap),
 		cmocka_unit_test(test_limits_defaults_and_lock),
