@@ -339,3 +339,41 @@ int hb_sweep_opts_open_bench(FILE *info, const char *lcr_resource, const char *s
 		fprintf(info, "supply: %s (profile %s)\n", hb_supply_idn(*supply)->raw, hb_supply_profile_name(*supply));
 	return HB_EXIT_OK;
 }
+
+/* Every meter setting the plan asks for must be one the profile can apply:
+ * a setting sent nowhere must not be stored as applied. Runs after the
+ * bench is open and before anything is switched on. */
+int hb_sweep_opts_check_meter(hb_lcr *lcr, const hb_sweep_plan *p)
+{
+	static const char *const equiv[] = { "series", "parallel" };
+	static const char *const pair[] = { "lr", "lq", "ld", "zth" };
+	static const char *const pair_opt[] = { "LR", "LQ", "LD", "ZTH" };
+	static const char *const aperture[] = { "short", "medium", "long" };
+	const char *profile = hb_lcr_profile_name(lcr);
+	char setting[64];
+	snprintf(setting, sizeof setting, "function=%s-%s", equiv[p->equiv], pair[p->pair]);
+	if (!hb_lcr_can(lcr, setting)) {
+		hb_cli_error("--circuit %s --pair %s: the meter's profile '%s' cannot measure it (see 'henrybench identify' for its operations)",
+			     equiv[p->equiv], pair_opt[p->pair], profile);
+		return HB_ERR_UNSUPPORTED;
+	}
+	snprintf(setting, sizeof setting, "averaging=%d", p->averaging);
+	if (!hb_lcr_can(lcr, setting)) {
+		hb_cli_error("--avg %d: the meter's profile '%s' has no 'averaging' operation the meter accepts: accepted only 1",
+			     p->averaging, profile);
+		return HB_ERR_UNSUPPORTED;
+	}
+	snprintf(setting, sizeof setting, "aperture=%s", aperture[p->aperture]);
+	if (!hb_lcr_can(lcr, setting)) {
+		hb_cli_error("--aperture %s: the meter's profile '%s' cannot select it (no 'aperture' operation the meter accepts, or no aperture.%s token; without the operation only medium is accepted)",
+			     aperture[p->aperture], profile, aperture[p->aperture]);
+		return HB_ERR_UNSUPPORTED;
+	}
+	const char *level = p->level_kind == HB_LEVEL_CURRENT ? "level.current" : "level.voltage";
+	if (!hb_lcr_can(lcr, level)) {
+		hb_cli_error("--level %g %s: the meter's profile '%s' has no '%s' operation", p->level,
+			     p->level_kind == HB_LEVEL_CURRENT ? "A" : "V", profile, level);
+		return HB_ERR_UNSUPPORTED;
+	}
+	return HB_OK;
+}

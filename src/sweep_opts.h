@@ -110,4 +110,11 @@ int hb_sweep_opts_confirm(const hb_station *st, double top, bool yes, bool may_a
 int hb_sweep_opts_open_bench(FILE *info, const char *lcr_resource, const char *supply_resource, hb_lcr **lcr,
 			     hb_supply **supply);
 
+/* Every meter setting the plan asks for (circuit and pair, averaging,
+ * aperture, level kind) must be one the meter's profile can apply
+ * (hb_lcr_can): otherwise one line naming the option and the profile, and
+ * HB_ERR_UNSUPPORTED (exit 2). Call after opening, before anything is
+ * switched on, so a sweep is never stored with a setting never sent. */
+int hb_sweep_opts_check_meter(hb_lcr *lcr, const hb_sweep_plan *plan);
+
 #endif

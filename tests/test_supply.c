@@ -353,6 +353,25 @@ static void test_query_current_simulated(void **state)
 	hb_supply_close(s);
 }
 
+/* *IDN? is read-only: a lost reply is asked once more after a drain. */
+static void test_idn_asked_again(void **state)
+{
+	(void)state;
+	static const peer_step steps[] = {
+		{ "*IDN?", PEER_SILENT, NULL, 0, 0 },
+		{ "*IDN?", PEER_REPLY, "Orrin,OP-30,77,3.0\n", 0, 0 },
+		{ "*CLS", PEER_SILENT, NULL, 0, 0 },
+	};
+	peer p;
+	assert_int_equal(peer_start_tcp(&p, steps, sizeof steps / sizeof steps[0]), 0);
+	char resource[80];
+	snprintf(resource, sizeof resource, "tcp://127.0.0.1:%d?timeout=200", p.port);
+	hb_supply *s = open_supply(resource);
+	assert_string_equal(hb_supply_idn(s)->model, "OP-30");
+	hb_supply_close(s);
+	bench_peer_finish(&p);
+}
+
 int main(void)
 {
 	(void)peer_start_fd; /* the pty flavour of the shared peer is not needed here */
@@ -366,6 +385,7 @@ int main(void)
 		cmocka_unit_test(test_mode_unreported),
 		cmocka_unit_test(test_generic_probe_and_readback),
 		cmocka_unit_test(test_query_current_simulated),
+		cmocka_unit_test(test_idn_asked_again),
 	};
 	return cmocka_run_group_tests(tests, bench_fixture_setup, bench_fixture_teardown);
 }
