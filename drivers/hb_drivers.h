@@ -111,6 +111,13 @@ int hb_scpi_query(hb_scpi *scpi, const char *command, char *reply, size_t cap);
  * with *value set to the raw number. */
 int hb_scpi_query_double(hb_scpi *scpi, const char *command, double *value);
 int hb_scpi_idn(hb_scpi *scpi, hb_idn *idn);
+/* Reads one more reply line (after hb_scpi_write of a query). */
+int hb_scpi_read_line(hb_scpi *scpi, char *reply, size_t cap);
+/* Waits until the line has been quiet long enough for a late reply to have
+ * come and gone, discarding it: before retrying a lost or garbled query. */
+int hb_scpi_drain(hb_scpi *scpi);
+/* Parses a SYST:ERR? reply of the form code,"message"; false otherwise. */
+bool hb_scpi_parse_error(const char *reply, hb_scpi_error *error);
 int hb_scpi_reset(hb_scpi *scpi);  /* *RST then *OPC? */
 int hb_scpi_clear(hb_scpi *scpi);  /* *CLS */
 int hb_scpi_opc(hb_scpi *scpi);    /* *OPC? until "1" */
@@ -148,6 +155,11 @@ const char *hb_profile_name(const hb_profile *profile);
 const char *hb_profile_path(const hb_profile *profile);
 const char *hb_profile_description(const hb_profile *profile); /* NULL when absent */
 hb_instrument_kind hb_profile_kind(const hb_profile *profile);
+/* The driver operations the profile provides and those it lacks, each a
+ * blank-separated list for 'identify'. An optional operation (probed at
+ * open, see docs/profiles.md) ends in '?'; a meter that measures one fixed
+ * function lists "function.fixed=ls-rs". */
+void hb_profile_operations(const hb_profile *profile, char *provided, size_t pcap, char *absent, size_t acap);
 /* Search path: $HENRYBENCH_PROFILE_PATH (colon-separated), then the
  * installed directory, then drivers/profiles next to the executable. */
 int hb_profile_search_path(char *buf, size_t cap);
@@ -182,6 +194,17 @@ const char *hb_lcr_profile_name(const hb_lcr *lcr);
 hb_scpi *hb_lcr_scpi(hb_lcr *lcr);
 /* Whether the profile defines an operation, by its key (e.g. "bias", "dcr"). */
 bool hb_lcr_supports(const hb_lcr *lcr, const char *operation);
+/* False when the instrument's *IDN? is claimed only by supply profiles (it
+ * is a supply, as 'identify' would say); true when a meter profile claims
+ * it, nothing claims it, or the resource forced profile=. */
+bool hb_lcr_answers_as_meter(const hb_lcr *lcr);
+/* Whether the meter can apply a requested setting, before anything is
+ * sent: "averaging=N" (1 always), "aperture=short|medium|long" (medium
+ * always: a meter without the operation has one speed),
+ * "function=series|parallel-lr|lq|ld|zth" (through 'function' or the
+ * profile's function.fixed), or an operation name as for hb_lcr_supports.
+ * Operations the probe at open found absent count as missing. */
+bool hb_lcr_can(const hb_lcr *lcr, const char *setting);
 
 int hb_lcr_reset(hb_lcr *lcr);
 int hb_lcr_set_frequency(hb_lcr *lcr, double hertz);
@@ -219,6 +242,8 @@ const hb_idn *hb_supply_idn(const hb_supply *supply);
 const char *hb_supply_profile_name(const hb_supply *supply);
 hb_scpi *hb_supply_scpi(hb_supply *supply);
 bool hb_supply_supports(const hb_supply *supply, const char *operation);
+/* The supply's counterpart of hb_lcr_answers_as_meter. */
+bool hb_supply_answers_as_supply(const hb_supply *supply);
 
 int hb_supply_reset(hb_supply *supply);
 int hb_supply_set_voltage_limit(hb_supply *supply, double volts);

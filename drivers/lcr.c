@@ -24,7 +24,35 @@ int hb_lcr_open(const char *resource, FILE *trace, hb_lcr **out)
 	if (!lcr)
 		return HB_ERR_NOMEM;
 	lcr->pair = HB_PAIR_L_R;
-	return hb_instrument_open(&lcr->in, "lcr meter", "lcr", HB_KIND_LCR, resource, trace);
+	int rc = hb_instrument_open(&lcr->in, "lcr meter", "lcr", HB_KIND_LCR, resource, trace);
+	/* A supply on the meter's resource gets no meter commands: the
+	 * bench refuses it by its IDN (hb_lcr_answers_as_meter). */
+	if (rc < 0 || !lcr->in.kind_confirmed)
+		return rc;
+	/* Optional settings are probed with the defaults (series L-R, one
+	 * reading, medium speed): what a sweep sets anyway before it reads. One the meter rejects is then absent, and asking for
+	 * anything but the default is refused before a sweep starts. */
+	const hb_profile *p = lcr->in.profile;
+	if (hb_profile_optional(p, HB_PK_LCR_FUNCTION) && hb_profile_has(p, HB_PK_LCR_EQUIV_SERIES) &&
+	    hb_profile_has(p, HB_PK_LCR_PAIR_LR)) {
+		hb_parg args[2] = { { .name = "equiv", .choice = HB_EQUIV_SERIES }, { .name = "pair", .choice = HB_PAIR_L_R } };
+		rc = hb_instrument_probe(&lcr->in, HB_PK_LCR_FUNCTION, args, 2);
+		if (rc < 0)
+			return rc;
+	}
+	if (hb_profile_optional(p, HB_PK_LCR_AVERAGING)) {
+		hb_parg one = { .name = "count", .integer = 1 };
+		rc = hb_instrument_probe(&lcr->in, HB_PK_LCR_AVERAGING, &one, 1);
+		if (rc < 0)
+			return rc;
+	}
+	if (hb_profile_optional(p, HB_PK_LCR_APERTURE) && hb_profile_has(p, HB_PK_LCR_APERTURE_MEDIUM)) {
+		hb_parg medium = { .name = "aperture", .choice = HB_APERTURE_MEDIUM };
+		rc = hb_instrument_probe(&lcr->in, HB_PK_LCR_APERTURE, &medium, 1);
+		if (rc < 0)
+			return rc;
+	}
+	return HB_OK;
 }
 
 void hb_lcr_close(hb_lcr *lcr)
@@ -64,7 +92,79 @@ hb_scpi *hb_lcr_scpi(hb_lcr *lcr)
 
 bool hb_lcr_supports(const hb_lcr *lcr, const char *operation)
 {
-	return lcr && hb_profile_supports(lcr->in.profile, HB_KIND_LCR, operation);
+	return lcr && hb_instrument_supports(&lcr->in, HB_KIND_LCR, operation);
+}
+
+static const char *const equiv_words[] = { "series", "parallel" };
+static const char *const pair_words[] = { "lr", "lq", "ld", "zth" };
+static const char *const aperture_words[] = { "short", "medium", "long" };
+
+static int word_index(const char *const *words, int n, const char *text, size_t len)
+{
+	for (int i = 0; i < n; i++)
+		if (strlen(words[i]) == len && strncasecmp(words[i], text, len) == 0)
+			return i;
+	return -1;
+}
+
+/* Whether the meter measures this function: selected through 'function'
+ * with tokens for both values, or its one function.fixed. */
+static bool function_possible(const hb_lcr *lcr, hb_equiv equiv, hb_pair pair)
+{
+	const hb_profile *p = lcr->in.profile;
+	if (hb_instrument_has(&lcr->in, HB_PK_LCR_FUNCTION))
+		return hb_profile_has(p, (hb_pkey)(HB_PK_LCR_EQUIV_SERIES + equiv)) &&
+		       hb_profile_has(p, (hb_pkey)(HB_PK_LCR_PAIR_LR + pair));
+	hb_equiv fe;
+	hb_pair fp;
+	bool any;
+	if (hb_profile_function_fixed(p, &fe, &fp, &any) != HB_OK)
+		return false;
+	return fp == pair && (any || fe == equiv);
+}
+
+bool hb_lcr_can(const hb_lcr *lcr, const char *setting)
+{
+	if (!lcr || !lcr->in.profile || !setting)
+		return false;
+	const char *eq = strchr(setting, '=');
+	if (!eq)
+		return hb_lcr_supports(lcr, setting);
+	size_t klen = (size_t)(eq - setting);
+	const char *value = eq + 1;
+	const hb_profile *p = lcr->in.profile;
+	if (klen == 9 && strncmp(setting, "averaging", 9) == 0) {
+		char *end;
+		long n = strtol(value, &end, 10);
+		if (end == value || *end || n < 1)
+			return false;
+		return n == 1 || hb_instrument_has(&lcr->in, HB_PK_LCR_AVERAGING);
+	}
+	if (klen == 8 && strncmp(setting, "aperture", 8) == 0) {
+		int a = word_index(aperture_words, 3, value, strlen(value));
+		if (a < 0)
+			return false;
+		/* Without the operation the meter has one speed, taken as medium. */
+		if (!hb_instrument_has(&lcr->in, HB_PK_LCR_APERTURE))
+			return a == HB_APERTURE_MEDIUM;
+		return hb_profile_has(p, (hb_pkey)(HB_PK_LCR_APERTURE_SHORT + a));
+	}
+	if (klen == 8 && strncmp(setting, "function", 8) == 0) {
+		const char *dash = strchr(value, '-');
+		if (!dash)
+			return false;
+		int e = word_index(equiv_words, 2, value, (size_t)(dash - value));
+		int pr = word_index(pair_words, 4, dash + 1, strlen(dash + 1));
+		if (e < 0 || pr < 0)
+			return false;
+		return function_possible(lcr, (hb_equiv)e, (hb_pair)pr);
+	}
+	return false;
+}
+
+bool hb_lcr_answers_as_meter(const hb_lcr *lcr)
+{
+	return lcr && lcr->in.profile && lcr->in.kind_confirmed;
 }
 
 static int usable(hb_lcr *lcr)
@@ -136,6 +236,22 @@ int hb_lcr_set_function(hb_lcr *lcr, hb_equiv equiv, hb_pair pair)
 	char what[80];
 	snprintf(what, sizeof what, "set function to %s %s", equiv == HB_EQUIV_SERIES ? "series" : "parallel",
 		 pair_name(pair));
+	if (!hb_instrument_has(&lcr->in, HB_PK_LCR_FUNCTION)) {
+		/* A meter that always measures one pair needs no command: asking
+		 * for that pair succeeds, asking for another one cannot. */
+		const char *fixed = hb_profile_text(lcr->in.profile, HB_PK_LCR_FUNCTION_FIXED);
+		if (fixed && function_possible(lcr, equiv, pair)) {
+			lcr->pair = pair;
+			return HB_OK;
+		}
+		if (fixed)
+			return hb_instrument_fail(&lcr->in, HB_ERR_UNSUPPORTED,
+						  "%s: the meter measures only %s (function.fixed in profile '%s')", what,
+						  fixed, hb_profile_name(lcr->in.profile));
+		return hb_instrument_fail(&lcr->in, HB_ERR_UNSUPPORTED,
+					  "%s: profile '%s' has neither 'function' nor 'function.fixed'", what,
+					  hb_profile_name(lcr->in.profile));
+	}
 	hb_parg args[2] = { { .name = "equiv", .choice = (int)equiv }, { .name = "pair", .choice = (int)pair } };
 	rc = hb_instrument_send(&lcr->in, HB_PK_LCR_FUNCTION, args, 2, what);
 	if (rc == HB_OK)
@@ -161,7 +277,7 @@ int hb_lcr_set_averaging(hb_lcr *lcr, int count, hb_aperture aperture)
 	/* Both commands are built before either goes out, so an unsupported
 	 * aperture leaves the meter untouched. A meter without one of these
 	 * settings is fine as long as only its one behaviour is asked for. */
-	if (hb_profile_has(p, HB_PK_LCR_AVERAGING)) {
+	if (hb_instrument_has(&lcr->in, HB_PK_LCR_AVERAGING)) {
 		hb_parg arg = { .name = "count", .integer = count };
 		rc = hb_profile_expand(p, HB_PK_LCR_AVERAGING, &arg, 1, avg_cmd, sizeof avg_cmd, err, sizeof err);
 		if (rc < 0)
@@ -170,7 +286,7 @@ int hb_lcr_set_averaging(hb_lcr *lcr, int count, hb_aperture aperture)
 		return hb_instrument_fail(&lcr->in, HB_ERR_UNSUPPORTED, "%s: profile '%s' has no 'averaging' operation",
 					  avg_what, hb_profile_name(p));
 	}
-	if (hb_profile_has(p, HB_PK_LCR_APERTURE)) {
+	if (hb_instrument_has(&lcr->in, HB_PK_LCR_APERTURE)) {
 		hb_parg arg = { .name = "aperture", .choice = (int)aperture };
 		rc = hb_profile_expand(p, HB_PK_LCR_APERTURE, &arg, 1, ap_cmd, sizeof ap_cmd, err, sizeof err);
 		if (rc < 0)
@@ -225,13 +341,9 @@ static bool status_is_overload(const hb_profile *p, long code)
 	return hb_profile_word_in(list, text);
 }
 
-int hb_lcr_measure(hb_lcr *lcr, hb_lcr_reading *reading)
+static int measure_once(hb_lcr *lcr, hb_lcr_reading *reading)
 {
-	int rc = usable(lcr);
-	if (rc < 0)
-		return rc;
-	if (!reading)
-		return hb_instrument_fail(&lcr->in, HB_ERR_ARG, "measure: no place for the reading");
+	int rc;
 	memset(reading, 0, sizeof *reading);
 	reading->primary = NAN;
 	reading->secondary = NAN;
@@ -291,6 +403,24 @@ int hb_lcr_measure(hb_lcr *lcr, hb_lcr_reading *reading)
 	reading->primary = values[0] * pscale;
 	reading->secondary = values[1] * hb_profile_number(p, HB_PK_LCR_MEASURE_SECONDARY_SCALE, 1.0);
 	return HB_OK;
+}
+
+int hb_lcr_measure(hb_lcr *lcr, hb_lcr_reading *reading)
+{
+	int rc = usable(lcr);
+	if (rc < 0)
+		return rc;
+	if (!reading)
+		return hb_instrument_fail(&lcr->in, HB_ERR_ARG, "measure: no place for the reading");
+	rc = measure_once(lcr, reading);
+	/* A lost or garbled reading is asked for once more after a drain. When
+	 * the profile's measure query triggers (IMP:READ?, READ?) the retry
+	 * takes a new reading rather than fetching the lost one: at the same
+	 * bias that is as good a reading, and the engine's settle rule sees
+	 * only readings that arrived whole. */
+	if ((rc == HB_ERR_TIMEOUT || rc == HB_ERR_PROTOCOL) && hb_scpi_drain(lcr->in.scpi) == HB_OK)
+		rc = measure_once(lcr, reading);
+	return rc;
 }
 
 int hb_lcr_set_internal_bias(hb_lcr *lcr, bool on, double amps)

@@ -142,6 +142,14 @@ static const keydef keys[HB_PK_COUNT] = {
 	{ HB_PK_SUP_PROTECTION_TRIPPED, SEC_SUPPLY, "protection.tripped", VT_TEXT, false, 0, 0, NULL },
 	{ HB_PK_SUP_STATE_ON, SEC_SUPPLY, "state.on", VT_TEXT, false, 0, 0, NULL },
 	{ HB_PK_SUP_STATE_OFF, SEC_SUPPLY, "state.off", VT_TEXT, false, 0, 0, NULL },
+
+	{ HB_PK_LCR_FUNCTION_FIXED, SEC_LCR, "function.fixed", VT_TEXT, false, 0, 0, NULL },
+	{ HB_PK_LCR_OPTIONAL, SEC_LCR, "optional", VT_TEXT, false, 0, 0, NULL },
+	{ HB_PK_SUP_CURRENT_QUERY, SEC_SUPPLY, "current.query", VT_QUERY, false, 0, 0, NULL },
+	{ HB_PK_SUP_CURRENT_QUERY_FIELD, SEC_SUPPLY, "current.query.field", VT_INT, false, 1, FIELD_MAX, NULL },
+	{ HB_PK_SUP_CURRENT_QUERY_SCALE, SEC_SUPPLY, "current.query.scale", VT_REAL, false, 1e-18, 1e18, NULL },
+	{ HB_PK_SUP_CURRENT_TOLERANCE, SEC_SUPPLY, "current.tolerance", VT_REAL, false, 1e-12, 1e3, NULL },
+	{ HB_PK_SUP_OPTIONAL, SEC_SUPPLY, "optional", VT_TEXT, false, 0, 0, NULL },
 };
 
 static const char *const type_names[] = { "real", "int", "enum", "bool" };
@@ -654,6 +662,88 @@ static int parse_int_list(const char *text, char *why, size_t whylen)
 	return rc;
 }
 
+/* Which operations of each kind may be listed under 'optional': the
+ * queries and settings a generic profile cannot promise every instrument has. */
+static const char *const optional_lcr[] = { "function", "averaging", "aperture", NULL };
+static const char *const optional_supply[] = { "output.state", "mode", "protection", "current.query", NULL };
+
+static const char *const fixed_names[] = { "ls-rs", "lp-rp", "ls-q", "lp-q", "ls-d", "lp-d", "z-theta", NULL };
+
+int hb_profile_function_fixed(const hb_profile *p, hb_equiv *equiv, hb_pair *pair, bool *any_equiv)
+{
+	const char *text = hb_profile_text(p, HB_PK_LCR_FUNCTION_FIXED);
+	if (!text)
+		return HB_ERR_UNSUPPORTED;
+	static const hb_pair pairs[] = { HB_PAIR_L_R, HB_PAIR_L_R, HB_PAIR_L_Q, HB_PAIR_L_Q, HB_PAIR_L_D, HB_PAIR_L_D,
+					 HB_PAIR_Z_THETA };
+	for (int i = 0; fixed_names[i]; i++) {
+		if (strcasecmp(text, fixed_names[i]) == 0) {
+			*pair = pairs[i];
+			*equiv = i < 6 && (i % 2) ? HB_EQUIV_PARALLEL : HB_EQUIV_SERIES;
+			*any_equiv = pairs[i] == HB_PAIR_Z_THETA;
+			return HB_OK;
+		}
+	}
+	return HB_ERR_ARG;
+}
+
+int hb_profile_key_of(hb_instrument_kind kind, const char *name)
+{
+	enum section sec = kind == HB_KIND_LCR ? SEC_LCR : SEC_SUPPLY;
+	for (size_t i = 0; i < HB_PK_COUNT; i++)
+		if (keys[i].section == sec && strcmp(keys[i].name, name) == 0)
+			return (int)i;
+	return -1;
+}
+
+bool hb_profile_optional(const hb_profile *p, hb_pkey key)
+{
+	hb_pkey list = p && p->kind == HB_KIND_LCR ? HB_PK_LCR_OPTIONAL : HB_PK_SUP_OPTIONAL;
+	const char *words = hb_profile_text(p, list);
+	return words && key < HB_PK_COUNT && hb_profile_word_in(words, keys[key].name);
+}
+
+/* Every word of 'optional' names an operation that may be optional and
+ * that this profile defines. */
+static int check_optional(load_ctx *c, enum section mine)
+{
+	hb_profile *p = c->p;
+	hb_pkey key = mine == SEC_LCR ? HB_PK_LCR_OPTIONAL : HB_PK_SUP_OPTIONAL;
+	if (!p->v[key].set)
+		return 0;
+	const char *const *allowed = mine == SEC_LCR ? optional_lcr : optional_supply;
+	const char *s = p->v[key].text;
+	while (*s) {
+		while (*s == ' ' || *s == ',' || *s == '\t')
+			s++;
+		const char *start = s;
+		while (*s && *s != ' ' && *s != ',' && *s != '\t')
+			s++;
+		size_t len = (size_t)(s - start);
+		if (!len)
+			continue;
+		char word[64];
+		snprintf(word, sizeof word, "%.*s", (int)(len < sizeof word ? len : sizeof word - 1), start);
+		bool known = false;
+		char list[160] = "";
+		for (int i = 0; allowed[i]; i++) {
+			known |= strcmp(allowed[i], word) == 0;
+			size_t used = strlen(list);
+			snprintf(list + used, sizeof list - used, "%s%s", i ? ", " : "", allowed[i]);
+		}
+		if (!known) {
+			ctx_err(c, p->v[key].line, "key 'optional': '%s' cannot be optional (accepted: %s)", word, list);
+			return -1;
+		}
+		int op = hb_profile_key_of(p->kind, word);
+		if (op < 0 || !p->v[op].set) {
+			ctx_err(c, p->v[key].line, "key 'optional': '%s' is not defined in this profile", word);
+			return -1;
+		}
+	}
+	return 0;
+}
+
 /* Rules that span keys, checked once the whole file is read. */
 static void check_whole(load_ctx *c)
 {
@@ -702,6 +792,24 @@ static void check_whole(load_ctx *c)
 					keys[i].name, ph->name, list);
 				return;
 			}
+		}
+	}
+	if (check_optional(c, mine) < 0)
+		return;
+	if (p->kind == HB_KIND_LCR && p->v[HB_PK_LCR_FUNCTION_FIXED].set) {
+		hb_equiv e;
+		hb_pair pr;
+		bool any;
+		if (p->v[HB_PK_LCR_FUNCTION].set) {
+			ctx_err(c, p->v[HB_PK_LCR_FUNCTION_FIXED].line,
+				"key 'function.fixed': give 'function' (the meter can select) or 'function.fixed' (it cannot), not both");
+			return;
+		}
+		if (hb_profile_function_fixed(p, &e, &pr, &any) < 0) {
+			ctx_err(c, p->v[HB_PK_LCR_FUNCTION_FIXED].line,
+				"key 'function.fixed': '%s' is none of ls-rs, lp-rp, ls-q, lp-q, ls-d, lp-d, z-theta",
+				p->v[HB_PK_LCR_FUNCTION_FIXED].text);
+			return;
 		}
 	}
 	if (p->kind == HB_KIND_LCR) {
@@ -883,6 +991,42 @@ bool hb_profile_supports(const hb_profile *p, hb_instrument_kind kind, const cha
 	}
 	/* reset falls back to *RST, which IEEE 488.2 makes universal */
 	return strcmp(operation, "reset") == 0;
+}
+
+void hb_profile_operations(const hb_profile *p, char *provided, size_t pcap, char *absent, size_t acap)
+{
+	static const char *const lcr_ops[] = { "reset", "frequency", "level.voltage", "level.current", "function",
+					       "averaging", "aperture", "measure", "dcr", "bias.current", "bias.state",
+					       "correct.open", "correct.short", NULL };
+	static const char *const supply_ops[] = { "reset", "voltage", "current", "current.query", "output.on",
+						  "output.off", "output.state", "measure.current", "measure.voltage",
+						  "mode", "protection", NULL };
+	if (pcap)
+		provided[0] = '\0';
+	if (acap)
+		absent[0] = '\0';
+	if (!p)
+		return;
+	const char *const *ops = p->kind == HB_KIND_LCR ? lcr_ops : supply_ops;
+	for (int i = 0; ops[i]; i++) {
+		int key = hb_profile_key_of(p->kind, ops[i]);
+		bool has = strcmp(ops[i], "reset") == 0 || (key >= 0 && p->v[key].set);
+		char word[64];
+		if (has)
+			snprintf(word, sizeof word, "%s%s", ops[i], key >= 0 && hb_profile_optional(p, (hb_pkey)key) ? "?" : "");
+		else if (key == HB_PK_LCR_FUNCTION && p->v[HB_PK_LCR_FUNCTION_FIXED].set)
+			snprintf(word, sizeof word, "function.fixed=%s", p->v[HB_PK_LCR_FUNCTION_FIXED].text);
+		else
+			snprintf(word, sizeof word, "%s", ops[i]);
+		bool listed_as_has = has || key == HB_PK_LCR_FUNCTION;
+		if (key == HB_PK_LCR_FUNCTION && !has && !p->v[HB_PK_LCR_FUNCTION_FIXED].set)
+			listed_as_has = false;
+		char *buf = listed_as_has ? provided : absent;
+		size_t cap = listed_as_has ? pcap : acap;
+		size_t used = strlen(buf);
+		if (cap > used)
+			snprintf(buf + used, cap - used, "%s%s", used ? " " : "", word);
+	}
 }
 
 bool hb_profile_matches(const hb_profile *p, const hb_idn *idn)

@@ -90,6 +90,15 @@ typedef enum hb_pkey {
 	HB_PK_SUP_STATE_ON,
 	HB_PK_SUP_STATE_OFF,
 
+	/* added with the optional-operation work; the table in profile.c keeps this order */
+	HB_PK_LCR_FUNCTION_FIXED,
+	HB_PK_LCR_OPTIONAL,
+	HB_PK_SUP_CURRENT_QUERY,
+	HB_PK_SUP_CURRENT_QUERY_FIELD,
+	HB_PK_SUP_CURRENT_QUERY_SCALE,
+	HB_PK_SUP_CURRENT_TOLERANCE,
+	HB_PK_SUP_OPTIONAL,
+
 	HB_PK_COUNT
 } hb_pkey;
 
@@ -132,6 +141,18 @@ const char *hb_profile_key_name(hb_pkey key);
 /* True when the operation named by its key (e.g. "dcr") or by the first
  * part of a group of keys (e.g. "bias", "level", "correct") is defined. */
 bool hb_profile_supports(const hb_profile *p, hb_instrument_kind kind, const char *operation);
+
+/* The key of an operation of this kind by its spelling ("mode",
+ * "current.query"), or -1. */
+int hb_profile_key_of(hb_instrument_kind kind, const char *name);
+/* Whether the profile lists the operation under its section's 'optional'
+ * key: the driver then probes it at open and marks it absent on the
+ * handle when the instrument rejects it. */
+bool hb_profile_optional(const hb_profile *p, hb_pkey key);
+/* The one function a meter without 'function' always measures
+ * (function.fixed); HB_ERR_UNSUPPORTED when the key is absent.
+ * *any_equiv is set for z-theta, where the circuit does not matter. */
+int hb_profile_function_fixed(const hb_profile *p, hb_equiv *equiv, hb_pair *pair, bool *any_equiv);
 
 /*
  * Fills the operation's template with args into out. Returns
@@ -193,8 +214,29 @@ typedef struct hb_instrument {
 	hb_scpi *scpi;
 	hb_profile *profile;
 	hb_idn idn;
+	/* False when the *IDN? is claimed only by profiles of the other kind
+	 * (a supply opened as a meter): the bench refuses before anything is
+	 * switched on. A forced profile= counts as the operator's word. */
+	bool kind_confirmed;
+	/* Optional operations the instrument rejected when probed at open:
+	 * treated as if the profile left them out. */
+	bool absent[HB_PK_COUNT];
 	char errmsg[HB_INSTRUMENT_ERRMSG_MAX];
 } hb_instrument;
+
+/* The profile has the operation and the instrument did not reject it. */
+bool hb_instrument_has(const hb_instrument *in, hb_pkey key);
+/* hb_profile_supports, less what the probe at open found absent. */
+bool hb_instrument_supports(const hb_instrument *in, hb_instrument_kind kind, const char *operation);
+/* Probes each operation the profile lists as optional: a query is asked,
+ * a setting is sent with args (the instrument's default, harmless before
+ * a sweep). A rejection (an error in the queue, or no reply) marks it
+ * absent, drains the line and clears the error queue; only a failing link
+ * fails. args/nargs apply to settings and may be NULL/0 for queries. */
+int hb_instrument_probe(hb_instrument *in, hb_pkey op, const hb_parg *args, size_t nargs);
+/* hb_profile_ask retried once after a drain when the reply was lost
+ * (time-out) or garbled (protocol error); the failure recorded on the handle. */
+int hb_instrument_ask(hb_instrument *in, hb_pkey op, const char *what, char *reply, size_t cap);
 
 /* Records the message on the handle and passes status through. */
 int hb_instrument_fail(hb_instrument *in, int status, const char *fmt, ...) __attribute__((format(printf, 3, 4)));

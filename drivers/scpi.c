@@ -374,6 +374,40 @@ int hb_scpi_query(hb_scpi *scpi, const char *command, char *reply, size_t cap)
 	return HB_OK;
 }
 
+int hb_scpi_read_line(hb_scpi *scpi, char *reply, size_t cap)
+{
+	int rc = check_usable(scpi);
+	if (rc < 0)
+		return rc;
+	if (!reply || cap == 0)
+		return scpi_fail(scpi, HB_ERR_ARG, "%s: no room for a reply", scpi->name);
+	reply[0] = '\0';
+	rc = hb_link_read_line(scpi->link, reply, cap, scpi->res.timeout_ms);
+	if (rc < 0) {
+		scpi->unsettled = true;
+		reply[0] = '\0';
+		return scpi_fail(scpi, rc, "%s", hb_link_errmsg(scpi->link));
+	}
+	trace_event(scpi, '<', reply, (size_t)rc, NULL);
+	if ((size_t)rc != strlen(reply)) {
+		scpi->unsettled = true;
+		reply[0] = '\0';
+		return scpi_fail(scpi, HB_ERR_PROTOCOL, "%s: reply contains a NUL byte (garbled line?)", scpi->name);
+	}
+	return HB_OK;
+}
+
+int hb_scpi_drain(hb_scpi *scpi)
+{
+	int rc = check_usable(scpi);
+	if (rc < 0)
+		return rc;
+	/* settle() waits for a quiet line when unsettled: what a late or
+	 * garbled reply leaves behind is gone before the next question. */
+	scpi->unsettled = true;
+	return settle(scpi, false);
+}
+
 /* A reply of the wrong shape may belong to an earlier question, so the
  * line is settled again before the next command. */
 static int shape_error(hb_scpi *s, const char *command, const char *reply, const char *expected)
@@ -495,6 +529,13 @@ static bool parse_error_reply(const char *reply, hb_scpi_error *e)
 		p++, len -= 2;
 	copy_trimmed(e->message, sizeof e->message, p, len);
 	return true;
+}
+
+bool hb_scpi_parse_error(const char *reply, hb_scpi_error *error)
+{
+	/* Stricter than the queue reader: a probe must not take a plain
+	 * numeric reply ("1") for an error code. */
+	return reply && strchr(reply, ',') && strchr(reply, '"') && parse_error_reply(reply, error);
 }
 
 int hb_scpi_errors(hb_scpi *scpi, hb_scpi_error *list, size_t cap, size_t *count, bool *lost)

@@ -19,20 +19,34 @@ int hb_supply_open(const char *resource, FILE *trace, hb_supply **out)
 	*out = s;
 	if (!s)
 		return HB_ERR_NOMEM;
-	return hb_instrument_open(&s->in, "supply", "supply", HB_KIND_SUPPLY, resource, trace);
+	int rc = hb_instrument_open(&s->in, "supply", "supply", HB_KIND_SUPPLY, resource, trace);
+	/* A meter on the supply's resource gets no supply commands: the
+	 * bench refuses it by its IDN (hb_supply_answers_as_supply). */
+	if (rc < 0 || !s->in.kind_confirmed)
+		return rc;
+	/* Before anything is switched on: an optional query the supply rejects
+	 * is marked absent, so a sweep judges compliance from the V and I
+	 * read-backs instead of failing on the first mode question. */
+	static const hb_pkey optional[] = { HB_PK_SUP_OUTPUT_STATE, HB_PK_SUP_MODE, HB_PK_SUP_PROTECTION,
+					    HB_PK_SUP_CURRENT_QUERY };
+	for (size_t i = 0; i < sizeof optional / sizeof optional[0]; i++) {
+		if (!hb_profile_optional(s->in.profile, optional[i]))
+			continue;
+		rc = hb_instrument_probe(&s->in, optional[i], NULL, 0);
+		if (rc < 0)
+			return rc;
+	}
+	return HB_OK;
 }
 
 void hb_supply_close(hb_supply *s)
 {
 	if (!s)
 		return;
-	/* Whatever happened before, current must not keep flowing through
-	 * the part once we let go of the supply. */
-	if (s->in.scpi && s->in.profile) {
-		char err[64];
-		(void)hb_profile_send(s->in.scpi, s->in.profile, HB_PK_SUP_OUTPUT_OFF, NULL, 0, "output off", err,
-				      sizeof err);
-	}
+	/* Closing sends nothing: the sweep engine's state machine is the one
+	 * place that changes the supply, so it alone ramps down before the
+	 * output goes off. A blind OUTPUT OFF here would cut a current that may
+	 * still be flowing through an inductor. */
 	hb_instrument_release(&s->in);
 	free(s);
 }
@@ -59,7 +73,12 @@ hb_scpi *hb_supply_scpi(hb_supply *s)
 
 bool hb_supply_supports(const hb_supply *s, const char *operation)
 {
-	return s && hb_profile_supports(s->in.profile, HB_KIND_SUPPLY, operation);
+	return s && hb_instrument_supports(&s->in, HB_KIND_SUPPLY, operation);
+}
+
+bool hb_supply_answers_as_supply(const hb_supply *s)
+{
+	return s && s->in.profile && s->in.kind_confirmed;
 }
 
 static int usable(hb_supply *s)
@@ -95,6 +114,10 @@ int hb_supply_set_voltage_limit(hb_supply *s, double volts)
 	return hb_instrument_send(&s->in, HB_PK_SUP_VOLTAGE, &arg, 1, what);
 }
 
+/* Default read-back tolerance of a set-point, A: a supply rounds what it is
+ * sent to its own resolution (typically 1 mA or finer for bias sources). */
+#define SUPPLY_CURRENT_TOLERANCE 1e-3
+
 int hb_supply_set_current(hb_supply *s, double amps)
 {
 	int rc = usable(s);
@@ -105,7 +128,22 @@ int hb_supply_set_current(hb_supply *s, double amps)
 	char what[80];
 	snprintf(what, sizeof what, "set current to %g A", amps);
 	hb_parg arg = { .name = "amps", .real = amps };
-	return hb_instrument_send(&s->in, HB_PK_SUP_CURRENT, &arg, 1, what);
+	rc = hb_instrument_send(&s->in, HB_PK_SUP_CURRENT, &arg, 1, what);
+	if (rc < 0 || !hb_instrument_has(&s->in, HB_PK_SUP_CURRENT_QUERY))
+		return rc;
+	/* A set-point the supply did not take (a lost or mangled command) is
+	 * found here, not later as a current that does not match the plan. */
+	double held;
+	rc = hb_supply_query_current(s, &held);
+	if (rc < 0)
+		return rc;
+	double tol = hb_profile_number(s->in.profile, HB_PK_SUP_CURRENT_TOLERANCE, SUPPLY_CURRENT_TOLERANCE) +
+		     1e-3 * amps;
+	if (!(fabs(held - amps) <= tol))
+		return hb_instrument_fail(&s->in, HB_ERR_INSTRUMENT,
+					  "%s: the supply holds %g A (read back with '%s'), off by more than %g A", what,
+					  held, hb_profile_text(s->in.profile, HB_PK_SUP_CURRENT_QUERY), tol);
+	return HB_OK;
 }
 
 int hb_supply_output(hb_supply *s, bool on)
@@ -147,6 +185,7 @@ int hb_supply_measure_voltage(hb_supply *s, double *volts)
 static int ask_field(hb_supply *s, hb_pkey op, hb_pkey field_key, const char *what, char *field, size_t cap)
 {
 	char reply[256], err[HB_INSTRUMENT_ERRMSG_MAX];
+	/* One question only: the callers retry the question and its parsing together. */
 	int rc = hb_profile_ask(s->in.scpi, s->in.profile, op, what, reply, sizeof reply, err, sizeof err);
 	if (rc < 0)
 		return hb_instrument_fail(&s->in, rc, "%s", err);
@@ -207,16 +246,19 @@ static int mode_from_token(hb_supply *s, const char *field, hb_supply_mode *mode
 				  "mode: reply '%s' matches none of mode.cc, mode.cv, mode.off", field);
 }
 
-int hb_supply_get_mode(hb_supply *s, hb_supply_mode *mode)
+/* Read-only questions are asked once more after a drain when the reply was
+ * lost (time-out) or garbled (a reply that does not parse). */
+static bool worth_retry(int rc)
 {
-	int rc = usable(s);
-	if (rc < 0)
-		return rc;
-	if (!mode)
-		return hb_instrument_fail(&s->in, HB_ERR_ARG, "mode: no place for the value");
+	return rc == HB_ERR_TIMEOUT || rc == HB_ERR_PROTOCOL;
+}
+
+static int mode_once(hb_supply *s, hb_supply_mode *mode)
+{
+	int rc;
 	*mode = HB_SUPPLY_MODE_UNKNOWN;
 	char field[96];
-	if (hb_profile_has(s->in.profile, HB_PK_SUP_OUTPUT_STATE)) {
+	if (hb_instrument_has(&s->in, HB_PK_SUP_OUTPUT_STATE)) {
 		rc = ask_field(s, HB_PK_SUP_OUTPUT_STATE, HB_PK_SUP_OUTPUT_STATE_FIELD, "output state", field, sizeof field);
 		if (rc < 0)
 			return rc;
@@ -229,8 +271,8 @@ int hb_supply_get_mode(hb_supply *s, hb_supply_mode *mode)
 			return HB_OK;
 		}
 	}
-	if (!hb_profile_has(s->in.profile, HB_PK_SUP_MODE))
-		return HB_OK; /* the instrument does not report it */
+	if (!hb_instrument_has(&s->in, HB_PK_SUP_MODE))
+		return HB_OK; /* the instrument does not report it: the engine judges from V and I */
 	rc = ask_field(s, HB_PK_SUP_MODE, HB_PK_SUP_MODE_FIELD, "mode", field, sizeof field);
 	if (rc < 0)
 		return rc;
@@ -240,17 +282,22 @@ int hb_supply_get_mode(hb_supply *s, hb_supply_mode *mode)
 	return mode_from_bits(s, field, mode);
 }
 
-int hb_supply_protection(hb_supply *s, bool *tripped)
+int hb_supply_get_mode(hb_supply *s, hb_supply_mode *mode)
 {
 	int rc = usable(s);
 	if (rc < 0)
 		return rc;
-	if (!tripped)
-		return hb_instrument_fail(&s->in, HB_ERR_ARG, "protection: no place for the value");
-	if (!hb_profile_has(s->in.profile, HB_PK_SUP_PROTECTION))
-		return hb_instrument_fail(&s->in, HB_ERR_UNSUPPORTED,
-					  "protection: profile '%s' has no 'protection' operation",
-					  hb_profile_name(s->in.profile));
+	if (!mode)
+		return hb_instrument_fail(&s->in, HB_ERR_ARG, "mode: no place for the value");
+	rc = mode_once(s, mode);
+	if (worth_retry(rc) && hb_scpi_drain(s->in.scpi) == HB_OK)
+		rc = mode_once(s, mode);
+	return rc;
+}
+
+static int protection_once(hb_supply *s, bool *tripped)
+{
+	int rc;
 	char field[96];
 	rc = ask_field(s, HB_PK_SUP_PROTECTION, HB_PK_SUP_PROTECTION_FIELD, "protection", field, sizeof field);
 	if (rc < 0)
@@ -266,12 +313,41 @@ int hb_supply_protection(hb_supply *s, bool *tripped)
 	return HB_OK;
 }
 
+int hb_supply_protection(hb_supply *s, bool *tripped)
+{
+	int rc = usable(s);
+	if (rc < 0)
+		return rc;
+	if (!tripped)
+		return hb_instrument_fail(&s->in, HB_ERR_ARG, "protection: no place for the value");
+	if (!hb_instrument_has(&s->in, HB_PK_SUP_PROTECTION))
+		return hb_instrument_fail(&s->in, HB_ERR_UNSUPPORTED,
+					  "protection: profile '%s' has no 'protection' operation",
+					  hb_profile_name(s->in.profile));
+	rc = protection_once(s, tripped);
+	if (worth_retry(rc) && hb_scpi_drain(s->in.scpi) == HB_OK)
+		rc = protection_once(s, tripped);
+	return rc;
+}
+
 int hb_supply_errors(hb_supply *s, hb_scpi_error *list, size_t cap, size_t *count, bool *lost)
 {
 	int rc = usable(s);
 	if (rc < 0)
 		return rc;
 	return hb_instrument_errors(&s->in, list, cap, count, lost);
+}
+
+static int output_state_once(hb_supply *s, bool *on)
+{
+	char field[96];
+	int rc = ask_field(s, HB_PK_SUP_OUTPUT_STATE, HB_PK_SUP_OUTPUT_STATE_FIELD, "output state", field, sizeof field);
+	if (rc < 0)
+		return rc;
+	if (hb_profile_reply_bool(s->in.profile, HB_PK_SUP_STATE_ON, HB_PK_SUP_STATE_OFF, field, on) < 0)
+		return hb_instrument_fail(&s->in, HB_ERR_PROTOCOL, "output state: reply field '%s' is neither on nor off",
+					  field);
+	return HB_OK;
 }
 
 int hb_supply_output_state(hb_supply *s, bool *on)
@@ -281,18 +357,14 @@ int hb_supply_output_state(hb_supply *s, bool *on)
 		return rc;
 	if (!on)
 		return hb_instrument_fail(&s->in, HB_ERR_ARG, "output state: no place for the value");
-	if (!hb_profile_has(s->in.profile, HB_PK_SUP_OUTPUT_STATE))
+	if (!hb_instrument_has(&s->in, HB_PK_SUP_OUTPUT_STATE))
 		return hb_instrument_fail(&s->in, HB_ERR_UNSUPPORTED,
 					  "output state: profile '%s' has no 'output.state' operation",
 					  hb_profile_name(s->in.profile));
-	char field[96];
-	rc = ask_field(s, HB_PK_SUP_OUTPUT_STATE, HB_PK_SUP_OUTPUT_STATE_FIELD, "output state", field, sizeof field);
-	if (rc < 0)
-		return rc;
-	if (hb_profile_reply_bool(s->in.profile, HB_PK_SUP_STATE_ON, HB_PK_SUP_STATE_OFF, field, on) < 0)
-		return hb_instrument_fail(&s->in, HB_ERR_PROTOCOL, "output state: reply field '%s' is neither on nor off",
-					  field);
-	return HB_OK;
+	rc = output_state_once(s, on);
+	if (worth_retry(rc) && hb_scpi_drain(s->in.scpi) == HB_OK)
+		rc = output_state_once(s, on);
+	return rc;
 }
 
 int hb_supply_query_current(hb_supply *s, double *amps)
@@ -302,8 +374,12 @@ int hb_supply_query_current(hb_supply *s, double *amps)
 		return rc;
 	if (!amps)
 		return hb_instrument_fail(&s->in, HB_ERR_ARG, "current set-point: no place for the value");
-	/* The profile key current.query arrives with the profile work; until
-	 * then the engine falls back to the measured current. */
-	return hb_instrument_fail(&s->in, HB_ERR_UNSUPPORTED, "current set-point: profile '%s' cannot ask for it",
-				  hb_profile_name(s->in.profile));
+	if (!hb_instrument_has(&s->in, HB_PK_SUP_CURRENT_QUERY))
+		return hb_instrument_fail(&s->in, HB_ERR_UNSUPPORTED,
+					  hb_profile_has(s->in.profile, HB_PK_SUP_CURRENT_QUERY)
+						  ? "current set-point: the supply rejected profile '%s''s 'current.query' when probed at open"
+						  : "current set-point: profile '%s' has no 'current.query' operation",
+					  hb_profile_name(s->in.profile));
+	return hb_instrument_ask_number(&s->in, HB_PK_SUP_CURRENT_QUERY, HB_PK_SUP_CURRENT_QUERY_FIELD,
+					HB_PK_SUP_CURRENT_QUERY_SCALE, "current set-point", amps);
 }

@@ -15,8 +15,9 @@ static void usage(FILE *out)
 {
 	fprintf(out,
 		"usage: henrybench identify [--json] RESOURCE...\n\n"
-		"Asks each instrument for *IDN?, names the dialect profile henrybench would use\n"
-		"and its kind (lcr or supply), then empties and shows the instrument's error queue.\n\n"
+		"Asks each instrument for *IDN?, names the dialect profile henrybench would use,\n"
+		"its kind (lcr or supply) and the operations the profile provides, then empties and\n"
+		"shows the instrument's error queue.\n\n"
 		"resources:\n"
 		"  sim:lcr, sim:supply                 the built-in simulated bench\n"
 		"  tcp://HOST[:PORT]                   raw SCPI socket (port 5025 by default)\n"
@@ -139,6 +140,12 @@ static void print_text(const identity *id)
 		printf("  kind:        %s%s%s%s\n", id->kind, id->kind_note[0] ? " (" : "", id->kind_note,
 		       id->kind_note[0] ? ")" : "");
 		printf("  profile:     %s (%s)\n", hb_profile_name(id->profile), hb_profile_path(id->profile));
+		char has[512], lacks[512];
+		hb_profile_operations(id->profile, has, sizeof has, lacks, sizeof lacks);
+		printf("  operations:  %s\n", has);
+		printf("  lacks:       %s\n", lacks[0] ? lacks : "nothing");
+		if (strchr(has, '?'))
+			printf("               (? optional: probed at open, absent if the instrument rejects it)\n");
 	} else if (id->fallback[0]) {
 		printf("  kind:        %s\n", id->kind_note);
 		printf("  profiles:    %s (%s), %s (%s)\n", hb_profile_name(id->fallback[0]),
@@ -159,10 +166,28 @@ static void print_text(const identity *id)
 		printf("  failed:      %s\n", id->error);
 }
 
+/* A blank-separated list as a JSON array of strings. */
+static json_t *words_json(const char *list)
+{
+	json_t *a = json_array();
+	for (const char *s = list; a && *s;) {
+		while (*s == ' ')
+			s++;
+		const char *start = s;
+		while (*s && *s != ' ')
+			s++;
+		if (s > start)
+			json_array_append_new(a, json_stringn(start, (size_t)(s - start)));
+	}
+	return a;
+}
+
 static json_t *profile_json(const hb_profile *p)
 {
-	return json_pack("{s:s, s:s, s:s}", "name", hb_profile_name(p), "path", hb_profile_path(p), "kind",
-			 kind_name(hb_profile_kind(p)));
+	char has[512], lacks[512];
+	hb_profile_operations(p, has, sizeof has, lacks, sizeof lacks);
+	return json_pack("{s:s, s:s, s:s, s:o, s:o}", "name", hb_profile_name(p), "path", hb_profile_path(p), "kind",
+			 kind_name(hb_profile_kind(p)), "operations", words_json(has), "lacks", words_json(lacks));
 }
 
 static json_t *to_json(const identity *id)

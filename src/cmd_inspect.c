@@ -453,7 +453,7 @@ int hb_cmd_inspect(int argc, char **argv)
 	/* Judging needs the spec's own test conditions, and a sweep a little
 	 * past the saturation-spec current so L there is interpolated, not
 	 * extrapolated. */
-	hb_sweep_opts_apply(&a.opts, &station, &part, &a.plan);
+	hb_sweep_opts_apply_conditions(&a.opts, &part, &a.plan);
 	if (!a.to_given) {
 		double spec = isfinite(part.sat_current_a) && part.sat_current_a > 0 ? part.sat_current_a :
 			      isfinite(part.rated_current_a) && part.rated_current_a > 0 ? part.rated_current_a : NAN;
@@ -464,7 +464,17 @@ int hb_cmd_inspect(int argc, char **argv)
 		}
 		a.plan.to = 1.25 * spec;
 	}
-	rc = hb_sweep_plan_check(&a.plan, true, err, sizeof err);
+	/* The same resolution as a sweep: the command line may only tighten,
+	 * and a refusal names where a cap comes from. */
+	hb_limit_report limits;
+	rc = hb_sweep_opts_resolve(&a.opts, &station, &part, &a.plan, &limits, err, sizeof err);
+	if (rc == HB_ERR_ARG) {
+		hb_cli_error("inspect: %s", err);
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	}
+	if (rc == HB_OK)
+		rc = hb_sweep_plan_check(&a.plan, true, err, sizeof err);
 	if (rc != HB_OK) {
 		hb_cli_error("refusing to start: %s", err);
 		exit_code = HB_EXIT_USAGE;
@@ -481,6 +491,10 @@ int hb_cmd_inspect(int argc, char **argv)
 	rc = hb_sweep_opts_open_bench(info, a.lcr, a.supply, &lcr, &supply);
 	if (rc != HB_EXIT_OK) {
 		exit_code = rc;
+		goto out;
+	}
+	if (hb_sweep_opts_check_meter(lcr, &a.plan) != HB_OK) {
+		exit_code = HB_EXIT_USAGE;
 		goto out;
 	}
 	fprintf(info, "part %s, lot %s: each unit swept 0 to %.4g A in %d points at %s\n", part.part_number, a.lot,

@@ -44,6 +44,8 @@ static void sweep_usage(FILE *out)
 		"  --stop-below PCT    stop once L falls under this share of its first value\n"
 		"  --max-current A --max-voltage V --max-power W   hard limits (also from the station file)\n"
 		"  --ramp A/s          fastest current change between steps (default 5 A/s)\n"
+		"  --off-threshold A   the output goes off only below this current (default 20 mA)\n"
+		"                      limits may only tighten the station file's and the part's\n"
 		"  --lot CODE          record the unit as a member of this lot\n"
 		"  --ambient C         ambient temperature to record, degC\n"
 		"  --note TEXT         free text stored with the sweep\n"
@@ -65,7 +67,7 @@ static void fsweep_usage(FILE *out)
 		"  --level V|A         test level\n"
 		"  --circuit, --pair, --avg, --aperture, --settle, --note, --lot, --ambient, --json, --dry-run, --yes\n"
 		"  --bias A --supply RES   hold a DC bias during the sweep (limits then apply as for sweep)\n"
-		"  --max-current A --max-voltage V --max-power W --ramp A/s\n");
+		"  --max-current A --max-voltage V --max-power W --ramp A/s --off-threshold A\n");
 }
 
 enum {
@@ -263,10 +265,10 @@ static int parse_args(int argc, char **argv, bool fsweep, sweep_args *a)
 	return HB_OK;
 }
 
-static void print_plan(FILE *out, const sweep_args *a, const hb_db_part *part, const hb_station *st)
+static void print_plan(FILE *out, const sweep_args *a, const hb_db_part *part, const hb_station *st,
+		       const hb_limit_report *limits)
 {
 	const hb_sweep_plan *p = &a->plan;
-	const hb_sweep_limits *lim = &p->limits;
 	char buf[48], level[48];
 	if (p->kind == HB_SWEEP_BIAS) {
 		double *v = NULL;
@@ -295,8 +297,9 @@ static void print_plan(FILE *out, const sweep_args *a, const hb_db_part *part, c
 		}
 	}
 	double top = p->kind == HB_SWEEP_BIAS ? p->to : p->bias;
-	fprintf(out, "limits: current %.4g A, voltage %.4g V, power %.4g W, ramp %.4g A/s (station file: %s)\n",
-		lim->max_current, lim->max_voltage, lim->max_power, lim->ramp_rate, st->path[0] ? st->path : "none");
+	hb_sweep_opts_print_limits(out, limits);
+	fprintf(out, "station file: %s%s\n", st->path[0] ? st->path : "none",
+		st->lock_limits ? " (lock_limits = yes: the command line may not change the limits)" : "");
 	if (isfinite(part->nominal_h) && top > 0)
 		fprintf(out, "stored energy at %.4g A: about %.3g J (1/2 L I^2 with the nominal %s)\n", top,
 			0.5 * part->nominal_h * top * top, hb_format_si(buf, sizeof buf, part->nominal_h, "H", 4));
@@ -358,8 +361,16 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 		exit_code = rc;
 		goto out;
 	}
-	hb_sweep_opts_apply(&a.opts, &station, &part, &a.plan);
-	rc = hb_sweep_plan_check(&a.plan, a.supply != NULL, err, sizeof err);
+	hb_sweep_opts_apply_conditions(&a.opts, &part, &a.plan);
+	hb_limit_report limits;
+	rc = hb_sweep_opts_resolve(&a.opts, &station, &part, &a.plan, &limits, err, sizeof err);
+	if (rc == HB_ERR_ARG) {
+		hb_cli_error("%s", err);
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	}
+	if (rc == HB_OK)
+		rc = hb_sweep_plan_check(&a.plan, a.supply != NULL, err, sizeof err);
 	if (rc != HB_OK) {
 		hb_cli_error("refusing to start: %s", err);
 		exit_code = HB_EXIT_USAGE;
@@ -367,7 +378,7 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 	}
 	FILE *info = a.json ? stderr : stdout;
 	if (a.dry_run) {
-		print_plan(stdout, &a, &part, &station);
+		print_plan(stdout, &a, &part, &station, &limits);
 		fprintf(stdout, "dry run: no instrument was opened and nothing was stored\n");
 		exit_code = HB_EXIT_OK;
 		goto out;
@@ -384,6 +395,10 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 				      &supply);
 	if (rc != HB_EXIT_OK) {
 		exit_code = rc;
+		goto out;
+	}
+	if (hb_sweep_opts_check_meter(lcr, &a.plan) != HB_OK) {
+		exit_code = HB_EXIT_USAGE;
 		goto out;
 	}
 	if (supply) {

@@ -23,7 +23,10 @@ void hb_station_defaults(hb_station *s)
 	s->max_power = NAN;
 	s->confirm_above = NAN;
 	s->ramp_rate = NAN;
-	s->part_overdrive = 2.0;
+	s->off_threshold = NAN;
+	s->part_overdrive = HB_STATION_PART_OVERDRIVE;
+	s->part_overdrive_set = false;
+	s->lock_limits = false;
 }
 
 typedef struct parse_ctx {
@@ -85,10 +88,28 @@ static int on_entry(void *user, const char *section, const char *name, const cha
 			return set_limit(c, value, "A", &s->confirm_above, line, name);
 		if (strcmp(name, "ramp_rate") == 0)
 			return set_limit(c, value, "A/s", &s->ramp_rate, line, name);
-		if (strcmp(name, "part_overdrive") == 0)
+		if (strcmp(name, "off_threshold") == 0)
+			return set_limit(c, value, "A", &s->off_threshold, line, name);
+		if (strcmp(name, "part_overdrive") == 0) {
+			s->part_overdrive_set = true;
 			return set_limit(c, value, "", &s->part_overdrive, line, name);
+		}
+		if (strcmp(name, "lock_limits") == 0) {
+			if (strcmp(value, "yes") == 0 || strcmp(value, "true") == 0) {
+				s->lock_limits = true;
+				return 1;
+			}
+			if (strcmp(value, "no") == 0 || strcmp(value, "false") == 0) {
+				s->lock_limits = false;
+				return 1;
+			}
+			snprintf(c->err, c->errlen, "%s:%d: key 'lock_limits': '%s' is not yes or no", s->path, line,
+				 value);
+			c->failed = 1;
+			return 0;
+		}
 	}
-	snprintf(c->err, c->errlen, "%s:%d: unknown key '%s' in section [%s] (known: [station] name, operator; [limits] max_current, max_voltage, max_power, confirm_above, ramp_rate, part_overdrive)",
+	snprintf(c->err, c->errlen, "%s:%d: unknown key '%s' in section [%s] (known: [station] name, operator; [limits] max_current, max_voltage, max_power, confirm_above, ramp_rate, off_threshold, part_overdrive, lock_limits)",
 		 s->path, line, name, section);
 	c->failed = 1;
 	return 0;

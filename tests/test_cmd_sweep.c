@@ -23,6 +23,8 @@
 
 #include <jansson.h>
 
+#include "src/sweep_opts.h"
+
 /* Only to stop a broken test from hanging; never a pass/fail criterion. */
 #define HANG_GUARD_S 60
 
@@ -614,10 +616,12 @@ static void test_meter_timeout_mid_sweep(void **state)
 {
 	(void)state;
 	sim_server sim;
-	/* Every 35th meter reply is lost: the first lost one is a reading a few
-	 * points into the sweep, after the noise has been learnt from 24
-	 * readings at the first point. */
-	sim_start(&sim, "--fault-lcr", "drop=35", NULL);
+	/* Every 35th meter reply is lost, and every 36th garbled: the first
+	 * lost one is a reading a few points into the sweep (after the noise
+	 * has been learnt from 24 readings at the first point), and the reading
+	 * asked for again after the drain is the garbled one. Two failures in
+	 * a row end it. */
+	sim_start(&sim, "--fault-lcr", "drop=35,garble=36", NULL);
 	char lcr[200];
 	snprintf(lcr, sizeof lcr, "%s?timeout=300", sim.lcr);
 	run r;
@@ -626,17 +630,45 @@ static void test_meter_timeout_mid_sweep(void **state)
 	sim_stop(&sim);
 	assert_int_equal(r.status, 1);
 	assert_non_null(strstr(sim.log, "lcr fault drop"));
+	assert_non_null(strstr(sim.log, "lcr fault garble"));
+	/* the retry was a second IMP:READ? right after the lost one */
+	const char *drop = strstr(sim.log, "lcr fault drop");
+	const char *next = strstr(drop, "lcr cmd ");
+	assert_non_null(next);
+	assert_int_equal(strncmp(next, "lcr cmd IMP:READ?", 17), 0);
 	double down[64];
 	int n = assert_shut_down_in_order(sim.log, down, 64);
 	assert_true(down[n - 1] == 0);
 	assert_true(strstr(sim.log, "lcr fault drop") < after_last(sim.log, "supply output OFF"));
 	json_t *sw = show_only_sweep();
 	assert_string_equal(jstr(sw, "status"), "failed");
-	assert_true(contains_nocase(jstr(sw, "status_reason"), "no reply within 300 ms"));
 	size_t pts = json_array_size(json_object_get(sw, "data"));
 	assert_true(pts >= 1 && pts < 11);
 	json_decref(sw);
 	assert_false(contains_nocase(r.err, "current may still be flowing"));
+	run_free(&r);
+	sim_free(&sim);
+}
+
+static void test_one_lost_reading_is_asked_again(void **state)
+{
+	(void)state;
+	sim_server sim;
+	/* Every 20th meter reply lost, never two in a row: each is asked for
+	 * once more after a drain, and the sweep completes. */
+	sim_start(&sim, "--fault-lcr", "drop=20", NULL);
+	char lcr[200];
+	snprintf(lcr, sizeof lcr, "%s?timeout=300", sim.lcr);
+	run r;
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "T-2", "--lcr", lcr,
+	       "--supply", sim.supply, "--to", "4", "--steps", "11", "--settle", "5ms", "--yes", "--no-fit", NULL);
+	sim_stop(&sim);
+	assert_int_equal(r.status, 0);
+	assert_non_null(strstr(sim.log, "lcr fault drop"));
+	json_t *sw = show_only_sweep();
+	assert_string_equal(jstr(sw, "status"), "complete");
+	assert_int_equal(json_array_size(json_object_get(sw, "data")), 11);
+	json_decref(sw);
 	run_free(&r);
 	sim_free(&sim);
 }
@@ -723,7 +755,10 @@ static void test_dry_run_touches_nothing(void **state)
 	       "--dry-run", NULL);
 	assert_int_equal(r.status, 0);
 	assert_non_null(strstr(r.out, "plan: 13 points"));
-	assert_non_null(strstr(r.out, "limits: current 5 A"));
+	/* each limit with its source (station_limits sets them) */
+	assert_non_null(strstr(r.out, "current        5 A        the station file's max_current"));
+	assert_non_null(strstr(r.out, "ramp           50 A/s     the station file's ramp_rate"));
+	assert_non_null(strstr(r.out, "off threshold  0.02 A     default"));
 	assert_non_null(strstr(r.out, "dry run"));
 	run_free(&r);
 	hb_run(&r, station_limits, "--db", db_path, "sweeps", "--json", NULL);
@@ -764,6 +799,301 @@ static void test_bad_input_is_usage_error(void **state)
 	run_free(&r);
 }
 
+
+/* ------------------------------------------------------------------ */
+/* limit resolution (hb_sweep_opts_resolve, in-process)               */
+
+/* The demo part HBX-108G as README.md adds it: rated 3 A, saturation-spec 3.2 A. */
+static void demo_part(hb_db_part *part)
+{
+	hb_db_part_init(part);
+	part->rated_current_a = 3.0;
+	part->sat_current_a = 3.2;
+}
+
+/* A station with every limit set; path names it in messages. */
+static void limits_station(hb_station *st)
+{
+	hb_station_defaults(st);
+	snprintf(st->path, sizeof st->path, "station.ini");
+	st->max_current = 10;
+	st->max_voltage = 5;
+	st->max_power = 50;
+	st->ramp_rate = 5;
+	st->off_threshold = 0.01;
+}
+
+static int resolve(const hb_sweep_opts *o, const hb_station *st, const hb_db_part *part, double to,
+		   hb_sweep_plan *plan, hb_limit_report *rep, char *err, size_t errlen)
+{
+	hb_sweep_plan_defaults(plan);
+	plan->kind = HB_SWEEP_BIAS;
+	plan->from = 0;
+	plan->to = to;
+	return hb_sweep_opts_resolve(o, st, part, plan, rep, err, errlen);
+}
+
+static void test_limits_station_binds_command_line(void **state)
+{
+	(void)state;
+	hb_station st;
+	limits_station(&st);
+	hb_db_part part;
+	demo_part(&part);
+	hb_sweep_opts o;
+	hb_sweep_plan plan;
+	hb_limit_report rep;
+	char err[400];
+
+	/* the station file alone */
+	hb_sweep_opts_init(&o);
+	assert_int_equal(resolve(&o, &st, &part, 4, &plan, &rep, err, sizeof err), HB_OK);
+	assert_true(plan.limits.ramp_rate == 5);
+	assert_non_null(strstr(rep.limit[HB_LIMIT_RAMP].source, "station file's ramp_rate (station.ini)"));
+	assert_true(rep.limit[HB_LIMIT_OFF_THRESHOLD].value == 0.01);
+
+	/* the command line tightens each of them */
+	o.ramp = 2;
+	o.max_voltage = 3;
+	o.max_power = 20;
+	o.off_threshold = 0.005;
+	assert_int_equal(resolve(&o, &st, &part, 4, &plan, &rep, err, sizeof err), HB_OK);
+	assert_true(plan.limits.ramp_rate == 2 && plan.limits.max_voltage == 3 && plan.limits.max_power == 20);
+	assert_true(rep.limit[HB_LIMIT_OFF_THRESHOLD].value == 0.005);
+	assert_non_null(strstr(rep.limit[HB_LIMIT_RAMP].source, "--ramp"));
+
+	/* and may not loosen any: the brief's own example, --ramp 1000 against 5 A/s */
+	static const struct {
+		int id;
+		double value;
+		const char *says;
+	} loose[] = {
+		{ HB_LIMIT_RAMP, 1000, "--ramp 1000 A/s is looser than the station file's ramp_rate 5 A/s (station.ini)" },
+		{ HB_LIMIT_VOLTAGE, 6, "--max-voltage 6 V is looser than the station file's max_voltage 5 V" },
+		{ HB_LIMIT_POWER, 51, "--max-power 51 W is looser than the station file's max_power 50 W" },
+		{ HB_LIMIT_OFF_THRESHOLD, 0.05, "--off-threshold 0.05 A is looser than the station file's off_threshold 0.01 A" },
+	};
+	for (size_t i = 0; i < sizeof loose / sizeof loose[0]; i++) {
+		hb_sweep_opts_init(&o);
+		double *field[] = { &o.max_current, &o.max_voltage, &o.max_power, &o.ramp, &o.off_threshold };
+		*field[loose[i].id] = loose[i].value;
+		assert_int_equal(resolve(&o, &st, &part, 4, &plan, &rep, err, sizeof err), HB_ERR_ARG);
+		if (!strstr(err, loose[i].says))
+			fail_msg("got '%s', expected it to contain '%s'", err, loose[i].says);
+		assert_non_null(strstr(err, "the command line may only tighten limits"));
+		assert_null(strchr(err, '\n'));
+		/* even refused, the plan never holds the looser value */
+		assert_true(rep.limit[loose[i].id].value < loose[i].value);
+	}
+	assert_true(plan.limits.max_power == 50);
+}
+
+static void test_limits_part_cap(void **state)
+{
+	(void)state;
+	hb_station st;
+	limits_station(&st);
+	hb_db_part part;
+	demo_part(&part);
+	hb_sweep_opts o;
+	hb_sweep_opts_init(&o);
+	hb_sweep_plan plan;
+	hb_limit_report rep;
+	char err[400];
+
+	/* the part tightens the station's 10 A: 2.5 x 3.2 A (default part_overdrive) */
+	assert_int_equal(resolve(&o, &st, &part, 8, &plan, &rep, err, sizeof err), HB_OK);
+	assert_true(fabs(plan.limits.max_current - 8) < 1e-9);
+	assert_non_null(strstr(rep.limit[HB_LIMIT_CURRENT].source,
+			       "2.5 x the part's saturation-spec current 3.2 A (default part_overdrive"));
+
+	/* the station's part_overdrive tightens it to 6.4 A; the refusal of an
+	 * 8 A sweep names the derived cap and the key that changes it */
+	st.part_overdrive = 2;
+	st.part_overdrive_set = true;
+	assert_int_equal(resolve(&o, &st, &part, 8, &plan, &rep, err, sizeof err), HB_ERR_LIMIT);
+	assert_non_null(strstr(err, "top current 8 A exceeds the current limit 6.4 A: the part cap = 2 x the part's "
+				    "saturation-spec current 3.2 A (station part_overdrive, station.ini)"));
+
+	/* a station limit below the part cap binds instead */
+	st.max_current = 4;
+	assert_int_equal(resolve(&o, &st, &part, 4, &plan, &rep, err, sizeof err), HB_OK);
+	assert_true(plan.limits.max_current == 4);
+	assert_non_null(strstr(rep.limit[HB_LIMIT_CURRENT].source, "station file's max_current"));
+	st.max_current = 10;
+
+	/* the command line tightens the part cap, never loosens it */
+	o.max_current = 5;
+	assert_int_equal(resolve(&o, &st, &part, 4, &plan, &rep, err, sizeof err), HB_OK);
+	assert_true(plan.limits.max_current == 5);
+	o.max_current = 7;
+	assert_int_equal(resolve(&o, &st, &part, 4, &plan, &rep, err, sizeof err), HB_ERR_ARG);
+	assert_non_null(strstr(err, "--max-current 7 A is looser than the part cap 6.4 A = 2 x the part's "
+				    "saturation-spec current 3.2 A"));
+	assert_true(fabs(plan.limits.max_current - 6.4) < 1e-9);
+
+	/* a part with only a rated current names that rating */
+	part.sat_current_a = NAN;
+	hb_sweep_opts_init(&o);
+	assert_int_equal(resolve(&o, &st, &part, 4, &plan, &rep, err, sizeof err), HB_OK);
+	assert_non_null(strstr(rep.limit[HB_LIMIT_CURRENT].source, "2 x the part's rated current 3 A"));
+}
+
+static void test_limits_defaults_and_lock(void **state)
+{
+	(void)state;
+	hb_station st;
+	hb_station_defaults(&st);
+	hb_db_part part;
+	hb_db_part_init(&part); /* no ratings: no part cap */
+	hb_sweep_opts o;
+	hb_sweep_opts_init(&o);
+	hb_sweep_plan plan;
+	hb_limit_report rep;
+	char err[400];
+	/* nothing set: ramp and off threshold fall back to their defaults (5 A/s
+	 * from hb_sweep_plan_defaults, 20 mA), the rest stays unset */
+	assert_int_equal(resolve(&o, &st, &part, 1, &plan, &rep, err, sizeof err), HB_OK);
+	assert_true(isnan(plan.limits.max_current));
+	assert_true(plan.limits.ramp_rate == 5);
+	assert_true(rep.limit[HB_LIMIT_OFF_THRESHOLD].value == 0.02);
+	assert_non_null(strstr(rep.limit[HB_LIMIT_OFF_THRESHOLD].source, "--off-threshold or off_threshold"));
+	/* defaults do not bind: the command line may choose a faster ramp */
+	o.ramp = 10;
+	assert_int_equal(resolve(&o, &st, &part, 1, &plan, &rep, err, sizeof err), HB_OK);
+	assert_true(plan.limits.ramp_rate == 10);
+
+	/* lock_limits: not even a tighter value is taken */
+	st.lock_limits = true;
+	st.ramp_rate = 5;
+	snprintf(st.path, sizeof st.path, "station.ini");
+	o.ramp = 2;
+	assert_int_equal(resolve(&o, &st, &part, 1, &plan, &rep, err, sizeof err), HB_ERR_ARG);
+	assert_non_null(strstr(err, "--ramp 2 A/s: the station file station.ini sets lock_limits = yes"));
+	assert_true(plan.limits.ramp_rate == 5);
+}
+
+static void test_station_file_limit_keys(void **state)
+{
+	(void)state;
+	char path[400], err[400];
+	snprintf(path, sizeof path, "%s/keys.ini", tmpdir);
+	write_file(path, "[limits]\noff_threshold = 15mA\npart_overdrive = 2\nlock_limits = yes\n");
+	setenv("HENRYBENCH_STATION", path, 1);
+	hb_station st;
+	assert_int_equal(hb_station_load(&st, err, sizeof err), HB_OK);
+	assert_true(fabs(st.off_threshold - 0.015) < 1e-12);
+	assert_true(st.part_overdrive == 2 && st.part_overdrive_set);
+	assert_true(st.lock_limits);
+	write_file(path, "[limits]\nlock_limits = maybe\n");
+	assert_int_equal(hb_station_load(&st, err, sizeof err), HB_ERR_ARG);
+	assert_non_null(strstr(err, "'maybe' is not yes or no"));
+	unsetenv("HENRYBENCH_STATION");
+}
+
+static void test_looser_command_line_refused_end_to_end(void **state)
+{
+	(void)state;
+	run r;
+	/* station_limits has ramp_rate = 50; nothing listens on port 1, so
+	 * anything opened would fail with exit 1, not 2 */
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "R-1", "--lcr",
+	       "tcp://127.0.0.1:1", "--supply", "tcp://127.0.0.1:1", "--to", "2", "--ramp", "1000", "--yes", NULL);
+	assert_int_equal(r.status, 2);
+	assert_int_equal(count_lines(r.err), 1);
+	assert_non_null(strstr(r.err, "--ramp 1000 A/s is looser than the station file's ramp_rate 50 A/s"));
+	run_free(&r);
+}
+
+static void test_swapped_instruments_refused(void **state)
+{
+	(void)state;
+	sim_server sim;
+	sim_start(&sim, NULL);
+	run r;
+	/* The simulated instruments answer *IDN? as SIM-LCR1 and SIM-DCS1
+	 * (drivers/sim/sim_scpi.c), claimed by generic-lcr and generic-supply. */
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "W-1", "--lcr", sim.supply,
+	       "--supply", sim.lcr, "--to", "1", "--yes", NULL);
+	assert_int_equal(r.status, 2);
+	assert_int_equal(count_lines(r.err), 1);
+	assert_non_null(strstr(r.err, "SIM-DCS1"));
+	assert_non_null(strstr(r.err, "is a supply, not a meter"));
+	assert_non_null(strstr(r.err, "SIM-LCR1"));
+	assert_non_null(strstr(r.err, "is a meter, not a supply"));
+	assert_non_null(strstr(r.err, "swap"));
+	run_free(&r);
+	/* only the supply on --lcr: still refused, both named */
+	hb_run(&r, station_limits, "--db", db_path, "fsweep", "--part", "P-CLI", "--unit", "W-1", "--lcr", sim.supply,
+	       "--from", "1kHz", "--to", "10kHz", "--points", "3", NULL);
+	assert_int_equal(r.status, 2);
+	assert_non_null(strstr(r.err, "is a supply, not a meter"));
+	run_free(&r);
+	sim_stop(&sim);
+	/* nothing was switched or set, and no sweep was stored */
+	assert_null(strstr(sim.log, "OUTP ON"));
+	assert_null(strstr(sim.log, "IMP:"));
+	assert_null(strstr(sim.log, "SOUR:"));
+	hb_run(&r, station_limits, "--db", db_path, "sweeps", "--json", NULL);
+	json_t *list = json_loads(r.out, 0, NULL);
+	assert_non_null(list);
+	assert_int_equal(json_array_size(list), 0);
+	json_decref(list);
+	run_free(&r);
+	sim_free(&sim);
+}
+
+/* A meter profile without averaging and aperture, and one that measures
+ * only parallel L-R: a sweep asking for what they cannot do is refused
+ * before anything is switched on, and nothing is stored as applied. */
+static void test_unsupported_meter_settings_refused(void **state)
+{
+	(void)state;
+	char bare[400], fixed[400];
+	snprintf(bare, sizeof bare, "%s/bare-lcr.ini", tmpdir);
+	write_file(bare, "[profile]\nname = bare-lcr\nkind = lcr\n[lcr]\nfrequency = IMP:FREQ {hz:real}\n"
+			 "level.voltage = IMP:LEV:VOLT {volts:real}\nfunction = IMP:FUNC {equiv:enum},{pair:enum}\n"
+			 "equiv.series = SER\nequiv.parallel = PAR\npair.lr = LR\nmeasure = IMP:READ?\n"
+			 "measure.fields = 3\nmeasure.status = 3\nmeasure.status.overload = 1\n");
+	snprintf(fixed, sizeof fixed, "%s/fixed-lcr.ini", tmpdir);
+	write_file(fixed, "[profile]\nname = fixed-lcr\nkind = lcr\n[lcr]\nfrequency = IMP:FREQ {hz:real}\n"
+			  "level.voltage = IMP:LEV:VOLT {volts:real}\nfunction.fixed = lp-rp\nmeasure = IMP:READ?\n"
+			  "measure.fields = 3\nmeasure.status = 3\n");
+	sim_server sim;
+	sim_start(&sim, NULL);
+	char lcr[800];
+	run r;
+	snprintf(lcr, sizeof lcr, "%s?profile=%s", sim.lcr, bare);
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "U-1", "--lcr", lcr,
+	       "--supply", sim.supply, "--to", "1", "--avg", "8", "--aperture", "long", "--yes", NULL);
+	assert_int_equal(r.status, 2);
+	assert_int_equal(count_lines(r.err), 1);
+	assert_non_null(strstr(r.err, "--avg 8: the meter's profile 'bare-lcr' has no 'averaging' operation"));
+	run_free(&r);
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "U-1", "--lcr", lcr,
+	       "--supply", sim.supply, "--to", "1", "--aperture", "long", "--yes", NULL);
+	assert_int_equal(r.status, 2);
+	assert_non_null(strstr(r.err, "--aperture long: the meter's profile 'bare-lcr' cannot select it"));
+	run_free(&r);
+	snprintf(lcr, sizeof lcr, "%s?profile=%s", sim.lcr, fixed);
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "U-1", "--lcr", lcr,
+	       "--supply", sim.supply, "--to", "1", "--yes", NULL);
+	assert_int_equal(r.status, 2);
+	assert_non_null(strstr(r.err, "--circuit series --pair LR: the meter's profile 'fixed-lcr' cannot measure it"));
+	run_free(&r);
+	sim_stop(&sim);
+	assert_null(strstr(sim.log, "OUTP ON"));
+	assert_null(strstr(sim.log, "IMP:AVER"));
+	assert_null(strstr(sim.log, "IMP:APER"));
+	hb_run(&r, station_limits, "--db", db_path, "sweeps", "--json", NULL);
+	json_t *list = json_loads(r.out, 0, NULL);
+	assert_non_null(list);
+	assert_int_equal(json_array_size(list), 0);
+	json_decref(list);
+	run_free(&r);
+	sim_free(&sim);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -771,11 +1101,19 @@ int main(void)
 		cmocka_unit_test_setup_teardown(test_compliance_stop, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_limit_refusals_switch_nothing_on, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_meter_timeout_mid_sweep, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_one_lost_reading_is_asked_again, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_lost_supply_link_is_loud, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_json_summary_of_complete_sweep, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_fsweep_without_supply, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_dry_run_touches_nothing, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_bad_input_is_usage_error, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_swapped_instruments_refused, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_unsupported_meter_settings_refused, store_setup, store_teardown),
+		cmocka_unit_test(test_limits_station_binds_command_line),
+		cmocka_unit_test(test_limits_part_cap),
+		cmocka_unit_test(test_limits_defaults_and_lock),
+		cmocka_unit_test(test_station_file_limit_keys),
+		cmocka_unit_test_setup_teardown(test_looser_command_line_refused_end_to_end, store_setup, store_teardown),
 	};
 	return cmocka_run_group_tests(tests, group_setup, group_teardown);
 }

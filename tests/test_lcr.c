@@ -293,8 +293,15 @@ static void test_other_dialect(void **state)
 		{ "ACQ:SINGLE?", PEER_REPLY, "OK,+123.5,45.25\n", 0, 0 },
 		{ "ACQ:SINGLE?", PEER_REPLY, "LOWSIG,1.0,2.0\n", 0, 0 },
 		{ "ACQ:SINGLE?", PEER_REPLY, "OVER,9.9E37,9.9E37\n", 0, 0 },
+		/* a garbled reading is asked for once more: the second one counts */
+		{ "ACQ:SINGLE?", PEER_REPLY, "OK,abc,1\n", 0, 0 },
+		{ "ACQ:SINGLE?", PEER_REPLY, "OK,+100.0,40.0\n", 0, 0 },
+		/* two garbled in a row still fail, naming the second */
+		{ "ACQ:SINGLE?", PEER_REPLY, "OK,abc,1\n", 0, 0 },
 		{ "ACQ:SINGLE?", PEER_REPLY, "OK,abc,1\n", 0, 0 },
 		{ "ACQ:SINGLE?", PEER_REPLY, "OK,1\n", 0, 0 },
+		{ "ACQ:SINGLE?", PEER_REPLY, "OK,1\n", 0, 0 },
+		{ "ACQ:SINGLE?", PEER_REPLY, "HUH,1,2\n", 0, 0 },
 		{ "ACQ:SINGLE?", PEER_REPLY, "HUH,1,2\n", 0, 0 },
 		/* a bad value: the meter queues an error, the driver names the operation */
 		{ "SIGNAL:AMPL 5", PEER_SILENT, NULL, 0, 0 },
@@ -323,6 +330,8 @@ static void test_other_dialect(void **state)
 	assert_true(r.overload);
 	assert_true(isnan(r.primary) && isnan(r.secondary));
 
+	assert_int_equal(hb_lcr_measure(lcr, &r), HB_OK);
+	assert_true(fabs(r.primary - 100e-6) < 1e-12);
 	assert_int_equal(hb_lcr_measure(lcr, &r), HB_ERR_PROTOCOL);
 	assert_non_null(strstr(hb_lcr_errmsg(lcr), "field 2"));
 	assert_int_equal(hb_lcr_measure(lcr, &r), HB_ERR_PROTOCOL);
@@ -341,11 +350,20 @@ static void test_overload_generic(void **state)
 	static const peer_step steps[] = {
 		{ "*IDN?", PEER_REPLY, "Nobody,Box,1,1\n", 0, 0 },
 		{ "*CLS", PEER_SILENT, NULL, 0, 0 },
+		/* generic-lcr lists these as optional: each is probed at open */
+		{ "IMP:FUNC SER,LR", PEER_SILENT, NULL, 0, 0 },
+		{ "SYST:ERR?", PEER_REPLY, OK_ERR, 0, 0 },
+		{ "IMP:AVER 1", PEER_SILENT, NULL, 0, 0 },
+		{ "SYST:ERR?", PEER_REPLY, OK_ERR, 0, 0 },
+		{ "IMP:APER MED", PEER_SILENT, NULL, 0, 0 },
+		{ "SYST:ERR?", PEER_REPLY, OK_ERR, 0, 0 },
 		{ "IMP:READ?", PEER_REPLY, "9.9E37,9.9E37,1\n", 0, 0 },
 		/* status 1 alone marks overload even with plausible numbers */
 		{ "IMP:READ?", PEER_REPLY, "1.0E-4,2.0,1\n", 0, 0 },
 		{ "IMP:READ?", PEER_REPLY, "1.0E-4,2.0,0\n", 0, 0 },
 		{ "IMP:DCR?", PEER_REPLY, "9.91E37\n", 0, 0 },
+		/* lost twice: the retry after a drain does not help */
+		{ "IMP:READ?", PEER_SILENT, NULL, 0, 0 },
 		{ "IMP:READ?", PEER_SILENT, NULL, 0, 0 },
 	};
 	peer p;
@@ -385,6 +403,100 @@ static void test_open_failures(void **state)
 	peer_finish(&p);
 }
 
+/* What the meter can be asked for, decided before anything is sent. The
+ * simulated meter speaks generic-lcr, which has every setting
+ * (drivers/profiles/generic-lcr.ini). */
+static void test_can_generic(void **state)
+{
+	(void)state;
+	clear_faults();
+	hb_lcr *lcr = open_sim("sim:lcr");
+	assert_true(hb_lcr_can(lcr, "averaging=8"));
+	assert_true(hb_lcr_can(lcr, "aperture=long"));
+	assert_true(hb_lcr_can(lcr, "function=parallel-lq"));
+	assert_true(hb_lcr_can(lcr, "level.current"));
+	assert_false(hb_lcr_can(lcr, "function=series-xx"));
+	assert_false(hb_lcr_can(lcr, "aperture=slow"));
+	assert_false(hb_lcr_can(lcr, "averaging=0"));
+	assert_false(hb_lcr_can(NULL, "averaging=1"));
+	hb_lcr_close(lcr);
+}
+
+/* A meter that always measures series L-R (function.fixed = ls-rs) and has
+ * neither averaging nor aperture: asking for what it does sends nothing
+ * and succeeds; asking for anything else is refused. */
+static void test_fixed_function_meter(void **state)
+{
+	(void)state;
+	char dir[] = "/tmp/hb-lcr-XXXXXX";
+	assert_non_null(mkdtemp(dir));
+	char path[sizeof dir + 32];
+	snprintf(path, sizeof path, "%s/fixed.ini", dir);
+	FILE *f = fopen(path, "w");
+	assert_non_null(f);
+	fputs("[profile]\nname = fixed\nkind = lcr\ncheck.errors = no\n[lcr]\nfrequency = F {hz:real}\n"
+	      "function.fixed = ls-rs\nmeasure = M?\n",
+	      f);
+	fclose(f);
+	static const peer_step steps[] = {
+		{ "*IDN?", PEER_REPLY, "Nobody,Fixed bridge,1,1\n", 0, 0 },
+		{ "*CLS", PEER_SILENT, NULL, 0, 0 },
+		/* set_function and set_averaging send nothing; the next line is the reading */
+		{ "M?", PEER_REPLY, "1.0E-4,0.05\n", 0, 0 },
+	};
+	peer p;
+	hb_lcr *lcr = open_peer(&p, steps, sizeof steps / sizeof steps[0], path);
+	assert_true(hb_lcr_can(lcr, "function=series-lr"));
+	assert_false(hb_lcr_can(lcr, "function=parallel-lr"));
+	assert_false(hb_lcr_can(lcr, "function=series-lq"));
+	assert_true(hb_lcr_can(lcr, "averaging=1"));
+	assert_false(hb_lcr_can(lcr, "averaging=8"));
+	assert_true(hb_lcr_can(lcr, "aperture=medium"));
+	assert_false(hb_lcr_can(lcr, "aperture=long"));
+	assert_int_equal(hb_lcr_set_function(lcr, HB_EQUIV_SERIES, HB_PAIR_L_R), HB_OK);
+	assert_int_equal(hb_lcr_set_function(lcr, HB_EQUIV_PARALLEL, HB_PAIR_L_R), HB_ERR_UNSUPPORTED);
+	assert_non_null(strstr(hb_lcr_errmsg(lcr), "measures only ls-rs"));
+	assert_int_equal(hb_lcr_set_averaging(lcr, 1, HB_APERTURE_MEDIUM), HB_OK);
+	hb_lcr_reading r;
+	assert_int_equal(hb_lcr_measure(lcr, &r), HB_OK);
+	assert_true(fabs(r.primary - 1e-4) < 1e-15);
+	close_peer(&p, lcr);
+	unlink(path);
+	rmdir(dir);
+}
+
+/* generic-lcr lists function, averaging and aperture as optional: a meter
+ * that rejects the aperture command (-113, SCPI-99 21.8.9) at open has it
+ * marked absent, and only the medium aperture is then possible. */
+static void test_probe_marks_aperture_absent(void **state)
+{
+	(void)state;
+	static const peer_step steps[] = {
+		{ "*IDN?", PEER_REPLY, "Nobody,Bridge,1,1\n", 0, 0 },
+		{ "*CLS", PEER_SILENT, NULL, 0, 0 },
+		{ "IMP:FUNC SER,LR", PEER_SILENT, NULL, 0, 0 },
+		{ "SYST:ERR?", PEER_REPLY, OK_ERR, 0, 0 },
+		{ "IMP:AVER 1", PEER_SILENT, NULL, 0, 0 },
+		{ "SYST:ERR?", PEER_REPLY, OK_ERR, 0, 0 },
+		{ "IMP:APER MED", PEER_SILENT, NULL, 0, 0 },
+		{ "SYST:ERR?", PEER_REPLY, "-113,\"Undefined header\"\n", 0, 0 },
+		{ "*CLS", PEER_SILENT, NULL, 0, 0 },
+		/* averaging still goes out; the aperture does not */
+		{ "IMP:AVER 4", PEER_SILENT, NULL, 0, 0 },
+		{ "SYST:ERR?", PEER_REPLY, OK_ERR, 0, 0 },
+	};
+	peer p;
+	hb_lcr *lcr = open_peer(&p, steps, sizeof steps / sizeof steps[0], "generic-lcr");
+	assert_false(hb_lcr_supports(lcr, "aperture"));
+	assert_true(hb_lcr_supports(lcr, "averaging"));
+	assert_false(hb_lcr_can(lcr, "aperture=long"));
+	assert_true(hb_lcr_can(lcr, "aperture=medium"));
+	assert_true(hb_lcr_can(lcr, "averaging=4"));
+	assert_int_equal(hb_lcr_set_averaging(lcr, 4, HB_APERTURE_LONG), HB_ERR_UNSUPPORTED);
+	assert_int_equal(hb_lcr_set_averaging(lcr, 4, HB_APERTURE_MEDIUM), HB_OK);
+	close_peer(&p, lcr);
+}
+
 int main(void)
 {
 	(void)peer_start_fd; /* the pty flavour of the shared peer is not needed here */
@@ -400,6 +512,9 @@ int main(void)
 		cmocka_unit_test(test_other_dialect),
 		cmocka_unit_test(test_overload_generic),
 		cmocka_unit_test(test_open_failures),
+		cmocka_unit_test(test_can_generic),
+		cmocka_unit_test(test_fixed_function_meter),
+		cmocka_unit_test(test_probe_marks_aperture_absent),
 	};
 	return cmocka_run_group_tests(tests, setup, bench_fixture_teardown);
 }

@@ -194,6 +194,56 @@ static void test_bad_profiles(void **state)
 	expect_bad("bad/unterminated.ini", 7, "key 'frequency': unterminated placeholder");
 	expect_bad("bad/status-map.ini", 9, "key 'measure.status.map': 'OVER' is not TOKEN=number");
 	expect_bad("bad/long-line.ini", 4, "line longer than");
+	expect_bad("bad/fixed-and-function.ini", 8, "key 'function.fixed': give 'function'");
+	expect_bad("bad/fixed-unknown.ini", 8, "key 'function.fixed': 'cs-rs' is none of ls-rs");
+	expect_bad("bad/optional-undefined.ini", 11, "key 'optional': 'mode' is not defined in this profile");
+	expect_bad("bad/optional-required.ini", 8, "key 'optional': 'measure' cannot be optional");
+}
+
+/* Optional operations, the fixed function and the operations list that
+ * 'identify' prints (facts: drivers/profiles/generic-*.ini and the fixtures). */
+static void test_optional_and_fixed(void **state)
+{
+	(void)state;
+	char path[PATH_MAX], err[512], has[512], lacks[512];
+	hb_profile *p;
+	snprintf(path, sizeof path, "%s/generic-supply.ini", source_dir);
+	assert_int_equal(hb_profile_load(path, &p, err, sizeof err), HB_OK);
+	assert_true(hb_profile_has(p, HB_PK_SUP_CURRENT_QUERY));
+	assert_string_equal(hb_profile_text(p, HB_PK_SUP_CURRENT_QUERY), "SOUR:CURR?");
+	assert_true(hb_profile_optional(p, HB_PK_SUP_MODE));
+	assert_true(hb_profile_optional(p, HB_PK_SUP_OUTPUT_STATE));
+	assert_true(hb_profile_optional(p, HB_PK_SUP_CURRENT_QUERY));
+	assert_false(hb_profile_optional(p, HB_PK_SUP_MEASURE_CURRENT));
+	hb_profile_operations(p, has, sizeof has, lacks, sizeof lacks);
+	assert_non_null(strstr(has, "current.query?"));
+	assert_non_null(strstr(has, "mode?"));
+	assert_non_null(strstr(has, "measure.current "));
+	assert_string_equal(lacks, "");
+	hb_profile_free(p);
+
+	snprintf(path, sizeof path, "%s/generic-lcr.ini", source_dir);
+	assert_int_equal(hb_profile_load(path, &p, err, sizeof err), HB_OK);
+	assert_true(hb_profile_optional(p, HB_PK_LCR_FUNCTION));
+	assert_true(hb_profile_optional(p, HB_PK_LCR_AVERAGING));
+	assert_true(hb_profile_optional(p, HB_PK_LCR_APERTURE));
+	hb_profile_free(p);
+
+	fixture(path, sizeof path, "good/fixed-meter.ini");
+	assert_int_equal(hb_profile_load(path, &p, err, sizeof err), HB_OK);
+	hb_equiv e;
+	hb_pair pr;
+	bool any = true;
+	assert_int_equal(hb_profile_function_fixed(p, &e, &pr, &any), HB_OK);
+	assert_int_equal(e, HB_EQUIV_SERIES);
+	assert_int_equal(pr, HB_PAIR_L_R);
+	assert_false(any);
+	hb_profile_operations(p, has, sizeof has, lacks, sizeof lacks);
+	assert_non_null(strstr(has, "function.fixed=ls-rs"));
+	assert_non_null(strstr(lacks, "averaging"));
+	assert_non_null(strstr(lacks, "aperture"));
+	assert_null(strstr(lacks, "function"));
+	hb_profile_free(p);
 }
 
 static void test_missing_file(void **state)
@@ -358,6 +408,7 @@ int main(void)
 		cmocka_unit_test(test_expand),
 		cmocka_unit_test(test_expand_locale_independent),
 		cmocka_unit_test(test_bad_profiles),
+		cmocka_unit_test(test_optional_and_fixed),
 		cmocka_unit_test(test_missing_file),
 		cmocka_unit_test(test_search_path),
 		cmocka_unit_test(test_find),
