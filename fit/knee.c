@@ -126,94 +126,197 @@ out:
 	return rc;
 }
 
-int hb_fit_modelfree(const double *I, const double *L, const double *sigma, size_t n, const hb_fit_options *opt,
+/* Weighted linear least squares of y on the basis columns x^pw[j] (pw
+ * may be fractional: 1 = |I|, 2 = I^2), the value at zero (the constant)
+ * and its variance scaled by chi2/dof (never below the stated noise when
+ * weights are given, since a lucky small scatter does not shrink the
+ * instrument's noise). chi2_out gets the weighted residual sum. */
+static int poly_at_zero(const double *x, const double *y, const double *sig, size_t k, const double *pw, size_t pc,
+			double *c0, double *var0, double *chi2_out)
+{
+	gsl_matrix *X = gsl_matrix_alloc(k, pc), *cv = gsl_matrix_alloc(pc, pc);
+	gsl_vector *yv = gsl_vector_alloc(k), *wv = gsl_vector_alloc(k), *cf = gsl_vector_alloc(pc);
+	gsl_multifit_linear_workspace *lw = gsl_multifit_linear_alloc(k, pc);
+	int rc = HB_ERR_NOMEM;
+	double chisq = NAN;
+	if (!X || !cv || !yv || !wv || !cf || !lw)
+		goto cleanup;
+	bool weighted = sig[0] > 0;
+	for (size_t i = 0; i < k; i++) {
+		for (size_t j = 0; j < pc; j++)
+			gsl_matrix_set(X, i, j, pw[j] == 0 ? 1 : pow(x[i], pw[j]));
+		gsl_vector_set(yv, i, y[i]);
+		gsl_vector_set(wv, i, weighted ? 1 / (sig[i] * sig[i]) : 1);
+	}
+	rc = HB_ERR_DATA;
+	if (gsl_multifit_wlinear(X, wv, yv, cf, cv, &chisq, lw) != GSL_SUCCESS)
+		goto cleanup;
+	*c0 = gsl_vector_get(cf, 0);
+	double scale = k > pc ? chisq / (double)(k - pc) : NAN;
+	if (weighted && scale < 1)
+		scale = 1;
+	*var0 = gsl_matrix_get(cv, 0, 0) * scale;
+	*chi2_out = chisq;
+	rc = HB_OK;
+cleanup:
+	gsl_matrix_free(X);
+	gsl_matrix_free(cv);
+	gsl_vector_free(yv);
+	gsl_vector_free(wv);
+	gsl_vector_free(cf);
+	gsl_multifit_linear_free(lw);
+	return rc;
+}
+
+/* AICc of a weighted fit: chi2 itself with known weights, else from the RSS. */
+static double aicc_of(double chi2, size_t k, size_t pc, bool weighted)
+{
+	double n = (double)k, p = (double)pc;
+	if (!(n - p - 1 > 0))
+		return INFINITY;
+	double base = weighted ? chi2 : n * log(fmax(chi2, 1e-300) / n);
+	return base + 2 * p + 2 * p * (p + 1) / (n - p - 1);
+}
+
+/*
+ * L0 from the points below the knee. The saturation laws are even in I
+ * (the core does not know the current's sign), so near zero L is a series
+ * in I^2 for a smooth law (tanh, Langevin); a quadratic in I there carries
+ * a useless odd term that bends the intercept. The Frohlich-Kennelly law
+ * has |H| in it, a cusp at zero with a finite slope, which only an |I|
+ * term follows. So both are fitted and AICc chooses; ties go to the even
+ * series. "Below the knee": while L stays within 10 % of the first reading,
+ * where two or three terms describe the curve.
+ */
+static int modelfree_L0(const double *I, const double *L, const double *sig, size_t n, size_t l0_points,
+			hb_fit_modelfree_result *out)
+{
+	size_t k = l0_points;
+	if (k == 0) {
+		k = 1;
+		while (k < n && L[k] >= 0.9 * L[0])
+			k++;
+		if (k < 3)
+			k = n < 3 ? n : 3;
+	}
+	if (k > n)
+		k = n;
+	if (k < 2)
+		k = 2;
+	static const double even1[] = { 0, 2 }, even2[] = { 0, 2, 4 }, cusp[] = { 0, 1, 2 }, cusp3[] = { 0, 1, 2, 3 },
+			    line[] = { 0, 1 };
+	struct { const double *pw; size_t pc; const char *name; } cand[] = {
+		{ even1, 2, "1, I^2" }, { even2, 3, "1, I^2, I^4" }, { cusp, 3, "1, |I|, I^2" },
+		{ cusp3, 4, "1, |I|, I^2, |I|^3" },
+	};
+	bool weighted = sig[0] > 0;
+	double best = INFINITY;
+	int rc = HB_ERR_DATA;
+	for (size_t c = 0; c < sizeof cand / sizeof cand[0]; c++) {
+		/* one spare point at least, so the scatter can scale the error */
+		if (k < cand[c].pc + 1)
+			continue;
+		double c0, v0, chi2;
+		int st = poly_at_zero(I, L, sig, k, cand[c].pw, cand[c].pc, &c0, &v0, &chi2);
+		if (st == HB_ERR_NOMEM)
+			return st;
+		if (st != HB_OK || !isfinite(c0))
+			continue;
+		double a = aicc_of(chi2, k, cand[c].pc, weighted);
+		/* with fewer than pc + 2 points AICc is undefined: take the first that fits */
+		if (!isfinite(a))
+			a = 1e300 + (double)c;
+		if (a < best - 1e-9) {
+			best = a;
+			out->L0 = c0;
+			out->L0_std_err = sqrt(v0);
+			snprintf(out->L0_basis, sizeof out->L0_basis, "%s", cand[c].name);
+			rc = HB_OK;
+		}
+	}
+	if (rc != HB_OK) {
+		/* two points: a straight line through them, no error estimate */
+		double c0, v0, chi2;
+		rc = poly_at_zero(I, L, sig, k, line, 2, &c0, &v0, &chi2);
+		if (rc != HB_OK)
+			return rc;
+		out->L0 = c0;
+		out->L0_std_err = sqrt(v0);
+		snprintf(out->L0_basis, sizeof out->L0_basis, "1, I");
+	}
+	out->L0_points = k;
+	return HB_OK;
+}
+
+int hb_fit_modelfree(const double *I, const double *L_in, const double *sigma, size_t n, const hb_fit_options *opt,
 		     hb_fit_modelfree_result *out)
 {
 	char err[160];
 	if (!out)
 		return HB_ERR_ARG;
 	memset(out, 0, sizeof *out);
-	int rc = hb__fit_check_sweep(I, L, sigma, n, err, sizeof err);
+	int rc = hb__fit_check_sweep(I, L_in, sigma, n, err, sizeof err);
 	if (rc)
 		return rc;
 	const double *fr;
 	size_t nfr;
 	if (fractions_of(opt, &fr, &nfr))
 		return HB_ERR_ARG;
+	double w2c = 0;
+	if (opt && opt->parallel_c > 0 && opt->test_freq > 0) {
+		double w = 2 * M_PI * opt->test_freq;
+		w2c = w * w * opt->parallel_c;
+		if (!isfinite(w2c))
+			return HB_ERR_ARG;
+	}
 	gsl_set_error_handler_off();
 
 	size_t m = n + 1;
-	double *mem = malloc(7 * m * sizeof(double) + m * sizeof(size_t));
+	double *mem = malloc(9 * m * sizeof(double) + m * sizeof(size_t));
 	if (!mem)
 		return HB_ERR_NOMEM;
 	double *x = mem, *y = mem + m, *w = mem + 2 * m, *mono = mem + 3 * m, *bw = mem + 4 * m,
-	       *sig = mem + 5 * m, *tmp = mem + 6 * m;
-	size_t *bstart = (size_t *)(mem + 7 * m);
+	       *sig = mem + 5 * m, *tmp = mem + 6 * m, *L = mem + 7 * m, *ssig = mem + 8 * m;
+	size_t *bstart = (size_t *)(mem + 9 * m);
 	gsl_interp *interp = NULL;
 	gsl_interp_accel *acc = NULL;
 
+	/* The winding capacitance makes the meter read L / (1 - w^2 L Cp);
+	 * the part's own L is L_app / (1 + w^2 L_app Cp) exactly (series model),
+	 * and the drop currents are the part's, not the capacitor's. */
+	for (size_t i = 0; i < n; i++) {
+		double f = 1 + w2c * L_in[i];
+		L[i] = L_in[i] / f;
+		ssig[i] = sigma ? sigma[i] / (f * f) : NAN;
+	}
+	out->cp_corrected = w2c > 0;
+	const double *sgin = sigma ? ssig : NULL;
+
 	/* reading noise: per-point sigma, else the stated noise, else estimated */
 	double noise = opt ? opt->noise_sigma : 0;
+	if (noise > 0 && w2c > 0)
+		noise /= (1 + w2c * L[0]) * (1 + w2c * L[0]);
 	if (!(noise > 0) && !sigma) {
 		noise = estimate_noise(I, L, n, tmp);
 		out->flags |= HB_MF_NOISE_ESTIMATED;
 	}
 	for (size_t i = 0; i < n; i++)
-		sig[i] = sigma ? sigma[i] : noise;
-	out->noise_sigma = sigma ? gsl_stats_mean(sigma, 1, n) : noise;
+		sig[i] = sgin ? sgin[i] : noise;
+	out->noise_sigma = sgin ? gsl_stats_mean(sgin, 1, n) : noise;
 
-	/* L0: low-order polynomial through the first points, taken at I = 0:
-	 * quadratic when there are enough of them (the slope at zero bias is
-	 * finite for a Frohlich-like core, zero for tanh-like, and a straight
-	 * line across a curving start would bias L0), else a straight line. */
-	size_t k = (opt && opt->l0_points) ? opt->l0_points : 6;
-	if (k > n)
-		k = n;
-	if (k < 2)
-		k = 2;
-	size_t order = k >= 5 ? 2 : 1;
-	double c0 = NAN, cov00 = NAN;
-	{
-		size_t pc = order + 1;
-		gsl_matrix *X = gsl_matrix_alloc(k, pc), *cv = gsl_matrix_alloc(pc, pc);
-		gsl_vector *yv = gsl_vector_alloc(k), *wv = gsl_vector_alloc(k), *cf = gsl_vector_alloc(pc);
-		gsl_multifit_linear_workspace *lw = gsl_multifit_linear_alloc(k, pc);
-		int st = GSL_ENOMEM;
-		double chisq;
-		if (X && cv && yv && wv && cf && lw) {
-			for (size_t i = 0; i < k; i++) {
-				for (size_t j = 0; j < pc; j++)
-					gsl_matrix_set(X, i, j, pow(I[i], (double)j));
-				gsl_vector_set(yv, i, L[i]);
-				gsl_vector_set(wv, i, sig[0] > 0 ? 1 / (sig[i] * sig[i]) : 1);
-			}
-			st = gsl_multifit_wlinear(X, wv, yv, cf, cv, &chisq, lw);
-			if (st == GSL_SUCCESS) {
-				c0 = gsl_vector_get(cf, 0);
-				cov00 = gsl_matrix_get(cv, 0, 0);
-				/* without a noise figure the scatter itself scales it */
-				if (!(sig[0] > 0))
-					cov00 = k > pc ? cov00 * chisq / (double)(k - pc) : NAN;
-			}
-		}
-		gsl_matrix_free(X);
-		gsl_matrix_free(cv);
-		gsl_vector_free(yv);
-		gsl_vector_free(wv);
-		gsl_vector_free(cf);
-		gsl_multifit_linear_free(lw);
-		if (st == GSL_ENOMEM) {
-			rc = HB_ERR_NOMEM;
-			goto out;
-		}
-	}
-	if (!isfinite(c0) || !(c0 > 0)) {
+	rc = modelfree_L0(I, L, sig, n, opt ? opt->l0_points : 0, out);
+	if (rc != HB_OK)
+		goto out;
+	double c0 = out->L0;
+	if (!isfinite(c0) || !(c0 > 0) || !isfinite(out->L0_std_err)) {
 		rc = HB_ERR_DATA;
 		goto out;
 	}
-	out->L0 = c0;
-	out->L0_std_err = sqrt(cov00);
-	out->L0_points = k;
+	out->L0_reading = w2c > 0 ? c0 / (1 - w2c * c0) : c0;
+	if (!(out->L0_reading > 0)) {
+		rc = HB_ERR_ARG; /* the test frequency is at or above the self-resonance */
+		goto out;
+	}
 	out->I_max = I[n - 1];
 	out->L_at_max = L[n - 1];
 

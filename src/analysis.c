@@ -113,7 +113,8 @@ static void judge_bias(hb_analysis_summary *s, const hb_db_part *part, const hb_
 			    (isfinite(sw->test_freq_hz) && fabs(sw->test_freq_hz / part->test_freq_hz - 1) < 0.01);
 	if (isfinite(part->nominal_h) && isfinite(part->tolerance)) {
 		if (at_spec_freq && s->fit_status == HB_OK)
-			add_check(s, "L0", "H", hb_verdict_tolerance(mf->L0, part->nominal_h, part->tolerance),
+			/* the spec's L is a meter reading at its test frequency, Cp included */
+			add_check(s, "L0", "H", hb_verdict_tolerance(mf->L0_reading, part->nominal_h, part->tolerance),
 				  "zero-bias inductance within the nominal tolerance");
 		else
 			add_check(s, "L0", "H", untested(),
@@ -122,7 +123,7 @@ static void judge_bias(hb_analysis_summary *s, const hb_db_part *part, const hb_
 	if (isfinite(part->sat_current_a) && isfinite(part->sat_drop) && s->fit_status == HB_OK) {
 		double l_at = interp_at(I, L, n, part->sat_current_a);
 		if (isfinite(l_at))
-			add_check(s, "Lsat", "H", hb_verdict_min(l_at, (1 - part->sat_drop) * mf->L0),
+			add_check(s, "Lsat", "H", hb_verdict_min(l_at, (1 - part->sat_drop) * mf->L0_reading),
 				  "L at the saturation-spec current at least (1 - drop) L0");
 		else
 			add_check(s, "Lsat", "H", untested(), "sweep did not reach the saturation-spec current");

@@ -244,12 +244,122 @@ static void test_failure_paths(void **state)
 	hb_fit_ws_free(ws);
 }
 
+/*
+ * Laws even in I, written here in closed form and not through fit/: an
+ * ungapped toroid, H = N I / le (Ampere's law), L = N^2 Ae / le * dB/dH,
+ * B = mu0 H + J(H) with a = mu0 (mu_i - 1):
+ *  - Langevin: J = Js Lang(3 a H / Js), Lang(y) = coth y - 1/y,
+ *    Lang'(y) = 1/y^2 - 1/sinh^2 y (Langevin function, from memory);
+ *  - Frohlich-Kennelly: J = a H Js / (Js + a |H|), dJ/dH = a Js^2 / (Js + a |H|)^2
+ *    (Frohlich 1881 / Kennelly 1891 reluctivity law, from memory).
+ * L0 = mu0 mu_i N^2 Ae / le (the inductance of a toroid, any handbook).
+ */
+static const double EV_N = 20, EV_AE = 50e-6, EV_LE = 0.05, EV_MUI = 2000, EV_JS = 0.4;
+
+static double even_law_L(int law, double I)
+{
+	const double mu0 = 1.25663706212e-6; /* CODATA 2018 */
+	double a = mu0 * (EV_MUI - 1), H = EV_N * fabs(I) / EV_LE, dJ;
+	if (law == 0) {
+		double y = 3 * a * H / EV_JS;
+		double lp = y < 1e-4 ? 1.0 / 3 - y * y / 15 : 1 / (y * y) - 1 / (sinh(y) * sinh(y));
+		dJ = 3 * a * lp;
+	} else {
+		double d = EV_JS + a * H;
+		dJ = a * EV_JS * EV_JS / (d * d);
+	}
+	return EV_N * EV_N * EV_AE / EV_LE * (mu0 + dJ);
+}
+
+/* L0 is unbiased for a smooth even law (no odd term) and for the cusp of
+ * Frohlich-Kennelly, and its stated error covers the truth. */
+static void test_modelfree_L0_even_laws(void **state)
+{
+	(void)state;
+	gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+	gsl_rng_set(r, 41);
+	const double mu0 = 1.25663706212e-6;
+	const double L0 = mu0 * EV_MUI * EV_N * EV_N * EV_AE / EV_LE;
+	const double sig = 1e-4 * L0;
+	double I[NP], L[NP];
+	for (int law = 0; law < 2; law++) {
+		double imax = law == 0 ? 0.5 : 0.1;
+		int inside = 0, trials = 200;
+		double bias = 0, se_mean = 0;
+		for (int t = 0; t < trials; t++) {
+			for (int i = 0; i < NP; i++) {
+				I[i] = imax * i / (NP - 1);
+				L[i] = even_law_L(law, I[i]) + gsl_ran_gaussian(r, sig);
+			}
+			hb_fit_options opt;
+			hb_fit_options_init(&opt);
+			opt.noise_sigma = sig;
+			hb_fit_modelfree_result mf;
+			assert_int_equal(hb_fit_modelfree(I, L, NULL, NP, &opt, &mf), HB_OK);
+			assert_true(mf.L0_std_err > 0);
+			if (fabs(mf.L0 - L0) < 2 * mf.L0_std_err)
+				inside++;
+			bias += (mf.L0 - L0) / trials;
+			se_mean += mf.L0_std_err / trials;
+		}
+		print_message("%s: L0 coverage %.3f, bias %.2g of the stated error\n", law ? "frohlich" : "langevin",
+			      (double)inside / trials, bias / se_mean);
+		/* 2 sd holds 95 % of a normal; a biased fit falls well short */
+		assert_true(inside >= 0.88 * trials);
+		/* the mean of 200 runs: bias below a third of one run's error */
+		assert_true(fabs(bias) < se_mean / 3);
+	}
+	gsl_rng_free(r);
+}
+
+/*
+ * The meter reads L / (1 - w^2 L Cp) with the winding capacitance in
+ * parallel (series-equivalent of L || C, circuit theory, from memory):
+ * with Cp given, the drop currents are those of the part's own L (here the
+ * knee law in closed form above), without it they are visibly off.
+ */
+static void test_modelfree_cp_corrected(void **state)
+{
+	(void)state;
+	double I[NP], L[NP];
+	const double cp = 300e-12, f = 100e3, w2c = pow(2 * M_PI * f, 2) * cp;
+	for (int i = 0; i < NP; i++) {
+		I[i] = 4.0 * i / (NP - 1);
+		double Lt = hb_fit_knee_eval(truth, I[i]);
+		L[i] = Lt / (1 - w2c * Lt);
+	}
+	hb_fit_options opt;
+	hb_fit_options_init(&opt);
+	opt.noise_sigma = 1e-9;
+	hb_fit_modelfree_result plain, corr;
+	assert_int_equal(hb_fit_modelfree(I, L, NULL, NP, &opt, &plain), HB_OK);
+	opt.parallel_c = cp;
+	opt.test_freq = f;
+	assert_int_equal(hb_fit_modelfree(I, L, NULL, NP, &opt, &corr), HB_OK);
+	assert_false(plain.cp_corrected);
+	assert_true(corr.cp_corrected);
+	print_message("L0 corrected %.6g (%s), reading %.6g, law %.6g H\n", corr.L0, corr.L0_basis, corr.L0_reading, truth[0]);
+	/* w^2 L0 Cp = 4.7 %: a 0.1 % match tells corrected from not */
+	assert_true(fabs(corr.L0 - truth[0]) < 1e-3 * truth[0]);
+	assert_true(fabs(corr.L0_reading - truth[0] / (1 - w2c * truth[0])) < 1e-3 * truth[0]);
+	for (size_t d = 0; d < 3; d++) {
+		double want = drop_current(truth, corr.drop[d].fraction);
+		print_message("drop %g: corrected %.4f, reading %.4f, law %.4f A\n", corr.drop[d].fraction,
+			      corr.drop[d].current, plain.drop[d].current, want);
+		/* linear-ish interpolation between 0.1 A steps: a few mA */
+		assert_true(fabs(corr.drop[d].current - want) < 0.002);
+	}
+	/* uncorrected, the 30 % point moves by 16 mA, far past the interpolation error */
+	assert_true(fabs(plain.drop[2].current - drop_current(truth, 0.3)) > 0.01);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_knee_recovery), cmocka_unit_test(test_knee_scale_free),
 		cmocka_unit_test(test_modelfree),     cmocka_unit_test(test_curves),
 		cmocka_unit_test(test_analyse),       cmocka_unit_test(test_failure_paths),
+		cmocka_unit_test(test_modelfree_L0_even_laws), cmocka_unit_test(test_modelfree_cp_corrected),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }
