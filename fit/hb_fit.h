@@ -14,7 +14,7 @@
  * inductance dpsi/dI at the DC bias point, not the secant psi/I.
  */
 
-#define HB_FIT_CODE_VERSION "hb-fit 1.1"
+#define HB_FIT_CODE_VERSION "hb-fit 1.2"
 #define HB_FIT_INCREMENTAL_NOTE \
 	"L is the incremental (small-signal) inductance dpsi/dI read by the LCR meter at each DC bias"
 #define HB_FIT_MU0 1.25663706212e-6 /* H/m, CODATA 2018 */
@@ -114,17 +114,29 @@ typedef struct hb_fit_options {
 
 void hb_fit_options_init(hb_fit_options *opt);
 
+/* Why a value has no number: it lies beyond the measured bias range, or
+ * the data do not determine it. Outputs print the reason, never a number. */
+#define HB_FIT_REASON_BEYOND "beyond the data"
+#define HB_FIT_REASON_UNDETERMINED "not determined by these data"
+
 typedef struct hb_fit_value {
 	char name[40];   /* e.g. "knee.Ik", "core.mu_e" */
-	double value;
-	double std_err;  /* NAN = none */
+	double value;    /* NAN = no number: reason says why */
+	double std_err;  /* NAN = none (reason says why when the value is a parameter not determined) */
 	char unit[12];   /* SI: "H", "A", "m", "T", "J", "", ... */
+	char reason[72]; /* "" or e.g. "beyond the data (highest bias 2.00 A)", "not determined by these data" */
+	bool misfit;     /* from a model whose residuals exceed the reading noise (knee.*, core.*) */
 } hb_fit_value;
 
 typedef struct hb_fit_values {
 	size_t count;
 	hb_fit_value v[HB_FIT_MAX_VALUES];
 } hb_fit_values;
+
+/* True for a model's fit diagnostics (knee.rss, *.dof, *.noise_ratio,
+ * *.undetermined, *.flags, core.aicc.*) and for values the model-free L0
+ * gives whatever the law (core.mu_e, core.AL): never marked misfit. */
+bool hb_fit_value_is_diagnostic(const char *name);
 
 /* Value by name or NULL. */
 const hb_fit_value *hb_fit_values_find(const hb_fit_values *vals, const char *name);
@@ -141,7 +153,8 @@ const char *hb_fit_ws_error(const hb_fit_ws *ws); /* why the last call failed */
 
 typedef struct hb_fit_drop {
 	double fraction;  /* 0.20 = L has fallen to 80 % of L0 */
-	bool reached;     /* false: the sweep stopped short; current is NAN */
+	bool reached;     /* false: the crossing lies beyond the highest bias point (or nowhere):
+			   * current and std_err are NAN, never an extrapolation */
 	double current, std_err;
 } hb_fit_drop;
 
@@ -176,6 +189,9 @@ enum { HB_KNEE_L0 = 0, HB_KNEE_LF, HB_KNEE_IK, HB_KNEE_P, HB_KNEE_NP };
 
 enum { /* hb_fit_knee_result.flags */
 	HB_KNEE_FLOOR_HELD = 1 << 0, /* a free floor went negative (the sweep shows no floor): Lf held at 0 */
+	HB_KNEE_POINT_BEYOND = 1 << 1, /* the knee point lies beyond the highest bias: knee_current NAN */
+	HB_KNEE_MISFIT = 1 << 2,     /* residual rms > noise_ratio_limit x the reading noise */
+	HB_KNEE_NOISE_UNKNOWN = 1 << 3, /* no noise figure: the fit quality could not be judged */
 };
 
 /* identifiability flags: bit (1 << parameter index) in .undetermined */
@@ -186,7 +202,9 @@ typedef struct hb_fit_knee_result {
 	size_t n, dof;
 	size_t n_drops;
 	hb_fit_drop drop[HB_FIT_MAX_FRACTIONS]; /* on the model, brent root finder */
-	double knee_current, knee_L;           /* maximum curvature of L/L0 against I/Ik */
+	double knee_current, knee_L;           /* maximum curvature of L/L0 against I/Ik; NAN beyond the data */
+	double I_max;                           /* highest bias point of the sweep */
+	double noise_sigma, noise_ratio;        /* residual rms / reading noise (sqrt(chi2/dof) with sigma) */
 	unsigned undetermined;                  /* |corr| > 0.99 or relative sd > 50 % */
 	int flags;                              /* HB_KNEE_* */
 	int nlls_flags, iterations, starts; /* from the NLLS wrapper */

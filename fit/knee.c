@@ -660,8 +660,12 @@ int hb_fit_knee(hb_fit_ws *ws, const double *I, const double *L, const double *s
 		double root;
 		if (k == 200 || brent_root(knee_minus_target, &kr, 0, hi, &root) != HB_OK)
 			continue;
+		/* a crossing above the last bias point is an extrapolation of the
+		 * model: filed results carry no number for it */
+		if (!(root <= I[n - 1]))
+			continue;
 		dr->current = root;
-		dr->reached = root <= I[n - 1];
+		dr->reached = true;
 		/* implicit function: dI/dtheta = -(dL/dtheta - (1-f) dL0/dtheta) / (dL/dI) */
 		double g[4], dLdI;
 		knee_grad(par, root, g, &dLdI);
@@ -674,7 +678,27 @@ int hb_fit_knee(hb_fit_ws *ws, const double *I, const double *L, const double *s
 			dr->std_err = sqrt(var) / fabs(dLdI);
 		}
 	}
+	out->I_max = I[n - 1];
 	knee_point(par, &out->knee_current, &out->knee_L);
+	if (isfinite(out->knee_current) && out->knee_current > I[n - 1]) {
+		out->knee_current = out->knee_L = NAN;
+		out->flags |= HB_KNEE_POINT_BEYOND;
+	}
+
+	/* the fit against the reading noise, judged as the core model's is */
+	double noise = opt && opt->noise_sigma > 0 ? opt->noise_sigma : mf.noise_sigma;
+	double lim = opt && opt->noise_ratio_limit > 0 ? opt->noise_ratio_limit : 3;
+	out->noise_sigma = sigma ? mf.noise_sigma : noise;
+	if (sigma && out->dof > 0)
+		out->noise_ratio = sqrt(out->chi2 / (double)out->dof);
+	else if (noise > 0)
+		out->noise_ratio = out->residual_rms / noise;
+	else
+		out->noise_ratio = NAN;
+	if (!isfinite(out->noise_ratio))
+		out->flags |= HB_KNEE_NOISE_UNKNOWN;
+	else if (out->noise_ratio > lim)
+		out->flags |= HB_KNEE_MISFIT;
 	return HB_OK;
 }
 
@@ -726,12 +750,29 @@ static double lerp_at(const double *x, const double *y, size_t n, double at)
 	return y[n - 1];
 }
 
-static void drop_values(hb_fit_values *v, const char *prefix, const hb_fit_drop *d, size_t nd)
+static void drop_values(hb_fit_values *v, const char *prefix, const hb_fit_drop *d, size_t nd, double i_max)
 {
-	char name[40];
+	char name[40], why[72];
+	hb__fit_beyond(why, sizeof why, i_max);
 	for (size_t i = 0; i < nd; i++) {
 		snprintf(name, sizeof name, "%sI_drop%g", prefix, d[i].fraction * 100);
-		hb__fit_value_add(v, name, d[i].current, d[i].std_err, "A");
+		if (d[i].reached && isfinite(d[i].current))
+			hb__fit_value_add(v, name, d[i].current, d[i].std_err, "A");
+		else
+			hb__fit_value_why(v, name, NAN, NAN, "A", why);
+	}
+}
+
+/* Marks every value whose name starts with prefix as from a misfitting model. */
+static void mark_misfit(hb_fit_values *v, const char *prefix)
+{
+	size_t len = strlen(prefix);
+	for (size_t i = 0; i < v->count; i++) {
+		const char *nm = v->v[i].name;
+		if (hb_fit_value_is_diagnostic(nm))
+			continue;
+		if (strncmp(nm, prefix, len) == 0)
+			v->v[i].misfit = true;
 	}
 }
 
@@ -775,8 +816,10 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 	hb_fit_values *v = &out->values;
 	const hb_fit_modelfree_result *mf = &out->modelfree;
 	hb__fit_value_add(v, "L0", mf->L0, mf->L0_std_err, "H");
+	if (mf->cp_corrected)
+		hb__fit_value_add(v, "L0_reading", mf->L0_reading, NAN, "H");
 	hb__fit_value_add(v, "noise_sigma", mf->noise_sigma, NAN, "H");
-	drop_values(v, "", mf->drop, mf->n_drops);
+	drop_values(v, "", mf->drop, mf->n_drops, I[n - 1]);
 	hb__fit_value_add(v, "I_max", mf->I_max, NAN, "A");
 	hb__fit_value_add(v, "L_at_max", mf->L_at_max, NAN, "H");
 
@@ -796,11 +839,17 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 			out->H_rated = geo->turns * ir / geo->le;
 		}
 	}
+	/* a rated current above the sweep: the data say nothing there */
+	char beyond[72];
+	hb__fit_beyond(beyond, sizeof beyond, I[n - 1]);
+	const char *why_rated = ir > I[n - 1] ? beyond : NULL;
 	hb__fit_value_add(v, "rated_current", ir, NAN, "A");
-	hb__fit_value_add(v, "psi_rated", out->psi_rated, NAN, "Wb");
-	hb__fit_value_add(v, "W_rated", out->W_rated, NAN, "J");
+	hb__fit_value_why(v, "psi_rated", out->psi_rated, NAN, "Wb", why_rated);
+	hb__fit_value_why(v, "W_rated", out->W_rated, NAN, "J", why_rated);
 	if (have_geo) {
-		hb__fit_value_add(v, "B_rated", out->B_rated, NAN, "T");
+		hb__fit_value_why(v, "B_rated", out->B_rated, NAN, "T", why_rated);
+		/* N I / le is the applied field per length at a chosen current:
+		 * arithmetic on an input, not a reading, so no reason applies */
 		hb__fit_value_add(v, "H_rated", out->H_rated, NAN, "A/m");
 	}
 
@@ -813,13 +862,28 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 			char name[40];
 			for (int j = 0; j < 4; j++) {
 				snprintf(name, sizeof name, "knee.%s", names[j]);
-				hb__fit_value_add(v, name, k->param[j], k->std_err[j], units[j]);
+				double val = k->param[j], se = k->std_err[j];
+				const char *why = NULL;
+				/* Ik is a current: above the sweep it is an extrapolation */
+				if (j == HB_KNEE_IK && !(val <= I[n - 1])) {
+					val = se = NAN;
+					why = beyond;
+				} else if (k->undetermined & (1u << j)) {
+					se = NAN;
+					why = HB_FIT_REASON_UNDETERMINED;
+				}
+				hb__fit_value_why(v, name, val, se, units[j], why);
 			}
-			drop_values(v, "knee.", k->drop, k->n_drops);
-			hb__fit_value_add(v, "knee.I_knee", k->knee_current, NAN, "A");
-			hb__fit_value_add(v, "knee.L_knee", k->knee_L, NAN, "H");
+			drop_values(v, "knee.", k->drop, k->n_drops, I[n - 1]);
+			hb__fit_value_why(v, "knee.I_knee", k->knee_current, NAN, "A",
+					  isfinite(k->knee_current) ? NULL : beyond);
+			hb__fit_value_why(v, "knee.L_knee", k->knee_L, NAN, "H", isfinite(k->knee_L) ? NULL : beyond);
 			hb__fit_value_add(v, "knee.rss", k->rss, NAN, "H2");
 			hb__fit_value_add(v, "knee.dof", (double)k->dof, NAN, "");
+			hb__fit_value_add(v, "knee.noise_ratio", k->noise_ratio, NAN, "");
+			hb__fit_value_add(v, "knee.undetermined", (double)k->undetermined, NAN, "");
+			if (k->flags & HB_KNEE_MISFIT)
+				mark_misfit(v, "knee.");
 			set_headline(out, "knee", 4, names, k->cov, k->rss, k->dof);
 		} else {
 			snprintf(out->message, sizeof out->message, "knee: %s", hb_fit_ws_error(ws));
@@ -834,18 +898,27 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 			static const char *const names[] = { "mu_i", "gap", "Js" };
 			static const char *const units[] = { "", "m", "T" };
 			char name[48];
+			const char *und = HB_FIT_REASON_UNDETERMINED;
 			for (int j = 0; j < 3; j++) {
 				snprintf(name, sizeof name, "core.%s", names[j]);
-				hb__fit_value_add(v, name, b->param[j], b->std_err[j], units[j]);
+				bool u = b->undetermined & (1u << j);
+				hb__fit_value_why(v, name, b->param[j], u ? NAN : b->std_err[j], units[j], u ? und : NULL);
 			}
+			bool u_mu = b->undetermined & (1u << HB_CORE_MU_I), u_gap = b->undetermined & (1u << HB_CORE_GAP);
 			hb__fit_value_add(v, "core.mu_e", c->mu_e, c->mu_e_se, "");
 			hb__fit_value_add(v, "core.AL", c->AL, c->AL_se, "H");
-			hb__fit_value_add(v, "core.gap_implied", c->gap_implied, c->gap_implied_se, "m");
-			hb__fit_value_add(v, "core.gap_physical", c->gap_physical, c->gap_physical_se, "m");
+			/* derived from a parameter not determined: no standard error either */
+			hb__fit_value_why(v, "core.gap_implied", c->gap_implied, u_mu ? NAN : c->gap_implied_se, "m",
+					  u_mu ? und : NULL);
+			hb__fit_value_why(v, "core.gap_physical", c->gap_physical, u_gap ? NAN : c->gap_physical_se, "m",
+					  u_gap && isfinite(c->gap_physical) ? und : NULL);
 			hb__fit_value_add(v, "core.fringing_factor", c->fringing_factor, NAN, "");
-			hb__fit_value_add(v, "core.B_peak", c->B_peak, c->B_peak_se, "T");
-			hb__fit_value_add(v, "core.psi_rated", c->psi_rated, NAN, "Wb");
-			hb__fit_value_add(v, "core.W_rated", c->W_rated, NAN, "J");
+			/* the model at a rated current above the sweep is an extrapolation */
+			bool ext = c->rated_current > I[n - 1];
+			hb__fit_value_why(v, "core.B_peak", ext ? NAN : c->B_peak, ext ? NAN : c->B_peak_se, "T",
+					  ext ? beyond : NULL);
+			hb__fit_value_why(v, "core.psi_rated", ext ? NAN : c->psi_rated, NAN, "Wb", ext ? beyond : NULL);
+			hb__fit_value_why(v, "core.W_rated", ext ? NAN : c->W_rated, NAN, "J", ext ? beyond : NULL);
 			hb__fit_value_add(v, "core.noise_ratio", c->noise_ratio, NAN, "");
 			hb__fit_value_add(v, "core.flags", (double)c->flags, NAN, "");
 			hb__fit_value_add(v, "core.undetermined", (double)b->undetermined, NAN, "");
@@ -855,6 +928,8 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 				snprintf(name, sizeof name, "core.aicc.%s", hb_core_law_name((hb_core_law)l));
 				hb__fit_value_add(v, name, c->law[l].aicc, NAN, "");
 			}
+			if (c->flags & HB_CORE_NO_LAW_FITS)
+				mark_misfit(v, "core.");
 			char model[48];
 			snprintf(model, sizeof model, "core:%s", hb_core_law_name(c->best));
 			/* the headline carries the free parameters only */

@@ -193,15 +193,105 @@ static void covariance_json(char *buf, size_t cap, const double *cov, size_t p)
 		snprintf(buf + len, cap - len, "]");
 }
 
-static void fit_value(hb_db_fit *f, const char *name, double value, double se, const char *unit)
+/* A value without a number is stored only when it has a reason (stored
+ * as NULL, the reason rebuilt on reading by hb_analysis_value_reason). */
+static void fit_value_k(hb_db_fit *f, const char *name, double value, double se, const char *unit, bool keep_null)
 {
-	if (f->n_values >= HB_DB_FIT_MAX_VALUES || !isfinite(value))
+	if (f->n_values >= HB_DB_FIT_MAX_VALUES || (!isfinite(value) && !keep_null))
 		return;
 	hb_db_fit_value *v = &f->values[f->n_values++];
 	snprintf(v->name, sizeof v->name, "%s", name);
-	v->value = value;
+	v->value = isfinite(value) ? value : NAN;
 	v->std_error = se;
 	snprintf(v->unit, sizeof v->unit, "%s", unit);
+}
+
+static void fit_value(hb_db_fit *f, const char *name, double value, double se, const char *unit)
+{
+	fit_value_k(f, name, value, se, unit, false);
+}
+
+static const hb_db_fit_value *stored_find(const hb_db_fit *f, const char *name)
+{
+	for (size_t i = 0; i < f->n_values; i++)
+		if (strcmp(f->values[i].name, name) == 0)
+			return &f->values[i];
+	return NULL;
+}
+
+static bool flag_set(const hb_db_fit *f, const char *token)
+{
+	size_t len = strlen(token);
+	for (const char *p = f->flags; (p = strstr(p, token)) != NULL; p += len)
+		if ((p == f->flags || p[-1] == ' ') && (p[len] == 0 || p[len] == ' '))
+			return true;
+	return false;
+}
+
+static bool undetermined_bit(const hb_db_fit *f, const char *which, int bit)
+{
+	const hb_db_fit_value *u = stored_find(f, which);
+	return u && isfinite(u->value) && ((unsigned)u->value & (1u << bit));
+}
+
+/* Values that lie at a current: without a number they lie beyond the data. */
+static bool current_bound(const char *name, const char *unit)
+{
+	static const char *const at_current[] = { "psi_rated", "W_rated", "B_rated", "knee.L_knee", "core.B_peak",
+						 "core.psi_rated", "core.W_rated" };
+	if (strcmp(unit, "A") == 0)
+		return true;
+	for (size_t i = 0; i < sizeof at_current / sizeof at_current[0]; i++)
+		if (strcmp(name, at_current[i]) == 0)
+			return true;
+	return false;
+}
+
+const char *hb_analysis_value_reason(const hb_db_fit *f, const hb_db_fit_value *v, char *buf, size_t cap)
+{
+	if (!isfinite(v->value)) {
+		const hb_db_fit_value *top = stored_find(f, "I_max");
+		if (current_bound(v->name, v->unit) && top && isfinite(top->value))
+			snprintf(buf, cap, HB_FIT_REASON_BEYOND " (highest bias %#.3g A)", top->value);
+		else if (current_bound(v->name, v->unit))
+			snprintf(buf, cap, HB_FIT_REASON_BEYOND);
+		else
+			snprintf(buf, cap, "no value");
+		return buf;
+	}
+	if (isfinite(v->std_error))
+		return NULL;
+	static const struct { const char *name, *bits; int bit; } params[] = {
+		{ "knee.L0", "knee.undetermined", HB_KNEE_L0 },   { "knee.Lf", "knee.undetermined", HB_KNEE_LF },
+		{ "knee.Ik", "knee.undetermined", HB_KNEE_IK },   { "knee.p", "knee.undetermined", HB_KNEE_P },
+		{ "core.mu_i", "core.undetermined", HB_CORE_MU_I }, { "core.gap", "core.undetermined", HB_CORE_GAP },
+		{ "core.Js", "core.undetermined", HB_CORE_BSAT }, { "core.gap_implied", "core.undetermined", HB_CORE_MU_I },
+		{ "core.gap_physical", "core.undetermined", HB_CORE_GAP },
+	};
+	for (size_t i = 0; i < sizeof params / sizeof params[0]; i++)
+		if (strcmp(v->name, params[i].name) == 0 && undetermined_bit(f, params[i].bits, params[i].bit)) {
+			snprintf(buf, cap, HB_FIT_REASON_UNDETERMINED);
+			return buf;
+		}
+	return NULL;
+}
+
+bool hb_analysis_value_misfit(const hb_db_fit *f, const char *name, double *noise_ratio)
+{
+	const char *which = NULL;
+	if (hb_fit_value_is_diagnostic(name))
+		return false;
+	if (strncmp(name, "knee.", 5) == 0 && flag_set(f, "knee-misfit"))
+		which = "knee.noise_ratio";
+	else if (strncmp(name, "core.", 5) == 0 && flag_set(f, "no-law-fits"))
+		which = "core.noise_ratio";
+	if (!which)
+		return false;
+	if (noise_ratio) {
+		const hb_db_fit_value *r = stored_find(f, which);
+		*noise_ratio = r ? r->value : NAN;
+	}
+	return true;
 }
 
 static int store_results(hb_db *db, hb_analysis_summary *s)
@@ -223,7 +313,8 @@ static int store_results(hb_db *db, hb_analysis_summary *s)
 			f->aic = b->core.law[b->core.best].aicc;
 		covariance_json(f->covariance_json, sizeof f->covariance_json, b->cov, b->p);
 		for (size_t i = 0; i < b->values.count; i++)
-			fit_value(f, b->values.v[i].name, b->values.v[i].value, b->values.v[i].std_err, b->values.v[i].unit);
+			fit_value_k(f, b->values.v[i].name, b->values.v[i].value, b->values.v[i].std_err, b->values.v[i].unit,
+				    b->values.v[i].reason[0] != 0);
 		/* The names the history query picks, whichever model gave them. */
 		if (b->core_status == HB_OK) {
 			fit_value(f, HB_DB_FV_MU_E, b->core.mu_e, b->core.mu_e_se, "");
@@ -239,6 +330,10 @@ static int store_results(hb_db *db, hb_analysis_summary *s)
 			len += (size_t)snprintf(f->flags + len, sizeof f->flags - len, "no-law-fits ");
 		if (b->core_status == HB_OK && (b->core.flags & HB_CORE_KNEE_UNREACHED))
 			len += (size_t)snprintf(f->flags + len, sizeof f->flags - len, "knee-unreached ");
+		if (b->knee_status == HB_OK && (b->knee.flags & HB_KNEE_MISFIT))
+			len += (size_t)snprintf(f->flags + len, sizeof f->flags - len, "knee-misfit ");
+		if (b->modelfree.cp_corrected)
+			len += (size_t)snprintf(f->flags + len, sizeof f->flags - len, "cp-corrected ");
 		if (b->modelfree.flags & HB_MF_NONMONOTONE)
 			snprintf(f->flags + len, sizeof f->flags - len, "non-monotone");
 	} else {
@@ -466,6 +561,21 @@ static void print_value(FILE *out, const char *label, double v, double se, const
 		fprintf(out, "  %-28s %s\n", label, a);
 }
 
+/* A value shown without a standard error, with the reason there is none. */
+static void print_reason(FILE *out, const char *label, double v, const char *unit, const char *reason)
+{
+	char a[40];
+	if (!isfinite(v)) {
+		fprintf(out, "  %-28s %s\n", label, reason);
+		return;
+	}
+	if (!*unit)
+		snprintf(a, sizeof a, "%.6g", v);
+	else
+		hb_format_si(a, sizeof a, v, unit, 5);
+	fprintf(out, "  %-28s %s  (%s)\n", label, a, reason);
+}
+
 void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 {
 	if (!s->ran)
@@ -496,17 +606,44 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 		return;
 	}
 	print_value(out, "L0 (zero bias)", mf->L0, mf->L0_std_err, "H");
+	char beyond[72];
+	snprintf(beyond, sizeof beyond, HB_FIT_REASON_BEYOND " (highest bias %#.3g A)", mf->I_max);
+	if (mf->cp_corrected) {
+		char cbuf[32];
+		fprintf(out, "  (L0 and the drop currents are the part's own L: readings corrected for the winding\n"
+			     "   capacitance %s from frequency sweep %lld; cp_corrected: true)\n",
+			hb_format_si(cbuf, sizeof cbuf, s->cp_farad, "F", 3), (long long)s->cp_sweep_id);
+		print_value(out, "L0 as read (Cp included)", mf->L0_reading, NAN, "H");
+	} else {
+		fprintf(out, "  (no winding capacitance known for this unit: readings not corrected; cp_corrected: false)\n");
+	}
 	for (size_t i = 0; i < mf->n_drops; i++) {
 		char label[48];
 		snprintf(label, sizeof label, "current at -%g %% L", mf->drop[i].fraction * 100);
 		if (mf->drop[i].reached)
 			print_value(out, label, mf->drop[i].current, mf->drop[i].std_err, "A");
 		else
-			fprintf(out, "  %-28s not reached (sweep stopped at %.4g A)\n", label, mf->I_max);
+			fprintf(out, "  %-28s %s\n", label, beyond);
 	}
 	if (b->knee_status == HB_OK) {
-		print_value(out, "knee model: knee current", b->knee.knee_current, NAN, "A");
-		print_value(out, "knee model: floor Lf", b->knee.param[HB_KNEE_LF], b->knee.std_err[HB_KNEE_LF], "H");
+		const hb_fit_knee_result *k = &b->knee;
+		bool misfit = k->flags & HB_KNEE_MISFIT;
+		/* a misfitting model's numbers never stand unmarked beside the measured ones */
+		const char *tag = misfit ? "knee model (MISFIT):" : "knee model:";
+		if (misfit)
+			fprintf(out, "  knee model MISFIT: residuals %.1f x the reading noise; its values do not describe "
+				     "this part\n", k->noise_ratio);
+		char label[64];
+		snprintf(label, sizeof label, "%s knee current", tag);
+		if (isfinite(k->knee_current))
+			print_value(out, label, k->knee_current, NAN, "A");
+		else
+			fprintf(out, "  %-28s %s\n", label, beyond);
+		snprintf(label, sizeof label, "%s floor Lf", tag);
+		if (k->undetermined & (1u << HB_KNEE_LF))
+			print_reason(out, label, k->param[HB_KNEE_LF], "H", HB_FIT_REASON_UNDETERMINED);
+		else
+			print_value(out, label, k->param[HB_KNEE_LF], k->std_err[HB_KNEE_LF], "H");
 	}
 	if (b->core_status == HB_OK) {
 		const hb_fit_core_result *c = &b->core;
@@ -516,18 +653,40 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 			if (c->law[l].status == HB_OK)
 				fprintf(out, "%s%s %.1f", l ? ", " : "", hb_core_law_name((hb_core_law)l), c->law[l].aicc);
 		fprintf(out, ")\n");
+		if (c->flags & HB_CORE_NO_LAW_FITS)
+			fprintf(out, "  core model MISFIT: residuals %.1f x the reading noise; its values (marked) do not "
+				     "describe this part\n", c->noise_ratio);
 		if (isfinite(s->cp_farad)) {
 			char cbuf[32];
 			fprintf(out, "  corrected for the winding capacitance %s (frequency sweep %lld)\n",
 				hb_format_si(cbuf, sizeof cbuf, s->cp_farad, "F", 3), (long long)s->cp_sweep_id);
 		}
-		print_value(out, "mu_i (material)", lr->param[HB_CORE_MU_I], lr->std_err[HB_CORE_MU_I], "");
-		print_value(out, "gap, magnetic (effective)", lr->param[HB_CORE_GAP], lr->std_err[HB_CORE_GAP], "m");
-		print_value(out, "gap, physical (fringing)", c->gap_physical, c->gap_physical_se, "m");
-		print_value(out, "Js (saturation polarisation)", lr->param[HB_CORE_BSAT], lr->std_err[HB_CORE_BSAT], "T");
+		bool mis = c->flags & HB_CORE_NO_LAW_FITS;
+		static const char *const plabel[] = { "mu_i (material)", "gap, magnetic (effective)",
+						      "Js (saturation polarisation)" };
+		static const char *const punit[] = { "", "m", "T" };
+		for (int j = 0; j < HB_CORE_NP; j++) {
+			char label[64];
+			snprintf(label, sizeof label, "%s%s", plabel[j], mis ? " (misfit)" : "");
+			if (lr->undetermined & (1u << j))
+				print_reason(out, label, lr->param[j], punit[j], HB_FIT_REASON_UNDETERMINED);
+			else
+				print_value(out, label, lr->param[j], lr->std_err[j], punit[j]);
+			if (j == HB_CORE_GAP) {
+				snprintf(label, sizeof label, "gap, physical (fringing)%s", mis ? " (misfit)" : "");
+				if (lr->undetermined & (1u << HB_CORE_GAP))
+					print_reason(out, label, c->gap_physical, "m", HB_FIT_REASON_UNDETERMINED);
+				else
+					print_value(out, label, c->gap_physical, c->gap_physical_se, "m");
+			}
+		}
 		print_value(out, "mu_e", c->mu_e, c->mu_e_se, "");
 		print_value(out, "AL", c->AL, c->AL_se, "H");
-		print_value(out, "B peak at rated current", c->B_peak, c->B_peak_se, "T");
+		if (c->rated_current > mf->I_max)
+			fprintf(out, "  %-28s %s\n", "B peak at rated current", beyond);
+		else
+			print_value(out, mis ? "B peak at rated (misfit)" : "B peak at rated current", c->B_peak, c->B_peak_se,
+				    "T");
 		if (lr->undetermined) {
 			fprintf(out, "  not determined by these data:");
 			static const char *names[] = { "mu_i", "gap", "Js" };
@@ -536,11 +695,11 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 					fprintf(out, " %s", names[j]);
 			fprintf(out, " (the sweep may not reach the knee; mu_e and AL still hold)\n");
 		}
-		if (c->flags & HB_CORE_NO_LAW_FITS)
-			fprintf(out, "  residuals are %.1f x the reading noise: no saturation law describes this part well;\n"
-				     "  rely on the model-free values above\n", c->noise_ratio);
 	}
-	print_value(out, "stored energy at rated", b->W_rated, NAN, "J");
+	if (b->rated_current > mf->I_max)
+		fprintf(out, "  %-28s %s\n", "stored energy at rated", beyond);
+	else
+		print_value(out, "stored energy at rated", b->W_rated, NAN, "J");
 	if (isfinite(s->dcr_ohm))
 		print_value(out, s->dcr_from_meter ? "DCR (meter)" : "DCR (two-wire, leads incl.)", s->dcr_ohm, NAN, "ohm");
 	if (s->n_checks) {
@@ -567,6 +726,24 @@ static json_t *num(double v)
 	return isfinite(v) ? json_real(v) : json_null();
 }
 
+json_t *hb_analysis_value_object(double value, double std_err, const char *unit, const char *reason, bool misfit)
+{
+	json_t *o = json_object();
+	json_object_set_new(o, "value", num(value));
+	json_object_set_new(o, "std_err", num(std_err));
+	json_object_set_new(o, "unit", json_string(unit));
+	if (reason && *reason)
+		json_object_set_new(o, "reason", json_string(reason));
+	if (misfit)
+		json_object_set_new(o, "misfit", json_true());
+	return o;
+}
+
+json_t *hb_analysis_value_json(const hb_fit_value *v)
+{
+	return hb_analysis_value_object(v->value, v->std_err, v->unit, v->reason, v->misfit);
+}
+
 json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 {
 	json_t *j = json_object();
@@ -579,14 +756,10 @@ json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 	if (s->kind == HB_DB_SWEEP_BIAS) {
 		json_object_set_new(j, "model", json_string(s->bias.model));
 		json_object_set_new(j, "note", json_string(HB_FIT_INCREMENTAL_NOTE));
-		for (size_t i = 0; i < s->bias.values.count; i++) {
-			const hb_fit_value *v = &s->bias.values.v[i];
-			json_t *o = json_object();
-			json_object_set_new(o, "value", num(v->value));
-			json_object_set_new(o, "std_err", num(v->std_err));
-			json_object_set_new(o, "unit", json_string(v->unit));
-			json_object_set_new(vals, v->name, o);
-		}
+		json_object_set_new(j, "cp_corrected", json_boolean(s->bias.modelfree.cp_corrected));
+		json_object_set_new(j, "L0_basis", json_string(s->bias.modelfree.L0_basis));
+		for (size_t i = 0; i < s->bias.values.count; i++)
+			json_object_set_new(vals, s->bias.values.v[i].name, hb_analysis_value_json(&s->bias.values.v[i]));
 		if (s->bias.core_status == HB_OK) {
 			const hb_fit_core_result *c = &s->bias.core;
 			json_object_set_new(j, "law", json_string(hb_core_law_name(c->best)));

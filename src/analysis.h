@@ -54,6 +54,23 @@ int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *op
 void hb_analysis_print(FILE *out, const hb_analysis_summary *summary);
 json_t *hb_analysis_summary_json(const hb_analysis_summary *summary);
 
+/* Why a stored fit value has no number (value NULL: "beyond the data
+ * (highest bias 2.00 A)") or no standard error ("not determined by these
+ * data"); NULL when it has both. Rebuilt from the stored I_max, the
+ * undetermined bits and the flags, as the store keeps no reason column. */
+const char *hb_analysis_value_reason(const hb_db_fit *fit, const hb_db_fit_value *v, char *buf, size_t cap);
+/* True when the value comes from a model whose residuals exceed the reading
+ * noise (flags "knee-misfit" / "no-law-fits"); *noise_ratio (may be NULL)
+ * gets that model's residual rms over the noise. */
+bool hb_analysis_value_misfit(const hb_db_fit *fit, const char *name, double *noise_ratio);
+
+/* One value as JSON, the one shape every output uses:
+ * {"value": 3.7 | null, "std_err": 0.02 | null, "unit": "A",
+ *  "reason": "beyond the data (highest bias 2.00 A)"   (only when value or std_err is null for a reason),
+ *  "misfit": true                                     (only for a model whose residuals exceed the noise)} */
+json_t *hb_analysis_value_object(double value, double std_err, const char *unit, const char *reason, bool misfit);
+json_t *hb_analysis_value_json(const hb_fit_value *v);
+
 /* The up-going points of a bias sweep with a finite reading, in strictly
  * increasing current (measured where the supply reported it). Caller frees
  * *current and *inductance. */

@@ -156,7 +156,12 @@ static void add_bias_models(hb_plot *plot, const sweep_data *d, double i_max)
 	if (isfinite(knee[0]) && isfinite(knee[1]) && isfinite(knee[2]) && isfinite(knee[3])) {
 		for (int k = 0; k < MODEL_POINTS; k++)
 			L[k] = hb_fit_knee_eval(knee, I[k]);
-		hb_plot_add_series(plot, HB_AXIS_Y, I, L, MODEL_POINTS, "knee model", HB_PLOT_LINE);
+		double ratio = NAN;
+		char label[64] = "knee model";
+		/* a misfitting curve says so in the legend, beside the points it misses */
+		if (d->have_fit && hb_analysis_value_misfit(d->fit, "knee.L0", &ratio))
+			snprintf(label, sizeof label, "knee model (MISFIT, residuals %.0f x noise)", ratio);
+		hb_plot_add_series(plot, HB_AXIS_Y, I, L, MODEL_POINTS, label, HB_PLOT_LINE);
 	}
 	hb_core_law law;
 	/* Fits from hb-fit 1.0 stored the saturation value as core.bsat. */
@@ -170,7 +175,12 @@ static void add_bias_models(hb_plot *plot, const sweep_data *d, double i_max)
 					 isfinite(d->part.window_m) ? d->part.window_m : 0 };
 		if (hb_core_model_eval(law, &par, &geo, I, MODEL_POINTS, L, NULL) == HB_OK) {
 			char label[64];
-			snprintf(label, sizeof label, "core model (%s)", hb_core_law_name(law));
+			double ratio = NAN;
+			if (hb_analysis_value_misfit(d->fit, "core.mu_i", &ratio))
+				snprintf(label, sizeof label, "core model (%s, MISFIT, residuals %.1f x noise)",
+					 hb_core_law_name(law), ratio);
+			else
+				snprintf(label, sizeof label, "core model (%s)", hb_core_law_name(law));
 			hb_plot_add_series(plot, HB_AXIS_Y, I, L, MODEL_POINTS, label, HB_PLOT_LINE);
 		}
 	}
@@ -629,11 +639,24 @@ static void verdict_section(hb_html *h, const sweep_data *d)
 	hb_html_section_end(h);
 }
 
+static bool flag_token(const hb_db_fit *f, const char *token)
+{
+	size_t len = strlen(token);
+	for (const char *p = f->flags; (p = strstr(p, token)) != NULL; p += len)
+		if ((p == f->flags || p[-1] == ' ') && (p[len] == 0 || p[len] == ' '))
+			return true;
+	return false;
+}
+
 /* What a stored fit value means, in words a reviewer can check. */
 static const char *value_meaning(const char *name, char *buf, size_t cap)
 {
 	static const struct { const char *name, *text; } known[] = {
-		{ "L0", "zero-bias inductance, model-free (polynomial through the first points, at I = 0)" },
+		{ "L0", "zero-bias inductance, model-free (polynomial in I^2, or with an |I| term, through the points "
+			"below the knee, at I = 0)" },
+		{ "L0_reading", "zero-bias inductance as the meter reads it, winding capacitance included" },
+		{ "knee.noise_ratio", "knee model: residual rms over reading noise" },
+		{ "knee.undetermined", "knee model: parameters the data do not determine (bit set)" },
 		{ "noise_sigma", "reading noise used for the uncertainties" },
 		{ "I_max", "highest bias current of the sweep" },
 		{ "L_at_max", "inductance at the highest bias current" },
@@ -724,18 +747,62 @@ static void fit_section(hb_html *h, const sweep_data *d)
 	hb_html_kv_row(h, "Goodness of fit", line);
 	hb_html_kv_row(h, "Flags", f->flags[0] ? f->flags : "none");
 	hb_html_kv_end(h);
+	/* A misfitting model is named before its values, and each of its values
+	 * carries the mark in its own row: never a bare number beside a measured one. */
+	static const struct { const char *probe, *what; } models[] = { { "knee.L0", "knee model" },
+								       { "core.mu_i", "core model" } };
+	for (size_t m = 0; m < sizeof models / sizeof models[0]; m++) {
+		double ratio = NAN;
+		if (hb_analysis_value_misfit(f, models[m].probe, &ratio)) {
+			snprintf(line, sizeof line,
+				 "MISFIT: the %s's residuals are %.1f x the reading noise. Its values below are marked "
+				 "\"misfit\" and do not describe this part; rely on the model-free values.",
+				 models[m].what, ratio);
+			hb_html_paragraph(h, line);
+		}
+	}
+	if (flag_token(f, "cp-corrected"))
+		hb_html_paragraph(h, "L0 and the drop currents are the part's own inductance: every reading was corrected "
+				     "for the winding capacitance Cp_used (cp_corrected: true); L0_reading is L0 as the "
+				     "meter reads it, Cp included.");
+	else if (d->sweep.kind == HB_DB_SWEEP_BIAS)
+		hb_html_paragraph(h, "No winding capacitance was known for this unit: the readings are not corrected for "
+				     "it (cp_corrected: false).");
 	static const char *const head[] = { "Value", "Meaning", "Result", "Standard uncertainty", "Relative" };
-	hb_html_table_begin(h, "Uncertainties are one standard deviation from the fit covariance (k = 1).", head, 5);
+	hb_html_table_begin(h,
+			    "Uncertainties are one standard deviation from the fit covariance (k = 1). A value beyond "
+			    "the measured bias range is not given as a number.",
+			    head, 5);
 	for (size_t i = 0; i < f->n_values; i++) {
 		const hb_db_fit_value *v = &f->values[i];
-		char meaning[96], val[48], se[48], rel[24];
+		char meaning[160], val[128], se[96], rel[24], why[96];
+		const char *reason = hb_analysis_value_reason(f, v, why, sizeof why);
+		double ratio = NAN;
+		bool misfit = hb_analysis_value_misfit(f, v->name, &ratio);
 		if (isfinite(v->std_error) && v->std_error > 0 && v->value != 0)
 			snprintf(rel, sizeof rel, "%.2g %%", 100 * v->std_error / fabs(v->value));
 		else
 			snprintf(rel, sizeof rel, "-");
-		const char *cells[5] = { v->name, value_meaning(v->name, meaning, sizeof meaning),
-					 si(val, sizeof val, v->value, v->unit, 5),
-					 isfinite(v->std_error) ? si(se, sizeof se, v->std_error, v->unit, 3) : "-", rel };
+		if (!isfinite(v->value)) {
+			snprintf(val, sizeof val, "%s", reason ? reason : "-");
+		} else {
+			char num[48];
+			si(num, sizeof num, v->value, v->unit, 5);
+			snprintf(val, sizeof val, "%s%s", num, misfit ? " (misfit)" : "");
+		}
+		if (isfinite(v->std_error))
+			si(se, sizeof se, v->std_error, v->unit, 3);
+		else if (reason && isfinite(v->value))
+			snprintf(se, sizeof se, "none (%s)", reason);
+		else
+			snprintf(se, sizeof se, "-");
+		const char *mean = value_meaning(v->name, meaning, sizeof meaning);
+		char mbuf[200];
+		if (misfit) {
+			snprintf(mbuf, sizeof mbuf, "%s [model misfit: residuals %.1f x the reading noise]", mean, ratio);
+			mean = mbuf;
+		}
+		const char *cells[5] = { v->name, mean, val, se, rel };
 		hb_html_table_row(h, cells, 5);
 	}
 	hb_html_table_end(h);

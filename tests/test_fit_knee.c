@@ -353,6 +353,118 @@ static void test_modelfree_cp_corrected(void **state)
 	assert_true(fabs(plain.drop[2].current - drop_current(truth, 0.3)) > 0.01);
 }
 
+/* Every current in the filed values lies within the measured range, or
+ * carries no number and says why; a parameter not determined carries no
+ * standard error. (Rule of the issue "honest outputs"; the crossings'
+ * places come from the knee law's closed form above.) */
+static void assert_no_value_beyond(const hb_fit_bias_result *res, double i_max)
+{
+	char want[80];
+	snprintf(want, sizeof want, "beyond the data (highest bias %#.3g A)", i_max);
+	for (size_t i = 0; i < res->values.count; i++) {
+		const hb_fit_value *v = &res->values.v[i];
+		if (strcmp(v->unit, "A") != 0 || strcmp(v->name, "rated_current") == 0)
+			continue;
+		if (isfinite(v->value)) {
+			assert_true(v->value <= i_max);
+		} else {
+			assert_true(isnan(v->std_err));
+			assert_string_equal(v->reason, want);
+		}
+	}
+}
+
+static void test_nothing_beyond_the_data(void **state)
+{
+	(void)state;
+	double I[NP], L[NP];
+	hb_fit_options opt;
+	hb_fit_options_init(&opt);
+	opt.noise_sigma = 0.4e-6;
+	hb_fit_bias_result res;
+	/* stopped at 0.85 A: the 10 % and 20 % crossings (0.600, 0.790 A by the
+	 * closed form) lie inside, the 30 % one (0.952 A) beyond */
+	assert_true(drop_current(truth, 0.3) > 0.85 && drop_current(truth, 0.2) < 0.85);
+	make_knee_sweep(0.85, 0, NULL, I, L);
+	for (int i = 0; i < NP; i++)
+		L[i] *= 1 + 1e-6 * sin(3.0 * i); /* keeps the residuals non-zero */
+	assert_int_equal(hb_fit_bias_analyse(I, L, NULL, NP, &opt, &res), HB_OK);
+	assert_int_equal(res.knee_status, HB_OK);
+	assert_no_value_beyond(&res, I[NP - 1]);
+	const hb_fit_value *v = hb_fit_values_find(&res.values, "knee.I_drop30");
+	assert_non_null(v);
+	assert_true(isnan(v->value));
+	assert_string_equal(v->reason, "beyond the data (highest bias 0.850 A)");
+	v = hb_fit_values_find(&res.values, "I_drop30");
+	assert_true(isnan(v->value));
+	v = hb_fit_values_find(&res.values, "knee.I_drop20");
+	assert_true(fabs(v->value - drop_current(truth, 0.2)) < 1e-3);
+	/* Ik = 1.2 A lies beyond 0.85 A too */
+	v = hb_fit_values_find(&res.values, "knee.Ik");
+	assert_true(isnan(v->value));
+
+	/* stopped at 0.29 A, far below the knee: no knee current as a number */
+	make_knee_sweep(0.29, 0.4e-6, NULL, I, L);
+	gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+	gsl_rng_set(r, 51);
+	for (int i = 0; i < NP; i++)
+		L[i] += gsl_ran_gaussian(r, 0.4e-6);
+	gsl_rng_free(r);
+	assert_int_equal(hb_fit_bias_analyse(I, L, NULL, NP, &opt, &res), HB_OK);
+	assert_no_value_beyond(&res, I[NP - 1]);
+	v = hb_fit_values_find(&res.values, "knee.I_knee");
+	if (v) {
+		assert_true(isnan(v->value));
+		assert_string_equal(v->reason, "beyond the data (highest bias 0.290 A)");
+	}
+	/* what the data do not determine has no standard error */
+	static const char *const names[] = { "knee.L0", "knee.Lf", "knee.Ik", "knee.p" };
+	if (res.knee_status == HB_OK) {
+		assert_true(res.knee.undetermined != 0);
+		for (int j = 0; j < 4; j++) {
+			v = hb_fit_values_find(&res.values, names[j]);
+			if ((res.knee.undetermined & (1u << j)) && isfinite(v->value)) {
+				assert_true(isnan(v->std_err));
+				assert_string_equal(v->reason, HB_FIT_REASON_UNDETERMINED);
+			}
+		}
+	}
+}
+
+/* A model whose residuals exceed the reading noise is flagged on every value
+ * it gives. Limit: residual rms 3 x the noise (a fit within the noise has a
+ * residual rms near the noise; common practice). */
+static void test_knee_misfit_flagged(void **state)
+{
+	(void)state;
+	double I[NP], L[NP];
+	const double sig = 0.4e-6;
+	hb_fit_options opt;
+	hb_fit_options_init(&opt);
+	opt.noise_sigma = sig;
+	hb_fit_bias_result res;
+	/* the knee law itself plus noise: no flag */
+	gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+	gsl_rng_set(r, 61);
+	make_knee_sweep(4.0, sig, r, I, L);
+	assert_int_equal(hb_fit_bias_analyse(I, L, NULL, NP, &opt, &res), HB_OK);
+	assert_false(res.knee.flags & HB_KNEE_MISFIT);
+	assert_true(res.knee.noise_ratio < 1.5);
+	assert_false(hb_fit_values_find(&res.values, "knee.I_drop10")->misfit);
+	/* a ripple of 10 noise sd the law cannot follow: flagged */
+	for (int i = 0; i < NP; i++)
+		L[i] += 10 * sig * sin(1.7 * i);
+	assert_int_equal(hb_fit_bias_analyse(I, L, NULL, NP, &opt, &res), HB_OK);
+	print_message("misfit ratio %.2f\n", res.knee.noise_ratio);
+	assert_true(res.knee.flags & HB_KNEE_MISFIT);
+	assert_true(hb_fit_values_find(&res.values, "knee.I_drop10")->misfit);
+	assert_true(hb_fit_values_find(&res.values, "knee.Ik")->misfit);
+	/* the model-free values are the data's, never flagged */
+	assert_false(hb_fit_values_find(&res.values, "I_drop10")->misfit);
+	assert_false(hb_fit_values_find(&res.values, "L0")->misfit);
+	gsl_rng_free(r);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -360,6 +472,7 @@ int main(void)
 		cmocka_unit_test(test_modelfree),     cmocka_unit_test(test_curves),
 		cmocka_unit_test(test_analyse),       cmocka_unit_test(test_failure_paths),
 		cmocka_unit_test(test_modelfree_L0_even_laws), cmocka_unit_test(test_modelfree_cp_corrected),
+		cmocka_unit_test(test_nothing_beyond_the_data), cmocka_unit_test(test_knee_misfit_flagged),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }
