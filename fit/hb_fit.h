@@ -325,7 +325,9 @@ typedef struct hb_fit_freq_result {
 	size_t p, dof;
 	double rss;           /* relative: residuals are (Zmodel - Zmeas)/|Zmeas| */
 	double srf, srf_se;   /* 1/(2 pi sqrt(LC)), Hz */
-	double q_peak, q_peak_freq; /* model Q = Xs/Rs, max over the measured range */
+	double q_max, q_max_freq;   /* highest MEASURED Q = w Ls / Rs over the readings (Rs > 0) and its
+				     * frequency; NAN when no reading has Rs > 0. No model Q is given:
+				     * the model's R is constant, the part's is not. */
 	double band_lo, band_hi;    /* measured: Ls within `within` of the lowest-frequency reading */
 	double model_band_hi;       /* model: Ls(f) = (1 + within) L */
 	unsigned undetermined;
@@ -334,7 +336,8 @@ typedef struct hb_fit_freq_result {
 
 /* Converts an |Z|, theta (rad) reading to series Ls, Rs. */
 void hb_fit_z_to_series(double f, double zmag, double theta, double *Ls, double *Rs);
-/* Model series-equivalent Ls, Rs and Q at f. */
+/* Model series-equivalent Ls, Rs and Q at f. The model's R is constant over
+ * frequency, so its Q is not the part's: never report it as such. */
 void hb_fit_freq_eval(const hb_fit_freq_result *res, double f, double *Ls, double *Rs, double *Q);
 /* f strictly increasing, > 0; n >= p + 1. */
 int hb_fit_freq(hb_fit_ws *ws, const double *f, const double *Ls, const double *Rs, size_t n,

@@ -347,8 +347,8 @@ static int store_results(hb_db *db, hb_analysis_summary *s)
 		fit_value(f, "C", q->param[HB_FREQ_C], q->std_err[HB_FREQ_C], "F");
 		fit_value(f, "Rp", q->param[HB_FREQ_RP], q->std_err[HB_FREQ_RP], "ohm");
 		fit_value(f, "srf", q->srf, q->srf_se, "Hz");
-		fit_value(f, "q_peak", q->q_peak, NAN, "");
-		fit_value(f, "q_peak_freq", q->q_peak_freq, NAN, "Hz");
+		fit_value(f, "q_max_measured", q->q_max, NAN, "");
+		fit_value(f, "q_max_measured_freq", q->q_max_freq, NAN, "Hz");
 		fit_value(f, "band_lo", q->band_lo, NAN, "Hz");
 		fit_value(f, "band_hi", q->band_hi, NAN, "Hz");
 		fit_value(f, "model_band_hi", q->model_band_hi, NAN, "Hz");
@@ -592,8 +592,8 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 		print_value(out, "R (series)", q->param[HB_FREQ_R], q->std_err[HB_FREQ_R], "ohm");
 		print_value(out, "C (parallel)", q->param[HB_FREQ_C], q->std_err[HB_FREQ_C], "F");
 		print_value(out, "self-resonance", q->srf, q->srf_se, "Hz");
-		print_value(out, "Q peak", q->q_peak, NAN, "");
-		print_value(out, "  at", q->q_peak_freq, NAN, "Hz");
+		print_value(out, "Q highest measured (X/R)", q->q_max, NAN, "");
+		print_value(out, "  at", q->q_max_freq, NAN, "Hz");
 		print_value(out, "L within 5 % from", q->band_lo, NAN, "Hz");
 		print_value(out, "  up to", q->band_hi, NAN, "Hz");
 		return;
@@ -781,8 +781,9 @@ json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 		json_object_set_new(vals, "C_F", num(q->param[HB_FREQ_C]));
 		json_object_set_new(vals, "srf_Hz", num(q->srf));
 		json_object_set_new(vals, "srf_std_err_Hz", num(q->srf_se));
-		json_object_set_new(vals, "q_peak", num(q->q_peak));
-		json_object_set_new(vals, "q_peak_freq_Hz", num(q->q_peak_freq));
+		/* measured X/R of the readings: the model's constant R would overstate Q */
+		json_object_set_new(vals, "q_max_measured", num(q->q_max));
+		json_object_set_new(vals, "q_max_measured_freq_Hz", num(q->q_max_freq));
 		json_object_set_new(vals, "band_lo_Hz", num(q->band_lo));
 		json_object_set_new(vals, "band_hi_Hz", num(q->band_hi));
 	}
