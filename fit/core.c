@@ -554,6 +554,7 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 	double xw = 0;
 	if (core_eval_point(b->law, mu, g, bs, geo, out->rated_current, &xw, &pt) == 0) {
 		out->B_peak = pt.B;
+		out->H_core_rated = pt.H;
 		double var = 0;
 		double nat[3] = { mu, g, bs }, dn[3];
 		nat_slope(nat, dn);
@@ -567,7 +568,7 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 		if (hb__fit_integrate(ws, energy_integrand, &ec, out->rated_current, &out->W_rated) != HB_OK)
 			out->W_rated = NAN;
 	} else {
-		out->B_peak = out->B_peak_se = out->psi_rated = out->W_rated = NAN;
+		out->B_peak = out->B_peak_se = out->psi_rated = out->W_rated = out->H_core_rated = NAN;
 	}
 	return HB_OK;
 }

@@ -261,6 +261,8 @@ typedef struct hb_fit_core_result {
 	double fringing_factor;              /* F at the physical gap */
 	double rated_current;
 	double B_peak, B_peak_se;            /* model flux density at the rated current, T */
+	double H_core_rated;                 /* model field IN THE CORE at the rated current, A/m: solves
+					      * N I = H le + B(H) g / mu0 (the applied N I / le minus the gap's share) */
 	double psi_rated, W_rated;           /* model flux linkage (Wb) and energy (J) there */
 	double noise_sigma, noise_ratio;     /* residual rms / reading noise */
 	int flags;

@@ -919,6 +919,8 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 					  ext ? beyond : NULL);
 			hb__fit_value_why(v, "core.psi_rated", ext ? NAN : c->psi_rated, NAN, "Wb", ext ? beyond : NULL);
 			hb__fit_value_why(v, "core.W_rated", ext ? NAN : c->W_rated, NAN, "J", ext ? beyond : NULL);
+			hb__fit_value_why(v, "core.H_core_rated", ext ? NAN : c->H_core_rated, NAN, "A/m",
+					  ext ? beyond : NULL);
 			hb__fit_value_add(v, "core.noise_ratio", c->noise_ratio, NAN, "");
 			hb__fit_value_add(v, "core.flags", (double)c->flags, NAN, "");
 			hb__fit_value_add(v, "core.undetermined", (double)b->undetermined, NAN, "");

@@ -238,7 +238,7 @@ static bool undetermined_bit(const hb_db_fit *f, const char *which, int bit)
 static bool current_bound(const char *name, const char *unit)
 {
 	static const char *const at_current[] = { "psi_rated", "W_rated", "B_rated", "knee.L_knee", "core.B_peak",
-						 "core.psi_rated", "core.W_rated" };
+						 "core.psi_rated", "core.W_rated", "core.H_core_rated" };
 	if (strcmp(unit, "A") == 0)
 		return true;
 	for (size_t i = 0; i < sizeof at_current / sizeof at_current[0]; i++)
@@ -695,6 +695,21 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 					fprintf(out, " %s", names[j]);
 			fprintf(out, " (the sweep may not reach the knee; mu_e and AL still hold)\n");
 		}
+	}
+	if (isfinite(b->H_rated)) {
+		/* N I / le is what the winding applies per path length; the core
+		 * itself sees less when a gap takes its share */
+		char label[64];
+		snprintf(label, sizeof label, "applied N I / le at rated");
+		print_value(out, label, b->H_rated, NAN, "A/m");
+	}
+	if (b->core_status == HB_OK) {
+		const hb_fit_core_result *c = &b->core;
+		if (c->rated_current > mf->I_max)
+			fprintf(out, "  %-28s %s\n", "core field H at rated (model)", beyond);
+		else
+			print_value(out, c->flags & HB_CORE_NO_LAW_FITS ? "core field H (model, misfit)" :
+				    "core field H at rated (model)", c->H_core_rated, NAN, "A/m");
 	}
 	if (b->rated_current > mf->I_max)
 		fprintf(out, "  %-28s %s\n", "stored energy at rated", beyond);

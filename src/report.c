@@ -319,7 +319,8 @@ int hb_report_bh_svg(hb_db *db, int64_t sweep_id, char **svg, char *err, size_t 
 		rc = HB_ERR_NOMEM;
 		goto out;
 	}
-	hb_plot_set_axis(plot, HB_AXIS_X, "Field strength H = N I / le", "A/m", false);
+	/* N I / le is the applied mmf per length, gap included: not the core's H */
+	hb_plot_set_axis(plot, HB_AXIS_X, "Applied field per length N I / le", "A/m", false);
 	hb_plot_set_axis(plot, HB_AXIS_Y, "Flux density B", "T", false);
 	hb_plot_add_series(plot, HB_AXIS_Y, H, B, m, "from the measured points", HB_PLOT_LINE_POINTS);
 	if (isfinite(d.part.bsat_t) && d.part.bsat_t > 0)
@@ -664,7 +665,10 @@ static const char *value_meaning(const char *name, char *buf, size_t cap)
 		{ "psi_rated", "flux linkage at that current (integral of L dI)" },
 		{ "W_rated", "stored energy at that current (from the data)" },
 		{ "B_rated", "flux density at that current (from the data)" },
-		{ "H_rated", "field strength at that current" },
+		{ "H_rated", "applied field per length N I / le at that current (magnetomotive force over the path "
+			     "length; not the field in the core)" },
+		{ "core.H_core_rated", "core model: field in the core H at the rated current, solving "
+				       "N I = H le + B(H) g / mu0" },
 		{ "knee.L0", "knee model: L at zero bias" },
 		{ "knee.Lf", "knee model: floor inductance far above the knee" },
 		{ "knee.Ik", "knee model: characteristic current" },
@@ -993,8 +997,9 @@ int hb_report_sweep(hb_db *db, int64_t sweep_id, FILE *out, char *err, size_t er
 		if (d.have_part && part_has_geometry(&d.part)) {
 			rc = hb_report_bh_svg(db, sweep_id, &svg, e, sizeof e);
 			snprintf(cap, sizeof cap,
-				 "Sweep %lld: B = psi/(N Ae) with psi the integral of L dI, against H = N I / le; derived "
-				 "from the measured points and the part's geometry, not measured directly.",
+				 "Sweep %lld: B = psi/(N Ae) with psi the integral of L dI, against the applied field per "
+				 "length N I / le (magnetomotive force over the path length, not the field in the core); "
+				 "derived from the measured points and the part's geometry, not measured directly.",
 				 (long long)sweep_id);
 			figure(h, rc, svg, cap, e);
 		}
