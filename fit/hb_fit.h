@@ -311,6 +311,38 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *current, const double *L
 			   size_t n, const hb_fit_options *opt, hb_fit_bias_result *out);
 
 /* ------------------------------------------------------------------ */
+/* Why a model misfits: checked causes, the law blamed last            */
+/* ------------------------------------------------------------------ */
+
+typedef enum hb_misfit_cause {
+	HB_MISFIT_NONE = 0,        /* residual rms within limit x noise */
+	HB_MISFIT_CURRENT_MOVED,   /* bias spread x |dL/dI| accounts for the residuals */
+	HB_MISFIT_HEATING,         /* the falling-bias readings are off the rising ones by as much */
+	HB_MISFIT_LAW,             /* neither: the law does not follow this part */
+} hb_misfit_cause;
+
+const char *hb_misfit_cause_name(hb_misfit_cause cause); /* "none", "current-moved", "heating", "law-mismatch" */
+
+typedef struct hb_misfit_diag {
+	hb_misfit_cause cause;
+	double residual_rms, noise_ratio; /* rms of the residuals, and over the reading noise */
+	double current_ratio;   /* rms(bias_spread |dL/dI|) / residual rms; NAN = no spread known */
+	size_t current_points;  /* points that had a bias spread */
+	double heating_ratio;   /* rms(L_down - L_up at the same current) / residual rms; NAN = no falling points */
+	size_t heating_points;
+} hb_misfit_diag;
+
+/* current strictly increasing (rising bias) with readings L and a model's residuals
+ * L - model; bias_spread (A, max - min of the supply read-backs around each
+ * accepted reading; NULL or NAN entries = unknown); the falling-bias points
+ * (may be 0). A ratio >= 0.5 counts as comparable: the current's movement
+ * is checked first, then heating, and only then is the law blamed.
+ * "comparable" needs limit (0 -> 3) x noise exceeded first, else NONE. */
+int hb_fit_misfit_diagnose(const double *current, const double *L, const double *resid, const double *bias_spread, size_t n,
+			   const double *current_down, const double *L_down, size_t n_down, double noise, double limit,
+			   hb_misfit_diag *out);
+
+/* ------------------------------------------------------------------ */
 /* 5. Frequency model: (R + j w L) parallel C [parallel Rp]            */
 /* ------------------------------------------------------------------ */
 

@@ -775,7 +775,8 @@ void hb__fit_beyond(char *buf, size_t cap, double i_max)
 
 bool hb_fit_value_is_diagnostic(const char *name)
 {
-	static const char *const tails[] = { ".rss", ".dof", ".noise_ratio", ".undetermined", ".flags" };
+	static const char *const tails[] = { ".rss", ".dof", ".noise_ratio", ".undetermined", ".flags", ".current_ratio",
+					     ".heating_ratio" };
 	if (strncmp(name, "core.aicc.", 10) == 0 || strcmp(name, "core.mu_e") == 0 || strcmp(name, "core.AL") == 0)
 		return true;
 	size_t len = strlen(name);

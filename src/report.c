@@ -755,8 +755,8 @@ static void fit_section(hb_html *h, const sweep_data *d)
 	hb_html_kv_end(h);
 	/* A misfitting model is named before its values, and each of its values
 	 * carries the mark in its own row: never a bare number beside a measured one. */
-	static const struct { const char *probe, *what; } models[] = { { "knee.L0", "knee model" },
-								       { "core.mu_i", "core model" } };
+	static const struct { const char *probe, *what, *which; } models[] = { { "knee.L0", "knee model", "knee" },
+									      { "core.mu_i", "core model", "core" } };
 	for (size_t m = 0; m < sizeof models / sizeof models[0]; m++) {
 		double ratio = NAN;
 		if (hb_analysis_value_misfit(f, models[m].probe, &ratio)) {
@@ -765,6 +765,14 @@ static void fit_section(hb_html *h, const sweep_data *d)
 				 "\"misfit\" and do not describe this part; rely on the model-free values.",
 				 models[m].what, ratio);
 			hb_html_paragraph(h, line);
+			/* the causes checked before the law was blamed */
+			hb_misfit_diag dg;
+			if (hb_analysis_stored_diag(f, models[m].which, &dg)) {
+				char lines[4][HB_ANALYSIS_LINE];
+				size_t k = hb_analysis_misfit_lines(models[m].what, &dg, lines);
+				for (size_t i = 0; i < k; i++)
+					hb_html_paragraph(h, lines[i]);
+			}
 		}
 	}
 	if (flag_token(f, "cp-corrected"))
