@@ -388,7 +388,7 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 	}
 	const double mu0 = HB_FIT_MU0, N = geo->turns;
 	/* the part's own L0 under the reading L0 / (1 - w2c L0) */
-	double L0 = mf.L0, L0_se = mf.L0_std_err;
+	double L0 = mf.L0_part, L0_se = mf.L0_part_std_err;
 	if (!mf.cp_corrected) {
 		L0 = mf.L0 / (1 + w2c * mf.L0);
 		L0_se = mf.L0_std_err / ((1 + w2c * mf.L0) * (1 + w2c * mf.L0));
@@ -406,7 +406,7 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 			q = 0.7, Iq = mf.drop[d].current;
 	if (isnan(q)) {
 		out->flags |= HB_CORE_KNEE_UNREACHED;
-		double ql = mf.L_at_max / mf.L0; /* both corrected alike */
+		double ql = mf.L_at_max / mf.L0_part; /* both corrected alike */
 		if (ql < 0.97)
 			q = ql, Iq = I[n - 1];
 	}

@@ -164,12 +164,13 @@ enum { /* hb_fit_modelfree_result.flags */
 };
 
 typedef struct hb_fit_modelfree {
-	double L0, L0_std_err;  /* zero-bias value: polynomial through the points below the knee, at I = 0;
-				 * the part's own L when cp_corrected */
+	double L0, L0_std_err;  /* zero-bias value as the meter reads it: polynomial through the points
+				 * below the knee, at I = 0 (what a nominal L and older fits mean) */
 	size_t L0_points;
 	char L0_basis[24];      /* the polynomial AICc chose, e.g. "1, I^2, I^4" or "1, |I|, I^2" */
-	double L0_reading;      /* L0 as the meter reads it (with Cp in parallel); = L0 when not corrected */
-	bool cp_corrected;      /* L, L0 and the drop currents are corrected for the winding capacitance */
+	double L0_part, L0_part_std_err; /* the part's own L0, Cp removed; = L0 when not cp_corrected */
+	bool cp_corrected;      /* the drop currents (and L_at_max, L0_part) come from L corrected for the
+				 * winding capacitance: the fractions are of L0_part */
 	double noise_sigma;     /* reading noise used for the uncertainties, H */
 	size_t n_drops;
 	hb_fit_drop drop[HB_FIT_MAX_FRACTIONS];

@@ -312,10 +312,18 @@ int hb_fit_modelfree(const double *I, const double *L_in, const double *sigma, s
 		rc = HB_ERR_DATA;
 		goto out;
 	}
-	out->L0_reading = w2c > 0 ? c0 / (1 - w2c * c0) : c0;
-	if (!(out->L0_reading > 0)) {
-		rc = HB_ERR_ARG; /* the test frequency is at or above the self-resonance */
-		goto out;
+	/* the fit ran on the part's own L; L0 stays the reading, as a
+	 * datasheet's nominal L and every older stored L0 mean it */
+	out->L0_part = c0;
+	out->L0_part_std_err = out->L0_std_err;
+	if (w2c > 0) {
+		double d = 1 - w2c * c0;
+		if (!(d > 0)) {
+			rc = HB_ERR_ARG; /* the test frequency is at or above the self-resonance */
+			goto out;
+		}
+		out->L0 = c0 / d;
+		out->L0_std_err = out->L0_part_std_err / (d * d);
 	}
 	out->I_max = I[n - 1];
 	out->L_at_max = L[n - 1];
@@ -331,11 +339,11 @@ int hb_fit_modelfree(const double *I, const double *L_in, const double *sigma, s
 		w[i + off] = sig[i] > 0 ? 1 / (sig[i] * sig[i]) : 1;
 	}
 	if (off)
-		w[0] = out->L0_std_err > 0 ? 1 / (out->L0_std_err * out->L0_std_err) : w[1];
+		w[0] = out->L0_part_std_err > 0 ? 1 / (out->L0_part_std_err * out->L0_part_std_err) : w[1];
 	m = n + off;
 	pava_decreasing(y, w, m, mono, bw, bstart);
 	for (size_t i = 0; i < m; i++) {
-		double s = i >= off ? sig[i - off] : out->L0_std_err;
+		double s = i >= off ? sig[i - off] : out->L0_part_std_err;
 		if (s > 0 && y[i] - mono[i] < -3 * s)
 			out->flags |= HB_MF_NONMONOTONE;
 	}
@@ -374,10 +382,10 @@ int hb_fit_modelfree(const double *I, const double *L_in, const double *sigma, s
 		dr->current = root;
 		double slope = (mono[j + 1] - mono[j]) / (x[j + 1] - x[j]);
 		double t = (root - x[j]) / (x[j + 1] - x[j]);
-		double sj = j >= off ? sig[j - off] : out->L0_std_err;
+		double sj = j >= off ? sig[j - off] : out->L0_part_std_err;
 		double sj1 = sig[j + 1 - off];
 		double sl = (1 - t) * sj + t * sj1;
-		double sl0 = (1 - fr[d]) * out->L0_std_err;
+		double sl0 = (1 - fr[d]) * out->L0_part_std_err;
 		dr->std_err = sqrt(sl * sl + sl0 * sl0) / fabs(slope);
 	}
 	rc = HB_OK;
@@ -817,7 +825,7 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 	const hb_fit_modelfree_result *mf = &out->modelfree;
 	hb__fit_value_add(v, "L0", mf->L0, mf->L0_std_err, "H");
 	if (mf->cp_corrected)
-		hb__fit_value_add(v, "L0_reading", mf->L0_reading, NAN, "H");
+		hb__fit_value_add(v, "L0_part", mf->L0_part, mf->L0_part_std_err, "H");
 	hb__fit_value_add(v, "noise_sigma", mf->noise_sigma, NAN, "H");
 	drop_values(v, "", mf->drop, mf->n_drops, I[n - 1]);
 	hb__fit_value_add(v, "I_max", mf->I_max, NAN, "A");

@@ -140,8 +140,7 @@ static void judge_bias(hb_analysis_summary *s, const hb_db_part *part, const hb_
 			    (isfinite(sw->test_freq_hz) && fabs(sw->test_freq_hz / part->test_freq_hz - 1) < 0.01);
 	if (isfinite(part->nominal_h) && isfinite(part->tolerance)) {
 		if (at_spec_freq && s->fit_status == HB_OK)
-			/* the spec's L is a meter reading at its test frequency, Cp included */
-			add_check(s, "L0", "H", hb_verdict_tolerance(mf->L0_reading, part->nominal_h, part->tolerance),
+			add_check(s, "L0", "H", hb_verdict_tolerance(mf->L0, part->nominal_h, part->tolerance),
 				  "zero-bias inductance within the nominal tolerance");
 		else
 			add_check(s, "L0", "H", untested(),
@@ -150,7 +149,7 @@ static void judge_bias(hb_analysis_summary *s, const hb_db_part *part, const hb_
 	if (isfinite(part->sat_current_a) && isfinite(part->sat_drop) && s->fit_status == HB_OK) {
 		double l_at = interp_at(I, L, n, part->sat_current_a);
 		if (isfinite(l_at))
-			add_check(s, "Lsat", "H", hb_verdict_min(l_at, (1 - part->sat_drop) * mf->L0_reading),
+			add_check(s, "Lsat", "H", hb_verdict_min(l_at, (1 - part->sat_drop) * mf->L0),
 				  "L at the saturation-spec current at least (1 - drop) L0");
 		else
 			add_check(s, "Lsat", "H", untested(), "sweep did not reach the saturation-spec current");
@@ -786,17 +785,18 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 		fprintf(out, "  %s\n", s->message);
 		return;
 	}
-	print_value(out, "L0 (zero bias)", mf->L0, mf->L0_std_err, "H");
+	print_value(out, mf->cp_corrected ? "L0 (zero bias, as read)" : "L0 (zero bias)", mf->L0, mf->L0_std_err, "H");
 	char beyond[72];
 	snprintf(beyond, sizeof beyond, HB_FIT_REASON_BEYOND " (highest bias %#.3g A)", mf->I_max);
 	if (mf->cp_corrected) {
 		char cbuf[32];
-		fprintf(out, "  (L0 and the drop currents are the part's own L: readings corrected for the winding\n"
-			     "   capacitance %s from frequency sweep %lld; cp_corrected: true)\n",
+		fprintf(out, "  (drop currents from the part's own L: readings corrected for the winding capacitance\n"
+			     "   %s from frequency sweep %lld; cp_corrected: true)\n",
 			hb_format_si(cbuf, sizeof cbuf, s->cp_farad, "F", 3), (long long)s->cp_sweep_id);
-		print_value(out, "L0 as read (Cp included)", mf->L0_reading, NAN, "H");
+		print_value(out, "L0 of the part (Cp removed)", mf->L0_part, mf->L0_part_std_err, "H");
 	} else {
-		fprintf(out, "  (no winding capacitance known for this unit: readings not corrected; cp_corrected: false)\n");
+		fprintf(out, "  (no winding capacitance known for this unit: drop currents from the readings as they are;\n"
+			     "   cp_corrected: false)\n");
 	}
 	for (size_t i = 0; i < mf->n_drops; i++) {
 		char label[48];

@@ -655,7 +655,7 @@ static const char *value_meaning(const char *name, char *buf, size_t cap)
 	static const struct { const char *name, *text; } known[] = {
 		{ "L0", "zero-bias inductance, model-free (polynomial in I^2, or with an |I| term, through the points "
 			"below the knee, at I = 0)" },
-		{ "L0_reading", "zero-bias inductance as the meter reads it, winding capacitance included" },
+		{ "L0_part", "zero-bias inductance of the part itself, the winding capacitance removed" },
 		{ "knee.noise_ratio", "knee model: residual rms over reading noise" },
 		{ "knee.undetermined", "knee model: parameters the data do not determine (bit set)" },
 		{ "noise_sigma", "reading noise used for the uncertainties" },
@@ -776,12 +776,12 @@ static void fit_section(hb_html *h, const sweep_data *d)
 		}
 	}
 	if (flag_token(f, "cp-corrected"))
-		hb_html_paragraph(h, "L0 and the drop currents are the part's own inductance: every reading was corrected "
-				     "for the winding capacitance Cp_used (cp_corrected: true); L0_reading is L0 as the "
-				     "meter reads it, Cp included.");
+		hb_html_paragraph(h, "The drop currents come from the part's own inductance: every reading was corrected "
+				     "for the winding capacitance Cp_used (cp_corrected: true), and the fractions are of "
+				     "L0_part. L0 is the zero-bias value as the meter reads it, Cp included.");
 	else if (d->sweep.kind == HB_DB_SWEEP_BIAS)
-		hb_html_paragraph(h, "No winding capacitance was known for this unit: the readings are not corrected for "
-				     "it (cp_corrected: false).");
+		hb_html_paragraph(h, "No winding capacitance was known for this unit: the drop currents come from the "
+				     "readings as they are (cp_corrected: false).");
 	static const char *const head[] = { "Value", "Meaning", "Result", "Standard uncertainty", "Relative" };
 	hb_html_table_begin(h,
 			    "Uncertainties are one standard deviation from the fit covariance (k = 1). A value beyond "

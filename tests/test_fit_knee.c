@@ -338,10 +338,13 @@ static void test_modelfree_cp_corrected(void **state)
 	assert_int_equal(hb_fit_modelfree(I, L, NULL, NP, &opt, &corr), HB_OK);
 	assert_false(plain.cp_corrected);
 	assert_true(corr.cp_corrected);
-	print_message("L0 corrected %.6g (%s), reading %.6g, law %.6g H\n", corr.L0, corr.L0_basis, corr.L0_reading, truth[0]);
+	print_message("L0 of the part %.6g (%s), as read %.6g, law %.6g H\n", corr.L0_part, corr.L0_basis, corr.L0,
+		      truth[0]);
 	/* w^2 L0 Cp = 4.7 %: a 0.1 % match tells corrected from not */
-	assert_true(fabs(corr.L0 - truth[0]) < 1e-3 * truth[0]);
-	assert_true(fabs(corr.L0_reading - truth[0] / (1 - w2c * truth[0])) < 1e-3 * truth[0]);
+	assert_true(fabs(corr.L0_part - truth[0]) < 1e-3 * truth[0]);
+	assert_true(fabs(corr.L0 - truth[0] / (1 - w2c * truth[0])) < 1e-3 * truth[0]);
+	assert_true(fabs(plain.L0 - corr.L0) < 1e-3 * corr.L0);
+	assert_true(plain.L0_part == plain.L0);
 	for (size_t d = 0; d < 3; d++) {
 		double want = drop_current(truth, corr.drop[d].fraction);
 		print_message("drop %g: corrected %.4f, reading %.4f, law %.4f A\n", corr.drop[d].fraction,
