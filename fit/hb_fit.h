@@ -118,6 +118,7 @@ void hb_fit_options_init(hb_fit_options *opt);
  * the data do not determine it. Outputs print the reason, never a number. */
 #define HB_FIT_REASON_BEYOND "beyond the data"
 #define HB_FIT_REASON_UNDETERMINED "not determined by these data"
+#define HB_FIT_REASON_FLOOR_HELD "held at 0: the sweep shows no floor"
 
 typedef struct hb_fit_value {
 	char name[40];   /* e.g. "knee.Ik", "core.mu_e" */

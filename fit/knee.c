@@ -856,9 +856,9 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 	hb__fit_value_why(v, "W_rated", out->W_rated, NAN, "J", why_rated);
 	if (have_geo) {
 		hb__fit_value_why(v, "B_rated", out->B_rated, NAN, "T", why_rated);
-		/* N I / le is the applied field per length at a chosen current:
-		 * arithmetic on an input, not a reading, so no reason applies */
-		hb__fit_value_add(v, "H_rated", out->H_rated, NAN, "A/m");
+		/* N I / le at a rated current above the sweep is no finding of
+		 * this measurement: no number there either */
+		hb__fit_value_why(v, "H_rated", why_rated ? NAN : out->H_rated, NAN, "A/m", why_rated);
 	}
 
 	if (opt->knee) {
@@ -876,6 +876,9 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 				if (j == HB_KNEE_IK && !(val <= I[n - 1])) {
 					val = se = NAN;
 					why = beyond;
+				} else if (j == HB_KNEE_LF && (k->flags & HB_KNEE_FLOOR_HELD)) {
+					se = NAN; /* held, not fitted: no uncertainty of its own */
+					why = HB_FIT_REASON_FLOOR_HELD;
 				} else if (k->undetermined & (1u << j)) {
 					se = NAN;
 					why = HB_FIT_REASON_UNDETERMINED;
@@ -890,6 +893,7 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 			hb__fit_value_add(v, "knee.dof", (double)k->dof, NAN, "");
 			hb__fit_value_add(v, "knee.noise_ratio", k->noise_ratio, NAN, "");
 			hb__fit_value_add(v, "knee.undetermined", (double)k->undetermined, NAN, "");
+			hb__fit_value_add(v, "knee.flags", (double)k->flags, NAN, "");
 			if (k->flags & HB_KNEE_MISFIT)
 				mark_misfit(v, "knee.");
 			set_headline(out, "knee", 4, names, k->cov, k->rss, k->dof);

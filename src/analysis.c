@@ -329,7 +329,8 @@ static bool undetermined_bit(const hb_db_fit *f, const char *which, int bit)
 /* Values that lie at a current: without a number they lie beyond the data. */
 static bool current_bound(const char *name, const char *unit)
 {
-	static const char *const at_current[] = { "psi_rated", "W_rated", "B_rated", "knee.L_knee", "core.B_peak",
+	static const char *const at_current[] = { "psi_rated",	 "W_rated",	   "B_rated",
+						 "H_rated",	 "knee.L_knee",	   "core.B_peak",
 						 "core.psi_rated", "core.W_rated", "core.H_core_rated" };
 	if (strcmp(unit, "A") == 0)
 		return true;
@@ -353,6 +354,11 @@ const char *hb_analysis_value_reason(const hb_db_fit *f, const hb_db_fit_value *
 	}
 	if (isfinite(v->std_error))
 		return NULL;
+	const hb_db_fit_value *kf = stored_find(f, "knee.flags");
+	if (strcmp(v->name, "knee.Lf") == 0 && kf && isfinite(kf->value) && ((unsigned)kf->value & HB_KNEE_FLOOR_HELD)) {
+		snprintf(buf, cap, HB_FIT_REASON_FLOOR_HELD);
+		return buf;
+	}
 	static const struct { const char *name, *bits; int bit; } params[] = {
 		{ "knee.L0", "knee.undetermined", HB_KNEE_L0 },   { "knee.Lf", "knee.undetermined", HB_KNEE_LF },
 		{ "knee.Ik", "knee.undetermined", HB_KNEE_IK },   { "knee.p", "knee.undetermined", HB_KNEE_P },
@@ -821,7 +827,9 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 		else
 			fprintf(out, "  %-28s %s\n", label, beyond);
 		snprintf(label, sizeof label, "%s floor Lf", tag);
-		if (k->undetermined & (1u << HB_KNEE_LF))
+		if (k->flags & HB_KNEE_FLOOR_HELD)
+			print_reason(out, label, k->param[HB_KNEE_LF], "H", HB_FIT_REASON_FLOOR_HELD);
+		else if (k->undetermined & (1u << HB_KNEE_LF))
 			print_reason(out, label, k->param[HB_KNEE_LF], "H", HB_FIT_REASON_UNDETERMINED);
 		else
 			print_value(out, label, k->param[HB_KNEE_LF], k->std_err[HB_KNEE_LF], "H");
@@ -877,13 +885,12 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 			fprintf(out, " (the sweep may not reach the knee; mu_e and AL still hold)\n");
 		}
 	}
-	if (isfinite(b->H_rated)) {
+	if (b->rated_current > mf->I_max && isfinite(b->H_rated))
+		fprintf(out, "  %-28s %s\n", "applied N I / le at rated", beyond);
+	else if (isfinite(b->H_rated))
 		/* N I / le is what the winding applies per path length; the core
 		 * itself sees less when a gap takes its share */
-		char label[64];
-		snprintf(label, sizeof label, "applied N I / le at rated");
-		print_value(out, label, b->H_rated, NAN, "A/m");
-	}
+		print_value(out, "applied N I / le at rated", b->H_rated, NAN, "A/m");
 	if (b->core_status == HB_OK) {
 		const hb_fit_core_result *c = &b->core;
 		if (c->rated_current > mf->I_max)

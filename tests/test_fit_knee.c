@@ -405,6 +405,17 @@ static void test_nothing_beyond_the_data(void **state)
 	/* Ik = 1.2 A lies beyond 0.85 A too */
 	v = hb_fit_values_find(&res.values, "knee.Ik");
 	assert_true(isnan(v->value));
+	/* a rated current above the sweep: nothing evaluated there is a number */
+	opt.rated_current = 1.0;
+	assert_int_equal(hb_fit_bias_analyse(I, L, NULL, NP, &opt, &res), HB_OK);
+	static const char *const at_rated[] = { "psi_rated", "W_rated" };
+	for (int k = 0; k < 2; k++) {
+		v = hb_fit_values_find(&res.values, at_rated[k]);
+		assert_non_null(v);
+		assert_true(isnan(v->value));
+		assert_string_equal(v->reason, "beyond the data (highest bias 0.850 A)");
+	}
+	opt.rated_current = 0;
 
 	/* stopped at 0.29 A, far below the knee: no knee current as a number */
 	make_knee_sweep(0.29, 0.4e-6, NULL, I, L);
