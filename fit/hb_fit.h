@@ -340,9 +340,9 @@ typedef struct hb_misfit_diag {
  * (may be 0). A ratio >= 0.5 counts as comparable: the current's movement
  * is checked first, then heating, and only then is the law blamed.
  * "comparable" needs limit (0 -> 3) x noise exceeded first, else NONE. */
-int hb_fit_misfit_diagnose(const double *current, const double *L, const double *resid, const double *bias_spread, size_t n,
-			   const double *current_down, const double *L_down, size_t n_down, double noise, double limit,
-			   hb_misfit_diag *out);
+int hb_fit_misfit_diagnose(const double *current, const double *L, const double *resid, const double *bias_spread,
+			   size_t n, const double *current_down, const double *L_down, size_t n_down, double noise,
+			   double limit, hb_misfit_diag *out);
 
 /* ------------------------------------------------------------------ */
 /* 5. Frequency model: (R + j w L) parallel C [parallel Rp]            */

@@ -1,4 +1,4 @@
-/* fit/misfit.c - why a model's residuals exceed the reading noise: current moving during the readings, heating, or the law */
+/* fit/misfit.c - why a model misfits: the current moving during the readings, heating, or the law */
 #include <math.h>
 #include <string.h>
 
@@ -38,9 +38,9 @@ static double rising_at(const double *I, const double *L, size_t n, double x)
 	return NAN;
 }
 
-int hb_fit_misfit_diagnose(const double *I, const double *L, const double *resid, const double *bias_spread, size_t n,
-			   const double *I_down, const double *L_down, size_t n_down, double noise, double limit,
-			   hb_misfit_diag *out)
+int hb_fit_misfit_diagnose(const double *I, const double *L, const double *resid, const double *bias_spread,
+			   size_t n, const double *I_down, const double *L_down, size_t n_down, double noise,
+			   double limit, hb_misfit_diag *out)
 {
 	if (!out)
 		return HB_ERR_ARG;

@@ -722,7 +722,8 @@ static const char *value_meaning(const char *name, char *buf, size_t cap)
 	int p = 0;
 	char tail = 0;
 	if (sscanf(name, "I_drop%d%c", &p, &tail) == 1)
-		snprintf(buf, cap, "current where L has fallen %d %% below L0 (model-free)", p);
+		snprintf(buf, cap, "current where L has fallen %d %% below L0 (model-free; of L0_part when Cp-corrected)",
+			 p);
 	else if (sscanf(name, "knee.I_drop%d%c", &p, &tail) == 1)
 		snprintf(buf, cap, "knee model: current where L has fallen %d %% below L0", p);
 	else if (strncmp(name, "core.aicc.", 10) == 0)

@@ -1,4 +1,4 @@
-/* tests/test_fit_misfit.c - fit/misfit.c: the residual warning checks the current's movement and heating before the law */
+/* tests/test_fit_misfit.c - fit/misfit.c: the current's movement and heating are checked before the law */
 #include <math.h>
 #include <setjmp.h>
 #include <stdarg.h>
