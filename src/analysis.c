@@ -365,6 +365,7 @@ const char *hb_analysis_value_reason(const hb_db_fit *f, const hb_db_fit_value *
 		{ "core.mu_i", "core.undetermined", HB_CORE_MU_I }, { "core.gap", "core.undetermined", HB_CORE_GAP },
 		{ "core.Js", "core.undetermined", HB_CORE_BSAT }, { "core.gap_implied", "core.undetermined", HB_CORE_MU_I },
 		{ "core.gap_physical", "core.undetermined", HB_CORE_GAP },
+		{ HB_DB_FV_GAP, "core.undetermined", HB_CORE_GAP }, { HB_DB_FV_GAP, "core.undetermined", HB_CORE_MU_I },
 	};
 	for (size_t i = 0; i < sizeof params / sizeof params[0]; i++)
 		if (strcmp(v->name, params[i].name) == 0 && undetermined_bit(f, params[i].bits, params[i].bit)) {
@@ -443,6 +444,10 @@ static int store_results(hb_db *db, hb_analysis_summary *s)
 			fit_value(f, HB_DB_FV_MU_E, b->core.mu_e, b->core.mu_e_se, "");
 			double gap = isfinite(b->core.gap_physical) ? b->core.gap_physical : b->core.gap_implied;
 			double gap_se = isfinite(b->core.gap_physical) ? b->core.gap_physical_se : b->core.gap_implied_se;
+			/* from a parameter not determined: no standard error */
+			unsigned und = b->core.law[b->core.best].undetermined;
+			if (und & (1u << (isfinite(b->core.gap_physical) ? HB_CORE_GAP : HB_CORE_MU_I)))
+				gap_se = NAN;
 			fit_value(f, HB_DB_FV_GAP, gap, gap_se, "m");
 		}
 		fit_value(f, "DCR", s->dcr_ohm, NAN, "ohm");
@@ -970,15 +975,18 @@ json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 		if (s->bias.core_status == HB_OK) {
 			const hb_fit_core_result *c = &s->bias.core;
 			json_object_set_new(j, "law", json_string(hb_core_law_name(c->best)));
-			json_t *o = json_object();
-			json_object_set_new(o, "value", num(c->law[c->best].param[HB_CORE_MU_I]));
-			json_object_set_new(o, "std_err", num(c->law[c->best].std_err[HB_CORE_MU_I]));
-			json_object_set_new(vals, "mu_i", o);
-			o = json_object();
-			json_object_set_new(o, "value", num(c->gap_physical));
-			json_object_set_new(o, "std_err", num(c->gap_physical_se));
-			json_object_set_new(o, "unit", json_string("m"));
-			json_object_set_new(vals, "gap", o);
+			/* the history's names, with the same honesty as core.* */
+			const hb_fit_core_law_result *lr = &c->law[c->best];
+			bool mis = c->flags & HB_CORE_NO_LAW_FITS;
+			bool u_mu = lr->undetermined & (1u << HB_CORE_MU_I), u_g = lr->undetermined & (1u << HB_CORE_GAP);
+			json_object_set_new(vals, "mu_i",
+					    hb_analysis_value_object(lr->param[HB_CORE_MU_I], u_mu ? NAN : lr->std_err[HB_CORE_MU_I],
+								     "", u_mu ? HB_FIT_REASON_UNDETERMINED : NULL, mis));
+			json_object_set_new(vals, "gap",
+					    hb_analysis_value_object(c->gap_physical, u_g ? NAN : c->gap_physical_se, "m",
+								     u_g && isfinite(c->gap_physical) ?
+									     HB_FIT_REASON_UNDETERMINED : NULL,
+								     mis));
 		}
 		json_object_set_new(j, "DCR_ohm", num(s->dcr_ohm));
 		json_t *mis = json_object();
