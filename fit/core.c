@@ -388,7 +388,11 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 	}
 	const double mu0 = HB_FIT_MU0, N = geo->turns;
 	/* the part's own L0 under the reading L0 / (1 - w2c L0) */
-	double L0 = mf.L0 / (1 + w2c * mf.L0), L0_se = mf.L0_std_err / ((1 + w2c * mf.L0) * (1 + w2c * mf.L0));
+	double L0 = mf.L0_part, L0_se = mf.L0_part_std_err;
+	if (!mf.cp_corrected) {
+		L0 = mf.L0 / (1 + w2c * mf.L0);
+		L0_se = mf.L0_std_err / ((1 + w2c * mf.L0) * (1 + w2c * mf.L0));
+	}
 	out->mu_e = L0 * geo->le / (mu0 * N * N * geo->Ae);
 	out->mu_e_se = L0_se * geo->le / (mu0 * N * N * geo->Ae);
 	out->AL = L0 / (N * N);
@@ -402,7 +406,7 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 			q = 0.7, Iq = mf.drop[d].current;
 	if (isnan(q)) {
 		out->flags |= HB_CORE_KNEE_UNREACHED;
-		double ql = L[n - 1] / mf.L0;
+		double ql = mf.L_at_max / mf.L0_part; /* both corrected alike */
 		if (ql < 0.97)
 			q = ql, Iq = I[n - 1];
 	}
@@ -550,6 +554,7 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 	double xw = 0;
 	if (core_eval_point(b->law, mu, g, bs, geo, out->rated_current, &xw, &pt) == 0) {
 		out->B_peak = pt.B;
+		out->H_core_rated = pt.H;
 		double var = 0;
 		double nat[3] = { mu, g, bs }, dn[3];
 		nat_slope(nat, dn);
@@ -563,7 +568,7 @@ int hb_fit_core(hb_fit_ws *ws, const double *I, const double *L, const double *s
 		if (hb__fit_integrate(ws, energy_integrand, &ec, out->rated_current, &out->W_rated) != HB_OK)
 			out->W_rated = NAN;
 	} else {
-		out->B_peak = out->B_peak_se = out->psi_rated = out->W_rated = NAN;
+		out->B_peak = out->B_peak_se = out->psi_rated = out->W_rated = out->H_core_rated = NAN;
 	}
 	return HB_OK;
 }

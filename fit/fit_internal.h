@@ -23,6 +23,11 @@ void hb__fit_seterr(hb_fit_ws *ws, const char *fmt, ...) __attribute__((format(p
 unsigned hb__fit_undetermined(const double *value, const double *cov, size_t p, const bool *skip);
 
 void hb__fit_value_add(hb_fit_values *vals, const char *name, double value, double std_err, const char *unit);
+/* The same with the reason it carries no number (or no standard error). */
+void hb__fit_value_why(hb_fit_values *vals, const char *name, double value, double std_err, const char *unit,
+		       const char *reason);
+/* "beyond the data (highest bias 2.00 A)" */
+void hb__fit_beyond(char *buf, size_t cap, double i_max);
 
 /* Checks the common preconditions of a bias sweep. */
 int hb__fit_check_sweep(const double *current, const double *L, const double *sigma, size_t n, char *err, size_t errlen);

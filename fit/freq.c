@@ -4,7 +4,6 @@
 #include <string.h>
 
 #include <gsl/gsl_errno.h>
-#include <gsl/gsl_min.h>
 #include <gsl/gsl_roots.h>
 
 #include "fit_internal.h"
@@ -87,54 +86,12 @@ typedef struct q_ctx {
 	double target;
 } q_ctx;
 
-static double neg_q_logf(double lf, void *p)
-{
-	const q_ctx *c = p;
-	double q;
-	hb_fit_freq_eval(c->res, exp(lf), NULL, NULL, &q);
-	return -q;
-}
-
 static double ls_minus_target(double lf, void *p)
 {
 	const q_ctx *c = p;
 	double ls;
 	hb_fit_freq_eval(c->res, exp(lf), &ls, NULL, NULL);
 	return ls - c->target;
-}
-
-static void q_peak(hb_fit_freq_result *out, double f0, double f1)
-{
-	q_ctx c = { out, 0 };
-	enum { NG = 200 };
-	double l0 = log(f0), l1 = log(f1), best = INFINITY;
-	int kb = 0;
-	for (int k = 0; k <= NG; k++) {
-		double v = neg_q_logf(l0 + (l1 - l0) * k / NG, &c);
-		if (v < best) {
-			best = v;
-			kb = k;
-		}
-	}
-	double xm = l0 + (l1 - l0) * kb / NG;
-	if (kb > 0 && kb < NG) {
-		gsl_function F = { neg_q_logf, &c };
-		gsl_min_fminimizer *s = gsl_min_fminimizer_alloc(gsl_min_fminimizer_brent);
-		if (s && gsl_min_fminimizer_set(s, &F, xm, l0 + (l1 - l0) * (kb - 1) / NG,
-						l0 + (l1 - l0) * (kb + 1) / NG) == GSL_SUCCESS) {
-			for (int it = 0; it < 100; it++) {
-				if (gsl_min_fminimizer_iterate(s) != GSL_SUCCESS)
-					break;
-				xm = gsl_min_fminimizer_x_minimum(s);
-				if (gsl_min_test_interval(gsl_min_fminimizer_x_lower(s), gsl_min_fminimizer_x_upper(s),
-							  1e-12, 0) == GSL_SUCCESS)
-					break;
-			}
-		}
-		gsl_min_fminimizer_free(s);
-	}
-	out->q_peak_freq = exp(xm);
-	out->q_peak = -neg_q_logf(xm, &c);
 }
 
 static double model_band(hb_fit_freq_result *out, double f0, double within)
@@ -258,7 +215,19 @@ int hb_fit_freq(hb_fit_ws *ws, const double *f, const double *Ls, const double *
 	out->srf = 1 / (2 * M_PI * sqrt(Lf * Cf));
 	double rl = out->std_err[0] / Lf, rcv = out->std_err[2] / Cf, rlc = out->cov[0 * 4 + 2] / (Lf * Cf);
 	out->srf_se = out->srf * 0.5 * sqrt(fmax(0, rl * rl + rcv * rcv + 2 * rlc));
-	q_peak(out, f[0], f[n - 1]);
+	/* Q as measured: X/R of each reading. A model Q with the constant R of
+	 * this fit overstates it by orders of magnitude near resonance, where
+	 * skin, proximity and core losses raise the real Rs; none is reported. */
+	out->q_max = out->q_max_freq = NAN;
+	for (size_t i = 0; i < n; i++) {
+		if (!(Rs[i] > 0))
+			continue;
+		double q = w[i] * Ls[i] / Rs[i];
+		if (!isfinite(out->q_max) || q > out->q_max) {
+			out->q_max = q;
+			out->q_max_freq = f[i];
+		}
+	}
 
 	/* measured flat band */
 	out->band_lo = f[0];

@@ -14,7 +14,7 @@
  * inductance dpsi/dI at the DC bias point, not the secant psi/I.
  */
 
-#define HB_FIT_CODE_VERSION "hb-fit 1.1"
+#define HB_FIT_CODE_VERSION "hb-fit 1.2"
 #define HB_FIT_INCREMENTAL_NOTE \
 	"L is the incremental (small-signal) inductance dpsi/dI read by the LCR meter at each DC bias"
 #define HB_FIT_MU0 1.25663706212e-6 /* H/m, CODATA 2018 */
@@ -114,17 +114,30 @@ typedef struct hb_fit_options {
 
 void hb_fit_options_init(hb_fit_options *opt);
 
+/* Why a value has no number: it lies beyond the measured bias range, or
+ * the data do not determine it. Outputs print the reason, never a number. */
+#define HB_FIT_REASON_BEYOND "beyond the data"
+#define HB_FIT_REASON_UNDETERMINED "not determined by these data"
+#define HB_FIT_REASON_FLOOR_HELD "held at 0: the sweep shows no floor"
+
 typedef struct hb_fit_value {
 	char name[40];   /* e.g. "knee.Ik", "core.mu_e" */
-	double value;
-	double std_err;  /* NAN = none */
+	double value;    /* NAN = no number: reason says why */
+	double std_err;  /* NAN = none (reason says why when the value is a parameter not determined) */
 	char unit[12];   /* SI: "H", "A", "m", "T", "J", "", ... */
+	char reason[72]; /* "" or e.g. "beyond the data (highest bias 2.00 A)", "not determined by these data" */
+	bool misfit;     /* from a model whose residuals exceed the reading noise (knee.*, core.*) */
 } hb_fit_value;
 
 typedef struct hb_fit_values {
 	size_t count;
 	hb_fit_value v[HB_FIT_MAX_VALUES];
 } hb_fit_values;
+
+/* True for a model's fit diagnostics (knee.rss, *.dof, *.noise_ratio,
+ * *.undetermined, *.flags, core.aicc.*) and for values the model-free L0
+ * gives whatever the law (core.mu_e, core.AL): never marked misfit. */
+bool hb_fit_value_is_diagnostic(const char *name);
 
 /* Value by name or NULL. */
 const hb_fit_value *hb_fit_values_find(const hb_fit_values *vals, const char *name);
@@ -141,7 +154,8 @@ const char *hb_fit_ws_error(const hb_fit_ws *ws); /* why the last call failed */
 
 typedef struct hb_fit_drop {
 	double fraction;  /* 0.20 = L has fallen to 80 % of L0 */
-	bool reached;     /* false: the sweep stopped short; current is NAN */
+	bool reached;     /* false: the crossing lies beyond the highest bias point (or nowhere):
+			   * current and std_err are NAN, never an extrapolation */
 	double current, std_err;
 } hb_fit_drop;
 
@@ -151,8 +165,13 @@ enum { /* hb_fit_modelfree_result.flags */
 };
 
 typedef struct hb_fit_modelfree {
-	double L0, L0_std_err;  /* zero-bias value: polynomial through the first points, at I = 0 */
+	double L0, L0_std_err;  /* zero-bias value as the meter reads it: polynomial through the points
+				 * below the knee, at I = 0 (what a nominal L and older fits mean) */
 	size_t L0_points;
+	char L0_basis[24];      /* the polynomial AICc chose, e.g. "1, I^2, I^4" or "1, |I|, I^2" */
+	double L0_part, L0_part_std_err; /* the part's own L0, Cp removed; = L0 when not cp_corrected */
+	bool cp_corrected;      /* the drop currents (and L_at_max, L0_part) come from L corrected for the
+				 * winding capacitance: the fractions are of L0_part */
 	double noise_sigma;     /* reading noise used for the uncertainties, H */
 	size_t n_drops;
 	hb_fit_drop drop[HB_FIT_MAX_FRACTIONS];
@@ -172,6 +191,9 @@ enum { HB_KNEE_L0 = 0, HB_KNEE_LF, HB_KNEE_IK, HB_KNEE_P, HB_KNEE_NP };
 
 enum { /* hb_fit_knee_result.flags */
 	HB_KNEE_FLOOR_HELD = 1 << 0, /* a free floor went negative (the sweep shows no floor): Lf held at 0 */
+	HB_KNEE_POINT_BEYOND = 1 << 1, /* the knee point lies beyond the highest bias: knee_current NAN */
+	HB_KNEE_MISFIT = 1 << 2,     /* residual rms > noise_ratio_limit x the reading noise */
+	HB_KNEE_NOISE_UNKNOWN = 1 << 3, /* no noise figure: the fit quality could not be judged */
 };
 
 /* identifiability flags: bit (1 << parameter index) in .undetermined */
@@ -182,7 +204,9 @@ typedef struct hb_fit_knee_result {
 	size_t n, dof;
 	size_t n_drops;
 	hb_fit_drop drop[HB_FIT_MAX_FRACTIONS]; /* on the model, brent root finder */
-	double knee_current, knee_L;           /* maximum curvature of L/L0 against I/Ik */
+	double knee_current, knee_L;           /* maximum curvature of L/L0 against I/Ik; NAN beyond the data */
+	double I_max;                           /* highest bias point of the sweep */
+	double noise_sigma, noise_ratio;        /* residual rms / reading noise (sqrt(chi2/dof) with sigma) */
 	unsigned undetermined;                  /* |corr| > 0.99 or relative sd > 50 % */
 	int flags;                              /* HB_KNEE_* */
 	int nlls_flags, iterations, starts; /* from the NLLS wrapper */
@@ -239,6 +263,8 @@ typedef struct hb_fit_core_result {
 	double fringing_factor;              /* F at the physical gap */
 	double rated_current;
 	double B_peak, B_peak_se;            /* model flux density at the rated current, T */
+	double H_core_rated;                 /* model field IN THE CORE at the rated current, A/m: solves
+					      * N I = H le + B(H) g / mu0 (the applied N I / le minus the gap's share) */
 	double psi_rated, W_rated;           /* model flux linkage (Wb) and energy (J) there */
 	double noise_sigma, noise_ratio;     /* residual rms / reading noise */
 	int flags;
@@ -287,6 +313,38 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *current, const double *L
 			   size_t n, const hb_fit_options *opt, hb_fit_bias_result *out);
 
 /* ------------------------------------------------------------------ */
+/* Why a model misfits: checked causes, the law blamed last            */
+/* ------------------------------------------------------------------ */
+
+typedef enum hb_misfit_cause {
+	HB_MISFIT_NONE = 0,        /* residual rms within limit x noise */
+	HB_MISFIT_CURRENT_MOVED,   /* bias spread x |dL/dI| accounts for the residuals */
+	HB_MISFIT_HEATING,         /* the falling-bias readings are off the rising ones by as much */
+	HB_MISFIT_LAW,             /* neither: the law does not follow this part */
+} hb_misfit_cause;
+
+const char *hb_misfit_cause_name(hb_misfit_cause cause); /* "none", "current-moved", "heating", "law-mismatch" */
+
+typedef struct hb_misfit_diag {
+	hb_misfit_cause cause;
+	double residual_rms, noise_ratio; /* rms of the residuals, and over the reading noise */
+	double current_ratio;   /* rms(bias_spread |dL/dI|) / residual rms; NAN = no spread known */
+	size_t current_points;  /* points that had a bias spread */
+	double heating_ratio;   /* rms(L_down - L_up at the same current) / residual rms; NAN = no falling points */
+	size_t heating_points;
+} hb_misfit_diag;
+
+/* current strictly increasing (rising bias) with readings L and a model's residuals
+ * L - model; bias_spread (A, max - min of the supply read-backs around each
+ * accepted reading; NULL or NAN entries = unknown); the falling-bias points
+ * (may be 0). A ratio >= 0.5 counts as comparable: the current's movement
+ * is checked first, then heating, and only then is the law blamed.
+ * "comparable" needs limit (0 -> 3) x noise exceeded first, else NONE. */
+int hb_fit_misfit_diagnose(const double *current, const double *L, const double *resid, const double *bias_spread,
+			   size_t n, const double *current_down, const double *L_down, size_t n_down, double noise,
+			   double limit, hb_misfit_diag *out);
+
+/* ------------------------------------------------------------------ */
 /* 5. Frequency model: (R + j w L) parallel C [parallel Rp]            */
 /* ------------------------------------------------------------------ */
 
@@ -303,7 +361,9 @@ typedef struct hb_fit_freq_result {
 	size_t p, dof;
 	double rss;           /* relative: residuals are (Zmodel - Zmeas)/|Zmeas| */
 	double srf, srf_se;   /* 1/(2 pi sqrt(LC)), Hz */
-	double q_peak, q_peak_freq; /* model Q = Xs/Rs, max over the measured range */
+	double q_max, q_max_freq;   /* highest MEASURED Q = w Ls / Rs over the readings (Rs > 0) and its
+				     * frequency; NAN when no reading has Rs > 0. No model Q is given:
+				     * the model's R is constant, the part's is not. */
 	double band_lo, band_hi;    /* measured: Ls within `within` of the lowest-frequency reading */
 	double model_band_hi;       /* model: Ls(f) = (1 + within) L */
 	unsigned undetermined;
@@ -312,7 +372,8 @@ typedef struct hb_fit_freq_result {
 
 /* Converts an |Z|, theta (rad) reading to series Ls, Rs. */
 void hb_fit_z_to_series(double f, double zmag, double theta, double *Ls, double *Rs);
-/* Model series-equivalent Ls, Rs and Q at f. */
+/* Model series-equivalent Ls, Rs and Q at f. The model's R is constant over
+ * frequency, so its Q is not the part's: never report it as such. */
 void hb_fit_freq_eval(const hb_fit_freq_result *res, double f, double *Ls, double *Rs, double *Q);
 /* f strictly increasing, > 0; n >= p + 1. */
 int hb_fit_freq(hb_fit_ws *ws, const double *f, const double *Ls, const double *Rs, size_t n,

@@ -126,94 +126,205 @@ out:
 	return rc;
 }
 
-int hb_fit_modelfree(const double *I, const double *L, const double *sigma, size_t n, const hb_fit_options *opt,
+/* Weighted linear least squares of y on the basis columns x^pw[j] (pw
+ * may be fractional: 1 = |I|, 2 = I^2), the value at zero (the constant)
+ * and its variance scaled by chi2/dof (never below the stated noise when
+ * weights are given, since a lucky small scatter does not shrink the
+ * instrument's noise). chi2_out gets the weighted residual sum. */
+static int poly_at_zero(const double *x, const double *y, const double *sig, size_t k, const double *pw, size_t pc,
+			double *c0, double *var0, double *chi2_out)
+{
+	gsl_matrix *X = gsl_matrix_alloc(k, pc), *cv = gsl_matrix_alloc(pc, pc);
+	gsl_vector *yv = gsl_vector_alloc(k), *wv = gsl_vector_alloc(k), *cf = gsl_vector_alloc(pc);
+	gsl_multifit_linear_workspace *lw = gsl_multifit_linear_alloc(k, pc);
+	int rc = HB_ERR_NOMEM;
+	double chisq = NAN;
+	if (!X || !cv || !yv || !wv || !cf || !lw)
+		goto cleanup;
+	bool weighted = sig[0] > 0;
+	for (size_t i = 0; i < k; i++) {
+		for (size_t j = 0; j < pc; j++)
+			gsl_matrix_set(X, i, j, pw[j] == 0 ? 1 : pow(x[i], pw[j]));
+		gsl_vector_set(yv, i, y[i]);
+		gsl_vector_set(wv, i, weighted ? 1 / (sig[i] * sig[i]) : 1);
+	}
+	rc = HB_ERR_DATA;
+	if (gsl_multifit_wlinear(X, wv, yv, cf, cv, &chisq, lw) != GSL_SUCCESS)
+		goto cleanup;
+	*c0 = gsl_vector_get(cf, 0);
+	double scale = k > pc ? chisq / (double)(k - pc) : NAN;
+	if (weighted && scale < 1)
+		scale = 1;
+	*var0 = gsl_matrix_get(cv, 0, 0) * scale;
+	*chi2_out = chisq;
+	rc = HB_OK;
+cleanup:
+	gsl_matrix_free(X);
+	gsl_matrix_free(cv);
+	gsl_vector_free(yv);
+	gsl_vector_free(wv);
+	gsl_vector_free(cf);
+	gsl_multifit_linear_free(lw);
+	return rc;
+}
+
+/* AICc of a weighted fit: chi2 itself with known weights, else from the RSS. */
+static double aicc_of(double chi2, size_t k, size_t pc, bool weighted)
+{
+	double n = (double)k, p = (double)pc;
+	if (!(n - p - 1 > 0))
+		return INFINITY;
+	double base = weighted ? chi2 : n * log(fmax(chi2, 1e-300) / n);
+	return base + 2 * p + 2 * p * (p + 1) / (n - p - 1);
+}
+
+/*
+ * L0 from the points below the knee. The saturation laws are even in I
+ * (the core does not know the current's sign), so near zero L is a series
+ * in I^2 for a smooth law (tanh, Langevin); a quadratic in I there carries
+ * a useless odd term that bends the intercept. The Frohlich-Kennelly law
+ * has |H| in it, a cusp at zero with a finite slope, which only an |I|
+ * term follows. So both are fitted and AICc chooses; ties go to the even
+ * series. "Below the knee": while L stays within 10 % of the first reading,
+ * where two or three terms describe the curve.
+ */
+static int modelfree_L0(const double *I, const double *L, const double *sig, size_t n, size_t l0_points,
+			hb_fit_modelfree_result *out)
+{
+	size_t k = l0_points;
+	if (k == 0) {
+		k = 1;
+		while (k < n && L[k] >= 0.9 * L[0])
+			k++;
+		if (k < 3)
+			k = n < 3 ? n : 3;
+	}
+	if (k > n)
+		k = n;
+	if (k < 2)
+		k = 2;
+	static const double even1[] = { 0, 2 }, even2[] = { 0, 2, 4 }, cusp[] = { 0, 1, 2 }, cusp3[] = { 0, 1, 2, 3 },
+			    line[] = { 0, 1 };
+	struct { const double *pw; size_t pc; const char *name; } cand[] = {
+		{ even1, 2, "1, I^2" }, { even2, 3, "1, I^2, I^4" }, { cusp, 3, "1, |I|, I^2" },
+		{ cusp3, 4, "1, |I|, I^2, |I|^3" },
+	};
+	bool weighted = sig[0] > 0;
+	double best = INFINITY;
+	int rc = HB_ERR_DATA;
+	for (size_t c = 0; c < sizeof cand / sizeof cand[0]; c++) {
+		/* one spare point at least, so the scatter can scale the error */
+		if (k < cand[c].pc + 1)
+			continue;
+		double c0, v0, chi2;
+		int st = poly_at_zero(I, L, sig, k, cand[c].pw, cand[c].pc, &c0, &v0, &chi2);
+		if (st == HB_ERR_NOMEM)
+			return st;
+		if (st != HB_OK || !isfinite(c0))
+			continue;
+		double a = aicc_of(chi2, k, cand[c].pc, weighted);
+		/* with fewer than pc + 2 points AICc is undefined: take the first that fits */
+		if (!isfinite(a))
+			a = 1e300 + (double)c;
+		if (a < best - 1e-9) {
+			best = a;
+			out->L0 = c0;
+			out->L0_std_err = sqrt(v0);
+			snprintf(out->L0_basis, sizeof out->L0_basis, "%s", cand[c].name);
+			rc = HB_OK;
+		}
+	}
+	if (rc != HB_OK) {
+		/* two points: a straight line through them, no error estimate */
+		double c0, v0, chi2;
+		rc = poly_at_zero(I, L, sig, k, line, 2, &c0, &v0, &chi2);
+		if (rc != HB_OK)
+			return rc;
+		out->L0 = c0;
+		out->L0_std_err = sqrt(v0);
+		snprintf(out->L0_basis, sizeof out->L0_basis, "1, I");
+	}
+	out->L0_points = k;
+	return HB_OK;
+}
+
+int hb_fit_modelfree(const double *I, const double *L_in, const double *sigma, size_t n, const hb_fit_options *opt,
 		     hb_fit_modelfree_result *out)
 {
 	char err[160];
 	if (!out)
 		return HB_ERR_ARG;
 	memset(out, 0, sizeof *out);
-	int rc = hb__fit_check_sweep(I, L, sigma, n, err, sizeof err);
+	int rc = hb__fit_check_sweep(I, L_in, sigma, n, err, sizeof err);
 	if (rc)
 		return rc;
 	const double *fr;
 	size_t nfr;
 	if (fractions_of(opt, &fr, &nfr))
 		return HB_ERR_ARG;
+	double w2c = 0;
+	if (opt && opt->parallel_c > 0 && opt->test_freq > 0) {
+		double w = 2 * M_PI * opt->test_freq;
+		w2c = w * w * opt->parallel_c;
+		if (!isfinite(w2c))
+			return HB_ERR_ARG;
+	}
 	gsl_set_error_handler_off();
 
 	size_t m = n + 1;
-	double *mem = malloc(7 * m * sizeof(double) + m * sizeof(size_t));
+	double *mem = malloc(9 * m * sizeof(double) + m * sizeof(size_t));
 	if (!mem)
 		return HB_ERR_NOMEM;
 	double *x = mem, *y = mem + m, *w = mem + 2 * m, *mono = mem + 3 * m, *bw = mem + 4 * m,
-	       *sig = mem + 5 * m, *tmp = mem + 6 * m;
-	size_t *bstart = (size_t *)(mem + 7 * m);
+	       *sig = mem + 5 * m, *tmp = mem + 6 * m, *L = mem + 7 * m, *ssig = mem + 8 * m;
+	size_t *bstart = (size_t *)(mem + 9 * m);
 	gsl_interp *interp = NULL;
 	gsl_interp_accel *acc = NULL;
 
+	/* The winding capacitance makes the meter read L / (1 - w^2 L Cp);
+	 * the part's own L is L_app / (1 + w^2 L_app Cp) exactly (series model),
+	 * and the drop currents are the part's, not the capacitor's. */
+	for (size_t i = 0; i < n; i++) {
+		double f = 1 + w2c * L_in[i];
+		L[i] = L_in[i] / f;
+		ssig[i] = sigma ? sigma[i] / (f * f) : NAN;
+	}
+	out->cp_corrected = w2c > 0;
+	const double *sgin = sigma ? ssig : NULL;
+
 	/* reading noise: per-point sigma, else the stated noise, else estimated */
 	double noise = opt ? opt->noise_sigma : 0;
+	if (noise > 0 && w2c > 0)
+		noise /= (1 + w2c * L[0]) * (1 + w2c * L[0]);
 	if (!(noise > 0) && !sigma) {
 		noise = estimate_noise(I, L, n, tmp);
 		out->flags |= HB_MF_NOISE_ESTIMATED;
 	}
 	for (size_t i = 0; i < n; i++)
-		sig[i] = sigma ? sigma[i] : noise;
-	out->noise_sigma = sigma ? gsl_stats_mean(sigma, 1, n) : noise;
+		sig[i] = sgin ? sgin[i] : noise;
+	out->noise_sigma = sgin ? gsl_stats_mean(sgin, 1, n) : noise;
 
-	/* L0: low-order polynomial through the first points, taken at I = 0:
-	 * quadratic when there are enough of them (the slope at zero bias is
-	 * finite for a Frohlich-like core, zero for tanh-like, and a straight
-	 * line across a curving start would bias L0), else a straight line. */
-	size_t k = (opt && opt->l0_points) ? opt->l0_points : 6;
-	if (k > n)
-		k = n;
-	if (k < 2)
-		k = 2;
-	size_t order = k >= 5 ? 2 : 1;
-	double c0 = NAN, cov00 = NAN;
-	{
-		size_t pc = order + 1;
-		gsl_matrix *X = gsl_matrix_alloc(k, pc), *cv = gsl_matrix_alloc(pc, pc);
-		gsl_vector *yv = gsl_vector_alloc(k), *wv = gsl_vector_alloc(k), *cf = gsl_vector_alloc(pc);
-		gsl_multifit_linear_workspace *lw = gsl_multifit_linear_alloc(k, pc);
-		int st = GSL_ENOMEM;
-		double chisq;
-		if (X && cv && yv && wv && cf && lw) {
-			for (size_t i = 0; i < k; i++) {
-				for (size_t j = 0; j < pc; j++)
-					gsl_matrix_set(X, i, j, pow(I[i], (double)j));
-				gsl_vector_set(yv, i, L[i]);
-				gsl_vector_set(wv, i, sig[0] > 0 ? 1 / (sig[i] * sig[i]) : 1);
-			}
-			st = gsl_multifit_wlinear(X, wv, yv, cf, cv, &chisq, lw);
-			if (st == GSL_SUCCESS) {
-				c0 = gsl_vector_get(cf, 0);
-				cov00 = gsl_matrix_get(cv, 0, 0);
-				/* without a noise figure the scatter itself scales it */
-				if (!(sig[0] > 0))
-					cov00 = k > pc ? cov00 * chisq / (double)(k - pc) : NAN;
-			}
-		}
-		gsl_matrix_free(X);
-		gsl_matrix_free(cv);
-		gsl_vector_free(yv);
-		gsl_vector_free(wv);
-		gsl_vector_free(cf);
-		gsl_multifit_linear_free(lw);
-		if (st == GSL_ENOMEM) {
-			rc = HB_ERR_NOMEM;
-			goto out;
-		}
-	}
-	if (!isfinite(c0) || !(c0 > 0)) {
+	rc = modelfree_L0(I, L, sig, n, opt ? opt->l0_points : 0, out);
+	if (rc != HB_OK)
+		goto out;
+	double c0 = out->L0;
+	if (!isfinite(c0) || !(c0 > 0) || !isfinite(out->L0_std_err)) {
 		rc = HB_ERR_DATA;
 		goto out;
 	}
-	out->L0 = c0;
-	out->L0_std_err = sqrt(cov00);
-	out->L0_points = k;
+	/* the fit ran on the part's own L; L0 stays the reading, as a
+	 * datasheet's nominal L and every older stored L0 mean it */
+	out->L0_part = c0;
+	out->L0_part_std_err = out->L0_std_err;
+	if (w2c > 0) {
+		double d = 1 - w2c * c0;
+		if (!(d > 0)) {
+			rc = HB_ERR_ARG; /* the test frequency is at or above the self-resonance */
+			goto out;
+		}
+		out->L0 = c0 / d;
+		out->L0_std_err = out->L0_part_std_err / (d * d);
+	}
 	out->I_max = I[n - 1];
 	out->L_at_max = L[n - 1];
 
@@ -228,11 +339,11 @@ int hb_fit_modelfree(const double *I, const double *L, const double *sigma, size
 		w[i + off] = sig[i] > 0 ? 1 / (sig[i] * sig[i]) : 1;
 	}
 	if (off)
-		w[0] = out->L0_std_err > 0 ? 1 / (out->L0_std_err * out->L0_std_err) : w[1];
+		w[0] = out->L0_part_std_err > 0 ? 1 / (out->L0_part_std_err * out->L0_part_std_err) : w[1];
 	m = n + off;
 	pava_decreasing(y, w, m, mono, bw, bstart);
 	for (size_t i = 0; i < m; i++) {
-		double s = i >= off ? sig[i - off] : out->L0_std_err;
+		double s = i >= off ? sig[i - off] : out->L0_part_std_err;
 		if (s > 0 && y[i] - mono[i] < -3 * s)
 			out->flags |= HB_MF_NONMONOTONE;
 	}
@@ -271,10 +382,10 @@ int hb_fit_modelfree(const double *I, const double *L, const double *sigma, size
 		dr->current = root;
 		double slope = (mono[j + 1] - mono[j]) / (x[j + 1] - x[j]);
 		double t = (root - x[j]) / (x[j + 1] - x[j]);
-		double sj = j >= off ? sig[j - off] : out->L0_std_err;
+		double sj = j >= off ? sig[j - off] : out->L0_part_std_err;
 		double sj1 = sig[j + 1 - off];
 		double sl = (1 - t) * sj + t * sj1;
-		double sl0 = (1 - fr[d]) * out->L0_std_err;
+		double sl0 = (1 - fr[d]) * out->L0_part_std_err;
 		dr->std_err = sqrt(sl * sl + sl0 * sl0) / fabs(slope);
 	}
 	rc = HB_OK;
@@ -557,8 +668,12 @@ int hb_fit_knee(hb_fit_ws *ws, const double *I, const double *L, const double *s
 		double root;
 		if (k == 200 || brent_root(knee_minus_target, &kr, 0, hi, &root) != HB_OK)
 			continue;
+		/* a crossing above the last bias point is an extrapolation of the
+		 * model: filed results carry no number for it */
+		if (!(root <= I[n - 1]))
+			continue;
 		dr->current = root;
-		dr->reached = root <= I[n - 1];
+		dr->reached = true;
 		/* implicit function: dI/dtheta = -(dL/dtheta - (1-f) dL0/dtheta) / (dL/dI) */
 		double g[4], dLdI;
 		knee_grad(par, root, g, &dLdI);
@@ -571,7 +686,27 @@ int hb_fit_knee(hb_fit_ws *ws, const double *I, const double *L, const double *s
 			dr->std_err = sqrt(var) / fabs(dLdI);
 		}
 	}
+	out->I_max = I[n - 1];
 	knee_point(par, &out->knee_current, &out->knee_L);
+	if (isfinite(out->knee_current) && out->knee_current > I[n - 1]) {
+		out->knee_current = out->knee_L = NAN;
+		out->flags |= HB_KNEE_POINT_BEYOND;
+	}
+
+	/* the fit against the reading noise, judged as the core model's is */
+	double noise = opt && opt->noise_sigma > 0 ? opt->noise_sigma : mf.noise_sigma;
+	double lim = opt && opt->noise_ratio_limit > 0 ? opt->noise_ratio_limit : 3;
+	out->noise_sigma = sigma ? mf.noise_sigma : noise;
+	if (sigma && out->dof > 0)
+		out->noise_ratio = sqrt(out->chi2 / (double)out->dof);
+	else if (noise > 0)
+		out->noise_ratio = out->residual_rms / noise;
+	else
+		out->noise_ratio = NAN;
+	if (!isfinite(out->noise_ratio))
+		out->flags |= HB_KNEE_NOISE_UNKNOWN;
+	else if (out->noise_ratio > lim)
+		out->flags |= HB_KNEE_MISFIT;
 	return HB_OK;
 }
 
@@ -623,12 +758,29 @@ static double lerp_at(const double *x, const double *y, size_t n, double at)
 	return y[n - 1];
 }
 
-static void drop_values(hb_fit_values *v, const char *prefix, const hb_fit_drop *d, size_t nd)
+static void drop_values(hb_fit_values *v, const char *prefix, const hb_fit_drop *d, size_t nd, double i_max)
 {
-	char name[40];
+	char name[40], why[72];
+	hb__fit_beyond(why, sizeof why, i_max);
 	for (size_t i = 0; i < nd; i++) {
 		snprintf(name, sizeof name, "%sI_drop%g", prefix, d[i].fraction * 100);
-		hb__fit_value_add(v, name, d[i].current, d[i].std_err, "A");
+		if (d[i].reached && isfinite(d[i].current))
+			hb__fit_value_add(v, name, d[i].current, d[i].std_err, "A");
+		else
+			hb__fit_value_why(v, name, NAN, NAN, "A", why);
+	}
+}
+
+/* Marks every value whose name starts with prefix as from a misfitting model. */
+static void mark_misfit(hb_fit_values *v, const char *prefix)
+{
+	size_t len = strlen(prefix);
+	for (size_t i = 0; i < v->count; i++) {
+		const char *nm = v->v[i].name;
+		if (hb_fit_value_is_diagnostic(nm))
+			continue;
+		if (strncmp(nm, prefix, len) == 0)
+			v->v[i].misfit = true;
 	}
 }
 
@@ -672,8 +824,10 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 	hb_fit_values *v = &out->values;
 	const hb_fit_modelfree_result *mf = &out->modelfree;
 	hb__fit_value_add(v, "L0", mf->L0, mf->L0_std_err, "H");
+	if (mf->cp_corrected)
+		hb__fit_value_add(v, "L0_part", mf->L0_part, mf->L0_part_std_err, "H");
 	hb__fit_value_add(v, "noise_sigma", mf->noise_sigma, NAN, "H");
-	drop_values(v, "", mf->drop, mf->n_drops);
+	drop_values(v, "", mf->drop, mf->n_drops, I[n - 1]);
 	hb__fit_value_add(v, "I_max", mf->I_max, NAN, "A");
 	hb__fit_value_add(v, "L_at_max", mf->L_at_max, NAN, "H");
 
@@ -693,12 +847,18 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 			out->H_rated = geo->turns * ir / geo->le;
 		}
 	}
+	/* a rated current above the sweep: the data say nothing there */
+	char beyond[72];
+	hb__fit_beyond(beyond, sizeof beyond, I[n - 1]);
+	const char *why_rated = ir > I[n - 1] ? beyond : NULL;
 	hb__fit_value_add(v, "rated_current", ir, NAN, "A");
-	hb__fit_value_add(v, "psi_rated", out->psi_rated, NAN, "Wb");
-	hb__fit_value_add(v, "W_rated", out->W_rated, NAN, "J");
+	hb__fit_value_why(v, "psi_rated", out->psi_rated, NAN, "Wb", why_rated);
+	hb__fit_value_why(v, "W_rated", out->W_rated, NAN, "J", why_rated);
 	if (have_geo) {
-		hb__fit_value_add(v, "B_rated", out->B_rated, NAN, "T");
-		hb__fit_value_add(v, "H_rated", out->H_rated, NAN, "A/m");
+		hb__fit_value_why(v, "B_rated", out->B_rated, NAN, "T", why_rated);
+		/* N I / le at a rated current above the sweep is no finding of
+		 * this measurement: no number there either */
+		hb__fit_value_why(v, "H_rated", why_rated ? NAN : out->H_rated, NAN, "A/m", why_rated);
 	}
 
 	if (opt->knee) {
@@ -710,13 +870,32 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 			char name[40];
 			for (int j = 0; j < 4; j++) {
 				snprintf(name, sizeof name, "knee.%s", names[j]);
-				hb__fit_value_add(v, name, k->param[j], k->std_err[j], units[j]);
+				double val = k->param[j], se = k->std_err[j];
+				const char *why = NULL;
+				/* Ik is a current: above the sweep it is an extrapolation */
+				if (j == HB_KNEE_IK && !(val <= I[n - 1])) {
+					val = se = NAN;
+					why = beyond;
+				} else if (j == HB_KNEE_LF && (k->flags & HB_KNEE_FLOOR_HELD)) {
+					se = NAN; /* held, not fitted: no uncertainty of its own */
+					why = HB_FIT_REASON_FLOOR_HELD;
+				} else if (k->undetermined & (1u << j)) {
+					se = NAN;
+					why = HB_FIT_REASON_UNDETERMINED;
+				}
+				hb__fit_value_why(v, name, val, se, units[j], why);
 			}
-			drop_values(v, "knee.", k->drop, k->n_drops);
-			hb__fit_value_add(v, "knee.I_knee", k->knee_current, NAN, "A");
-			hb__fit_value_add(v, "knee.L_knee", k->knee_L, NAN, "H");
+			drop_values(v, "knee.", k->drop, k->n_drops, I[n - 1]);
+			hb__fit_value_why(v, "knee.I_knee", k->knee_current, NAN, "A",
+					  isfinite(k->knee_current) ? NULL : beyond);
+			hb__fit_value_why(v, "knee.L_knee", k->knee_L, NAN, "H", isfinite(k->knee_L) ? NULL : beyond);
 			hb__fit_value_add(v, "knee.rss", k->rss, NAN, "H2");
 			hb__fit_value_add(v, "knee.dof", (double)k->dof, NAN, "");
+			hb__fit_value_add(v, "knee.noise_ratio", k->noise_ratio, NAN, "");
+			hb__fit_value_add(v, "knee.undetermined", (double)k->undetermined, NAN, "");
+			hb__fit_value_add(v, "knee.flags", (double)k->flags, NAN, "");
+			if (k->flags & HB_KNEE_MISFIT)
+				mark_misfit(v, "knee.");
 			set_headline(out, "knee", 4, names, k->cov, k->rss, k->dof);
 		} else {
 			snprintf(out->message, sizeof out->message, "knee: %s", hb_fit_ws_error(ws));
@@ -731,18 +910,29 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 			static const char *const names[] = { "mu_i", "gap", "Js" };
 			static const char *const units[] = { "", "m", "T" };
 			char name[48];
+			const char *und = HB_FIT_REASON_UNDETERMINED;
 			for (int j = 0; j < 3; j++) {
 				snprintf(name, sizeof name, "core.%s", names[j]);
-				hb__fit_value_add(v, name, b->param[j], b->std_err[j], units[j]);
+				bool u = b->undetermined & (1u << j);
+				hb__fit_value_why(v, name, b->param[j], u ? NAN : b->std_err[j], units[j], u ? und : NULL);
 			}
+			bool u_mu = b->undetermined & (1u << HB_CORE_MU_I), u_gap = b->undetermined & (1u << HB_CORE_GAP);
 			hb__fit_value_add(v, "core.mu_e", c->mu_e, c->mu_e_se, "");
 			hb__fit_value_add(v, "core.AL", c->AL, c->AL_se, "H");
-			hb__fit_value_add(v, "core.gap_implied", c->gap_implied, c->gap_implied_se, "m");
-			hb__fit_value_add(v, "core.gap_physical", c->gap_physical, c->gap_physical_se, "m");
+			/* derived from a parameter not determined: no standard error either */
+			hb__fit_value_why(v, "core.gap_implied", c->gap_implied, u_mu ? NAN : c->gap_implied_se, "m",
+					  u_mu ? und : NULL);
+			hb__fit_value_why(v, "core.gap_physical", c->gap_physical, u_gap ? NAN : c->gap_physical_se, "m",
+					  u_gap && isfinite(c->gap_physical) ? und : NULL);
 			hb__fit_value_add(v, "core.fringing_factor", c->fringing_factor, NAN, "");
-			hb__fit_value_add(v, "core.B_peak", c->B_peak, c->B_peak_se, "T");
-			hb__fit_value_add(v, "core.psi_rated", c->psi_rated, NAN, "Wb");
-			hb__fit_value_add(v, "core.W_rated", c->W_rated, NAN, "J");
+			/* the model at a rated current above the sweep is an extrapolation */
+			bool ext = c->rated_current > I[n - 1];
+			hb__fit_value_why(v, "core.B_peak", ext ? NAN : c->B_peak, ext ? NAN : c->B_peak_se, "T",
+					  ext ? beyond : NULL);
+			hb__fit_value_why(v, "core.psi_rated", ext ? NAN : c->psi_rated, NAN, "Wb", ext ? beyond : NULL);
+			hb__fit_value_why(v, "core.W_rated", ext ? NAN : c->W_rated, NAN, "J", ext ? beyond : NULL);
+			hb__fit_value_why(v, "core.H_core_rated", ext ? NAN : c->H_core_rated, NAN, "A/m",
+					  ext ? beyond : NULL);
 			hb__fit_value_add(v, "core.noise_ratio", c->noise_ratio, NAN, "");
 			hb__fit_value_add(v, "core.flags", (double)c->flags, NAN, "");
 			hb__fit_value_add(v, "core.undetermined", (double)b->undetermined, NAN, "");
@@ -752,6 +942,8 @@ int hb_fit_bias_analyse_ws(hb_fit_ws *ws, const double *I, const double *L, cons
 				snprintf(name, sizeof name, "core.aicc.%s", hb_core_law_name((hb_core_law)l));
 				hb__fit_value_add(v, name, c->law[l].aicc, NAN, "");
 			}
+			if (c->flags & HB_CORE_NO_LAW_FITS)
+				mark_misfit(v, "core.");
 			char model[48];
 			snprintf(model, sizeof model, "core:%s", hb_core_law_name(c->best));
 			/* the headline carries the free parameters only */

@@ -755,6 +755,37 @@ void hb__fit_value_add(hb_fit_values *vals, const char *name, double value, doub
 	snprintf(v->unit, sizeof v->unit, "%s", unit);
 	v->value = value;
 	v->std_err = std_err;
+	v->reason[0] = 0;
+	v->misfit = false;
+}
+
+void hb__fit_value_why(hb_fit_values *vals, const char *name, double value, double std_err, const char *unit,
+		       const char *reason)
+{
+	hb__fit_value_add(vals, name, value, std_err, unit);
+	if (vals->count > 0 && reason)
+		snprintf(vals->v[vals->count - 1].reason, sizeof vals->v[0].reason, "%s", reason);
+}
+
+void hb__fit_beyond(char *buf, size_t cap, double i_max)
+{
+	/* three significant figures, trailing zeros kept: "2.00 A", "0.290 A" */
+	snprintf(buf, cap, HB_FIT_REASON_BEYOND " (highest bias %#.3g A)", i_max);
+}
+
+bool hb_fit_value_is_diagnostic(const char *name)
+{
+	static const char *const tails[] = { ".rss", ".dof", ".noise_ratio", ".undetermined", ".flags", ".current_ratio",
+					     ".heating_ratio" };
+	if (strncmp(name, "core.aicc.", 10) == 0 || strcmp(name, "core.mu_e") == 0 || strcmp(name, "core.AL") == 0)
+		return true;
+	size_t len = strlen(name);
+	for (size_t i = 0; i < sizeof tails / sizeof tails[0]; i++) {
+		size_t t = strlen(tails[i]);
+		if (len > t && strcmp(name + len - t, tails[i]) == 0)
+			return true;
+	}
+	return false;
 }
 
 const hb_fit_value *hb_fit_values_find(const hb_fit_values *vals, const char *name)

@@ -41,6 +41,8 @@ typedef struct hb_analysis_summary {
 	bool dcr_from_meter;
 	double cp_farad;           /* winding capacitance the core fit corrected for, NAN if none */
 	int64_t cp_sweep_id;       /* the frequency sweep it came from */
+	bool knee_diagnosed, core_diagnosed; /* a flagged model's misfit was traced to a cause */
+	hb_misfit_diag knee_diag, core_diag;
 	size_t n_checks;
 	hb_analysis_check checks[HB_ANALYSIS_MAX_CHECKS];
 	hb_overall overall;
@@ -53,6 +55,32 @@ void hb_analysis_options_init(hb_analysis_options *opt);
 int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *opt, hb_analysis_summary *out);
 void hb_analysis_print(FILE *out, const hb_analysis_summary *summary);
 json_t *hb_analysis_summary_json(const hb_analysis_summary *summary);
+
+/* Why a stored fit value has no number (value NULL: "beyond the data
+ * (highest bias 2.00 A)") or no standard error ("not determined by these
+ * data"); NULL when it has both. Rebuilt from the stored I_max, the
+ * undetermined bits and the flags, as the store keeps no reason column. */
+const char *hb_analysis_value_reason(const hb_db_fit *fit, const hb_db_fit_value *v, char *buf, size_t cap);
+/* True when the value comes from a model whose residuals exceed the reading
+ * noise (flags "knee-misfit" / "no-law-fits"); *noise_ratio (may be NULL)
+ * gets that model's residual rms over the noise. */
+bool hb_analysis_value_misfit(const hb_db_fit *fit, const char *name, double *noise_ratio);
+
+enum { HB_ANALYSIS_LINE = 200 };
+/* The residual warning of a misfitting model ("knee model", "core model"),
+ * naming every cause checked and its outcome: returns the line count. */
+size_t hb_analysis_misfit_lines(const char *model, const hb_misfit_diag *d, char lines[4][HB_ANALYSIS_LINE]);
+/* The stored diagnosis of "knee" or "core" (flags "<which>-cause:<cause>" and
+ * values "<which>.misfit.*_ratio"); false when none was stored. Point counts
+ * are not stored (0). */
+bool hb_analysis_stored_diag(const hb_db_fit *fit, const char *which, hb_misfit_diag *d);
+
+/* One value as JSON, the one shape every output uses:
+ * {"value": 3.7 | null, "std_err": 0.02 | null, "unit": "A",
+ *  "reason": "beyond the data (highest bias 2.00 A)"   (only when value or std_err is null for a reason),
+ *  "misfit": true                                     (only for a model whose residuals exceed the noise)} */
+json_t *hb_analysis_value_object(double value, double std_err, const char *unit, const char *reason, bool misfit);
+json_t *hb_analysis_value_json(const hb_fit_value *v);
 
 /* The up-going points of a bias sweep with a finite reading, in strictly
  * increasing current (measured where the supply reported it). Caller frees

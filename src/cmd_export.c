@@ -247,11 +247,13 @@ static json_t *fit_json(const hb_db_fit *f)
 	json_object_set_new(o, "note", json_string(HB_FIT_INCREMENTAL_NOTE));
 	json_t *vals = json_object();
 	for (size_t i = 0; i < f->n_values; i++) {
-		json_t *v = json_object();
-		json_object_set_new(v, "value", hb_json_num(f->values[i].value));
-		json_object_set_new(v, "std_err", hb_json_num(f->values[i].std_error));
-		json_object_set_new(v, "unit", json_string(f->values[i].unit));
-		json_object_set_new(vals, f->values[i].name, v);
+		/* a value without a number says why; a misfitting model's values say so */
+		const hb_db_fit_value *fv = &f->values[i];
+		char why[96];
+		const char *reason = hb_analysis_value_reason(f, fv, why, sizeof why);
+		json_object_set_new(vals, fv->name,
+				    hb_analysis_value_object(fv->value, fv->std_error, fv->unit, reason,
+							     hb_analysis_value_misfit(f, fv->name, NULL)));
 	}
 	json_object_set_new(o, "values", vals);
 	return o;

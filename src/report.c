@@ -156,7 +156,12 @@ static void add_bias_models(hb_plot *plot, const sweep_data *d, double i_max)
 	if (isfinite(knee[0]) && isfinite(knee[1]) && isfinite(knee[2]) && isfinite(knee[3])) {
 		for (int k = 0; k < MODEL_POINTS; k++)
 			L[k] = hb_fit_knee_eval(knee, I[k]);
-		hb_plot_add_series(plot, HB_AXIS_Y, I, L, MODEL_POINTS, "knee model", HB_PLOT_LINE);
+		double ratio = NAN;
+		char label[64] = "knee model";
+		/* a misfitting curve says so in the legend, beside the points it misses */
+		if (d->have_fit && hb_analysis_value_misfit(d->fit, "knee.L0", &ratio))
+			snprintf(label, sizeof label, "knee model (MISFIT, residuals %.0f x noise)", ratio);
+		hb_plot_add_series(plot, HB_AXIS_Y, I, L, MODEL_POINTS, label, HB_PLOT_LINE);
 	}
 	hb_core_law law;
 	/* Fits from hb-fit 1.0 stored the saturation value as core.bsat. */
@@ -170,7 +175,12 @@ static void add_bias_models(hb_plot *plot, const sweep_data *d, double i_max)
 					 isfinite(d->part.window_m) ? d->part.window_m : 0 };
 		if (hb_core_model_eval(law, &par, &geo, I, MODEL_POINTS, L, NULL) == HB_OK) {
 			char label[64];
-			snprintf(label, sizeof label, "core model (%s)", hb_core_law_name(law));
+			double ratio = NAN;
+			if (hb_analysis_value_misfit(d->fit, "core.mu_i", &ratio))
+				snprintf(label, sizeof label, "core model (%s, MISFIT, residuals %.1f x noise)",
+					 hb_core_law_name(law), ratio);
+			else
+				snprintf(label, sizeof label, "core model (%s)", hb_core_law_name(law));
 			hb_plot_add_series(plot, HB_AXIS_Y, I, L, MODEL_POINTS, label, HB_PLOT_LINE);
 		}
 	}
@@ -309,7 +319,8 @@ int hb_report_bh_svg(hb_db *db, int64_t sweep_id, char **svg, char *err, size_t 
 		rc = HB_ERR_NOMEM;
 		goto out;
 	}
-	hb_plot_set_axis(plot, HB_AXIS_X, "Field strength H = N I / le", "A/m", false);
+	/* N I / le is the applied mmf per length, gap included: not the core's H */
+	hb_plot_set_axis(plot, HB_AXIS_X, "Applied field per length N I / le", "A/m", false);
 	hb_plot_set_axis(plot, HB_AXIS_Y, "Flux density B", "T", false);
 	hb_plot_add_series(plot, HB_AXIS_Y, H, B, m, "from the measured points", HB_PLOT_LINE_POINTS);
 	if (isfinite(d.part.bsat_t) && d.part.bsat_t > 0)
@@ -629,11 +640,29 @@ static void verdict_section(hb_html *h, const sweep_data *d)
 	hb_html_section_end(h);
 }
 
+static bool flag_token(const hb_db_fit *f, const char *token)
+{
+	size_t len = strlen(token);
+	for (const char *p = f->flags; (p = strstr(p, token)) != NULL; p += len)
+		if ((p == f->flags || p[-1] == ' ') && (p[len] == 0 || p[len] == ' '))
+			return true;
+	return false;
+}
+
 /* What a stored fit value means, in words a reviewer can check. */
 static const char *value_meaning(const char *name, char *buf, size_t cap)
 {
 	static const struct { const char *name, *text; } known[] = {
-		{ "L0", "zero-bias inductance, model-free (polynomial through the first points, at I = 0)" },
+		{ "L0", "zero-bias inductance, model-free (polynomial in I^2, or with an |I| term, through the points "
+			"below the knee, at I = 0)" },
+		{ "L0_part", "zero-bias inductance of the part itself, the winding capacitance removed" },
+		{ "knee.noise_ratio", "knee model: residual rms over reading noise" },
+		{ "knee.undetermined", "knee model: parameters the data do not determine (bit set)" },
+		{ "knee.flags", "knee model: condition flags (bit set: 1 floor held at 0, 2 knee beyond the data, 4 misfit)" },
+		{ "knee.misfit.current_ratio", "knee misfit check: bias spread x |dL/dI| over the residuals" },
+		{ "knee.misfit.heating_ratio", "knee misfit check: falling against rising readings over the residuals" },
+		{ "core.misfit.current_ratio", "core misfit check: bias spread x |dL/dI| over the residuals" },
+		{ "core.misfit.heating_ratio", "core misfit check: falling against rising readings over the residuals" },
 		{ "noise_sigma", "reading noise used for the uncertainties" },
 		{ "I_max", "highest bias current of the sweep" },
 		{ "L_at_max", "inductance at the highest bias current" },
@@ -641,7 +670,10 @@ static const char *value_meaning(const char *name, char *buf, size_t cap)
 		{ "psi_rated", "flux linkage at that current (integral of L dI)" },
 		{ "W_rated", "stored energy at that current (from the data)" },
 		{ "B_rated", "flux density at that current (from the data)" },
-		{ "H_rated", "field strength at that current" },
+		{ "H_rated", "applied field per length N I / le at that current (magnetomotive force over the path "
+			     "length; not the field in the core)" },
+		{ "core.H_core_rated", "core model: field in the core H at the rated current, solving "
+				       "N I = H le + B(H) g / mu0" },
 		{ "knee.L0", "knee model: L at zero bias" },
 		{ "knee.Lf", "knee model: floor inductance far above the knee" },
 		{ "knee.Ik", "knee model: characteristic current" },
@@ -676,8 +708,10 @@ static const char *value_meaning(const char *name, char *buf, size_t cap)
 		{ "C", "parallel (winding) capacitance of the model" },
 		{ "Rp", "parallel loss resistance of the model" },
 		{ "srf", "self-resonant frequency 1/(2 pi sqrt(LC))" },
-		{ "q_peak", "highest quality factor Q = Xs/Rs over the measured range" },
-		{ "q_peak_freq", "frequency of the highest Q" },
+		{ "q_max_measured", "highest measured quality factor Q = Xs/Rs of one reading" },
+		{ "q_max_measured_freq", "frequency of the reading with the highest measured Q" },
+		{ "q_peak", "model Q with a constant R (hb-fit 1.1 and older; overstates the part's Q)" },
+		{ "q_peak_freq", "frequency of that model Q (hb-fit 1.1 and older)" },
 		{ "band_lo", "measured Ls within 5 % of its low-frequency value: from" },
 		{ "band_hi", "measured Ls within 5 % of its low-frequency value: up to" },
 		{ "model_band_hi", "model Ls within 5 % of L up to" },
@@ -688,7 +722,8 @@ static const char *value_meaning(const char *name, char *buf, size_t cap)
 	int p = 0;
 	char tail = 0;
 	if (sscanf(name, "I_drop%d%c", &p, &tail) == 1)
-		snprintf(buf, cap, "current where L has fallen %d %% below L0 (model-free)", p);
+		snprintf(buf, cap, "current where L has fallen %d %% below L0 (model-free; of L0_part when Cp-corrected)",
+			 p);
 	else if (sscanf(name, "knee.I_drop%d%c", &p, &tail) == 1)
 		snprintf(buf, cap, "knee model: current where L has fallen %d %% below L0", p);
 	else if (strncmp(name, "core.aicc.", 10) == 0)
@@ -724,18 +759,70 @@ static void fit_section(hb_html *h, const sweep_data *d)
 	hb_html_kv_row(h, "Goodness of fit", line);
 	hb_html_kv_row(h, "Flags", f->flags[0] ? f->flags : "none");
 	hb_html_kv_end(h);
+	/* A misfitting model is named before its values, and each of its values
+	 * carries the mark in its own row: never a bare number beside a measured one. */
+	static const struct { const char *probe, *what, *which; } models[] = { { "knee.L0", "knee model", "knee" },
+									      { "core.mu_i", "core model", "core" } };
+	for (size_t m = 0; m < sizeof models / sizeof models[0]; m++) {
+		double ratio = NAN;
+		if (hb_analysis_value_misfit(f, models[m].probe, &ratio)) {
+			snprintf(line, sizeof line,
+				 "MISFIT: the %s's residuals are %.1f x the reading noise. Its values below are marked "
+				 "\"misfit\" and do not describe this part; rely on the model-free values.",
+				 models[m].what, ratio);
+			hb_html_paragraph(h, line);
+			/* the causes checked before the law was blamed */
+			hb_misfit_diag dg;
+			if (hb_analysis_stored_diag(f, models[m].which, &dg)) {
+				char lines[4][HB_ANALYSIS_LINE];
+				size_t k = hb_analysis_misfit_lines(models[m].what, &dg, lines);
+				for (size_t i = 0; i < k; i++)
+					hb_html_paragraph(h, lines[i]);
+			}
+		}
+	}
+	if (flag_token(f, "cp-corrected"))
+		hb_html_paragraph(h, "The drop currents come from the part's own inductance: every reading was corrected "
+				     "for the winding capacitance Cp_used (cp_corrected: true), and the fractions are of "
+				     "L0_part. L0 is the zero-bias value as the meter reads it, Cp included.");
+	else if (d->sweep.kind == HB_DB_SWEEP_BIAS)
+		hb_html_paragraph(h, "No winding capacitance was known for this unit: the drop currents come from the "
+				     "readings as they are (cp_corrected: false).");
 	static const char *const head[] = { "Value", "Meaning", "Result", "Standard uncertainty", "Relative" };
-	hb_html_table_begin(h, "Uncertainties are one standard deviation from the fit covariance (k = 1).", head, 5);
+	hb_html_table_begin(h,
+			    "Uncertainties are one standard deviation from the fit covariance (k = 1). A value beyond "
+			    "the measured bias range is not given as a number.",
+			    head, 5);
 	for (size_t i = 0; i < f->n_values; i++) {
 		const hb_db_fit_value *v = &f->values[i];
-		char meaning[96], val[48], se[48], rel[24];
+		char meaning[160], val[128], se[96], rel[24], why[96];
+		const char *reason = hb_analysis_value_reason(f, v, why, sizeof why);
+		double ratio = NAN;
+		bool misfit = hb_analysis_value_misfit(f, v->name, &ratio);
 		if (isfinite(v->std_error) && v->std_error > 0 && v->value != 0)
 			snprintf(rel, sizeof rel, "%.2g %%", 100 * v->std_error / fabs(v->value));
 		else
 			snprintf(rel, sizeof rel, "-");
-		const char *cells[5] = { v->name, value_meaning(v->name, meaning, sizeof meaning),
-					 si(val, sizeof val, v->value, v->unit, 5),
-					 isfinite(v->std_error) ? si(se, sizeof se, v->std_error, v->unit, 3) : "-", rel };
+		if (!isfinite(v->value)) {
+			snprintf(val, sizeof val, "%s", reason ? reason : "-");
+		} else {
+			char num[48];
+			si(num, sizeof num, v->value, v->unit, 5);
+			snprintf(val, sizeof val, "%s%s", num, misfit ? " (misfit)" : "");
+		}
+		if (isfinite(v->std_error))
+			si(se, sizeof se, v->std_error, v->unit, 3);
+		else if (reason && isfinite(v->value))
+			snprintf(se, sizeof se, "none (%s)", reason);
+		else
+			snprintf(se, sizeof se, "-");
+		const char *mean = value_meaning(v->name, meaning, sizeof meaning);
+		char mbuf[200];
+		if (misfit) {
+			snprintf(mbuf, sizeof mbuf, "%s [model misfit: residuals %.1f x the reading noise]", mean, ratio);
+			mean = mbuf;
+		}
+		const char *cells[5] = { v->name, mean, val, se, rel };
 		hb_html_table_row(h, cells, 5);
 	}
 	hb_html_table_end(h);
@@ -924,8 +1011,9 @@ int hb_report_sweep(hb_db *db, int64_t sweep_id, FILE *out, char *err, size_t er
 		if (d.have_part && part_has_geometry(&d.part)) {
 			rc = hb_report_bh_svg(db, sweep_id, &svg, e, sizeof e);
 			snprintf(cap, sizeof cap,
-				 "Sweep %lld: B = psi/(N Ae) with psi the integral of L dI, against H = N I / le; derived "
-				 "from the measured points and the part's geometry, not measured directly.",
+				 "Sweep %lld: B = psi/(N Ae) with psi the integral of L dI, against the applied field per "
+				 "length N I / le (magnetomotive force over the path length, not the field in the core); "
+				 "derived from the measured points and the part's geometry, not measured directly.",
 				 (long long)sweep_id);
 			figure(h, rc, svg, cap, e);
 		}

@@ -376,9 +376,42 @@ static void test_parallel_capacitance(void **state)
 	gsl_rng_free(r);
 }
 
+/* The core field at the rated current satisfies Ampere's circuital law
+ * around a gapped core, N I = H le + B(H) g / mu0 (any magnetics handbook),
+ * with the Frohlich-Kennelly B(H) = mu0 H + a H Js / (Js + a H),
+ * a = mu0 (mu_i - 1), written here in closed form; and it lies below the
+ * applied N I / le, the gap taking its share. */
+static void test_core_field(void **state)
+{
+	(void)state;
+	hb_core_params par = { 2000, 0.2e-3, 0.4 };
+	double I[NP], L[NP];
+	make_sweep(HB_CORE_FROHLICH, &par, 0.5, 0, NULL, I, L);
+	for (int i = 0; i < NP; i++)
+		L[i] *= 1 + 1e-6 * sin(3.0 * i);
+	hb_fit_options opt;
+	hb_fit_options_init(&opt);
+	opt.geo = geo;
+	opt.laws = 1u << HB_CORE_FROHLICH;
+	opt.rated_current = 0.8 * I[NP - 1];
+	hb_fit_ws *ws = hb_fit_ws_new();
+	hb_fit_core_result res;
+	assert_int_equal(hb_fit_core(ws, I, L, NULL, NP, &opt, &res), HB_OK);
+	const double *p = res.law[HB_CORE_FROHLICH].param;
+	double a = HB_FIT_MU0 * (p[HB_CORE_MU_I] - 1), js = p[HB_CORE_BSAT], g = p[HB_CORE_GAP];
+	double H = res.H_core_rated;
+	double B = HB_FIT_MU0 * H + a * H * js / (js + a * H);
+	double mmf = geo.turns * opt.rated_current;
+	assert_true(fabs(H * geo.le + B * g / HB_FIT_MU0 - mmf) < 1e-9 * mmf);
+	assert_true(fabs(B - res.B_peak) < 1e-9 * B);
+	assert_true(H > 0 && H < mmf / geo.le);
+	hb_fit_ws_free(ws);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
+		cmocka_unit_test(test_core_field),
 		cmocka_unit_test(test_gap_monotone),   cmocka_unit_test(test_laws_shape),
 		cmocka_unit_test(test_law_choice),     cmocka_unit_test(test_coverage),
 		cmocka_unit_test(test_knee_unreached), cmocka_unit_test(test_no_law_fits),

@@ -244,12 +244,249 @@ static void test_failure_paths(void **state)
 	hb_fit_ws_free(ws);
 }
 
+/*
+ * Laws even in I, written here in closed form and not through fit/: an
+ * ungapped toroid, H = N I / le (Ampere's law), L = N^2 Ae / le * dB/dH,
+ * B = mu0 H + J(H) with a = mu0 (mu_i - 1):
+ *  - Langevin: J = Js Lang(3 a H / Js), Lang(y) = coth y - 1/y,
+ *    Lang'(y) = 1/y^2 - 1/sinh^2 y (Langevin function, from memory);
+ *  - Frohlich-Kennelly: J = a H Js / (Js + a |H|), dJ/dH = a Js^2 / (Js + a |H|)^2
+ *    (Frohlich 1881 / Kennelly 1891 reluctivity law, from memory).
+ * L0 = mu0 mu_i N^2 Ae / le (the inductance of a toroid, any handbook).
+ */
+static const double EV_N = 20, EV_AE = 50e-6, EV_LE = 0.05, EV_MUI = 2000, EV_JS = 0.4;
+
+static double even_law_L(int law, double I)
+{
+	const double mu0 = 1.25663706212e-6; /* CODATA 2018 */
+	double a = mu0 * (EV_MUI - 1), H = EV_N * fabs(I) / EV_LE, dJ;
+	if (law == 0) {
+		double y = 3 * a * H / EV_JS;
+		double lp = y < 1e-4 ? 1.0 / 3 - y * y / 15 : 1 / (y * y) - 1 / (sinh(y) * sinh(y));
+		dJ = 3 * a * lp;
+	} else {
+		double d = EV_JS + a * H;
+		dJ = a * EV_JS * EV_JS / (d * d);
+	}
+	return EV_N * EV_N * EV_AE / EV_LE * (mu0 + dJ);
+}
+
+/* L0 is unbiased for a smooth even law (no odd term) and for the cusp of
+ * Frohlich-Kennelly, and its stated error covers the truth. */
+static void test_modelfree_L0_even_laws(void **state)
+{
+	(void)state;
+	gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+	gsl_rng_set(r, 41);
+	const double mu0 = 1.25663706212e-6;
+	const double L0 = mu0 * EV_MUI * EV_N * EV_N * EV_AE / EV_LE;
+	const double sig = 1e-4 * L0;
+	double I[NP], L[NP];
+	for (int law = 0; law < 2; law++) {
+		double imax = law == 0 ? 0.5 : 0.1;
+		int inside = 0, trials = 200;
+		double bias = 0, se_mean = 0;
+		for (int t = 0; t < trials; t++) {
+			for (int i = 0; i < NP; i++) {
+				I[i] = imax * i / (NP - 1);
+				L[i] = even_law_L(law, I[i]) + gsl_ran_gaussian(r, sig);
+			}
+			hb_fit_options opt;
+			hb_fit_options_init(&opt);
+			opt.noise_sigma = sig;
+			hb_fit_modelfree_result mf;
+			assert_int_equal(hb_fit_modelfree(I, L, NULL, NP, &opt, &mf), HB_OK);
+			assert_true(mf.L0_std_err > 0);
+			if (fabs(mf.L0 - L0) < 2 * mf.L0_std_err)
+				inside++;
+			bias += (mf.L0 - L0) / trials;
+			se_mean += mf.L0_std_err / trials;
+		}
+		print_message("%s: L0 coverage %.3f, bias %.2g of the stated error\n", law ? "frohlich" : "langevin",
+			      (double)inside / trials, bias / se_mean);
+		/* 2 sd holds 95 % of a normal; a biased fit falls well short */
+		assert_true(inside >= 0.88 * trials);
+		/* the mean of 200 runs: bias below a third of one run's error */
+		assert_true(fabs(bias) < se_mean / 3);
+	}
+	gsl_rng_free(r);
+}
+
+/*
+ * The meter reads L / (1 - w^2 L Cp) with the winding capacitance in
+ * parallel (series-equivalent of L || C, circuit theory, from memory):
+ * with Cp given, the drop currents are those of the part's own L (here the
+ * knee law in closed form above), without it they are visibly off.
+ */
+static void test_modelfree_cp_corrected(void **state)
+{
+	(void)state;
+	double I[NP], L[NP];
+	const double cp = 300e-12, f = 100e3, w2c = pow(2 * M_PI * f, 2) * cp;
+	for (int i = 0; i < NP; i++) {
+		I[i] = 4.0 * i / (NP - 1);
+		double Lt = hb_fit_knee_eval(truth, I[i]);
+		L[i] = Lt / (1 - w2c * Lt);
+	}
+	hb_fit_options opt;
+	hb_fit_options_init(&opt);
+	opt.noise_sigma = 1e-9;
+	hb_fit_modelfree_result plain, corr;
+	assert_int_equal(hb_fit_modelfree(I, L, NULL, NP, &opt, &plain), HB_OK);
+	opt.parallel_c = cp;
+	opt.test_freq = f;
+	assert_int_equal(hb_fit_modelfree(I, L, NULL, NP, &opt, &corr), HB_OK);
+	assert_false(plain.cp_corrected);
+	assert_true(corr.cp_corrected);
+	print_message("L0 of the part %.6g (%s), as read %.6g, law %.6g H\n", corr.L0_part, corr.L0_basis, corr.L0,
+		      truth[0]);
+	/* w^2 L0 Cp = 4.7 %: a 0.1 % match tells corrected from not */
+	assert_true(fabs(corr.L0_part - truth[0]) < 1e-3 * truth[0]);
+	assert_true(fabs(corr.L0 - truth[0] / (1 - w2c * truth[0])) < 1e-3 * truth[0]);
+	assert_true(fabs(plain.L0 - corr.L0) < 1e-3 * corr.L0);
+	assert_true(plain.L0_part == plain.L0);
+	for (size_t d = 0; d < 3; d++) {
+		double want = drop_current(truth, corr.drop[d].fraction);
+		print_message("drop %g: corrected %.4f, reading %.4f, law %.4f A\n", corr.drop[d].fraction,
+			      corr.drop[d].current, plain.drop[d].current, want);
+		/* linear-ish interpolation between 0.1 A steps: a few mA */
+		assert_true(fabs(corr.drop[d].current - want) < 0.002);
+	}
+	/* uncorrected, the 30 % point moves by 16 mA, far past the interpolation error */
+	assert_true(fabs(plain.drop[2].current - drop_current(truth, 0.3)) > 0.01);
+}
+
+/* Every current in the filed values lies within the measured range, or
+ * carries no number and says why; a parameter not determined carries no
+ * standard error. (Rule of the issue "honest outputs"; the crossings'
+ * places come from the knee law's closed form above.) */
+static void assert_no_value_beyond(const hb_fit_bias_result *res, double i_max)
+{
+	char want[80];
+	snprintf(want, sizeof want, "beyond the data (highest bias %#.3g A)", i_max);
+	for (size_t i = 0; i < res->values.count; i++) {
+		const hb_fit_value *v = &res->values.v[i];
+		if (strcmp(v->unit, "A") != 0 || strcmp(v->name, "rated_current") == 0)
+			continue;
+		if (isfinite(v->value)) {
+			assert_true(v->value <= i_max);
+		} else {
+			assert_true(isnan(v->std_err));
+			assert_string_equal(v->reason, want);
+		}
+	}
+}
+
+static void test_nothing_beyond_the_data(void **state)
+{
+	(void)state;
+	double I[NP], L[NP];
+	hb_fit_options opt;
+	hb_fit_options_init(&opt);
+	opt.noise_sigma = 0.4e-6;
+	hb_fit_bias_result res;
+	/* stopped at 0.85 A: the 10 % and 20 % crossings (0.600, 0.790 A by the
+	 * closed form) lie inside, the 30 % one (0.952 A) beyond */
+	assert_true(drop_current(truth, 0.3) > 0.85 && drop_current(truth, 0.2) < 0.85);
+	make_knee_sweep(0.85, 0, NULL, I, L);
+	for (int i = 0; i < NP; i++)
+		L[i] *= 1 + 1e-6 * sin(3.0 * i); /* keeps the residuals non-zero */
+	assert_int_equal(hb_fit_bias_analyse(I, L, NULL, NP, &opt, &res), HB_OK);
+	assert_int_equal(res.knee_status, HB_OK);
+	assert_no_value_beyond(&res, I[NP - 1]);
+	const hb_fit_value *v = hb_fit_values_find(&res.values, "knee.I_drop30");
+	assert_non_null(v);
+	assert_true(isnan(v->value));
+	assert_string_equal(v->reason, "beyond the data (highest bias 0.850 A)");
+	v = hb_fit_values_find(&res.values, "I_drop30");
+	assert_true(isnan(v->value));
+	v = hb_fit_values_find(&res.values, "knee.I_drop20");
+	assert_true(fabs(v->value - drop_current(truth, 0.2)) < 1e-3);
+	/* Ik = 1.2 A lies beyond 0.85 A too */
+	v = hb_fit_values_find(&res.values, "knee.Ik");
+	assert_true(isnan(v->value));
+	/* a rated current above the sweep: nothing evaluated there is a number */
+	opt.rated_current = 1.0;
+	assert_int_equal(hb_fit_bias_analyse(I, L, NULL, NP, &opt, &res), HB_OK);
+	static const char *const at_rated[] = { "psi_rated", "W_rated" };
+	for (int k = 0; k < 2; k++) {
+		v = hb_fit_values_find(&res.values, at_rated[k]);
+		assert_non_null(v);
+		assert_true(isnan(v->value));
+		assert_string_equal(v->reason, "beyond the data (highest bias 0.850 A)");
+	}
+	opt.rated_current = 0;
+
+	/* stopped at 0.29 A, far below the knee: no knee current as a number */
+	make_knee_sweep(0.29, 0.4e-6, NULL, I, L);
+	gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+	gsl_rng_set(r, 51);
+	for (int i = 0; i < NP; i++)
+		L[i] += gsl_ran_gaussian(r, 0.4e-6);
+	gsl_rng_free(r);
+	assert_int_equal(hb_fit_bias_analyse(I, L, NULL, NP, &opt, &res), HB_OK);
+	assert_no_value_beyond(&res, I[NP - 1]);
+	v = hb_fit_values_find(&res.values, "knee.I_knee");
+	if (v) {
+		assert_true(isnan(v->value));
+		assert_string_equal(v->reason, "beyond the data (highest bias 0.290 A)");
+	}
+	/* what the data do not determine has no standard error */
+	static const char *const names[] = { "knee.L0", "knee.Lf", "knee.Ik", "knee.p" };
+	if (res.knee_status == HB_OK) {
+		assert_true(res.knee.undetermined != 0);
+		for (int j = 0; j < 4; j++) {
+			v = hb_fit_values_find(&res.values, names[j]);
+			if ((res.knee.undetermined & (1u << j)) && isfinite(v->value)) {
+				assert_true(isnan(v->std_err));
+				assert_string_equal(v->reason, HB_FIT_REASON_UNDETERMINED);
+			}
+		}
+	}
+}
+
+/* A model whose residuals exceed the reading noise is flagged on every value
+ * it gives. Limit: residual rms 3 x the noise (a fit within the noise has a
+ * residual rms near the noise; common practice). */
+static void test_knee_misfit_flagged(void **state)
+{
+	(void)state;
+	double I[NP], L[NP];
+	const double sig = 0.4e-6;
+	hb_fit_options opt;
+	hb_fit_options_init(&opt);
+	opt.noise_sigma = sig;
+	hb_fit_bias_result res;
+	/* the knee law itself plus noise: no flag */
+	gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+	gsl_rng_set(r, 61);
+	make_knee_sweep(4.0, sig, r, I, L);
+	assert_int_equal(hb_fit_bias_analyse(I, L, NULL, NP, &opt, &res), HB_OK);
+	assert_false(res.knee.flags & HB_KNEE_MISFIT);
+	assert_true(res.knee.noise_ratio < 1.5);
+	assert_false(hb_fit_values_find(&res.values, "knee.I_drop10")->misfit);
+	/* a ripple of 10 noise sd the law cannot follow: flagged */
+	for (int i = 0; i < NP; i++)
+		L[i] += 10 * sig * sin(1.7 * i);
+	assert_int_equal(hb_fit_bias_analyse(I, L, NULL, NP, &opt, &res), HB_OK);
+	print_message("misfit ratio %.2f\n", res.knee.noise_ratio);
+	assert_true(res.knee.flags & HB_KNEE_MISFIT);
+	assert_true(hb_fit_values_find(&res.values, "knee.I_drop10")->misfit);
+	assert_true(hb_fit_values_find(&res.values, "knee.Ik")->misfit);
+	/* the model-free values are the data's, never flagged */
+	assert_false(hb_fit_values_find(&res.values, "I_drop10")->misfit);
+	assert_false(hb_fit_values_find(&res.values, "L0")->misfit);
+	gsl_rng_free(r);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_knee_recovery), cmocka_unit_test(test_knee_scale_free),
 		cmocka_unit_test(test_modelfree),     cmocka_unit_test(test_curves),
 		cmocka_unit_test(test_analyse),       cmocka_unit_test(test_failure_paths),
+		cmocka_unit_test(test_modelfree_L0_even_laws), cmocka_unit_test(test_modelfree_cp_corrected),
+		cmocka_unit_test(test_nothing_beyond_the_data), cmocka_unit_test(test_knee_misfit_flagged),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -12,6 +12,7 @@
 #include <unistd.h>
 
 #include <cmocka.h>
+#include <jansson.h>
 
 #include "fit/hb_fit.h"
 #include "src/analysis.h"
@@ -251,6 +252,28 @@ static void assert_self_contained(const char *html)
 	assert_contains(html, "</html>");
 }
 
+/* The cells of the fit table's row for value `name`, tags stripped. */
+static void fit_row(const char *html, const char *name, char cells[5][256])
+{
+	char key[80];
+	snprintf(key, sizeof key, "<tr><td>%s</td>", name);
+	const char *row = strstr(html, key);
+	if (!row)
+		fail_msg("no fit-table row for %s", name);
+	const char *end = strstr(row, "</tr>");
+	assert_non_null(end);
+	const char *p = row;
+	for (int c = 0; c < 5; c++) {
+		p = strstr(p, "<td");
+		assert_true(p && p < end);
+		p = strchr(p, '>') + 1;
+		const char *q = strstr(p, "</td>");
+		assert_non_null(q);
+		snprintf(cells[c], 256, "%.*s", (int)(q - p), p);
+		p = q;
+	}
+}
+
 static void test_sweep_report(void **state)
 {
 	fixture *fx = *state;
@@ -265,9 +288,25 @@ static void test_sweep_report(void **state)
 	assert_contains(html, "test-bench");
 	assert_contains(html, "tester");
 	assert_contains(html, HB_FIT_CODE_VERSION);
-	/* L0 of the invented curve is 100 uH: printed with its uncertainty. */
-	assert_contains(html, ">L0<");
-	assert_true(strstr(html, "100.0") || strstr(html, "99.9"));
+	/* L0 of the invented curve is 10 + 90 = 100 uH at I = 0 (the formula in
+	 * add_bias_sweep): read from the L0 row of the fit table, Result cell,
+	 * not from anywhere on the page (SVG coordinates hold such digits too). */
+	char cells[5][256];
+	fit_row(html, "L0", cells);
+	double l0_uh = 0;
+	char unit[8] = "";
+	assert_int_equal(sscanf(cells[2], "%lf %7s", &l0_uh, unit), 2);
+	assert_string_equal(unit, "uH");
+	/* the invented noise is 1e-4 relative per point */
+	assert_true(fabs(l0_uh - 100.0) < 0.1);
+	/* printed with its uncertainty */
+	assert_true(strcmp(cells[3], "-") != 0 && strstr(cells[3], "H") != NULL);
+	/* N I / le is the applied field per length, never called the core field */
+	fit_row(html, "H_rated", cells);
+	assert_non_null(strstr(cells[1], "applied field per length N I / le"));
+	assert_non_null(strstr(cells[1], "not the field in the core"));
+	assert_contains(html, "Applied field per length N I / le");
+	assert_null(strstr(html, "Field strength H"));
 	assert_contains(html, "verdict pass");
 	assert_contains(html, "Margin");
 	assert_contains(html, "<svg");
@@ -278,6 +317,131 @@ static void test_sweep_report(void **state)
 	free(html);
 }
 
+/*
+ * A sweep stopped at 2 A on the invented part L = 10 + 90 / (1 + (I/3)^4) uH:
+ * its 10 % drop lies at 3 x 0.125^(1/4) = 1.78 A, inside; its 20 % and 30 %
+ * drops at 2.19 and 2.52 A (the same closed form), beyond. Those carry no
+ * number anywhere: text, analysis JSON, exported JSON and the HTML report.
+ */
+static void test_short_sweep_honest(void **state)
+{
+	fixture *fx = *state;
+	hb_db_sweep s;
+	sweep_of_unit(fx, "T-0002", 0, HB_DB_SWEEP_BIAS, &s);
+	s.test_freq_hz = 100e3;
+	s.plan_from = 0;
+	s.plan_to = 2;
+	s.plan_steps = 9;
+	assert_int_equal(hb_db_sweep_begin(fx->db, &s), HB_OK);
+	unsigned seed = 3;
+	for (int k = 0; k < 9; k++) {
+		hb_db_point p;
+		hb_db_point_init(&p);
+		p.sweep_id = s.id;
+		p.seq = k;
+		p.bias_set_a = p.bias_meas_a = 0.25 * k;
+		p.supply_v = 0.03 * p.bias_meas_a;
+		p.freq_hz = 100e3;
+		p.primary = (10e-6 + 90e-6 / (1 + pow(p.bias_meas_a / 3.0, 4))) * (1 + noise(&seed));
+		p.secondary = 0.1;
+		assert_int_equal(hb_db_point_add(fx->db, &p), HB_OK);
+	}
+	assert_int_equal(hb_db_sweep_end(fx->db, s.id, HB_DB_COMPLETE, NULL), HB_OK);
+	hb_analysis_options opt;
+	hb_analysis_options_init(&opt);
+	hb_analysis_summary *an = calloc(1, sizeof *an);
+	assert_non_null(an);
+	assert_int_equal(hb_analysis_sweep(fx->db, s.id, &opt, an), HB_OK);
+	const char *want = "beyond the data (highest bias 2.00 A)";
+
+	/* analysis JSON: null value, null std_err, the reason beside them */
+	json_t *j = hb_analysis_summary_json(an);
+	json_t *v = json_object_get(json_object_get(j, "values"), "I_drop30");
+	assert_non_null(v);
+	assert_true(json_is_null(json_object_get(v, "value")));
+	assert_true(json_is_null(json_object_get(v, "std_err")));
+	assert_string_equal(json_string_value(json_object_get(v, "reason")), want);
+	v = json_object_get(json_object_get(j, "values"), "I_drop10");
+	assert_true(fabs(json_real_value(json_object_get(v, "value")) - 3 * pow(0.125, 0.25)) < 0.05);
+	assert_null(json_object_get(v, "reason"));
+	assert_true(json_is_true(json_object_get(j, "cp_corrected")));
+	json_decref(j);
+
+	/* text: the words, not a number */
+	FILE *t = tmpfile();
+	assert_non_null(t);
+	hb_analysis_print(t, an);
+	long len = 0;
+	char *text = stream_read_back(t, &len);
+	assert_non_null(strstr(text, "current at -30 % L           beyond the data (highest bias 2.00 A)"));
+	/* the part's frequency sweep (unit T-0001, 20 pF invented) gives Cp */
+	assert_non_null(strstr(text, "cp_corrected: true"));
+	free(text);
+	free(an);
+
+	/* exported JSON, from the store */
+	t = tmpfile();
+	assert_non_null(t);
+	char err[300] = "";
+	assert_int_equal(hb_export_json(fx->db, &s.id, 1, t, err, sizeof err), HB_OK);
+	text = stream_read_back(t, &len);
+	json_t *root = json_loads(text, 0, NULL);
+	assert_non_null(root);
+	json_t *vals = json_object_get(json_object_get(json_array_get(json_object_get(root, "sweeps"), 0), "fit"),
+				       "values");
+	v = json_object_get(vals, "I_drop20");
+	assert_non_null(v);
+	assert_true(json_is_null(json_object_get(v, "value")));
+	assert_string_equal(json_string_value(json_object_get(v, "reason")), want);
+	json_decref(root);
+	free(text);
+
+	/* HTML: the reason in the Result cell, no uncertainty, no drop line */
+	char *html = report_text(fx, R_SWEEP, s.id, "short.html");
+	char cells[5][256];
+	fit_row(html, "I_drop30", cells);
+	assert_string_equal(cells[2], want);
+	assert_string_equal(cells[3], "-");
+	fit_row(html, "I_drop10", cells);
+	assert_non_null(strstr(cells[2], " A"));
+	assert_contains(html, "-10 %");
+	char *plain = decode_char_refs(html);
+	assert_null(strstr(plain, "-30 %</"));
+	free(plain);
+	free(html);
+}
+
+/* The knee law cannot follow the lot's knee-shaped part within its
+ * 1e-4 noise? Whatever the fit finds, a model flagged misfit is named
+ * before its values and each of its rows carries the mark. */
+static void test_misfit_marked(void **state)
+{
+	fixture *fx = *state;
+	hb_db_fit *fit = calloc(1, sizeof *fit);
+	assert_non_null(fit);
+	hb_db_fit_init(fit);
+	assert_int_equal(hb_db_fit_get_latest(fx->db, fx->bias_id, NULL, fit), HB_OK);
+	/* mark the stored knee fit misfit, as the analysis would for a part the law misses */
+	snprintf(fit->flags, sizeof fit->flags, "knee-misfit knee-cause:law-mismatch");
+	for (size_t i = 0; i < fit->n_values; i++)
+		if (strcmp(fit->values[i].name, "knee.noise_ratio") == 0)
+			fit->values[i].value = 7.5;
+	assert_int_equal(hb_db_fit_put(fx->db, fit), HB_OK);
+	free(fit);
+	char *html = report_text(fx, R_SWEEP, fx->bias_id, "misfit.html");
+	assert_contains(html, "MISFIT: the knee model&#39;s residuals are 7.5 x the reading noise");
+	assert_contains(html, "1. current moving during the readings: not checked");
+	assert_contains(html, "3. law mismatch: what remains");
+	char cells[5][256];
+	fit_row(html, "knee.I_drop10", cells);
+	assert_non_null(strstr(cells[2], "(misfit)"));
+	assert_non_null(strstr(cells[1], "model misfit: residuals 7.5 x the reading noise"));
+	/* measured values stay unmarked */
+	fit_row(html, "I_drop10", cells);
+	assert_null(strstr(cells[2], "misfit"));
+	free(html);
+}
+
 static void test_frequency_report(void **state)
 {
 	fixture *fx = *state;
@@ -285,6 +449,29 @@ static void test_frequency_report(void **state)
 	assert_contains(html, "frequency");
 	assert_contains(html, ">srf<");
 	assert_contains(html, "SRF 3.5");
+	/* Q: the highest measured X/R, no higher than the invented model's
+	 * readings allow (Q = X/R of (R + jwL) || C at the sweep's 41
+	 * frequencies, circuit theory; noise 1e-4 on each part) */
+	hb_fit_freq_result model;
+	memset(&model, 0, sizeof model);
+	model.param[HB_FREQ_L] = 100e-6;
+	model.param[HB_FREQ_R] = 0.05;
+	model.param[HB_FREQ_C] = 20e-12;
+	model.param[HB_FREQ_RP] = INFINITY;
+	model.p = 3;
+	double qmax = 0;
+	for (int k = 0; k < 41; k++) {
+		double q;
+		hb_fit_freq_eval(&model, 1e3 * pow(10, 4.0 * k / 40), NULL, NULL, &q);
+		if (q > qmax)
+			qmax = q;
+	}
+	char cells[5][256];
+	fit_row(html, "q_max_measured", cells);
+	double q = 0;
+	assert_int_equal(sscanf(cells[2], "%lf", &q), 1);
+	assert_true(q > 0 && q <= qmax * 1.001);
+	assert_null(strstr(html, "<tr><td>q_peak</td>"));
 	assert_contains(html, "<svg");
 	assert_self_contained(html);
 	free(html);
@@ -454,6 +641,9 @@ int main(void)
 		cmocka_unit_test(test_plots),
 		cmocka_unit_test(test_renders_in_chromium),
 		cmocka_unit_test(test_failures),
+		/* last: they add a sweep and a fit the reports above do not expect */
+		cmocka_unit_test(test_short_sweep_honest),
+		cmocka_unit_test(test_misfit_marked),
 	};
 	return cmocka_run_group_tests(tests, setup, teardown);
 }
