@@ -18,15 +18,14 @@ void hb_analysis_options_init(hb_analysis_options *opt)
 
 /*
  * The spread of the supply's read-backs bracketing a point's accepted
- * readings (A): how far the current moved while the meter read.
- * TODO(bias_spread): the sweep engine is to store it per point; until the
- * store has the column this returns NAN and the residual check reports the
- * cause "current moving" as not checked. Wire it here, nowhere else.
+ * readings (A): how far the current moved while the meter read. Points
+ * stored before the engine kept it read NAN, and the residual check then
+ * reports the cause "current moving" as not checked.
  */
 static double point_bias_spread(const hb_db_point *p)
 {
-	(void)p;
-	return NAN;
+	/* NAN for points stored before the read-back spread was kept. */
+	return p->bias_spread_a;
 }
 
 /* The rising points as hb_analysis_bias_arrays takes them, with each one's
