@@ -489,6 +489,173 @@ static int count_prefix(const char *s, const char *prefix)
 /* ------------------------------------------------------------------ */
 /* tests                                                               */
 
+/* Every "supply output OFF at X A" in a simulator log: the real current at
+ * the instant the output went off must be below the threshold. */
+static int assert_no_off_under_current(const char *log, double threshold)
+{
+	int n = 0;
+	for (const char *p = log; (p = strstr(p, "supply output OFF")); p++) {
+		const char *at = strstr(p, " at ");
+		const char *eol = strchr(p, '\n');
+		assert_true(at && (!eol || at < eol));
+		double amps = atof(at + 4);
+		if (fabs(amps) >= threshold)
+			print_error("output switched off with %.4f A flowing\n", amps);
+		assert_true(fabs(amps) < threshold);
+		n++;
+	}
+	return n;
+}
+
+/* A sweep killed with SIGKILL leaves the current flowing (nobody could
+ * ramp it down); each following run finds it, says so, and ramps it down
+ * at the ramp rate before anything else. Three kills at different
+ * currents, then a run to the end: the log shows no switch-off under
+ * current anywhere. */
+static void test_restart_after_sigkill_ramps_down_first(void **state)
+{
+	(void)state;
+	sim_server sim;
+	sim_start(&sim, NULL);
+	char err_path[420];
+	snprintf(err_path, sizeof err_path, "%s/kill.err", tmpdir);
+	const int kill_after[] = { 3, 6, 8 };
+	for (size_t k = 0; k <= sizeof kill_after / sizeof kill_after[0]; k++) {
+		char unit[16];
+		snprintf(unit, sizeof unit, "K-%zu", k);
+		char *argv[] = { NULL, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", unit, "--lcr", sim.lcr,
+				 "--supply", sim.supply, "--to", "4", "--steps", "11", "--ramp", "2", "--yes", "--no-fit",
+				 NULL };
+		int fd;
+		pid_t pid = spawn(argv, station_limits, &fd, err_path);
+		text out = { 0 };
+		if (k < sizeof kill_after / sizeof kill_after[0]) {
+			assert_int_equal(read_until(fd, &out, "point ", kill_after[k]), kill_after[k]);
+			kill(pid, SIGKILL);
+			close(fd);
+			assert_int_equal(exit_of(wait_exit(pid)), 128 + SIGKILL);
+		} else {
+			read_until(fd, &out, NULL, 0);
+			close(fd);
+			assert_int_equal(exit_of(wait_exit(pid)), 0);
+		}
+		free(out.s);
+		char *err = slurp(err_path);
+		/* Each run after a kill found the current the last one left. */
+		if (k > 0)
+			assert_non_null(strstr(err, "already sourcing"));
+		free(err);
+	}
+	sim_stop(&sim);
+	/* Only the last run switched off, and only once the current had gone. */
+	assert_int_equal(assert_no_off_under_current(sim.log, 0.02), 1);
+	/* After each reconnection, the set-point walks down from where the
+	 * killed run left it, 0.1 A (2 A/s * 50 ms) at a time, to zero. */
+	int reconnections = 0;
+	for (const char *p = strstr(sim.log, "supply cmd *IDN?"); p; p = strstr(p + 1, "supply cmd *IDN?")) {
+		double sp[128];
+		int n = 0;
+		const char *next_idn = strstr(p + 1, "supply cmd *IDN?");
+		for (const char *q = p; (q = strstr(q, "supply setpoint ")) && (!next_idn || q < next_idn) && n < 128; q++)
+			sp[n++] = atof(q + strlen("supply setpoint "));
+		if (n == 0 || sp[0] < 0.5)
+			continue; /* nothing was flowing when this run began */
+		reconnections++;
+		for (int i = 1; i < n && sp[i - 1] > 0; i++)
+			assert_true(sp[i - 1] - sp[i] <= 0.1 + 2e-3);
+	}
+	assert_int_equal(reconnections, 3);
+	sim_free(&sim);
+}
+
+/* A supply that speaks only plain SCPI-1999 (SOURce, OUTPut, MEASure; no
+ * STATus:QUEStionable) works with the generic profile: the sweep completes
+ * and compliance is judged from V and I. */
+static void test_plain_scpi_supply_with_generic_profile(void **state)
+{
+	(void)state;
+	sim_server sim;
+	sim_start(&sim, "--param", "status_subsystem=0", NULL);
+	run r;
+	hb_run(&r, station_limits, "--db", db_path, "sweep", "--part", "P-CLI", "--unit", "PLAIN-1", "--lcr", sim.lcr,
+	       "--supply", sim.supply, "--to", "4", "--steps", "9", "--yes", "--no-fit", NULL);
+	sim_stop(&sim);
+	if (r.status != 0)
+		print_error("%s\n", r.err);
+	assert_int_equal(r.status, 0);
+	/* The simulator did refuse the status query at least once (the probe). */
+	assert_non_null(strstr(sim.log, "STAT:QUES:COND?"));
+	json_t *sw = show_only_sweep();
+	assert_string_equal(jstr(sw, "status"), "complete");
+	assert_int_equal(json_array_size(json_object_get(sw, "data")), 9);
+	json_decref(sw);
+	assert_no_off_under_current(sim.log, 0.02);
+	run_free(&r);
+	sim_free(&sim);
+}
+
+/* The README's own commands, read from README.md and run as written
+ * (the sweep there is a --dry-run): they must not be refused. */
+static int readme_command(const char *readme, const char *start, char **argv, int cap, char *buf, size_t buflen)
+{
+	const char *p = strstr(readme, start);
+	assert_non_null(p);
+	size_t k = 0;
+	/* Join continuation lines; stop at the end of the command or a comment. */
+	while (*p && *p != '\n' && *p != '#' && k + 1 < buflen) {
+		if (p[0] == '\\' && p[1] == '\n') {
+			p += 2;
+			continue;
+		}
+		buf[k++] = *p++;
+	}
+	buf[k] = '\0';
+	int n = 0;
+	for (char *save = NULL, *tok = strtok_r(buf, " \t", &save); tok && n < cap - 1;
+	     tok = strtok_r(NULL, " \t", &save))
+		argv[n++] = tok;
+	argv[n] = NULL;
+	return n;
+}
+
+static void test_readme_examples_run_as_written(void **state)
+{
+	(void)state;
+	char *readme = slurp("README.md");
+	assert_non_null(readme);
+	char db[420];
+	snprintf(db, sizeof db, "%s/readme.db", tmpdir);
+	const char *commands[] = { "henrybench part add HBX-108G", "henrybench sweep --part HBX-108G" };
+	for (size_t c = 0; c < 2; c++) {
+		char buf[2048];
+		char *words[64];
+		int n = readme_command(readme, commands[c], words, 60, buf, sizeof buf);
+		assert_true(n > 3);
+		char *argv[64] = { NULL, "--db", db };
+		for (int i = 1; i < n; i++)
+			argv[2 + i] = words[i];
+		argv[2 + n] = NULL;
+		char err_path[420];
+		snprintf(err_path, sizeof err_path, "%s/readme.err", tmpdir);
+		int fd;
+		/* No station file: the README's limits must stand on their own. */
+		pid_t pid = spawn(argv, station_bare, &fd, err_path);
+		text out = { 0 };
+		read_until(fd, &out, NULL, 0);
+		close(fd);
+		int status = exit_of(wait_exit(pid));
+		char *err = slurp(err_path);
+		if (status != 0)
+			print_error("README command '%s ...' exited %d: %s\n", commands[c], status, err);
+		assert_int_equal(status, 0);
+		if (c == 1)
+			assert_non_null(strstr(out.s, "dry run"));
+		free(err);
+		free(out.s);
+	}
+	free(readme);
+}
+
 static void test_sigint_ramps_down_then_exits_130(void **state)
 {
 	(void)state;
@@ -1100,6 +1267,9 @@ int main(void)
 		cmocka_unit_test_setup_teardown(test_sigint_ramps_down_then_exits_130, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_compliance_stop, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_limit_refusals_switch_nothing_on, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_restart_after_sigkill_ramps_down_first, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_plain_scpi_supply_with_generic_profile, store_setup, store_teardown),
+		cmocka_unit_test_setup_teardown(test_readme_examples_run_as_written, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_meter_timeout_mid_sweep, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_one_lost_reading_is_asked_again, store_setup, store_teardown),
 		cmocka_unit_test_setup_teardown(test_lost_supply_link_is_loud, store_setup, store_teardown),
