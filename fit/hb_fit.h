@@ -445,6 +445,8 @@ typedef struct hb_unc_input {
 	bool c_numeric;      /* c was computed from the model by central differences */
 	double dof;          /* nu_i > 0; INFINITY = u(x_i) taken as exactly known */
 	double contribution; /* u_i(y) = |c_i| u(x_i), filled by hb_unc_evaluate */
+	char unit[12];       /* of x_i, SI ("H", "A", "K", "1/K", ""); for the budget table */
+	char source[64];     /* where u(x_i) comes from, e.g. "meter spec 0.2 % rect", "fit covariance" */
 } hb_unc_input;
 
 enum { /* hb_unc_result.flags */
@@ -483,6 +485,8 @@ int hb_unc_add(hb_unc_budget *b, const char *name, hb_unc_type type, double valu
 	       double dof);
 /* r(x_i, x_j) in [-1, 1] (GUM 5.2.2); omitted pairs are uncorrelated. */
 int hb_unc_set_correlation(hb_unc_budget *b, size_t i, size_t j, double r);
+/* Unit and source text of input i for the budget table; either may be NULL. */
+int hb_unc_describe(hb_unc_budget *b, size_t i, const char *unit, const char *source);
 int hb_unc_set_model(hb_unc_budget *b, hb_unc_model_fn model, void *ctx);
 size_t hb_unc_count(const hb_unc_budget *b);
 const hb_unc_input *hb_unc_input_at(const hb_unc_budget *b, size_t i); /* NULL past the end */
@@ -519,8 +523,9 @@ typedef struct hb_unc_dcr {
 	double alpha20, u_alpha; /* coefficient at 20 C and its standard uncertainty, 1/K */
 } hb_unc_dcr;
 
-/* Fills b (reset first) with the inputs "R_T", "T", "alpha" and the referral
- * model, and evaluates it: out->y is R at T_ref. */
+/* Fills b (reset first) with the inputs "R_T" (ohm), "T" (C), "alpha" (1/K),
+ * all Type B (specifications; give dof from hb_unc_dof_type_b or INFINITY),
+ * and the referral model, and evaluates it: out->y is R at T_ref. */
 int hb_unc_dcr_budget(hb_unc_budget *b, const hb_unc_dcr *in, double p, hb_unc_result *out);
 
 #endif

@@ -126,6 +126,17 @@ int hb_unc_set_correlation(hb_unc_budget *b, size_t i, size_t j, double r)
 	return HB_OK;
 }
 
+int hb_unc_describe(hb_unc_budget *b, size_t i, const char *unit, const char *source)
+{
+	if (!b || i >= b->n)
+		return HB_ERR_ARG;
+	if (unit)
+		snprintf(b->in[i].unit, sizeof b->in[i].unit, "%s", unit);
+	if (source)
+		snprintf(b->in[i].source, sizeof b->in[i].source, "%s", source);
+	return HB_OK;
+}
+
 int hb_unc_set_model(hb_unc_budget *b, hb_unc_model_fn model, void *ctx)
 {
 	if (!b)
@@ -172,16 +183,21 @@ static int sensitivity(hb_unc_budget *b, size_t i, double *c)
 	double xi = b->in[i].value;
 	double h = b->in[i].u > 0 ? b->in[i].u : 1e-6 * fmax(fabs(xi), 1e-12);
 	gsl_function F = { model_1d, b };
-	double d, abserr;
 	b->deriv_i = i;
-	b->model_failed = 0;
-	int rc = gsl_deriv_central(&F, xi, h, &d, &abserr);
-	if (rc != GSL_SUCCESS || b->model_failed || !isfinite(d)) {
-		seterr(b, "model undefined near %s = %g (step %g)", b->in[i].name, xi, h);
-		return HB_ERR_DATA;
+	/* an estimate closer than u to the edge of the model's domain (a positive
+	 * quantity with a large relative u) leaves +-u outside it: shrink the
+	 * step, the derivative at the estimate being what the GUM propagates */
+	for (int attempt = 0; attempt < 4; attempt++, h *= 1e-2) {
+		double d, abserr;
+		b->model_failed = 0;
+		int rc = gsl_deriv_central(&F, xi, h, &d, &abserr);
+		if (rc == GSL_SUCCESS && !b->model_failed && isfinite(d)) {
+			*c = d;
+			return HB_OK;
+		}
 	}
-	*c = d;
-	return HB_OK;
+	seterr(b, "model undefined near %s = %g", b->in[i].name, xi);
+	return HB_ERR_DATA;
 }
 
 double hb_unc_coverage_factor(double dof, double p)
@@ -357,6 +373,9 @@ int hb_unc_dcr_budget(hb_unc_budget *b, const hb_unc_dcr *in, double p, hb_unc_r
 	    (rc = hb_unc_add(b, "T", HB_UNC_TYPE_B, in->T, in->u_T, NAN, in->dof_T)) < 0 ||
 	    (rc = hb_unc_add(b, "alpha", HB_UNC_TYPE_B, in->alpha20, in->u_alpha, NAN, INFINITY)) < 0)
 		return rc;
+	hb_unc_describe(b, 0, "ohm", "resistance as measured");
+	hb_unc_describe(b, 1, "C", "part or ambient temperature");
+	hb_unc_describe(b, 2, "1/K", "temperature coefficient at 20 C");
 	hb_unc_set_model(b, dcr_model, &b->builtin[0]);
 	return hb_unc_evaluate(b, p, out);
 }

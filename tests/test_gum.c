@@ -247,6 +247,35 @@ static void test_correlation(void **state)
 	hb_unc_free(b);
 }
 
+/* sqrt(x) at x = 0.01 with u = 0.02: x - u lies outside the domain, so the
+ * step shrinks; c = 1 / (2 sqrt(x)) = 5 (by hand). */
+static int sqrt_model(const double *x, void *ctx, double *y)
+{
+	(void)ctx;
+	if (x[0] < 0)
+		return 1;
+	*y = sqrt(x[0]);
+	return 0;
+}
+
+static void test_domain_edge(void **state)
+{
+	(void)state;
+	hb_unc_budget *b = hb_unc_new();
+	assert_non_null(b);
+	hb_unc_result r;
+	hb_unc_add(b, "x", HB_UNC_TYPE_B, 0.01, 0.02, NAN, INFINITY);
+	assert_int_equal(hb_unc_describe(b, 0, "m", "made up"), HB_OK);
+	assert_int_equal(hb_unc_describe(b, 1, "m", NULL), HB_ERR_ARG);
+	hb_unc_set_model(b, sqrt_model, NULL);
+	assert_int_equal(hb_unc_evaluate(b, 0, &r), HB_OK);
+	check_near(hb_unc_input_at(b, 0)->c, 5, 1e-6);
+	check_near(r.u_c, 0.1, 1e-7);
+	assert_string_equal(hb_unc_input_at(b, 0)->unit, "m");
+	assert_string_equal(hb_unc_input_at(b, 0)->source, "made up");
+	hb_unc_free(b);
+}
+
 static void test_bad_input(void **state)
 {
 	(void)state;
@@ -311,6 +340,7 @@ static void test_dcr_referral(void **state)
 	print_message("DCR %.4f mohm at 20 C, u_c %.4f mohm, U %.4f mohm (k %.2f)\n", r.y * 1e3, r.u_c * 1e3,
 		      r.U * 1e3, r.k);
 	check_near(r.k, 2, 1e-9);
+	assert_string_equal(hb_unc_input_at(b, 2)->unit, "1/K");
 	hb_unc_free(b);
 }
 
@@ -323,6 +353,7 @@ int main(void)
 		cmocka_unit_test(test_type_b),
 		cmocka_unit_test(test_product_quotient),
 		cmocka_unit_test(test_correlation),
+		cmocka_unit_test(test_domain_edge),
 		cmocka_unit_test(test_bad_input),
 		cmocka_unit_test(test_dcr_referral),
 	};
