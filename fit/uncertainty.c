@@ -284,11 +284,19 @@ int hb_unc_evaluate(hb_unc_budget *b, double p, hb_unc_result *out)
 	double dof_eff = den > 0 ? uc2 * uc2 / den : INFINITY;
 	int flags = b->correlated ? HB_UNC_CORRELATED : 0;
 	/* G.4.1: truncate to the next lower integer, the conservative choice and
-	 * what the GUM's worked examples do; below 1 the fraction is kept */
+	 * what the GUM's worked examples do; below 1 the fraction is kept. An
+	 * integer the sum reproduces only to rounding (one input of 3 dof can
+	 * come back as 2.9999999999999996) stays that integer, not one less. */
 	double dof_used = dof_eff;
-	if (isfinite(dof_eff) && dof_eff >= 1 && floor(dof_eff) != dof_eff) {
-		dof_used = floor(dof_eff);
-		flags |= HB_UNC_DOF_TRUNCATED;
+	if (isfinite(dof_eff) && dof_eff >= 1) {
+		double whole = floor(dof_eff * (1 + 1e-9));
+		if (fabs(whole - dof_eff) <= 1e-9 * dof_eff) {
+			dof_used = whole;
+			dof_eff = whole;
+		} else {
+			dof_used = whole;
+			flags |= HB_UNC_DOF_TRUNCATED;
+		}
 	}
 	double k = hb_unc_coverage_factor(dof_used, p);
 	if (!isfinite(k)) {

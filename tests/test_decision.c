@@ -193,6 +193,21 @@ static void test_edges(void **state)
 	assert_non_null(strstr(hb_decision_rule_statement(HB_DECISION_NONBINARY), "4.2.3"));
 }
 
+/* The issue: conditional units count as nonconforming unless the plan says otherwise. */
+static void test_conditional_policy(void **state)
+{
+	(void)state;
+	hb_conditional_policy def = 0;
+	assert_true(hb_decision_counts_conforming(HB_DECISION_PASS, def));
+	assert_false(hb_decision_counts_conforming(HB_DECISION_CONDITIONAL_PASS, def));
+	assert_false(hb_decision_counts_conforming(HB_DECISION_CONDITIONAL_FAIL, def));
+	assert_false(hb_decision_counts_conforming(HB_DECISION_NOT_TESTED, def));
+	assert_true(hb_decision_counts_conforming(HB_DECISION_CONDITIONAL_PASS, HB_CONDITIONAL_BY_SIDE));
+	assert_false(hb_decision_counts_conforming(HB_DECISION_CONDITIONAL_FAIL, HB_CONDITIONAL_BY_SIDE));
+	assert_false(hb_decision_counts_conforming(HB_DECISION_FAIL, HB_CONDITIONAL_BY_SIDE));
+	assert_string_equal(hb_conditional_policy_name(def), "nonconforming");
+}
+
 /*
  * Bissell (1990): Cpk +- z sqrt(1/(9n) + Cpk^2/(2(n-1))).
  * The issue's example, n = 3, Cpk 0.79, "about -0.07 to 1.66": by hand
@@ -268,6 +283,7 @@ int main(void)
 		cmocka_unit_test(test_guarded),
 		cmocka_unit_test(test_nonbinary),
 		cmocka_unit_test(test_edges),
+		cmocka_unit_test(test_conditional_policy),
 		cmocka_unit_test(test_cpk_issue),
 		cmocka_unit_test(test_cpk_textbook),
 		cmocka_unit_test(test_no_signed_zero),

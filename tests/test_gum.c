@@ -8,6 +8,9 @@
 
 #include <cmocka.h>
 
+#include <gsl/gsl_randist.h>
+#include <gsl/gsl_rng.h>
+
 #include "fit/hb_fit.h"
 
 static void check_near_at(double got, double want, double tol, int line)
@@ -276,6 +279,27 @@ static void test_domain_edge(void **state)
 	hb_unc_free(b);
 }
 
+/* One Type A input of 3 dof: nu_eff is 3 (G.4.1 with one term), whatever
+ * rounding the fourth powers leave: u = 1e-6 * 2.48 / 7 gave 2.9999999999999996,
+ * truncated to 2, k = t(2) = 4.53 instead of t(3) = 3.31 (GUM Table G.2 at
+ * 95.45 %, from memory). */
+static void test_dof_rounding(void **state)
+{
+	(void)state;
+	hb_unc_budget *b = hb_unc_new();
+	assert_non_null(b);
+	for (int i = 0; i < 200; i++) {
+		hb_unc_result r;
+		hb_unc_reset(b);
+		hb_unc_add(b, "L", HB_UNC_TYPE_A, 1e-3, 1e-6 * (1 + 0.37 * i) / 7, 1, 3);
+		assert_int_equal(hb_unc_evaluate(b, 0, &r), HB_OK);
+		check_near(r.dof_used, 3, 0);
+		check_near(r.k, 3.31, 0.005);
+		assert_false(r.flags & HB_UNC_DOF_TRUNCATED);
+	}
+	hb_unc_free(b);
+}
+
 static void test_bad_input(void **state)
 {
 	(void)state;
@@ -344,6 +368,44 @@ static void test_dcr_referral(void **state)
 	hb_unc_free(b);
 }
 
+/*
+ * Coverage: the mean of 4 readings with u = s/sqrt(4) and 3 dof. The interval
+ * mean +- k u with k = t(3) covers the true value with the stated 95.45 % by
+ * construction of Student's t; k = 2 would cover only P(|t_3| < 2) = 86 %
+ * (by hand from the t distribution). 20000 seeded trials: binomial sd 0.15 %.
+ */
+static void test_coverage_type_a(void **state)
+{
+	(void)state;
+	gsl_rng *rng = gsl_rng_alloc(gsl_rng_mt19937);
+	assert_non_null(rng);
+	gsl_rng_set(rng, 10);
+	hb_unc_budget *b = hb_unc_new();
+	assert_non_null(b);
+	const int trials = 20000;
+	const double truth = 1e-3, sd = 1e-6;
+	int covered = 0, covered_k2 = 0;
+	for (int t = 0; t < trials; t++) {
+		double x[4], m = 0, ss = 0;
+		for (int i = 0; i < 4; i++)
+			m += (x[i] = truth + gsl_ran_gaussian(rng, sd)) / 4;
+		for (int i = 0; i < 4; i++)
+			ss += (x[i] - m) * (x[i] - m);
+		hb_unc_reset(b);
+		hb_unc_add(b, "L", HB_UNC_TYPE_A, m, sqrt(ss / 3) / 2, 1, hb_unc_dof_type_a(4));
+		hb_unc_result r;
+		assert_int_equal(hb_unc_evaluate(b, 0, &r), HB_OK);
+		covered += fabs(m - truth) <= r.U;
+		covered_k2 += fabs(m - truth) <= 2 * r.u_c;
+	}
+	double cov = (double)covered / trials, cov2 = (double)covered_k2 / trials;
+	print_message("coverage with t(3): %.4f, with k = 2: %.4f\n", cov, cov2);
+	check_near(cov, HB_UNC_P_K2, 0.0045); /* 3 binomial sd */
+	check_near(cov2, 0.861, 0.01);
+	hb_unc_free(b);
+	gsl_rng_free(rng);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -354,8 +416,10 @@ int main(void)
 		cmocka_unit_test(test_product_quotient),
 		cmocka_unit_test(test_correlation),
 		cmocka_unit_test(test_domain_edge),
+		cmocka_unit_test(test_dof_rounding),
 		cmocka_unit_test(test_bad_input),
 		cmocka_unit_test(test_dcr_referral),
+		cmocka_unit_test(test_coverage_type_a),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }

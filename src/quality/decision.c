@@ -142,6 +142,18 @@ int hb_decision_evaluate(const hb_decision_spec *spec, double measured, double U
 	return HB_OK;
 }
 
+bool hb_decision_counts_conforming(hb_decision_outcome o, hb_conditional_policy policy)
+{
+	if (o == HB_DECISION_PASS)
+		return true;
+	return o == HB_DECISION_CONDITIONAL_PASS && policy == HB_CONDITIONAL_BY_SIDE;
+}
+
+const char *hb_conditional_policy_name(hb_conditional_policy policy)
+{
+	return policy == HB_CONDITIONAL_BY_SIDE ? "by-side" : "nonconforming";
+}
+
 const char *hb_decision_rule_name(hb_decision_rule rule)
 {
 	switch (rule) {

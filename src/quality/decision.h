@@ -79,6 +79,21 @@ int hb_decision_evaluate(const hb_decision_spec *spec, double measured, double U
  * distribution (JCGM 106:2012 7.3, 7.4); NAN limits are open sides. */
 double hb_decision_p_conform(double measured, double u, double tl_low, double tl_high);
 
+/*
+ * How a lot inspection counts conditional units; the plan states it.
+ * Default (0): every conditional outcome counts as nonconforming, the
+ * consumer-safe reading. By side: conditional pass conforms, conditional
+ * fail does not (the measured value's own side of the limit).
+ */
+typedef enum hb_conditional_policy {
+	HB_CONDITIONAL_NONCONFORMING = 0,
+	HB_CONDITIONAL_BY_SIDE = 1,
+} hb_conditional_policy;
+
+/* True when the outcome counts as conforming under the policy; NOT_TESTED never does. */
+bool hb_decision_counts_conforming(hb_decision_outcome o, hb_conditional_policy policy);
+const char *hb_conditional_policy_name(hb_conditional_policy policy); /* "nonconforming", "by-side" */
+
 const char *hb_decision_rule_name(hb_decision_rule rule);       /* "simple", "guarded", "non-binary" */
 const char *hb_decision_rule_statement(hb_decision_rule rule);  /* one sentence naming the rule and its source */
 const char *hb_decision_outcome_name(hb_decision_outcome o);    /* "pass", "conditional-pass", ... */
