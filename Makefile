@@ -47,7 +47,7 @@ ALL_CFLAGS  = -std=c11 $(WARN) $(CFLAGS) $(SANFLAGS) $(PKG_CFLAGS) -MMD -MP
 LDLIBS_ALL  = $(PKG_LIBS) -lm -lpthread
 
 LIB_SRCS   := $(wildcard common/*.c drivers/*.c drivers/sim/*.c fit/*.c db/*.c) \
-              $(filter-out src/main.c,$(wildcard src/*.c))
+              $(filter-out src/main.c,$(wildcard src/*.c src/*/*.c))
 LIB_ASMS   := $(wildcard db/*.S drivers/*.S src/*.S)
 LIB_OBJS   := $(LIB_SRCS:%.c=$(BUILD)/%.o) $(LIB_ASMS:%.S=$(BUILD)/%.o)
 MAIN_OBJ   := $(BUILD)/src/main.o

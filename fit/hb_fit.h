@@ -410,4 +410,122 @@ int hb_fit_solenoid(double diameter, double length, double turns, double *L_exac
 /* Straight round wire, low frequency (Rosa / Grover): 2l[ln(2l/r) - 0.75] nH, l, r in cm. */
 double hb_fit_wire_inductance(double length, double radius);
 
+/* ------------------------------------------------------------------ */
+/* 7. Uncertainty budget (GUM, JCGM 100:2008)                          */
+/* ------------------------------------------------------------------ */
+
+/*
+ * One budget per reported quantity y = f(x_1..x_N): each input carries its
+ * estimate x_i, standard uncertainty u(x_i), sensitivity coefficient c_i and
+ * degrees of freedom nu_i. hb_unc_evaluate gives the combined standard
+ * uncertainty (law of propagation, GUM 5.1.2 / 5.2.2), the contributions
+ * u_i(y) = |c_i| u(x_i), the effective degrees of freedom (Welch-Satterthwaite,
+ * GUM G.4.1), the coverage factor k from Student's t (GUM G.3) and U = k u_c.
+ */
+
+#define HB_UNC_MAX_INPUTS 32
+/* Coverage probability of k = 2 for a normal distribution, erf(sqrt 2):
+ * "95.45 %" (GUM G.1.3, Table G.1). The default of hb_unc_evaluate. */
+#define HB_UNC_P_K2 0.9544997361036416
+/* Copper's temperature coefficient of resistance at 20 C, 1/K (annealed
+ * copper, 100 % IACS: the value in common practice). */
+#define HB_UNC_ALPHA_CU20 0.00393
+
+typedef enum hb_unc_type {
+	HB_UNC_TYPE_A = 0, /* statistical analysis of series of observations (GUM 4.2) */
+	HB_UNC_TYPE_B = 1, /* other means: specification, certificate, handbook (GUM 4.3) */
+} hb_unc_type;
+
+typedef struct hb_unc_input {
+	char name[40];
+	hb_unc_type type;
+	double value;        /* x_i */
+	double u;            /* u(x_i) >= 0 */
+	double c;            /* c_i = df/dx_i at the estimates (given, or computed by hb_unc_evaluate) */
+	bool c_numeric;      /* c was computed from the model by central differences */
+	double dof;          /* nu_i > 0; INFINITY = u(x_i) taken as exactly known */
+	double contribution; /* u_i(y) = |c_i| u(x_i), filled by hb_unc_evaluate */
+	char unit[12];       /* of x_i, SI ("H", "A", "K", "1/K", ""); for the budget table */
+	char source[64];     /* where u(x_i) comes from, e.g. "meter spec 0.2 % rect", "fit covariance" */
+} hb_unc_input;
+
+enum { /* hb_unc_result.flags */
+	HB_UNC_CORRELATED = 1 << 0, /* correlations entered u_c; Welch-Satterthwaite (G.4.1) assumes
+				     * independent inputs, so nu_eff is then only indicative */
+	HB_UNC_DOF_TRUNCATED = 1 << 1, /* k uses nu_eff truncated to the next lower integer (G.4.1) */
+};
+
+typedef struct hb_unc_result {
+	double y;        /* f at the estimates; NAN when the budget has no model */
+	double u_c;      /* combined standard uncertainty */
+	double dof_eff;  /* Welch-Satterthwaite; INFINITY when every nu_i is */
+	double dof_used; /* degrees of freedom k was taken at (dof_eff truncated) */
+	double p;        /* coverage probability */
+	double k;        /* coverage factor t_p(dof_used); the normal quantile for infinite dof */
+	double U;        /* expanded uncertainty k u_c */
+	int flags;
+} hb_unc_result;
+
+/* y = f(x): 0, or nonzero when x is outside the model's domain. x has
+ * hb_unc_count() elements in the order the inputs were added. */
+typedef int (*hb_unc_model_fn)(const double *x, void *ctx, double *y);
+
+typedef struct hb_unc_budget hb_unc_budget; /* inputs, correlation matrix, scratch: reuse it */
+
+hb_unc_budget *hb_unc_new(void);
+void hb_unc_free(hb_unc_budget *b);
+/* Forget the inputs, correlations and model; keep the allocations. */
+void hb_unc_reset(hb_unc_budget *b);
+const char *hb_unc_error(const hb_unc_budget *b); /* why the last call failed */
+
+/* Adds an input; returns its index (>= 0) or a negative hb_status. c = NAN:
+ * computed from the model (hb_unc_set_model) by central differences.
+ * dof = INFINITY for an exactly known u (most Type B inputs). */
+int hb_unc_add(hb_unc_budget *b, const char *name, hb_unc_type type, double value, double u, double c,
+	       double dof);
+/* r(x_i, x_j) in [-1, 1] (GUM 5.2.2); omitted pairs are uncorrelated. */
+int hb_unc_set_correlation(hb_unc_budget *b, size_t i, size_t j, double r);
+/* Unit and source text of input i for the budget table; either may be NULL. */
+int hb_unc_describe(hb_unc_budget *b, size_t i, const char *unit, const char *source);
+int hb_unc_set_model(hb_unc_budget *b, hb_unc_model_fn model, void *ctx);
+size_t hb_unc_count(const hb_unc_budget *b);
+const hb_unc_input *hb_unc_input_at(const hb_unc_budget *b, size_t i); /* NULL past the end */
+
+/* p = 0 -> HB_UNC_P_K2. HB_ERR_ARG (no inputs, a c_i NAN without a model,
+ * p outside (0, 1)), HB_ERR_DATA (the model failed at or near the estimates,
+ * or correlations not positive semi-definite). */
+int hb_unc_evaluate(hb_unc_budget *b, double p, hb_unc_result *out);
+
+/* k = t_p(dof) two-sided (GUM G.3.4); the normal quantile when dof is infinite. NAN on bad input. */
+double hb_unc_coverage_factor(double dof, double p);
+/* Type A degrees of freedom of a mean of n observations: n - 1 (GUM G.3.3). */
+double hb_unc_dof_type_a(size_t n);
+/* Type B: nu = 1/2 (Delta u / u)^-2 from the relative uncertainty of the
+ * uncertainty (GUM G.4.2); 0 -> INFINITY. */
+double hb_unc_dof_type_b(double rel_unc_of_u);
+/* Standard uncertainty of a half-width a (GUM 4.3.7, 4.3.9, F.2.3.3) and of
+ * an expanded uncertainty stated with its coverage factor (GUM 4.3.3). */
+double hb_unc_rectangular(double a);  /* a / sqrt(3) */
+double hb_unc_triangular(double a);   /* a / sqrt(6) */
+double hb_unc_arcsine(double a);      /* a / sqrt(2): a cyclic (sinusoidal) variation */
+double hb_unc_normal(double U, double k); /* U / k */
+
+/* DC resistance R_T measured at temperature T referred to T_ref:
+ * R_ref = R_T / (1 + alpha (T - T_ref)), alpha the coefficient AT T_ref. */
+double hb_unc_dcr_refer(double R_T, double T, double T_ref, double alpha);
+/* A coefficient given at 20 C moved to T_ref: alpha20 / (1 + alpha20 (T_ref - 20)). */
+double hb_unc_alpha_at(double alpha20, double T_ref);
+
+typedef struct hb_unc_dcr {
+	double R_T, u_R, dof_R;  /* measured resistance, its standard uncertainty and dof */
+	double T, u_T, dof_T;    /* part (or ambient) temperature, C */
+	double T_ref;            /* reference temperature, C, exact */
+	double alpha20, u_alpha; /* coefficient at 20 C and its standard uncertainty, 1/K */
+} hb_unc_dcr;
+
+/* Fills b (reset first) with the inputs "R_T" (ohm), "T" (C), "alpha" (1/K),
+ * all Type B (specifications; give dof from hb_unc_dof_type_b or INFINITY),
+ * and the referral model, and evaluates it: out->y is R at T_ref. */
+int hb_unc_dcr_budget(hb_unc_budget *b, const hb_unc_dcr *in, double p, hb_unc_result *out);
+
 #endif
