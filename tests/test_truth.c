@@ -546,6 +546,9 @@ static const known_defect defects[] = {
 	{ "gapped", Q_D10, "drop currents inherit the L0 bias: the target (1 - f) L0 sits low, the current high" },
 	{ "gapped", Q_D20, "drop currents inherit the L0 bias: the target (1 - f) L0 sits low, the current high" },
 	{ "gapped", Q_D30, "drop currents inherit the L0 bias: the target (1 - f) L0 sits low, the current high" },
+	{ "ungapped", Q_D10, "drop currents inherit the L0 bias: the target (1 - f) L0 sits high, the current low" },
+	{ "ungapped", Q_D20, "drop currents inherit the L0 bias: the target (1 - f) L0 sits high, the current low" },
+	{ "ungapped", Q_D30, "drop currents inherit the L0 bias: the target (1 - f) L0 sits high, the current low" },
 	/* Q_N: the core fit on exact (noiseless) data */
 	{ "gapped", Q_N, EXACT_DATA_DEFECT },
 	{ "light-gap", Q_N, EXACT_DATA_DEFECT },
