@@ -150,7 +150,10 @@ static bool env_on(const char *name)
 }
 
 /* Weak: the simulator's dynamics presets are being added elsewhere; a
- * configuration naming one is skipped while the function is absent. */
+ * configuration naming one is skipped (with a message) while the function
+ * is absent. A weak reference does not pull a member out of libhb.a: if
+ * the presets land in an object file nothing else uses, drop the weak
+ * attribute then, or their rows stay skipped. */
 extern int hb_sim_load_dynamics(hb_sim *sim, const char *name) __attribute__((weak));
 
 static int configure_sim(const truth_config *c, unsigned seed, double time_scale)
