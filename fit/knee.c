@@ -185,14 +185,18 @@ static double aicc_of(double chi2, size_t k, size_t pc, bool weighted)
  * a useless odd term that bends the intercept. The Frohlich-Kennelly law
  * has |H| in it, a cusp at zero with a finite slope, which only an |I|
  * term follows. So both are fitted and AICc chooses; ties go to the even
- * series. "Below the knee": while L stays within 10 % of the first reading,
- * where two or three terms describe the curve.
+ * series. "Below the knee": while L stays within 5 % of the first reading
+ * (at least five points, out to 10 %), where two or three terms describe
+ * the curve.
  */
 static int modelfree_L0(const double *I, const double *L, const double *sig, size_t n, size_t l0_points,
 			hb_fit_modelfree_result *out)
 {
 	size_t k = l0_points;
 	if (k == 0) {
+		/* Within 5 % of the first reading, where the next term of the
+		 * series is small against the noise; at least five points (out to
+		 * 10 %) so the larger bases keep a spare point. */
 		k = 1;
 		while (k < n && L[k] >= 0.9 * L[0])
 			k++;
@@ -204,15 +208,25 @@ static int modelfree_L0(const double *I, const double *L, const double *sig, siz
 	if (k < 2)
 		k = 2;
 	static const double even1[] = { 0, 2 }, even2[] = { 0, 2, 4 }, cusp[] = { 0, 1, 2 }, cusp3[] = { 0, 1, 2, 3 },
-			    line[] = { 0, 1 };
+			    cusp4[] = { 0, 1, 2, 3, 4 }, line[] = { 0, 1 };
 	struct { const double *pw; size_t pc; const char *name; } cand[] = {
 		{ even1, 2, "1, I^2" }, { even2, 3, "1, I^2, I^4" }, { cusp, 3, "1, |I|, I^2" },
-		{ cusp3, 4, "1, |I|, I^2, |I|^3" },
+		{ cusp3, 4, "1, |I|, I^2, |I|^3" }, { cusp4, 5, "1, |I|, I^2, |I|^3, I^4" },
 	};
 	bool weighted = sig[0] > 0;
+	/* Every basis that fits, with its AICc; the intercept is then averaged
+	 * over them with Akaike weights, and its standard error is the
+	 * unconditional one, which adds each basis's distance from the average
+	 * (Burnham and Anderson, Model Selection and Multimodel Inference,
+	 * 2nd ed. 2002, eqs. 4.1 and 4.9, from memory): the choice of basis is
+	 * an uncertainty of its own, and a single best basis understates it. */
+	enum { NCAND = sizeof cand / sizeof cand[0] };
+	double c0s[NCAND], v0s[NCAND], as[NCAND];
+	bool ok[NCAND] = { false };
 	double best = INFINITY;
+	int best_c = -1;
 	int rc = HB_ERR_DATA;
-	for (size_t c = 0; c < sizeof cand / sizeof cand[0]; c++) {
+	for (size_t c = 0; c < NCAND; c++) {
 		/* one spare point at least, so the scatter can scale the error */
 		if (k < cand[c].pc + 1)
 			continue;
@@ -220,18 +234,51 @@ static int modelfree_L0(const double *I, const double *L, const double *sig, siz
 		int st = poly_at_zero(I, L, sig, k, cand[c].pw, cand[c].pc, &c0, &v0, &chi2);
 		if (st == HB_ERR_NOMEM)
 			return st;
-		if (st != HB_OK || !isfinite(c0))
+		if (st != HB_OK || !isfinite(c0) || !isfinite(v0))
 			continue;
 		double a = aicc_of(chi2, k, cand[c].pc, weighted);
+		c0s[c] = c0;
+		v0s[c] = v0;
+		as[c] = a;
+		ok[c] = true;
 		/* with fewer than pc + 2 points AICc is undefined: take the first that fits */
 		if (!isfinite(a))
 			a = 1e300 + (double)c;
 		if (a < best - 1e-9) {
 			best = a;
-			out->L0 = c0;
-			out->L0_std_err = sqrt(v0);
-			snprintf(out->L0_basis, sizeof out->L0_basis, "%s", cand[c].name);
+			best_c = (int)c;
 			rc = HB_OK;
+		}
+	}
+	if (rc == HB_OK) {
+		double wsum = 0, w[NCAND] = { 0 };
+		for (size_t c = 0; c < NCAND; c++)
+			if (ok[c] && isfinite(as[c]) && isfinite(best) && best < 1e299) {
+				w[c] = exp(-0.5 * (as[c] - best));
+				wsum += w[c];
+			}
+		if (wsum > 0) {
+			double avg = 0;
+			for (size_t c = 0; c < NCAND; c++)
+				avg += w[c] / wsum * c0s[c];
+			double se = 0;
+			int used = 0;
+			for (size_t c = 0; c < NCAND; c++)
+				if (w[c] > 0) {
+					se += w[c] / wsum * sqrt(v0s[c] + (c0s[c] - avg) * (c0s[c] - avg));
+					used += w[c] / wsum > 1e-3;
+				}
+			out->L0 = avg;
+			out->L0_std_err = se;
+			if (used > 1)
+				snprintf(out->L0_basis, sizeof out->L0_basis, "%s (averaged over %d bases)",
+					 cand[best_c].name, used);
+			else
+				snprintf(out->L0_basis, sizeof out->L0_basis, "%s", cand[best_c].name);
+		} else {
+			out->L0 = c0s[best_c];
+			out->L0_std_err = sqrt(v0s[best_c]);
+			snprintf(out->L0_basis, sizeof out->L0_basis, "%s", cand[best_c].name);
 		}
 	}
 	if (rc != HB_OK) {

@@ -226,9 +226,12 @@ static void assess(slot *s, const hb_fit_problem *pr, const double *Jd, const do
 		}
 		double dot;
 		gsl_blas_ddot(&col.vector, f, &dot);
-		/* Not at a stationary point although the driver stopped. */
-		if (fnorm > 1e-150 && fabs(dot) / (colnorm[j] * fnorm) > GRADIENT_COS_MAX &&
-		    fnorm * fnorm > 1e-24 * (double)n)
+		/* Not at a stationary point although the driver stopped. With
+		 * known weights, residuals far below the noise (chi2/n < 1e-10: a
+		 * model that passes through the data to rounding) carry no
+		 * direction: the angle test would only read rounding. */
+		bool negligible = pr->sigma ? fnorm * fnorm < 1e-10 * (double)n : fnorm * fnorm <= 1e-24 * (double)n;
+		if (fnorm > 1e-150 && fabs(dot) / (colnorm[j] * fnorm) > GRADIENT_COS_MAX && !negligible)
 			ro->suspect = true;
 		gsl_vector_scale(&col.vector, 1.0 / colnorm[j]);
 	}

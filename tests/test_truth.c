@@ -377,29 +377,17 @@ typedef struct known_defect {
 	const char *what;
 } known_defect;
 
-#define EXACT_DATA_DEFECT                                                                                    \
-	"fit/nlls.c assess(): on exact data the right law's minimum is judged a stall (the gradient-cosine test, "  \
-	"GRADIENT_COS_MAX 1e-4, applied to a residual at rounding level) and the fit fails with HB_ERR_FIT; a "       \
-	"wrong law wins with chi2 in the thousands. With 1e-7 relative residuals added it passes"
-
 #define L0_DEFECT                                                                                            \
-	"fit/knee.c hb_fit_modelfree: the zero-bias quadratic through the first 6 points misses the curve's "       \
-	"higher-order terms; on the noiseless true curve its intercept is off by -7.3e-5 L0 (gapped, Frohlich: "     \
-	"-0.8 stated se) and +4.1e-5 L0 (ungapped, tanh: +0.45 se), a model error the stated uncertainty omits"
+	"fit/knee.c modelfree_L0: the series fitted to the points within 10 % of the first reading (bases in I^2 "   \
+	"and in |I|, averaged with Akaike weights) leaves a model error the stated uncertainty omits for the "        \
+	"Frohlich-Kennelly cusp: on the noiseless true curve the gapped part's intercept is +5.4e-5 L0 high "        \
+	"(+0.59 stated se)"
 
 static const known_defect defects[] = {
 	{ "gapped", Q_L0, L0_DEFECT },
-	{ "ungapped", Q_L0, L0_DEFECT },
-	{ "gapped", Q_D10, "drop currents inherit the L0 bias: the target (1 - f) L0 sits low, the current high" },
-	{ "gapped", Q_D20, "drop currents inherit the L0 bias: the target (1 - f) L0 sits low, the current high" },
-	{ "gapped", Q_D30, "drop currents inherit the L0 bias: the target (1 - f) L0 sits low, the current high" },
-	{ "ungapped", Q_D10, "drop currents inherit the L0 bias: the target (1 - f) L0 sits high, the current low" },
-	{ "ungapped", Q_D20, "drop currents inherit the L0 bias: the target (1 - f) L0 sits high, the current low" },
-	{ "ungapped", Q_D30, "drop currents inherit the L0 bias: the target (1 - f) L0 sits high, the current low" },
-	/* Q_N: the core fit on exact (noiseless) data */
-	{ "gapped", Q_N, EXACT_DATA_DEFECT },
-	{ "light-gap", Q_N, EXACT_DATA_DEFECT },
-	{ "ungapped", Q_N, EXACT_DATA_DEFECT },
+	{ "gapped", Q_D10, "drop currents inherit the L0 bias: the target (1 - f) L0 sits high, the current low" },
+	{ "gapped", Q_D20, "drop currents inherit the L0 bias: the target (1 - f) L0 sits high, the current low" },
+	{ "gapped", Q_D30, "drop currents inherit the L0 bias: the target (1 - f) L0 sits high, the current low" },
 };
 
 static const known_defect *defect_of(const truth_part *p, int q)

@@ -164,9 +164,11 @@ int hb_sim_new(const char *preset, hb_sim **out)
 	sim->wake_fd = -1;
 	sim_params_defaults(&sim->p);
 	sim->rng = gsl_rng_alloc(gsl_rng_mt19937);
-	if (!sim->rng)
+	sim->rng_rb = gsl_rng_alloc(gsl_rng_mt19937);
+	if (!sim->rng || !sim->rng_rb)
 		return set_error(sim, HB_ERR_NOMEM, "out of memory");
 	gsl_rng_set(sim->rng, (unsigned long)sim->p.seed);
+	gsl_rng_set(sim->rng_rb, (unsigned long)sim->p.seed ^ 0x5bd1e995UL);
 	sim_state_reset(&sim->p, &sim->s);
 	sim->s.temp_c = sim->p.t_amb;
 	sim->s.hist = &sim->hist;
@@ -209,6 +211,8 @@ void hb_sim_free(hb_sim *sim)
 	}
 	if (sim->rng)
 		gsl_rng_free(sim->rng);
+	if (sim->rng_rb)
+		gsl_rng_free(sim->rng_rb);
 	free(sim);
 }
 
@@ -305,8 +309,10 @@ int hb_sim_set_param(hb_sim *sim, const char *key, double value)
 	/* Time up to now runs under the old value. */
 	sim_advance(sim, sim_clock(sim));
 	*(double *)((char *)&sim->p + info->offset) = value;
-	if (strcmp(key, "seed") == 0)
+	if (strcmp(key, "seed") == 0) {
 		gsl_rng_set(sim->rng, (unsigned long)value);
+		gsl_rng_set(sim->rng_rb, (unsigned long)value ^ 0x5bd1e995UL);
+	}
 	if (strcmp(key, "vmax") == 0 && sim->s.vlimit > value)
 		sim->s.vlimit = value;
 	if (strcmp(key, "imax") == 0 && sim->s.setpoint > value)

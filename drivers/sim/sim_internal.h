@@ -215,7 +215,9 @@ struct hb_sim {
 	sim_faults faults[2];
 	sim_conn *conns;
 	FILE *log;
-	gsl_rng *rng;
+	gsl_rng *rng;     /* the meter's noise (and fault garbling) */
+	gsl_rng *rng_rb;  /* the supply's read-back noise: a stream of its own, so how many
+	                   * read-backs a settle rule takes never shifts the meter's noise */
 	double t_model; /* clock time the state was last advanced to */
 	bool virtual_on; /* the clock is vnow, advanced only by the bench's users */
 	double vnow;     /* virtual clock, seconds from when virtual time was switched on */

@@ -444,11 +444,10 @@ static void supply_measure(hb_sim *sim, sim_conn *conn, bool volts, double now)
 {
 	sim_advance(sim, now);
 	/* The converter's read-back path: delayed and filtered as set, then
-	 * noise; one draw whatever the terms, so a seed gives the same
-	 * sequence as before these terms existed. */
+	 * noise from the read-back's own stream, one draw whatever the terms. */
 	double real = sim_readback_amps(&sim->p, &sim->s);
 	double sigma = sim->p.noise * 1e-3 * sim->p.imax + sim->p.rb_noise * fabs(real) + sim->p.rb_noise_abs;
-	double noise = gsl_ran_gaussian(sim->rng, 1.0) * sigma;
+	double noise = gsl_ran_gaussian(sim->rng_rb, 1.0) * sigma;
 	double amps = real + noise;
 	double v = 0;
 	if (sim->s.output)
