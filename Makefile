@@ -47,10 +47,10 @@ ALL_CFLAGS  = -std=c11 $(WARN) $(CFLAGS) $(SANFLAGS) $(PKG_CFLAGS) -MMD -MP
 LDLIBS_ALL  = $(PKG_LIBS) -lm -lpthread
 
 LIB_SRCS   := $(wildcard common/*.c drivers/*.c drivers/sim/*.c fit/*.c db/*.c) \
-              $(filter-out src/main.c,$(wildcard src/*.c))
-LIB_ASMS   := $(wildcard db/*.S drivers/*.S src/*.S)
+              $(filter-out src/cli/main.c,$(wildcard src/*/*.c))
+LIB_ASMS   := $(wildcard db/*.S drivers/*.S src/*/*.S)
 LIB_OBJS   := $(LIB_SRCS:%.c=$(BUILD)/%.o) $(LIB_ASMS:%.S=$(BUILD)/%.o)
-MAIN_OBJ   := $(BUILD)/src/main.o
+MAIN_OBJ   := $(BUILD)/src/cli/main.o
 TEST_SRCS  := $(wildcard tests/test_*.c)
 TEST_BINS  := $(TEST_SRCS:tests/%.c=$(BUILD)/tests/%)
 BENCH_SRCS := $(wildcard bench/bench_*.c)

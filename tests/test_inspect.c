@@ -11,9 +11,9 @@
 #include <unistd.h>
 #include <cmocka.h>
 
-#include "src/demo.h"
-#include "src/inspect.h"
-#include "src/session.h"
+#include "src/cli/demo.h"
+#include "src/quality/inspect.h"
+#include "src/bench/session.h"
 
 /* Invented test scenario: the demo part and bench, time scaled far down. */
 static const double test_time_scale = 0.001;
