@@ -9,8 +9,7 @@
 #include "db/hb_db.h"
 #include "drivers/hb_drivers.h"
 #include "src/cli/demo.h"
-#include "src/bench/session.h"
-#include "src/bench/sweep.h"
+#include "src/bench/bench.h"
 
 enum { POINTS = 41, MAX_POINTS = 64 };
 

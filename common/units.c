@@ -1,5 +1,4 @@
-/* common/units.c - engineering-notation values on the command line: SI prefixes, units, SCPI suffix rule */
-#define _GNU_SOURCE /* newlocale/uselocale come with POSIX 2008; kept explicit for older glibc */
+/* common/units.c - engineering-notation values: SI prefixes, units, SCPI suffix rule, parsed and formatted */
 #include <ctype.h>
 #include <errno.h>
 #include <locale.h>
@@ -10,7 +9,7 @@
 #include <string.h>
 #include <strings.h>
 
-#include "../src/cli/cli.h"
+#include "hb_text.h"
 
 
 typedef struct prefix {
@@ -79,18 +78,15 @@ static int is_unit(const unit_spelling *u, const char *text)
 
 static int parse_number_c(const char *text, double *value, const char **end)
 {
-	/* strtod in the C locale whatever the caller's locale is: a lab PC in
-	 * a comma-decimal locale must read "0.5" as one half. */
-	locale_t c_locale = newlocale(LC_NUMERIC_MASK, "C", (locale_t)0);
-	if (c_locale == (locale_t)0)
+	hb_c_numeric cn;
+	hb_c_numeric_enter(&cn);
+	if (cn.c == (locale_t)0)
 		return HB_ERR_NOMEM;
-	locale_t old = uselocale(c_locale);
 	char *stop = NULL;
 	errno = 0;
 	double v = strtod(text, &stop);
 	int saved = errno;
-	uselocale(old);
-	freelocale(c_locale);
+	hb_c_numeric_leave(&cn);
 	if (stop == text || saved == ERANGE)
 		return HB_ERR_ARG;
 	*value = v;
@@ -110,17 +106,6 @@ static int is_upper_scpi(const char *s)
 			letters++;
 	}
 	return letters > 0;
-}
-
-static int set_err(char *err, size_t errlen, const char *fmt, ...)
-{
-	if (err && errlen) {
-		va_list ap;
-		va_start(ap, fmt);
-		vsnprintf(err, errlen, fmt, ap);
-		va_end(ap);
-	}
-	return HB_ERR_ARG;
 }
 
 static int scpi_multiplier(const char *text, double *factor)
@@ -178,7 +163,7 @@ static double apply_prefix(double number, double factor)
 int hb_parse_value(const char *text, const char *unit, double *value, char *err, size_t errlen)
 {
 	if (!text || !value)
-		return set_err(err, errlen, "missing value");
+		return hb_set_err(err, errlen, "missing value");
 	if (!unit)
 		unit = "";
 	const char *p = text;
@@ -186,16 +171,16 @@ int hb_parse_value(const char *text, const char *unit, double *value, char *err,
 		p++;
 	/* strtod would also take "inf", "nan" and hex; an operator never means those. */
 	if (!(isdigit((unsigned char)*p) || *p == '.' || *p == '-' || *p == '+'))
-		return set_err(err, errlen, "'%s' is not a number", text);
+		return hb_set_err(err, errlen, "'%s' is not a number", text);
 	if ((p[0] == '0' && (p[1] == 'x' || p[1] == 'X')) || strpbrk(p, "xX") == p + 1)
-		return set_err(err, errlen, "'%s' is not a number", text);
+		return hb_set_err(err, errlen, "'%s' is not a number", text);
 	double number;
 	const char *end;
 	int rc = parse_number_c(p, &number, &end);
 	if (rc == HB_ERR_NOMEM)
-		return set_err(err, errlen, "out of memory");
+		return hb_set_err(err, errlen, "out of memory");
 	if (rc != HB_OK || !isfinite(number))
-		return set_err(err, errlen, "'%s' is not a number", text);
+		return hb_set_err(err, errlen, "'%s' is not a number", text);
 
 	char suffix[64];
 	while (isspace((unsigned char)*end))
@@ -204,7 +189,7 @@ int hb_parse_value(const char *text, const char *unit, double *value, char *err,
 	while (sl > 0 && isspace((unsigned char)end[sl - 1]))
 		sl--;
 	if (sl >= sizeof suffix)
-		return set_err(err, errlen, "'%s': unit '%s' is too long", text, end);
+		return hb_set_err(err, errlen, "'%s': unit '%s' is too long", text, end);
 	memcpy(suffix, end, sl);
 	suffix[sl] = '\0';
 
@@ -214,7 +199,7 @@ int hb_parse_value(const char *text, const char *unit, double *value, char *err,
 			*value = number / 100.0;
 			return HB_OK;
 		}
-		return set_err(err, errlen, "'%s': expected a percentage such as 20%%", text);
+		return hb_set_err(err, errlen, "'%s': expected a percentage such as 20%%", text);
 	}
 	if (suffix[0] == '\0') {
 		*value = number;
@@ -249,61 +234,9 @@ int hb_parse_value(const char *text, const char *unit, double *value, char *err,
 		}
 	}
 	if (*unit)
-		return set_err(err, errlen, "'%s': unknown unit or prefix '%s' (expected %s, optionally with an SI prefix such as m, u, k, M)",
+		return hb_set_err(err, errlen, "'%s': unknown unit or prefix '%s' (expected %s, optionally with an SI prefix such as m, u, k, M)",
 			       text, suffix, unit);
-	return set_err(err, errlen, "'%s': unknown suffix '%s' (a plain number or an SI prefix such as m, u, k, M)", text, suffix);
-}
-
-int hb_opt_value(const char *option, const char *text, const char *unit, double min, double max, double *value)
-{
-	char err[256];
-	char lo[48], hi[48];
-	double v;
-	const char *u = unit ? unit : "";
-	if (hb_parse_value(text, u, &v, err, sizeof err) != HB_OK) {
-		hb_cli_error("%s: %s", option, err);
-		return HB_ERR_ARG;
-	}
-	if (v < min || v > max || isnan(v)) {
-		int pct = strcmp(u, "%") == 0;
-		if (pct) {
-			snprintf(lo, sizeof lo, "%g%%", min * 100);
-			snprintf(hi, sizeof hi, "%g%%", max * 100);
-		} else {
-			hb_format_si(lo, sizeof lo, min, u, 4);
-			hb_format_si(hi, sizeof hi, max, u, 4);
-		}
-		if (isinf(min))
-			hb_cli_error("%s %s is out of range: accepted up to %s", option, text, hi);
-		else if (isinf(max))
-			hb_cli_error("%s %s is out of range: accepted from %s", option, text, lo);
-		else
-			hb_cli_error("%s %s is out of range: accepted %s to %s", option, text, lo, hi);
-		return HB_ERR_ARG;
-	}
-	*value = v;
-	return HB_OK;
-}
-
-int hb_opt_int(const char *option, const char *text, long min, long max, long *value)
-{
-	if (!text || !*text) {
-		hb_cli_error("%s needs a whole number (%ld to %ld)", option, min, max);
-		return HB_ERR_ARG;
-	}
-	char *end = NULL;
-	errno = 0;
-	long v = strtol(text, &end, 10);
-	if (errno || !end || *end != '\0') {
-		hb_cli_error("%s '%s' is not a whole number (accepted %ld to %ld)", option, text, min, max);
-		return HB_ERR_ARG;
-	}
-	if (v < min || v > max) {
-		hb_cli_error("%s %s is out of range: accepted %ld to %ld", option, text, min, max);
-		return HB_ERR_ARG;
-	}
-	*value = v;
-	return HB_OK;
+	return hb_set_err(err, errlen, "'%s': unknown suffix '%s' (a plain number or an SI prefix such as m, u, k, M)", text, suffix);
 }
 
 char *hb_format_si(char *buf, size_t cap, double value, const char *unit, int digits)

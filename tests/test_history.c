@@ -15,6 +15,7 @@
 
 #include "src/cli/cli.h"
 #include "src/cli/compare.h"
+#include "src/quality/quality.h"
 
 static void check_near_at(double got, double want, double rel, int line)
 {

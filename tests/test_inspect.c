@@ -12,8 +12,8 @@
 #include <cmocka.h>
 
 #include "src/cli/demo.h"
-#include "src/quality/inspect.h"
-#include "src/bench/session.h"
+#include "src/quality/quality.h"
+#include "src/bench/bench.h"
 
 /* Invented test scenario: the demo part and bench, time scaled far down. */
 static const double test_time_scale = 0.001;

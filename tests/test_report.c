@@ -15,7 +15,8 @@
 #include <jansson.h>
 
 #include "fit/hb_fit.h"
-#include "src/quality/analysis.h"
+#include "src/quality/quality.h"
+#include "src/io/io.h"
 #include "src/report/report.h"
 #include "store_fixture.h"
 

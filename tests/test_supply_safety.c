@@ -15,7 +15,7 @@
 
 #include "drivers/hb_drivers.h"
 #include "src/cli/demo.h"
-#include "src/bench/sweep.h"
+#include "src/bench/bench.h"
 
 /* Simulated time runs a hundred times faster than the wall clock. */
 #define TIME_SCALE 0.01

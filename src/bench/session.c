@@ -3,7 +3,7 @@
 #include <stdio.h>
 #include <string.h>
 
-#include "../cli/cli.h"
+#include "../../common/hb_text.h"
 #include "session.h"
 
 typedef struct sink_ctx {
@@ -191,17 +191,6 @@ int hb_session_measure(hb_session *s, const hb_db_part *part, const char *serial
 		fprintf(s->progress, "henrybench: could not record the end of sweep %lld: %s\n", (long long)sw.id,
 			hb_db_errmsg(s->db));
 	return rc;
-}
-
-int hb_session_exit_code(const hb_sweep_result *r)
-{
-	if (r->end == HB_SWEEP_COMPLETE && r->status == HB_OK)
-		return HB_EXIT_OK;
-	if (r->interrupted_by_signal && r->signal_number == SIGINT)
-		return HB_EXIT_SIGINT;
-	if (r->interrupted_by_signal)
-		return 128 + r->signal_number;
-	return HB_EXIT_RUNTIME;
 }
 
 void hb_session_warn_current_may_flow(FILE *out)

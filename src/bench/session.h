@@ -30,9 +30,6 @@ typedef struct hb_session {
 int hb_session_measure(hb_session *s, const hb_db_part *part, const char *serial, int64_t lot_id,
 		       const hb_sweep_plan *plan, const char *note, int64_t *sweep_id, hb_sweep_result *result);
 
-/* The exit status the CLI reports for a sweep result. */
-int hb_session_exit_code(const hb_sweep_result *result);
-
 /* Prints the loud warning when nobody could switch the supply off. */
 void hb_session_warn_current_may_flow(FILE *out);
 

@@ -8,7 +8,7 @@
 
 #include <ini.h>
 
-#include "../cli/cli.h"
+#include "../../common/hb_text.h"
 #include "station.h"
 
 void hb_station_defaults(hb_station *s)

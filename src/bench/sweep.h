@@ -135,7 +135,7 @@ int hb_sweep_frequencies(const hb_sweep_plan *plan, double **values, int *count)
 double hb_sweep_estimate_seconds(const hb_sweep_plan *plan);
 
 /* Runs the sweep. supply may be NULL for an unbiased frequency sweep. The
- * supply is changed only through its state machine (src/bias_supply.h):
+ * supply is changed only through its state machine (bias_supply.h):
  * current found flowing at the start is ramped down first, and every way
  * out (complete, signal, instrument error, compliance, dropout, store
  * failure) goes through its one shut-down: ramp down, confirm the decay,

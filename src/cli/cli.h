@@ -1,4 +1,4 @@
-/* src/cli/cli.h - shared declarations of the command-line layer: commands, value parsing, exit codes */
+/* src/cli/cli.h - the cli room's public face: commands, option values, exit codes, output helpers */
 #ifndef HB_CLI_H
 #define HB_CLI_H
 
@@ -7,6 +7,7 @@
 #include <stdio.h>
 
 #include "../../common/hb_status.h"
+#include "../../common/hb_text.h"
 
 /* Exit statuses of every command. */
 enum { HB_EXIT_OK = 0, HB_EXIT_RUNTIME = 1, HB_EXIT_USAGE = 2, HB_EXIT_SIGINT = 130 };
@@ -37,27 +38,13 @@ void hb_cli_global_cleanup(void);
 /* Prints "henrybench: <message>" on stderr (one line). */
 void hb_cli_error(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
 
-/* ---------------- engineering values ---------------- */
-
-/*
- * Parses "100u", "100uH", "4.7m", "2.5A", "100kHz", "0.5V", "1.2e-3",
- * "20%" (-> 0.20), the UTF-8 micro sign. unit is the SI unit the option
- * expects ("H", "A", "Hz", "V", "ohm", "s", "m", "m2", "T", "%", "" for
- * none); a different unit in the text is an error. Case follows SI (m
- * milli, M mega) except when the whole text is upper-case SCPI style, where
- * SCPI-1999's rule applies (M milli, MA mega; MHZ and MOHM mega).
- * On error returns HB_ERR_ARG and writes a message naming the token.
- */
-int hb_parse_value(const char *text, const char *unit, double *value, char *err, size_t errlen);
+/* ---------------- engineering values as option arguments (cli.c; the parser itself is common/hb_text.h) ---------------- */
 
 /* Parses the option value or prints a one-line error naming option, value
  * and accepted range and returns HB_ERR_ARG. min/max are inclusive; pass
  * -INFINITY/INFINITY for none. */
 int hb_opt_value(const char *option, const char *text, const char *unit, double min, double max, double *value);
 int hb_opt_int(const char *option, const char *text, long min, long max, long *value);
-
-/* Formats value with an SI prefix and unit, e.g. "4.70 uH" (ASCII 'u'). */
-char *hb_format_si(char *buf, size_t cap, double value, const char *unit, int digits);
 
 /* Parses a positive sweep id or prints the one-line error. */
 int hb_cli_parse_sweep_id(const char *text, long long *id);
@@ -66,10 +53,8 @@ int hb_cli_parse_sweep_id(const char *text, long long *id);
 /* Declared, not included, so that including cli.h needs neither jansson nor db/. */
 struct json_t;
 struct hb_db;
-struct hb_db_sweep;
+struct hb_sweep_result;
 
-/* A JSON number, or null for NaN and infinity (JSON has neither). */
-struct json_t *hb_json_num(double v);
 /* Prints root as indented JSON and a newline on stdout, then drops root
  * (NULL is taken as out of memory); HB_OK, HB_ERR_NOMEM or HB_ERR_IO. */
 int hb_print_json(struct json_t *root);
@@ -77,17 +62,8 @@ int hb_print_json(struct json_t *root);
 const char *hb_si_or_dash(char *buf, size_t cap, double v, const char *unit);
 /* Opens the store named by --db; NULL after printing the error. */
 struct hb_db *hb_cli_open_store(void);
-/* The parts of a stored sweep that show and export write with the same keys,
- * so the two documents cannot drift apart: the sweep object begun with its id,
- * kind, status and times; its "instruments" object; and a "settings" object
- * begun with the test conditions (frequency, level, bias, circuit, pair).
- * The caller completes each in its own layout. */
-struct json_t *hb_json_sweep_head(const struct hb_db_sweep *s);
-struct json_t *hb_json_sweep_instruments(const struct hb_db_sweep *s);
-struct json_t *hb_json_sweep_conditions(const struct hb_db_sweep *s);
-/* What the supply's state machine recorded: current found flowing at the
- * start, current at switch-off, decay time (null where unknown). */
-struct json_t *hb_json_supply_record(const struct hb_db_sweep *s);
+/* The exit status the CLI reports for a sweep result. */
+int hb_session_exit_code(const struct hb_sweep_result *result);
 
 /* ---------------- commands ---------------- */
 int hb_cmd_ports(int argc, char **argv);

@@ -1,18 +1,14 @@
-/* src/cli/cli_common.c - helpers the commands share: JSON numbers, documents and sweep blocks, SI text or a dash, the store opened */
+/* src/cli/cli_common.c - helpers the commands share: JSON documents printed, SI text or a dash, the store opened, the exit status of a sweep */
 #include <math.h>
+#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 
 #include <jansson.h>
 
 #include "../../db/hb_db.h"
+#include "../bench/bench.h"
 #include "cli.h"
-
-json_t *hb_json_num(double v)
-{
-	/* JSON has no NaN or infinity; jansson refuses them. */
-	return isfinite(v) ? json_real(v) : json_null();
-}
 
 int hb_print_json(json_t *root)
 {
@@ -43,45 +39,13 @@ hb_db *hb_cli_open_store(void)
 	return db;
 }
 
-json_t *hb_json_sweep_head(const hb_db_sweep *s)
+int hb_session_exit_code(const hb_sweep_result *r)
 {
-	json_t *o = json_object();
-	json_object_set_new(o, "id", json_integer(s->id));
-	json_object_set_new(o, "kind", json_string(hb_db_sweep_kind_name(s->kind)));
-	json_object_set_new(o, "status", json_string(hb_db_sweep_status_name(s->status)));
-	json_object_set_new(o, "status_reason", json_string(s->status_reason));
-	json_object_set_new(o, "started", json_string(s->started_iso));
-	json_object_set_new(o, "ended", s->ended_iso[0] ? json_string(s->ended_iso) : json_null());
-	return o;
-}
-
-json_t *hb_json_sweep_instruments(const hb_db_sweep *s)
-{
-	json_t *inst = json_object();
-	json_object_set_new(inst, "lcr_idn", json_string(s->lcr_idn));
-	json_object_set_new(inst, "lcr_profile", json_string(s->lcr_profile));
-	json_object_set_new(inst, "supply_idn", json_string(s->supply_idn));
-	json_object_set_new(inst, "supply_profile", json_string(s->supply_profile));
-	return inst;
-}
-
-json_t *hb_json_supply_record(const hb_db_sweep *s)
-{
-	json_t *o = json_object();
-	json_object_set_new(o, "found_flowing_A", hb_json_num(s->supply_found_a));
-	json_object_set_new(o, "at_switch_off_A", hb_json_num(s->supply_off_a));
-	json_object_set_new(o, "decay_s", hb_json_num(s->supply_decay_s));
-	return o;
-}
-
-json_t *hb_json_sweep_conditions(const hb_db_sweep *s)
-{
-	json_t *set = json_object();
-	json_object_set_new(set, "test_frequency_Hz", hb_json_num(s->test_freq_hz));
-	json_object_set_new(set, "test_level", hb_json_num(s->test_level));
-	json_object_set_new(set, "test_level_unit", json_string(s->test_level_kind == HB_DB_LEVEL_CURRENT ? "A" : "V"));
-	json_object_set_new(set, "bias_A", hb_json_num(s->bias_a));
-	json_object_set_new(set, "circuit", json_string(s->circuit));
-	json_object_set_new(set, "measured_pair", json_string(s->measured_pair));
-	return set;
+	if (r->end == HB_SWEEP_COMPLETE && r->status == HB_OK)
+		return HB_EXIT_OK;
+	if (r->interrupted_by_signal && r->signal_number == SIGINT)
+		return HB_EXIT_SIGINT;
+	if (r->interrupted_by_signal)
+		return 128 + r->signal_number;
+	return HB_EXIT_RUNTIME;
 }

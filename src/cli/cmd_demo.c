@@ -8,10 +8,10 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
-#include "../quality/analysis.h"
+#include "../quality/quality.h"
 #include "cli.h"
 #include "demo.h"
-#include "../bench/session.h"
+#include "../bench/bench.h"
 
 /*
  * The scenario (invented): a magnetics designer has wound three prototypes

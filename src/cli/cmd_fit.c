@@ -7,7 +7,7 @@
 
 #include <jansson.h>
 
-#include "../quality/analysis.h"
+#include "../quality/quality.h"
 #include "cli.h"
 
 static void usage(FILE *out)

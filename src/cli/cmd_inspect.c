@@ -11,8 +11,8 @@
 #include <jansson.h>
 
 #include "cli.h"
-#include "../quality/inspect.h"
-#include "../bench/session.h"
+#include "../quality/quality.h"
+#include "../bench/bench.h"
 #include "sweep_opts.h"
 
 static void inspect_usage(FILE *out)

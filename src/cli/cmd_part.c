@@ -11,6 +11,7 @@
 
 #include "../../db/hb_db.h"
 #include "../../fit/hb_fit.h"
+#include "../io/io.h"
 #include "cli.h"
 
 static void part_usage(FILE *out)

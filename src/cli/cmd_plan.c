@@ -8,7 +8,7 @@
 #include <jansson.h>
 
 #include "cli.h"
-#include "../quality/rules.h"
+#include "../quality/quality.h"
 
 static void plan_usage(FILE *out)
 {

@@ -9,9 +9,9 @@
 
 #include <jansson.h>
 
-#include "../quality/analysis.h"
+#include "../quality/quality.h"
 #include "cli.h"
-#include "../bench/session.h"
+#include "../bench/bench.h"
 #include "sweep_opts.h"
 
 typedef struct sweep_args {

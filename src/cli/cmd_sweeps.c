@@ -12,6 +12,7 @@
 #include <jansson.h>
 
 #include "../../db/hb_db.h"
+#include "../io/io.h"
 #include "cli.h"
 
 /* "YYYY-MM-DD" or "YYYY-MM-DDTHH:MM[:SS][Z]", always UTC. */

@@ -4,8 +4,7 @@
 
 #include "../../db/hb_db.h"
 #include "../../drivers/hb_drivers.h"
-#include "../bench/station.h"
-#include "../bench/sweep.h"
+#include "../bench/bench.h"
 
 /* Loads the demo part into the in-process simulated bench with its time
  * scaled (0.01 = a hundred times faster than real) and the given gap. */
@@ -17,7 +16,7 @@ void hb_demo_bias_plan(hb_sweep_plan *plan, const hb_station *station);
 int hb_demo_extras(hb_db *db, hb_lcr *lcr, hb_supply *supply, const hb_station *station,
 		   const hb_db_part *part, const char *out_dir, double time_scale);
 
-/* The demo lot's simulated units (src/demo_extras.c): each sample position
+/* The demo lot's simulated units (demo_extras.c): each sample position
  * gets its own core, the gaps spread a few per cent around the nominal, and
  * the unit at bad_sequence (0 = none) has a much smaller gap, so its L0 is
  * far above tolerance. Pass a hb_demo_lot_sim as ctx of the inspection's
@@ -30,7 +29,7 @@ typedef struct hb_demo_lot_sim {
 double hb_demo_lot_gap(const hb_demo_lot_sim *sim, int sequence);
 int hb_demo_lot_before_unit(void *ctx, int sequence, const char *serial);
 
-/* Reports of the inspected demo lot (src/demo_reports.c). */
+/* Reports of the inspected demo lot (demo_reports.c). */
 int hb_demo_reports(hb_db *db, const hb_db_part *part, int64_t lot_id, const char *lot_code, const char *out_dir);
 
 #endif

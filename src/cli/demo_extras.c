@@ -5,8 +5,8 @@
 
 #include "cli.h"
 #include "demo.h"
-#include "../quality/inspect.h"
-#include "../bench/session.h"
+#include "../quality/quality.h"
+#include "../bench/bench.h"
 
 /*
  * The scenario (invented): the supplier delivers lot LOT-2611-A, 40 chokes

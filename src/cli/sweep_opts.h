@@ -7,8 +7,7 @@
 #include <stdio.h>
 
 #include "../../db/hb_db.h"
-#include "../bench/station.h"
-#include "../bench/sweep.h"
+#include "../bench/bench.h"
 
 /* getopt_long values of the shared options; above any command's own enum
  * (which start at 256) so the two never collide. */

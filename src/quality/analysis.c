@@ -5,7 +5,7 @@
 #include <string.h>
 
 #include "analysis.h"
-#include "../cli/cli.h"
+#include "../../common/hb_text.h"
 
 void hb_analysis_options_init(hb_analysis_options *opt)
 {

@@ -6,9 +6,9 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "../cli/cli.h"
+#include "../../common/hb_text.h"
 #include "inspect.h"
-#include "../bench/session.h"
+#include "../bench/bench.h"
 
 void hb_inspect_config_init(hb_inspect_config *cfg)
 {

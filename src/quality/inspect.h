@@ -11,8 +11,7 @@
 #include "../../drivers/hb_drivers.h"
 #include "analysis.h"
 #include "rules.h"
-#include "../bench/station.h"
-#include "../bench/sweep.h"
+#include "../bench/bench.h"
 
 /* What the source of units answers for the next sample position. */
 typedef enum hb_inspect_action {

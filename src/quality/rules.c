@@ -9,6 +9,7 @@
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_statistics_double.h>
 
+#include "../../common/hb_text.h"
 #include "rules.h"
 
 /*
@@ -153,17 +154,6 @@ static const signed char table_reduced[N_ROWS][N_AQL] = {
 	/* R */ { UP, UP,  1,  1,  2,  3,  5,  6,  8, 10, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
 };
 
-
-static int set_err(char *err, size_t errlen, const char *fmt, ...)
-{
-	if (err && errlen) {
-		va_list ap;
-		va_start(ap, fmt);
-		vsnprintf(err, errlen, fmt, ap);
-		va_end(ap);
-	}
-	return HB_ERR_ARG;
-}
 
 size_t hb_iso2859_aql_series(const double **series)
 {
@@ -315,19 +305,19 @@ int hb_iso2859_plan(long lot_size, double aql, hb_insp_level level, hb_severity 
 		    hb_sampling_plan *out, char *err, size_t errlen)
 {
 	if (!out)
-		return set_err(err, errlen, "no plan to fill");
+		return hb_set_err(err, errlen, "no plan to fill");
 	memset(out, 0, sizeof *out);
 	if (lot_size < 2)
-		return set_err(err, errlen, "lot size %ld out of range (2 or more units)", lot_size);
+		return hb_set_err(err, errlen, "lot size %ld out of range (2 or more units)", lot_size);
 	if ((unsigned)level > HB_LEVEL_III)
-		return set_err(err, errlen, "inspection level %d unknown (S-1, S-2, S-3, S-4, I, II, III)",
+		return hb_set_err(err, errlen, "inspection level %d unknown (S-1, S-2, S-3, S-4, I, II, III)",
 			       (int)level);
 	if ((unsigned)severity > HB_SEVERITY_REDUCED)
-		return set_err(err, errlen, "severity %d unknown (normal, tightened, reduced)", (int)severity);
+		return hb_set_err(err, errlen, "severity %d unknown (normal, tightened, reduced)", (int)severity);
 	int col = hb_iso2859_aql_index(aql);
 	if (col < 0) {
 		char series[200];
-		return set_err(err, errlen, "AQL %g is not in the ISO 2859-1 series (%s)", aql,
+		return hb_set_err(err, errlen, "AQL %g is not in the ISO 2859-1 series (%s)", aql,
 			       hb_iso2859_aql_series_text(series, sizeof series));
 	}
 
@@ -341,7 +331,7 @@ int hb_iso2859_plan(long lot_size, double aql, hb_insp_level level, hb_severity 
 		while (r >= 0 && r < table_rows(severity) && cell(severity, r, col) < 0)
 			r += arrow;
 		if (r < 0 || r >= table_rows(severity))
-			return set_err(err, errlen, "no plan in the %s table for AQL %g, letter %c",
+			return hb_set_err(err, errlen, "no plan in the %s table for AQL %g, letter %c",
 				       hb_iso2859_severity_name(severity), aql, initial);
 		row = r;
 		ac = cell(severity, row, col);

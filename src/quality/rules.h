@@ -1,6 +1,6 @@
 /* src/quality/rules.h - lot sampling plans (ISO 2859-1 single sampling), capability statistics, part verdicts */
-#ifndef HB_QUALITY_H
-#define HB_QUALITY_H
+#ifndef HB_RULES_H
+#define HB_RULES_H
 
 #include <stdbool.h>
 #include <stddef.h>

@@ -1,0 +1,32 @@
+/* common/text.c - one-line error messages into a caller's buffer, and the C-locale scope for numbers */
+#define _GNU_SOURCE /* newlocale/uselocale come with POSIX 2008; kept explicit for older glibc */
+#include <stdarg.h>
+#include <stdio.h>
+
+#include "hb_text.h"
+
+int hb_set_err(char *err, size_t cap, const char *fmt, ...)
+{
+	if (err && cap) {
+		va_list ap;
+		va_start(ap, fmt);
+		vsnprintf(err, cap, fmt, ap);
+		va_end(ap);
+	}
+	return HB_ERR_ARG;
+}
+
+void hb_c_numeric_enter(hb_c_numeric *s)
+{
+	s->c = newlocale(LC_NUMERIC_MASK, "C", (locale_t)0);
+	s->old = s->c ? uselocale(s->c) : (locale_t)0;
+}
+
+void hb_c_numeric_leave(hb_c_numeric *s)
+{
+	if (s->c) {
+		uselocale(s->old);
+		freelocale(s->c);
+		s->c = (locale_t)0;
+	}
+}
