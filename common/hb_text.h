@@ -31,7 +31,9 @@ int hb_set_err(char *err, size_t cap, const char *fmt, ...) __attribute__((forma
  * write "0.5" as one half. enter switches this thread's LC_NUMERIC to "C"
  * (uselocale is per thread, so other threads are not disturbed); leave puts
  * the old one back. s->c is (locale_t)0 when no C locale could be made, and
- * the thread's locale is then left as it was. */
+ * the thread's locale is then left as it was. One locale serves the whole
+ * process (made once, never freed), so the pair is cheap enough for every
+ * number on the wire. */
 typedef struct hb_c_numeric {
 	locale_t c, old;
 } hb_c_numeric;

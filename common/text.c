@@ -1,5 +1,6 @@
 /* common/text.c - one-line error messages into a caller's buffer, and the C-locale scope for numbers */
 #define _GNU_SOURCE /* newlocale/uselocale come with POSIX 2008; kept explicit for older glibc */
+#include <pthread.h>
 #include <stdarg.h>
 #include <stdio.h>
 
@@ -16,9 +17,20 @@ int hb_set_err(char *err, size_t cap, const char *fmt, ...)
 	return HB_ERR_ARG;
 }
 
+/* One C locale for the whole process, made on first use and kept: the
+ * instrument exchanges format and parse numbers many times a second. */
+static pthread_once_t c_locale_once = PTHREAD_ONCE_INIT;
+static locale_t c_locale = (locale_t)0;
+
+static void c_locale_make(void)
+{
+	c_locale = newlocale(LC_NUMERIC_MASK, "C", (locale_t)0);
+}
+
 void hb_c_numeric_enter(hb_c_numeric *s)
 {
-	s->c = newlocale(LC_NUMERIC_MASK, "C", (locale_t)0);
+	pthread_once(&c_locale_once, c_locale_make);
+	s->c = c_locale;
 	s->old = s->c ? uselocale(s->c) : (locale_t)0;
 }
 
@@ -26,7 +38,6 @@ void hb_c_numeric_leave(hb_c_numeric *s)
 {
 	if (s->c) {
 		uselocale(s->old);
-		freelocale(s->c);
 		s->c = (locale_t)0;
 	}
 }

@@ -5,7 +5,6 @@
 #include <limits.h>
 #include <locale.h>
 #include <math.h>
-#include <pthread.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -139,25 +138,17 @@ const keydef hb_profile_keys[HB_PK_COUNT] = {
 /* small helpers                                                       */
 /* ------------------------------------------------------------------ */
 
-static pthread_once_t c_locale_once = PTHREAD_ONCE_INIT;
-static locale_t c_locale = (locale_t)0;
-
-static void c_locale_make(void)
-{
-	c_locale = newlocale(LC_NUMERIC_MASK, "C", (locale_t)0);
-}
-
 int hb_profile_strtod(const char *text, double *value)
 {
-	pthread_once(&c_locale_once, c_locale_make);
-	if (c_locale == (locale_t)0)
+	hb_c_numeric cn;
+	hb_c_numeric_enter(&cn);
+	if (cn.c == (locale_t)0)
 		return HB_ERR_NOMEM;
-	locale_t old = uselocale(c_locale);
 	char *end = NULL;
 	errno = 0;
 	double v = strtod(text, &end);
 	int bad = errno != 0 || end == text;
-	uselocale(old);
+	hb_c_numeric_leave(&cn);
 	if (bad)
 		return HB_ERR_ARG;
 	while (*end && isspace((unsigned char)*end))
