@@ -1,7 +1,9 @@
 # Makefile - build, test, demo, bench and install henrybench
 #
 #   make            build ./henrybench
-#   make check      build and run every test (SANITIZE=1: under ASan + UBSan)
+#   make check      build and run every test (SANITIZE=1: under ASan + UBSan;
+#                   CC=clang: built with clang in build-clang/), one test
+#                   program per core at once (HB_TEST_JOBS=N to choose)
 #   make memcheck   the same tests under valgrind
 #   make demo       run the main job on the simulated bench
 #   make bench      benchmarks (ratios measured in one run; not tests)
