@@ -38,7 +38,7 @@ void hb_cli_global_cleanup(void);
 /* Prints "henrybench: <message>" on stderr (one line). */
 void hb_cli_error(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
 
-/* ---------------- engineering values as option arguments (cli.c; the parser itself is common/hb_text.h) ---------------- */
+/* ---------------- engineering values as option arguments (opt_values.c; the parser itself is common/hb_text.h) ---------------- */
 
 /* Parses the option value or prints a one-line error naming option, value
  * and accepted range and returns HB_ERR_ARG. min/max are inclusive; pass
