@@ -7,7 +7,7 @@
 
 #include "drivers/hb_drivers.h"
 #include "fit/hb_fit.h"
-#include "src/sweep.h"
+#include "src/bench/sweep.h"
 #include "tests/truth_model.h"
 
 /*

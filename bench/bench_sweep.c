@@ -8,9 +8,8 @@
 
 #include "db/hb_db.h"
 #include "drivers/hb_drivers.h"
-#include "src/demo.h"
-#include "src/session.h"
-#include "src/sweep.h"
+#include "src/cli/demo.h"
+#include "src/bench/bench.h"
 
 enum { POINTS = 41, MAX_POINTS = 64 };
 

@@ -1,11 +1,10 @@
-/* drivers/profile.c - dialect profiles: INI files mapping driver operations to an instrument's command text */
+/* drivers/profile.c - dialect profiles: the key table and the INI loader that checks every value (libinih) */
 #include <ctype.h>
 #include <dirent.h>
 #include <errno.h>
 #include <limits.h>
 #include <locale.h>
 #include <math.h>
-#include <pthread.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -15,7 +14,9 @@
 
 #include <ini.h>
 
+#include "../common/hb_text.h"
 #include "profile_internal.h"
+#include "profile_keys.h"
 
 #ifndef HB_PROFILE_DIR
 #define HB_PROFILE_DIR "/usr/local/share/henrybench/profiles"
@@ -25,20 +26,9 @@
  * longer line would be split silently, so the reader refuses it. */
 #define PROFILE_LINE_MAX 196
 
-enum section { SEC_PROFILE, SEC_LCR, SEC_SUPPLY };
 static const char *const section_names[] = { "profile", "lcr", "supply" };
 
-enum vtype { VT_TEMPLATE, VT_QUERY, VT_INT, VT_REAL, VT_TEXT, VT_BOOL, VT_REGEX, VT_KIND, VT_NAME };
 
-/* A placeholder an operation's template must carry. Enumerations name
- * their values; the tokens sent for them are separate keys starting at
- * token_key, in the order of values. */
-typedef struct phdef {
-	const char *name;
-	hb_ptype type;
-	const char *const *values;
-	hb_pkey token_key;
-} phdef;
 
 static const char *const equiv_values[] = { "series", "parallel", NULL };
 static const char *const pair_values[] = { "lr", "lq", "ld", "zth", NULL };
@@ -59,19 +49,10 @@ static const phdef ph_aperture[] = {
 };
 static const phdef ph_state[] = { { "state", HB_PT_BOOL, state_values, HB_PK_LCR_STATE_ON }, { NULL, 0, NULL, 0 } };
 
-typedef struct keydef {
-	hb_pkey id;
-	enum section section;
-	const char *name;
-	enum vtype type;
-	bool required;
-	double min, max;          /* VT_INT, VT_REAL */
-	const phdef *placeholders; /* VT_TEMPLATE */
-} keydef;
 
 #define FIELD_MAX 32
 
-static const keydef keys[HB_PK_COUNT] = {
+const keydef hb_profile_keys[HB_PK_COUNT] = {
 	{ HB_PK_NAME, SEC_PROFILE, "name", VT_NAME, true, 0, 0, NULL },
 	{ HB_PK_KIND, SEC_PROFILE, "kind", VT_KIND, true, 0, 0, NULL },
 	{ HB_PK_DESCRIPTION, SEC_PROFILE, "description", VT_TEXT, false, 0, 0, NULL },
@@ -152,42 +133,22 @@ static const keydef keys[HB_PK_COUNT] = {
 	{ HB_PK_SUP_OPTIONAL, SEC_SUPPLY, "optional", VT_TEXT, false, 0, 0, NULL },
 };
 
-static const char *const type_names[] = { "real", "int", "enum", "bool" };
 
 /* ------------------------------------------------------------------ */
 /* small helpers                                                       */
 /* ------------------------------------------------------------------ */
 
-static void set_err(char *err, size_t errlen, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
-static void set_err(char *err, size_t errlen, const char *fmt, ...)
-{
-	if (!err || errlen == 0)
-		return;
-	va_list ap;
-	va_start(ap, fmt);
-	vsnprintf(err, errlen, fmt, ap);
-	va_end(ap);
-}
-
-static pthread_once_t c_locale_once = PTHREAD_ONCE_INIT;
-static locale_t c_locale = (locale_t)0;
-
-static void c_locale_make(void)
-{
-	c_locale = newlocale(LC_NUMERIC_MASK, "C", (locale_t)0);
-}
-
 int hb_profile_strtod(const char *text, double *value)
 {
-	pthread_once(&c_locale_once, c_locale_make);
-	if (c_locale == (locale_t)0)
+	hb_c_numeric cn;
+	hb_c_numeric_enter(&cn);
+	if (cn.c == (locale_t)0)
 		return HB_ERR_NOMEM;
-	locale_t old = uselocale(c_locale);
 	char *end = NULL;
 	errno = 0;
 	double v = strtod(text, &end);
 	int bad = errno != 0 || end == text;
-	uselocale(old);
+	hb_c_numeric_leave(&cn);
 	if (bad)
 		return HB_ERR_ARG;
 	while (*end && isspace((unsigned char)*end))
@@ -231,182 +192,6 @@ static int parse_bool_word(const char *text, bool *value)
 }
 
 /* ------------------------------------------------------------------ */
-/* templates                                                           */
-/* ------------------------------------------------------------------ */
-
-static const phdef *find_ph(const phdef *list, const char *name, size_t len)
-{
-	for (const phdef *ph = list; ph && ph->name; ph++)
-		if (strlen(ph->name) == len && strncmp(ph->name, name, len) == 0)
-			return ph;
-	return NULL;
-}
-
-static void describe_placeholders(const phdef *list, char *buf, size_t cap)
-{
-	buf[0] = '\0';
-	if (!list || !list->name) {
-		snprintf(buf, cap, "none");
-		return;
-	}
-	size_t used = 0;
-	for (const phdef *ph = list; ph->name; ph++) {
-		int n = snprintf(buf + used, cap - used, "%s{%s:%s}", ph == list ? "" : " ", ph->name,
-				 type_names[ph->type]);
-		if (n < 0 || (size_t)n >= cap - used)
-			return;
-		used += (size_t)n;
-	}
-}
-
-/* Checks every {name:type} against the operation's list and that each
- * listed placeholder appears; why: a typo would otherwise go out on the
- * wire as literal text and surface as an instrument syntax error. */
-static int check_template(const keydef *kd, const char *text, char *why, size_t whylen)
-{
-	bool seen[8] = { false };
-	char allowed[160];
-	describe_placeholders(kd->placeholders, allowed, sizeof allowed);
-	for (const char *s = text; *s; s++) {
-		if (*s == '}') {
-			if (s[1] == '}') {
-				s++;
-				continue;
-			}
-			set_err(why, whylen, "stray '}' (write '}}' for a literal brace)");
-			return HB_ERR_PROFILE;
-		}
-		if (*s != '{')
-			continue;
-		if (s[1] == '{') {
-			s++;
-			continue;
-		}
-		const char *close = strchr(s, '}');
-		if (!close) {
-			set_err(why, whylen, "unterminated placeholder '%s'", s);
-			return HB_ERR_PROFILE;
-		}
-		const char *colon = memchr(s, ':', (size_t)(close - s));
-		if (!colon) {
-			set_err(why, whylen, "placeholder '%.*s' lacks a type (write {name:type}; this operation takes %s)",
-				(int)(close - s + 1), s, allowed);
-			return HB_ERR_PROFILE;
-		}
-		const phdef *ph = find_ph(kd->placeholders, s + 1, (size_t)(colon - s - 1));
-		if (!ph) {
-			set_err(why, whylen, "unknown placeholder '%.*s' (this operation takes %s)", (int)(close - s + 1), s,
-				allowed);
-			return HB_ERR_PROFILE;
-		}
-		size_t tlen = (size_t)(close - colon - 1);
-		const char *want = type_names[ph->type];
-		if (strlen(want) != tlen || strncmp(colon + 1, want, tlen) != 0) {
-			set_err(why, whylen, "placeholder '%.*s' has the wrong type (expected {%s:%s})", (int)(close - s + 1),
-				s, ph->name, want);
-			return HB_ERR_PROFILE;
-		}
-		seen[ph - kd->placeholders] = true;
-		s = close;
-	}
-	for (const phdef *ph = kd->placeholders; ph && ph->name; ph++) {
-		if (!seen[ph - kd->placeholders]) {
-			set_err(why, whylen, "template lacks the placeholder {%s:%s}", ph->name, type_names[ph->type]);
-			return HB_ERR_PROFILE;
-		}
-	}
-	return HB_OK;
-}
-
-static const char *bool_default_token(int choice)
-{
-	return choice ? "ON" : "OFF";
-}
-
-int hb_profile_expand(const hb_profile *p, hb_pkey op, const hb_parg *args, size_t nargs, char *out, size_t cap,
-		      char *err, size_t errlen)
-{
-	const keydef *kd = &keys[op];
-	const char *text = hb_profile_text(p, op);
-	if (!text) {
-		set_err(err, errlen, "profile '%s' has no '%s' operation", hb_profile_name(p), kd->name);
-		return HB_ERR_UNSUPPORTED;
-	}
-	size_t used = 0;
-	for (const char *s = text; *s; s++) {
-		char piece[128];
-		const char *add = piece;
-		size_t addlen;
-		if ((*s == '{' && s[1] == '{') || (*s == '}' && s[1] == '}')) {
-			piece[0] = *s;
-			addlen = 1;
-			s++;
-		} else if (*s == '{') {
-			/* Validated at load, so the shape is known good. */
-			const char *colon = strchr(s, ':');
-			const char *close = strchr(s, '}');
-			const phdef *ph = find_ph(kd->placeholders, s + 1, (size_t)(colon - s - 1));
-			const hb_parg *arg = NULL;
-			for (size_t i = 0; i < nargs; i++)
-				if (strcmp(args[i].name, ph->name) == 0)
-					arg = &args[i];
-			if (!arg) {
-				set_err(err, errlen, "%s: no value for {%s}", kd->name, ph->name);
-				return HB_ERR_ARG;
-			}
-			switch (ph->type) {
-			case HB_PT_REAL:
-				if (hb_scpi_format_double(piece, sizeof piece, arg->real) < 0) {
-					set_err(err, errlen, "%s: cannot format %g", kd->name, arg->real);
-					return HB_ERR_ARG;
-				}
-				break;
-			case HB_PT_INT:
-				snprintf(piece, sizeof piece, "%ld", arg->integer);
-				break;
-			case HB_PT_ENUM:
-			case HB_PT_BOOL: {
-				int nvalues = 0;
-				while (ph->values[nvalues])
-					nvalues++;
-				if (arg->choice < 0 || arg->choice >= nvalues) {
-					set_err(err, errlen, "%s: value %d out of range for {%s}", kd->name, arg->choice,
-						ph->name);
-					return HB_ERR_ARG;
-				}
-				hb_pkey tk = (hb_pkey)(ph->token_key + arg->choice);
-				/* For booleans the key order is on, off; choice is 1 for on. */
-				if (ph->type == HB_PT_BOOL)
-					tk = (hb_pkey)(ph->token_key + (arg->choice ? 0 : 1));
-				add = hb_profile_text(p, tk);
-				if (!add && ph->type == HB_PT_BOOL)
-					add = bool_default_token(arg->choice);
-				if (!add) {
-					set_err(err, errlen, "profile '%s' has no token for %s '%s' (key '%s' not set)",
-						hb_profile_name(p), ph->name, ph->values[arg->choice], keys[tk].name);
-					return HB_ERR_UNSUPPORTED;
-				}
-				break;
-			}
-			}
-			s = close;
-			addlen = strlen(add);
-		} else {
-			piece[0] = *s;
-			addlen = 1;
-		}
-		if (used + addlen + 1 > cap) {
-			set_err(err, errlen, "%s: command longer than %zu bytes", kd->name, cap - 1);
-			return HB_ERR_ARG;
-		}
-		memcpy(out + used, add, addlen);
-		used += addlen;
-	}
-	out[used] = '\0';
-	return HB_OK;
-}
-
-/* ------------------------------------------------------------------ */
 /* loading                                                             */
 /* ------------------------------------------------------------------ */
 
@@ -436,7 +221,7 @@ static void ctx_err(load_ctx *c, int line, const char *fmt, ...)
 	va_start(ap, fmt);
 	vsnprintf(what, sizeof what, fmt, ap);
 	va_end(ap);
-	set_err(c->err, c->errlen, "%s:%d: %s", c->path, c->err_line, what);
+	hb_set_err(c->err, c->errlen, "%s:%d: %s", c->path, c->err_line, what);
 }
 
 /* fgets-style reader that counts lines for the handler and refuses what
@@ -478,8 +263,8 @@ static int section_of(const char *name)
 static const keydef *find_key(int section, const char *name)
 {
 	for (size_t i = 0; i < HB_PK_COUNT; i++)
-		if ((int)keys[i].section == section && strcmp(keys[i].name, name) == 0)
-			return &keys[i];
+		if ((int)hb_profile_keys[i].section == section && strcmp(hb_profile_keys[i].name, name) == 0)
+			return &hb_profile_keys[i];
 	return NULL;
 }
 
@@ -491,7 +276,7 @@ static int store_value(load_ctx *c, const keydef *kd, const char *value)
 	switch (kd->type) {
 	case VT_TEMPLATE:
 	case VT_QUERY:
-		if (check_template(kd, value, why, sizeof why) < 0) {
+		if (hb_profile_check_template(kd, value, why, sizeof why) < 0) {
 			ctx_err(c, c->line, "key '%s': %s", kd->name, why);
 			return 0;
 		}
@@ -630,13 +415,13 @@ static int parse_status_map(const char *text, char *why, size_t whylen)
 		size_t nlen = eq ? (size_t)(s - eq - 1) : 0;
 		long v;
 		if (!eq || eq == start || nlen == 0 || nlen >= sizeof num) {
-			set_err(why, whylen, "'%.*s' is not TOKEN=number", (int)(s - start), start);
+			hb_set_err(why, whylen, "'%.*s' is not TOKEN=number", (int)(s - start), start);
 			return HB_ERR_PROFILE;
 		}
 		memcpy(num, eq + 1, nlen);
 		num[nlen] = '\0';
 		if (parse_long(num, &v) < 0) {
-			set_err(why, whylen, "'%.*s' is not TOKEN=number", (int)(s - start), start);
+			hb_set_err(why, whylen, "'%.*s' is not TOKEN=number", (int)(s - start), start);
 			return HB_ERR_PROFILE;
 		}
 	}
@@ -653,7 +438,7 @@ static int parse_int_list(const char *text, char *why, size_t whylen)
 	for (char *tok = strtok_r(copy, " ,\t", &save); tok; tok = strtok_r(NULL, " ,\t", &save)) {
 		long v;
 		if (parse_long(tok, &v) < 0) {
-			set_err(why, whylen, "'%s' is not a whole number", tok);
+			hb_set_err(why, whylen, "'%s' is not a whole number", tok);
 			rc = HB_ERR_PROFILE;
 			break;
 		}
@@ -691,7 +476,7 @@ int hb_profile_key_of(hb_instrument_kind kind, const char *name)
 {
 	enum section sec = kind == HB_KIND_LCR ? SEC_LCR : SEC_SUPPLY;
 	for (size_t i = 0; i < HB_PK_COUNT; i++)
-		if (keys[i].section == sec && strcmp(keys[i].name, name) == 0)
+		if (hb_profile_keys[i].section == sec && strcmp(hb_profile_keys[i].name, name) == 0)
 			return (int)i;
 	return -1;
 }
@@ -700,7 +485,7 @@ bool hb_profile_optional(const hb_profile *p, hb_pkey key)
 {
 	hb_pkey list = p && p->kind == HB_KIND_LCR ? HB_PK_LCR_OPTIONAL : HB_PK_SUP_OPTIONAL;
 	const char *words = hb_profile_text(p, list);
-	return words && key < HB_PK_COUNT && hb_profile_word_in(words, keys[key].name);
+	return words && key < HB_PK_COUNT && hb_profile_word_in(words, hb_profile_keys[key].name);
 }
 
 /* Every word of 'optional' names an operation that may be optional and
@@ -753,7 +538,7 @@ static void check_whole(load_ctx *c)
 	for (int k = HB_PK_NAME; k <= HB_PK_KIND; k++) {
 		if (!p->v[k].set) {
 			ctx_err(c, c->section_seen[SEC_PROFILE] ? c->section_line[SEC_PROFILE] : last,
-				"key '%s': missing from [profile]", keys[k].name);
+				"key '%s': missing from [profile]", hb_profile_keys[k].name);
 			return;
 		}
 	}
@@ -766,18 +551,18 @@ static void check_whole(load_ctx *c)
 		return;
 	}
 	for (size_t i = 0; i < HB_PK_COUNT; i++) {
-		if (keys[i].section == mine && keys[i].required && !p->v[i].set) {
+		if (hb_profile_keys[i].section == mine && hb_profile_keys[i].required && !p->v[i].set) {
 			ctx_err(c, c->section_seen[mine] ? c->section_line[mine] : last,
-				"key '%s': missing from [%s] (every %s profile defines it)", keys[i].name,
+				"key '%s': missing from [%s] (every %s profile defines it)", hb_profile_keys[i].name,
 				section_names[mine], section_names[mine]);
 			return;
 		}
 	}
 	/* An enumerated placeholder with no token at all cannot ever be sent. */
 	for (size_t i = 0; i < HB_PK_COUNT; i++) {
-		if (keys[i].section != mine || !p->v[i].set || !keys[i].placeholders)
+		if (hb_profile_keys[i].section != mine || !p->v[i].set || !hb_profile_keys[i].placeholders)
 			continue;
-		for (const phdef *ph = keys[i].placeholders; ph->name; ph++) {
+		for (const phdef *ph = hb_profile_keys[i].placeholders; ph->name; ph++) {
 			if (ph->type != HB_PT_ENUM)
 				continue;
 			bool any = false;
@@ -785,11 +570,11 @@ static void check_whole(load_ctx *c)
 			for (int j = 0; ph->values[j]; j++) {
 				any |= p->v[ph->token_key + j].set;
 				size_t used = strlen(list);
-				snprintf(list + used, sizeof list - used, "%s%s", j ? ", " : "", keys[ph->token_key + j].name);
+				snprintf(list + used, sizeof list - used, "%s%s", j ? ", " : "", hb_profile_keys[ph->token_key + j].name);
 			}
 			if (!any) {
 				ctx_err(c, p->v[i].line, "key '%s': placeholder {%s:enum} has no tokens (define %s)",
-					keys[i].name, ph->name, list);
+					hb_profile_keys[i].name, ph->name, list);
 				return;
 			}
 		}
@@ -866,7 +651,7 @@ static void check_whole(load_ctx *c)
 			for (int k = HB_PK_SUP_MODE_CC; k <= HB_PK_SUP_MODE_OFF; k++) {
 				long mask;
 				if (p->v[k].set && (parse_long(p->v[k].text, &mask) < 0 || mask <= 0 || mask > INT_MAX)) {
-					ctx_err(c, p->v[k].line, "key '%s': '%s' is not a bit mask (1..%d)", keys[k].name,
+					ctx_err(c, p->v[k].line, "key '%s': '%s' is not a bit mask (1..%d)", hb_profile_keys[k].name,
 						p->v[k].text, INT_MAX);
 					return;
 				}
@@ -888,13 +673,13 @@ int hb_profile_load(const char *path, hb_profile **out, char *err, size_t errlen
 	load_ctx c = { .path = path, .err = err, .errlen = errlen };
 	c.file = fopen(path, "r");
 	if (!c.file) {
-		set_err(err, errlen, "%s: cannot open profile: %s", path, strerror(errno));
+		hb_set_err(err, errlen, "%s: cannot open profile: %s", path, strerror(errno));
 		return errno == ENOENT ? HB_ERR_NOTFOUND : HB_ERR_PROFILE;
 	}
 	c.p = profile_alloc();
 	if (!c.p) {
 		fclose(c.file);
-		set_err(err, errlen, "out of memory");
+		hb_set_err(err, errlen, "out of memory");
 		return HB_ERR_NOMEM;
 	}
 	c.p->path = strdup(path);
@@ -972,7 +757,7 @@ double hb_profile_number(const hb_profile *p, hb_pkey key, double fallback)
 
 const char *hb_profile_key_name(hb_pkey key)
 {
-	return key < HB_PK_COUNT ? keys[key].name : "?";
+	return key < HB_PK_COUNT ? hb_profile_keys[key].name : "?";
 }
 
 bool hb_profile_supports(const hb_profile *p, hb_instrument_kind kind, const char *operation)
@@ -982,11 +767,11 @@ bool hb_profile_supports(const hb_profile *p, hb_instrument_kind kind, const cha
 	enum section sec = kind == HB_KIND_LCR ? SEC_LCR : SEC_SUPPLY;
 	size_t len = strlen(operation);
 	for (size_t i = 0; i < HB_PK_COUNT; i++) {
-		if (keys[i].section != sec || (keys[i].type != VT_TEMPLATE && keys[i].type != VT_QUERY) || !p->v[i].set)
+		if (hb_profile_keys[i].section != sec || (hb_profile_keys[i].type != VT_TEMPLATE && hb_profile_keys[i].type != VT_QUERY) || !p->v[i].set)
 			continue;
-		if (strcmp(keys[i].name, operation) == 0)
+		if (strcmp(hb_profile_keys[i].name, operation) == 0)
 			return true;
-		if (strncmp(keys[i].name, operation, len) == 0 && keys[i].name[len] == '.')
+		if (strncmp(hb_profile_keys[i].name, operation, len) == 0 && hb_profile_keys[i].name[len] == '.')
 			return true;
 	}
 	/* reset falls back to *RST, which IEEE 488.2 makes universal */
@@ -1040,308 +825,6 @@ bool hb_profile_matches(const hb_profile *p, const hb_idn *idn)
 	return true;
 }
 
-/* ------------------------------------------------------------------ */
-/* search path, lookup and matching                                    */
-/* ------------------------------------------------------------------ */
-
-#define MAX_DIRS 32
-
-typedef struct dir_list {
-	char *dirs[MAX_DIRS];
-	size_t count;
-} dir_list;
-
-static void dirs_free(dir_list *d)
-{
-	for (size_t i = 0; i < d->count; i++)
-		free(d->dirs[i]);
-	d->count = 0;
-}
-
-static bool is_dir(const char *path)
-{
-	struct stat st;
-	return stat(path, &st) == 0 && S_ISDIR(st.st_mode);
-}
-
-static int dirs_add(dir_list *d, const char *dir, size_t len, bool must_exist)
-{
-	if (len == 0 || d->count >= MAX_DIRS)
-		return HB_OK;
-	char *copy = strndup(dir, len);
-	if (!copy)
-		return HB_ERR_NOMEM;
-	char resolved[PATH_MAX];
-	if (realpath(copy, resolved)) {
-		free(copy);
-		copy = strdup(resolved);
-		if (!copy)
-			return HB_ERR_NOMEM;
-	} else if (must_exist) {
-		free(copy);
-		return HB_OK;
-	}
-	for (size_t i = 0; i < d->count; i++) {
-		if (strcmp(d->dirs[i], copy) == 0) {
-			free(copy);
-			return HB_OK;
-		}
-	}
-	d->dirs[d->count++] = copy;
-	return HB_OK;
-}
-
-static int dirs_build(dir_list *d)
-{
-	d->count = 0;
-	const char *env = getenv("HENRYBENCH_PROFILE_PATH");
-	int rc = HB_OK;
-	if (env) {
-		for (const char *s = env; rc == HB_OK;) {
-			const char *colon = strchr(s, ':');
-			size_t len = colon ? (size_t)(colon - s) : strlen(s);
-			rc = dirs_add(d, s, len, false);
-			if (!colon)
-				break;
-			s = colon + 1;
-		}
-	}
-	if (rc == HB_OK)
-		rc = dirs_add(d, HB_PROFILE_DIR, strlen(HB_PROFILE_DIR), true);
-	/* So ./henrybench, build/henrybench and build/tests/test_x all find
-	 * the profiles of the source tree they were built from. */
-	char exe[PATH_MAX];
-	ssize_t n = readlink("/proc/self/exe", exe, sizeof exe - 1);
-	if (rc == HB_OK && n > 0) {
-		exe[n] = '\0';
-		char *slash = strrchr(exe, '/');
-		for (int up = 0; up < 3 && slash && rc == HB_OK; up++) {
-			*slash = '\0';
-			char cand[PATH_MAX + 32];
-			snprintf(cand, sizeof cand, "%s/drivers/profiles", exe[0] ? exe : "");
-			if (is_dir(cand))
-				rc = dirs_add(d, cand, strlen(cand), true);
-			/* An installed tree moved elsewhere (DESTDIR, another PREFIX):
-			 * bin/henrybench next to share/henrybench/profiles. */
-			snprintf(cand, sizeof cand, "%s/share/henrybench/profiles", exe[0] ? exe : "");
-			if (up == 1 && rc == HB_OK && is_dir(cand))
-				rc = dirs_add(d, cand, strlen(cand), true);
-			slash = strrchr(exe, '/');
-		}
-	}
-	if (rc < 0)
-		dirs_free(d);
-	return rc;
-}
-
-int hb_profile_search_path(char *buf, size_t cap)
-{
-	dir_list d;
-	int rc = dirs_build(&d);
-	if (rc < 0)
-		return rc;
-	size_t used = 0;
-	if (cap)
-		buf[0] = '\0';
-	for (size_t i = 0; i < d.count; i++) {
-		int n = snprintf(buf + used, cap - used, "%s%s", i ? ":" : "", d.dirs[i]);
-		if (n < 0 || (size_t)n >= cap - used) {
-			rc = HB_ERR_ARG;
-			break;
-		}
-		used += (size_t)n;
-	}
-	dirs_free(&d);
-	return rc;
-}
-
-static bool looks_like_path(const char *s)
-{
-	size_t len = strlen(s);
-	return strchr(s, '/') || (len > 4 && strcmp(s + len - 4, ".ini") == 0);
-}
-
-int hb_profile_find(const char *name_or_path, hb_profile **out, char *err, size_t errlen)
-{
-	*out = NULL;
-	if (!name_or_path || !*name_or_path) {
-		set_err(err, errlen, "empty profile name");
-		return HB_ERR_ARG;
-	}
-	if (looks_like_path(name_or_path))
-		return hb_profile_load(name_or_path, out, err, errlen);
-	dir_list d;
-	int rc = dirs_build(&d);
-	if (rc < 0) {
-		set_err(err, errlen, "out of memory");
-		return rc;
-	}
-	rc = HB_ERR_NOTFOUND;
-	for (size_t i = 0; i < d.count; i++) {
-		char path[PATH_MAX + 300];
-		snprintf(path, sizeof path, "%s/%s.ini", d.dirs[i], name_or_path);
-		if (access(path, F_OK) == 0) {
-			rc = hb_profile_load(path, out, err, errlen);
-			break;
-		}
-	}
-	if (rc == HB_ERR_NOTFOUND) {
-		char sp[2048];
-		if (hb_profile_search_path(sp, sizeof sp) < 0)
-			snprintf(sp, sizeof sp, "(too long to show)");
-		set_err(err, errlen, "profile '%s' not found (searched %s)", name_or_path, *sp ? sp : "nothing");
-	}
-	dirs_free(&d);
-	return rc;
-}
-
-static int cmp_names(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
-}
-
-/* The .ini names in one directory, sorted so matching does not depend on
- * the order the file system lists them. */
-static int list_ini(const char *dir, char ***names, size_t *count)
-{
-	*names = NULL;
-	*count = 0;
-	DIR *dh = opendir(dir);
-	if (!dh)
-		return HB_OK; /* a missing directory on the path is not an error */
-	size_t cap = 0;
-	int rc = HB_OK;
-	struct dirent *de;
-	while ((de = readdir(dh))) {
-		size_t len = strlen(de->d_name);
-		if (len <= 4 || strcmp(de->d_name + len - 4, ".ini") != 0 || de->d_name[0] == '.')
-			continue;
-		if (*count == cap) {
-			cap = cap ? cap * 2 : 16;
-			char **grown = realloc(*names, cap * sizeof **names);
-			if (!grown) {
-				rc = HB_ERR_NOMEM;
-				break;
-			}
-			*names = grown;
-		}
-		(*names)[*count] = strdup(de->d_name);
-		if (!(*names)[*count]) {
-			rc = HB_ERR_NOMEM;
-			break;
-		}
-		(*count)++;
-	}
-	closedir(dh);
-	if (*count)
-		qsort(*names, *count, sizeof **names, cmp_names);
-	return rc;
-}
-
-static void names_free(char **names, size_t count)
-{
-	for (size_t i = 0; i < count; i++)
-		free(names[i]);
-	free(names);
-}
-
-int hb_profile_match(hb_instrument_kind kind, const hb_idn *idn, hb_profile **out, char *err, size_t errlen)
-{
-	*out = NULL;
-	dir_list d;
-	int rc = dirs_build(&d);
-	if (rc < 0) {
-		set_err(err, errlen, "out of memory");
-		return rc;
-	}
-	hb_profile *best = NULL;
-	/* File names seen in earlier directories shadow later ones, so a user
-	 * copy of generic-lcr.ini replaces the installed one. */
-	char **seen = NULL;
-	size_t nseen = 0, capseen = 0;
-	for (size_t i = 0; i < d.count && rc == HB_OK; i++) {
-		char **names;
-		size_t count;
-		rc = list_ini(d.dirs[i], &names, &count);
-		for (size_t j = 0; j < count && rc == HB_OK; j++) {
-			bool shadowed = false;
-			for (size_t k = 0; k < nseen; k++)
-				shadowed |= strcmp(seen[k], names[j]) == 0;
-			if (shadowed)
-				continue;
-			if (nseen == capseen) {
-				capseen = capseen ? capseen * 2 : 16;
-				char **grown = realloc(seen, capseen * sizeof *seen);
-				if (!grown) {
-					rc = HB_ERR_NOMEM;
-					break;
-				}
-				seen = grown;
-			}
-			seen[nseen] = strdup(names[j]);
-			if (!seen[nseen]) {
-				rc = HB_ERR_NOMEM;
-				break;
-			}
-			nseen++;
-			char path[PATH_MAX + 300];
-			snprintf(path, sizeof path, "%s/%s", d.dirs[i], names[j]);
-			hb_profile *p;
-			/* A broken profile on the path is reported, not skipped:
-			 * silently falling back would hide the user's mistake. */
-			rc = hb_profile_load(path, &p, err, errlen);
-			if (rc < 0)
-				break;
-			if (p->kind == kind && hb_profile_matches(p, idn) && (!best || p->priority > best->priority)) {
-				hb_profile_free(best);
-				best = p;
-			} else {
-				hb_profile_free(p);
-			}
-		}
-		names_free(names, count);
-	}
-	names_free(seen, nseen);
-	dirs_free(&d);
-	if (rc < 0) {
-		if (rc == HB_ERR_NOMEM)
-			set_err(err, errlen, "out of memory");
-		hb_profile_free(best);
-		return rc;
-	}
-	if (best) {
-		*out = best;
-		return HB_OK;
-	}
-	return hb_profile_find(kind == HB_KIND_LCR ? "generic-lcr" : "generic-supply", out, err, errlen);
-}
-
-/* ------------------------------------------------------------------ */
-/* operations through a profile, shared by the meter and supply drivers */
-/* ------------------------------------------------------------------ */
-
-int hb_profile_choose(const hb_resource *res, hb_instrument_kind kind, const hb_idn *idn, hb_profile **out,
-		      char *err, size_t errlen)
-{
-	*out = NULL;
-	int rc;
-	if (res && res->profile[0]) {
-		rc = hb_profile_find(res->profile, out, err, errlen);
-		if (rc < 0)
-			return rc;
-		if (hb_profile_kind(*out) != kind) {
-			set_err(err, errlen, "profile '%s' (%s) is for %s, not for %s", hb_profile_name(*out),
-				hb_profile_path(*out), hb_profile_kind(*out) == HB_KIND_LCR ? "an lcr meter" : "a supply",
-				kind == HB_KIND_LCR ? "an lcr meter" : "a supply");
-			hb_profile_free(*out);
-			*out = NULL;
-			return HB_ERR_PROFILE;
-		}
-		return HB_OK;
-	}
-	return hb_profile_match(kind, idn, out, err, errlen);
-}
-
 int hb_profile_parse_long(const char *text, long *value)
 {
 	while (isspace((unsigned char)*text))
@@ -1349,163 +832,4 @@ int hb_profile_parse_long(const char *text, long *value)
 	if (*text == '+')
 		text++;
 	return parse_long(text, value);
-}
-
-int hb_profile_reply_field(const char *reply, int field, char *out, size_t cap, int *nfields)
-{
-	int n = 1;
-	const char *start = reply, *found = NULL;
-	size_t found_len = 0;
-	for (const char *s = reply;; s++) {
-		if (*s == ',' || *s == '\0') {
-			if (n == field) {
-				found = start;
-				found_len = (size_t)(s - start);
-			}
-			if (!*s)
-				break;
-			n++;
-			start = s + 1;
-		}
-	}
-	if (nfields)
-		*nfields = n;
-	if (!found || cap == 0)
-		return HB_ERR_PROTOCOL;
-	while (found_len && isspace((unsigned char)*found))
-		found++, found_len--;
-	while (found_len && isspace((unsigned char)found[found_len - 1]))
-		found_len--;
-	if (found_len >= cap)
-		return HB_ERR_PROTOCOL;
-	memcpy(out, found, found_len);
-	out[found_len] = '\0';
-	return HB_OK;
-}
-
-int hb_profile_check_errors(hb_scpi *scpi, const char *what, const char *command, char *err, size_t errlen)
-{
-	hb_scpi_error list[4];
-	size_t count = 0;
-	bool lost = false;
-	int rc = hb_scpi_errors(scpi, list, 4, &count, &lost);
-	if (rc < 0) {
-		set_err(err, errlen, "%s: reading the error queue: %s", what, hb_scpi_errmsg(scpi));
-		return rc;
-	}
-	if (count == 0 && !lost)
-		return HB_OK;
-	if (count == 0) {
-		set_err(err, errlen, "%s: instrument error queue overflowed (after '%s')", what, command);
-		return HB_ERR_INSTRUMENT;
-	}
-	set_err(err, errlen, "%s: instrument error %d \"%s\"%s (after '%s')", what, list[0].code, list[0].message,
-		count > 1 ? " and more" : "", command);
-	return HB_ERR_INSTRUMENT;
-}
-
-int hb_profile_send(hb_scpi *scpi, const hb_profile *p, hb_pkey op, const hb_parg *args, size_t nargs,
-		    const char *what, char *err, size_t errlen)
-{
-	char command[512], why[256];
-	int rc = hb_profile_expand(p, op, args, nargs, command, sizeof command, why, sizeof why);
-	if (rc < 0) {
-		set_err(err, errlen, "%s: %s", what, why);
-		return rc;
-	}
-	return hb_profile_send_text(scpi, p, command, what, err, errlen);
-}
-
-int hb_profile_send_text(hb_scpi *scpi, const hb_profile *p, const char *command, const char *what, char *err,
-			 size_t errlen)
-{
-	int rc = hb_scpi_write(scpi, command);
-	if (rc < 0) {
-		set_err(err, errlen, "%s: %s", what, hb_scpi_errmsg(scpi));
-		return rc;
-	}
-	if (!p->check_errors)
-		return HB_OK;
-	return hb_profile_check_errors(scpi, what, command, err, errlen);
-}
-
-int hb_profile_ask(hb_scpi *scpi, const hb_profile *p, hb_pkey op, const char *what, char *reply, size_t cap,
-		   char *err, size_t errlen)
-{
-	char command[512], why[256];
-	int rc = hb_profile_expand(p, op, NULL, 0, command, sizeof command, why, sizeof why);
-	if (rc < 0) {
-		set_err(err, errlen, "%s: %s", what, why);
-		return rc;
-	}
-	rc = hb_scpi_query(scpi, command, reply, cap);
-	if (rc < 0) {
-		set_err(err, errlen, "%s: %s", what, hb_scpi_errmsg(scpi));
-		return rc;
-	}
-	return HB_OK;
-}
-
-int hb_profile_ask_number(hb_scpi *scpi, const hb_profile *p, hb_pkey op, hb_pkey field_key, hb_pkey scale_key,
-			  const char *what, double *value, char *err, size_t errlen)
-{
-	char reply[256], text[128];
-	int rc = hb_profile_ask(scpi, p, op, what, reply, sizeof reply, err, errlen);
-	if (rc < 0)
-		return rc;
-	int field = (int)hb_profile_number(p, field_key, 1);
-	int nfields;
-	if (hb_profile_reply_field(reply, field, text, sizeof text, &nfields) < 0) {
-		set_err(err, errlen, "%s: reply '%.80s' has %d field(s), the profile reads field %d", what, reply,
-			nfields, field);
-		return HB_ERR_PROTOCOL;
-	}
-	double v;
-	rc = hb_scpi_parse_double(text, &v);
-	if (rc == HB_ERR_OVERLOAD) {
-		*value = v;
-		set_err(err, errlen, "%s: instrument answered its overload value '%s'", what, text);
-		return rc;
-	}
-	if (rc < 0) {
-		set_err(err, errlen, "%s: field %d of reply '%.80s' is not a number", what, field, reply);
-		return HB_ERR_PROTOCOL;
-	}
-	*value = v * hb_profile_number(p, scale_key, 1.0);
-	return HB_OK;
-}
-
-bool hb_profile_word_in(const char *list, const char *token)
-{
-	size_t tlen = strlen(token);
-	for (const char *s = list; *s;) {
-		while (*s == ' ' || *s == ',' || *s == '\t')
-			s++;
-		const char *start = s;
-		while (*s && *s != ' ' && *s != ',' && *s != '\t')
-			s++;
-		if ((size_t)(s - start) == tlen && tlen && strncasecmp(start, token, tlen) == 0)
-			return true;
-	}
-	return false;
-}
-
-int hb_profile_reply_bool(const hb_profile *p, hb_pkey on_key, hb_pkey off_key, const char *field, bool *value)
-{
-	long n;
-	if (hb_profile_parse_long(field, &n) == HB_OK) {
-		*value = n != 0;
-		return HB_OK;
-	}
-	const char *on = hb_profile_text(p, on_key);
-	const char *off = hb_profile_text(p, off_key);
-	if (strcasecmp(field, on ? on : "ON") == 0) {
-		*value = true;
-		return HB_OK;
-	}
-	if (strcasecmp(field, off ? off : "OFF") == 0) {
-		*value = false;
-		return HB_OK;
-	}
-	return HB_ERR_PROTOCOL;
 }

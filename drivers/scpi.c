@@ -3,7 +3,6 @@
 #include <errno.h>
 #include <locale.h>
 #include <math.h>
-#include <pthread.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -11,6 +10,7 @@
 #include <strings.h>
 #include <time.h>
 
+#include "../common/hb_text.h"
 #include "link_internal.h"
 
 /* Bounds the error-queue loop: IEEE 488.2 queues are short (common
@@ -37,20 +37,6 @@ struct hb_scpi {
 };
 
 /* ---------------- C-locale numbers ---------------- */
-
-static pthread_once_t c_locale_once = PTHREAD_ONCE_INIT;
-static locale_t c_locale = (locale_t)0;
-
-static void c_locale_make(void)
-{
-	c_locale = newlocale(LC_NUMERIC_MASK, "C", (locale_t)0);
-}
-
-static locale_t c_numeric(void)
-{
-	pthread_once(&c_locale_once, c_locale_make);
-	return c_locale;
-}
 
 /* IEEE 488.2 NR1/NR2/NR3 shapes only: no hex floats, no trailing junk. */
 static bool decimal_shape(const char *s)
@@ -107,15 +93,15 @@ int hb_scpi_parse_double(const char *text, double *value)
 	}
 	if (!decimal_shape(buf))
 		return HB_ERR_PROTOCOL;
-	locale_t c = c_numeric();
-	if (c == (locale_t)0)
+	hb_c_numeric cn;
+	hb_c_numeric_enter(&cn);
+	if (cn.c == (locale_t)0)
 		return HB_ERR_NOMEM;
-	locale_t old = uselocale(c);
 	errno = 0;
 	char *end = NULL;
 	double v = strtod(buf, &end);
 	int e = errno;
-	uselocale(old);
+	hb_c_numeric_leave(&cn);
 	if (!end || *end != '\0')
 		return HB_ERR_PROTOCOL;
 	if (e == ERANGE && (isinf(v) || fabs(v) > 1.0))
@@ -133,14 +119,14 @@ int hb_scpi_format_double(char *buf, size_t cap, double value)
 	buf[0] = '\0';
 	if (!isfinite(value))
 		return HB_ERR_ARG;
-	locale_t c = c_numeric();
-	if (c == (locale_t)0)
+	hb_c_numeric cn;
+	hb_c_numeric_enter(&cn);
+	if (cn.c == (locale_t)0)
 		return HB_ERR_NOMEM;
-	locale_t old = uselocale(c);
 	/* 12 significant digits: above any instrument's resolution, below
 	 * the noise of binary fractions (0.1 + 0.2 prints as 0.3). */
 	int n = snprintf(buf, cap, "%.12g", value);
-	uselocale(old);
+	hb_c_numeric_leave(&cn);
 	if (n < 0 || (size_t)n >= cap) {
 		buf[0] = '\0';
 		return HB_ERR_ARG;

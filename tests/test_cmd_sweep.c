@@ -23,7 +23,7 @@
 
 #include <jansson.h>
 
-#include "src/sweep_opts.h"
+#include "src/cli/sweep_opts.h"
 
 /* Only to stop a broken test from hanging; never a pass/fail criterion. */
 #define HANG_GUARD_S 60

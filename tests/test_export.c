@@ -13,7 +13,7 @@
 #include <cmocka.h>
 #include <jansson.h>
 
-#include "src/report.h"
+#include "src/io/io.h"
 #include "store_fixture.h"
 
 typedef struct fixture {

@@ -13,8 +13,9 @@
 
 #include <jansson.h>
 
-#include "src/cli.h"
-#include "src/history.h"
+#include "src/cli/cli.h"
+#include "src/cli/compare.h"
+#include "src/quality/quality.h"
 
 static void check_near_at(double got, double want, double rel, int line)
 {

@@ -8,7 +8,7 @@
 #include <string.h>
 #include <cmocka.h>
 
-#include "src/html.h"
+#include "src/report/html.h"
 
 static const char *evil = "<script>alert(\"x\" & 'y')</script>";
 

@@ -11,9 +11,9 @@
 #include <unistd.h>
 #include <cmocka.h>
 
-#include "src/demo.h"
-#include "src/inspect.h"
-#include "src/session.h"
+#include "src/cli/demo.h"
+#include "src/quality/quality.h"
+#include "src/bench/bench.h"
 
 /* Invented test scenario: the demo part and bench, time scaled far down. */
 static const double test_time_scale = 0.001;

@@ -9,7 +9,7 @@
 #include <string.h>
 #include <cmocka.h>
 
-#include "src/plot.h"
+#include "src/report/plot.h"
 
 /* Invented, smooth data shaped like a gapped ferrite core (synthetic test data). */
 static void bias_curve(double *i, double *l, size_t n)

@@ -7,7 +7,7 @@
 #include <string.h>
 #include <cmocka.h>
 
-#include "src/quality.h"
+#include "src/quality/quality.h"
 
 /* The cmocka here has no double comparison; this one reports both values. */
 static void check_near_at(double got, double want, double tol, int line)

@@ -15,8 +15,9 @@
 #include <jansson.h>
 
 #include "fit/hb_fit.h"
-#include "src/analysis.h"
-#include "src/report.h"
+#include "src/quality/quality.h"
+#include "src/io/io.h"
+#include "src/report/report.h"
 #include "store_fixture.h"
 
 #define EVIL_DESCRIPTION "Test choke <script>alert(\"x\")</script> & 'quoted'"

@@ -14,7 +14,7 @@
 
 #include "drivers/hb_drivers.h"
 #include "drivers/sim/sim_internal.h"
-#include "src/cli.h"
+#include "src/cli/cli.h"
 
 /* cmocka here has no double comparison; |a-b| <= tol with both values shown. */
 static void assert_near(double a, double b, double tol)

@@ -14,8 +14,8 @@
 #include <unistd.h>
 
 #include "drivers/hb_drivers.h"
-#include "src/demo.h"
-#include "src/sweep.h"
+#include "src/cli/demo.h"
+#include "src/bench/bench.h"
 
 /* Simulated time runs a hundred times faster than the wall clock. */
 #define TIME_SCALE 0.01

@@ -20,9 +20,9 @@
 
 #include "db/hb_db.h"
 #include "drivers/hb_drivers.h"
-#include "src/demo.h"
-#include "src/session.h"
-#include "src/sweep.h"
+#include "src/cli/cli.h"
+#include "src/cli/demo.h"
+#include "src/bench/bench.h"
 
 /* Simulated time runs a hundred times faster than the wall clock. */
 #define TIME_SCALE 0.01

@@ -17,10 +17,10 @@
 #include "db/hb_db.h"
 #include "drivers/hb_drivers.h"
 #include "fit/hb_fit.h"
-#include "src/analysis.h"
-#include "src/demo.h"
-#include "src/session.h"
-#include "src/sweep.h"
+#include "src/quality/analysis.h"
+#include "src/cli/demo.h"
+#include "src/bench/session.h"
+#include "src/bench/sweep.h"
 #include "truth_model.h"
 
 /*

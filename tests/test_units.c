@@ -8,7 +8,7 @@
 #include <string.h>
 #include <cmocka.h>
 
-#include "src/cli.h"
+#include "src/cli/cli.h"
 
 typedef struct value_case {
 	const char *text;

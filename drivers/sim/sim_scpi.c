@@ -11,32 +11,14 @@
 
 #include <gsl/gsl_randist.h>
 
+#include "../../common/hb_text.h"
 #include "sim_internal.h"
 
 #define SIM_OVERLOAD 9.9e37
 
 /* Numbers on the wire are C-locale whatever locale the host process runs
- * in; uselocale is per thread, so the server thread cannot disturb others. */
-static pthread_once_t c_locale_once = PTHREAD_ONCE_INIT;
-static locale_t c_locale;
-
-static void c_locale_make(void)
-{
-	c_locale = newlocale(LC_NUMERIC_MASK, "C", (locale_t)0);
-}
-
-static locale_t c_locale_enter(void)
-{
-	pthread_once(&c_locale_once, c_locale_make);
-	return c_locale ? uselocale(c_locale) : (locale_t)0;
-}
-
-static void c_locale_leave(locale_t old)
-{
-	if (old)
-		uselocale(old);
-}
-
+ * in (hb_c_numeric_enter); uselocale is per thread, so the server thread
+ * cannot disturb others. */
 static void reply_add(sim_conn *conn, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 static void reply_add(sim_conn *conn, const char *fmt, ...)
 {
@@ -49,9 +31,10 @@ static void reply_add(sim_conn *conn, const char *fmt, ...)
 		conn->reply[conn->reply_len++] = ';';
 	va_list ap;
 	va_start(ap, fmt);
-	locale_t old = c_locale_enter();
+	hb_c_numeric cn;
+	hb_c_numeric_enter(&cn);
 	int n = vsnprintf(conn->reply + conn->reply_len, cap - conn->reply_len, fmt, ap);
-	c_locale_leave(old);
+	hb_c_numeric_leave(&cn);
 	va_end(ap);
 	if (n > 0)
 		conn->reply_len += (size_t)n < cap - conn->reply_len ? (size_t)n : cap - conn->reply_len - 1;
@@ -212,12 +195,13 @@ int sim_scpi_number(const char *text, const char *unit, double *value)
 		text++;
 	if (!(isdigit((unsigned char)*text) || *text == '.' || *text == '+' || *text == '-'))
 		return -224;
-	locale_t old = c_locale_enter();
+	hb_c_numeric cn;
+	hb_c_numeric_enter(&cn);
 	char *end;
 	errno = 0;
 	double v = strtod(text, &end);
 	int saved = errno;
-	c_locale_leave(old);
+	hb_c_numeric_leave(&cn);
 	if (end == text || saved == ERANGE || !isfinite(v) || memchr(text, 'x', (size_t)(end - text)) ||
 	    memchr(text, 'X', (size_t)(end - text)))
 		return -224;

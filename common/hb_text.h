@@ -1,0 +1,44 @@
+/* common/hb_text.h - text every layer reads and writes: engineering values, C-locale numbers, one-line error messages */
+#ifndef HB_TEXT_H
+#define HB_TEXT_H
+
+#include <locale.h>
+#include <stddef.h>
+
+#include "hb_status.h"
+
+/*
+ * Parses "100u", "100uH", "4.7m", "2.5A", "100kHz", "0.5V", "1.2e-3",
+ * "20%" (-> 0.20), the UTF-8 micro sign. unit is the SI unit the option
+ * expects ("H", "A", "Hz", "V", "ohm", "s", "m", "m2", "T", "%", "" for
+ * none); a different unit in the text is an error. Case follows SI (m
+ * milli, M mega) except when the whole text is upper-case SCPI style, where
+ * SCPI-1999's rule applies (M milli, MA mega; MHZ and MOHM mega).
+ * On error returns HB_ERR_ARG and writes a message naming the token.
+ */
+int hb_parse_value(const char *text, const char *unit, double *value, char *err, size_t errlen);
+
+/* Formats value with an SI prefix and unit, e.g. "4.70 uH" (ASCII 'u'). */
+char *hb_format_si(char *buf, size_t cap, double value, const char *unit, int digits);
+
+/* Writes a one-line message into err (NULL or cap 0: nothing) and returns
+ * HB_ERR_ARG, so that a parser can say `return hb_set_err(...)`; callers
+ * with another status ignore the return. */
+int hb_set_err(char *err, size_t cap, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
+
+/* Numbers in files and on the command line are C-locale whatever the
+ * caller's locale is: a lab PC in a comma-decimal locale must read and
+ * write "0.5" as one half. enter switches this thread's LC_NUMERIC to "C"
+ * (uselocale is per thread, so other threads are not disturbed); leave puts
+ * the old one back. s->c is (locale_t)0 when no C locale could be made, and
+ * the thread's locale is then left as it was. One locale serves the whole
+ * process (made once, never freed), so the pair is cheap enough for every
+ * number on the wire. */
+typedef struct hb_c_numeric {
+	locale_t c, old;
+} hb_c_numeric;
+
+void hb_c_numeric_enter(hb_c_numeric *s);
+void hb_c_numeric_leave(hb_c_numeric *s);
+
+#endif

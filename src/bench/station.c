@@ -1,0 +1,153 @@
+/* src/bench/station.c - reads the station file (INI, via libinih) with its limits */
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#include <ini.h>
+
+#include "../../common/hb_text.h"
+#include "station.h"
+
+void hb_station_defaults(hb_station *s)
+{
+	memset(s, 0, sizeof *s);
+	if (gethostname(s->name, sizeof s->name - 1) != 0)
+		snprintf(s->name, sizeof s->name, "bench");
+	const char *user = getenv("USER");
+	snprintf(s->operator_name, sizeof s->operator_name, "%s", user && *user ? user : "operator");
+	s->max_current = NAN;
+	s->max_voltage = NAN;
+	s->max_power = NAN;
+	s->confirm_above = NAN;
+	s->ramp_rate = NAN;
+	s->off_threshold = NAN;
+	s->part_overdrive = HB_STATION_PART_OVERDRIVE;
+	s->part_overdrive_set = false;
+	s->lock_limits = false;
+}
+
+typedef struct parse_ctx {
+	FILE *file;
+	int line;     /* counted by our reader: libinih's handler is not told */
+	hb_station *station;
+	char *err;
+	size_t errlen;
+	int failed;
+} parse_ctx;
+
+static int set_limit(parse_ctx *c, const char *value, const char *unit, double *out, int line, const char *key)
+{
+	char msg[200];
+	double v;
+	if (hb_parse_value(value, unit, &v, msg, sizeof msg) != HB_OK || !(v > 0)) {
+		snprintf(c->err, c->errlen, "%s:%d: key '%s': '%s' is not a positive value in %s", c->station->path, line,
+			 key, value, unit);
+		c->failed = 1;
+		return 0;
+	}
+	*out = v;
+	return 1;
+}
+
+static char *read_counting(char *str, int num, void *stream)
+{
+	parse_ctx *c = stream;
+	char *r = fgets(str, num, c->file);
+	if (r)
+		c->line++;
+	return r;
+}
+
+static int on_entry(void *user, const char *section, const char *name, const char *value)
+{
+	parse_ctx *c = user;
+	int line = c->line;
+	hb_station *s = c->station;
+	if (c->failed)
+		return 0;
+	if (strcmp(section, "station") == 0) {
+		if (strcmp(name, "name") == 0) {
+			snprintf(s->name, sizeof s->name, "%s", value);
+			return 1;
+		}
+		if (strcmp(name, "operator") == 0) {
+			snprintf(s->operator_name, sizeof s->operator_name, "%s", value);
+			return 1;
+		}
+	} else if (strcmp(section, "limits") == 0) {
+		if (strcmp(name, "max_current") == 0)
+			return set_limit(c, value, "A", &s->max_current, line, name);
+		if (strcmp(name, "max_voltage") == 0)
+			return set_limit(c, value, "V", &s->max_voltage, line, name);
+		if (strcmp(name, "max_power") == 0)
+			return set_limit(c, value, "W", &s->max_power, line, name);
+		if (strcmp(name, "confirm_above") == 0)
+			return set_limit(c, value, "A", &s->confirm_above, line, name);
+		if (strcmp(name, "ramp_rate") == 0)
+			return set_limit(c, value, "A/s", &s->ramp_rate, line, name);
+		if (strcmp(name, "off_threshold") == 0)
+			return set_limit(c, value, "A", &s->off_threshold, line, name);
+		if (strcmp(name, "part_overdrive") == 0) {
+			s->part_overdrive_set = true;
+			return set_limit(c, value, "", &s->part_overdrive, line, name);
+		}
+		if (strcmp(name, "lock_limits") == 0) {
+			if (strcmp(value, "yes") == 0 || strcmp(value, "true") == 0) {
+				s->lock_limits = true;
+				return 1;
+			}
+			if (strcmp(value, "no") == 0 || strcmp(value, "false") == 0) {
+				s->lock_limits = false;
+				return 1;
+			}
+			snprintf(c->err, c->errlen, "%s:%d: key 'lock_limits': '%s' is not yes or no", s->path, line,
+				 value);
+			c->failed = 1;
+			return 0;
+		}
+	}
+	snprintf(c->err, c->errlen, "%s:%d: unknown key '%s' in section [%s] (known: [station] name, operator; [limits] max_current, max_voltage, max_power, confirm_above, ramp_rate, off_threshold, part_overdrive, lock_limits)",
+		 s->path, line, name, section);
+	c->failed = 1;
+	return 0;
+}
+
+int hb_station_load(hb_station *s, char *err, size_t errlen)
+{
+	hb_station_defaults(s);
+	const char *env = getenv("HENRYBENCH_STATION");
+	if (env && *env) {
+		snprintf(s->path, sizeof s->path, "%s", env);
+	} else {
+		const char *xdg = getenv("XDG_CONFIG_HOME");
+		const char *home = getenv("HOME");
+		if (xdg && *xdg)
+			snprintf(s->path, sizeof s->path, "%s/henrybench/station.ini", xdg);
+		else if (home && *home)
+			snprintf(s->path, sizeof s->path, "%s/.config/henrybench/station.ini", home);
+		else
+			return HB_OK;
+	}
+	FILE *f = fopen(s->path, "r");
+	if (!f) {
+		if (errno == ENOENT && !(env && *env)) {
+			s->path[0] = '\0';
+			return HB_OK;
+		}
+		snprintf(err, errlen, "station file %s: %s", s->path, strerror(errno));
+		return HB_ERR_ARG;
+	}
+	parse_ctx c = { f, 0, s, err, errlen, 0 };
+	int rc = ini_parse_stream(read_counting, &c, on_entry, &c);
+	fclose(f);
+	if (c.failed)
+		return HB_ERR_ARG;
+	if (rc != 0) {
+		snprintf(err, errlen, "%s:%d: not a valid INI line", s->path, rc);
+		return HB_ERR_ARG;
+	}
+	return HB_OK;
+}

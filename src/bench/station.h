@@ -1,0 +1,38 @@
+/* src/bench/station.h - the station file: who and where measures, and the bench's hard limits */
+#ifndef HB_STATION_H
+#define HB_STATION_H
+
+#include <stdbool.h>
+#include <stddef.h>
+
+/* A saturation characterisation runs well past the knee: 2.5 x covers the
+ * demo part's documented range (HBX-108G, saturation-spec 3.2 A, swept to
+ * 8 A in the README and by `henrybench demo`). */
+#define HB_STATION_PART_OVERDRIVE 2.5
+/* Default shut-down confirm threshold, A. */
+#define HB_STATION_OFF_THRESHOLD 0.02
+
+typedef struct hb_station {
+	char name[64];          /* [station] name; default: host name */
+	char operator_name[64]; /* [station] operator; default: $USER */
+	double max_current;     /* [limits] max_current, A; NAN = not set */
+	double max_voltage;     /* [limits] max_voltage, V */
+	double max_power;       /* [limits] max_power, W */
+	double confirm_above;   /* [limits] confirm_above, A: ask before sweeping higher; NAN = never */
+	double ramp_rate;       /* [limits] ramp_rate, A/s; NAN = engine default */
+	double off_threshold;   /* [limits] off_threshold, A: the output may be switched off only once
+	                         * the current has decayed below it; NAN = default (20 mA) */
+	double part_overdrive;  /* [limits] part_overdrive: a sweep may go to this many times the
+	                         * part's highest rated current; default HB_STATION_PART_OVERDRIVE */
+	bool part_overdrive_set; /* part_overdrive came from the file, not the default */
+	bool lock_limits;       /* [limits] lock_limits = yes: no limit option on the command line */
+	char path[512];         /* the file read, empty if none */
+} hb_station;
+
+/* Reads $HENRYBENCH_STATION or ${XDG_CONFIG_HOME:-~/.config}/henrybench/station.ini;
+ * a missing file leaves the defaults. A malformed file is HB_ERR_ARG with
+ * "FILE:LINE: ..." in err. */
+int hb_station_load(hb_station *station, char *err, size_t errlen);
+void hb_station_defaults(hb_station *station);
+
+#endif

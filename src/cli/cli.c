@@ -1,0 +1,59 @@
+/* src/cli/cli.c - options every command shares (--db, --trace) and the one-line error printer */
+#include <errno.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "cli.h"
+
+hb_global_opts hb_global;
+static FILE *trace_file_owned;
+
+void hb_cli_error(const char *fmt, ...)
+{
+	va_list ap;
+	va_start(ap, fmt);
+	fputs("henrybench: ", stderr);
+	vfprintf(stderr, fmt, ap);
+	fputc('\n', stderr);
+	va_end(ap);
+}
+
+int hb_cli_global_option(const char *name, const char *value)
+{
+	if (strcmp(name, "db") == 0) {
+		if (!value || !*value) {
+			hb_cli_error("--db needs a PATH");
+			return -1;
+		}
+		hb_global.db_path = value;
+		return 1;
+	}
+	if (strcmp(name, "trace") == 0) {
+		if (!value || !*value || strcmp(value, "-") == 0) {
+			hb_global.trace = stderr;
+			return 1;
+		}
+		FILE *f = fopen(value, "a");
+		if (!f) {
+			hb_cli_error("--trace=%s: cannot open: %s", value, strerror(errno));
+			return -1;
+		}
+		setvbuf(f, NULL, _IOLBF, 0);
+		if (trace_file_owned)
+			fclose(trace_file_owned);
+		trace_file_owned = f;
+		hb_global.trace = f;
+		return 1;
+	}
+	return 0;
+}
+
+void hb_cli_global_cleanup(void)
+{
+	if (trace_file_owned)
+		fclose(trace_file_owned);
+	trace_file_owned = NULL;
+	hb_global.trace = NULL;
+}

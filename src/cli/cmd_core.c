@@ -1,0 +1,318 @@
+/* src/cli/cmd_core.c - the `core` command: effective core parameters (IEC 60205) and expected inductance */
+#include <getopt.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <jansson.h>
+
+#include "../../fit/hb_fit.h"
+#include "cli.h"
+
+#define MAX_SECTIONS 32
+
+static void usage(FILE *out)
+{
+	fprintf(out,
+		"usage: henrybench core toroid --od D --id D --height H [WINDING] [--json]\n"
+		"       henrybench core sections --section LEN:AREA [--section ...] [WINDING] [--json]\n"
+		"       henrybench core solenoid --diameter D --length L --turns N [--json]\n"
+		"  WINDING: --turns N with --mu MU [--gap G] or --al AL  (expected inductance)\n"
+		"Effective parameters per IEC 60205: C1 = sum l/A, C2 = sum l/A^2, le = C1^2/C2,\n"
+		"Ae = C1/C2, Ve = le Ae; gapped: mu_e = mu/(1 + mu g/le); L = mu0 mu_e N^2 Ae/le = AL N^2.\n"
+		"Solenoid: single-layer air core, exact current-sheet value (Nagaoka) and Wheeler 1928.\n"
+		"Values take SI prefixes and units: 25mm, 50mm2, 250nH, 0.3mm.\n");
+}
+
+typedef struct winding {
+	bool have_turns, have_mu, have_al, have_gap;
+	double turns, mu, al, gap;
+} winding;
+
+enum { OPT_OD = 256, OPT_ID, OPT_HEIGHT, OPT_SECTION, OPT_TURNS, OPT_MU, OPT_AL, OPT_GAP, OPT_DIAMETER, OPT_LENGTH,
+       OPT_JSON };
+
+static const struct option options[] = {
+	{ "od", required_argument, NULL, OPT_OD },
+	{ "id", required_argument, NULL, OPT_ID },
+	{ "height", required_argument, NULL, OPT_HEIGHT },
+	{ "section", required_argument, NULL, OPT_SECTION },
+	{ "turns", required_argument, NULL, OPT_TURNS },
+	{ "mu", required_argument, NULL, OPT_MU },
+	{ "al", required_argument, NULL, OPT_AL },
+	{ "gap", required_argument, NULL, OPT_GAP },
+	{ "diameter", required_argument, NULL, OPT_DIAMETER },
+	{ "length", required_argument, NULL, OPT_LENGTH },
+	{ "json", no_argument, NULL, OPT_JSON },
+	{ "help", no_argument, NULL, 'h' },
+	{ NULL, 0, NULL, 0 },
+};
+
+typedef struct core_args {
+	double od, id, height, diameter, length;
+	bool have_od, have_id, have_height, have_diameter, have_length, json;
+	double sec_len[MAX_SECTIONS], sec_area[MAX_SECTIONS];
+	size_t n_sections;
+	winding w;
+} core_args;
+
+static int parse_section(const char *text, core_args *a)
+{
+	if (a->n_sections >= MAX_SECTIONS) {
+		hb_cli_error("--section: at most %d sections", MAX_SECTIONS);
+		return HB_ERR_ARG;
+	}
+	const char *colon = strchr(text, ':');
+	if (!colon) {
+		hb_cli_error("--section '%s': expected LENGTH:AREA, e.g. 20mm:50mm2", text);
+		return HB_ERR_ARG;
+	}
+	char len[64];
+	snprintf(len, sizeof len, "%.*s", (int)(colon - text), text);
+	if (hb_opt_value("--section length", len, "m", 1e-6, 10, &a->sec_len[a->n_sections]) != HB_OK ||
+	    hb_opt_value("--section area", colon + 1, "m2", 1e-12, 1, &a->sec_area[a->n_sections]) != HB_OK)
+		return HB_ERR_ARG;
+	a->n_sections++;
+	return HB_OK;
+}
+
+static int parse_args(int argc, char **argv, core_args *a)
+{
+	int c;
+	optind = 1;
+	opterr = 0;
+	while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
+		int rc = HB_OK;
+		switch (c) {
+		case OPT_OD:
+			rc = hb_opt_value("--od", optarg, "m", 1e-5, 10, &a->od);
+			a->have_od = true;
+			break;
+		case OPT_ID:
+			rc = hb_opt_value("--id", optarg, "m", 1e-5, 10, &a->id);
+			a->have_id = true;
+			break;
+		case OPT_HEIGHT:
+			rc = hb_opt_value("--height", optarg, "m", 1e-5, 10, &a->height);
+			a->have_height = true;
+			break;
+		case OPT_SECTION:
+			rc = parse_section(optarg, a);
+			break;
+		case OPT_TURNS:
+			rc = hb_opt_value("--turns", optarg, "", 1, 1e6, &a->w.turns);
+			a->w.have_turns = true;
+			break;
+		case OPT_MU:
+			rc = hb_opt_value("--mu", optarg, "", 1, 1e6, &a->w.mu);
+			a->w.have_mu = true;
+			break;
+		case OPT_AL:
+			rc = hb_opt_value("--al", optarg, "H", 1e-12, 1e-2, &a->w.al);
+			a->w.have_al = true;
+			break;
+		case OPT_GAP:
+			rc = hb_opt_value("--gap", optarg, "m", 0, 0.1, &a->w.gap);
+			a->w.have_gap = true;
+			break;
+		case OPT_DIAMETER:
+			rc = hb_opt_value("--diameter", optarg, "m", 1e-5, 10, &a->diameter);
+			a->have_diameter = true;
+			break;
+		case OPT_LENGTH:
+			rc = hb_opt_value("--length", optarg, "m", 1e-5, 100, &a->length);
+			a->have_length = true;
+			break;
+		case OPT_JSON:
+			a->json = true;
+			break;
+		case 'h':
+			usage(stdout);
+			return 1;
+		default:
+			hb_cli_error("core: unknown or incomplete option '%s' (try 'henrybench core --help')",
+				     argv[optind - 1]);
+			return HB_ERR_ARG;
+		}
+		if (rc != HB_OK)
+			return HB_ERR_ARG;
+	}
+	if (optind < argc) {
+		hb_cli_error("core: unexpected argument '%s'", argv[optind]);
+		return HB_ERR_ARG;
+	}
+	return HB_OK;
+}
+
+static int check_winding(const winding *w)
+{
+	if (w->have_mu && w->have_al) {
+		hb_cli_error("--mu and --al exclude each other (AL already holds the permeability)");
+		return HB_ERR_ARG;
+	}
+	if (w->have_gap && !w->have_mu) {
+		hb_cli_error("--gap needs --mu (the material's initial permeability)");
+		return HB_ERR_ARG;
+	}
+	if ((w->have_mu || w->have_al) && !w->have_turns) {
+		hb_cli_error("--mu / --al give an expected inductance only with --turns");
+		return HB_ERR_ARG;
+	}
+	return HB_OK;
+}
+
+static void print_effective(const char *shape, const hb_core_effective *e, const winding *w, bool json)
+{
+	double mu_e = NAN, al = NAN, L = NAN;
+	if (w->have_mu) {
+		mu_e = w->have_gap ? hb_fit_mu_gapped(w->mu, w->gap, e->le) : w->mu;
+		al = HB_FIT_MU0 * mu_e * e->Ae / e->le;
+	} else if (w->have_al) {
+		al = w->al;
+		mu_e = al * e->le / (HB_FIT_MU0 * e->Ae);
+	}
+	if (w->have_turns && isfinite(al))
+		L = hb_fit_expected_L_al(al, w->turns);
+	if (json) {
+		json_t *j = json_object();
+		json_object_set_new(j, "shape", json_string(shape));
+		json_object_set_new(j, "C1_per_m", json_real(e->C1));
+		json_object_set_new(j, "C2_per_m3", json_real(e->C2));
+		json_object_set_new(j, "le_m", json_real(e->le));
+		json_object_set_new(j, "Ae_m2", json_real(e->Ae));
+		json_object_set_new(j, "Ve_m3", json_real(e->Ve));
+		if (isfinite(mu_e)) {
+			json_object_set_new(j, "mu_e", json_real(mu_e));
+			json_object_set_new(j, "AL_H", json_real(al));
+		}
+		if (w->have_gap)
+			json_object_set_new(j, "gap_m", json_real(w->gap));
+		if (w->have_turns)
+			json_object_set_new(j, "turns", json_real(w->turns));
+		if (isfinite(L))
+			json_object_set_new(j, "L_H", json_real(L));
+		json_dumpf(j, stdout, JSON_INDENT(2) | JSON_REAL_PRECISION(10));
+		fputc('\n', stdout);
+		json_decref(j);
+		return;
+	}
+	char buf[40];
+	printf("%s, effective parameters (IEC 60205)\n", shape);
+	printf("  C1   %10.5g mm^-1   (sum l/A)\n", e->C1 * 1e-3);
+	printf("  C2   %10.5g mm^-3   (sum l/A^2)\n", e->C2 * 1e-9);
+	printf("  le   %10.4f mm      (C1^2/C2)\n", e->le * 1e3);
+	printf("  Ae   %10.4f mm^2    (C1/C2)\n", e->Ae * 1e6);
+	printf("  Ve   %10.4g mm^3    (le Ae)\n", e->Ve * 1e9);
+	if (isfinite(mu_e)) {
+		printf("  mu_e %10.5g         (%s)\n", mu_e,
+		       w->have_gap ? "mu/(1 + mu g/le)" : w->have_al ? "from AL" : "ungapped: mu");
+		printf("  AL   %10s\n", hb_format_si(buf, sizeof buf, al, "H", 4));
+	}
+	if (isfinite(L))
+		printf("  L    %10s         (N = %g; at zero bias, small signal)\n", hb_format_si(buf, sizeof buf, L, "H", 4),
+		       w->turns);
+}
+
+static int run_toroid(core_args *a)
+{
+	if (!a->have_od || !a->have_id || !a->have_height) {
+		hb_cli_error("core toroid needs --od, --id and --height");
+		return HB_EXIT_USAGE;
+	}
+	if (!(a->id < a->od)) {
+		char o[32], i[32];
+		hb_cli_error("--id %s must be smaller than --od %s", hb_format_si(i, sizeof i, a->id, "m", 4),
+			     hb_format_si(o, sizeof o, a->od, "m", 4));
+		return HB_EXIT_USAGE;
+	}
+	if (check_winding(&a->w))
+		return HB_EXIT_USAGE;
+	hb_core_effective e;
+	if (hb_fit_geom_toroid(a->od, a->id, a->height, &e) != HB_OK) {
+		hb_cli_error("toroid dimensions rejected (need 0 < id < od, height > 0)");
+		return HB_EXIT_USAGE;
+	}
+	print_effective("toroid", &e, &a->w, a->json);
+	return HB_EXIT_OK;
+}
+
+static int run_sections(core_args *a)
+{
+	if (a->n_sections == 0) {
+		hb_cli_error("core sections needs at least one --section LENGTH:AREA");
+		return HB_EXIT_USAGE;
+	}
+	if (check_winding(&a->w))
+		return HB_EXIT_USAGE;
+	hb_core_effective e;
+	if (hb_fit_geom_sections(a->sec_len, a->sec_area, a->n_sections, &e) != HB_OK) {
+		hb_cli_error("sections rejected (lengths and areas must be positive)");
+		return HB_EXIT_USAGE;
+	}
+	print_effective("sections", &e, &a->w, a->json);
+	return HB_EXIT_OK;
+}
+
+static int run_solenoid(core_args *a)
+{
+	if (!a->have_diameter || !a->have_length || !a->w.have_turns) {
+		hb_cli_error("core solenoid needs --diameter, --length and --turns");
+		return HB_EXIT_USAGE;
+	}
+	if (a->w.have_mu || a->w.have_al || a->w.have_gap) {
+		hb_cli_error("core solenoid is an air core: --mu, --al and --gap do not apply");
+		return HB_EXIT_USAGE;
+	}
+	double Le, Lw, k;
+	if (hb_fit_solenoid(a->diameter, a->length, a->w.turns, &Le, &Lw, &k) != HB_OK) {
+		hb_cli_error("core solenoid: diameter/length %g is too short a coil for Nagaoka's coefficient (give a longer --length)",
+			     a->diameter / a->length);
+		return HB_EXIT_USAGE;
+	}
+	if (a->json) {
+		json_t *j = json_object();
+		json_object_set_new(j, "shape", json_string("solenoid"));
+		json_object_set_new(j, "diameter_m", json_real(a->diameter));
+		json_object_set_new(j, "length_m", json_real(a->length));
+		json_object_set_new(j, "turns", json_real(a->w.turns));
+		json_object_set_new(j, "nagaoka_k", json_real(k));
+		json_object_set_new(j, "L_exact_H", json_real(Le));
+		json_object_set_new(j, "L_wheeler_H", json_real(Lw));
+		json_dumpf(j, stdout, JSON_INDENT(2) | JSON_REAL_PRECISION(10));
+		fputc('\n', stdout);
+		json_decref(j);
+		return HB_EXIT_OK;
+	}
+	char b1[40], b2[40];
+	printf("single-layer air-core solenoid, D/l = %.4g, N = %g\n", a->diameter / a->length, a->w.turns);
+	printf("  Nagaoka k   %.6f   (current sheet, complete elliptic integrals)\n", k);
+	printf("  L exact     %s   (k mu0 N^2 A / l)\n", hb_format_si(b1, sizeof b1, Le, "H", 5));
+	printf("  L Wheeler   %s   (Wheeler 1928, %+.2f %% from exact)\n", hb_format_si(b2, sizeof b2, Lw, "H", 5),
+	       100 * (Lw - Le) / Le);
+	return HB_EXIT_OK;
+}
+
+int hb_cmd_core(int argc, char **argv)
+{
+	if (argc < 2 || strcmp(argv[1], "--help") == 0 || strcmp(argv[1], "-h") == 0) {
+		usage(argc < 2 ? stderr : stdout);
+		return argc < 2 ? HB_EXIT_USAGE : HB_EXIT_OK;
+	}
+	const char *shape = argv[1];
+	core_args a;
+	memset(&a, 0, sizeof a);
+	int rc = parse_args(argc - 1, argv + 1, &a);
+	if (rc == 1)
+		return HB_EXIT_OK;
+	if (rc != HB_OK)
+		return HB_EXIT_USAGE;
+	if (strcmp(shape, "toroid") == 0)
+		return run_toroid(&a);
+	if (strcmp(shape, "sections") == 0)
+		return run_sections(&a);
+	if (strcmp(shape, "solenoid") == 0)
+		return run_solenoid(&a);
+	hb_cli_error("core: unknown shape '%s' (accepted: toroid, sections, solenoid)", shape);
+	return HB_EXIT_USAGE;
+}

@@ -1,0 +1,560 @@
+/* src/cli/cmd_inspect.c - the `inspect` command: a lot inspected by ISO 2859-1 sampling at the bench, resumable */
+#include <errno.h>
+#include <getopt.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <strings.h>
+#include <unistd.h>
+
+#include <jansson.h>
+
+#include "cli.h"
+#include "../quality/quality.h"
+#include "../bench/bench.h"
+#include "sweep_opts.h"
+
+static void inspect_usage(FILE *out)
+{
+	fprintf(out,
+		"usage: henrybench inspect --part P --lot LOT --lot-size N --aql AQL --lcr RES --supply RES [options]\n"
+		"Inspects a lot by ISO 2859-1 single sampling: shows the plan, stores it on the lot, then\n"
+		"sweeps, fits and judges each sample unit, keeps the tally and decides the lot (rejecting as\n"
+		"soon as Re nonconforming units are found). Paused or interrupted, the same command resumes\n"
+		"the lot where it stopped.\n\n"
+		"sampling:\n"
+		"  --lot-size N         units in the lot (2 or more)\n"
+		"  --aql AQL            acceptance quality limit, one of the ISO 2859-1 series (e.g. 0.65 1.0 2.5 4.0)\n"
+		"  --level LEVEL        S-1 ... S-4, I, II (default) or III\n"
+		"  --severity SEV       normal (default), tightened or reduced\n"
+		"units:\n"
+		"  --serials FILE       serial numbers in draw order, one per line\n"
+		"  --first-serial S     count the trailing number up: LOT7-0001, LOT7-0002, ...\n"
+		"                       (neither: type or scan each serial at the prompt)\n"
+		"  --auto               no prompts: measure the units one after another (needs a serial source)\n"
+		"  --part-fault nonconforming|retest\n"
+		"                       a unit the part keeps from being measured (compliance, open winding,\n"
+		"                       reading out of range): nonconforming (default) or not judged, pausing\n"
+		"                       so it is checked and measured again\n"
+		"  --resume             continue a begun lot only (refuses a lot code never begun)\n"
+		"sweep of each unit (as for sweep; defaults from the part):\n"
+		"  --from A --to A      current range (default 0 to 1.25 x the part's saturation-spec current)\n"
+		"  --steps N            points on the way up (default 21)\n"
+		"  --spacing lin|log    step spacing\n"
+		"  --freq HZ            test frequency (default the part's)\n"
+		"  --test-level V|A     test signal (default the part's)\n"
+		"  --avg N  --aperture short|medium|long  --settle auto|TIME  --settle-timeout S\n"
+		"  --max-current A --max-voltage V --max-power W --ramp A/s   limits (also from the station file)\n"
+		"  --ambient C          ambient temperature to record\n"
+		"  --yes                do not ask before sweeping above the station's threshold\n"
+		"output:\n"
+		"  --show-fit           print each unit's whole fit\n"
+		"  --json               the lot, plan, decision and every unit as JSON on stdout\n\n"
+		"At each prompt: Enter measures the unit named, a typed serial replaces it, 's' records it\n"
+		"skipped (could not be tested; the next unit drawn replaces it), 'q' pauses with the lot open.\n"
+		"A unit whose verdict is incomplete counts as nonconforming. A bench fault (lost link,\n"
+		"instrument error, time-out) judges nothing and uses no sample position; 2 in a row pause\n"
+		"the inspection with the lot open (docs/inspection.md).\n"
+		"Exit status: 0 lot decided (accept or reject: see the output), 1 lot still open (paused:\n"
+		"bench fault, safety limit, 'q', end of the serial list), 2 usage, 130 stopped by Ctrl-C\n"
+		"(lot still open).\n");
+}
+
+enum {
+	OPT_PART = 256, OPT_LOT, OPT_LOT_SIZE, OPT_AQL, OPT_LCR, OPT_SUPPLY, OPT_LEVEL, OPT_SEVERITY, OPT_SERIALS,
+	OPT_FIRST_SERIAL, OPT_AUTO, OPT_FROM, OPT_TO, OPT_SPACING, OPT_TEST_LEVEL, OPT_YES, OPT_SHOW_FIT, OPT_JSON,
+	OPT_PART_FAULT, OPT_RESUME, OPT_HELP
+};
+
+static const struct option long_options[] = {
+	{ "part", required_argument, NULL, OPT_PART },
+	{ "lot", required_argument, NULL, OPT_LOT },
+	{ "lot-size", required_argument, NULL, OPT_LOT_SIZE },
+	{ "aql", required_argument, NULL, OPT_AQL },
+	{ "lcr", required_argument, NULL, OPT_LCR },
+	{ "supply", required_argument, NULL, OPT_SUPPLY },
+	{ "level", required_argument, NULL, OPT_LEVEL },
+	{ "severity", required_argument, NULL, OPT_SEVERITY },
+	{ "serials", required_argument, NULL, OPT_SERIALS },
+	{ "first-serial", required_argument, NULL, OPT_FIRST_SERIAL },
+	{ "auto", no_argument, NULL, OPT_AUTO },
+	{ "part-fault", required_argument, NULL, OPT_PART_FAULT },
+	{ "resume", no_argument, NULL, OPT_RESUME },
+	{ "from", required_argument, NULL, OPT_FROM },
+	{ "to", required_argument, NULL, OPT_TO },
+	{ "spacing", required_argument, NULL, OPT_SPACING },
+	{ "test-level", required_argument, NULL, OPT_TEST_LEVEL },
+	{ "yes", no_argument, NULL, OPT_YES },
+	{ "show-fit", no_argument, NULL, OPT_SHOW_FIT },
+	{ "json", no_argument, NULL, OPT_JSON },
+	{ "help", no_argument, NULL, OPT_HELP },
+	HB_SWEEP_LONG_OPTIONS,
+	{ NULL, 0, NULL, 0 },
+};
+
+typedef struct inspect_args {
+	const char *part, *lot, *lcr, *supply, *serials_file, *first_serial;
+	long lot_size;
+	double aql;
+	hb_insp_level level;
+	hb_severity severity;
+	hb_sweep_plan plan;
+	hb_sweep_opts opts;
+	bool to_given;
+	bool autorun, yes, json, show_fit, resume;
+	hb_inspect_part_policy part_fault;
+} inspect_args;
+
+/* Where the serial numbers come from, and the prompt's streams. */
+typedef struct unit_source {
+	char **serials;
+	size_t n_serials;
+	const char *serials_file;
+	const char *first_serial;
+	bool autorun;
+	hb_inspect_part_policy part_fault;
+	FILE *in, *prompt;
+} unit_source;
+
+static int parse_test_level(const char *text, hb_sweep_plan *plan)
+{
+	char err[200];
+	double v;
+	bool amps = strpbrk(text, "Aa") != NULL;
+	if (!amps && hb_parse_value(text, "V", &v, err, sizeof err) == HB_OK && v > 0 && v <= 20) {
+		plan->level_kind = HB_LEVEL_VOLTAGE;
+		plan->level = v;
+		return HB_OK;
+	}
+	if (amps && hb_parse_value(text, "A", &v, err, sizeof err) == HB_OK && v > 0 && v <= 1) {
+		plan->level_kind = HB_LEVEL_CURRENT;
+		plan->level = v;
+		return HB_OK;
+	}
+	hb_cli_error("--test-level '%s': accepted 1 mV to 20 V (e.g. 0.5V) or 1 uA to 1 A (e.g. 10mA)", text);
+	return HB_ERR_ARG;
+}
+
+static int parse_args(int argc, char **argv, inspect_args *a)
+{
+	memset(a, 0, sizeof *a);
+	hb_sweep_plan_defaults(&a->plan);
+	a->plan.kind = HB_SWEEP_BIAS;
+	a->aql = NAN;
+	a->lot_size = -1;
+	a->level = HB_LEVEL_II;
+	a->severity = HB_SEVERITY_NORMAL;
+	hb_sweep_opts_init(&a->opts);
+	hb_sweep_plan *p = &a->plan;
+	char series[200];
+	optind = 1;
+	opterr = 0;
+	int c;
+	while ((c = getopt_long(argc, argv, "h", long_options, NULL)) != -1) {
+		int rc = HB_OK;
+		switch (c) {
+		case OPT_PART: a->part = optarg; break;
+		case OPT_LOT: a->lot = optarg; break;
+		case OPT_LCR: a->lcr = optarg; break;
+		case OPT_SUPPLY: a->supply = optarg; break;
+		case OPT_SERIALS: a->serials_file = optarg; break;
+		case OPT_FIRST_SERIAL: a->first_serial = optarg; break;
+		case OPT_AUTO: a->autorun = true; break;
+		case OPT_RESUME: a->resume = true; break;
+		case OPT_PART_FAULT:
+			if (strcasecmp(optarg, "nonconforming") == 0)
+				a->part_fault = HB_INSPECT_PART_NONCONFORMING;
+			else if (strcasecmp(optarg, "retest") == 0)
+				a->part_fault = HB_INSPECT_PART_RETEST;
+			else {
+				hb_cli_error("--part-fault '%s' unknown (accepted: nonconforming, retest)", optarg);
+				rc = HB_ERR_ARG;
+			}
+			break;
+		case OPT_LOT_SIZE: rc = hb_opt_int("--lot-size", optarg, 2, 1000000000L, &a->lot_size); break;
+		case OPT_AQL:
+			rc = hb_opt_value("--aql", optarg, "", -INFINITY, INFINITY, &a->aql);
+			if (rc == HB_OK && hb_iso2859_aql_index(a->aql) < 0) {
+				hb_cli_error("--aql %s is not in the ISO 2859-1 series (accepted: %s)", optarg,
+					     hb_iso2859_aql_series_text(series, sizeof series));
+				rc = HB_ERR_ARG;
+			}
+			break;
+		case OPT_LEVEL:
+			if (hb_iso2859_parse_level(optarg, &a->level) != HB_OK) {
+				hb_cli_error("--level '%s' unknown (accepted: S-1, S-2, S-3, S-4, I, II, III)", optarg);
+				rc = HB_ERR_ARG;
+			}
+			break;
+		case OPT_SEVERITY:
+			if (hb_iso2859_parse_severity(optarg, &a->severity) != HB_OK) {
+				hb_cli_error("--severity '%s' unknown (accepted: normal, tightened, reduced)", optarg);
+				rc = HB_ERR_ARG;
+			}
+			break;
+		case OPT_FROM: rc = hb_opt_value("--from", optarg, "A", 0, 1000, &p->from); break;
+		case OPT_TO:
+			rc = hb_opt_value("--to", optarg, "A", 1e-6, 1000, &p->to);
+			a->to_given = true;
+			break;
+		case OPT_SPACING: rc = hb_sweep_opts_parse_spacing(optarg, &p->spacing); break;
+		case OPT_TEST_LEVEL:
+			rc = parse_test_level(optarg, p);
+			a->opts.level_given = true;
+			break;
+		case OPT_YES: a->yes = true; break;
+		case OPT_SHOW_FIT: a->show_fit = true; break;
+		case OPT_JSON: a->json = true; break;
+		case OPT_HELP:
+		case 'h':
+			inspect_usage(stdout);
+			return 1;
+		default:
+			if (hb_sweep_opts_parse(c, optarg, p, &a->opts, &rc))
+				break;
+			hb_cli_error("inspect: unknown or incomplete option '%s' (try --help)", argv[optind - 1]);
+			return HB_ERR_ARG;
+		}
+		if (rc != HB_OK)
+			return HB_ERR_ARG;
+	}
+	if (optind < argc) {
+		hb_cli_error("inspect: unexpected argument '%s' (try --help)", argv[optind]);
+		return HB_ERR_ARG;
+	}
+	const char *missing = !a->part ? "--part P" : !a->lot ? "--lot CODE" : a->lot_size < 0 ? "--lot-size N" :
+			      isnan(a->aql) ? "--aql AQL" : !a->lcr ? "--lcr RESOURCE" : !a->supply ? "--supply RESOURCE" :
+			      NULL;
+	if (missing) {
+		hb_cli_error("inspect: %s is required (try --help)", missing);
+		return HB_ERR_ARG;
+	}
+	if (a->serials_file && a->first_serial) {
+		hb_cli_error("inspect: give --serials FILE or --first-serial S, not both");
+		return HB_ERR_ARG;
+	}
+	if (a->autorun && !a->serials_file && !a->first_serial) {
+		hb_cli_error("inspect: --auto needs --serials FILE or --first-serial S (nobody types serials)");
+		return HB_ERR_ARG;
+	}
+	return HB_OK;
+}
+
+static char *trim(char *s)
+{
+	while (*s == ' ' || *s == '\t')
+		s++;
+	size_t n = strlen(s);
+	while (n > 0 && (s[n - 1] == '\n' || s[n - 1] == '\r' || s[n - 1] == ' ' || s[n - 1] == '\t'))
+		s[--n] = 0;
+	return s;
+}
+
+static void free_serials(unit_source *src)
+{
+	for (size_t i = 0; i < src->n_serials; i++)
+		free(src->serials[i]);
+	free(src->serials);
+	src->serials = NULL;
+	src->n_serials = 0;
+}
+
+/* One serial a line; blank lines and lines starting with '#' are ignored. */
+static int load_serials(const char *path, unit_source *src)
+{
+	FILE *f = fopen(path, "r");
+	if (!f) {
+		hb_cli_error("--serials %s: cannot open: %s", path, strerror(errno));
+		return HB_ERR_IO;
+	}
+	char line[512];
+	size_t cap = 0;
+	int rc = HB_OK;
+	unsigned lineno = 0;
+	while (fgets(line, sizeof line, f)) {
+		lineno++;
+		char *s = trim(line);
+		if (!*s || *s == '#')
+			continue;
+		if (strlen(s) >= HB_DB_ID_LEN) {
+			hb_cli_error("%s:%u: serial '%s' is longer than %d characters", path, lineno, s, HB_DB_ID_LEN - 1);
+			rc = HB_ERR_ARG;
+			break;
+		}
+		if (src->n_serials == cap) {
+			size_t ncap = cap ? cap * 2 : 64;
+			char **grown = realloc(src->serials, ncap * sizeof *grown);
+			if (!grown) {
+				rc = HB_ERR_NOMEM;
+				break;
+			}
+			src->serials = grown;
+			cap = ncap;
+		}
+		src->serials[src->n_serials] = strdup(s);
+		if (!src->serials[src->n_serials]) {
+			rc = HB_ERR_NOMEM;
+			break;
+		}
+		src->n_serials++;
+	}
+	if (rc == HB_OK && ferror(f)) {
+		hb_cli_error("--serials %s: read error", path);
+		rc = HB_ERR_IO;
+	}
+	fclose(f);
+	if (rc == HB_OK && src->n_serials == 0) {
+		hb_cli_error("--serials %s: no serial numbers in the file", path);
+		rc = HB_ERR_ARG;
+	}
+	return rc;
+}
+
+/* The serial the source names for a sample position; empty when none. */
+static void proposed_serial(const unit_source *src, int sequence, char *serial, size_t cap)
+{
+	serial[0] = 0;
+	if (src->serials && (size_t)sequence <= src->n_serials)
+		snprintf(serial, cap, "%s", src->serials[sequence - 1]);
+	else if (src->first_serial && hb_inspect_serial_nth(src->first_serial, sequence - 1, serial, cap) != HB_OK)
+		serial[0] = 0;
+}
+
+static hb_inspect_action next_unit(void *ctx, int sequence, const char *complaint, char *serial, size_t cap)
+{
+	unit_source *src = ctx;
+	char proposal[HB_DB_ID_LEN];
+	proposed_serial(src, sequence, proposal, sizeof proposal);
+	if (src->autorun) {
+		if (complaint) {
+			hb_cli_error("unit %d: %s", sequence, complaint);
+			return HB_INSPECT_PAUSE;
+		}
+		if (!proposal[0]) {
+			hb_cli_error("the serial list %s ends before sample position %d", src->serials_file, sequence);
+			return HB_INSPECT_PAUSE;
+		}
+		snprintf(serial, cap, "%s", proposal);
+		return HB_INSPECT_MEASURE;
+	}
+	if (complaint)
+		fprintf(src->prompt, "  %s: name another unit\n", complaint);
+	if (proposal[0])
+		fprintf(src->prompt, "unit #%d, serial %s: place it in the fixture and press Enter\n"
+				     "  (or type its real serial; s = skip, could not be tested; q = pause): ",
+			sequence, proposal);
+	else
+		fprintf(src->prompt, "unit #%d: place it in the fixture, then type or scan its serial (s = skip, q = pause): ",
+			sequence);
+	fflush(src->prompt);
+	char line[256];
+	if (!fgets(line, sizeof line, src->in)) {
+		fputc('\n', src->prompt);
+		return HB_INSPECT_PAUSE;
+	}
+	/* Answers from a pipe are not echoed: keep the log readable. */
+	if (!isatty(fileno(src->in)))
+		fputc('\n', src->prompt);
+	char *s = trim(line);
+	if (strcasecmp(s, "q") == 0)
+		return HB_INSPECT_PAUSE;
+	if (strcasecmp(s, "s") == 0) {
+		snprintf(serial, cap, "%s", proposal);
+		return HB_INSPECT_SKIP;
+	}
+	if (strlen(s) >= cap) {
+		snprintf(serial, cap, "%s", "");
+		return next_unit(ctx, sequence, "that serial is too long", serial, cap);
+	}
+	snprintf(serial, cap, "%s", *s ? s : proposal);
+	return HB_INSPECT_MEASURE;
+}
+
+/* Only for a unit the part kept from being measured: a loose contact looks
+ * like a high-resistance winding, so the operator may re-seat and retry
+ * before the policy applies. No skip: replacing a unit that would not
+ * measure by the next one would bias the sample toward acceptance. */
+static hb_inspect_action sweep_failed(void *ctx, int sequence, const char *serial, const hb_sweep_result *r)
+{
+	unit_source *src = ctx;
+	if (src->autorun)
+		return HB_INSPECT_RECORD;
+	fprintf(src->prompt, "unit #%d (%s) could not be measured because of the part: %s\n", sequence, serial, r->reason);
+	for (;;) {
+		fprintf(src->prompt, "  Enter = %s, r = retry (re-seat it first), q = pause: ",
+			src->part_fault == HB_INSPECT_PART_RETEST ? "leave it for a retest (pauses)" : "record it NONCONFORMING");
+		fflush(src->prompt);
+		char line[64];
+		if (!fgets(line, sizeof line, src->in)) {
+			fputc('\n', src->prompt);
+			return HB_INSPECT_PAUSE;
+		}
+		if (!isatty(fileno(src->in)))
+			fputc('\n', src->prompt);
+		char *s = trim(line);
+		if (!*s)
+			return HB_INSPECT_RECORD;
+		if (strcasecmp(s, "r") == 0)
+			return HB_INSPECT_RETRY;
+		if (strcasecmp(s, "q") == 0)
+			return HB_INSPECT_PAUSE;
+	}
+}
+
+static int confirm(const inspect_args *a, const hb_station *st, const unit_source *src)
+{
+	char question[160];
+	snprintf(question, sizeof question,
+		 "Each unit is swept to %.4g A, above this station's threshold of %.4g A. Type 'yes' to go on: ",
+		 a->plan.to, st->confirm_above);
+	/* With --auto nobody is there to answer. */
+	return hb_sweep_opts_confirm(st, a->plan.to, a->yes, !a->autorun && isatty(fileno(src->in)), src->in,
+				     src->prompt, question);
+}
+
+int hb_cmd_inspect(int argc, char **argv)
+{
+	inspect_args a;
+	int rc = parse_args(argc, argv, &a);
+	if (rc == 1)
+		return HB_EXIT_OK;
+	if (rc != HB_OK)
+		return HB_EXIT_USAGE;
+
+	int exit_code = HB_EXIT_RUNTIME;
+	hb_db *db = NULL;
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	unit_source src = { .serials_file = a.serials_file, .first_serial = a.first_serial, .autorun = a.autorun,
+			    .part_fault = a.part_fault, .in = stdin, .prompt = stderr };
+	char err[320];
+	hb_station station;
+	if (hb_station_load(&station, err, sizeof err) != HB_OK) {
+		hb_cli_error("%s", err);
+		return HB_EXIT_USAGE;
+	}
+	if (a.serials_file && load_serials(a.serials_file, &src) != HB_OK) {
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	}
+	hb_sampling_plan check_plan;
+	if (hb_iso2859_plan(a.lot_size, a.aql, a.level, a.severity, &check_plan, err, sizeof err) != HB_OK) {
+		hb_cli_error("inspect: %s", err);
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	}
+	hb_db_part part;
+	rc = hb_sweep_opts_open_part(a.part, &db, &part);
+	if (rc != HB_EXIT_OK) {
+		exit_code = rc;
+		goto out;
+	}
+	/* Judging needs the spec's own test conditions, and a sweep a little
+	 * past the saturation-spec current so L there is interpolated, not
+	 * extrapolated. */
+	hb_sweep_opts_apply_conditions(&a.opts, &part, &a.plan);
+	if (!a.to_given) {
+		double spec = isfinite(part.sat_current_a) && part.sat_current_a > 0 ? part.sat_current_a :
+			      isfinite(part.rated_current_a) && part.rated_current_a > 0 ? part.rated_current_a : NAN;
+		if (isnan(spec)) {
+			hb_cli_error("part %s has no saturation or rated current: give --to A", part.part_number);
+			exit_code = HB_EXIT_USAGE;
+			goto out;
+		}
+		a.plan.to = 1.25 * spec;
+	}
+	/* The same resolution as a sweep: the command line may only tighten,
+	 * and a refusal names where a cap comes from. */
+	hb_limit_report limits;
+	rc = hb_sweep_opts_resolve(&a.opts, &station, &part, &a.plan, &limits, err, sizeof err);
+	if (rc == HB_ERR_ARG) {
+		hb_cli_error("inspect: %s", err);
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	}
+	if (rc == HB_OK)
+		rc = hb_sweep_plan_check(&a.plan, true, err, sizeof err);
+	if (rc != HB_OK) {
+		hb_cli_error("refusing to start: %s", err);
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	}
+	if (confirm(&a, &station, &src) != HB_OK) {
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	}
+	FILE *info = a.json ? stderr : stdout;
+
+	hb_sweep_install_signals();
+	hb_sweep_clear_signal();
+	rc = hb_sweep_opts_open_bench(info, a.lcr, a.supply, &lcr, &supply);
+	if (rc != HB_EXIT_OK) {
+		exit_code = rc;
+		goto out;
+	}
+	if (hb_sweep_opts_check_meter(lcr, &a.plan) != HB_OK) {
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	}
+	fprintf(info, "part %s, lot %s: each unit swept 0 to %.4g A in %d points at %s\n", part.part_number, a.lot,
+		a.plan.to, a.plan.steps, hb_format_si(err, sizeof err, a.plan.frequency, "Hz", 4));
+	/* Once for the whole lot: the same current flows through every unit. */
+	hb_sweep_print_cautions(info, isfinite(part.nominal_h) ? part.nominal_h : 0, a.plan.to, a.plan.limits.max_voltage);
+
+	hb_inspect_config cfg;
+	hb_inspect_config_init(&cfg);
+	cfg.db = db;
+	cfg.lcr = lcr;
+	cfg.supply = supply;
+	cfg.station = &station;
+	cfg.part = &part;
+	cfg.lot_code = a.lot;
+	cfg.lot_size = a.lot_size;
+	cfg.aql = a.aql;
+	cfg.level = a.level;
+	cfg.severity = a.severity;
+	cfg.plan = a.plan;
+	cfg.ambient_c = a.opts.ambient_c;
+	cfg.out = info;
+	cfg.progress = info;
+	cfg.progress_tty = isatty(fileno(info));
+	cfg.verbose_fit = a.show_fit;
+	cfg.part_fault = a.part_fault;
+	cfg.resume_only = a.resume;
+	hb_inspect_callbacks cb = { .ctx = &src, .next_unit = next_unit, .sweep_failed = sweep_failed };
+	hb_inspect_result res;
+	rc = hb_inspect_run(&cfg, &cb, &res);
+	if (res.current_may_flow)
+		hb_session_warn_current_may_flow(stderr);
+	if (rc != HB_OK) {
+		hb_cli_error("inspect: %s", res.message);
+		exit_code = rc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
+		goto out;
+	}
+	if (res.end == HB_INSPECT_ALREADY_DECIDED)
+		fprintf(info, "%s; nothing measured\n", res.message);
+	if (a.json) {
+		/* The exit code is the lot's, not the printout's. */
+		(void)hb_print_json(hb_inspect_lot_json(db, res.lot_id, &res));
+	}
+	if (res.end == HB_INSPECT_PAUSED) {
+		/* The pause line went to the output; a sick bench or a limit also
+		 * gets one line on stderr, where a script or a log looks. */
+		if (res.pause_cause == HB_CAUSE_BENCH || res.pause_cause == HB_CAUSE_LIMIT)
+			hb_cli_error("inspect: lot %s paused at sample position %d: %s", a.lot, res.pause_sequence,
+				     res.message);
+		exit_code = res.signal_number == SIGINT ? HB_EXIT_SIGINT :
+			    res.signal_number ? 128 + res.signal_number : HB_EXIT_RUNTIME;
+	}
+	else
+		exit_code = HB_EXIT_OK;
+out:
+	/* The engine switched the output off on every path that switched it on. */
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+	hb_db_close(db);
+	free_serials(&src);
+	hb_sweep_restore_signals();
+	return exit_code;
+}

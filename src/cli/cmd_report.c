@@ -1,0 +1,120 @@
+/* src/cli/cmd_report.c - command `report`: a filed HTML record of one sweep, one lot or one part */
+#include <errno.h>
+#include <getopt.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#include "../../db/hb_db.h"
+#include "cli.h"
+#include "../report/report.h"
+
+static void usage(FILE *out)
+{
+	fprintf(out,
+		"usage: henrybench report SWEEP_ID --out FILE.html\n"
+		"       henrybench report --lot LOT [--part P] --out FILE.html\n"
+		"       henrybench report --part P --out FILE.html\n\n"
+		"Writes one self-contained HTML page (figures inline, nothing fetched) that prints\n"
+		"as an engineering record: a sweep with its settings, instruments, verdicts, fit\n"
+		"values and plots; an inspected lot with its plan, units, decision and statistics;\n"
+		"or a part's history with per-lot statistics and the L0 trend.\n\n"
+		"  --lot LOT     lot code (add --part when several parts use the code)\n"
+		"  --part P      part number\n"
+		"  --out FILE    the page to write ('-' = standard output)\n");
+}
+
+int hb_cmd_report(int argc, char **argv)
+{
+	static const struct option options[] = {
+		{ "lot", required_argument, NULL, 'l' },
+		{ "part", required_argument, NULL, 'p' },
+		{ "out", required_argument, NULL, 'o' },
+		{ "help", no_argument, NULL, 'h' },
+		{ NULL, 0, NULL, 0 },
+	};
+	const char *lot = NULL, *part = NULL, *out_path = NULL;
+	optind = 1;
+	opterr = 0;
+	int c;
+	while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
+		switch (c) {
+		case 'l': lot = optarg; break;
+		case 'p': part = optarg; break;
+		case 'o': out_path = optarg; break;
+		case 'h': usage(stdout); return HB_EXIT_OK;
+		default:
+			hb_cli_error("report: unknown or incomplete option '%s' (try 'henrybench report --help')",
+				     argv[optind - 1]);
+			return HB_EXIT_USAGE;
+		}
+	}
+	long long sweep_id = 0;
+	if (optind < argc) {
+		if (lot || part || optind + 1 < argc) {
+			hb_cli_error("report: give one SWEEP_ID, or --lot / --part, not both");
+			return HB_EXIT_USAGE;
+		}
+		if (hb_cli_parse_sweep_id(argv[optind], &sweep_id) != HB_OK)
+			return HB_EXIT_USAGE;
+	} else if (!lot && !part) {
+		hb_cli_error("report needs a SWEEP_ID, --lot LOT or --part P (try 'henrybench report --help')");
+		return HB_EXIT_USAGE;
+	}
+	if (!out_path || !*out_path) {
+		hb_cli_error("report needs --out FILE.html ('-' for standard output)");
+		return HB_EXIT_USAGE;
+	}
+
+	hb_db *db = NULL;
+	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
+		hb_cli_error("%s", db ? hb_db_errmsg(db) : "out of memory");
+		hb_db_close(db);
+		return HB_EXIT_RUNTIME;
+	}
+	/* Written beside the target and renamed, so a failed run never leaves
+	 * half a record where a complete one is expected. */
+	bool to_stdout = strcmp(out_path, "-") == 0;
+	char tmp[4096];
+	snprintf(tmp, sizeof tmp, "%s.tmp%ld", out_path, (long)getpid());
+	FILE *out = to_stdout ? stdout : fopen(tmp, "w");
+	if (!out) {
+		hb_cli_error("cannot write %s: %s", tmp, strerror(errno));
+		hb_db_close(db);
+		return HB_EXIT_RUNTIME;
+	}
+	char err[300] = "";
+	int rc;
+	if (sweep_id > 0)
+		rc = hb_report_sweep(db, (int64_t)sweep_id, out, err, sizeof err);
+	else if (lot)
+		rc = hb_report_lot(db, part, lot, out, err, sizeof err);
+	else
+		rc = hb_report_part(db, part, out, err, sizeof err);
+	hb_db_close(db);
+	if (to_stdout) {
+		if (fflush(stdout) != 0 && rc == HB_OK) {
+			rc = HB_ERR_IO;
+			snprintf(err, sizeof err, "write to standard output failed");
+		}
+	} else {
+		if (fclose(out) != 0 && rc == HB_OK) {
+			rc = HB_ERR_IO;
+			snprintf(err, sizeof err, "cannot write %s: %s", tmp, strerror(errno));
+		}
+		if (rc == HB_OK && rename(tmp, out_path) != 0) {
+			rc = HB_ERR_IO;
+			snprintf(err, sizeof err, "cannot rename %s to %s: %s", tmp, out_path, strerror(errno));
+		}
+		if (rc != HB_OK)
+			unlink(tmp);
+	}
+	if (rc != HB_OK) {
+		hb_cli_error("report: %s", err[0] ? err : hb_status_name(rc));
+		return rc == HB_ERR_ARG || rc == HB_ERR_NOTFOUND ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
+	}
+	if (!to_stdout)
+		printf("report written: %s\n", out_path);
+	return HB_EXIT_OK;
+}

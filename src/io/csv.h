@@ -1,0 +1,35 @@
+/* src/io/csv.h - the RFC 4180 reader inside the io room: records with the line each starts on */
+#ifndef HB_IO_CSV_H
+#define HB_IO_CSV_H
+
+#include <stddef.h>
+
+/*
+ * A small reader of our own: Debian's libcsv ships no pkg-config file, and
+ * the one thing the import needs beyond it - the line each record starts
+ * on, for the error messages - is most of the work anyway.
+ */
+
+/* A meter log bigger than this is not one sweep. */
+enum { MAX_IMPORT_BYTES = 64 << 20, MAX_IMPORT_ROWS = 100000 };
+
+typedef struct csv_record {
+	int line;       /* physical line the record starts on, 1-based */
+	size_t nf;
+	char **field;   /* NUL-terminated copies */
+} csv_record;
+
+typedef struct csv_table {
+	size_t n, cap;
+	csv_record *rec;
+} csv_table;
+
+void csv_table_free(csv_table *t);
+/* The delimiter of the header line: tab, semicolon or comma, whichever is
+ * most frequent outside quotes (comma on a tie). */
+char csv_detect_delimiter(const char *s, size_t len);
+/* Parses s into t (records of NUL-terminated fields); HB_ERR_ARG with a
+ * one-line err naming the line for malformed quoting or too many rows. */
+int csv_parse(const char *s, size_t len, char delim, csv_table *t, char *err, size_t errlen);
+
+#endif

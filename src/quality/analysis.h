@@ -1,0 +1,91 @@
+/* src/quality/analysis.h - fits a stored sweep, stores the fit and judges the unit against its part's spec */
+#ifndef HB_ANALYSIS_H
+#define HB_ANALYSIS_H
+
+#include <stdbool.h>
+#include <stdint.h>
+#include <stdio.h>
+
+#include <jansson.h>
+
+#include "../../db/hb_db.h"
+#include "../../fit/hb_fit.h"
+#include "rules.h"
+
+typedef struct hb_analysis_options {
+	double noise_rel;          /* relative reading noise from the sweep; 0 = let the fit estimate it */
+	size_t n_drops;            /* 0 = 10, 20, 30 % */
+	double drops[HB_FIT_MAX_FRACTIONS];
+	bool knee, core;           /* which models to fit (both by default) */
+	double fix_mu_i, fix_gap, fix_bsat; /* NAN = fitted */
+	bool store;                /* store the fit and verdicts (default true) */
+} hb_analysis_options;
+
+enum { HB_ANALYSIS_MAX_CHECKS = 4 };
+
+typedef struct hb_analysis_check {
+	char name[16];             /* "L0", "Lsat", "DCR" */
+	char unit[8];
+	hb_check check;
+	char note[160];
+} hb_analysis_check;
+
+typedef struct hb_analysis_summary {
+	bool ran;
+	int64_t sweep_id, fit_id;
+	hb_db_sweep_kind kind;
+	int fit_status;
+	hb_fit_bias_result bias;   /* bias sweeps */
+	hb_fit_freq_result freq;   /* frequency sweeps */
+	double dcr_ohm;            /* the meter's reading, else the supply's V/I (two-wire, leads in); NAN if none */
+	bool dcr_from_meter;
+	double cp_farad;           /* winding capacitance the core fit corrected for, NAN if none */
+	int64_t cp_sweep_id;       /* the frequency sweep it came from */
+	bool knee_diagnosed, core_diagnosed; /* a flagged model's misfit was traced to a cause */
+	hb_misfit_diag knee_diag, core_diag;
+	size_t n_checks;
+	hb_analysis_check checks[HB_ANALYSIS_MAX_CHECKS];
+	hb_overall overall;
+	char message[256];
+} hb_analysis_summary;
+
+void hb_analysis_options_init(hb_analysis_options *opt);
+/* Reads the sweep and its points, fits, stores fit and verdicts. HB_OK when
+ * the fit ran (the summary then says how well). */
+int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *opt, hb_analysis_summary *out);
+void hb_analysis_print(FILE *out, const hb_analysis_summary *summary);
+json_t *hb_analysis_summary_json(const hb_analysis_summary *summary);
+
+/* Why a stored fit value has no number (value NULL: "beyond the data
+ * (highest bias 2.00 A)") or no standard error ("not determined by these
+ * data"); NULL when it has both. Rebuilt from the stored I_max, the
+ * undetermined bits and the flags, as the store keeps no reason column. */
+const char *hb_analysis_value_reason(const hb_db_fit *fit, const hb_db_fit_value *v, char *buf, size_t cap);
+/* True when the value comes from a model whose residuals exceed the reading
+ * noise (flags "knee-misfit" / "no-law-fits"); *noise_ratio (may be NULL)
+ * gets that model's residual rms over the noise. */
+bool hb_analysis_value_misfit(const hb_db_fit *fit, const char *name, double *noise_ratio);
+
+enum { HB_ANALYSIS_LINE = 200 };
+/* The residual warning of a misfitting model ("knee model", "core model"),
+ * naming every cause checked and its outcome: returns the line count. */
+size_t hb_analysis_misfit_lines(const char *model, const hb_misfit_diag *d, char lines[4][HB_ANALYSIS_LINE]);
+/* The stored diagnosis of "knee" or "core" (flags "<which>-cause:<cause>" and
+ * values "<which>.misfit.*_ratio"); false when none was stored. Point counts
+ * are not stored (0). */
+bool hb_analysis_stored_diag(const hb_db_fit *fit, const char *which, hb_misfit_diag *d);
+
+/* One value as JSON, the one shape every output uses:
+ * {"value": 3.7 | null, "std_err": 0.02 | null, "unit": "A",
+ *  "reason": "beyond the data (highest bias 2.00 A)"   (only when value or std_err is null for a reason),
+ *  "misfit": true                                     (only for a model whose residuals exceed the noise)} */
+json_t *hb_analysis_value_object(double value, double std_err, const char *unit, const char *reason, bool misfit);
+json_t *hb_analysis_value_json(const hb_fit_value *v);
+
+/* The up-going points of a bias sweep with a finite reading, in strictly
+ * increasing current (measured where the supply reported it). Caller frees
+ * *current and *inductance. */
+int hb_analysis_bias_arrays(const hb_db_point *points, size_t n, double **current, double **inductance,
+			    size_t *count);
+
+#endif

@@ -1,0 +1,360 @@
+/* src/quality/analysis_print.c - a sweep's analysis told: text for the operator, JSON for scripts */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "analysis.h"
+#include "../../common/hb_text.h"
+
+static void print_value(FILE *out, const char *label, double v, double se, const char *unit)
+{
+	char a[40], b[40];
+	if (!isfinite(v)) {
+		fprintf(out, "  %-28s -\n", label);
+		return;
+	}
+	/* A pure number reads better without an SI prefix (2300, not 2.3 k). */
+	if (!*unit) {
+		snprintf(a, sizeof a, "%.6g", v);
+		snprintf(b, sizeof b, "%.2g", se);
+	} else {
+		hb_format_si(a, sizeof a, v, unit, 5);
+		hb_format_si(b, sizeof b, se, unit, 2);
+	}
+	if (isfinite(se) && se > 0)
+		fprintf(out, "  %-28s %s  +- %s\n", label, a, b);
+	else
+		fprintf(out, "  %-28s %s\n", label, a);
+}
+
+size_t hb_analysis_misfit_lines(const char *model, const hb_misfit_diag *d, char lines[4][HB_ANALYSIS_LINE])
+{
+	snprintf(lines[0], HB_ANALYSIS_LINE,
+		 "residuals of the %s are %.1f x the reading noise; causes checked, in order:", model, d->noise_ratio);
+	char pc[32] = "", ph[32] = "";
+	if (d->current_points)
+		snprintf(pc, sizeof pc, " (%zu points)", d->current_points);
+	if (d->heating_points)
+		snprintf(ph, sizeof ph, " (%zu points)", d->heating_points);
+	if (!isfinite(d->current_ratio))
+		snprintf(lines[1], HB_ANALYSIS_LINE,
+			 "1. current moving during the readings: not checked (no bias spread stored for these points)");
+	else
+		snprintf(lines[1], HB_ANALYSIS_LINE,
+			 "1. current moving during the readings: bias spread x |dL/dI| is %.2g x the residuals%s: %s",
+			 d->current_ratio, pc,
+			 d->cause == HB_MISFIT_CURRENT_MOVED ? "THE CAUSE - the current moved while the meter read; "
+							       "re-measure with the bias settled" : "not the cause");
+	if (d->cause == HB_MISFIT_CURRENT_MOVED)
+		snprintf(lines[2], HB_ANALYSIS_LINE, "2. heating: not needed (the current's movement explains the residuals)");
+	else if (!isfinite(d->heating_ratio))
+		snprintf(lines[2], HB_ANALYSIS_LINE, "2. heating: not checked (no falling-bias points to compare)");
+	else
+		snprintf(lines[2], HB_ANALYSIS_LINE,
+			 "2. heating: the falling-bias readings differ from the rising ones by %.2g x the residuals%s: %s",
+			 d->heating_ratio, ph,
+			 d->cause == HB_MISFIT_HEATING ? "THE CAUSE - the part warmed during the sweep" : "not the cause");
+	if (d->cause == HB_MISFIT_LAW)
+		snprintf(lines[3], HB_ANALYSIS_LINE,
+			 "3. law mismatch: what remains - the %s does not follow this part; rely on the model-free values", model);
+	else
+		snprintf(lines[3], HB_ANALYSIS_LINE, "3. law mismatch: not blamed (a measurement cause explains the residuals)");
+	return 4;
+}
+
+static void print_misfit(FILE *out, const char *model, const hb_misfit_diag *d)
+{
+	char lines[4][HB_ANALYSIS_LINE];
+	size_t k = hb_analysis_misfit_lines(model, d, lines);
+	for (size_t i = 0; i < k; i++)
+		fprintf(out, "  %s%s\n", i ? "  " : "", lines[i]);
+}
+
+/* A value shown without a standard error, with the reason there is none. */
+static void print_reason(FILE *out, const char *label, double v, const char *unit, const char *reason)
+{
+	char a[40];
+	if (!isfinite(v)) {
+		fprintf(out, "  %-28s %s\n", label, reason);
+		return;
+	}
+	if (!*unit)
+		snprintf(a, sizeof a, "%.6g", v);
+	else
+		hb_format_si(a, sizeof a, v, unit, 5);
+	fprintf(out, "  %-28s %s  (%s)\n", label, a, reason);
+}
+
+void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
+{
+	if (!s->ran)
+		return;
+	fprintf(out, "fit of sweep %lld (stored as fit %lld, %s):\n", (long long)s->sweep_id, (long long)s->fit_id,
+		HB_FIT_CODE_VERSION);
+	if (s->kind == HB_DB_SWEEP_FREQUENCY) {
+		const hb_fit_freq_result *q = &s->freq;
+		if (s->fit_status != HB_OK) {
+			fprintf(out, "  %s\n", s->message);
+			return;
+		}
+		print_value(out, "L (low-frequency)", q->param[HB_FREQ_L], q->std_err[HB_FREQ_L], "H");
+		print_value(out, "R (series)", q->param[HB_FREQ_R], q->std_err[HB_FREQ_R], "ohm");
+		print_value(out, "C (parallel)", q->param[HB_FREQ_C], q->std_err[HB_FREQ_C], "F");
+		print_value(out, "self-resonance", q->srf, q->srf_se, "Hz");
+		print_value(out, "Q highest measured (X/R)", q->q_max, NAN, "");
+		print_value(out, "  at", q->q_max_freq, NAN, "Hz");
+		print_value(out, "L within 5 % from", q->band_lo, NAN, "Hz");
+		print_value(out, "  up to", q->band_hi, NAN, "Hz");
+		return;
+	}
+	const hb_fit_bias_result *b = &s->bias;
+	const hb_fit_modelfree_result *mf = &b->modelfree;
+	fprintf(out, "  (%s)\n", HB_FIT_INCREMENTAL_NOTE);
+	if (s->fit_status != HB_OK && !isfinite(mf->L0)) {
+		fprintf(out, "  %s\n", s->message);
+		return;
+	}
+	print_value(out, mf->cp_corrected ? "L0 (zero bias, as read)" : "L0 (zero bias)", mf->L0, mf->L0_std_err, "H");
+	char beyond[72];
+	snprintf(beyond, sizeof beyond, HB_FIT_REASON_BEYOND " (highest bias %#.3g A)", mf->I_max);
+	if (mf->cp_corrected) {
+		char cbuf[32];
+		fprintf(out, "  (drop currents from the part's own L: readings corrected for the winding capacitance\n"
+			     "   %s from frequency sweep %lld; cp_corrected: true)\n",
+			hb_format_si(cbuf, sizeof cbuf, s->cp_farad, "F", 3), (long long)s->cp_sweep_id);
+		print_value(out, "L0 of the part (Cp removed)", mf->L0_part, mf->L0_part_std_err, "H");
+	} else {
+		fprintf(out, "  (no winding capacitance known for this unit: drop currents from the readings as they are;\n"
+			     "   cp_corrected: false)\n");
+	}
+	for (size_t i = 0; i < mf->n_drops; i++) {
+		char label[48];
+		snprintf(label, sizeof label, "current at -%g %% L", mf->drop[i].fraction * 100);
+		if (mf->drop[i].reached)
+			print_value(out, label, mf->drop[i].current, mf->drop[i].std_err, "A");
+		else
+			fprintf(out, "  %-28s %s\n", label, beyond);
+	}
+	if (b->knee_status == HB_OK) {
+		const hb_fit_knee_result *k = &b->knee;
+		bool misfit = k->flags & HB_KNEE_MISFIT;
+		/* a misfitting model's numbers never stand unmarked beside the measured ones */
+		const char *tag = misfit ? "knee model (MISFIT):" : "knee model:";
+		if (misfit)
+			fprintf(out, "  knee model MISFIT: residuals %.1f x the reading noise; its values do not describe "
+				     "this part\n", k->noise_ratio);
+		char label[64];
+		snprintf(label, sizeof label, "%s knee current", tag);
+		if (isfinite(k->knee_current))
+			print_value(out, label, k->knee_current, NAN, "A");
+		else
+			fprintf(out, "  %-28s %s\n", label, beyond);
+		snprintf(label, sizeof label, "%s floor Lf", tag);
+		if (k->flags & HB_KNEE_FLOOR_HELD)
+			print_reason(out, label, k->param[HB_KNEE_LF], "H", HB_FIT_REASON_FLOOR_HELD);
+		else if (k->undetermined & (1u << HB_KNEE_LF))
+			print_reason(out, label, k->param[HB_KNEE_LF], "H", HB_FIT_REASON_UNDETERMINED);
+		else
+			print_value(out, label, k->param[HB_KNEE_LF], k->std_err[HB_KNEE_LF], "H");
+	}
+	if (b->core_status == HB_OK) {
+		const hb_fit_core_result *c = &b->core;
+		const hb_fit_core_law_result *lr = &c->law[c->best];
+		fprintf(out, "  core model, law chosen by AICc: %s (", hb_core_law_name(c->best));
+		for (int l = 0; l < HB_CORE_NLAWS; l++)
+			if (c->law[l].status == HB_OK)
+				fprintf(out, "%s%s %.1f", l ? ", " : "", hb_core_law_name((hb_core_law)l), c->law[l].aicc);
+		fprintf(out, ")\n");
+		if (c->flags & HB_CORE_NO_LAW_FITS)
+			fprintf(out, "  core model MISFIT: residuals %.1f x the reading noise; its values (marked) do not "
+				     "describe this part\n", c->noise_ratio);
+		if (isfinite(s->cp_farad)) {
+			char cbuf[32];
+			fprintf(out, "  corrected for the winding capacitance %s (frequency sweep %lld)\n",
+				hb_format_si(cbuf, sizeof cbuf, s->cp_farad, "F", 3), (long long)s->cp_sweep_id);
+		}
+		bool mis = c->flags & HB_CORE_NO_LAW_FITS;
+		static const char *const plabel[] = { "mu_i (material)", "gap, magnetic (effective)",
+						      "Js (saturation polarisation)" };
+		static const char *const punit[] = { "", "m", "T" };
+		for (int j = 0; j < HB_CORE_NP; j++) {
+			char label[64];
+			snprintf(label, sizeof label, "%s%s", plabel[j], mis ? " (misfit)" : "");
+			if (lr->undetermined & (1u << j))
+				print_reason(out, label, lr->param[j], punit[j], HB_FIT_REASON_UNDETERMINED);
+			else
+				print_value(out, label, lr->param[j], lr->std_err[j], punit[j]);
+			if (j == HB_CORE_GAP) {
+				snprintf(label, sizeof label, "gap, physical (fringing)%s", mis ? " (misfit)" : "");
+				if (lr->undetermined & (1u << HB_CORE_GAP))
+					print_reason(out, label, c->gap_physical, "m", HB_FIT_REASON_UNDETERMINED);
+				else
+					print_value(out, label, c->gap_physical, c->gap_physical_se, "m");
+			}
+		}
+		print_value(out, "mu_e", c->mu_e, c->mu_e_se, "");
+		print_value(out, "AL", c->AL, c->AL_se, "H");
+		if (c->rated_current > mf->I_max)
+			fprintf(out, "  %-28s %s\n", "B peak at rated current", beyond);
+		else
+			print_value(out, mis ? "B peak at rated (misfit)" : "B peak at rated current", c->B_peak, c->B_peak_se,
+				    "T");
+		if (lr->undetermined) {
+			fprintf(out, "  not determined by these data:");
+			static const char *names[] = { "mu_i", "gap", "Js" };
+			for (int j = 0; j < HB_CORE_NP; j++)
+				if (lr->undetermined & (1u << j))
+					fprintf(out, " %s", names[j]);
+			fprintf(out, " (the sweep may not reach the knee; mu_e and AL still hold)\n");
+		}
+	}
+	if (b->rated_current > mf->I_max && isfinite(b->H_rated))
+		fprintf(out, "  %-28s %s\n", "applied N I / le at rated", beyond);
+	else if (isfinite(b->H_rated))
+		/* N I / le is what the winding applies per path length; the core
+		 * itself sees less when a gap takes its share */
+		print_value(out, "applied N I / le at rated", b->H_rated, NAN, "A/m");
+	if (b->core_status == HB_OK) {
+		const hb_fit_core_result *c = &b->core;
+		if (c->rated_current > mf->I_max)
+			fprintf(out, "  %-28s %s\n", "core field H at rated (model)", beyond);
+		else
+			print_value(out, c->flags & HB_CORE_NO_LAW_FITS ? "core field H (model, misfit)" :
+				    "core field H at rated (model)", c->H_core_rated, NAN, "A/m");
+	}
+	if (s->knee_diagnosed)
+		print_misfit(out, "knee model", &s->knee_diag);
+	if (s->core_diagnosed)
+		print_misfit(out, "core model", &s->core_diag);
+	if (b->rated_current > mf->I_max)
+		fprintf(out, "  %-28s %s\n", "stored energy at rated", beyond);
+	else
+		print_value(out, "stored energy at rated", b->W_rated, NAN, "J");
+	if (isfinite(s->dcr_ohm))
+		print_value(out, s->dcr_from_meter ? "DCR (meter)" : "DCR (two-wire, leads incl.)", s->dcr_ohm, NAN, "ohm");
+	if (s->n_checks) {
+		fprintf(out, "verdicts:\n");
+		for (size_t i = 0; i < s->n_checks; i++) {
+			const hb_analysis_check *k = &s->checks[i];
+			char mv[40], lo[40], hi[40];
+			hb_format_si(mv, sizeof mv, k->check.measured, k->unit, 5);
+			hb_format_si(lo, sizeof lo, k->check.low, k->unit, 5);
+			hb_format_si(hi, sizeof hi, k->check.high, k->unit, 5);
+			fprintf(out, "  %-5s %-10s measured %-14s limits [%s, %s]", k->name,
+				hb_outcome_name(k->check.outcome), isfinite(k->check.measured) ? mv : "-",
+				isfinite(k->check.low) ? lo : "-", isfinite(k->check.high) ? hi : "-");
+			if (isfinite(k->check.margin_frac))
+				fprintf(out, " margin %+.1f %%", k->check.margin_frac * 100);
+			fprintf(out, "\n");
+		}
+		fprintf(out, "  overall: %s\n", hb_overall_name(s->overall));
+	}
+}
+
+static json_t *num(double v)
+{
+	return isfinite(v) ? json_real(v) : json_null();
+}
+
+json_t *hb_analysis_value_object(double value, double std_err, const char *unit, const char *reason, bool misfit)
+{
+	json_t *o = json_object();
+	json_object_set_new(o, "value", num(value));
+	json_object_set_new(o, "std_err", num(std_err));
+	json_object_set_new(o, "unit", json_string(unit));
+	if (reason && *reason)
+		json_object_set_new(o, "reason", json_string(reason));
+	if (misfit)
+		json_object_set_new(o, "misfit", json_true());
+	return o;
+}
+
+json_t *hb_analysis_value_json(const hb_fit_value *v)
+{
+	return hb_analysis_value_object(v->value, v->std_err, v->unit, v->reason, v->misfit);
+}
+
+json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
+{
+	json_t *j = json_object();
+	json_object_set_new(j, "fit_id", json_integer(s->fit_id));
+	json_object_set_new(j, "fit_code", json_string(HB_FIT_CODE_VERSION));
+	json_object_set_new(j, "status", json_string(hb_status_name(s->fit_status)));
+	if (s->message[0])
+		json_object_set_new(j, "message", json_string(s->message));
+	json_t *vals = json_object();
+	if (s->kind == HB_DB_SWEEP_BIAS) {
+		json_object_set_new(j, "model", json_string(s->bias.model));
+		json_object_set_new(j, "note", json_string(HB_FIT_INCREMENTAL_NOTE));
+		json_object_set_new(j, "cp_corrected", json_boolean(s->bias.modelfree.cp_corrected));
+		json_object_set_new(j, "L0_basis", json_string(s->bias.modelfree.L0_basis));
+		for (size_t i = 0; i < s->bias.values.count; i++)
+			json_object_set_new(vals, s->bias.values.v[i].name, hb_analysis_value_json(&s->bias.values.v[i]));
+		if (s->bias.core_status == HB_OK) {
+			const hb_fit_core_result *c = &s->bias.core;
+			json_object_set_new(j, "law", json_string(hb_core_law_name(c->best)));
+			/* the history's names, with the same honesty as core.* */
+			const hb_fit_core_law_result *lr = &c->law[c->best];
+			bool mis = c->flags & HB_CORE_NO_LAW_FITS;
+			bool u_mu = lr->undetermined & (1u << HB_CORE_MU_I), u_g = lr->undetermined & (1u << HB_CORE_GAP);
+			json_object_set_new(vals, "mu_i",
+					    hb_analysis_value_object(lr->param[HB_CORE_MU_I], u_mu ? NAN : lr->std_err[HB_CORE_MU_I],
+								     "", u_mu ? HB_FIT_REASON_UNDETERMINED : NULL, mis));
+			json_object_set_new(vals, "gap",
+					    hb_analysis_value_object(c->gap_physical, u_g ? NAN : c->gap_physical_se, "m",
+								     u_g && isfinite(c->gap_physical) ?
+									     HB_FIT_REASON_UNDETERMINED : NULL,
+								     mis));
+		}
+		json_object_set_new(j, "DCR_ohm", num(s->dcr_ohm));
+		json_t *mis = json_object();
+		const hb_misfit_diag *dg[2] = { s->knee_diagnosed ? &s->knee_diag : NULL,
+						s->core_diagnosed ? &s->core_diag : NULL };
+		static const char *const which[2] = { "knee", "core" };
+		for (int k = 0; k < 2; k++) {
+			if (!dg[k])
+				continue;
+			json_t *o = json_object();
+			json_object_set_new(o, "noise_ratio", num(dg[k]->noise_ratio));
+			json_object_set_new(o, "cause", json_string(hb_misfit_cause_name(dg[k]->cause)));
+			json_object_set_new(o, "current_moved_ratio", num(dg[k]->current_ratio));
+			json_object_set_new(o, "current_moved_points", json_integer((json_int_t)dg[k]->current_points));
+			json_object_set_new(o, "heating_ratio", num(dg[k]->heating_ratio));
+			json_object_set_new(o, "heating_points", json_integer((json_int_t)dg[k]->heating_points));
+			json_object_set_new(mis, which[k], o);
+		}
+		json_object_set_new(j, "misfit_diagnosis", mis);
+	} else {
+		const hb_fit_freq_result *q = &s->freq;
+		json_object_set_new(vals, "L_H", num(q->param[HB_FREQ_L]));
+		json_object_set_new(vals, "R_ohm", num(q->param[HB_FREQ_R]));
+		json_object_set_new(vals, "C_F", num(q->param[HB_FREQ_C]));
+		json_object_set_new(vals, "srf_Hz", num(q->srf));
+		json_object_set_new(vals, "srf_std_err_Hz", num(q->srf_se));
+		/* measured X/R of the readings: the model's constant R would overstate Q */
+		json_object_set_new(vals, "q_max_measured", num(q->q_max));
+		json_object_set_new(vals, "q_max_measured_freq_Hz", num(q->q_max_freq));
+		json_object_set_new(vals, "band_lo_Hz", num(q->band_lo));
+		json_object_set_new(vals, "band_hi_Hz", num(q->band_hi));
+	}
+	json_object_set_new(j, "values", vals);
+	json_t *checks = json_array();
+	for (size_t i = 0; i < s->n_checks; i++) {
+		const hb_analysis_check *k = &s->checks[i];
+		json_t *o = json_object();
+		json_object_set_new(o, "check", json_string(k->name));
+		json_object_set_new(o, "outcome", json_string(hb_outcome_name(k->check.outcome)));
+		json_object_set_new(o, "measured", num(k->check.measured));
+		json_object_set_new(o, "limit_low", num(k->check.low));
+		json_object_set_new(o, "limit_high", num(k->check.high));
+		json_object_set_new(o, "margin_fraction", num(k->check.margin_frac));
+		json_object_set_new(o, "unit", json_string(k->unit));
+		json_object_set_new(o, "note", json_string(k->note));
+		json_array_append_new(checks, o);
+	}
+	json_object_set_new(j, "verdicts", checks);
+	if (s->n_checks)
+		json_object_set_new(j, "overall", json_string(hb_overall_name(s->overall)));
+	return j;
+}

@@ -1,0 +1,46 @@
+/* src/report/report_internal.h - what the report files share inside the report room: a sweep loaded whole, page sections */
+#ifndef HB_REPORT_INTERNAL_H
+#define HB_REPORT_INTERNAL_H
+
+#include <stdbool.h>
+#include <stddef.h>
+#include <stdint.h>
+
+#include "../../db/hb_db.h"
+#include "html.h"
+#include "plot.h"
+
+/* One sweep with everything stored about it (report.c). */
+typedef struct sweep_data {
+	hb_db_sweep sweep;
+	bool have_part;
+	hb_db_part part;
+	hb_db_point *pts;
+	size_t n;
+	bool have_fit;
+	hb_db_fit *fit;
+	hb_db_verdict *verdicts;
+	size_t nv;
+} sweep_data;
+
+int rpt_load_sweep(hb_db *db, int64_t id, sweep_data *d, char *err, size_t errlen);
+void rpt_sweep_data_free(sweep_data *d);
+bool rpt_part_has_geometry(const hb_db_part *p);
+int rpt_render(hb_plot *plot, char **svg, char *err, size_t errlen);
+void rpt_part_section(hb_html *h, const hb_db_part *p);
+void rpt_fit_section(hb_html *h, const sweep_data *d);
+void rpt_measurement_section(hb_html *h, const hb_db_sweep *s);
+void rpt_points_section(hb_html *h, const sweep_data *d);
+void rpt_verdict_section(hb_html *h, const sweep_data *d);
+void rpt_figure(hb_html *h, int rc, char *svg, const char *caption, const char *err);
+void rpt_trace_paragraph(hb_html *h, hb_db *db, const char *what);
+const char *rpt_or_dash(const char *s);
+const char *rpt_si(char *buf, size_t cap, double v, const char *unit, int digits);
+const char *rpt_pct(char *buf, size_t cap, double frac);
+void rpt_stats_row(hb_html *h, const char *name, const double *vals, size_t n, double lsl, double usl,
+		      const char *unit);
+
+/* Column heads of the statistics tables of the lot and part reports. */
+extern const char *const rpt_stats_head[9];
+
+#endif
