@@ -215,14 +215,15 @@ static int series_add(engine *e, rb_sample s)
  * that changes L by less than settle_fraction of one reading's noise,
  * from the slope dL/dI seen at the last two points (doubled, because the
  * slope only steepens towards saturation). Bounded below by what the
- * read-back can resolve, above by 1 % of the point and by what keeps the
- * supply's V/I (the DC resistance) honest: a current still moving by d
- * with time constant tau adds L*d/tau to the voltage, which must stay
- * below 0.1 % of I*R. */
+ * read-back can resolve, above by 1 % of the point and, at the points the
+ * DC resistance comes from (HB_SWEEP_DCR_FRACTION), by what keeps the
+ * supply's V/I honest: a current still moving by d with time constant tau
+ * adds L*d/tau to the voltage, which must stay below 0.1 % of I*R. */
 static double current_tolerance(const engine *e, double setpoint)
 {
 	double hi = 1e-2 * fmax(fabs(setpoint), 0.05 * e->i_top);
-	if (e->n_last >= 1 && e->tau > 0 && isfinite(e->r_est) && e->r_est > 0 && fabs(e->last_l[e->n_last - 1]) > 0)
+	if (fabs(setpoint) <= HB_SWEEP_DCR_FRACTION * e->i_top * (1 + 1e-9) && e->n_last >= 1 && e->tau > 0 &&
+	    isfinite(e->r_est) && e->r_est > 0 && fabs(e->last_l[e->n_last - 1]) > 0)
 		hi = fmin(hi, 1e-3 * fabs(setpoint) * e->r_est * e->tau / fabs(e->last_l[e->n_last - 1]));
 	double lo = fmax(2.0 * e->sigma_amps, 1e-4 * e->i_top);
 	double tol = hi;

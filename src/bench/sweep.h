@@ -12,6 +12,12 @@ typedef enum hb_sweep_kind { HB_SWEEP_BIAS, HB_SWEEP_FREQUENCY } hb_sweep_kind;
 typedef enum hb_spacing { HB_SPACING_LIN, HB_SPACING_LOG } hb_spacing;
 typedef enum hb_settle_rule { HB_SETTLE_AUTO, HB_SETTLE_FIXED } hb_settle_rule;
 
+/* The points whose supply V/I gives the winding's DC resistance: those
+ * up to this fraction of the top current, where self-heating is still
+ * small. The settle rule holds the current stiller there so the part's
+ * L*dI/dt stays out of the voltage; the analysis fits V against I there. */
+#define HB_SWEEP_DCR_FRACTION 0.35
+
 /* How a sweep ended; the names are what the store records. */
 typedef enum hb_sweep_end {
 	HB_SWEEP_COMPLETE,

@@ -6,6 +6,7 @@
 
 #include "analysis.h"
 #include "../../common/hb_text.h"
+#include "../bench/bench.h" /* HB_SWEEP_DCR_FRACTION: the points the settle rule holds still for V/I */
 
 void hb_analysis_options_init(hb_analysis_options *opt)
 {
@@ -87,7 +88,7 @@ static double dcr_from_points(const hb_db_point *pts, size_t n, double l_top_cur
 		if (pts[i].direction != HB_DB_DIR_UP || !isfinite(I) || !isfinite(V))
 			continue;
 		/* Low current keeps self-heating out of the estimate. */
-		if (I > 0.35 * l_top_current)
+		if (I > HB_SWEEP_DCR_FRACTION * l_top_current)
 			continue;
 		sx += I;
 		sy += V;
