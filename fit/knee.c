@@ -221,7 +221,7 @@ static int modelfree_L0(const double *I, const double *L, const double *sig, siz
 	 * 2nd ed. 2002, eqs. 4.1 and 4.9, from memory): the choice of basis is
 	 * an uncertainty of its own, and a single best basis understates it. */
 	enum { NCAND = sizeof cand / sizeof cand[0] };
-	double c0s[NCAND], v0s[NCAND], as[NCAND];
+	double c0s[NCAND] = { 0 }, v0s[NCAND] = { 0 }, as[NCAND] = { 0 };
 	bool ok[NCAND] = { false };
 	double best = INFINITY;
 	int best_c = -1;
@@ -260,7 +260,8 @@ static int modelfree_L0(const double *I, const double *L, const double *sig, siz
 		if (wsum > 0) {
 			double avg = 0;
 			for (size_t c = 0; c < NCAND; c++)
-				avg += w[c] / wsum * c0s[c];
+				if (w[c] > 0)
+					avg += w[c] / wsum * c0s[c];
 			double se = 0;
 			int used = 0;
 			for (size_t c = 0; c < NCAND; c++)
