@@ -587,7 +587,7 @@ static void test_plain_scpi_supply_with_generic_profile(void **state)
 	assert_non_null(strstr(sim.log, "STAT:QUES:COND?"));
 	json_t *sw = show_only_sweep();
 	assert_string_equal(jstr(sw, "status"), "complete");
-	assert_int_equal(json_array_size(json_object_get(sw, "data")), 9);
+	assert_int_equal(json_array_size(json_object_get(sw, "points")), 9);
 	json_decref(sw);
 	assert_no_off_under_current(sim.log, 0.02);
 	run_free(&r);
@@ -695,7 +695,7 @@ static void test_sigint_ramps_down_then_exits_130(void **state)
 	json_t *sw = show_only_sweep();
 	assert_string_equal(jstr(sw, "status"), "aborted");
 	assert_true(contains_nocase(jstr(sw, "status_reason"), "SIGINT"));
-	json_t *data = json_object_get(sw, "data");
+	json_t *data = json_object_get(sw, "points");
 	/* Every point reported on the screen is in the store, and only those. */
 	assert_int_equal(json_array_size(data), printed);
 	assert_true(printed >= 4 && printed < 41);
@@ -728,7 +728,7 @@ static void test_compliance_stop(void **state)
 	json_t *sw = show_only_sweep();
 	assert_string_equal(jstr(sw, "status"), "aborted");
 	assert_true(contains_nocase(jstr(sw, "status_reason"), "compliance"));
-	assert_true(json_array_size(json_object_get(sw, "data")) < 11);
+	assert_true(json_array_size(json_object_get(sw, "points")) < 11);
 	json_decref(sw);
 	run_free(&r);
 	sim_free(&sim);
@@ -809,7 +809,7 @@ static void test_meter_timeout_mid_sweep(void **state)
 	assert_true(strstr(sim.log, "lcr fault drop") < after_last(sim.log, "supply output OFF"));
 	json_t *sw = show_only_sweep();
 	assert_string_equal(jstr(sw, "status"), "failed");
-	size_t pts = json_array_size(json_object_get(sw, "data"));
+	size_t pts = json_array_size(json_object_get(sw, "points"));
 	assert_true(pts >= 1 && pts < 11);
 	json_decref(sw);
 	assert_false(contains_nocase(r.err, "current may still be flowing"));
@@ -834,7 +834,7 @@ static void test_one_lost_reading_is_asked_again(void **state)
 	assert_non_null(strstr(sim.log, "lcr fault drop"));
 	json_t *sw = show_only_sweep();
 	assert_string_equal(jstr(sw, "status"), "complete");
-	assert_int_equal(json_array_size(json_object_get(sw, "data")), 11);
+	assert_int_equal(json_array_size(json_object_get(sw, "points")), 11);
 	json_decref(sw);
 	run_free(&r);
 	sim_free(&sim);

@@ -1,4 +1,4 @@
-/* tests/test_export.c - CSV import (names, units, delimiters, BOM, bad rows stored never) and CSV/JSON export, round trip */
+/* tests/test_export.c - src/io/ (import.c, export.c, json.c, csv_write.c) and show/export in src/cli/: CSV import, the one CSV writer, show --json against export --json, round trip */
 #include <math.h>
 #include <stdbool.h>
 #include <setjmp.h>
@@ -8,16 +8,20 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <fcntl.h>
 #include <unistd.h>
 
 #include <cmocka.h>
 #include <jansson.h>
 
+#include "src/cli/cli.h"
 #include "src/io/io.h"
+#include "src/quality/quality.h"
 #include "store_fixture.h"
 
 typedef struct fixture {
 	char dir[256];
+	char path[400];
 	hb_db *db;
 	int64_t part_id;
 } fixture;
@@ -27,8 +31,7 @@ static int setup(void **state)
 	fixture *fx = calloc(1, sizeof *fx);
 	if (!fx)
 		return -1;
-	char path[400];
-	if (temp_store_open(fx->dir, sizeof fx->dir, "export", path, sizeof path, &fx->db) != 0)
+	if (temp_store_open(fx->dir, sizeof fx->dir, "export", fx->path, sizeof fx->path, &fx->db) != 0)
 		return -1;
 	hb_db_part p;
 	hb_db_part_init(&p);
@@ -341,15 +344,17 @@ static void test_round_trip(void **state)
 	points_of(fx, id, &a, &na);
 	points_of(fx, res.sweep_id, &b, &nb);
 	assert_int_equal(na, nb);
-	/* %.10g keeps ten significant digits. */
+	/* The writer's numbers read back as the very doubles stored. */
 	for (size_t i = 0; i < na; i++) {
 		assert_int_equal(a[i].seq, b[i].seq);
 		assert_int_equal(a[i].direction, b[i].direction);
-		const double x[5] = { a[i].bias_set_a, a[i].bias_meas_a, a[i].supply_v, a[i].freq_hz, a[i].primary };
-		const double y[5] = { b[i].bias_set_a, b[i].bias_meas_a, b[i].supply_v, b[i].freq_hz, b[i].primary };
-		for (int k = 0; k < 5; k++)
-			assert_true(fabs(x[k] - y[k]) <= 1e-9 * fabs(x[k]) + 1e-300);
-		assert_true(fabs(a[i].secondary - b[i].secondary) <= 1e-9 * a[i].secondary);
+		const double x[6] = { a[i].bias_set_a, a[i].bias_meas_a, a[i].supply_v, a[i].freq_hz, a[i].primary,
+				      a[i].secondary };
+		const double y[6] = { b[i].bias_set_a, b[i].bias_meas_a, b[i].supply_v, b[i].freq_hz, b[i].primary,
+				      b[i].secondary };
+		for (int k = 0; k < 6; k++)
+			if (x[k] != y[k])
+				fail_msg("point %zu, column %d: exported %.17g came back as %.17g", i, k, x[k], y[k]);
 	}
 	hb_db_points_free(a);
 	hb_db_points_free(b);
@@ -401,6 +406,257 @@ static void test_import_then_fit(void **state)
 	assert_true(fabs(s.test_freq_hz - 100e3) < 1e-6);
 }
 
+/* ---------------- the one CSV writer ---------------- */
+
+static void test_csv_writer_numbers_and_quoting(void **state)
+{
+	(void)state;
+	char buf[40];
+	/* The shortest text that is the same double, and 17 digits when it takes them. */
+	assert_string_equal(hb_csv_format_num(buf, sizeof buf, 0.1), "0.1");
+	assert_string_equal(hb_csv_format_num(buf, sizeof buf, 100e-6), "0.0001");
+	assert_string_equal(hb_csv_format_num(buf, sizeof buf, 1.0 / 3.0), "0.3333333333333333");
+	volatile double tenth = 0.1; /* computed at run time, not folded by the compiler */
+	assert_string_equal(hb_csv_format_num(buf, sizeof buf, tenth + 0.2), "0.30000000000000004");
+	assert_string_equal(hb_csv_format_num(buf, sizeof buf, -2.5e-12), "-2.5e-12");
+	assert_string_equal(hb_csv_format_num(buf, sizeof buf, NAN), "");
+	assert_string_equal(hb_csv_format_num(buf, sizeof buf, INFINITY), "");
+	/* Awkward doubles (a neighbour of 0.1, a subnormal, the largest) read back exactly. */
+	const double hard[] = { nextafter(0.1, 1.0), 4.9406564584124654e-324, 1.7976931348623157e308,
+				123456789.12345679, 1e23 };
+	for (size_t i = 0; i < sizeof hard / sizeof hard[0]; i++) {
+		hb_csv_format_num(buf, sizeof buf, hard[i]);
+		if (strtod(buf, NULL) != hard[i])
+			fail_msg("%.17g written as %s", hard[i], buf);
+	}
+
+	FILE *f = tmpfile();
+	assert_non_null(f);
+	hb_csv_writer w;
+	hb_csv_begin(&w, f);
+	hb_csv_text(&w, "plain");
+	hb_csv_text(&w, "a,b");
+	hb_csv_text(&w, "say \"hi\"");
+	hb_csv_text(&w, "two\nlines");
+	hb_csv_text(&w, " padded");
+	hb_csv_text(&w, NULL);
+	hb_csv_num(&w, 0.5);
+	hb_csv_int(&w, -7);
+	hb_csv_row_end(&w);
+	assert_int_equal(hb_csv_end(&w), HB_OK);
+	char *text = stream_read_back(f, NULL);
+	assert_string_equal(text, "plain,\"a,b\",\"say \"\"hi\"\"\",\"two\nlines\",\" padded\",,0.5,-7\r\n");
+	free(text);
+}
+
+/* ---------------- show --json against export --json ---------------- */
+
+/* Runs a command in this process with --db of the fixture, its stdout caught. */
+static char *run_cmd(fixture *fx, hb_command_fn fn, int argc, ...)
+{
+	char *argv[8];
+	va_list ap;
+	va_start(ap, argc);
+	for (int i = 0; i < argc; i++)
+		argv[i] = va_arg(ap, char *);
+	va_end(ap);
+	argv[argc] = NULL;
+	hb_global.db_path = fx->path;
+	char path[512];
+	snprintf(path, sizeof path, "%s/stdout.txt", fx->dir);
+	int fd = open(path, O_RDWR | O_CREAT | O_TRUNC, 0600);
+	assert_true(fd >= 0);
+	fflush(stdout);
+	int saved = dup(STDOUT_FILENO);
+	dup2(fd, STDOUT_FILENO);
+	int rc = fn(argc, argv);
+	fflush(stdout);
+	dup2(saved, STDOUT_FILENO);
+	close(saved);
+	off_t len = lseek(fd, 0, SEEK_END);
+	lseek(fd, 0, SEEK_SET);
+	char *out = calloc(1, (size_t)len + 1);
+	assert_non_null(out);
+	assert_int_equal(read(fd, out, (size_t)len), len);
+	close(fd);
+	unlink(path);
+	if (rc != HB_EXIT_OK)
+		fail_msg("%s exited %d", argv[0], rc);
+	return out;
+}
+
+static json_t *parse(const char *text, const char *what)
+{
+	json_error_t jerr;
+	json_t *j = json_loads(text, 0, &jerr);
+	if (!j)
+		fail_msg("%s is not JSON: %s", what, jerr.text);
+	return j;
+}
+
+/* The path of the first place where a and b differ (keys, types, values), or "" if none. */
+static bool json_diff(const json_t *a, const json_t *b, char *path, size_t cap)
+{
+	size_t len = strlen(path);
+	if (json_typeof(a) != json_typeof(b)) {
+		snprintf(path + len, cap - len, " (a %d, b %d: types differ)", json_typeof(a), json_typeof(b));
+		return true;
+	}
+	if (json_is_object(a)) {
+		const char *key;
+		json_t *v;
+		json_object_foreach((json_t *)a, key, v)
+		{
+			json_t *w = json_object_get(b, key);
+			snprintf(path + len, cap - len, ".%s", key);
+			if (!w) {
+				snprintf(path + strlen(path), cap - strlen(path), " (only in show)");
+				return true;
+			}
+			if (json_diff(v, w, path, cap))
+				return true;
+		}
+		json_object_foreach((json_t *)b, key, v)
+		{
+			if (!json_object_get(a, key)) {
+				snprintf(path + len, cap - len, ".%s (only in export)", key);
+				return true;
+			}
+		}
+		path[len] = '\0';
+		return false;
+	}
+	if (json_is_array(a)) {
+		if (json_array_size(a) != json_array_size(b)) {
+			snprintf(path + len, cap - len, " (%zu against %zu items)", json_array_size(a), json_array_size(b));
+			return true;
+		}
+		for (size_t i = 0; i < json_array_size(a); i++) {
+			snprintf(path + len, cap - len, "[%zu]", i);
+			if (json_diff(json_array_get(a, i), json_array_get(b, i), path, cap))
+				return true;
+		}
+		path[len] = '\0';
+		return false;
+	}
+	if (!json_equal((json_t *)a, (json_t *)b)) {
+		snprintf(path + len, cap - len, " (values differ)");
+		return true;
+	}
+	return false;
+}
+
+/* show --json ID and the sweep of export --json ID, both parsed: must be one object. */
+static json_t *show_and_export_agree(fixture *fx, int64_t id)
+{
+	char ids[32];
+	snprintf(ids, sizeof ids, "%lld", (long long)id);
+	char *show = run_cmd(fx, hb_cmd_show, 3, "show", ids, "--json");
+	char *export = run_cmd(fx, hb_cmd_export, 3, "export", ids, "--json");
+	json_t *s = parse(show, "show --json");
+	json_t *e = parse(export, "export --json");
+	free(show);
+	free(export);
+	json_t *sweeps = json_object_get(e, "sweeps");
+	assert_int_equal(json_array_size(sweeps), 1);
+	json_t *es = json_array_get(sweeps, 0);
+	char path[512] = "sweep";
+	if (json_diff(s, es, path, sizeof path))
+		fail_msg("show --json and export --json of sweep %lld differ at %s", (long long)id, path);
+	assert_true(json_equal(s, es));
+	json_decref(e);
+	return s;
+}
+
+static void test_show_json_is_export_json(void **state)
+{
+	fixture *fx = *state;
+	/* A bias sweep fitted and judged, so that fit and verdicts are compared too. */
+	int64_t bias = stored_sweep(fx, "SJ-1");
+	hb_analysis_options aopt;
+	hb_analysis_options_init(&aopt);
+	hb_analysis_summary *an = calloc(1, sizeof *an);
+	assert_non_null(an);
+	assert_int_equal(hb_analysis_sweep(fx->db, bias, &aopt, an), HB_OK);
+	free(an);
+	json_t *s = show_and_export_agree(fx, bias);
+	json_t *fit = json_object_get(s, "fit");
+	assert_true(json_is_object(fit));
+	json_t *l0 = json_object_get(json_object_get(fit, "values"), "L0");
+	assert_true(json_is_object(l0));
+	assert_true(json_is_real(json_object_get(l0, "value")));
+	assert_string_equal(json_string_value(json_object_get(l0, "unit")), "H");
+	assert_true(json_object_get(l0, "std_err") != NULL);
+	assert_true(json_array_size(json_object_get(s, "verdicts")) > 0);
+	assert_non_null(json_object_get(json_array_get(json_object_get(s, "verdicts"), 0), "outcome"));
+	/* The keys name their units, and the values are the stored ones to the last bit. */
+	json_t *p3 = json_array_get(json_object_get(s, "points"), 3);
+	assert_non_null(p3);
+	assert_true(json_real_value(json_object_get(p3, "bias_set_A")) == 1.5);
+	assert_true(json_real_value(json_object_get(p3, "bias_measured_A")) == 1.5 * 0.999 + 1.234567e-4);
+	assert_true(json_real_value(json_object_get(p3, "R_ohm")) == 0.12345678901);
+	assert_true(json_is_real(json_object_get(p3, "L_H")));
+	assert_true(json_is_real(json_object_get(p3, "frequency_Hz")));
+	assert_null(json_object_get(p3, "secondary"));
+	assert_null(json_object_get(p3, "bias_A"));
+	assert_string_equal(json_string_value(json_object_get(json_object_get(s, "settings"), "measured_pair")), "Ls-Rs");
+	assert_true(json_is_object(json_object_get(s, "supply_record")));
+	json_decref(s);
+}
+
+static void test_show_json_is_export_json_z_theta(void **state)
+{
+	fixture *fx = *state;
+	int64_t unit;
+	assert_int_equal(hb_db_unit_ensure(fx->db, fx->part_id, "ZT-1", 0, &unit), HB_OK);
+	hb_db_sweep sw;
+	hb_db_sweep_init(&sw);
+	sw.kind = HB_DB_SWEEP_FREQUENCY;
+	sw.unit_id = unit;
+	sw.bias_a = 0;
+	snprintf(sw.measured_pair, sizeof sw.measured_pair, "Z-theta");
+	assert_int_equal(hb_db_sweep_begin(fx->db, &sw), HB_OK);
+	double theta[8];
+	for (int k = 0; k < 8; k++) {
+		hb_db_point p;
+		hb_db_point_init(&p);
+		p.sweep_id = sw.id;
+		p.seq = k;
+		p.bias_set_a = p.bias_meas_a = 0;
+		p.freq_hz = 1e3 * pow(10, 0.5 * k);
+		p.primary = 2 * M_PI * p.freq_hz * 100e-6 * (1 + 1e-3 * k);
+		theta[k] = p.secondary = 89.123456789012345 - 0.37 * k; /* degrees, more digits than %.10g kept */
+		p.t_s = 0.2 * k;
+		assert_int_equal(hb_db_point_add(fx->db, &p), HB_OK);
+	}
+	assert_int_equal(hb_db_sweep_end(fx->db, sw.id, HB_DB_COMPLETE, NULL), HB_OK);
+	hb_analysis_options aopt;
+	hb_analysis_options_init(&aopt);
+	hb_analysis_summary *an = calloc(1, sizeof *an);
+	assert_non_null(an);
+	(void)hb_analysis_sweep(fx->db, sw.id, &aopt, an); /* fitted or not, both must say the same */
+	free(an);
+	json_t *s = show_and_export_agree(fx, sw.id);
+	json_t *pts = json_object_get(s, "points");
+	assert_int_equal(json_array_size(pts), 8);
+	for (size_t k = 0; k < 8; k++) {
+		json_t *p = json_array_get(pts, k);
+		assert_null(json_object_get(p, "secondary"));
+		if (json_real_value(json_object_get(p, "theta_deg")) != theta[k])
+			fail_msg("point %zu: theta_deg %.17g, stored %.17g", k, json_real_value(json_object_get(p, "theta_deg")),
+				 theta[k]);
+		assert_true(json_is_real(json_object_get(p, "Z_ohm")));
+	}
+	json_decref(s);
+
+	/* show --csv names the columns as export --csv does. */
+	char ids[32];
+	snprintf(ids, sizeof ids, "%lld", (long long)sw.id);
+	char *csv = run_cmd(fx, hb_cmd_show, 3, "show", ids, "--csv");
+	assert_non_null(strstr(csv, ",frequency_Hz,Z_ohm,theta_deg,reading_status,"));
+	free(csv);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -412,6 +668,9 @@ int main(void)
 		cmocka_unit_test(test_export_csv_shape),
 		cmocka_unit_test(test_round_trip),
 		cmocka_unit_test(test_import_then_fit),
+		cmocka_unit_test(test_csv_writer_numbers_and_quoting),
+		cmocka_unit_test(test_show_json_is_export_json),
+		cmocka_unit_test(test_show_json_is_export_json_z_theta),
 	};
 	return cmocka_run_group_tests(tests, setup, teardown);
 }

@@ -334,7 +334,7 @@ static void test_history_json(void **state)
 	json_t *j = json_loads(out, 0, &jerr);
 	if (!j)
 		fail_msg("not JSON: %s\n%s", jerr.text, out);
-	assert_string_equal(json_string_value(json_object_get(j, "part")), "TST-100");
+	assert_string_equal(json_string_value(json_object_get(j, "part_number")), "TST-100");
 	json_t *list = json_object_get(j, "units");
 	assert_int_equal(json_array_size(list), N_TST100);
 	size_t fails = 0;
@@ -355,7 +355,7 @@ static void test_history_json(void **state)
 	check_near(json_real_value(json_object_get(json_object_get(u0, "I_drop_A"), "30")), 3.0);
 	assert_int_equal(json_array_size(json_object_get(j, "lots")), 4);
 	json_t *lot3 = json_array_get(json_object_get(j, "lots"), 2);
-	assert_string_equal(json_string_value(json_object_get(lot3, "lot")), "L3");
+	assert_string_equal(json_string_value(json_object_get(lot3, "lot_code")), "L3");
 	check_near(json_real_value(json_object_get(json_object_get(lot3, "L0_H"), "mean")), 107.5e-6);
 	json_t *trend = json_object_get(j, "trend");
 	assert_string_equal(json_string_value(json_object_get(trend, "L0_drift")), "rising");
@@ -390,7 +390,7 @@ static void test_history_csv_and_text(void **state)
 	(void)state;
 	char *out = NULL;
 	assert_int_equal(run_cmd(hb_cmd_history, &out, 3, "history", "TST-100", "--csv"), HB_EXIT_OK);
-	const char *header = "started_utc,station,lot,serial,sweep_id,L0_H,I_drop10_A,I_drop20_A,I_drop30_A,mu_e,gap_m,verdict\n";
+	const char *header = "started_utc,station,lot_code,serial,sweep_id,L0_H,I_drop10_A,I_drop20_A,I_drop30_A,mu_e,gap_m,verdict\r\n";
 	assert_memory_equal(out, header, strlen(header));
 	size_t lines = 0;
 	for (const char *p = out; *p; p++)

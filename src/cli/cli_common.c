@@ -8,16 +8,16 @@
 
 #include "../../db/hb_db.h"
 #include "../bench/bench.h"
+#include "../io/io.h"
 #include "cli.h"
 
 int hb_print_json(json_t *root)
 {
-	char *text = root ? json_dumps(root, JSON_INDENT(2) | JSON_REAL_PRECISION(10)) : NULL;
-	json_decref(root);
-	if (!text)
+	if (!root)
 		return HB_ERR_NOMEM;
-	int rc = printf("%s\n", text) < 0 ? HB_ERR_IO : HB_OK;
-	free(text);
+	/* the io room's writer: every JSON document in one number format */
+	int rc = hb_json_write(root, stdout);
+	json_decref(root);
 	return rc;
 }
 

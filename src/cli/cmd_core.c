@@ -192,9 +192,7 @@ static void print_effective(const char *shape, const hb_core_effective *e, const
 			json_object_set_new(j, "turns", json_real(w->turns));
 		if (isfinite(L))
 			json_object_set_new(j, "L_H", json_real(L));
-		json_dumpf(j, stdout, JSON_INDENT(2) | JSON_REAL_PRECISION(10));
-		fputc('\n', stdout);
-		json_decref(j);
+		(void)hb_print_json(j);
 		return;
 	}
 	char buf[40];
@@ -279,9 +277,7 @@ static int run_solenoid(core_args *a)
 		json_object_set_new(j, "nagaoka_k", json_real(k));
 		json_object_set_new(j, "L_exact_H", json_real(Le));
 		json_object_set_new(j, "L_wheeler_H", json_real(Lw));
-		json_dumpf(j, stdout, JSON_INDENT(2) | JSON_REAL_PRECISION(10));
-		fputc('\n', stdout);
-		json_decref(j);
+		(void)hb_print_json(j);
 		return HB_EXIT_OK;
 	}
 	char b1[40], b2[40];

@@ -150,11 +150,7 @@ int hb_cmd_fit(int argc, char **argv)
 	if (json) {
 		json_t *j = hb_analysis_summary_json(an);
 		json_object_set_new(j, "sweep_id", json_integer(id));
-		char *text = json_dumps(j, JSON_INDENT(2) | JSON_REAL_PRECISION(10));
-		if (text)
-			printf("%s\n", text);
-		free(text);
-		json_decref(j);
+		(void)hb_print_json(j); /* through the io room's writer, as every JSON document */
 	} else {
 		hb_analysis_print(stdout, an);
 	}

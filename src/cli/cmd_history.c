@@ -15,32 +15,6 @@
 #include "../report/report.h"
 #include "compare.h"
 
-/* ---------------- output helpers ---------------- */
-
-/* RFC 4180: quote a field holding a comma, quote or line break. */
-static void csv_text(FILE *out, const char *s)
-{
-	if (!strpbrk(s, ",\"\r\n")) {
-		fputs(s, out);
-		return;
-	}
-	fputc('"', out);
-	for (; *s; s++) {
-		if (*s == '"')
-			fputc('"', out);
-		fputc(*s, out);
-	}
-	fputc('"', out);
-}
-
-static void csv_num(FILE *out, double v)
-{
-	if (isfinite(v))
-		fprintf(out, ",%.9g", v);
-	else
-		fputc(',', out);
-}
-
 /* ---------------- history command ---------------- */
 
 static void history_usage(FILE *out)
@@ -174,29 +148,12 @@ static json_t *history_json(const hb_db_part *part, const hb_db_history_row *row
 			    const hb_db_history_filter *f, const hb_history_summary *s)
 {
 	json_t *j = json_object();
-	json_object_set_new(j, "part", json_string(part->part_number));
+	json_object_set_new(j, "part_number", json_string(part->part_number));
 	json_object_set_new(j, "nominal_H", hb_json_num(part->nominal_h));
 	json_object_set_new(j, "tolerance", hb_json_num(part->tolerance));
 	json_t *units = json_array();
 	for (size_t i = 0; i < n; i++) {
-		const hb_db_history_row *r = &rows[i];
-		json_t *u = json_object();
-		json_object_set_new(u, "started", json_string(r->started_iso));
-		json_object_set_new(u, "station", json_string(r->station));
-		json_object_set_new(u, "lot", r->lot_code[0] ? json_string(r->lot_code) : json_null());
-		json_object_set_new(u, "serial", json_string(r->serial));
-		json_object_set_new(u, "sweep_id", json_integer(r->sweep_id));
-		json_object_set_new(u, "L0_H", hb_json_num(r->l0_h));
-		json_t *drops = json_object();
-		for (int k = 0; k < HB_DB_HISTORY_DROPS; k++) {
-			char key[16];
-			snprintf(key, sizeof key, "%d", f->drop_percent[k]);
-			json_object_set_new(drops, key, hb_json_num(r->i_drop_a[k]));
-		}
-		json_object_set_new(u, "I_drop_A", drops);
-		json_object_set_new(u, "mu_e", hb_json_num(r->mu_e));
-		json_object_set_new(u, "gap_m", hb_json_num(r->gap_m));
-		json_object_set_new(u, "verdict", json_string(hb_db_outcome_name(r->verdict)));
+		json_t *u = hb_json_unit_result(&rows[i], f->drop_percent);
 		json_array_append_new(units, u);
 	}
 	json_object_set_new(j, "units", units);
@@ -204,7 +161,7 @@ static json_t *history_json(const hb_db_part *part, const hb_db_history_row *row
 	for (size_t k = 0; k < s->n_lots; k++) {
 		const hb_history_lot *l = &s->lots[k];
 		json_t *o = json_object();
-		json_object_set_new(o, "lot", l->lot_code[0] ? json_string(l->lot_code) : json_null());
+		json_object_set_new(o, "lot_code", l->lot_code[0] ? json_string(l->lot_code) : json_null());
 		json_object_set_new(o, "units", json_integer((json_int_t)l->n_units));
 		json_object_set_new(o, "pass", json_integer((json_int_t)l->n_pass));
 		json_object_set_new(o, "fail", json_integer((json_int_t)l->n_fail));
@@ -236,29 +193,39 @@ static json_t *history_json(const hb_db_part *part, const hb_db_history_row *row
 	return j;
 }
 
-static void history_csv(const hb_db_history_row *rows, size_t n, const hb_db_history_filter *f)
+/* Through the io room's one CSV writer: the dialect of export --csv. */
+static int history_csv(const hb_db_history_row *rows, size_t n, const hb_db_history_filter *f)
 {
-	printf("started_utc,station,lot,serial,sweep_id,L0_H");
-	for (int k = 0; k < HB_DB_HISTORY_DROPS; k++)
-		printf(",I_drop%d_A", f->drop_percent[k]);
-	printf(",mu_e,gap_m,verdict\n");
+	hb_csv_writer w;
+	hb_csv_begin(&w, stdout);
+	static const char *const head[] = { "started_utc", "station", "lot_code", "serial", "sweep_id", "L0_H" };
+	for (size_t k = 0; k < sizeof head / sizeof head[0]; k++)
+		hb_csv_text(&w, head[k]);
+	for (int k = 0; k < HB_DB_HISTORY_DROPS; k++) {
+		char name[32];
+		snprintf(name, sizeof name, "I_drop%d_A", f->drop_percent[k]);
+		hb_csv_text(&w, name);
+	}
+	hb_csv_text(&w, "mu_e");
+	hb_csv_text(&w, "gap_m");
+	hb_csv_text(&w, "verdict");
+	hb_csv_row_end(&w);
 	for (size_t i = 0; i < n; i++) {
 		const hb_db_history_row *r = &rows[i];
-		csv_text(stdout, r->started_iso);
-		fputc(',', stdout);
-		csv_text(stdout, r->station);
-		fputc(',', stdout);
-		csv_text(stdout, r->lot_code);
-		fputc(',', stdout);
-		csv_text(stdout, r->serial);
-		printf(",%lld", (long long)r->sweep_id);
-		csv_num(stdout, r->l0_h);
+		hb_csv_text(&w, r->started_iso);
+		hb_csv_text(&w, r->station);
+		hb_csv_text(&w, r->lot_code);
+		hb_csv_text(&w, r->serial);
+		hb_csv_int(&w, r->sweep_id);
+		hb_csv_num(&w, r->l0_h);
 		for (int k = 0; k < HB_DB_HISTORY_DROPS; k++)
-			csv_num(stdout, r->i_drop_a[k]);
-		csv_num(stdout, r->mu_e);
-		csv_num(stdout, r->gap_m);
-		printf(",%s\n", hb_db_outcome_name(r->verdict));
+			hb_csv_num(&w, r->i_drop_a[k]);
+		hb_csv_num(&w, r->mu_e);
+		hb_csv_num(&w, r->gap_m);
+		hb_csv_text(&w, hb_db_outcome_name(r->verdict));
+		hb_csv_row_end(&w);
 	}
+	return hb_csv_end(&w);
 }
 
 int hb_cmd_history(int argc, char **argv)
@@ -340,7 +307,10 @@ int hb_cmd_history(int argc, char **argv)
 			goto out;
 		}
 	} else if (csv) {
-		history_csv(rows, n, &f);
+		if (history_csv(rows, n, &f) != HB_OK) {
+			hb_cli_error("history: cannot write the CSV output");
+			goto out;
+		}
 	} else {
 		print_history_text(&part, rows, n, &f, &sum);
 	}
@@ -429,6 +399,7 @@ int hb_compare_load(hb_db *db, const int64_t *ids, size_t n, size_t n_currents, 
 		col->sweep_id = sw.id;
 		snprintf(col->part_number, sizeof col->part_number, "%s", sw.part_number);
 		snprintf(col->serial, sizeof col->serial, "%s", sw.serial);
+		snprintf(col->station, sizeof col->station, "%s", sw.station);
 		snprintf(col->lot_code, sizeof col->lot_code, "%s", sw.lot_code);
 		snprintf(col->started_iso, sizeof col->started_iso, "%s", sw.started_iso);
 		snprintf(col->status, sizeof col->status, "%s", hb_db_sweep_status_name(sw.status));
@@ -515,29 +486,27 @@ json_t *hb_compare_json(const hb_compare_table *t)
 	json_t *j = json_object();
 	json_t *cur = json_array();
 	for (size_t k = 0; k < t->n_currents; k++)
-		json_array_append_new(cur, json_real(t->currents[k]));
+		json_array_append_new(cur, hb_json_num(t->currents[k]));
 	json_object_set_new(j, "currents_A", cur);
 	json_t *arr = json_array();
 	for (size_t i = 0; i < t->n; i++) {
 		const hb_compare_column *c = &t->cols[i];
-		json_t *o = json_object();
-		json_object_set_new(o, "sweep_id", json_integer(c->sweep_id));
-		json_object_set_new(o, "part", json_string(c->part_number));
-		json_object_set_new(o, "serial", json_string(c->serial));
-		json_object_set_new(o, "lot", c->lot_code[0] ? json_string(c->lot_code) : json_null());
-		json_object_set_new(o, "started", json_string(c->started_iso));
+		/* the history's unit row, so one result has one set of keys */
+		hb_db_history_row r;
+		memset(&r, 0, sizeof r);
+		r.sweep_id = c->sweep_id;
+		snprintf(r.started_iso, sizeof r.started_iso, "%s", c->started_iso);
+		snprintf(r.station, sizeof r.station, "%s", c->station);
+		snprintf(r.lot_code, sizeof r.lot_code, "%s", c->lot_code);
+		snprintf(r.serial, sizeof r.serial, "%s", c->serial);
+		r.l0_h = c->l0_h;
+		memcpy(r.i_drop_a, c->i_drop_a, sizeof r.i_drop_a);
+		r.mu_e = c->mu_e;
+		r.gap_m = c->gap_m;
+		r.verdict = c->verdict;
+		json_t *o = hb_json_unit_result(&r, t->drop_percent);
+		json_object_set_new(o, "part_number", json_string(c->part_number));
 		json_object_set_new(o, "status", json_string(c->status));
-		json_object_set_new(o, "L0_H", hb_json_num(c->l0_h));
-		json_t *drops = json_object();
-		for (int k = 0; k < HB_DB_HISTORY_DROPS; k++) {
-			char key[16];
-			snprintf(key, sizeof key, "%d", t->drop_percent[k]);
-			json_object_set_new(drops, key, hb_json_num(c->i_drop_a[k]));
-		}
-		json_object_set_new(o, "I_drop_A", drops);
-		json_object_set_new(o, "mu_e", hb_json_num(c->mu_e));
-		json_object_set_new(o, "gap_m", hb_json_num(c->gap_m));
-		json_object_set_new(o, "verdict", json_string(hb_db_outcome_name(c->verdict)));
 		json_t *l = json_array();
 		for (size_t k = 0; k < t->n_currents; k++)
 			json_array_append_new(l, hb_json_num(c->l_at[k]));

@@ -359,42 +359,6 @@ out:
 	return exit_code;
 }
 
-static json_t *part_json(const hb_db_part *p)
-{
-	json_t *o = json_object();
-	json_object_set_new(o, "part_number", json_string(p->part_number));
-	json_object_set_new(o, "description", json_string(p->description));
-	json_object_set_new(o, "maker", json_string(p->maker));
-	json_object_set_new(o, "nominal_H", hb_json_num(p->nominal_h));
-	json_object_set_new(o, "tolerance", hb_json_num(p->tolerance));
-	json_object_set_new(o, "test_frequency_Hz", hb_json_num(p->test_freq_hz));
-	json_object_set_new(o, "test_level", hb_json_num(p->test_level));
-	json_object_set_new(o, "test_level_unit",
-			    json_string(p->test_level_kind == HB_DB_LEVEL_CURRENT ? "A" : "V"));
-	json_object_set_new(o, "sat_current_A", hb_json_num(p->sat_current_a));
-	json_object_set_new(o, "sat_drop", hb_json_num(p->sat_drop));
-	json_object_set_new(o, "rated_current_A", hb_json_num(p->rated_current_a));
-	json_object_set_new(o, "dcr_max_ohm", hb_json_num(p->dcr_max_ohm));
-	json_object_set_new(o, "turns", p->turns > 0 ? json_integer(p->turns) : json_null());
-	json_object_set_new(o, "ae_m2", hb_json_num(p->ae_m2));
-	json_object_set_new(o, "le_m", hb_json_num(p->le_m));
-	json_object_set_new(o, "window_m", hb_json_num(p->window_m));
-	if (isnan(p->toroid_od_m)) {
-		json_object_set_new(o, "toroid", json_null());
-	} else {
-		json_t *t = json_object();
-		json_object_set_new(t, "od_m", json_real(p->toroid_od_m));
-		json_object_set_new(t, "id_m", json_real(p->toroid_id_m));
-		json_object_set_new(t, "h_m", hb_json_num(p->toroid_h_m));
-		json_object_set_new(o, "toroid", t);
-	}
-	json_object_set_new(o, "mu_i", hb_json_num(p->mu_i));
-	json_object_set_new(o, "bsat_T", hb_json_num(p->bsat_t));
-	json_object_set_new(o, "created", json_string(p->created));
-	json_object_set_new(o, "updated", json_string(p->updated));
-	return o;
-}
-
 static const char *pct(char *buf, size_t cap, double v)
 {
 	if (isnan(v))
@@ -430,7 +394,7 @@ static int part_list(int argc, char **argv)
 	if (e.json) {
 		json_t *arr = json_array();
 		for (size_t i = 0; i < n; i++)
-			json_array_append_new(arr, part_json(&parts[i]));
+			json_array_append_new(arr, hb_json_part(&parts[i]));
 		hb_db_parts_free(parts);
 		return hb_print_json(arr) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	}
@@ -476,7 +440,7 @@ static int part_show(int argc, char **argv)
 	}
 	hb_db_close(db);
 	if (e.json)
-		return hb_print_json(part_json(&p)) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
+		return hb_print_json(hb_json_part(&p)) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	char a[64], b[64], c[160];
 	printf("part %s\n", p.part_number);
 	show_line("description", p.description[0] ? p.description : "-");

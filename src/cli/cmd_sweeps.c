@@ -71,18 +71,6 @@ static void sweeps_usage(FILE *out)
 		"  --json          machine-readable output\n");
 }
 
-static json_t *sweep_summary_json(const hb_db_sweep *s)
-{
-	json_t *o = hb_json_sweep_head(s);
-	json_object_set_new(o, "part", json_string(s->part_number));
-	json_object_set_new(o, "unit", json_string(s->serial));
-	json_object_set_new(o, "lot", json_string(s->lot_code));
-	json_object_set_new(o, "station", json_string(s->station));
-	json_object_set_new(o, "operator", json_string(s->operator_name));
-	json_object_set_new(o, "points", json_integer(s->n_points));
-	return o;
-}
-
 int hb_cmd_sweeps(int argc, char **argv)
 {
 	enum { O_PART = 256, O_UNIT, O_LOT, O_STATUS, O_KIND, O_SINCE, O_LIMIT, O_JSON, O_HELP };
@@ -174,7 +162,7 @@ int hb_cmd_sweeps(int argc, char **argv)
 	if (json) {
 		json_t *arr = json_array();
 		for (size_t i = 0; i < n; i++)
-			json_array_append_new(arr, sweep_summary_json(&list[i]));
+			json_array_append_new(arr, hb_json_sweep_summary(&list[i]));
 		hb_db_sweeps_free(list);
 		return hb_print_json(arr) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	}
@@ -200,130 +188,6 @@ static void show_usage(FILE *out)
 		"Prints one stored sweep: its settings, instruments, verdicts and every point.\n"
 		"  --json   one JSON document\n"
 		"  --csv    the points only, SI units named in the header\n");
-}
-
-/* Column name of one reading of the measured pair, e.g. "Ls-Rs" -> L_H, R_ohm. */
-static const char *reading_column(const char *pair, int which)
-{
-	const char *dash = strchr(pair, '-');
-	char letter = which == 0 ? pair[0] : (dash ? dash[1] : '\0');
-	switch (letter) {
-	case 'L': return which == 0 ? "L_H" : "L2_H";
-	case 'C': return "C_F";
-	case 'R': return "R_ohm";
-	case 'X': return "X_ohm";
-	case 'Z': return "Z_ohm";
-	case 'G': return "G_S";
-	case 'Q': return "Q";
-	case 'D': return "D";
-	default: return which == 0 ? "primary" : "secondary";
-	}
-}
-
-static json_t *sweep_detail_json(const hb_db_sweep *s)
-{
-	json_t *o = sweep_summary_json(s);
-	json_object_set_new(o, "host", json_string(s->host));
-	json_object_set_new(o, "pid", json_integer(s->pid));
-	json_object_set_new(o, "instruments", hb_json_sweep_instruments(s));
-	json_t *set = hb_json_sweep_conditions(s);
-	json_object_set_new(set, "averaging", s->averaging > 0 ? json_integer(s->averaging) : json_null());
-	json_object_set_new(set, "aperture", json_string(s->aperture));
-	json_t *settle = json_object();
-	json_object_set_new(settle, "mode", json_string(s->settle_mode));
-	json_object_set_new(settle, "delay_s", hb_json_num(s->settle_delay_s));
-	json_object_set_new(settle, "tolerance", hb_json_num(s->settle_tolerance));
-	json_object_set_new(settle, "max_readings",
-			    s->settle_max_readings > 0 ? json_integer(s->settle_max_readings) : json_null());
-	json_object_set_new(settle, "max_s", hb_json_num(s->settle_max_s));
-	json_object_set_new(set, "settle", settle);
-	json_t *plan = json_object();
-	const char *unit = s->kind == HB_DB_SWEEP_FREQUENCY ? "Hz" : "A";
-	json_object_set_new(plan, "unit", json_string(unit));
-	json_object_set_new(plan, "from", hb_json_num(s->plan_from));
-	json_object_set_new(plan, "to", hb_json_num(s->plan_to));
-	json_object_set_new(plan, "steps", s->plan_steps > 0 ? json_integer(s->plan_steps) : json_null());
-	json_object_set_new(plan, "spacing", json_string(s->plan_spacing));
-	json_object_set_new(set, "plan", plan);
-	json_t *lim = json_object();
-	json_object_set_new(lim, "current_A", hb_json_num(s->limit_current_a));
-	json_object_set_new(lim, "voltage_V", hb_json_num(s->limit_voltage_v));
-	json_object_set_new(set, "limits", lim);
-	json_object_set_new(set, "ambient_C", hb_json_num(s->ambient_c));
-	json_object_set_new(o, "settings", set);
-	json_object_set_new(o, "supply_record", hb_json_supply_record(s));
-	json_object_set_new(o, "note", json_string(s->note));
-	return o;
-}
-
-static json_t *points_json(const hb_db_sweep *s, const hb_db_point *pts, size_t n)
-{
-	const char *c1 = reading_column(s->measured_pair, 0), *c2 = reading_column(s->measured_pair, 1);
-	json_t *arr = json_array();
-	for (size_t i = 0; i < n; i++) {
-		const hb_db_point *p = &pts[i];
-		json_t *o = json_object();
-		json_object_set_new(o, "seq", json_integer(p->seq));
-		json_object_set_new(o, "direction", json_string(p->direction == HB_DB_DIR_DOWN ? "down" : "up"));
-		json_object_set_new(o, "bias_set_A", hb_json_num(p->bias_set_a));
-		json_object_set_new(o, "bias_A", hb_json_num(p->bias_meas_a));
-		json_object_set_new(o, "supply_V", hb_json_num(p->supply_v));
-		json_object_set_new(o, "freq_Hz", hb_json_num(p->freq_hz));
-		json_object_set_new(o, c1, hb_json_num(p->primary));
-		json_object_set_new(o, c2, hb_json_num(p->secondary));
-		json_object_set_new(o, "reading_status", json_string(hb_status_name(p->reading_status)));
-		json_object_set_new(o, "t_s", hb_json_num(p->t_s));
-		json_object_set_new(o, "settle_readings", json_integer(p->settle_readings));
-		json_object_set_new(o, "settle_s", hb_json_num(p->settle_s));
-		json_object_set_new(o, "bias_spread_A", hb_json_num(p->bias_spread_a));
-		json_object_set_new(o, "settled", json_boolean(p->settled));
-		json_array_append_new(arr, o);
-	}
-	return arr;
-}
-
-static json_t *verdicts_json(const hb_db_verdict *v, size_t n)
-{
-	json_t *arr = json_array();
-	for (size_t i = 0; i < n; i++) {
-		json_t *o = json_object();
-		json_object_set_new(o, "check", json_string(v[i].check_name));
-		json_object_set_new(o, "measured", hb_json_num(v[i].measured));
-		json_object_set_new(o, "limit_low", hb_json_num(v[i].limit_low));
-		json_object_set_new(o, "limit_high", hb_json_num(v[i].limit_high));
-		json_object_set_new(o, "margin", hb_json_num(v[i].margin));
-		json_object_set_new(o, "outcome", json_string(hb_db_outcome_name(v[i].outcome)));
-		json_object_set_new(o, "note", json_string(v[i].note));
-		json_array_append_new(arr, o);
-	}
-	return arr;
-}
-
-static void csv_num(double v, bool last)
-{
-	if (!isnan(v))
-		printf("%.10g", v);
-	putchar(last ? '\n' : ',');
-}
-
-static void print_csv(const hb_db_sweep *s, const hb_db_point *pts, size_t n)
-{
-	printf("seq,direction,bias_set_A,bias_A,supply_V,freq_Hz,%s,%s,reading_status,t_s,settle_readings,settle_s\n",
-	       reading_column(s->measured_pair, 0), reading_column(s->measured_pair, 1));
-	for (size_t i = 0; i < n; i++) {
-		const hb_db_point *p = &pts[i];
-		printf("%d,%s,", p->seq, p->direction == HB_DB_DIR_DOWN ? "down" : "up");
-		csv_num(p->bias_set_a, false);
-		csv_num(p->bias_meas_a, false);
-		csv_num(p->supply_v, false);
-		csv_num(p->freq_hz, false);
-		csv_num(p->primary, false);
-		csv_num(p->secondary, false);
-		printf("%s,", p->reading_status == 0 ? "ok" : hb_status_name(p->reading_status));
-		csv_num(p->t_s, false);
-		printf("%d,", p->settle_readings);
-		csv_num(p->settle_s, true);
-	}
 }
 
 static const char *si(char *buf, size_t cap, double v, const char *unit)
@@ -369,7 +233,7 @@ static void print_text(const hb_db_sweep *s, const hb_db_point *pts, size_t n, c
 		printf("  check %-12s  %-10s measured %.6g, limits [%.6g, %.6g], margin %.3g\n", v[i].check_name,
 		       hb_db_outcome_name(v[i].outcome), v[i].measured, v[i].limit_low, v[i].limit_high, v[i].margin);
 	printf("\n%5s %-4s %12s %12s %12s %14s %14s %9s %6s\n", "seq", "dir", "bias_set_A", "bias_A", "freq_Hz",
-	       reading_column(s->measured_pair, 0), reading_column(s->measured_pair, 1), "t_s", "status");
+	       hb_io_reading_column(s->measured_pair, 0), hb_io_reading_column(s->measured_pair, 1), "t_s", "status");
 	for (size_t i = 0; i < n; i++) {
 		const hb_db_point *p = &pts[i];
 		printf("%5d %-4s %12.6g %12.6g %12.6g %14.7g %14.7g %9.3f %6s\n", p->seq,
@@ -446,12 +310,21 @@ int hb_cmd_show(int argc, char **argv)
 		goto out;
 	}
 	if (json) {
-		json_t *root = sweep_detail_json(&s);
-		json_object_set_new(root, "verdicts", verdicts_json(verdicts, nv));
-		json_object_set_new(root, "data", points_json(&s, pts, n));
+		/* the very object export --json holds for this sweep: one serialiser */
+		char err[300] = "";
+		json_t *root = hb_json_sweep_record(db, &s, err, sizeof err);
+		if (!root) {
+			hb_cli_error("show: %s", err);
+			goto out;
+		}
 		exit_code = hb_print_json(root) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	} else if (csv) {
-		print_csv(&s, pts, n);
+		/* the export's table of this one sweep, so it imports back */
+		char err[300] = "";
+		if (hb_export_csv(db, &s.id, 1, stdout, err, sizeof err) != HB_OK || fflush(stdout) != 0) {
+			hb_cli_error("show: %s", err[0] ? err : "cannot write to standard output");
+			goto out;
+		}
 		exit_code = HB_EXIT_OK;
 	} else {
 		print_text(&s, pts, n, verdicts, nv);

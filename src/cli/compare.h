@@ -17,7 +17,7 @@ enum { HB_COMPARE_MAX_CURRENTS = 16, HB_COMPARE_MAX_SWEEPS = 32 };
 
 typedef struct hb_compare_column {
 	int64_t sweep_id;
-	char part_number[HB_DB_ID_LEN], serial[HB_DB_ID_LEN], lot_code[HB_DB_ID_LEN];
+	char part_number[HB_DB_ID_LEN], serial[HB_DB_ID_LEN], lot_code[HB_DB_ID_LEN], station[HB_DB_ID_LEN];
 	char started_iso[HB_DB_TIME_LEN];
 	char status[16];
 	double l0_h, i_drop_a[HB_DB_HISTORY_DROPS], mu_e, gap_m; /* newest fit; NAN if none */

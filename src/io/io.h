@@ -1,4 +1,4 @@
-/* src/io/io.h - sweeps in and out as files: CSV and JSON export, CSV import, the JSON blocks show and export share */
+/* src/io/io.h - sweeps in and out as files: the one CSV writer, the one JSON serialiser per record, export, CSV import */
 #ifndef HB_IO_H
 #define HB_IO_H
 
@@ -9,6 +9,7 @@
 
 #include <jansson.h>
 
+#include "../../common/hb_text.h"
 #include "../../db/hb_db.h"
 
 /* On error a one-line explanation is left in err (which may be NULL). */
@@ -71,21 +72,78 @@ const char *hb_import_role_name(hb_import_role role); /* "current", "inductance"
 int hb_import_csv(hb_db *db, const char *path, const hb_import_options *opt, hb_import_result *res, char *err,
 		  size_t errlen);
 
-/* ---------------- JSON blocks (json.c) ---------------- */
+/* ---------------- CSV: the one writer (csv_write.c) ---------------- */
+
+/*
+ * Every CSV henrybench writes (export, show --csv, history --csv) goes
+ * through this writer, so all share one dialect: RFC 4180 quoting (a field
+ * holding a comma, quote, CR or LF, or starting or ending with a space, is
+ * quoted, quotes doubled), CRLF row ends, C-locale numbers in the fewest
+ * digits that read back as the same double, an empty cell for a value not
+ * known. Column names carry SI units: bias_measured_A, L_H, frequency_Hz.
+ * Between begin and end this thread's LC_NUMERIC is "C".
+ */
+typedef struct hb_csv_writer {
+	FILE *out;
+	size_t col;        /* cells written in the current row */
+	hb_c_numeric loc;
+} hb_csv_writer;
+
+void hb_csv_begin(hb_csv_writer *w, FILE *out);
+void hb_csv_text(hb_csv_writer *w, const char *s); /* NULL = empty cell */
+void hb_csv_num(hb_csv_writer *w, double v);       /* NaN, infinity = empty cell */
+void hb_csv_int(hb_csv_writer *w, long long v);
+void hb_csv_row_end(hb_csv_writer *w);
+/* HB_OK, or HB_ERR_IO when a write to the stream failed. */
+int hb_csv_end(hb_csv_writer *w);
+/* v as the CSV writer writes it ("" for NaN, infinity); returns buf. */
+char *hb_csv_format_num(char *buf, size_t cap, double v);
+
+/* ---------------- JSON: one serialiser per stored record (json.c) ---------------- */
+
+/*
+ * show, export, sweeps and part build their documents from
+ * these, so one record has one set of keys wherever it appears. Keys name
+ * their SI unit (bias_measured_A, frequency_Hz, L_H); a value not known is
+ * null. Each returns a new reference.
+ */
 
 /* A JSON number, or null for NaN and infinity (JSON has neither). */
 json_t *hb_json_num(double v);
+/* Column (and JSON key) of reading which (0 primary, 1 secondary) of a
+ * measured pair: "Ls-Rs" -> "L_H", "R_ohm"; "Z-theta" -> "Z_ohm", "theta_deg";
+ * unknown -> "primary", "secondary". */
+const char *hb_io_reading_column(const char *pair, int which);
+/* "ok" or the status name of a point's reading. */
+const char *hb_io_reading_status(int status);
 
-/* The parts of a stored sweep that show and export write with the same keys,
- * so the two documents cannot drift apart: the sweep object begun with its id,
- * kind, status and times; its "instruments" object; and a "settings" object
- * begun with the test conditions (frequency, level, bias, circuit, pair).
- * The caller completes each in its own layout. */
-json_t *hb_json_sweep_head(const hb_db_sweep *s);
-json_t *hb_json_sweep_instruments(const hb_db_sweep *s);
-json_t *hb_json_sweep_conditions(const hb_db_sweep *s);
+json_t *hb_json_part(const hb_db_part *p);
+/* A listed sweep: id, kind, status, times, part_number, serial, lot_code,
+ * station, operator, n_points. */
+json_t *hb_json_sweep_summary(const hb_db_sweep *s);
+/* A sweep with its instruments, "settings" and "supply_record" (no points). */
+json_t *hb_json_sweep(const hb_db_sweep *s);
 /* What the supply's state machine recorded: current found flowing at the
  * start, current at switch-off, decay time (null where unknown). */
 json_t *hb_json_supply_record(const hb_db_sweep *s);
+/* One point; its reading keys follow s->measured_pair. */
+json_t *hb_json_point(const hb_db_sweep *s, const hb_db_point *p);
+/* A stored fit with its values: each value an object of value, std_err,
+ * unit and, when they apply, reason and misfit (docs/fitting.md). */
+json_t *hb_json_fit(const hb_db_fit *f);
+json_t *hb_json_verdict(const hb_db_verdict *v);
+/* The whole stored sweep: hb_json_sweep with "points", "fit" (the latest,
+ * or null) and "verdicts". `show --json` prints it; `export --json` holds
+ * one per sweep. NULL with err on a store error. */
+json_t *hb_json_sweep_record(hb_db *db, const hb_db_sweep *s, char *err, size_t errlen);
+
+/* A unit's result from its newest fit, as `history` lists it per unit and
+ * `compare` per sweep: sweep_id, started, station, lot_code (null: none),
+ * serial, L0_H, I_drop_A (keyed by the percentage), mu_e, gap_m, verdict. */
+json_t *hb_json_unit_result(const hb_db_history_row *r, const int drop_percent[HB_DB_HISTORY_DROPS]);
+
+/* Writes root as indented JSON and a newline: C locale, 17 significant
+ * digits (every double reads back exactly). HB_OK or HB_ERR_IO. */
+int hb_json_write(const json_t *root, FILE *out);
 
 #endif
