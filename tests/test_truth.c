@@ -85,9 +85,12 @@ static const truth_dynamics dynamics[] = {
 	{ "fast", NULL, 0.2e-3, 0.01 },
 	{ "lag40ms", NULL, 40e-3, 0.01 },
 	{ "lag200ms-slow-readback", NULL, 200e-3, 0.05 },
-	/* { "lag40", "lag40" }, { "slew", "slew" }, { "overshoot", "overshoot" },
-	 * { "filtered", "filtered" }, { "latent", "latent" }: once
-	 * hb_sim_load_dynamics is merged. */
+	/* the simulator's named presets (docs/simulator.md): a slew-rate limit,
+	 * an underdamped second-order response, a filtered and a late read-back */
+	{ "slew", "slew", 0, 0 },
+	{ "overshoot", "overshoot", 0, 0 },
+	{ "filtered", "filtered", 0, 0 },
+	{ "latent", "latent", 0, 0 },
 };
 
 #define N_PARTS (sizeof parts / sizeof parts[0])
@@ -149,12 +152,6 @@ static bool env_on(const char *name)
 	return v && *v && strcmp(v, "0") != 0;
 }
 
-/* Weak: the simulator's dynamics presets are being added elsewhere; a
- * configuration naming one is skipped (with a message) while the function
- * is absent. A weak reference does not pull a member out of libhb.a: if
- * the presets land in an object file nothing else uses, drop the weak
- * attribute then, or their rows stay skipped. */
-extern int hb_sim_load_dynamics(hb_sim *sim, const char *name) __attribute__((weak));
 
 static int configure_sim(const truth_config *c, unsigned seed, double time_scale)
 {
@@ -163,6 +160,11 @@ static int configure_sim(const truth_config *c, unsigned seed, double time_scale
 		return HB_ERR_NOMEM;
 	hb_sim_inproc_lock();
 	int rc = hb_sim_load_preset(sim, c->part->preset);
+	/* Every configuration starts from the plain first-order supply, so a
+	 * preset an earlier configuration loaded (a slew limit, a second-order
+	 * response, a late read-back) does not linger. */
+	if (rc == HB_OK)
+		rc = hb_sim_load_dynamics(sim, c->dyn->preset ? c->dyn->preset : "default");
 	struct {
 		const char *key;
 		double v;
@@ -178,8 +180,6 @@ static int configure_sim(const truth_config *c, unsigned seed, double time_scale
 			continue;
 		rc = hb_sim_set_param(sim, kv[i].key, kv[i].v);
 	}
-	if (rc == HB_OK && c->dyn->preset)
-		rc = hb_sim_load_dynamics ? hb_sim_load_dynamics(sim, c->dyn->preset) : HB_ERR_UNSUPPORTED;
 	if (rc != HB_OK && rc != HB_ERR_UNSUPPORTED)
 		print_error("simulated bench: %s\n", hb_sim_errmsg(sim));
 	hb_sim_inproc_unlock();
@@ -467,11 +467,6 @@ static hb_db *open_store(const truth_config *c)
 static void test_one_run(void **state)
 {
 	const truth_config *c = *state;
-	if (c->dyn->preset && !hb_sim_load_dynamics) {
-		print_message("%s: hb_sim_load_dynamics not in this build\n", c->label);
-		skip();
-		return;
-	}
 	hb_db *db = open_store(c);
 	hb_db_part part;
 	part_record(c->part, &part);
@@ -539,10 +534,6 @@ static int coverage_runs(void)
 static void test_coverage(void **state)
 {
 	const truth_config *c = *state;
-	if (c->dyn->preset && !hb_sim_load_dynamics) {
-		skip();
-		return;
-	}
 	int runs = coverage_runs();
 	hb_db *db = open_store(c);
 	hb_db_part part;
