@@ -399,7 +399,7 @@ static void completion_command(FILE *out, const hb_cmd_opts *cmd)
 		fprintf(out, "--%s ", o->name);
 	fprintf(out, "--%s\"\n", help_opt.name);
 	if (cmd->operands)
-		fprintf(out, "\t\t[ \"$nops\" -eq 0 ] && [[ $cur != -* ]] && opts=\"%s\"\n", cmd->operands);
+		fprintf(out, "\t\twords=\"%s\"\n", cmd->operands);
 	fprintf(out, "\t\t;;\n");
 }
 
@@ -411,7 +411,7 @@ void hb_opts_completion_bash(FILE *out)
 		"_henrybench()\n"
 		"{\n"
 		"\tlocal cur=${COMP_WORDS[COMP_CWORD]} prev=${COMP_WORDS[COMP_CWORD-1]}\n"
-		"\tlocal cmd= opts= nops=0 i\n"
+		"\tlocal cmd= opts= words= nops=0 i\n"
 		"\tfor ((i = 1; i < COMP_CWORD; i++)); do\n"
 		"\t\tcase ${COMP_WORDS[i]} in\n"
 		"\t\t--db) ((i++)) ;;\n"
@@ -434,6 +434,8 @@ void hb_opts_completion_bash(FILE *out)
 	fprintf(out,
 		"\tesac\n"
 		"\t[ -n \"$cmd\" ] && opts=\"$opts --db --trace\"\n"
+		"\t# the first operand (a subcommand, a shape) before any option\n"
+		"\t[ -n \"$words\" ] && [ \"$nops\" -eq 0 ] && [[ $cur != -* ]] && opts=$words\n"
 		"\tCOMPREPLY=($(compgen -W \"$opts\" -- \"$cur\"))\n"
 		"}\n"
 		"complete -F _henrybench henrybench\n");
