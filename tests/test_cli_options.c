@@ -363,6 +363,131 @@ static void test_completion_lists_every_command_and_option(void **state)
 	}
 }
 
+/* A table of every kind, for the parser's own rules. */
+typedef struct probe {
+	bool flag, json, value_given, stopped;
+	double value;
+	long long id;
+	const char *path;
+	const char *seen[4];
+	int n_seen;
+} probe;
+
+static int take_seen(const hb_opt *o, const char *text, void *field)
+{
+	probe *p = field;
+	(void)o;
+	if (p->n_seen >= 4)
+		return HB_ERR_ARG;
+	p->seen[p->n_seen++] = text;
+	return HB_OK;
+}
+
+static const hb_opt probe_table[] = {
+	{ .name = "flag", .kind = HB_OPT_FLAG, .off = offsetof(probe, flag), .help = "a flag" },
+	{ .name = "json", .alias = 'j', .kind = HB_OPT_FLAG, .off = offsetof(probe, json), .help = "a short alias" },
+	{ .name = "value", .kind = HB_OPT_VALUE, .arg = "A", .unit = "A", .min = 0, .max = 10,
+	  .off = offsetof(probe, value), .given = HB_OPT_GIVEN(probe, value_given), .help = "a value" },
+	{ .name = "valve", .kind = HB_OPT_FLAG, .off = offsetof(probe, flag), .help = "shares a prefix with --value" },
+	{ .name = "id", .kind = HB_OPT_ID, .arg = "ID", .off = offsetof(probe, id), .help = "a record id" },
+	{ .name = "out", .kind = HB_OPT_PATH, .arg = "FILE", .off = offsetof(probe, path), .help = "a path" },
+	{ .name = "seen", .kind = HB_OPT_CUSTOM, .arg = "X", .parse = take_seen, .off = 0, .flags = HB_OPT_REPEAT,
+	  .help = "repeatable" },
+	{ .name = "list", .kind = HB_OPT_FLAG, .off = offsetof(probe, stopped), .flags = HB_OPT_STOP, .help = "stops" },
+	{ .name = NULL },
+};
+
+static const hb_cmd_opts probe_cmd = { .name = "probe", .opts = probe_table, .max_operands = 2 };
+
+static int probe_parse(probe *p, hb_opts_result *res, char **argv, int argc, char *err, size_t cap)
+{
+	memset(p, 0, sizeof *p);
+	FILE *tmp = tmpfile();
+	assert_non_null(tmp);
+	fflush(stderr);
+	int saved = dup(STDERR_FILENO);
+	dup2(fileno(tmp), STDERR_FILENO);
+	int rc = hb_opts_parse(&probe_cmd, argc, argv, p, res);
+	fflush(stderr);
+	dup2(saved, STDERR_FILENO);
+	close(saved);
+	rewind(tmp);
+	size_t n = fread(err, 1, cap - 1, tmp);
+	err[n] = '\0';
+	fclose(tmp);
+	return rc;
+}
+
+/* The parser's rules: --name VALUE and --name=VALUE, unique prefixes,
+ * grouped short aliases, operands anywhere (kept in order), "--",
+ * repeatable options, record ids, STOP options, too many operands. */
+static void test_parser_rules(void **state)
+{
+	(void)state;
+	probe p;
+	hb_opts_result res;
+	char err[512];
+	char *a1[] = { "probe", "op1", "--valu=2.5A", "-j", "--seen", "x", "op2", "--seen=y", "--id", "42", "--out", "f.txt", NULL };
+	assert_int_equal(probe_parse(&p, &res, a1, 12, err, sizeof err), HB_OK);
+	assert_string_equal(err, "");
+	assert_false(res.done);
+	assert_true(p.json && p.value_given);
+	assert_true(fabs(p.value - 2.5) < 1e-12);
+	assert_int_equal(p.id, 42);
+	assert_string_equal(p.path, "f.txt");
+	assert_int_equal(p.n_seen, 2);
+	assert_string_equal(p.seen[0], "x");
+	assert_string_equal(p.seen[1], "y");
+	assert_int_equal(res.first, 10);
+	assert_string_equal(a1[10], "op1");
+	assert_string_equal(a1[11], "op2");
+
+	/* "--" ends the options; what follows is an operand even if it looks like one */
+	char *a2[] = { "probe", "--flag", "--", "--value", NULL };
+	assert_int_equal(probe_parse(&p, &res, a2, 4, err, sizeof err), HB_OK);
+	assert_true(p.flag);
+	assert_false(p.value_given);
+	assert_int_equal(res.first, 2);
+	assert_string_equal(a2[2], "--value");
+
+	/* an ambiguous prefix, a flag given a value, a bad id, too many operands */
+	char *a3[] = { "probe", "--va", "1", NULL };
+	assert_int_equal(probe_parse(&p, &res, a3, 3, err, sizeof err), HB_ERR_ARG);
+	assert_non_null(strstr(err, "ambiguous option '--va'"));
+	char *a4[] = { "probe", "--flag=yes", NULL };
+	assert_int_equal(probe_parse(&p, &res, a4, 2, err, sizeof err), HB_ERR_ARG);
+	assert_non_null(strstr(err, "--flag takes no value"));
+	char *a5[] = { "probe", "--id", "0", NULL };
+	assert_int_equal(probe_parse(&p, &res, a5, 3, err, sizeof err), HB_ERR_ARG);
+	assert_string_equal(err, "henrybench: --id '0' is not a record id: accepted a whole number from 1\n");
+	char *a6[] = { "probe", "a", "b", "c", NULL };
+	assert_int_equal(probe_parse(&p, &res, a6, 4, err, sizeof err), HB_ERR_ARG);
+	assert_non_null(strstr(err, "unexpected argument 'c'"));
+
+	/* a STOP option ends the line: nothing after it is read */
+	char *a7[] = { "probe", "--list", "--bogus", NULL };
+	assert_int_equal(probe_parse(&p, &res, a7, 3, err, sizeof err), HB_OK);
+	assert_true(res.done);
+	assert_ptr_equal(res.stop, &probe_table[7]);
+	assert_true(p.stopped);
+
+	/* -h prints the help (on stdout) and ends the line too */
+	fflush(stdout);
+	int saved = dup(STDOUT_FILENO);
+	FILE *tmp = tmpfile();
+	dup2(fileno(tmp), STDOUT_FILENO);
+	char *a8[] = { "probe", "-jh", NULL };
+	int rc = probe_parse(&p, &res, a8, 2, err, sizeof err);
+	fflush(stdout);
+	dup2(saved, STDOUT_FILENO);
+	close(saved);
+	fclose(tmp);
+	assert_int_equal(rc, HB_OK);
+	assert_true(res.done);
+	assert_null(res.stop);
+	assert_true(p.json);
+}
+
 int main(void)
 {
 	const char *bin = getenv("HENRYBENCH_BIN");
@@ -376,6 +501,7 @@ int main(void)
 	if (!mkdtemp(tmpdir))
 		return 1;
 	const struct CMUnitTest tests[] = {
+		cmocka_unit_test(test_parser_rules),
 		cmocka_unit_test(test_unknown_option_exits_2_with_one_line),
 		cmocka_unit_test(test_out_of_range_names_value_and_range),
 		cmocka_unit_test(test_enum_lists_accepted_words),
