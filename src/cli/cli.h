@@ -125,6 +125,17 @@ typedef struct hb_opts_result {
  * and what is accepted, and HB_ERR_ARG (exit 2). */
 int hb_opts_parse(const hb_cmd_opts *cmd, int argc, char **argv, void *out, hb_opts_result *res);
 
+/* Option arguments several commands share (opt_words.c): a sweep kind,
+ * the ISO 2859-1 inspection level and severity (ENUM match functions and
+ * their words) and an AQL of the ISO 2859-1 series (CUSTOM, into a double). */
+extern const char *const hb_opt_kind_words[];
+extern const char *const hb_opt_level_words[];
+extern const char *const hb_opt_severity_words[];
+int hb_opt_match_kind(const char *text, int *code);
+int hb_opt_match_level(const char *text, int *code);
+int hb_opt_match_severity(const char *text, int *code);
+int hb_opt_take_aql(const hb_opt *o, const char *text, void *field);
+
 /* The command's --help text, generated from its table. */
 void hb_opts_help(const hb_cmd_opts *cmd, FILE *out);
 

@@ -30,8 +30,12 @@ int hb_cmd_completion(int argc, char **argv)
 		return HB_EXIT_USAGE;
 	if (r.done)
 		return HB_EXIT_OK;
-	if (r.first >= argc || strcmp(argv[r.first], "bash") != 0) {
-		hb_cli_error("completion: shell '%s' not supported: accepted bash", r.first < argc ? argv[r.first] : "");
+	if (r.first >= argc) {
+		hb_cli_error("completion needs a SHELL: accepted bash");
+		return HB_EXIT_USAGE;
+	}
+	if (strcmp(argv[r.first], "bash") != 0) {
+		hb_cli_error("completion: shell '%s' not supported: accepted bash", argv[r.first]);
 		return HB_EXIT_USAGE;
 	}
 	hb_opts_completion_bash(stdout);

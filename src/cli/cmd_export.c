@@ -153,17 +153,6 @@ typedef struct import_args {
 	bool no_fit;
 } import_args;
 
-static int match_kind(const char *text, int *code)
-{
-	hb_db_sweep_kind k;
-	if (hb_db_sweep_kind_parse(text, &k) != HB_OK)
-		return HB_ERR_ARG;
-	*code = (int)k;
-	return HB_OK;
-}
-
-static const char *const kind_words[] = { "bias", "frequency", NULL };
-
 static const hb_opt import_table[] = {
 	{ .name = "part", .kind = HB_OPT_TEXT, .arg = "P", .off = offsetof(import_args, opt.part_number),
 	  .help = "stored part (see 'henrybench part add'; required)" },
@@ -171,7 +160,7 @@ static const hb_opt import_table[] = {
 	  .help = "unit serial number (created if new; required)" },
 	{ .name = "lot", .kind = HB_OPT_TEXT, .arg = "L", .off = offsetof(import_args, opt.lot_code),
 	  .help = "lot of the unit" },
-	{ .name = "kind", .kind = HB_OPT_ENUM, .words = kind_words, .match = match_kind,
+	{ .name = "kind", .kind = HB_OPT_ENUM, .words = hb_opt_kind_words, .match = hb_opt_match_kind,
 	  .off = offsetof(import_args, opt.kind), .help = "kind of sweep (default: from the columns)" },
 	{ .name = "columns", .kind = HB_OPT_TEXT, .arg = "MAP", .off = offsetof(import_args, opt.columns),
 	  .help = "e.g. current=A,inductance=L or by 1-based number: inductance=3" },

@@ -60,40 +60,6 @@ static int take_test_level(const hb_opt *o, const char *text, void *field)
 	return HB_ERR_ARG;
 }
 
-/* An AQL must be one of the ISO 2859-1 series, not any number. */
-static int take_aql(const hb_opt *o, const char *text, void *field)
-{
-	double *aql = field;
-	char series[200];
-	if (hb_opt_value("--aql", text, o->unit, -INFINITY, INFINITY, aql) != HB_OK)
-		return HB_ERR_ARG;
-	if (hb_iso2859_aql_index(*aql) < 0) {
-		hb_cli_error("--aql %s is not in the ISO 2859-1 series (accepted: %s)", text,
-			     hb_iso2859_aql_series_text(series, sizeof series));
-		*aql = NAN;
-		return HB_ERR_ARG;
-	}
-	return HB_OK;
-}
-
-static int match_level(const char *text, int *code)
-{
-	hb_insp_level level;
-	if (hb_iso2859_parse_level(text, &level) != HB_OK)
-		return HB_ERR_ARG;
-	*code = (int)level;
-	return HB_OK;
-}
-
-static int match_severity(const char *text, int *code)
-{
-	hb_severity severity;
-	if (hb_iso2859_parse_severity(text, &severity) != HB_OK)
-		return HB_ERR_ARG;
-	*code = (int)severity;
-	return HB_OK;
-}
-
 static int match_part_fault(const char *text, int *code)
 {
 	if (strcasecmp(text, "nonconforming") == 0)
@@ -105,8 +71,6 @@ static int match_part_fault(const char *text, int *code)
 	return HB_OK;
 }
 
-static const char *const level_words[] = { "S-1", "S-2", "S-3", "S-4", "I", "II", "III", NULL };
-static const char *const severity_words[] = { "normal", "tightened", "reduced", NULL };
 static const char *const part_fault_words[] = { "nonconforming", "retest", NULL };
 
 static const hb_opt inspect_table[] = {
@@ -116,16 +80,16 @@ static const hb_opt inspect_table[] = {
 	  .help = "lot code (required)" },
 	{ .name = "lot-size", .kind = HB_OPT_LONG, .arg = "N", .min = 2, .max = 1000000000L,
 	  .off = offsetof(inspect_args, lot_size), .help = "units in the lot (required)" },
-	{ .name = "aql", .kind = HB_OPT_CUSTOM, .arg = "AQL", .unit = "", .parse = take_aql,
+	{ .name = "aql", .kind = HB_OPT_CUSTOM, .arg = "AQL", .unit = "", .parse = hb_opt_take_aql,
 	  .off = offsetof(inspect_args, aql),
 	  .help = "acceptance quality limit, one of the ISO 2859-1 series (e.g. 0.65 1.0 2.5 4.0; required)" },
 	{ .name = "lcr", .kind = HB_OPT_TEXT, .arg = "RES", .off = offsetof(inspect_args, lcr),
 	  .help = "the meter's resource (required)" },
 	{ .name = "supply", .kind = HB_OPT_TEXT, .arg = "RES", .off = offsetof(inspect_args, supply),
 	  .help = "the bias supply's resource (required)" },
-	{ .name = "level", .kind = HB_OPT_ENUM, .words = level_words, .match = match_level,
+	{ .name = "level", .kind = HB_OPT_ENUM, .words = hb_opt_level_words, .match = hb_opt_match_level,
 	  .off = offsetof(inspect_args, level), .help = "inspection level (default II)" },
-	{ .name = "severity", .kind = HB_OPT_ENUM, .words = severity_words, .match = match_severity,
+	{ .name = "severity", .kind = HB_OPT_ENUM, .words = hb_opt_severity_words, .match = hb_opt_match_severity,
 	  .off = offsetof(inspect_args, severity), .help = "inspection severity (default normal)" },
 	{ .name = "serials", .kind = HB_OPT_PATH, .arg = "FILE", .off = offsetof(inspect_args, serials_file),
 	  .help = "serial numbers in draw order, one per line" },

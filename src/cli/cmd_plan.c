@@ -10,43 +10,6 @@
 #include "cli.h"
 #include "../quality/quality.h"
 
-/* An AQL must be one of the ISO 2859-1 series, not any number. */
-static int take_aql(const hb_opt *o, const char *text, void *field)
-{
-	double *aql = field;
-	char series[200];
-	if (hb_opt_value("--aql", text, o->unit, -INFINITY, INFINITY, aql) != HB_OK)
-		return HB_ERR_ARG;
-	if (hb_iso2859_aql_index(*aql) < 0) {
-		hb_cli_error("--aql %s is not in the ISO 2859-1 series (accepted: %s)", text,
-			     hb_iso2859_aql_series_text(series, sizeof series));
-		*aql = NAN;
-		return HB_ERR_ARG;
-	}
-	return HB_OK;
-}
-
-static int match_level(const char *text, int *code)
-{
-	hb_insp_level level;
-	if (hb_iso2859_parse_level(text, &level) != HB_OK)
-		return HB_ERR_ARG;
-	*code = (int)level;
-	return HB_OK;
-}
-
-static int match_severity(const char *text, int *code)
-{
-	hb_severity severity;
-	if (hb_iso2859_parse_severity(text, &severity) != HB_OK)
-		return HB_ERR_ARG;
-	*code = (int)severity;
-	return HB_OK;
-}
-
-static const char *const level_words[] = { "S-1", "S-2", "S-3", "S-4", "I", "II", "III", NULL };
-static const char *const severity_words[] = { "normal", "tightened", "reduced", NULL };
-
 typedef struct plan_args {
 	long lot;
 	double aql;
@@ -58,12 +21,12 @@ typedef struct plan_args {
 static const hb_opt plan_table[] = {
 	{ .name = "lot-size", .kind = HB_OPT_LONG, .arg = "N", .min = 2, .max = 1000000000L,
 	  .off = offsetof(plan_args, lot), .help = "units in the lot (required)" },
-	{ .name = "aql", .kind = HB_OPT_CUSTOM, .arg = "AQL", .unit = "", .parse = take_aql,
+	{ .name = "aql", .kind = HB_OPT_CUSTOM, .arg = "AQL", .unit = "", .parse = hb_opt_take_aql,
 	  .off = offsetof(plan_args, aql),
 	  .help = "acceptance quality limit, % nonconforming (or nonconformities per 100 units above 10; required)" },
-	{ .name = "level", .kind = HB_OPT_ENUM, .words = level_words, .match = match_level,
+	{ .name = "level", .kind = HB_OPT_ENUM, .words = hb_opt_level_words, .match = hb_opt_match_level,
 	  .off = offsetof(plan_args, level), .help = "inspection level (default II)" },
-	{ .name = "severity", .kind = HB_OPT_ENUM, .words = severity_words, .match = match_severity,
+	{ .name = "severity", .kind = HB_OPT_ENUM, .words = hb_opt_severity_words, .match = hb_opt_match_severity,
 	  .off = offsetof(plan_args, severity), .help = "inspection severity (default normal)" },
 	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(plan_args, json), .help = "one JSON object on stdout" },
 	{ .name = NULL },

@@ -66,17 +66,7 @@ static int match_status(const char *text, int *code)
 	return HB_OK;
 }
 
-static int match_kind(const char *text, int *code)
-{
-	hb_db_sweep_kind k;
-	if (hb_db_sweep_kind_parse(text, &k) != HB_OK)
-		return HB_ERR_ARG;
-	*code = (int)k;
-	return HB_OK;
-}
-
 static const char *const status_words[] = { "running", "complete", "aborted", "failed", "interrupted", NULL };
-static const char *const kind_words[] = { "bias", "frequency", NULL };
 
 typedef struct sweeps_args {
 	hb_db_sweep_filter f;
@@ -90,7 +80,7 @@ static const hb_opt sweeps_table[] = {
 	{ .name = "lot", .kind = HB_OPT_TEXT, .arg = "L", .off = offsetof(sweeps_args, f.lot_code), .help = "lot code" },
 	{ .name = "status", .kind = HB_OPT_ENUM, .words = status_words, .match = match_status,
 	  .off = offsetof(sweeps_args, f.status), .help = "how the sweep ended" },
-	{ .name = "kind", .kind = HB_OPT_ENUM, .words = kind_words, .match = match_kind,
+	{ .name = "kind", .kind = HB_OPT_ENUM, .words = hb_opt_kind_words, .match = hb_opt_match_kind,
 	  .off = offsetof(sweeps_args, f.kind), .help = "kind of sweep" },
 	{ .name = "since", .kind = HB_OPT_CUSTOM, .arg = "DATE", .parse = take_since, .off = offsetof(sweeps_args, f.since),
 	  .help = "started on or after DATE (UTC), e.g. 2024-05-01 or 2024-05-01T08:00Z" },

@@ -127,15 +127,14 @@ static const hb_opt *find_long(const hb_cmd_opts *cmd, const char *name, size_t 
 {
 	const hb_opt *prefix = NULL;
 	int n_prefix = 0;
-	for (const hb_opt *o = cmd->opts; ; o++) {
+	for (const hb_opt *o = cmd->opts;; o++) {
 		if (!o->name)
 			o = &help_opt;
-		if (strlen(o->name) == len && strncmp(o->name, name, len) == 0)
-			return o;
 		if (strncmp(o->name, name, len) == 0) {
-			if (!prefix || prefix != o)
-				n_prefix++;
+			if (strlen(o->name) == len)
+				return o;
 			prefix = o;
+			n_prefix++;
 		}
 		if (o == &help_opt)
 			break;
@@ -143,7 +142,7 @@ static const hb_opt *find_long(const hb_cmd_opts *cmd, const char *name, size_t 
 	if (n_prefix == 1 && len > 0)
 		return prefix;
 	hb_cli_error("%s: %s option '%s' (try 'henrybench %s --help')", cmd->name,
-		     n_prefix > 1 ? "ambiguous" : "unknown", word, cmd->name);
+		     n_prefix > 1 && len > 0 ? "ambiguous" : "unknown", word, cmd->name);
 	return NULL;
 }
 
