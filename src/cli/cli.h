@@ -12,14 +12,20 @@
 /* Exit statuses of every command. */
 enum { HB_EXIT_OK = 0, HB_EXIT_RUNTIME = 1, HB_EXIT_USAGE = 2, HB_EXIT_SIGINT = 130 };
 
-/* A command: argv[0] is the command name; getopt_long state is fresh. */
+/* A command: argv[0] is the command name; it parses the rest with hb_opts_parse. */
 typedef int (*hb_command_fn)(int argc, char **argv);
+
+struct hb_cmd_opts;
 
 typedef struct hb_command {
 	const char *name;
 	hb_command_fn run;
 	const char *summary;
+	const struct hb_cmd_opts *opts; /* its option table (help, completion) */
 } hb_command;
+
+/* Every command, in the order --help lists them (commands.c); ended by a NULL name. */
+extern const hb_command hb_commands[];
 
 /* Options every command accepts, set from the environment and the command line. */
 typedef struct hb_global_opts {
@@ -45,6 +51,96 @@ void hb_cli_error(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
  * -INFINITY/INFINITY for none. */
 int hb_opt_value(const char *option, const char *text, const char *unit, double min, double max, double *value);
 int hb_opt_int(const char *option, const char *text, long min, long max, long *value);
+
+/* Formats the inclusive range min..max of a value in unit as "1 Hz to 1 GHz",
+ * "up to 5 A" or "from 0 A" (unit "%": fractions shown as percent). */
+char *hb_opt_range_text(char *buf, size_t cap, const char *unit, double min, double max);
+
+/* ---------------- one option table per command (opt_table.c) ---------------- */
+
+/* What an option's argument is; each kind decides parsing, the range check,
+ * its --help line and its shell completion. */
+typedef enum hb_opt_kind {
+	HB_OPT_FLAG,   /* no argument: bool set true */
+	HB_OPT_TEXT,   /* const char *, free text (part number, serial, resource) */
+	HB_OPT_PATH,   /* const char *, a file name (completed as one) */
+	HB_OPT_VALUE,  /* double: engineering value in unit, min..max */
+	HB_OPT_INT,    /* int: whole number, min..max */
+	HB_OPT_LONG,   /* long: whole number, min..max */
+	HB_OPT_ENUM,   /* int: one of words (stored as codes[i], else i) */
+	HB_OPT_ID,     /* long long: a positive record id */
+	HB_OPT_CUSTOM, /* parse() decides; words, when given, are offered in help and completion */
+} hb_opt_kind;
+
+/* hb_opt.flags */
+enum {
+	HB_OPT_REPEAT = 1u, /* may be given more than once (parse() collects them) */
+	HB_OPT_STOP = 2u,   /* ends the command line: the command acts on it alone (like --help) */
+};
+
+typedef struct hb_opt {
+	const char *name;          /* long name without "--"; NULL ends a table */
+	char alias;                /* short alias ("-j"), or 0 */
+	hb_opt_kind kind;
+	const char *arg;           /* argument's name in --help ("A", "N", "FILE"); ENUM: words joined by | */
+	const char *unit;          /* HB_OPT_VALUE: the SI unit (hb_parse_value) */
+	double min, max;           /* VALUE, INT, LONG: inclusive range */
+	const char *const *words;  /* ENUM: accepted words, NULL-terminated; CUSTOM: offered ones */
+	const int *codes;          /* ENUM: value stored for words[i]; NULL = i */
+	const char *const *(*words_fn)(void); /* words known only at run time (offered, not checked), or NULL */
+	int (*match)(const char *text, int *code);                 /* ENUM: own matching (aliases), or NULL */
+	int (*parse)(const struct hb_opt *o, const char *text, void *field); /* CUSTOM: HB_ERR_ARG after the one-line error */
+	size_t off;                /* where the value goes: offsetof in the command's struct */
+	size_t given;              /* HB_OPT_GIVEN(type, member) of a bool set when given; 0 = none */
+	unsigned flags;
+	const char *help;          /* one line for --help */
+} hb_opt;
+
+/* The bool at member is set true whenever the option is given. */
+#define HB_OPT_GIVEN(type, member) (offsetof(type, member) + 1)
+
+/* A command's whole command line. */
+typedef struct hb_cmd_opts {
+	const char *name;          /* as typed after henrybench: "sweep" */
+	const char *usage;         /* after "usage: henrybench NAME ", may hold "\n       henrybench ..." */
+	const char *about;         /* description paragraph (what the table cannot say), or NULL */
+	const hb_opt *opts;        /* the table, ended by { .name = NULL } */
+	int max_operands;          /* operands accepted after the options; -1 = the command counts them */
+	const char *operands;      /* words completed as the first operand ("add list show edit"), or NULL */
+	const char *epilog;        /* text after the option list, or NULL */
+} hb_cmd_opts;
+
+typedef struct hb_opts_result {
+	int first;                 /* argv[first..argc) are the operands, in order */
+	bool done;                 /* --help printed or a STOP option met: the command exits 0 after it */
+	const hb_opt *stop;        /* the STOP option met (NULL for --help) */
+} hb_opts_result;
+
+/* Parses argv[1..argc) (argv[0] is the command) against cmd's table into
+ * out (the struct the offsets point into): long options (--name VALUE,
+ * --name=VALUE, a unique prefix), short aliases, "--" ending options, and
+ * operands anywhere (moved to the end of argv, in order). --help and -h
+ * print the help and set res->done. Every value is parsed and range-checked
+ * by its kind; a bad one is one line on stderr naming the option, the value
+ * and what is accepted, and HB_ERR_ARG (exit 2). */
+int hb_opts_parse(const hb_cmd_opts *cmd, int argc, char **argv, void *out, hb_opts_result *res);
+
+/* Option arguments several commands share (opt_words.c): a sweep kind,
+ * the ISO 2859-1 inspection level and severity (ENUM match functions and
+ * their words) and an AQL of the ISO 2859-1 series (CUSTOM, into a double). */
+extern const char *const hb_opt_kind_words[];
+extern const char *const hb_opt_level_words[];
+extern const char *const hb_opt_severity_words[];
+int hb_opt_match_kind(const char *text, int *code);
+int hb_opt_match_level(const char *text, int *code);
+int hb_opt_match_severity(const char *text, int *code);
+int hb_opt_take_aql(const hb_opt *o, const char *text, void *field);
+
+/* The command's --help text, generated from its table. */
+void hb_opts_help(const hb_cmd_opts *cmd, FILE *out);
+
+/* The bash completion script for every command of hb_commands. */
+void hb_opts_completion_bash(FILE *out);
 
 /* Parses a positive sweep id or prints the one-line error. */
 int hb_cli_parse_sweep_id(const char *text, long long *id);
@@ -84,5 +180,27 @@ int hb_cmd_compare(int argc, char **argv);
 int hb_cmd_report(int argc, char **argv);
 int hb_cmd_export(int argc, char **argv);
 int hb_cmd_import(int argc, char **argv);
+int hb_cmd_completion(int argc, char **argv);
+
+/* The option table of each command (in its cmd_*.c). */
+extern const hb_cmd_opts hb_opts_ports;
+extern const hb_cmd_opts hb_opts_identify;
+extern const hb_cmd_opts hb_opts_sim;
+extern const hb_cmd_opts hb_opts_demo;
+extern const hb_cmd_opts hb_opts_core;
+extern const hb_cmd_opts hb_opts_sweep;
+extern const hb_cmd_opts hb_opts_fsweep;
+extern const hb_cmd_opts hb_opts_fit;
+extern const hb_cmd_opts hb_opts_plan;
+extern const hb_cmd_opts hb_opts_sweeps;
+extern const hb_cmd_opts hb_opts_show;
+extern const hb_cmd_opts hb_opts_part;
+extern const hb_cmd_opts hb_opts_inspect;
+extern const hb_cmd_opts hb_opts_history;
+extern const hb_cmd_opts hb_opts_compare;
+extern const hb_cmd_opts hb_opts_report;
+extern const hb_cmd_opts hb_opts_export;
+extern const hb_cmd_opts hb_opts_import;
+extern const hb_cmd_opts hb_opts_completion;
 
 #endif

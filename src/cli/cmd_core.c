@@ -1,6 +1,6 @@
 /* src/cli/cmd_core.c - the `core` command: effective core parameters (IEC 60205) and expected inductance */
-#include <getopt.h>
 #include <math.h>
+#include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -12,42 +12,10 @@
 
 #define MAX_SECTIONS 32
 
-static void usage(FILE *out)
-{
-	fprintf(out,
-		"usage: henrybench core toroid --od D --id D --height H [WINDING] [--json]\n"
-		"       henrybench core sections --section LEN:AREA [--section ...] [WINDING] [--json]\n"
-		"       henrybench core solenoid --diameter D --length L --turns N [--json]\n"
-		"  WINDING: --turns N with --mu MU [--gap G] or --al AL  (expected inductance)\n"
-		"Effective parameters per IEC 60205: C1 = sum l/A, C2 = sum l/A^2, le = C1^2/C2,\n"
-		"Ae = C1/C2, Ve = le Ae; gapped: mu_e = mu/(1 + mu g/le); L = mu0 mu_e N^2 Ae/le = AL N^2.\n"
-		"Solenoid: single-layer air core, exact current-sheet value (Nagaoka) and Wheeler 1928.\n"
-		"Values take SI prefixes and units: 25mm, 50mm2, 250nH, 0.3mm.\n");
-}
-
 typedef struct winding {
 	bool have_turns, have_mu, have_al, have_gap;
 	double turns, mu, al, gap;
 } winding;
-
-enum { OPT_OD = 256, OPT_ID, OPT_HEIGHT, OPT_SECTION, OPT_TURNS, OPT_MU, OPT_AL, OPT_GAP, OPT_DIAMETER, OPT_LENGTH,
-       OPT_JSON };
-
-static const struct option options[] = {
-	{ "od", required_argument, NULL, OPT_OD },
-	{ "id", required_argument, NULL, OPT_ID },
-	{ "height", required_argument, NULL, OPT_HEIGHT },
-	{ "section", required_argument, NULL, OPT_SECTION },
-	{ "turns", required_argument, NULL, OPT_TURNS },
-	{ "mu", required_argument, NULL, OPT_MU },
-	{ "al", required_argument, NULL, OPT_AL },
-	{ "gap", required_argument, NULL, OPT_GAP },
-	{ "diameter", required_argument, NULL, OPT_DIAMETER },
-	{ "length", required_argument, NULL, OPT_LENGTH },
-	{ "json", no_argument, NULL, OPT_JSON },
-	{ "help", no_argument, NULL, 'h' },
-	{ NULL, 0, NULL, 0 },
-};
 
 typedef struct core_args {
 	double od, id, height, diameter, length;
@@ -57,8 +25,11 @@ typedef struct core_args {
 	winding w;
 } core_args;
 
-static int parse_section(const char *text, core_args *a)
+/* LENGTH:AREA of one section of the magnetic path; repeatable. */
+static int take_section(const hb_opt *o, const char *text, void *field)
 {
+	core_args *a = field;
+	(void)o;
 	if (a->n_sections >= MAX_SECTIONS) {
 		hb_cli_error("--section: at most %d sections", MAX_SECTIONS);
 		return HB_ERR_ARG;
@@ -77,72 +48,56 @@ static int parse_section(const char *text, core_args *a)
 	return HB_OK;
 }
 
+#define CORE_LENGTH(n, field_, hi, text)                                                                          \
+	{ .name = n, .kind = HB_OPT_VALUE, .arg = "D", .unit = "m", .min = 1e-5, .max = hi,                        \
+	  .off = offsetof(core_args, field_), .given = HB_OPT_GIVEN(core_args, have_##field_), .help = text }
+
+static const hb_opt core_table[] = {
+	CORE_LENGTH("od", od, 10, "toroid: outer diameter"),
+	CORE_LENGTH("id", id, 10, "toroid: inner diameter"),
+	CORE_LENGTH("height", height, 10, "toroid: height"),
+	{ .name = "section", .kind = HB_OPT_CUSTOM, .arg = "LEN:AREA", .parse = take_section, .off = 0,
+	  .flags = HB_OPT_REPEAT, .help = "sections: one section of the path, e.g. 20mm:50mm2 (at most 32)" },
+	{ .name = "turns", .kind = HB_OPT_VALUE, .arg = "N", .unit = "", .min = 1, .max = 1e6,
+	  .off = offsetof(core_args, w.turns), .given = HB_OPT_GIVEN(core_args, w.have_turns),
+	  .help = "number of turns" },
+	{ .name = "mu", .kind = HB_OPT_VALUE, .arg = "MU", .unit = "", .min = 1, .max = 1e6,
+	  .off = offsetof(core_args, w.mu), .given = HB_OPT_GIVEN(core_args, w.have_mu),
+	  .help = "relative permeability of the material" },
+	{ .name = "al", .kind = HB_OPT_VALUE, .arg = "AL", .unit = "H", .min = 1e-12, .max = 1e-2,
+	  .off = offsetof(core_args, w.al), .given = HB_OPT_GIVEN(core_args, w.have_al),
+	  .help = "inductance factor, e.g. 250nH" },
+	{ .name = "gap", .kind = HB_OPT_VALUE, .arg = "G", .unit = "m", .min = 0, .max = 0.1,
+	  .off = offsetof(core_args, w.gap), .given = HB_OPT_GIVEN(core_args, w.have_gap),
+	  .help = "air gap, with --mu" },
+	CORE_LENGTH("diameter", diameter, 10, "solenoid: diameter"),
+	CORE_LENGTH("length", length, 100, "solenoid: length"),
+	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(core_args, json), .help = "one JSON object on stdout" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_core = {
+	.name = "core",
+	.usage = "toroid --od D --id D --height H [WINDING] [--json]\n"
+		 "       henrybench core sections --section LEN:AREA [--section ...] [WINDING] [--json]\n"
+		 "       henrybench core solenoid --diameter D --length L --turns N [--json]\n"
+		 "  WINDING: --turns N with --mu MU [--gap G] or --al AL  (expected inductance)",
+	.about = "Effective parameters per IEC 60205: C1 = sum l/A, C2 = sum l/A^2, le = C1^2/C2,\n"
+		 "Ae = C1/C2, Ve = le Ae; gapped: mu_e = mu/(1 + mu g/le); L = mu0 mu_e N^2 Ae/le = AL N^2.\n"
+		 "Solenoid: single-layer air core, exact current-sheet value (Nagaoka) and Wheeler 1928.\n"
+		 "Values take SI prefixes and units: 25mm, 50mm2, 250nH, 0.3mm.\n",
+	.opts = core_table,
+	.max_operands = 0,
+	.operands = "toroid sections solenoid",
+};
+
+/* argv[0] is the shape. */
 static int parse_args(int argc, char **argv, core_args *a)
 {
-	int c;
-	optind = 1;
-	opterr = 0;
-	while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
-		int rc = HB_OK;
-		switch (c) {
-		case OPT_OD:
-			rc = hb_opt_value("--od", optarg, "m", 1e-5, 10, &a->od);
-			a->have_od = true;
-			break;
-		case OPT_ID:
-			rc = hb_opt_value("--id", optarg, "m", 1e-5, 10, &a->id);
-			a->have_id = true;
-			break;
-		case OPT_HEIGHT:
-			rc = hb_opt_value("--height", optarg, "m", 1e-5, 10, &a->height);
-			a->have_height = true;
-			break;
-		case OPT_SECTION:
-			rc = parse_section(optarg, a);
-			break;
-		case OPT_TURNS:
-			rc = hb_opt_value("--turns", optarg, "", 1, 1e6, &a->w.turns);
-			a->w.have_turns = true;
-			break;
-		case OPT_MU:
-			rc = hb_opt_value("--mu", optarg, "", 1, 1e6, &a->w.mu);
-			a->w.have_mu = true;
-			break;
-		case OPT_AL:
-			rc = hb_opt_value("--al", optarg, "H", 1e-12, 1e-2, &a->w.al);
-			a->w.have_al = true;
-			break;
-		case OPT_GAP:
-			rc = hb_opt_value("--gap", optarg, "m", 0, 0.1, &a->w.gap);
-			a->w.have_gap = true;
-			break;
-		case OPT_DIAMETER:
-			rc = hb_opt_value("--diameter", optarg, "m", 1e-5, 10, &a->diameter);
-			a->have_diameter = true;
-			break;
-		case OPT_LENGTH:
-			rc = hb_opt_value("--length", optarg, "m", 1e-5, 100, &a->length);
-			a->have_length = true;
-			break;
-		case OPT_JSON:
-			a->json = true;
-			break;
-		case 'h':
-			usage(stdout);
-			return 1;
-		default:
-			hb_cli_error("core: unknown or incomplete option '%s' (try 'henrybench core --help')",
-				     argv[optind - 1]);
-			return HB_ERR_ARG;
-		}
-		if (rc != HB_OK)
-			return HB_ERR_ARG;
-	}
-	if (optind < argc) {
-		hb_cli_error("core: unexpected argument '%s'", argv[optind]);
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_core, argc, argv, a, &r) != HB_OK)
 		return HB_ERR_ARG;
-	}
-	return HB_OK;
+	return r.done ? 1 : HB_OK;
 }
 
 static int check_winding(const winding *w)
@@ -292,7 +247,7 @@ static int run_solenoid(core_args *a)
 int hb_cmd_core(int argc, char **argv)
 {
 	if (argc < 2 || strcmp(argv[1], "--help") == 0 || strcmp(argv[1], "-h") == 0) {
-		usage(argc < 2 ? stderr : stdout);
+		hb_opts_help(&hb_opts_core, argc < 2 ? stderr : stdout);
 		return argc < 2 ? HB_EXIT_USAGE : HB_EXIT_OK;
 	}
 	const char *shape = argv[1];

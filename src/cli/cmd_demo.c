@@ -1,7 +1,7 @@
 /* src/cli/cmd_demo.c - the `demo` command: an invented characterisation job run end to end on the simulated bench */
 #include <errno.h>
-#include <getopt.h>
 #include <math.h>
+#include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -23,15 +23,29 @@
 static const double demo_gaps_m[] = { 0.48e-3, 0.50e-3, 0.53e-3 };
 static const char *const demo_serials[] = { "P1-0001", "P1-0002", "P1-0003" };
 
-static void usage(FILE *out)
-{
-	fprintf(out,
-		"usage: henrybench demo [--out DIR] [--fast|--real-time]\n"
-		"Runs an invented job on the simulated bench: a demo part, bias sweeps of three\n"
-		"prototype units whose core gaps differ slightly, a frequency sweep of one, fits and\n"
-		"verdicts for each, a small lot inspection and the reports. Everything goes into a\n"
-		"fresh store DIR/bench.db (default DIR: ./demo-out).\n");
-}
+typedef struct demo_args {
+	const char *out_dir;
+	bool real_time;
+} demo_args;
+
+static const hb_opt demo_table[] = {
+	{ .name = "out", .kind = HB_OPT_PATH, .arg = "DIR", .off = offsetof(demo_args, out_dir),
+	  .help = "folder of the fresh store and the reports (default ./demo-out)" },
+	{ .name = "real-time", .kind = HB_OPT_FLAG, .off = offsetof(demo_args, real_time),
+	  .help = "run against the wall clock at physical speed (default: virtual time, seconds)" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_demo = {
+	.name = "demo",
+	.usage = "[--out DIR] [--real-time]",
+	.about = "Runs an invented job on the simulated bench: a demo part, bias sweeps of three\n"
+		 "prototype units whose core gaps differ slightly, a frequency sweep of one, fits and\n"
+		 "verdicts for each, a small lot inspection and the reports. Everything goes into a\n"
+		 "fresh store DIR/bench.db (default DIR: ./demo-out).\n",
+	.opts = demo_table,
+	.max_operands = 0,
+};
 
 int hb_demo_configure_sim(double time_scale, unsigned seed, double gap_m)
 {
@@ -112,35 +126,18 @@ static int make_dir(const char *dir)
 
 int hb_cmd_demo(int argc, char **argv)
 {
-	static const struct option opts[] = {
-		{ "out", required_argument, NULL, 'o' },
-		{ "real-time", no_argument, NULL, 'r' },
-		{ "help", no_argument, NULL, 'h' },
-		{ NULL, 0, NULL, 0 },
-	};
-	const char *out_dir = "demo-out";
 	/* Virtual time by default: the simulated bench keeps its own clock, so
 	 * the demo takes seconds and two runs store the same readings to the
 	 * bit. --real-time runs it against the wall clock at physical speed. */
 	double time_scale = 1.0;
-	bool real_time = false;
-	int c;
-	optind = 1;
-	opterr = 0;
-	while ((c = getopt_long(argc, argv, "h", opts, NULL)) != -1) {
-		switch (c) {
-		case 'o': out_dir = optarg; break;
-		case 'r': real_time = true; break;
-		case 'h': usage(stdout); return HB_EXIT_OK;
-		default:
-			hb_cli_error("demo: unknown or incomplete option '%s' (try --help)", argv[optind - 1]);
-			return HB_EXIT_USAGE;
-		}
-	}
-	if (optind < argc) {
-		hb_cli_error("demo: unexpected argument '%s'", argv[optind]);
+	demo_args a = { .out_dir = "demo-out" };
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_demo, argc, argv, &a, &r) != HB_OK)
 		return HB_EXIT_USAGE;
-	}
+	if (r.done)
+		return HB_EXIT_OK;
+	const char *out_dir = a.out_dir;
+	bool real_time = a.real_time;
 	if (make_dir(out_dir) != HB_OK)
 		return HB_EXIT_RUNTIME;
 

@@ -1,11 +1,11 @@
 /* src/cli/cmd_export.c - commands `export` (sweeps as CSV or JSON) and `import` (a meter's own CSV log as a stored sweep) */
 #include <ctype.h>
 #include <errno.h>
-#include <getopt.h>
 #include <locale.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdbool.h>
+#include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -24,50 +24,49 @@ static int cmp_id(const void *a, const void *b)
 	return x < y ? -1 : x > y;
 }
 
-static void export_usage(FILE *out)
-{
-	fprintf(out,
-		"usage: henrybench export (SWEEP_ID... | --part P | --lot L [--part P]) (--csv | --json) [--out FILE]\n\n"
-		"Writes stored sweeps for spreadsheets and scripts, SI units named in every column.\n"
-		"  --csv         the points as one RFC 4180 table, one header row\n"
-		"  --json        sweeps with settings, points, latest fit and verdicts, and the parts\n"
-		"  --part P      every sweep of part P (with --lot: of that lot of P)\n"
-		"  --lot L       every sweep of lot L\n"
-		"  --out FILE    write FILE instead of standard output\n");
-}
+typedef struct export_args {
+	const char *part, *lot, *out_path;
+	bool csv, json;
+} export_args;
+
+static const hb_opt export_table[] = {
+	{ .name = "part", .kind = HB_OPT_TEXT, .arg = "P", .off = offsetof(export_args, part),
+	  .help = "every sweep of part P (with --lot: of that lot of P)" },
+	{ .name = "lot", .kind = HB_OPT_TEXT, .arg = "L", .off = offsetof(export_args, lot),
+	  .help = "every sweep of lot L" },
+	{ .name = "csv", .kind = HB_OPT_FLAG, .off = offsetof(export_args, csv),
+	  .help = "the points as one RFC 4180 table, one header row" },
+	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(export_args, json),
+	  .help = "sweeps with settings, points, latest fit and verdicts, and the parts" },
+	{ .name = "out", .kind = HB_OPT_PATH, .arg = "FILE", .off = offsetof(export_args, out_path),
+	  .help = "write FILE instead of standard output" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_export = {
+	.name = "export",
+	.usage = "(SWEEP_ID... | --part P | --lot L [--part P]) (--csv | --json) [--out FILE]",
+	.about = "\nWrites stored sweeps for spreadsheets and scripts, SI units named in every column.\n",
+	.opts = export_table,
+	.max_operands = -1,
+};
 
 int hb_cmd_export(int argc, char **argv)
 {
-	static const struct option options[] = {
-		{ "part", required_argument, NULL, 'p' }, { "lot", required_argument, NULL, 'l' },
-		{ "csv", no_argument, NULL, 'c' },        { "json", no_argument, NULL, 'j' },
-		{ "out", required_argument, NULL, 'o' },  { "help", no_argument, NULL, 'h' },
-		{ NULL, 0, NULL, 0 },
-	};
-	const char *part = NULL, *lot = NULL, *out_path = NULL;
-	bool csv = false, json = false;
-	optind = 1;
-	opterr = 0;
-	int c;
-	while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
-		switch (c) {
-		case 'p': part = optarg; break;
-		case 'l': lot = optarg; break;
-		case 'c': csv = true; break;
-		case 'j': json = true; break;
-		case 'o': out_path = optarg; break;
-		case 'h': export_usage(stdout); return HB_EXIT_OK;
-		default:
-			hb_cli_error("export: unknown or incomplete option '%s' (try 'henrybench export --help')",
-				     argv[optind - 1]);
-			return HB_EXIT_USAGE;
-		}
-	}
+	export_args a = { 0 };
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_export, argc, argv, &a, &r) != HB_OK)
+		return HB_EXIT_USAGE;
+	if (r.done)
+		return HB_EXIT_OK;
+	const char *part = a.part, *lot = a.lot, *out_path = a.out_path;
+	bool csv = a.csv, json = a.json;
+	int first = r.first;
 	if (csv == json) {
 		hb_cli_error("export: choose one of --csv or --json");
 		return HB_EXIT_USAGE;
 	}
-	size_t nids = (size_t)(argc - optind);
+	size_t nids = (size_t)(argc - first);
 	if ((nids > 0) == (part || lot)) {
 		hb_cli_error("export needs SWEEP_IDs or --part / --lot (one of the two; try 'henrybench export --help')");
 		return HB_EXIT_USAGE;
@@ -80,7 +79,7 @@ int hb_cmd_export(int argc, char **argv)
 			return HB_EXIT_RUNTIME;
 		for (size_t i = 0; i < nids; i++) {
 			long long id;
-			if (hb_cli_parse_sweep_id(argv[optind + (int)i], &id) != HB_OK) {
+			if (hb_cli_parse_sweep_id(argv[first + (int)i], &id) != HB_OK) {
 				free(ids);
 				return HB_EXIT_USAGE;
 			}
@@ -149,70 +148,58 @@ done:
 	return exit_code;
 }
 
-static void import_usage(FILE *out)
-{
-	fprintf(out,
-		"usage: henrybench import FILE.csv --part P --unit SERIAL [--lot L] [--kind bias|frequency]\n"
-		"                         [--columns ROLE=COLUMN,...] [--freq F] [--note TEXT] [--no-fit]\n\n"
-		"Stores a sweep a meter logged on its own as one complete sweep (station \"import\"),\n"
-		"then fits and judges it. Comma, semicolon or tab delimited (detected), one header row.\n"
-		"Columns are found by header name (current/bias/I, inductance/L/Ls, frequency/f,\n"
-		"resistance/R/Rs/ESR, supply/voltage/V, bias_measured, direction); a unit in the header,\n"
-		"\"L (uH)\" or \"I[mA]\", scales bare numbers; cells may carry their own unit (\"2.5A\",\n"
-		"\"100uH\"). A malformed row is reported by line and column and nothing is stored.\n\n"
-		"  --part P            stored part (see 'henrybench part add')\n"
-		"  --unit SERIAL       unit serial number (created if new)\n"
-		"  --lot L             lot of the unit\n"
-		"  --kind K            bias or frequency (default: from the columns)\n"
-		"  --columns MAP       e.g. current=A,inductance=L or by 1-based number: inductance=3\n"
-		"  --freq F            test frequency of a bias sweep, e.g. 100kHz\n"
-		"  --note TEXT         added to the sweep's note\n"
-		"  --no-fit            store only\n");
-}
+typedef struct import_args {
+	hb_import_options opt;
+	bool no_fit;
+} import_args;
+
+static const hb_opt import_table[] = {
+	{ .name = "part", .kind = HB_OPT_TEXT, .arg = "P", .off = offsetof(import_args, opt.part_number),
+	  .help = "stored part (see 'henrybench part add'; required)" },
+	{ .name = "unit", .kind = HB_OPT_TEXT, .arg = "SERIAL", .off = offsetof(import_args, opt.serial),
+	  .help = "unit serial number (created if new; required)" },
+	{ .name = "lot", .kind = HB_OPT_TEXT, .arg = "L", .off = offsetof(import_args, opt.lot_code),
+	  .help = "lot of the unit" },
+	{ .name = "kind", .kind = HB_OPT_ENUM, .words = hb_opt_kind_words, .match = hb_opt_match_kind,
+	  .off = offsetof(import_args, opt.kind), .help = "kind of sweep (default: from the columns)" },
+	{ .name = "columns", .kind = HB_OPT_TEXT, .arg = "MAP", .off = offsetof(import_args, opt.columns),
+	  .help = "e.g. current=A,inductance=L or by 1-based number: inductance=3" },
+	{ .name = "freq", .kind = HB_OPT_VALUE, .arg = "F", .unit = "Hz", .min = 1e-3, .max = 1e10,
+	  .off = offsetof(import_args, opt.test_freq_hz), .help = "test frequency of a bias sweep, e.g. 100kHz" },
+	{ .name = "note", .kind = HB_OPT_TEXT, .arg = "TEXT", .off = offsetof(import_args, opt.note),
+	  .help = "added to the sweep's note" },
+	{ .name = "no-fit", .kind = HB_OPT_FLAG, .off = offsetof(import_args, no_fit), .help = "store only" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_import = {
+	.name = "import",
+	.usage = "FILE.csv --part P --unit SERIAL [--lot L] [--kind bias|frequency]\n"
+		 "                         [--columns ROLE=COLUMN,...] [--freq F] [--note TEXT] [--no-fit]",
+	.about = "\nStores a sweep a meter logged on its own as one complete sweep (station \"import\"),\n"
+		 "then fits and judges it. Comma, semicolon or tab delimited (detected), one header row.\n"
+		 "Columns are found by header name (current/bias/I, inductance/L/Ls, frequency/f,\n"
+		 "resistance/R/Rs/ESR, supply/voltage/V, bias_measured, direction); a unit in the header,\n"
+		 "\"L (uH)\" or \"I[mA]\", scales bare numbers; cells may carry their own unit (\"2.5A\",\n"
+		 "\"100uH\"). A malformed row is reported by line and column and nothing is stored.\n",
+	.opts = import_table,
+	.max_operands = -1,
+};
 
 int hb_cmd_import(int argc, char **argv)
 {
-	static const struct option options[] = {
-		{ "part", required_argument, NULL, 'p' },  { "unit", required_argument, NULL, 'u' },
-		{ "lot", required_argument, NULL, 'l' },   { "kind", required_argument, NULL, 'k' },
-		{ "columns", required_argument, NULL, 'c' }, { "freq", required_argument, NULL, 'f' },
-		{ "note", required_argument, NULL, 'n' },  { "no-fit", no_argument, NULL, 'F' },
-		{ "help", no_argument, NULL, 'h' },        { NULL, 0, NULL, 0 },
-	};
-	hb_import_options opt;
-	hb_import_options_init(&opt);
-	optind = 1;
-	opterr = 0;
-	int c;
-	while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
-		switch (c) {
-		case 'p': opt.part_number = optarg; break;
-		case 'u': opt.serial = optarg; break;
-		case 'l': opt.lot_code = optarg; break;
-		case 'c': opt.columns = optarg; break;
-		case 'n': opt.note = optarg; break;
-		case 'F': opt.analyse = false; break;
-		case 'k': {
-			hb_db_sweep_kind k;
-			if (hb_db_sweep_kind_parse(optarg, &k) != HB_OK) {
-				hb_cli_error("--kind '%s' unknown (accepted: bias, frequency)", optarg);
-				return HB_EXIT_USAGE;
-			}
-			opt.kind = (int)k;
-			break;
-		}
-		case 'f':
-			if (hb_opt_value("--freq", optarg, "Hz", 1e-3, 1e10, &opt.test_freq_hz) != HB_OK)
-				return HB_EXIT_USAGE;
-			break;
-		case 'h': import_usage(stdout); return HB_EXIT_OK;
-		default:
-			hb_cli_error("import: unknown or incomplete option '%s' (try 'henrybench import --help')",
-				     argv[optind - 1]);
-			return HB_EXIT_USAGE;
-		}
-	}
-	if (optind != argc - 1) {
+	import_args a;
+	hb_import_options_init(&a.opt);
+	a.no_fit = false;
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_import, argc, argv, &a, &r) != HB_OK)
+		return HB_EXIT_USAGE;
+	if (r.done)
+		return HB_EXIT_OK;
+	hb_import_options opt = a.opt;
+	if (a.no_fit)
+		opt.analyse = false;
+	if (r.first != argc - 1) {
 		hb_cli_error("import needs one FILE.csv (try 'henrybench import --help')");
 		return HB_EXIT_USAGE;
 	}
@@ -220,7 +207,7 @@ int hb_cmd_import(int argc, char **argv)
 		hb_cli_error("import needs --part P and --unit SERIAL");
 		return HB_EXIT_USAGE;
 	}
-	const char *path = argv[optind];
+	const char *path = argv[r.first];
 	hb_db *db = NULL;
 	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
 		hb_cli_error("%s", db ? hb_db_errmsg(db) : "out of memory");

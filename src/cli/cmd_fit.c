@@ -1,5 +1,5 @@
 /* src/cli/cmd_fit.c - the `fit` command: refit a stored sweep with the current fit code and store the result */
-#include <getopt.h>
+#include <stddef.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -10,23 +10,11 @@
 #include "../quality/quality.h"
 #include "cli.h"
 
-static void usage(FILE *out)
+/* "10,20,30": drop fractions in percent. */
+static int take_drops(const hb_opt *o, const char *text, void *field)
 {
-	fprintf(out,
-		"usage: henrybench fit SWEEP_ID [--model knee|core|all] [--drop 10,20,30] [--fix NAME=VALUE]\n"
-		"                      [--noise PCT] [--no-store] [--json]\n"
-		"Fits a stored sweep and stores the fit (model, parameters, standard errors, covariance,\n"
-		"residuals, derived values, fit-code version) and the verdicts against the part's spec.\n"
-		"  --model      knee: smooth knee curve; core: magnetic-circuit model (needs the part's\n"
-		"               turns, Ae and le); all (default)\n"
-		"  --drop       drop fractions in percent at which to report the current\n"
-		"  --fix        hold a core parameter at a datasheet value: mu_i=2300, gap=0.3mm,\n"
-		"               bsat=0.39T (saturation polarisation Js)\n"
-		"  --noise      relative reading noise (e.g. 0.01%%); default: estimated from the data\n");
-}
-
-static int parse_drops(const char *text, hb_analysis_options *opt)
-{
+	hb_analysis_options *opt = field;
+	(void)o;
 	char buf[256];
 	snprintf(buf, sizeof buf, "%s", text);
 	opt->n_drops = 0;
@@ -43,8 +31,11 @@ static int parse_drops(const char *text, hb_analysis_options *opt)
 	return HB_OK;
 }
 
-static int parse_fix(const char *text, hb_analysis_options *opt)
+/* NAME=VALUE: a core parameter held at a datasheet value; repeatable. */
+static int take_fix(const hb_opt *o, const char *text, void *field)
 {
+	hb_analysis_options *opt = field;
+	(void)o;
 	const char *eq = strchr(text, '=');
 	if (!eq) {
 		hb_cli_error("--fix '%s': expected NAME=VALUE with NAME one of mu_i, gap, bsat", text);
@@ -73,62 +64,79 @@ int hb_cli_parse_sweep_id(const char *text, long long *id)
 	return HB_OK;
 }
 
+/* knee, core or all: which models are fitted. */
+static int take_model(const hb_opt *o, const char *text, void *field)
+{
+	hb_analysis_options *opt = field;
+	if (strcmp(text, "knee") == 0) {
+		opt->knee = true;
+		opt->core = false;
+	} else if (strcmp(text, "core") == 0) {
+		opt->knee = false;
+		opt->core = true;
+	} else if (strcmp(text, "all") == 0) {
+		opt->knee = opt->core = true;
+	} else {
+		hb_cli_error("--%s '%s': accepted knee, core or all", o->name, text);
+		return HB_ERR_ARG;
+	}
+	return HB_OK;
+}
+
+typedef struct fit_args {
+	hb_analysis_options opt;
+	bool no_store, json;
+} fit_args;
+
+static const char *const model_words[] = { "knee", "core", "all", NULL };
+
+static const hb_opt fit_table[] = {
+	{ .name = "model", .kind = HB_OPT_CUSTOM, .words = model_words, .parse = take_model,
+	  .off = offsetof(fit_args, opt),
+	  .help = "knee: smooth knee curve; core: magnetic-circuit model (needs the part's turns, Ae and le); all (default)" },
+	{ .name = "drop", .kind = HB_OPT_CUSTOM, .arg = "PCT,...", .parse = take_drops, .off = offsetof(fit_args, opt),
+	  .help = "drop fractions in percent at which to report the current, e.g. 10,20,30; 1% to 95% each" },
+	{ .name = "fix", .kind = HB_OPT_CUSTOM, .arg = "NAME=VALUE", .parse = take_fix, .off = offsetof(fit_args, opt),
+	  .flags = HB_OPT_REPEAT,
+	  .help = "hold a core parameter at a datasheet value: mu_i=2300, gap=0.3mm, bsat=0.39T (saturation polarisation Js)" },
+	{ .name = "noise", .kind = HB_OPT_VALUE, .arg = "PCT", .unit = "%", .min = 1e-9, .max = 0.5,
+	  .off = offsetof(fit_args, opt.noise_rel),
+	  .help = "relative reading noise (e.g. 0.01%); default: estimated from the data" },
+	{ .name = "no-store", .kind = HB_OPT_FLAG, .off = offsetof(fit_args, no_store),
+	  .help = "fit and print, store nothing" },
+	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(fit_args, json), .help = "the fit as JSON on stdout" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_fit = {
+	.name = "fit",
+	.usage = "SWEEP_ID [--model knee|core|all] [--drop 10,20,30] [--fix NAME=VALUE]\n"
+		 "                      [--noise PCT] [--no-store] [--json]",
+	.about = "Fits a stored sweep and stores the fit (model, parameters, standard errors, covariance,\n"
+		 "residuals, derived values, fit-code version) and the verdicts against the part's spec.\n",
+	.opts = fit_table,
+	.max_operands = -1,
+};
+
 int hb_cmd_fit(int argc, char **argv)
 {
-	static const struct option opts[] = {
-		{ "model", required_argument, NULL, 'm' }, { "drop", required_argument, NULL, 'd' },
-		{ "fix", required_argument, NULL, 'f' },   { "noise", required_argument, NULL, 'n' },
-		{ "no-store", no_argument, NULL, 's' },    { "json", no_argument, NULL, 'j' },
-		{ "help", no_argument, NULL, 'h' },        { NULL, 0, NULL, 0 },
-	};
-	hb_analysis_options opt;
-	hb_analysis_options_init(&opt);
-	bool json = false;
-	int c;
-	optind = 1;
-	opterr = 0;
-	while ((c = getopt_long(argc, argv, "h", opts, NULL)) != -1) {
-		switch (c) {
-		case 'm':
-			if (strcmp(optarg, "knee") == 0) {
-				opt.knee = true;
-				opt.core = false;
-			} else if (strcmp(optarg, "core") == 0) {
-				opt.knee = false;
-				opt.core = true;
-			} else if (strcmp(optarg, "all") == 0) {
-				opt.knee = opt.core = true;
-			} else {
-				hb_cli_error("--model '%s': accepted knee, core or all", optarg);
-				return HB_EXIT_USAGE;
-			}
-			break;
-		case 'd':
-			if (parse_drops(optarg, &opt) != HB_OK)
-				return HB_EXIT_USAGE;
-			break;
-		case 'f':
-			if (parse_fix(optarg, &opt) != HB_OK)
-				return HB_EXIT_USAGE;
-			break;
-		case 'n':
-			if (hb_opt_value("--noise", optarg, "%", 1e-9, 0.5, &opt.noise_rel) != HB_OK)
-				return HB_EXIT_USAGE;
-			break;
-		case 's': opt.store = false; break;
-		case 'j': json = true; break;
-		case 'h': usage(stdout); return HB_EXIT_OK;
-		default:
-			hb_cli_error("fit: unknown or incomplete option '%s' (try --help)", argv[optind - 1]);
-			return HB_EXIT_USAGE;
-		}
-	}
-	if (optind + 1 != argc) {
+	fit_args a = { .no_store = false, .json = false };
+	hb_analysis_options_init(&a.opt);
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_fit, argc, argv, &a, &r) != HB_OK)
+		return HB_EXIT_USAGE;
+	if (r.done)
+		return HB_EXIT_OK;
+	hb_analysis_options opt = a.opt;
+	if (a.no_store)
+		opt.store = false;
+	bool json = a.json;
+	if (r.first + 1 != argc) {
 		hb_cli_error("fit needs exactly one SWEEP_ID (try --help)");
 		return HB_EXIT_USAGE;
 	}
 	long long id;
-	if (hb_cli_parse_sweep_id(argv[optind], &id) != HB_OK)
+	if (hb_cli_parse_sweep_id(argv[r.first], &id) != HB_OK)
 		return HB_EXIT_USAGE;
 	hb_db *db = NULL;
 	int exit_code = HB_EXIT_RUNTIME;

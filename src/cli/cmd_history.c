@@ -1,7 +1,7 @@
 /* src/cli/cmd_history.c - the `history` command (units, lot statistics, trend) and the table of `compare` */
 #include <errno.h>
-#include <getopt.h>
 #include <math.h>
+#include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -16,21 +16,6 @@
 #include "compare.h"
 
 /* ---------------- history command ---------------- */
-
-static void history_usage(FILE *out)
-{
-	fprintf(out,
-		"usage: henrybench history PARTNO [--lot L] [--unit S] [--since YYYY-MM-DD] [--json|--csv]\n"
-		"Every measured unit of the part (its latest complete bias sweep, with the newest fit and\n"
-		"verdicts), then per lot: count, mean, standard deviation, min and max of L0 and Cp/Cpk\n"
-		"against the part's tolerance, and the trend of the lot means of L0 and of the saturation\n"
-		"current (I at the part's saturation drop, else at -30 %% L) in time order.\n\n"
-		"  --lot L        only this lot\n"
-		"  --unit S       only this serial\n"
-		"  --since DATE   only sweeps started on or after this day (UTC)\n"
-		"  --json         units, lots and trend as one JSON object\n"
-		"  --csv          one row per unit, SI units named in the header\n");
-}
 
 /* YYYY-MM-DD as the unix time of its midnight UTC. */
 static int parse_date(const char *text, double *out)
@@ -228,51 +213,65 @@ static int history_csv(const hb_db_history_row *rows, size_t n, const hb_db_hist
 	return hb_csv_end(&w);
 }
 
+/* --since: a day, 1970-01-01 or later. */
+static int take_since(const hb_opt *o, const char *text, void *field)
+{
+	if (parse_date(text, field) != HB_OK) {
+		hb_cli_error("--%s '%s': give a date YYYY-MM-DD (1970-01-01 or later)", o->name, text);
+		return HB_ERR_ARG;
+	}
+	return HB_OK;
+}
+
+typedef struct history_args {
+	hb_db_history_filter f;
+	bool json, csv;
+} history_args;
+
+static const hb_opt history_table[] = {
+	{ .name = "lot", .kind = HB_OPT_TEXT, .arg = "L", .off = offsetof(history_args, f.lot_code), .help = "only this lot" },
+	{ .name = "unit", .kind = HB_OPT_TEXT, .arg = "S", .off = offsetof(history_args, f.serial), .help = "only this serial" },
+	{ .name = "since", .kind = HB_OPT_CUSTOM, .arg = "DATE", .parse = take_since, .off = offsetof(history_args, f.since),
+	  .help = "only sweeps started on or after this day (UTC), YYYY-MM-DD" },
+	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(history_args, json),
+	  .help = "units, lots and trend as one JSON object" },
+	{ .name = "csv", .kind = HB_OPT_FLAG, .off = offsetof(history_args, csv),
+	  .help = "one row per unit, SI units named in the header" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_history = {
+	.name = "history",
+	.usage = "PARTNO [--lot L] [--unit S] [--since YYYY-MM-DD] [--json|--csv]",
+	.about = "Every measured unit of the part (its latest complete bias sweep, with the newest fit and\n"
+		 "verdicts), then per lot: count, mean, standard deviation, min and max of L0 and Cp/Cpk\n"
+		 "against the part's tolerance, and the trend of the lot means of L0 and of the saturation\n"
+		 "current (I at the part's saturation drop, else at -30 % L) in time order.\n",
+	.opts = history_table,
+	.max_operands = -1,
+};
+
 int hb_cmd_history(int argc, char **argv)
 {
-	static const struct option opts[] = {
-		{ "lot", required_argument, NULL, 'l' },
-		{ "unit", required_argument, NULL, 'u' },
-		{ "since", required_argument, NULL, 's' },
-		{ "json", no_argument, NULL, 'j' },
-		{ "csv", no_argument, NULL, 'c' },
-		{ "help", no_argument, NULL, 'h' },
-		{ NULL, 0, NULL, 0 },
-	};
-	hb_db_history_filter f;
-	hb_db_history_filter_init(&f);
-	bool json = false, csv = false;
-	int c;
-	optind = 1;
-	opterr = 0;
-	while ((c = getopt_long(argc, argv, "h", opts, NULL)) != -1) {
-		switch (c) {
-		case 'l': f.lot_code = optarg; break;
-		case 'u': f.serial = optarg; break;
-		case 's':
-			if (parse_date(optarg, &f.since) != HB_OK) {
-				hb_cli_error("--since '%s': give a date YYYY-MM-DD (1970-01-01 or later)", optarg);
-				return HB_EXIT_USAGE;
-			}
-			break;
-		case 'j': json = true; break;
-		case 'c': csv = true; break;
-		case 'h': history_usage(stdout); return HB_EXIT_OK;
-		default:
-			hb_cli_error("history: unknown or incomplete option '%s' (try --help)", argv[optind - 1]);
-			return HB_EXIT_USAGE;
-		}
-	}
-	if (optind + 1 != argc) {
-		hb_cli_error(optind >= argc ? "history: PARTNO is required (try --help)" :
-					      "history: one PARTNO only (try --help)");
+	history_args a = { .json = false, .csv = false };
+	hb_db_history_filter_init(&a.f);
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_history, argc, argv, &a, &r) != HB_OK)
+		return HB_EXIT_USAGE;
+	if (r.done)
+		return HB_EXIT_OK;
+	hb_db_history_filter f = a.f;
+	bool json = a.json, csv = a.csv;
+	if (r.first + 1 != argc) {
+		hb_cli_error(r.first >= argc ? "history: PARTNO is required (try --help)" :
+					       "history: one PARTNO only (try --help)");
 		return HB_EXIT_USAGE;
 	}
 	if (json && csv) {
 		hb_cli_error("history: give --json or --csv, not both");
 		return HB_EXIT_USAGE;
 	}
-	f.part_number = argv[optind];
+	f.part_number = argv[r.first];
 
 	int exit_code = HB_EXIT_RUNTIME;
 	hb_db *db = NULL;
@@ -572,15 +571,6 @@ static void print_compare_text(const hb_compare_table *t)
 	}
 }
 
-static void compare_usage(FILE *out)
-{
-	fprintf(out,
-		"usage: henrybench compare SWEEP_ID SWEEP_ID... [--currents N] [--plot FILE.svg] [--json]\n"
-		"Bias sweeps side by side: L0, currents at -10/-20/-30 %% L, mu_e, gap and verdict from the\n"
-		"newest fit, and L read at N common currents (default 6) spread over the range every\n"
-		"sweep covers. --plot writes the sweeps overlaid in one SVG plot.\n");
-}
-
 static int write_overlay(hb_db *db, const int64_t *ids, size_t n, const char *path)
 {
 	char *svg = NULL;
@@ -601,36 +591,43 @@ static int write_overlay(hb_db *db, const int64_t *ids, size_t n, const char *pa
 	return HB_OK;
 }
 
+typedef struct compare_args {
+	bool json;
+	const char *plot_path;
+	long n_currents;
+} compare_args;
+
+static const hb_opt compare_table[] = {
+	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(compare_args, json), .help = "one JSON object on stdout" },
+	{ .name = "currents", .kind = HB_OPT_LONG, .arg = "N", .min = 2, .max = HB_COMPARE_MAX_CURRENTS,
+	  .off = offsetof(compare_args, n_currents), .help = "common currents L is read at (default 6)" },
+	{ .name = "plot", .kind = HB_OPT_PATH, .arg = "FILE.svg", .off = offsetof(compare_args, plot_path),
+	  .help = "write the sweeps overlaid in one SVG plot" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_compare = {
+	.name = "compare",
+	.usage = "SWEEP_ID SWEEP_ID... [--currents N] [--plot FILE.svg] [--json]",
+	.about = "Bias sweeps side by side: L0, currents at -10/-20/-30 % L, mu_e, gap and verdict from the\n"
+		 "newest fit, and L read at N common currents spread over the range every sweep covers.\n",
+	.opts = compare_table,
+	.max_operands = -1,
+};
+
 int hb_cmd_compare(int argc, char **argv)
 {
-	static const struct option opts[] = {
-		{ "json", no_argument, NULL, 'j' },
-		{ "currents", required_argument, NULL, 'n' },
-		{ "plot", required_argument, NULL, 'p' },
-		{ "help", no_argument, NULL, 'h' },
-		{ NULL, 0, NULL, 0 },
-	};
-	bool json = false;
-	const char *plot_path = NULL;
-	long n_currents = 6;
-	int c;
-	optind = 1;
-	opterr = 0;
-	while ((c = getopt_long(argc, argv, "h", opts, NULL)) != -1) {
-		switch (c) {
-		case 'j': json = true; break;
-		case 'n':
-			if (hb_opt_int("--currents", optarg, 2, HB_COMPARE_MAX_CURRENTS, &n_currents) != HB_OK)
-				return HB_EXIT_USAGE;
-			break;
-		case 'p': plot_path = optarg; break;
-		case 'h': compare_usage(stdout); return HB_EXIT_OK;
-		default:
-			hb_cli_error("compare: unknown or incomplete option '%s' (try --help)", argv[optind - 1]);
-			return HB_EXIT_USAGE;
-		}
-	}
-	size_t n = (size_t)(argc - optind);
+	compare_args a = { .json = false, .plot_path = NULL, .n_currents = 6 };
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_compare, argc, argv, &a, &r) != HB_OK)
+		return HB_EXIT_USAGE;
+	if (r.done)
+		return HB_EXIT_OK;
+	bool json = a.json;
+	const char *plot_path = a.plot_path;
+	long n_currents = a.n_currents;
+	int first = r.first;
+	size_t n = (size_t)(argc - first);
 	if (n < 2 || n > HB_COMPARE_MAX_SWEEPS) {
 		hb_cli_error("compare: give 2 to %d sweep ids (got %zu; see 'henrybench sweeps')", HB_COMPARE_MAX_SWEEPS, n);
 		return HB_EXIT_USAGE;
@@ -638,7 +635,7 @@ int hb_cmd_compare(int argc, char **argv)
 	int64_t ids[HB_COMPARE_MAX_SWEEPS];
 	for (size_t i = 0; i < n; i++) {
 		long long id;
-		if (hb_cli_parse_sweep_id(argv[optind + (int)i], &id) != HB_OK)
+		if (hb_cli_parse_sweep_id(argv[first + (int)i], &id) != HB_OK)
 			return HB_EXIT_USAGE;
 		ids[i] = id;
 	}

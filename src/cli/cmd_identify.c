@@ -1,5 +1,5 @@
 /* src/cli/cmd_identify.c - 'identify': ask instruments who they are, which dialect profile fits, what their error queue holds */
-#include <getopt.h>
+#include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -11,27 +11,36 @@
 
 #define IDENTIFY_ERRORS_MAX 32
 
-static void usage(FILE *out)
-{
-	fprintf(out,
-		"usage: henrybench identify [--json] RESOURCE...\n\n"
-		"Asks each instrument for *IDN?, names the dialect profile henrybench would use,\n"
-		"its kind (lcr or supply) and the operations the profile provides, then empties and\n"
-		"shows the instrument's error queue.\n\n"
-		"resources:\n"
-		"  sim:lcr, sim:supply                 the built-in simulated bench\n"
-		"  tcp://HOST[:PORT]                   raw SCPI socket (port 5025 by default)\n"
-		"  serial:/dev/ttyUSB0?baud=9600       serial port (libserialport)\n"
-		"  tty:/dev/pts/4                      terminal device (termios)\n"
-		"  add ?profile=NAME|PATH to force a profile instead of matching on *IDN?\n\n"
-		"options:\n"
-		"  --json      one JSON array on stdout instead of text\n"
-		"  --help      this text\n\n"
-		"The global --trace[=FILE] option logs every exchange. Profiles are searched in\n"
-		"$HENRYBENCH_PROFILE_PATH, the installed profile directory and drivers/profiles\n"
-		"beside the program (see docs/profiles.md).\n"
-		"exit status: 0 all answered, 1 an instrument failed, 2 bad usage\n");
-}
+typedef struct identify_args {
+	bool json;
+} identify_args;
+
+static const hb_opt identify_table[] = {
+	{ .name = "json", .alias = 'j', .kind = HB_OPT_FLAG, .off = offsetof(identify_args, json),
+	  .help = "one JSON array on stdout instead of text" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_identify = {
+	.name = "identify",
+	.usage = "[--json] RESOURCE...",
+	.about = "\nAsks each instrument for *IDN?, names the dialect profile henrybench would use,\n"
+		 "its kind (lcr or supply) and the operations the profile provides, then empties and\n"
+		 "shows the instrument's error queue.\n\n"
+		 "resources:\n"
+		 "  sim:lcr, sim:supply                 the built-in simulated bench\n"
+		 "  tcp://HOST[:PORT]                   raw SCPI socket (port 5025 by default)\n"
+		 "  serial:/dev/ttyUSB0?baud=9600       serial port (libserialport)\n"
+		 "  tty:/dev/pts/4                      terminal device (termios)\n"
+		 "  add ?profile=NAME|PATH to force a profile instead of matching on *IDN?\n",
+	.opts = identify_table,
+	.max_operands = -1,
+	.operands = "sim:lcr sim:supply",
+	.epilog = "The global --trace[=FILE] option logs every exchange. Profiles are searched in\n"
+		  "$HENRYBENCH_PROFILE_PATH, the installed profile directory and drivers/profiles\n"
+		  "beside the program (see docs/profiles.md).\n"
+		  "exit status: 0 all answered, 1 an instrument failed, 2 bad usage\n",
+};
 
 typedef struct identity {
 	const char *resource;
@@ -232,35 +241,22 @@ static json_t *to_json(const identity *id)
 
 int hb_cmd_identify(int argc, char **argv)
 {
-	static const struct option options[] = {
-		{ "json", no_argument, NULL, 'j' },
-		{ "help", no_argument, NULL, 'h' },
-		{ NULL, 0, NULL, 0 },
-	};
-	bool json = false;
-	int c;
-	opterr = 0;
-	while ((c = getopt_long(argc, argv, "jh", options, NULL)) != -1) {
-		switch (c) {
-		case 'j':
-			json = true;
-			break;
-		case 'h':
-			usage(stdout);
-			return HB_EXIT_OK;
-		default:
-			hb_cli_error("identify: unknown option '%s' (try 'henrybench identify --help')", argv[optind - 1]);
-			return HB_EXIT_USAGE;
-		}
-	}
-	int n = argc - optind;
+	identify_args a = { .json = false };
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_identify, argc, argv, &a, &r) != HB_OK)
+		return HB_EXIT_USAGE;
+	if (r.done)
+		return HB_EXIT_OK;
+	bool json = a.json;
+	int first = r.first;
+	int n = argc - first;
 	if (n <= 0) {
 		hb_cli_error("identify: name at least one RESOURCE (e.g. sim:lcr, tcp://127.0.0.1:5025)");
 		return HB_EXIT_USAGE;
 	}
 	/* Check every resource before talking to any: a typo in the third
 	 * must not leave the first two half-done. */
-	for (int i = optind; i < argc; i++) {
+	for (int i = first; i < argc; i++) {
 		hb_resource res;
 		char err[300];
 		if (hb_resource_parse(argv[i], &res, err, sizeof err) < 0) {
@@ -277,7 +273,7 @@ int hb_cmd_identify(int argc, char **argv)
 	json_t *all = json ? json_array() : NULL;
 	for (int i = 0; i < n; i++) {
 		identity *id = &ids[i];
-		id->resource = argv[optind + i];
+		id->resource = argv[first + i];
 		if (identify_one(id) < 0) {
 			exit_code = HB_EXIT_RUNTIME;
 			if (strncmp(id->error, id->resource, strlen(id->resource)) == 0)

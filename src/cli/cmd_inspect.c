@@ -1,6 +1,5 @@
 /* src/cli/cmd_inspect.c - the `inspect` command: a lot inspected by ISO 2859-1 sampling at the bench, resumable */
 #include <errno.h>
-#include <getopt.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -14,84 +13,6 @@
 #include "../quality/quality.h"
 #include "../bench/bench.h"
 #include "sweep_opts.h"
-
-static void inspect_usage(FILE *out)
-{
-	fprintf(out,
-		"usage: henrybench inspect --part P --lot LOT --lot-size N --aql AQL --lcr RES --supply RES [options]\n"
-		"Inspects a lot by ISO 2859-1 single sampling: shows the plan, stores it on the lot, then\n"
-		"sweeps, fits and judges each sample unit, keeps the tally and decides the lot (rejecting as\n"
-		"soon as Re nonconforming units are found). Paused or interrupted, the same command resumes\n"
-		"the lot where it stopped.\n\n"
-		"sampling:\n"
-		"  --lot-size N         units in the lot (2 or more)\n"
-		"  --aql AQL            acceptance quality limit, one of the ISO 2859-1 series (e.g. 0.65 1.0 2.5 4.0)\n"
-		"  --level LEVEL        S-1 ... S-4, I, II (default) or III\n"
-		"  --severity SEV       normal (default), tightened or reduced\n"
-		"units:\n"
-		"  --serials FILE       serial numbers in draw order, one per line\n"
-		"  --first-serial S     count the trailing number up: LOT7-0001, LOT7-0002, ...\n"
-		"                       (neither: type or scan each serial at the prompt)\n"
-		"  --auto               no prompts: measure the units one after another (needs a serial source)\n"
-		"  --part-fault nonconforming|retest\n"
-		"                       a unit the part keeps from being measured (compliance, open winding,\n"
-		"                       reading out of range): nonconforming (default) or not judged, pausing\n"
-		"                       so it is checked and measured again\n"
-		"  --resume             continue a begun lot only (refuses a lot code never begun)\n"
-		"sweep of each unit (as for sweep; defaults from the part):\n"
-		"  --from A --to A      current range (default 0 to 1.25 x the part's saturation-spec current)\n"
-		"  --steps N            points on the way up (default 21)\n"
-		"  --spacing lin|log    step spacing\n"
-		"  --freq HZ            test frequency (default the part's)\n"
-		"  --test-level V|A     test signal (default the part's)\n"
-		"  --avg N  --aperture short|medium|long  --settle auto|TIME  --settle-timeout S\n"
-		"  --max-current A --max-voltage V --max-power W --ramp A/s   limits (also from the station file)\n"
-		"  --ambient C          ambient temperature to record\n"
-		"  --yes                do not ask before sweeping above the station's threshold\n"
-		"output:\n"
-		"  --show-fit           print each unit's whole fit\n"
-		"  --json               the lot, plan, decision and every unit as JSON on stdout\n\n"
-		"At each prompt: Enter measures the unit named, a typed serial replaces it, 's' records it\n"
-		"skipped (could not be tested; the next unit drawn replaces it), 'q' pauses with the lot open.\n"
-		"A unit whose verdict is incomplete counts as nonconforming. A bench fault (lost link,\n"
-		"instrument error, time-out) judges nothing and uses no sample position; 2 in a row pause\n"
-		"the inspection with the lot open (docs/inspection.md).\n"
-		"Exit status: 0 lot decided (accept or reject: see the output), 1 lot still open (paused:\n"
-		"bench fault, safety limit, 'q', end of the serial list), 2 usage, 130 stopped by Ctrl-C\n"
-		"(lot still open).\n");
-}
-
-enum {
-	OPT_PART = 256, OPT_LOT, OPT_LOT_SIZE, OPT_AQL, OPT_LCR, OPT_SUPPLY, OPT_LEVEL, OPT_SEVERITY, OPT_SERIALS,
-	OPT_FIRST_SERIAL, OPT_AUTO, OPT_FROM, OPT_TO, OPT_SPACING, OPT_TEST_LEVEL, OPT_YES, OPT_SHOW_FIT, OPT_JSON,
-	OPT_PART_FAULT, OPT_RESUME, OPT_HELP
-};
-
-static const struct option long_options[] = {
-	{ "part", required_argument, NULL, OPT_PART },
-	{ "lot", required_argument, NULL, OPT_LOT },
-	{ "lot-size", required_argument, NULL, OPT_LOT_SIZE },
-	{ "aql", required_argument, NULL, OPT_AQL },
-	{ "lcr", required_argument, NULL, OPT_LCR },
-	{ "supply", required_argument, NULL, OPT_SUPPLY },
-	{ "level", required_argument, NULL, OPT_LEVEL },
-	{ "severity", required_argument, NULL, OPT_SEVERITY },
-	{ "serials", required_argument, NULL, OPT_SERIALS },
-	{ "first-serial", required_argument, NULL, OPT_FIRST_SERIAL },
-	{ "auto", no_argument, NULL, OPT_AUTO },
-	{ "part-fault", required_argument, NULL, OPT_PART_FAULT },
-	{ "resume", no_argument, NULL, OPT_RESUME },
-	{ "from", required_argument, NULL, OPT_FROM },
-	{ "to", required_argument, NULL, OPT_TO },
-	{ "spacing", required_argument, NULL, OPT_SPACING },
-	{ "test-level", required_argument, NULL, OPT_TEST_LEVEL },
-	{ "yes", no_argument, NULL, OPT_YES },
-	{ "show-fit", no_argument, NULL, OPT_SHOW_FIT },
-	{ "json", no_argument, NULL, OPT_JSON },
-	{ "help", no_argument, NULL, OPT_HELP },
-	HB_SWEEP_LONG_OPTIONS,
-	{ NULL, 0, NULL, 0 },
-};
 
 typedef struct inspect_args {
 	const char *part, *lot, *lcr, *supply, *serials_file, *first_serial;
@@ -117,10 +38,13 @@ typedef struct unit_source {
 	FILE *in, *prompt;
 } unit_source;
 
-static int parse_test_level(const char *text, hb_sweep_plan *plan)
+/* The test signal: a current when the text names amps, else a voltage. */
+static int take_test_level(const hb_opt *o, const char *text, void *field)
 {
+	hb_sweep_plan *plan = field;
 	char err[200];
 	double v;
+	(void)o;
 	bool amps = strpbrk(text, "Aa") != NULL;
 	if (!amps && hb_parse_value(text, "V", &v, err, sizeof err) == HB_OK && v > 0 && v <= 20) {
 		plan->level_kind = HB_LEVEL_VOLTAGE;
@@ -136,6 +60,90 @@ static int parse_test_level(const char *text, hb_sweep_plan *plan)
 	return HB_ERR_ARG;
 }
 
+static int match_part_fault(const char *text, int *code)
+{
+	if (strcasecmp(text, "nonconforming") == 0)
+		*code = HB_INSPECT_PART_NONCONFORMING;
+	else if (strcasecmp(text, "retest") == 0)
+		*code = HB_INSPECT_PART_RETEST;
+	else
+		return HB_ERR_ARG;
+	return HB_OK;
+}
+
+static const char *const part_fault_words[] = { "nonconforming", "retest", NULL };
+
+static const hb_opt inspect_table[] = {
+	{ .name = "part", .kind = HB_OPT_TEXT, .arg = "P", .off = offsetof(inspect_args, part),
+	  .help = "stored part (required)" },
+	{ .name = "lot", .kind = HB_OPT_TEXT, .arg = "LOT", .off = offsetof(inspect_args, lot),
+	  .help = "lot code (required)" },
+	{ .name = "lot-size", .kind = HB_OPT_LONG, .arg = "N", .min = 2, .max = 1000000000L,
+	  .off = offsetof(inspect_args, lot_size), .help = "units in the lot (required)" },
+	{ .name = "aql", .kind = HB_OPT_CUSTOM, .arg = "AQL", .unit = "", .parse = hb_opt_take_aql,
+	  .off = offsetof(inspect_args, aql),
+	  .help = "acceptance quality limit, one of the ISO 2859-1 series (e.g. 0.65 1.0 2.5 4.0; required)" },
+	{ .name = "lcr", .kind = HB_OPT_TEXT, .arg = "RES", .off = offsetof(inspect_args, lcr),
+	  .help = "the meter's resource (required)" },
+	{ .name = "supply", .kind = HB_OPT_TEXT, .arg = "RES", .off = offsetof(inspect_args, supply),
+	  .help = "the bias supply's resource (required)" },
+	{ .name = "level", .kind = HB_OPT_ENUM, .words = hb_opt_level_words, .match = hb_opt_match_level,
+	  .off = offsetof(inspect_args, level), .help = "inspection level (default II)" },
+	{ .name = "severity", .kind = HB_OPT_ENUM, .words = hb_opt_severity_words, .match = hb_opt_match_severity,
+	  .off = offsetof(inspect_args, severity), .help = "inspection severity (default normal)" },
+	{ .name = "serials", .kind = HB_OPT_PATH, .arg = "FILE", .off = offsetof(inspect_args, serials_file),
+	  .help = "serial numbers in draw order, one per line" },
+	{ .name = "first-serial", .kind = HB_OPT_TEXT, .arg = "S", .off = offsetof(inspect_args, first_serial),
+	  .help = "count the trailing number up: LOT7-0001, LOT7-0002, ... (neither: type or scan at the prompt)" },
+	{ .name = "auto", .kind = HB_OPT_FLAG, .off = offsetof(inspect_args, autorun),
+	  .help = "no prompts: measure the units one after another (needs a serial source)" },
+	{ .name = "part-fault", .kind = HB_OPT_ENUM, .words = part_fault_words, .match = match_part_fault,
+	  .off = offsetof(inspect_args, part_fault),
+	  .help = "a unit the part keeps from being measured: nonconforming (default) or retest (see below)" },
+	{ .name = "resume", .kind = HB_OPT_FLAG, .off = offsetof(inspect_args, resume),
+	  .help = "continue a begun lot only (refuses a lot code never begun)" },
+	{ .name = "from", .kind = HB_OPT_VALUE, .arg = "A", .unit = "A", .min = 0, .max = 1000,
+	  .off = offsetof(inspect_args, plan.from), .help = "first current (default 0)" },
+	{ .name = "to", .kind = HB_OPT_VALUE, .arg = "A", .unit = "A", .min = 1e-6, .max = 1000,
+	  .off = offsetof(inspect_args, plan.to), .given = HB_OPT_GIVEN(inspect_args, to_given),
+	  .help = "top current (default 1.25 x the part's saturation-spec current)" },
+	{ .name = "spacing", .kind = HB_OPT_ENUM, .words = hb_sweep_spacing_words, .codes = hb_sweep_spacing_codes,
+	  .off = offsetof(inspect_args, plan.spacing), .help = "step spacing" },
+	{ .name = "test-level", .kind = HB_OPT_CUSTOM, .arg = "V|A", .parse = take_test_level,
+	  .off = offsetof(inspect_args, plan), .given = HB_OPT_GIVEN(inspect_args, opts.level_given),
+	  .help = "test signal (default the part's)" },
+	{ .name = "yes", .kind = HB_OPT_FLAG, .off = offsetof(inspect_args, yes),
+	  .help = "do not ask before sweeping above the station's threshold" },
+	{ .name = "show-fit", .kind = HB_OPT_FLAG, .off = offsetof(inspect_args, show_fit),
+	  .help = "print each unit's whole fit" },
+	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(inspect_args, json),
+	  .help = "the lot, plan, decision and every unit as JSON on stdout" },
+	HB_SWEEP_OPTIONS(inspect_args),
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_inspect = {
+	.name = "inspect",
+	.usage = "--part P --lot LOT --lot-size N --aql AQL --lcr RES --supply RES [options]",
+	.about = "Inspects a lot by ISO 2859-1 single sampling: shows the plan, stores it on the lot, then\n"
+		 "sweeps, fits and judges each sample unit, keeps the tally and decides the lot (rejecting as\n"
+		 "soon as Re nonconforming units are found). Paused or interrupted, the same command resumes\n"
+		 "the lot where it stopped. Each unit is swept as by 'sweep', its defaults from the part.\n",
+	.opts = inspect_table,
+	.max_operands = 0,
+	.epilog = "--part-fault: a unit the part keeps from being measured (compliance, open winding, reading\n"
+		  "out of range) counts as nonconforming, or with retest is not judged, pausing so it is\n"
+		  "checked and measured again. Limits may only tighten the station file's and the part's.\n\n"
+		  "At each prompt: Enter measures the unit named, a typed serial replaces it, 's' records it\n"
+		  "skipped (could not be tested; the next unit drawn replaces it), 'q' pauses with the lot open.\n"
+		  "A unit whose verdict is incomplete counts as nonconforming. A bench fault (lost link,\n"
+		  "instrument error, time-out) judges nothing and uses no sample position; 2 in a row pause\n"
+		  "the inspection with the lot open (docs/inspection.md).\n"
+		  "Exit status: 0 lot decided (accept or reject: see the output), 1 lot still open (paused:\n"
+		  "bench fault, safety limit, 'q', end of the serial list), 2 usage, 130 stopped by Ctrl-C\n"
+		  "(lot still open).\n",
+};
+
 static int parse_args(int argc, char **argv, inspect_args *a)
 {
 	memset(a, 0, sizeof *a);
@@ -146,83 +154,11 @@ static int parse_args(int argc, char **argv, inspect_args *a)
 	a->level = HB_LEVEL_II;
 	a->severity = HB_SEVERITY_NORMAL;
 	hb_sweep_opts_init(&a->opts);
-	hb_sweep_plan *p = &a->plan;
-	char series[200];
-	optind = 1;
-	opterr = 0;
-	int c;
-	while ((c = getopt_long(argc, argv, "h", long_options, NULL)) != -1) {
-		int rc = HB_OK;
-		switch (c) {
-		case OPT_PART: a->part = optarg; break;
-		case OPT_LOT: a->lot = optarg; break;
-		case OPT_LCR: a->lcr = optarg; break;
-		case OPT_SUPPLY: a->supply = optarg; break;
-		case OPT_SERIALS: a->serials_file = optarg; break;
-		case OPT_FIRST_SERIAL: a->first_serial = optarg; break;
-		case OPT_AUTO: a->autorun = true; break;
-		case OPT_RESUME: a->resume = true; break;
-		case OPT_PART_FAULT:
-			if (strcasecmp(optarg, "nonconforming") == 0)
-				a->part_fault = HB_INSPECT_PART_NONCONFORMING;
-			else if (strcasecmp(optarg, "retest") == 0)
-				a->part_fault = HB_INSPECT_PART_RETEST;
-			else {
-				hb_cli_error("--part-fault '%s' unknown (accepted: nonconforming, retest)", optarg);
-				rc = HB_ERR_ARG;
-			}
-			break;
-		case OPT_LOT_SIZE: rc = hb_opt_int("--lot-size", optarg, 2, 1000000000L, &a->lot_size); break;
-		case OPT_AQL:
-			rc = hb_opt_value("--aql", optarg, "", -INFINITY, INFINITY, &a->aql);
-			if (rc == HB_OK && hb_iso2859_aql_index(a->aql) < 0) {
-				hb_cli_error("--aql %s is not in the ISO 2859-1 series (accepted: %s)", optarg,
-					     hb_iso2859_aql_series_text(series, sizeof series));
-				rc = HB_ERR_ARG;
-			}
-			break;
-		case OPT_LEVEL:
-			if (hb_iso2859_parse_level(optarg, &a->level) != HB_OK) {
-				hb_cli_error("--level '%s' unknown (accepted: S-1, S-2, S-3, S-4, I, II, III)", optarg);
-				rc = HB_ERR_ARG;
-			}
-			break;
-		case OPT_SEVERITY:
-			if (hb_iso2859_parse_severity(optarg, &a->severity) != HB_OK) {
-				hb_cli_error("--severity '%s' unknown (accepted: normal, tightened, reduced)", optarg);
-				rc = HB_ERR_ARG;
-			}
-			break;
-		case OPT_FROM: rc = hb_opt_value("--from", optarg, "A", 0, 1000, &p->from); break;
-		case OPT_TO:
-			rc = hb_opt_value("--to", optarg, "A", 1e-6, 1000, &p->to);
-			a->to_given = true;
-			break;
-		case OPT_SPACING: rc = hb_sweep_opts_parse_spacing(optarg, &p->spacing); break;
-		case OPT_TEST_LEVEL:
-			rc = parse_test_level(optarg, p);
-			a->opts.level_given = true;
-			break;
-		case OPT_YES: a->yes = true; break;
-		case OPT_SHOW_FIT: a->show_fit = true; break;
-		case OPT_JSON: a->json = true; break;
-		case OPT_HELP:
-		case 'h':
-			inspect_usage(stdout);
-			return 1;
-		default:
-			if (hb_sweep_opts_parse(c, optarg, p, &a->opts, &rc))
-				break;
-			hb_cli_error("inspect: unknown or incomplete option '%s' (try --help)", argv[optind - 1]);
-			return HB_ERR_ARG;
-		}
-		if (rc != HB_OK)
-			return HB_ERR_ARG;
-	}
-	if (optind < argc) {
-		hb_cli_error("inspect: unexpected argument '%s' (try --help)", argv[optind]);
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_inspect, argc, argv, a, &r) != HB_OK)
 		return HB_ERR_ARG;
-	}
+	if (r.done)
+		return 1;
 	const char *missing = !a->part ? "--part P" : !a->lot ? "--lot CODE" : a->lot_size < 0 ? "--lot-size N" :
 			      isnan(a->aql) ? "--aql AQL" : !a->lcr ? "--lcr RESOURCE" : !a->supply ? "--supply RESOURCE" :
 			      NULL;

@@ -1,5 +1,4 @@
 /* src/cli/cmd_part.c - command `part`: add, list, show and edit part specs as the datasheet states them */
-#include <getopt.h>
 #include <math.h>
 #include <stdbool.h>
 #include <stddef.h>
@@ -14,33 +13,6 @@
 #include "../io/io.h"
 #include "cli.h"
 
-static void part_usage(FILE *out)
-{
-	fprintf(out,
-		"usage: henrybench part add PARTNO --nominal L --tol T --freq F --level V|A [SPEC...]\n"
-		"       henrybench part edit PARTNO [SPEC...]     (only the given fields change)\n"
-		"       henrybench part list [--json]\n"
-		"       henrybench part show PARTNO [--json]\n\n"
-		"Specs are entered as the datasheet states them; engineering notation is accepted.\n\n"
-		"  --desc TEXT           description\n"
-		"  --maker TEXT          manufacturer\n"
-		"  --nominal L           nominal inductance, e.g. 10uH\n"
-		"  --tol T               tolerance, e.g. 20%%\n"
-		"  --freq F              spec test frequency, e.g. 100kHz\n"
-		"  --level X             spec test level, a voltage (0.1V) or a current (10mA)\n"
-		"  --sat-current I       saturation-spec current, e.g. 4.5A ...\n"
-		"  --sat-drop D          ... at which L may drop by D, e.g. 30%%\n"
-		"  --rated I             rated current\n"
-		"  --dcr-max R           maximum DC resistance, e.g. 25mOhm\n"
-		"  --turns N             number of turns\n"
-		"  --core toroid:OD/ID/H toroid dimensions, e.g. toroid:25mm/15mm/10mm (Ae, le per IEC 60205)\n"
-		"  --ae A --le L         effective area and path length, e.g. 48.9mm2 and 60.2mm\n"
-		"  --window H            winding window height, e.g. 9mm\n"
-		"  --mu-i MU             initial permeability of the material\n"
-		"  --bsat B              saturation flux density, e.g. 0.39T\n"
-		"  --json                machine-readable output (list, show)\n");
-}
-
 /* Which fields an edit gives, so the others stay as stored. */
 typedef struct part_edit {
 	hb_db_part p;
@@ -49,68 +21,14 @@ typedef struct part_edit {
 	bool json;
 } part_edit;
 
-/* getopt_long values of the spec options. */
-enum {
-	O_DESC = 256, O_MAKER, O_NOMINAL, O_TOL, O_FREQ, O_LEVEL, O_SATI, O_SATD, O_RATED, O_DCR,
-	O_TURNS, O_CORE, O_AE, O_LE, O_WINDOW, O_MUI, O_BSAT, O_JSON, O_HELP
-};
-
-/* The specs that are one number in one field, so parsing and merging them
- * is the same code: the option, its accepted range, the field of
- * hb_db_part it sets and the flag of part_edit that says it was given. */
-typedef struct number_spec {
-	int opt;
-	const char *name, *unit;
-	double min, max;
-	size_t field, given;
-} number_spec;
-
-static const number_spec number_specs[] = {
-	{ O_NOMINAL, "--nominal", "H", 1e-12, 100, offsetof(hb_db_part, nominal_h), offsetof(part_edit, nominal) },
-	{ O_TOL, "--tol", "%", 1e-4, 1, offsetof(hb_db_part, tolerance), offsetof(part_edit, tol) },
-	{ O_FREQ, "--freq", "Hz", 1e-3, 1e10, offsetof(hb_db_part, test_freq_hz), offsetof(part_edit, freq) },
-	{ O_SATI, "--sat-current", "A", 1e-6, 1e4, offsetof(hb_db_part, sat_current_a), offsetof(part_edit, sat_current) },
-	{ O_SATD, "--sat-drop", "%", 1e-3, 0.99, offsetof(hb_db_part, sat_drop), offsetof(part_edit, sat_drop) },
-	{ O_RATED, "--rated", "A", 1e-6, 1e4, offsetof(hb_db_part, rated_current_a), offsetof(part_edit, rated) },
-	{ O_DCR, "--dcr-max", "ohm", 1e-6, 1e6, offsetof(hb_db_part, dcr_max_ohm), offsetof(part_edit, dcr) },
-	{ O_AE, "--ae", "m2", 1e-10, 1e-1, offsetof(hb_db_part, ae_m2), offsetof(part_edit, ae) },
-	{ O_LE, "--le", "m", 1e-5, 10, offsetof(hb_db_part, le_m), offsetof(part_edit, le) },
-	{ O_WINDOW, "--window", "m", 1e-5, 1, offsetof(hb_db_part, window_m), offsetof(part_edit, window) },
-	{ O_MUI, "--mu-i", "", 1, 1e6, offsetof(hb_db_part, mu_i), offsetof(part_edit, mu_i) },
-	{ O_BSAT, "--bsat", "T", 1e-3, 10, offsetof(hb_db_part, bsat_t), offsetof(part_edit, bsat) },
-};
-
-static double *spec_field(hb_db_part *p, const number_spec *spec)
+/* The spec's test level: a voltage (0.1V) or a current (10mA). */
+static int take_level(const hb_opt *o, const char *text, void *field)
 {
-	return (double *)((char *)p + spec->field);
-}
-
-static bool *spec_given(part_edit *e, const number_spec *spec)
-{
-	return (bool *)((char *)e + spec->given);
-}
-
-static bool spec_was_given(const part_edit *e, const number_spec *spec)
-{
-	return *(const bool *)((const char *)e + spec->given);
-}
-
-static double spec_value(const hb_db_part *p, const number_spec *spec)
-{
-	return *(const double *)((const char *)p + spec->field);
-}
-
-static const number_spec *number_spec_of(int opt)
-{
-	for (size_t i = 0; i < sizeof number_specs / sizeof number_specs[0]; i++)
-		if (number_specs[i].opt == opt)
-			return &number_specs[i];
-	return NULL;
-}
-
-static int parse_level(const char *text, double *v, hb_db_level_kind *kind)
-{
+	hb_db_part *p = field;
+	double *v = &p->test_level;
+	hb_db_level_kind *kind = &p->test_level_kind;
 	char err[256];
+	(void)o;
 	if (hb_parse_value(text, "V", v, err, sizeof err) == HB_OK)
 		*kind = HB_DB_LEVEL_VOLTAGE;
 	else if (hb_parse_value(text, "A", v, err, sizeof err) == HB_OK)
@@ -128,8 +46,10 @@ static int parse_level(const char *text, double *v, hb_db_level_kind *kind)
 }
 
 /* "toroid:OD/ID/H", each a length. */
-static int parse_core(const char *text, hb_db_part *p)
+static int take_core(const hb_opt *o, const char *text, void *field)
 {
+	hb_db_part *p = field;
+	(void)o;
 	static const char prefix[] = "toroid:";
 	if (strncmp(text, prefix, sizeof prefix - 1) != 0) {
 		hb_cli_error("--core '%s' unknown: accepted toroid:OD/ID/H, e.g. toroid:25mm/15mm/10mm "
@@ -166,85 +86,83 @@ static int parse_core(const char *text, hb_db_part *p)
 	return HB_OK;
 }
 
-static int parse_spec_options(int argc, char **argv, part_edit *e, bool allow_json)
+static int take_desc(const hb_opt *o, const char *text, void *field)
 {
-	static const struct option options[] = {
-		{ "desc", required_argument, NULL, O_DESC },
-		{ "maker", required_argument, NULL, O_MAKER },
-		{ "nominal", required_argument, NULL, O_NOMINAL },
-		{ "tol", required_argument, NULL, O_TOL },
-		{ "freq", required_argument, NULL, O_FREQ },
-		{ "level", required_argument, NULL, O_LEVEL },
-		{ "sat-current", required_argument, NULL, O_SATI },
-		{ "sat-drop", required_argument, NULL, O_SATD },
-		{ "rated", required_argument, NULL, O_RATED },
-		{ "dcr-max", required_argument, NULL, O_DCR },
-		{ "turns", required_argument, NULL, O_TURNS },
-		{ "core", required_argument, NULL, O_CORE },
-		{ "ae", required_argument, NULL, O_AE },
-		{ "le", required_argument, NULL, O_LE },
-		{ "window", required_argument, NULL, O_WINDOW },
-		{ "mu-i", required_argument, NULL, O_MUI },
-		{ "bsat", required_argument, NULL, O_BSAT },
-		{ "json", no_argument, NULL, O_JSON },
-		{ "help", no_argument, NULL, O_HELP },
-		{ NULL, 0, NULL, 0 },
-	};
-	hb_db_part *p = &e->p;
-	optind = 1;
-	opterr = 0;
-	for (;;) {
-		int c = getopt_long(argc, argv, "h", options, NULL);
-		if (c == -1)
-			break;
-		int rc = HB_OK;
-		long turns = 0;
-		switch (c) {
-		case O_DESC:
-			snprintf(p->description, sizeof p->description, "%s", optarg);
-			e->desc = true;
-			break;
-		case O_MAKER:
-			snprintf(p->maker, sizeof p->maker, "%s", optarg);
-			e->maker = true;
-			break;
-		case O_LEVEL:
-			rc = parse_level(optarg, &p->test_level, &p->test_level_kind);
-			e->level = true;
-			break;
-		case O_TURNS:
-			rc = hb_opt_int("--turns", optarg, 1, 100000, &turns);
-			p->turns = (int)turns;
-			e->turns = true;
-			break;
-		case O_CORE:
-			rc = parse_core(optarg, p);
-			e->core = true;
-			break;
-		case O_JSON:
-			if (!allow_json) {
-				hb_cli_error("part: --json goes with list and show");
-				return HB_EXIT_USAGE;
-			}
-			e->json = true;
-			break;
-		case O_HELP:
-			part_usage(stdout);
-			return -1;
-		default: {
-			const number_spec *spec = number_spec_of(c);
-			if (spec) {
-				rc = hb_opt_value(spec->name, optarg, spec->unit, spec->min, spec->max, spec_field(p, spec));
-				*spec_given(e, spec) = true;
-				break;
-			}
-			hb_cli_error("part %s: unknown option '%s' (try 'henrybench part --help')", argv[0],
-				     argv[optind - 1]);
-			return HB_EXIT_USAGE;
-		}
-		}
-		if (rc != HB_OK)
-			return HB_EXIT_USAGE;
+	hb_db_part *p = field;
+	(void)o;
+	snprintf(p->description, sizeof p->description, "%s", text);
+	return HB_OK;
+}
+
+static int take_maker(const hb_opt *o, const char *text, void *field)
+{
+	hb_db_part *p = field;
+	(void)o;
+	snprintf(p->maker, sizeof p->maker, "%s", text);
+	return HB_OK;
+}
+
+/* A spec that is one number in one field of hb_db_part: parsing and merging
+ * it is the same code (merge() walks these entries). */
+#define PART_NUMBER(n, a, u, lo, hi, member, flag, text)                                                        \
+	{ .name = n, .kind = HB_OPT_VALUE, .arg = a, .unit = u, .min = lo, .max = hi,                              \
+	  .off = offsetof(part_edit, p.member), .given = HB_OPT_GIVEN(part_edit, flag), .help = text }
+
+static const hb_opt part_table[] = {
+	{ .name = "desc", .kind = HB_OPT_CUSTOM, .arg = "TEXT", .parse = take_desc, .off = offsetof(part_edit, p),
+	  .given = HB_OPT_GIVEN(part_edit, desc), .help = "description" },
+	{ .name = "maker", .kind = HB_OPT_CUSTOM, .arg = "TEXT", .parse = take_maker, .off = offsetof(part_edit, p),
+	  .given = HB_OPT_GIVEN(part_edit, maker), .help = "manufacturer" },
+	PART_NUMBER("nominal", "L", "H", 1e-12, 100, nominal_h, nominal, "nominal inductance, e.g. 10uH"),
+	PART_NUMBER("tol", "T", "%", 1e-4, 1, tolerance, tol, "tolerance, e.g. 20%"),
+	PART_NUMBER("freq", "F", "Hz", 1e-3, 1e10, test_freq_hz, freq, "spec test frequency, e.g. 100kHz"),
+	{ .name = "level", .kind = HB_OPT_CUSTOM, .arg = "V|A", .parse = take_level, .off = offsetof(part_edit, p),
+	  .given = HB_OPT_GIVEN(part_edit, level),
+	  .help = "spec test level, a voltage (0.1V) or a current (10mA), above 0 up to 1000 V or A" },
+	PART_NUMBER("sat-current", "I", "A", 1e-6, 1e4, sat_current_a, sat_current, "saturation-spec current, e.g. 4.5A ..."),
+	PART_NUMBER("sat-drop", "D", "%", 1e-3, 0.99, sat_drop, sat_drop, "... at which L may drop by D, e.g. 30%"),
+	PART_NUMBER("rated", "I", "A", 1e-6, 1e4, rated_current_a, rated, "rated current"),
+	PART_NUMBER("dcr-max", "R", "ohm", 1e-6, 1e6, dcr_max_ohm, dcr, "maximum DC resistance, e.g. 25mOhm"),
+	{ .name = "turns", .kind = HB_OPT_INT, .arg = "N", .min = 1, .max = 100000, .off = offsetof(part_edit, p.turns),
+	  .given = HB_OPT_GIVEN(part_edit, turns), .help = "number of turns" },
+	{ .name = "core", .kind = HB_OPT_CUSTOM, .arg = "toroid:OD/ID/H", .parse = take_core,
+	  .off = offsetof(part_edit, p), .given = HB_OPT_GIVEN(part_edit, core),
+	  .help = "toroid dimensions, e.g. toroid:25mm/15mm/10mm (Ae, le per IEC 60205)" },
+	PART_NUMBER("ae", "A", "m2", 1e-10, 1e-1, ae_m2, ae, "effective area, e.g. 48.9mm2"),
+	PART_NUMBER("le", "L", "m", 1e-5, 10, le_m, le, "effective path length, e.g. 60.2mm"),
+	PART_NUMBER("window", "H", "m", 1e-5, 1, window_m, window, "winding window height, e.g. 9mm"),
+	PART_NUMBER("mu-i", "MU", "", 1, 1e6, mu_i, mu_i, "initial permeability of the material"),
+	PART_NUMBER("bsat", "B", "T", 1e-3, 10, bsat_t, bsat, "saturation flux density, e.g. 0.39T"),
+	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(part_edit, json),
+	  .help = "machine-readable output (list, show)" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_part = {
+	.name = "part",
+	.usage = "add PARTNO --nominal L --tol T --freq F --level V|A [SPEC...]\n"
+		 "       henrybench part edit PARTNO [SPEC...]     (only the given fields change)\n"
+		 "       henrybench part list [--json]\n"
+		 "       henrybench part show PARTNO [--json]",
+	.about = "\nSpecs are entered as the datasheet states them; engineering notation is accepted.\n",
+	.opts = part_table,
+	.max_operands = -1,
+	.operands = "add list show edit",
+};
+
+/* argv[0] is the subcommand; *first is set to the first operand. Returns
+ * HB_EXIT_OK, HB_EXIT_USAGE after the error, or -1 after --help. */
+static int parse_spec_options(int argc, char **argv, part_edit *e, bool allow_json, int *first)
+{
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_part, argc, argv, e, &r) != HB_OK)
+		return HB_EXIT_USAGE;
+	if (r.done)
+		return -1;
+	*first = r.first;
+	if (e->json && !allow_json) {
+		hb_cli_error("part: --json goes with list and show");
+		return HB_EXIT_USAGE;
 	}
 	if (e->core && (e->ae || e->le)) {
 		hb_cli_error("part: give either --core toroid:OD/ID/H or --ae/--le, not both");
@@ -275,9 +193,12 @@ static void merge(hb_db_part *dst, const part_edit *e)
 	if (e->maker)
 		memcpy(dst->maker, s->maker, sizeof dst->maker);
 	/* Order does not matter: each field has one option, and --core excludes --ae/--le. */
-	for (size_t i = 0; i < sizeof number_specs / sizeof number_specs[0]; i++)
-		if (spec_was_given(e, &number_specs[i]))
-			*spec_field(dst, &number_specs[i]) = spec_value(s, &number_specs[i]);
+	for (const hb_opt *o = part_table; o->name; o++) {
+		if (o->kind != HB_OPT_VALUE || !*(const bool *)((const char *)e + o->given - 1))
+			continue;
+		size_t at = o->off - offsetof(part_edit, p);
+		*(double *)((char *)dst + at) = *(const double *)((const char *)s + at);
+	}
 	if (e->level) {
 		dst->test_level = s->test_level;
 		dst->test_level_kind = s->test_level_kind;
@@ -301,16 +222,17 @@ static int part_write(int argc, char **argv, bool add)
 	part_edit e;
 	memset(&e, 0, sizeof e);
 	hb_db_part_init(&e.p);
-	int rc = parse_spec_options(argc, argv, &e, false);
+	int first = 0;
+	int rc = parse_spec_options(argc, argv, &e, false, &first);
 	if (rc < 0)
 		return HB_EXIT_OK;
 	if (rc != HB_EXIT_OK)
 		return rc;
-	if (optind != argc - 1) {
+	if (first != argc - 1) {
 		hb_cli_error("part %s needs exactly one PARTNO (try 'henrybench part --help')", argv[0]);
 		return HB_EXIT_USAGE;
 	}
-	const char *pn = argv[optind];
+	const char *pn = argv[first];
 	if (!*pn || strlen(pn) >= HB_DB_ID_LEN) {
 		hb_cli_error("part number '%s': accepted 1 to %d characters", pn, HB_DB_ID_LEN - 1);
 		return HB_EXIT_USAGE;
@@ -371,12 +293,13 @@ static int part_list(int argc, char **argv)
 {
 	part_edit e;
 	memset(&e, 0, sizeof e);
-	int rc = parse_spec_options(argc, argv, &e, true);
+	int first = 0;
+	int rc = parse_spec_options(argc, argv, &e, true, &first);
 	if (rc < 0)
 		return HB_EXIT_OK;
 	if (rc != HB_EXIT_OK)
 		return rc;
-	if (optind != argc) {
+	if (first != argc) {
 		hb_cli_error("part list takes no PARTNO (use 'henrybench part show PARTNO')");
 		return HB_EXIT_USAGE;
 	}
@@ -419,12 +342,13 @@ static int part_show(int argc, char **argv)
 {
 	part_edit e;
 	memset(&e, 0, sizeof e);
-	int rc = parse_spec_options(argc, argv, &e, true);
+	int first = 0;
+	int rc = parse_spec_options(argc, argv, &e, true, &first);
 	if (rc < 0)
 		return HB_EXIT_OK;
 	if (rc != HB_EXIT_OK)
 		return rc;
-	if (optind != argc - 1) {
+	if (first != argc - 1) {
 		hb_cli_error("part show needs exactly one PARTNO");
 		return HB_EXIT_USAGE;
 	}
@@ -432,7 +356,7 @@ static int part_show(int argc, char **argv)
 	if (!db)
 		return HB_EXIT_RUNTIME;
 	hb_db_part p;
-	int status = hb_db_part_get(db, argv[optind], &p);
+	int status = hb_db_part_get(db, argv[first], &p);
 	if (status != HB_OK) {
 		hb_cli_error("%s", hb_db_errmsg(db));
 		hb_db_close(db);
@@ -489,12 +413,12 @@ static int part_show(int argc, char **argv)
 int hb_cmd_part(int argc, char **argv)
 {
 	if (argc < 2) {
-		part_usage(stderr);
+		hb_opts_help(&hb_opts_part, stderr);
 		return HB_EXIT_USAGE;
 	}
 	const char *sub = argv[1];
 	if (strcmp(sub, "--help") == 0 || strcmp(sub, "-h") == 0 || strcmp(sub, "help") == 0) {
-		part_usage(stdout);
+		hb_opts_help(&hb_opts_part, stdout);
 		return HB_EXIT_OK;
 	}
 	if (strcmp(sub, "add") == 0)

@@ -1,5 +1,5 @@
 /* src/cli/cmd_plan.c - command `plan`: the ISO 2859-1 single sampling plan for a lot */
-#include <getopt.h>
+#include <stddef.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -10,26 +10,41 @@
 #include "cli.h"
 #include "../quality/quality.h"
 
-static void plan_usage(FILE *out)
-{
-	fprintf(out,
-		"usage: henrybench plan --lot-size N --aql AQL [--level LEVEL] [--severity SEVERITY] [--json]\n\n"
-		"Chooses the single sampling plan of ISO 2859-1 (same tables as ANSI/ASQ Z1.4)\n"
-		"for one lot: code letter (Table 1), sample size and acceptance / rejection\n"
-		"numbers (Tables 2-A, 2-B, 2-C), following the arrows of the table. When the\n"
-		"sample would reach the lot size, every unit is inspected. Switching between\n"
-		"normal, tightened and reduced inspection is left to you (docs/sampling.md).\n\n"
-		"options:\n"
-		"  --lot-size N         units in the lot (2 to 1000000000)\n"
-		"  --aql AQL            acceptance quality limit, %% nonconforming (or\n"
-		"                       nonconformities per 100 units above 10), one of\n"
-		"                       0.010 0.015 0.025 0.040 0.065 0.10 0.15 0.25 0.40 0.65\n"
-		"                       1.0 1.5 2.5 4.0 6.5 10 15 25 40 65 100 150 250 400 650 1000\n"
-		"  --level LEVEL        S-1, S-2, S-3, S-4, I, II (default) or III\n"
-		"  --severity SEVERITY  normal (default), tightened or reduced\n"
-		"  --json               one JSON object on stdout\n"
-		"  --help               this text\n");
-}
+typedef struct plan_args {
+	long lot;
+	double aql;
+	hb_insp_level level;
+	hb_severity severity;
+	bool json;
+} plan_args;
+
+static const hb_opt plan_table[] = {
+	{ .name = "lot-size", .kind = HB_OPT_LONG, .arg = "N", .min = 2, .max = 1000000000L,
+	  .off = offsetof(plan_args, lot), .help = "units in the lot (required)" },
+	{ .name = "aql", .kind = HB_OPT_CUSTOM, .arg = "AQL", .unit = "", .parse = hb_opt_take_aql,
+	  .off = offsetof(plan_args, aql),
+	  .help = "acceptance quality limit, % nonconforming (or nonconformities per 100 units above 10; required)" },
+	{ .name = "level", .kind = HB_OPT_ENUM, .words = hb_opt_level_words, .match = hb_opt_match_level,
+	  .off = offsetof(plan_args, level), .help = "inspection level (default II)" },
+	{ .name = "severity", .kind = HB_OPT_ENUM, .words = hb_opt_severity_words, .match = hb_opt_match_severity,
+	  .off = offsetof(plan_args, severity), .help = "inspection severity (default normal)" },
+	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(plan_args, json), .help = "one JSON object on stdout" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_plan = {
+	.name = "plan",
+	.usage = "--lot-size N --aql AQL [--level LEVEL] [--severity SEVERITY] [--json]",
+	.about = "\nChooses the single sampling plan of ISO 2859-1 (same tables as ANSI/ASQ Z1.4)\n"
+		 "for one lot: code letter (Table 1), sample size and acceptance / rejection\n"
+		 "numbers (Tables 2-A, 2-B, 2-C), following the arrows of the table. When the\n"
+		 "sample would reach the lot size, every unit is inspected. Switching between\n"
+		 "normal, tightened and reduced inspection is left to you (docs/sampling.md).\n",
+	.opts = plan_table,
+	.max_operands = 0,
+	.epilog = "AQL series: 0.010 0.015 0.025 0.040 0.065 0.10 0.15 0.25 0.40 0.65\n"
+		  "            1.0 1.5 2.5 4.0 6.5 10 15 25 40 65 100 150 250 400 650 1000\n",
+};
 
 static int print_json(const hb_sampling_plan *p)
 {
@@ -80,69 +95,18 @@ static void print_text(const hb_sampling_plan *p)
 
 int hb_cmd_plan(int argc, char **argv)
 {
-	static const struct option options[] = {
-		{ "lot-size", required_argument, NULL, 'n' },
-		{ "aql", required_argument, NULL, 'a' },
-		{ "level", required_argument, NULL, 'l' },
-		{ "severity", required_argument, NULL, 's' },
-		{ "json", no_argument, NULL, 'j' },
-		{ "help", no_argument, NULL, 'h' },
-		{ NULL, 0, NULL, 0 },
-	};
-	long lot = -1;
-	double aql = NAN;
-	hb_insp_level level = HB_LEVEL_II;
-	hb_severity severity = HB_SEVERITY_NORMAL;
-	bool json = false;
-	char series[200];
-
-	optind = 1;
-	opterr = 0;
-	for (;;) {
-		int c = getopt_long(argc, argv, "h", options, NULL);
-		if (c == -1)
-			break;
-		switch (c) {
-		case 'n':
-			if (hb_opt_int("--lot-size", optarg, 2, 1000000000L, &lot) != HB_OK)
-				return HB_EXIT_USAGE;
-			break;
-		case 'a':
-			if (hb_opt_value("--aql", optarg, "", -INFINITY, INFINITY, &aql) != HB_OK)
-				return HB_EXIT_USAGE;
-			if (hb_iso2859_aql_index(aql) < 0) {
-				hb_cli_error("--aql %s is not in the ISO 2859-1 series (accepted: %s)", optarg,
-					     hb_iso2859_aql_series_text(series, sizeof series));
-				return HB_EXIT_USAGE;
-			}
-			break;
-		case 'l':
-			if (hb_iso2859_parse_level(optarg, &level) != HB_OK) {
-				hb_cli_error("--level '%s' unknown (accepted: S-1, S-2, S-3, S-4, I, II, III)", optarg);
-				return HB_EXIT_USAGE;
-			}
-			break;
-		case 's':
-			if (hb_iso2859_parse_severity(optarg, &severity) != HB_OK) {
-				hb_cli_error("--severity '%s' unknown (accepted: normal, tightened, reduced)", optarg);
-				return HB_EXIT_USAGE;
-			}
-			break;
-		case 'j':
-			json = true;
-			break;
-		case 'h':
-			plan_usage(stdout);
-			return HB_EXIT_OK;
-		default:
-			hb_cli_error("plan: unknown or incomplete option '%s' (try 'henrybench plan --help')", argv[optind - 1]);
-			return HB_EXIT_USAGE;
-		}
-	}
-	if (optind < argc) {
-		hb_cli_error("plan: unexpected argument '%s' (try 'henrybench plan --help')", argv[optind]);
+	plan_args a = { .lot = -1, .aql = NAN, .level = HB_LEVEL_II, .severity = HB_SEVERITY_NORMAL, .json = false };
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_plan, argc, argv, &a, &r) != HB_OK)
 		return HB_EXIT_USAGE;
-	}
+	if (r.done)
+		return HB_EXIT_OK;
+	long lot = a.lot;
+	double aql = a.aql;
+	hb_insp_level level = a.level;
+	hb_severity severity = a.severity;
+	bool json = a.json;
+	char series[200];
 	if (lot < 0) {
 		hb_cli_error("plan: --lot-size N is required (2 or more units)");
 		return HB_EXIT_USAGE;

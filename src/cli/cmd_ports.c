@@ -1,5 +1,5 @@
 /* src/cli/cmd_ports.c - command `ports`: list the serial ports libserialport can see, with USB identity where known */
-#include <getopt.h>
+#include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -9,19 +9,27 @@
 
 #include "cli.h"
 
-static void ports_usage(FILE *out)
-{
-	fprintf(out,
-		"usage: henrybench ports [--json]\n\n"
-		"Lists the serial ports of this machine (through libserialport) with the resource\n"
-		"string to open each: name, description, transport (native, usb, bluetooth), USB\n"
-		"vendor:product id, manufacturer, product and serial number where the port tells.\n"
-		"Pseudo-terminals and serial-over-network bridges are not listed: open those\n"
-		"with tty:PATH (see docs/resources.md).\n\n"
-		"options:\n"
-		"  --json   one JSON array on stdout instead of the table\n"
-		"  --help   this text\n");
-}
+typedef struct ports_args {
+	bool json;
+} ports_args;
+
+static const hb_opt ports_table[] = {
+	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(ports_args, json),
+	  .help = "one JSON array on stdout instead of the table" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_ports = {
+	.name = "ports",
+	.usage = "[--json]",
+	.about = "\nLists the serial ports of this machine (through libserialport) with the resource\n"
+		 "string to open each: name, description, transport (native, usb, bluetooth), USB\n"
+		 "vendor:product id, manufacturer, product and serial number where the port tells.\n"
+		 "Pseudo-terminals and serial-over-network bridges are not listed: open those\n"
+		 "with tty:PATH (see docs/resources.md).\n",
+	.opts = ports_table,
+	.max_operands = 0,
+};
 
 static const char *transport_name(enum sp_transport t)
 {
@@ -97,34 +105,13 @@ static void port_print(struct sp_port *port)
 
 int hb_cmd_ports(int argc, char **argv)
 {
-	static const struct option options[] = {
-		{ "json", no_argument, NULL, 'j' },
-		{ "help", no_argument, NULL, 'h' },
-		{ NULL, 0, NULL, 0 },
-	};
-	bool json = false;
-	optind = 1;
-	opterr = 0; /* our own one-line message instead of getopt's */
-	for (;;) {
-		int c = getopt_long(argc, argv, "h", options, NULL);
-		if (c == -1)
-			break;
-		switch (c) {
-		case 'j':
-			json = true;
-			break;
-		case 'h':
-			ports_usage(stdout);
-			return HB_EXIT_OK;
-		default:
-			hb_cli_error("ports: unknown option '%s'; accepted: --json, --help", argv[optind - 1]);
-			return HB_EXIT_USAGE;
-		}
-	}
-	if (optind < argc) {
-		hb_cli_error("ports: unexpected argument '%s'; 'ports' takes only --json and --help", argv[optind]);
+	ports_args a = { .json = false };
+	hb_opts_result res;
+	if (hb_opts_parse(&hb_opts_ports, argc, argv, &a, &res) != HB_OK)
 		return HB_EXIT_USAGE;
-	}
+	if (res.done)
+		return HB_EXIT_OK;
+	bool json = a.json;
 
 	struct sp_port **list = NULL;
 	enum sp_return r = sp_list_ports(&list);

@@ -1,6 +1,6 @@
 /* src/cli/cmd_report.c - command `report`: a filed HTML record of one sweep, one lot or one part */
 #include <errno.h>
-#include <getopt.h>
+#include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -10,53 +10,49 @@
 #include "cli.h"
 #include "../report/report.h"
 
-static void usage(FILE *out)
-{
-	fprintf(out,
-		"usage: henrybench report SWEEP_ID --out FILE.html\n"
-		"       henrybench report --lot LOT [--part P] --out FILE.html\n"
-		"       henrybench report --part P --out FILE.html\n\n"
-		"Writes one self-contained HTML page (figures inline, nothing fetched) that prints\n"
-		"as an engineering record: a sweep with its settings, instruments, verdicts, fit\n"
-		"values and plots; an inspected lot with its plan, units, decision and statistics;\n"
-		"or a part's history with per-lot statistics and the L0 trend.\n\n"
-		"  --lot LOT     lot code (add --part when several parts use the code)\n"
-		"  --part P      part number\n"
-		"  --out FILE    the page to write ('-' = standard output)\n");
-}
+typedef struct report_args {
+	const char *lot, *part, *out_path;
+} report_args;
+
+static const hb_opt report_table[] = {
+	{ .name = "lot", .kind = HB_OPT_TEXT, .arg = "LOT", .off = offsetof(report_args, lot),
+	  .help = "lot code (add --part when several parts use the code)" },
+	{ .name = "part", .kind = HB_OPT_TEXT, .arg = "P", .off = offsetof(report_args, part), .help = "part number" },
+	{ .name = "out", .kind = HB_OPT_PATH, .arg = "FILE", .off = offsetof(report_args, out_path),
+	  .help = "the page to write ('-' = standard output)" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_report = {
+	.name = "report",
+	.usage = "SWEEP_ID --out FILE.html\n"
+		 "       henrybench report --lot LOT [--part P] --out FILE.html\n"
+		 "       henrybench report --part P --out FILE.html",
+	.about = "\nWrites one self-contained HTML page (figures inline, nothing fetched) that prints\n"
+		 "as an engineering record: a sweep with its settings, instruments, verdicts, fit\n"
+		 "values and plots; an inspected lot with its plan, units, decision and statistics;\n"
+		 "or a part's history with per-lot statistics and the L0 trend.\n",
+	.opts = report_table,
+	.max_operands = -1,
+};
 
 int hb_cmd_report(int argc, char **argv)
 {
-	static const struct option options[] = {
-		{ "lot", required_argument, NULL, 'l' },
-		{ "part", required_argument, NULL, 'p' },
-		{ "out", required_argument, NULL, 'o' },
-		{ "help", no_argument, NULL, 'h' },
-		{ NULL, 0, NULL, 0 },
-	};
-	const char *lot = NULL, *part = NULL, *out_path = NULL;
-	optind = 1;
-	opterr = 0;
-	int c;
-	while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
-		switch (c) {
-		case 'l': lot = optarg; break;
-		case 'p': part = optarg; break;
-		case 'o': out_path = optarg; break;
-		case 'h': usage(stdout); return HB_EXIT_OK;
-		default:
-			hb_cli_error("report: unknown or incomplete option '%s' (try 'henrybench report --help')",
-				     argv[optind - 1]);
-			return HB_EXIT_USAGE;
-		}
-	}
+	report_args a = { NULL, NULL, NULL };
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_report, argc, argv, &a, &r) != HB_OK)
+		return HB_EXIT_USAGE;
+	if (r.done)
+		return HB_EXIT_OK;
+	const char *lot = a.lot, *part = a.part, *out_path = a.out_path;
+	int first = r.first;
 	long long sweep_id = 0;
-	if (optind < argc) {
-		if (lot || part || optind + 1 < argc) {
+	if (first < argc) {
+		if (lot || part || first + 1 < argc) {
 			hb_cli_error("report: give one SWEEP_ID, or --lot / --part, not both");
 			return HB_EXIT_USAGE;
 		}
-		if (hb_cli_parse_sweep_id(argv[optind], &sweep_id) != HB_OK)
+		if (hb_cli_parse_sweep_id(argv[first], &sweep_id) != HB_OK)
 			return HB_EXIT_USAGE;
 	} else if (!lot && !part) {
 		hb_cli_error("report needs a SWEEP_ID, --lot LOT or --part P (try 'henrybench report --help')");

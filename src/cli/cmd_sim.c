@@ -1,6 +1,6 @@
 /* src/cli/cmd_sim.c - command `sim`: serve the simulated bench over TCP or a pseudo-terminal until SIGINT/SIGTERM */
 #include <errno.h>
-#include <getopt.h>
+#include <stddef.h>
 #include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -15,32 +15,6 @@ static void on_signal(int sig)
 {
 	(void)sig;
 	sim_stop = 1;
-}
-
-static void sim_usage(FILE *out)
-{
-	fprintf(out,
-		"usage: henrybench sim [--lcr RESOURCE] [--supply RESOURCE] [--preset NAME]\n"
-		"                      [--dynamics NAME] [--param KEY=VALUE ...] [--log FILE]\n"
-		"                      [--fault-lcr SPEC] [--fault-supply SPEC] [--list-params]\n\n"
-		"Serves the simulated LCR meter and DC supply (one shared part model) until\n"
-		"SIGINT or SIGTERM. RESOURCE is tcp://HOST:PORT (PORT 0 picks a free one) or\n"
-		"pty (a pseudo-terminal; use the printed tty: path). One line per instrument\n"
-		"is printed on start, e.g. \"lcr: tcp://127.0.0.1:5025\".\n\n"
-		"  --preset NAME        part to simulate:");
-	for (const char *const *n = hb_sim_presets(); *n; n++)
-		fprintf(out, " %s", *n);
-	fprintf(out, "\n  --dynamics NAME      supply current dynamics:");
-	for (const char *const *n = hb_sim_dynamics(); *n; n++)
-		fprintf(out, " %s", *n);
-	fprintf(out,
-		"\n"
-		"                       (applied before --param, which can adjust it)\n"
-		"  --param KEY=VALUE    model parameter, with units (gap=0.3mm, cp=10pF); repeatable\n"
-		"  --log FILE           timestamped log of commands and supply output changes\n"
-		"  --fault-lcr SPEC     e.g. delay=300,drop=5 (see docs/simulator.md)\n"
-		"  --fault-supply SPEC\n"
-		"  --list-params        print the parameters and their ranges, then exit\n");
 }
 
 /* hb_parse_value knows the SI units it is asked for; the simulator's
@@ -133,47 +107,78 @@ static int serve_resource(hb_sim *sim, hb_sim_role role, const char *name, const
 	return HB_EXIT_OK;
 }
 
+typedef struct sim_args {
+	const char *lcr_res, *supply_res, *preset, *dynamics, *log_path, *fault_lcr, *fault_supply;
+	const char **params; /* room for every argument */
+	int nparams;
+	bool list;
+} sim_args;
+
+/* --param KEY=VALUE is collected here and applied once the model is built. */
+static int take_param(const hb_opt *o, const char *text, void *field)
+{
+	sim_args *a = field;
+	(void)o;
+	a->params[a->nparams++] = text;
+	return HB_OK;
+}
+
+static const hb_opt sim_table[] = {
+	{ .name = "lcr", .kind = HB_OPT_TEXT, .arg = "RESOURCE", .off = offsetof(sim_args, lcr_res),
+	  .help = "serve the meter: tcp://HOST:PORT (PORT 0 picks a free one) or pty" },
+	{ .name = "supply", .kind = HB_OPT_TEXT, .arg = "RESOURCE", .off = offsetof(sim_args, supply_res),
+	  .help = "serve the supply: tcp://HOST:PORT or pty" },
+	{ .name = "preset", .kind = HB_OPT_TEXT, .arg = "NAME", .words_fn = hb_sim_presets,
+	  .off = offsetof(sim_args, preset), .help = "part to simulate" },
+	{ .name = "dynamics", .kind = HB_OPT_TEXT, .arg = "NAME", .words_fn = hb_sim_dynamics,
+	  .off = offsetof(sim_args, dynamics),
+	  .help = "supply current dynamics (applied before --param, which can adjust it)" },
+	{ .name = "param", .kind = HB_OPT_CUSTOM, .arg = "KEY=VALUE", .parse = take_param, .off = 0,
+	  .flags = HB_OPT_REPEAT, .help = "model parameter, with units (gap=0.3mm, cp=10pF)" },
+	{ .name = "log", .kind = HB_OPT_PATH, .arg = "FILE", .off = offsetof(sim_args, log_path),
+	  .help = "timestamped log of commands and supply output changes" },
+	{ .name = "fault-lcr", .kind = HB_OPT_TEXT, .arg = "SPEC", .off = offsetof(sim_args, fault_lcr),
+	  .help = "faults of the meter, e.g. delay=300,drop=5 (see docs/simulator.md)" },
+	{ .name = "fault-supply", .kind = HB_OPT_TEXT, .arg = "SPEC", .off = offsetof(sim_args, fault_supply),
+	  .help = "faults of the supply" },
+	{ .name = "list-params", .kind = HB_OPT_FLAG, .off = offsetof(sim_args, list), .flags = HB_OPT_STOP,
+	  .help = "print the parameters and their ranges, then exit" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_sim = {
+	.name = "sim",
+	.usage = "[--lcr RESOURCE] [--supply RESOURCE] [--preset NAME]\n"
+		 "                      [--dynamics NAME] [--param KEY=VALUE ...] [--log FILE]\n"
+		 "                      [--fault-lcr SPEC] [--fault-supply SPEC] [--list-params]",
+	.about = "\nServes the simulated LCR meter and DC supply (one shared part model) until\n"
+		 "SIGINT or SIGTERM. RESOURCE is tcp://HOST:PORT (PORT 0 picks a free one) or\n"
+		 "pty (a pseudo-terminal; use the printed tty: path). One line per instrument\n"
+		 "is printed on start, e.g. \"lcr: tcp://127.0.0.1:5025\".\n",
+	.opts = sim_table,
+	.max_operands = 0,
+};
+
 int hb_cmd_sim(int argc, char **argv)
 {
-	enum { OPT_LCR = 256, OPT_SUPPLY, OPT_PRESET, OPT_DYNAMICS, OPT_PARAM, OPT_LOG, OPT_FAULT_LCR, OPT_FAULT_SUPPLY, OPT_LIST };
-	static const struct option options[] = {
-		{ "lcr", required_argument, NULL, OPT_LCR },
-		{ "supply", required_argument, NULL, OPT_SUPPLY },
-		{ "preset", required_argument, NULL, OPT_PRESET },
-		{ "dynamics", required_argument, NULL, OPT_DYNAMICS },
-		{ "param", required_argument, NULL, OPT_PARAM },
-		{ "log", required_argument, NULL, OPT_LOG },
-		{ "fault-lcr", required_argument, NULL, OPT_FAULT_LCR },
-		{ "fault-supply", required_argument, NULL, OPT_FAULT_SUPPLY },
-		{ "list-params", no_argument, NULL, OPT_LIST },
-		{ "help", no_argument, NULL, 'h' },
-		{ NULL, 0, NULL, 0 },
-	};
-	const char *lcr_res = NULL, *supply_res = NULL, *preset = NULL, *dynamics = NULL, *log_path = NULL;
-	const char *fault_lcr = NULL, *fault_supply = NULL;
-	const char **params = calloc((size_t)argc + 1, sizeof *params);
-	int nparams = 0, rc = HB_EXIT_OK;
+	sim_args a = { .params = NULL };
+	int rc = HB_EXIT_OK;
 	hb_sim *sim = NULL;
 	FILE *log = NULL;
+	a.params = calloc((size_t)argc + 1, sizeof *a.params);
+	const char **params = a.params;
 	if (!params) {
 		hb_cli_error("sim: out of memory");
 		return HB_EXIT_RUNTIME;
 	}
 
-	optind = 1;
-	opterr = 0;
-	int c;
-	while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
-		switch (c) {
-		case OPT_LCR: lcr_res = optarg; break;
-		case OPT_SUPPLY: supply_res = optarg; break;
-		case OPT_PRESET: preset = optarg; break;
-		case OPT_DYNAMICS: dynamics = optarg; break;
-		case OPT_PARAM: params[nparams++] = optarg; break;
-		case OPT_LOG: log_path = optarg; break;
-		case OPT_FAULT_LCR: fault_lcr = optarg; break;
-		case OPT_FAULT_SUPPLY: fault_supply = optarg; break;
-		case OPT_LIST:
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_sim, argc, argv, &a, &r) != HB_OK) {
+		rc = HB_EXIT_USAGE;
+		goto out;
+	}
+	if (r.done) {
+		if (a.list) {
 			hb_sim_list_params(stdout);
 			printf("presets:");
 			for (const char *const *n = hb_sim_presets(); *n; n++)
@@ -182,21 +187,12 @@ int hb_cmd_sim(int argc, char **argv)
 			for (const char *const *n = hb_sim_dynamics(); *n; n++)
 				printf(" %s", *n);
 			printf("\n");
-			goto out;
-		case 'h':
-			sim_usage(stdout);
-			goto out;
-		default:
-			hb_cli_error("sim: unknown or incomplete option '%s' (try 'henrybench sim --help')", argv[optind - 1]);
-			rc = HB_EXIT_USAGE;
-			goto out;
 		}
-	}
-	if (optind < argc) {
-		hb_cli_error("sim: unexpected argument '%s'", argv[optind]);
-		rc = HB_EXIT_USAGE;
 		goto out;
 	}
+	const char *lcr_res = a.lcr_res, *supply_res = a.supply_res, *preset = a.preset, *dynamics = a.dynamics;
+	const char *log_path = a.log_path, *fault_lcr = a.fault_lcr, *fault_supply = a.fault_supply;
+	int nparams = a.nparams;
 	if (!lcr_res && !supply_res) {
 		hb_cli_error("sim: give --lcr RESOURCE and/or --supply RESOURCE (tcp://HOST:PORT or pty)");
 		rc = HB_EXIT_USAGE;

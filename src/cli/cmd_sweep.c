@@ -1,5 +1,4 @@
 /* src/cli/cmd_sweep.c - the `sweep` (L against DC bias) and `fsweep` (L against frequency) commands */
-#include <getopt.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -23,91 +22,29 @@ typedef struct sweep_args {
 	bool yes, dry_run, json, no_fit, dcr_meter;
 } sweep_args;
 
-static void sweep_usage(FILE *out)
+static const char *const circuit_words[] = { "series", "parallel", NULL };
+static const int circuit_codes[] = { HB_EQUIV_SERIES, HB_EQUIV_PARALLEL };
+static const char *const pair_words[] = { "LR", "LQ", "LD", "ZTH", NULL };
+
+/* The meter's pair in either case ("lr" as well as "LR"). */
+static int match_pair(const char *text, int *code)
 {
-	fprintf(out,
-		"usage: henrybench sweep --part P --unit SERIAL --lcr RES --supply RES --to CURRENT [options]\n"
-		"Steps the DC bias through the part and reads its incremental inductance at each step.\n\n"
-		"  --from A            first current (default 0)\n"
-		"  --to A              top current (required)\n"
-		"  --steps N | --step A  points on the way up (default 21) or the current step\n"
-		"  --spacing lin|log   step spacing (log from 0 keeps 0 and spreads two decades)\n"
-		"  --freq HZ           test frequency (default: the part's spec, else 100 kHz)\n"
-		"  --level V|A         test level, e.g. 0.5V or 10mA (default: the part's spec, else 0.5 V)\n"
-		"  --circuit series|parallel   equivalent circuit (default series)\n"
-		"  --pair LR|LQ|LD     measured pair (default LR)\n"
-		"  --avg N             readings averaged by the meter (default 1)\n"
-		"  --aperture short|medium|long   integration time (default medium)\n"
-		"  --settle auto|TIME  auto: read until readings agree within the meter's noise; or a fixed wait\n"
-		"  --settle-timeout S  longest auto wait per point (default 10 s)\n"
-		"  --return            sweep back down too (shows heating and hysteresis)\n"
-		"  --stop-below PCT    stop once L falls under this share of its first value\n"
-		"  --max-current A --max-voltage V --max-power W   hard limits (also from the station file)\n"
-		"  --ramp A/s          fastest current change between steps (default 5 A/s)\n"
-		"  --off-threshold A   the output goes off only below this current (default 20 mA)\n"
-		"                      limits may only tighten the station file's and the part's\n"
-		"  --lot CODE          record the unit as a member of this lot\n"
-		"  --ambient C         ambient temperature to record, degC\n"
-		"  --note TEXT         free text stored with the sweep\n"
-		"  --yes               do not ask before sweeping above the station's threshold\n"
-		"  --dry-run           print the plan, limits, stored energy and time; touch nothing\n"
-		"  --no-fit            do not fit when the sweep ends\n"
-		"  --dcr-meter         read DCR with the meter before the sweep (profile operation 'dcr';\n"
-		"                      only where the fixture passes DC to the meter); default: supply V/I\n"
-		"  --json              machine-readable summary on stdout\n");
+	static const int codes[] = { HB_PAIR_L_R, HB_PAIR_L_Q, HB_PAIR_L_D, HB_PAIR_Z_THETA };
+	for (int i = 0; pair_words[i]; i++)
+		if (strcasecmp(text, pair_words[i]) == 0) {
+			*code = codes[i];
+			return HB_OK;
+		}
+	return HB_ERR_ARG;
 }
 
-static void fsweep_usage(FILE *out)
+/* A test level is a voltage (0.5V) or a current (10mA): the unit decides the kind. */
+static int take_level(const hb_opt *o, const char *text, void *field)
 {
-	fprintf(out,
-		"usage: henrybench fsweep --part P --unit SERIAL --lcr RES --from HZ --to HZ [options]\n"
-		"Steps the test frequency and reads L and R (or |Z| and phase) at each point.\n\n"
-		"  --points N          number of frequencies (default 41)\n"
-		"  --spacing log|lin   (default log)\n"
-		"  --level V|A         test level\n"
-		"  --circuit, --pair, --avg, --aperture, --settle, --note, --lot, --ambient, --json, --dry-run, --yes\n"
-		"  --bias A --supply RES   hold a DC bias during the sweep (limits then apply as for sweep)\n"
-		"  --max-current A --max-voltage V --max-power W --ramp A/s --off-threshold A\n");
-}
-
-enum {
-	OPT_PART = 256, OPT_UNIT, OPT_LCR, OPT_SUPPLY, OPT_FROM, OPT_TO, OPT_STEP, OPT_SPACING, OPT_LEVEL,
-	OPT_CIRCUIT, OPT_PAIR, OPT_RETURN, OPT_STOP_BELOW, OPT_NOTE, OPT_YES, OPT_DRY_RUN, OPT_JSON, OPT_POINTS,
-	OPT_BIAS, OPT_LOT, OPT_NO_FIT, OPT_DCR_METER, OPT_HELP
-};
-
-static const struct option long_options[] = {
-	{ "part", required_argument, NULL, OPT_PART },
-	{ "unit", required_argument, NULL, OPT_UNIT },
-	{ "lcr", required_argument, NULL, OPT_LCR },
-	{ "supply", required_argument, NULL, OPT_SUPPLY },
-	{ "from", required_argument, NULL, OPT_FROM },
-	{ "to", required_argument, NULL, OPT_TO },
-	{ "step", required_argument, NULL, OPT_STEP },
-	{ "points", required_argument, NULL, OPT_POINTS },
-	{ "spacing", required_argument, NULL, OPT_SPACING },
-	{ "level", required_argument, NULL, OPT_LEVEL },
-	{ "circuit", required_argument, NULL, OPT_CIRCUIT },
-	{ "pair", required_argument, NULL, OPT_PAIR },
-	{ "return", no_argument, NULL, OPT_RETURN },
-	{ "stop-below", required_argument, NULL, OPT_STOP_BELOW },
-	{ "bias", required_argument, NULL, OPT_BIAS },
-	{ "lot", required_argument, NULL, OPT_LOT },
-	{ "note", required_argument, NULL, OPT_NOTE },
-	{ "yes", no_argument, NULL, OPT_YES },
-	{ "dry-run", no_argument, NULL, OPT_DRY_RUN },
-	{ "no-fit", no_argument, NULL, OPT_NO_FIT },
-	{ "dcr-meter", no_argument, NULL, OPT_DCR_METER },
-	{ "json", no_argument, NULL, OPT_JSON },
-	{ "help", no_argument, NULL, OPT_HELP },
-	HB_SWEEP_LONG_OPTIONS,
-	{ NULL, 0, NULL, 0 },
-};
-
-static int parse_level(const char *text, hb_sweep_plan *plan)
-{
+	hb_sweep_plan *plan = field;
 	char err[200];
 	double v;
+	(void)o;
 	if (hb_parse_value(text, "V", &v, err, sizeof err) == HB_OK) {
 		if (!(v > 0 && v <= 20)) {
 			hb_cli_error("--level %s is out of range: accepted 1 mV to 20 V, or 1 uA to 1 A", text);
@@ -130,6 +67,97 @@ static int parse_level(const char *text, hb_sweep_plan *plan)
 	return HB_ERR_ARG;
 }
 
+/* sweep and fsweep accept the same options (one struct, one engine); only
+ * --from and --to change unit with the kind of sweep. */
+#define SWEEP_COMMON_OPTIONS                                                                                      \
+	{ .name = "part", .kind = HB_OPT_TEXT, .arg = "P", .off = offsetof(sweep_args, part),                   \
+	  .help = "stored part (see 'henrybench part add'; required)" },                                          \
+	{ .name = "unit", .kind = HB_OPT_TEXT, .arg = "SERIAL", .off = offsetof(sweep_args, unit),              \
+	  .help = "unit serial number (required)" },                                                               \
+	{ .name = "lcr", .kind = HB_OPT_TEXT, .arg = "RES", .off = offsetof(sweep_args, lcr),                   \
+	  .help = "the meter's resource, e.g. tcp://HOST:PORT (required)" },                                      \
+	{ .name = "supply", .kind = HB_OPT_TEXT, .arg = "RES", .off = offsetof(sweep_args, supply),             \
+	  .help = "the bias supply's resource (sweep: required; fsweep: with --bias)" },                          \
+	{ .name = "step", .kind = HB_OPT_VALUE, .arg = "A", .unit = "A", .min = 1e-6, .max = 1000,               \
+	  .off = offsetof(sweep_args, step), .given = HB_OPT_GIVEN(sweep_args, step_given),                       \
+	  .help = "bias sweep: the current step, instead of --steps" },                                           \
+	{ .name = "points", .kind = HB_OPT_INT, .arg = "N", .min = 2, .max = 10000,                               \
+	  .off = offsetof(sweep_args, plan.f_points), .help = "fsweep: number of frequencies (default 41)" },   \
+	{ .name = "spacing", .kind = HB_OPT_CUSTOM, .words = hb_sweep_spacing_words,                              \
+	  .parse = hb_sweep_opts_take_spacing, .off = offsetof(sweep_args, plan),                                 \
+	  .help = "step spacing (sweep: lin, log from 0 keeps 0 and spreads two decades; fsweep: log)" },        \
+	{ .name = "level", .kind = HB_OPT_CUSTOM, .arg = "V|A", .parse = take_level,                              \
+	  .off = offsetof(sweep_args, plan), .given = HB_OPT_GIVEN(sweep_args, opts.level_given),                 \
+	  .help = "test level, e.g. 0.5V or 10mA (default: the part's spec, else 0.5 V)" },                       \
+	{ .name = "circuit", .kind = HB_OPT_ENUM, .words = circuit_words, .codes = circuit_codes,                 \
+	  .off = offsetof(sweep_args, plan.equiv), .help = "equivalent circuit (default series)" },             \
+	{ .name = "pair", .kind = HB_OPT_ENUM, .words = pair_words, .match = match_pair,                          \
+	  .off = offsetof(sweep_args, plan.pair), .help = "measured pair (default LR)" },                       \
+	{ .name = "return", .kind = HB_OPT_FLAG, .off = offsetof(sweep_args, plan.return_down),                  \
+	  .help = "sweep back down too (shows heating and hysteresis)" },                                         \
+	{ .name = "stop-below", .kind = HB_OPT_VALUE, .arg = "PCT", .unit = "%", .min = 0.01, .max = 0.99,        \
+	  .off = offsetof(sweep_args, plan.stop_below),                                                          \
+	  .help = "stop once L falls under this share of its first value" },                                      \
+	{ .name = "bias", .kind = HB_OPT_VALUE, .arg = "A", .unit = "A", .min = 0, .max = 1000,                   \
+	  .off = offsetof(sweep_args, plan.bias), .help = "fsweep: DC bias held during the sweep (needs --supply)" }, \
+	{ .name = "lot", .kind = HB_OPT_TEXT, .arg = "CODE", .off = offsetof(sweep_args, lot),                  \
+	  .help = "record the unit as a member of this lot" },                                                     \
+	{ .name = "note", .kind = HB_OPT_TEXT, .arg = "TEXT", .off = offsetof(sweep_args, note),                \
+	  .help = "free text stored with the sweep" },                                                             \
+	{ .name = "yes", .kind = HB_OPT_FLAG, .off = offsetof(sweep_args, yes),                                   \
+	  .help = "do not ask before sweeping above the station's threshold" },                                   \
+	{ .name = "dry-run", .kind = HB_OPT_FLAG, .off = offsetof(sweep_args, dry_run),                           \
+	  .help = "print the plan, limits, stored energy and time; touch nothing" },                              \
+	{ .name = "no-fit", .kind = HB_OPT_FLAG, .off = offsetof(sweep_args, no_fit),                             \
+	  .help = "do not fit when the sweep ends" },                                                              \
+	{ .name = "dcr-meter", .kind = HB_OPT_FLAG, .off = offsetof(sweep_args, dcr_meter),                       \
+	  .help = "read DCR with the meter before the sweep (see below); default: supply V/I" },                  \
+	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(sweep_args, json),                                 \
+	  .help = "machine-readable summary on stdout" },                                                          \
+	HB_SWEEP_OPTIONS(sweep_args)
+
+static const hb_opt sweep_table[] = {
+	{ .name = "from", .kind = HB_OPT_VALUE, .arg = "A", .unit = "A", .min = 0, .max = 1000,
+	  .off = offsetof(sweep_args, plan.from), .given = HB_OPT_GIVEN(sweep_args, from_given),
+	  .help = "first current (default 0)" },
+	{ .name = "to", .kind = HB_OPT_VALUE, .arg = "A", .unit = "A", .min = 1e-6, .max = 1000,
+	  .off = offsetof(sweep_args, plan.to), .help = "top current (required)" },
+	SWEEP_COMMON_OPTIONS,
+	{ .name = NULL },
+};
+
+static const hb_opt fsweep_table[] = {
+	{ .name = "from", .kind = HB_OPT_VALUE, .arg = "HZ", .unit = "Hz", .min = 1, .max = 1e9,
+	  .off = offsetof(sweep_args, plan.f_from), .given = HB_OPT_GIVEN(sweep_args, from_given),
+	  .help = "first frequency (required)" },
+	{ .name = "to", .kind = HB_OPT_VALUE, .arg = "HZ", .unit = "Hz", .min = 1, .max = 1e9,
+	  .off = offsetof(sweep_args, plan.f_to), .help = "last frequency (required)" },
+	SWEEP_COMMON_OPTIONS,
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_sweep = {
+	.name = "sweep",
+	.usage = "--part P --unit SERIAL --lcr RES --supply RES --to CURRENT [options]",
+	.about = "Steps the DC bias through the part and reads its incremental inductance at each step.\n",
+	.opts = sweep_table,
+	.max_operands = 0,
+	.epilog = "Give --steps or --step, not both. The limits (--max-current, --max-voltage, --max-power,\n"
+		  "--ramp, --off-threshold; also from the station file) may only tighten the station file's\n"
+		  "and the part's. --dcr-meter uses the profile operation 'dcr', only where the fixture\n"
+		  "passes DC to the meter.\n",
+};
+
+const hb_cmd_opts hb_opts_fsweep = {
+	.name = "fsweep",
+	.usage = "--part P --unit SERIAL --lcr RES --from HZ --to HZ [options]",
+	.about = "Steps the test frequency and reads L and R (or |Z| and phase) at each point.\n",
+	.opts = fsweep_table,
+	.max_operands = 0,
+	.epilog = "--bias A with --supply RES holds a DC bias during the sweep; the limits then apply as\n"
+		  "for sweep. Default spacing: log.\n",
+};
+
 static int parse_args(int argc, char **argv, bool fsweep, sweep_args *a)
 {
 	memset(a, 0, sizeof *a);
@@ -137,100 +165,11 @@ static int parse_args(int argc, char **argv, bool fsweep, sweep_args *a)
 	a->plan.kind = fsweep ? HB_SWEEP_FREQUENCY : HB_SWEEP_BIAS;
 	hb_sweep_opts_init(&a->opts);
 	hb_sweep_plan *p = &a->plan;
-	optind = 1;
-	opterr = 0;
-	int c;
-	long n;
-	while ((c = getopt_long(argc, argv, "h", long_options, NULL)) != -1) {
-		int rc = HB_OK;
-		switch (c) {
-		case OPT_PART: a->part = optarg; break;
-		case OPT_UNIT: a->unit = optarg; break;
-		case OPT_LCR: a->lcr = optarg; break;
-		case OPT_SUPPLY: a->supply = optarg; break;
-		case OPT_LOT: a->lot = optarg; break;
-		case OPT_NOTE: a->note = optarg; break;
-		case OPT_FROM:
-			if (fsweep)
-				rc = hb_opt_value("--from", optarg, "Hz", 1, 1e9, &p->f_from);
-			else
-				rc = hb_opt_value("--from", optarg, "A", 0, 1000, &p->from);
-			a->from_given = true;
-			break;
-		case OPT_TO:
-			if (fsweep)
-				rc = hb_opt_value("--to", optarg, "Hz", 1, 1e9, &p->f_to);
-			else
-				rc = hb_opt_value("--to", optarg, "A", 1e-6, 1000, &p->to);
-			break;
-		case OPT_POINTS:
-			rc = hb_opt_int("--points", optarg, 2, 10000, &n);
-			p->f_points = (int)n;
-			break;
-		case OPT_STEP:
-			rc = hb_opt_value("--step", optarg, "A", 1e-6, 1000, &a->step);
-			a->step_given = true;
-			break;
-		case OPT_SPACING:
-			rc = hb_sweep_opts_parse_spacing(optarg, &p->spacing);
-			p->f_spacing = p->spacing;
-			break;
-		case OPT_LEVEL:
-			rc = parse_level(optarg, p);
-			a->opts.level_given = true;
-			break;
-		case OPT_CIRCUIT:
-			if (strcmp(optarg, "series") == 0)
-				p->equiv = HB_EQUIV_SERIES;
-			else if (strcmp(optarg, "parallel") == 0)
-				p->equiv = HB_EQUIV_PARALLEL;
-			else {
-				hb_cli_error("--circuit '%s': accepted series or parallel", optarg);
-				rc = HB_ERR_ARG;
-			}
-			break;
-		case OPT_PAIR:
-			if (strcasecmp(optarg, "LR") == 0)
-				p->pair = HB_PAIR_L_R;
-			else if (strcasecmp(optarg, "LQ") == 0)
-				p->pair = HB_PAIR_L_Q;
-			else if (strcasecmp(optarg, "LD") == 0)
-				p->pair = HB_PAIR_L_D;
-			else if (strcasecmp(optarg, "ZTH") == 0)
-				p->pair = HB_PAIR_Z_THETA;
-			else {
-				hb_cli_error("--pair '%s': accepted LR, LQ, LD or ZTH", optarg);
-				rc = HB_ERR_ARG;
-			}
-			break;
-		case OPT_RETURN: p->return_down = true; break;
-		case OPT_STOP_BELOW:
-			rc = hb_opt_value("--stop-below", optarg, "%", 0.01, 0.99, &p->stop_below);
-			break;
-		case OPT_BIAS: rc = hb_opt_value("--bias", optarg, "A", 0, 1000, &p->bias); break;
-		case OPT_YES: a->yes = true; break;
-		case OPT_DRY_RUN: a->dry_run = true; break;
-		case OPT_NO_FIT: a->no_fit = true; break;
-		case OPT_DCR_METER: a->dcr_meter = true; break;
-		case OPT_JSON: a->json = true; break;
-		case OPT_HELP:
-		case 'h':
-			(fsweep ? fsweep_usage : sweep_usage)(stdout);
-			return 1;
-		default:
-			if (hb_sweep_opts_parse(c, optarg, p, &a->opts, &rc))
-				break;
-			hb_cli_error("%s: unknown or incomplete option '%s' (try --help)", fsweep ? "fsweep" : "sweep",
-				     argv[optind - 1]);
-			return HB_ERR_ARG;
-		}
-		if (rc != HB_OK)
-			return HB_ERR_ARG;
-	}
-	if (optind < argc) {
-		hb_cli_error("unexpected argument '%s' (try --help)", argv[optind]);
+	hb_opts_result r;
+	if (hb_opts_parse(fsweep ? &hb_opts_fsweep : &hb_opts_sweep, argc, argv, a, &r) != HB_OK)
 		return HB_ERR_ARG;
-	}
+	if (r.done)
+		return 1;
 	const char *missing = !a->part ? "--part" : !a->unit ? "--unit" : !a->lcr ? "--lcr" : NULL;
 	if (!missing && !fsweep && !a->supply)
 		missing = "--supply";

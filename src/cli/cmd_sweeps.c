@@ -1,7 +1,7 @@
 /* src/cli/cmd_sweeps.c - commands `sweeps` (list stored sweeps) and `show` (one sweep: settings and points) */
 #include <errno.h>
-#include <getopt.h>
 #include <math.h>
+#include <stddef.h>
 #include <stdbool.h>
 #include <stdint.h>
 #include <stdio.h>
@@ -16,8 +16,10 @@
 #include "cli.h"
 
 /* "YYYY-MM-DD" or "YYYY-MM-DDTHH:MM[:SS][Z]", always UTC. */
-static int parse_since(const char *text, double *out)
+static int take_since(const hb_opt *o, const char *text, void *field)
 {
+	double *out = field;
+	(void)o;
 	int y, mo, d, h = 0, mi = 0, s = 0, used = 0;
 	struct tm tm;
 	memset(&tm, 0, sizeof tm);
@@ -55,99 +57,59 @@ bad:
 
 /* ---------------- sweeps ---------------- */
 
-static void sweeps_usage(FILE *out)
+static int match_status(const char *text, int *code)
 {
-	fprintf(out,
-		"usage: henrybench sweeps [--part P] [--unit SERIAL] [--lot L] [--status S]\n"
-		"                         [--kind bias|frequency] [--since DATE] [--limit N] [--json]\n\n"
-		"Lists stored sweeps, newest first.\n\n"
-		"  --part P        part number\n"
-		"  --unit SERIAL   unit serial number\n"
-		"  --lot L         lot code\n"
-		"  --status S      running, complete, aborted, failed or interrupted\n"
-		"  --kind K        bias or frequency\n"
-		"  --since DATE    started on or after DATE (UTC), e.g. 2024-05-01\n"
-		"  --limit N       at most N sweeps\n"
-		"  --json          machine-readable output\n");
+	hb_db_sweep_status st;
+	if (hb_db_sweep_status_parse(text, &st) != HB_OK)
+		return HB_ERR_ARG;
+	*code = (int)st;
+	return HB_OK;
 }
+
+static const char *const status_words[] = { "running", "complete", "aborted", "failed", "interrupted", NULL };
+
+typedef struct sweeps_args {
+	hb_db_sweep_filter f;
+	bool json;
+} sweeps_args;
+
+static const hb_opt sweeps_table[] = {
+	{ .name = "part", .kind = HB_OPT_TEXT, .arg = "P", .off = offsetof(sweeps_args, f.part_number), .help = "part number" },
+	{ .name = "unit", .kind = HB_OPT_TEXT, .arg = "SERIAL", .off = offsetof(sweeps_args, f.serial),
+	  .help = "unit serial number" },
+	{ .name = "lot", .kind = HB_OPT_TEXT, .arg = "L", .off = offsetof(sweeps_args, f.lot_code), .help = "lot code" },
+	{ .name = "status", .kind = HB_OPT_ENUM, .words = status_words, .match = match_status,
+	  .off = offsetof(sweeps_args, f.status), .help = "how the sweep ended" },
+	{ .name = "kind", .kind = HB_OPT_ENUM, .words = hb_opt_kind_words, .match = hb_opt_match_kind,
+	  .off = offsetof(sweeps_args, f.kind), .help = "kind of sweep" },
+	{ .name = "since", .kind = HB_OPT_CUSTOM, .arg = "DATE", .parse = take_since, .off = offsetof(sweeps_args, f.since),
+	  .help = "started on or after DATE (UTC), e.g. 2024-05-01 or 2024-05-01T08:00Z" },
+	{ .name = "limit", .kind = HB_OPT_LONG, .arg = "N", .min = 1, .max = 100000000L,
+	  .off = offsetof(sweeps_args, f.limit), .help = "at most N sweeps" },
+	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(sweeps_args, json), .help = "machine-readable output" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_sweeps = {
+	.name = "sweeps",
+	.usage = "[--part P] [--unit SERIAL] [--lot L] [--status S]\n"
+		 "                         [--kind bias|frequency] [--since DATE] [--limit N] [--json]",
+	.about = "\nLists stored sweeps, newest first.\n",
+	.opts = sweeps_table,
+	.max_operands = 0,
+};
 
 int hb_cmd_sweeps(int argc, char **argv)
 {
-	enum { O_PART = 256, O_UNIT, O_LOT, O_STATUS, O_KIND, O_SINCE, O_LIMIT, O_JSON, O_HELP };
-	static const struct option options[] = {
-		{ "part", required_argument, NULL, O_PART },
-		{ "unit", required_argument, NULL, O_UNIT },
-		{ "lot", required_argument, NULL, O_LOT },
-		{ "status", required_argument, NULL, O_STATUS },
-		{ "kind", required_argument, NULL, O_KIND },
-		{ "since", required_argument, NULL, O_SINCE },
-		{ "limit", required_argument, NULL, O_LIMIT },
-		{ "json", no_argument, NULL, O_JSON },
-		{ "help", no_argument, NULL, O_HELP },
-		{ NULL, 0, NULL, 0 },
-	};
-	hb_db_sweep_filter f;
-	hb_db_sweep_filter_init(&f);
-	bool json = false;
-	optind = 1;
-	opterr = 0;
-	for (;;) {
-		int c = getopt_long(argc, argv, "h", options, NULL);
-		if (c == -1)
-			break;
-		switch (c) {
-		case O_PART:
-			f.part_number = optarg;
-			break;
-		case O_UNIT:
-			f.serial = optarg;
-			break;
-		case O_LOT:
-			f.lot_code = optarg;
-			break;
-		case O_STATUS: {
-			hb_db_sweep_status st;
-			if (hb_db_sweep_status_parse(optarg, &st) != HB_OK) {
-				hb_cli_error("--status '%s' unknown (accepted: running, complete, aborted, failed, "
-					     "interrupted)",
-					     optarg);
-				return HB_EXIT_USAGE;
-			}
-			f.status = (int)st;
-			break;
-		}
-		case O_KIND: {
-			hb_db_sweep_kind k;
-			if (hb_db_sweep_kind_parse(optarg, &k) != HB_OK) {
-				hb_cli_error("--kind '%s' unknown (accepted: bias, frequency)", optarg);
-				return HB_EXIT_USAGE;
-			}
-			f.kind = (int)k;
-			break;
-		}
-		case O_SINCE:
-			if (parse_since(optarg, &f.since) != HB_OK)
-				return HB_EXIT_USAGE;
-			break;
-		case O_LIMIT:
-			if (hb_opt_int("--limit", optarg, 1, 100000000L, &f.limit) != HB_OK)
-				return HB_EXIT_USAGE;
-			break;
-		case O_JSON:
-			json = true;
-			break;
-		case O_HELP:
-			sweeps_usage(stdout);
-			return HB_EXIT_OK;
-		default:
-			hb_cli_error("sweeps: unknown option '%s' (try 'henrybench sweeps --help')", argv[optind - 1]);
-			return HB_EXIT_USAGE;
-		}
-	}
-	if (optind != argc) {
-		hb_cli_error("sweeps: unexpected argument '%s' (try 'henrybench sweeps --help')", argv[optind]);
+	sweeps_args a = { .json = false };
+	hb_db_sweep_filter_init(&a.f);
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_sweeps, argc, argv, &a, &r) != HB_OK)
 		return HB_EXIT_USAGE;
-	}
+	if (r.done)
+		return HB_EXIT_OK;
+	hb_db_sweep_filter f = a.f;
+	bool json = a.json;
 	hb_db *db = hb_cli_open_store();
 	if (!db)
 		return HB_EXIT_RUNTIME;
@@ -181,14 +143,24 @@ int hb_cmd_sweeps(int argc, char **argv)
 
 /* ---------------- show ---------------- */
 
-static void show_usage(FILE *out)
-{
-	fprintf(out,
-		"usage: henrybench show SWEEP_ID [--json | --csv]\n\n"
-		"Prints one stored sweep: its settings, instruments, verdicts and every point.\n"
-		"  --json   one JSON document\n"
-		"  --csv    the points only, SI units named in the header\n");
-}
+typedef struct show_args {
+	bool json, csv;
+} show_args;
+
+static const hb_opt show_table[] = {
+	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(show_args, json), .help = "one JSON document" },
+	{ .name = "csv", .kind = HB_OPT_FLAG, .off = offsetof(show_args, csv),
+	  .help = "the points only, SI units named in the header" },
+	{ .name = NULL },
+};
+
+const hb_cmd_opts hb_opts_show = {
+	.name = "show",
+	.usage = "SWEEP_ID [--json | --csv]",
+	.about = "\nPrints one stored sweep: its settings, instruments, verdicts and every point.\n",
+	.opts = show_table,
+	.max_operands = -1,
+};
 
 static const char *si(char *buf, size_t cap, double v, const char *unit)
 {
@@ -244,44 +216,22 @@ static void print_text(const hb_db_sweep *s, const hb_db_point *pts, size_t n, c
 
 int hb_cmd_show(int argc, char **argv)
 {
-	enum { O_JSON = 256, O_CSV, O_HELP };
-	static const struct option options[] = {
-		{ "json", no_argument, NULL, O_JSON },
-		{ "csv", no_argument, NULL, O_CSV },
-		{ "help", no_argument, NULL, O_HELP },
-		{ NULL, 0, NULL, 0 },
-	};
-	bool json = false, csv = false;
-	optind = 1;
-	opterr = 0;
-	for (;;) {
-		int c = getopt_long(argc, argv, "h", options, NULL);
-		if (c == -1)
-			break;
-		switch (c) {
-		case O_JSON:
-			json = true;
-			break;
-		case O_CSV:
-			csv = true;
-			break;
-		case O_HELP:
-			show_usage(stdout);
-			return HB_EXIT_OK;
-		default:
-			hb_cli_error("show: unknown option '%s' (try 'henrybench show --help')", argv[optind - 1]);
-			return HB_EXIT_USAGE;
-		}
-	}
+	show_args a = { .json = false, .csv = false };
+	hb_opts_result r;
+	if (hb_opts_parse(&hb_opts_show, argc, argv, &a, &r) != HB_OK)
+		return HB_EXIT_USAGE;
+	if (r.done)
+		return HB_EXIT_OK;
+	bool json = a.json, csv = a.csv;
 	if (json && csv) {
 		hb_cli_error("show: choose --json or --csv, not both");
 		return HB_EXIT_USAGE;
 	}
-	if (optind != argc - 1) {
+	if (r.first != argc - 1) {
 		hb_cli_error("show needs one SWEEP_ID (try 'henrybench sweeps' to list them)");
 		return HB_EXIT_USAGE;
 	}
-	const char *text = argv[optind];
+	const char *text = argv[r.first];
 	char *end = NULL;
 	errno = 0;
 	long long id = strtoll(text, &end, 10);

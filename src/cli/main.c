@@ -10,26 +10,6 @@
 
 #include "cli.h"
 
-static const hb_command commands[] = {
-	{ "ports", hb_cmd_ports, "list serial ports" },
-	{ "identify", hb_cmd_identify, "ask instruments who they are (*IDN?, profile, error queue)" },
-	{ "sim", hb_cmd_sim, "serve the simulated bench over TCP or a pseudo-terminal" },
-	{ "demo", hb_cmd_demo, "run the main job on the simulated bench" },
-	{ "core", hb_cmd_core, "core geometry: effective parameters, expected inductance" },
-	{ "sweep", hb_cmd_sweep, "measure L against DC bias, store every point, fit and judge" },
-	{ "fsweep", hb_cmd_fsweep, "measure L and R against frequency (optionally under bias)" },
-	{ "fit", hb_cmd_fit, "fit a stored sweep again and store the fit" },
-	{ "plan", hb_cmd_plan, "ISO 2859-1 sampling plan for a lot: code letter, sample size, Ac/Re" },
-	{ "sweeps", hb_cmd_sweeps, "list stored sweeps (filters: part, unit, lot, status, kind)" },
-	{ "show", hb_cmd_show, "one stored sweep: settings and points (text, JSON, CSV)" },
-	{ "part", hb_cmd_part, "part specs: add, list, show, edit" },
-	{ "inspect", hb_cmd_inspect, "inspect a lot by ISO 2859-1 sampling: sweep, judge, tally, decide (resumable)" },
-	{ "history", hb_cmd_history, "a part's measured units, lot statistics with Cpk, trend across lots" },
-	{ "compare", hb_cmd_compare, "stored bias sweeps side by side: L0, drop currents, mu_e, gap, verdict" },
-	{ "report", hb_cmd_report, "write an HTML record of a sweep, a lot or a part (inline plots)" },
-	{ "export", hb_cmd_export, "stored sweeps as CSV or JSON, SI units in every column" },
-	{ "import", hb_cmd_import, "store a sweep a meter logged on its own (CSV), then fit it" },
-};
 
 static void usage(FILE *out)
 {
@@ -38,8 +18,8 @@ static void usage(FILE *out)
 		"       henrybench COMMAND --help\n\n"
 		"Inductance against DC bias and frequency, measured, stored, fitted and judged.\n\n"
 		"commands:\n");
-	for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
-		fprintf(out, "  %-10s %s\n", commands[i].name, commands[i].summary);
+	for (const hb_command *c = hb_commands; c->name; c++)
+		fprintf(out, "  %-10s %s\n", c->name, c->summary);
 	fprintf(out,
 		"\nglobal options (accepted anywhere on the line):\n"
 		"  --db PATH        store (default $HENRYBENCH_DB or\n"
@@ -109,9 +89,9 @@ int main(int argc, char **argv)
 		printf("henrybench %s\n", HB_VERSION);
 		return HB_EXIT_OK;
 	}
-	for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++) {
-		if (strcmp(argv[1], commands[i].name) == 0) {
-			int rc = commands[i].run(argc - 1, argv + 1);
+	for (const hb_command *c = hb_commands; c->name; c++) {
+		if (strcmp(argv[1], c->name) == 0) {
+			int rc = c->run(argc - 1, argv + 1);
 			hb_cli_global_cleanup();
 			return rc;
 		}

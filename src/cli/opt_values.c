@@ -10,7 +10,6 @@
 int hb_opt_value(const char *option, const char *text, const char *unit, double min, double max, double *value)
 {
 	char err[256];
-	char lo[48], hi[48];
 	double v;
 	const char *u = unit ? unit : "";
 	if (hb_parse_value(text, u, &v, err, sizeof err) != HB_OK) {
@@ -18,20 +17,8 @@ int hb_opt_value(const char *option, const char *text, const char *unit, double 
 		return HB_ERR_ARG;
 	}
 	if (v < min || v > max || isnan(v)) {
-		int pct = strcmp(u, "%") == 0;
-		if (pct) {
-			snprintf(lo, sizeof lo, "%g%%", min * 100);
-			snprintf(hi, sizeof hi, "%g%%", max * 100);
-		} else {
-			hb_format_si(lo, sizeof lo, min, u, 4);
-			hb_format_si(hi, sizeof hi, max, u, 4);
-		}
-		if (isinf(min))
-			hb_cli_error("%s %s is out of range: accepted up to %s", option, text, hi);
-		else if (isinf(max))
-			hb_cli_error("%s %s is out of range: accepted from %s", option, text, lo);
-		else
-			hb_cli_error("%s %s is out of range: accepted %s to %s", option, text, lo, hi);
+		char range[128];
+		hb_cli_error("%s %s is out of range: accepted %s", option, text, hb_opt_range_text(range, sizeof range, u, min, max));
 		return HB_ERR_ARG;
 	}
 	*value = v;

@@ -13,68 +13,38 @@ void hb_sweep_opts_init(hb_sweep_opts *o)
 	o->max_current = o->max_voltage = o->max_power = o->ramp = o->ambient_c = o->off_threshold = NAN;
 }
 
-bool hb_sweep_opts_parse(int opt, const char *arg, hb_sweep_plan *p, hb_sweep_opts *o, int *rc)
+const char *const hb_sweep_aperture_words[] = { "short", "medium", "long", NULL };
+const int hb_sweep_aperture_codes[] = { HB_APERTURE_SHORT, HB_APERTURE_MEDIUM, HB_APERTURE_LONG };
+const char *const hb_sweep_spacing_words[] = { "lin", "log", NULL };
+const int hb_sweep_spacing_codes[] = { HB_SPACING_LIN, HB_SPACING_LOG };
+const char *const hb_sweep_settle_words[] = { "auto", NULL };
+
+int hb_sweep_opts_take_settle(const hb_opt *o, const char *text, void *field)
 {
-	long n;
-	*rc = HB_OK;
-	switch (opt) {
-	case HB_SWEEP_OPT_FREQ:
-		*rc = hb_opt_value("--freq", arg, "Hz", 1, 1e9, &p->frequency);
-		o->freq_given = true;
-		return true;
-	case HB_SWEEP_OPT_STEPS:
-		*rc = hb_opt_int("--steps", arg, 2, 10000, &n);
-		p->steps = (int)n;
-		o->steps_given = true;
-		return true;
-	case HB_SWEEP_OPT_AVG:
-		*rc = hb_opt_int("--avg", arg, 1, 256, &n);
-		p->averaging = (int)n;
-		return true;
-	case HB_SWEEP_OPT_APERTURE:
-		if (strcmp(arg, "short") == 0)
-			p->aperture = HB_APERTURE_SHORT;
-		else if (strcmp(arg, "medium") == 0)
-			p->aperture = HB_APERTURE_MEDIUM;
-		else if (strcmp(arg, "long") == 0)
-			p->aperture = HB_APERTURE_LONG;
-		else {
-			hb_cli_error("--aperture '%s': accepted short, medium or long", arg);
-			*rc = HB_ERR_ARG;
-		}
-		return true;
-	case HB_SWEEP_OPT_SETTLE:
-		if (strcmp(arg, "auto") == 0) {
-			p->settle = HB_SETTLE_AUTO;
-		} else {
-			p->settle = HB_SETTLE_FIXED;
-			*rc = hb_opt_value("--settle", arg, "s", 0, 3600, &p->settle_time);
-		}
-		return true;
-	case HB_SWEEP_OPT_SETTLE_TIMEOUT:
-		*rc = hb_opt_value("--settle-timeout", arg, "s", 0.01, 3600, &p->settle_timeout);
-		return true;
-	case HB_SWEEP_OPT_MAX_CURRENT:
-		*rc = hb_opt_value("--max-current", arg, "A", 1e-6, 1000, &o->max_current);
-		return true;
-	case HB_SWEEP_OPT_MAX_VOLTAGE:
-		*rc = hb_opt_value("--max-voltage", arg, "V", 1e-3, 1000, &o->max_voltage);
-		return true;
-	case HB_SWEEP_OPT_MAX_POWER:
-		*rc = hb_opt_value("--max-power", arg, "W", 1e-3, 100000, &o->max_power);
-		return true;
-	case HB_SWEEP_OPT_RAMP:
-		*rc = hb_opt_value("--ramp", arg, "A/s", 1e-3, 1000, &o->ramp);
-		return true;
-	case HB_SWEEP_OPT_OFF_THRESHOLD:
-		*rc = hb_opt_value("--off-threshold", arg, "A", 1e-6, 10, &o->off_threshold);
-		return true;
-	case HB_SWEEP_OPT_AMBIENT:
-		*rc = hb_opt_value("--ambient", arg, "", -60, 200, &o->ambient_c);
-		return true;
-	default:
-		return false;
+	hb_sweep_plan *p = field;
+	if (strcmp(text, "auto") == 0) {
+		p->settle = HB_SETTLE_AUTO;
+		return HB_OK;
 	}
+	p->settle = HB_SETTLE_FIXED;
+	return hb_opt_value("--settle", text, o->unit, o->min, o->max, &p->settle_time);
+}
+
+/* Sets the spacing of both sweep kinds: a bias plan and a frequency plan
+ * read different fields. */
+int hb_sweep_opts_take_spacing(const hb_opt *o, const char *text, void *field)
+{
+	hb_sweep_plan *p = field;
+	if (strcmp(text, "lin") == 0)
+		p->spacing = HB_SPACING_LIN;
+	else if (strcmp(text, "log") == 0)
+		p->spacing = HB_SPACING_LOG;
+	else {
+		hb_cli_error("--%s '%s': accepted lin or log", o->name, text);
+		return HB_ERR_ARG;
+	}
+	p->f_spacing = p->spacing;
+	return HB_OK;
 }
 
 int hb_sweep_opts_open_part(const char *part_number, hb_db **db, hb_db_part *part)
@@ -258,19 +228,6 @@ void hb_sweep_opts_print_limits(FILE *out, const hb_limit_report *report)
 			snprintf(value, sizeof value, "%.4g %s", r->value, limit_defs[id].unit);
 		fprintf(out, "  %-14s %-10s %s\n", limit_defs[id].name, value, r->source);
 	}
-}
-
-int hb_sweep_opts_parse_spacing(const char *arg, hb_spacing *spacing)
-{
-	if (strcmp(arg, "lin") == 0)
-		*spacing = HB_SPACING_LIN;
-	else if (strcmp(arg, "log") == 0)
-		*spacing = HB_SPACING_LOG;
-	else {
-		hb_cli_error("--spacing '%s': accepted lin or log", arg);
-		return HB_ERR_ARG;
-	}
-	return HB_OK;
 }
 
 int hb_sweep_opts_confirm(const hb_station *st, double top, bool yes, bool may_ask, FILE *in, FILE *prompt,

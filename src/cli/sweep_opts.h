@@ -2,35 +2,55 @@
 #ifndef HB_SWEEP_OPTS_H
 #define HB_SWEEP_OPTS_H
 
-#include <getopt.h>
 #include <stdbool.h>
+#include <stddef.h>
 #include <stdio.h>
 
 #include "../../db/hb_db.h"
 #include "../bench/bench.h"
 
-/* getopt_long values of the shared options; above any command's own enum
- * (which start at 256) so the two never collide. */
-enum {
-	HB_SWEEP_OPT_FREQ = 1000, HB_SWEEP_OPT_STEPS, HB_SWEEP_OPT_AVG, HB_SWEEP_OPT_APERTURE, HB_SWEEP_OPT_SETTLE,
-	HB_SWEEP_OPT_SETTLE_TIMEOUT, HB_SWEEP_OPT_MAX_CURRENT, HB_SWEEP_OPT_MAX_VOLTAGE, HB_SWEEP_OPT_MAX_POWER,
-	HB_SWEEP_OPT_RAMP, HB_SWEEP_OPT_AMBIENT, HB_SWEEP_OPT_OFF_THRESHOLD
-};
+#include "cli.h"
 
-/* The shared entries of a command's struct option table. */
-#define HB_SWEEP_LONG_OPTIONS                                                   \
-	{ "freq", required_argument, NULL, HB_SWEEP_OPT_FREQ },                 \
-	{ "steps", required_argument, NULL, HB_SWEEP_OPT_STEPS },               \
-	{ "avg", required_argument, NULL, HB_SWEEP_OPT_AVG },                   \
-	{ "aperture", required_argument, NULL, HB_SWEEP_OPT_APERTURE },         \
-	{ "settle", required_argument, NULL, HB_SWEEP_OPT_SETTLE },             \
-	{ "settle-timeout", required_argument, NULL, HB_SWEEP_OPT_SETTLE_TIMEOUT }, \
-	{ "max-current", required_argument, NULL, HB_SWEEP_OPT_MAX_CURRENT },   \
-	{ "max-voltage", required_argument, NULL, HB_SWEEP_OPT_MAX_VOLTAGE },   \
-	{ "max-power", required_argument, NULL, HB_SWEEP_OPT_MAX_POWER },       \
-	{ "ramp", required_argument, NULL, HB_SWEEP_OPT_RAMP },                 \
-	{ "ambient", required_argument, NULL, HB_SWEEP_OPT_AMBIENT },           \
-	{ "off-threshold", required_argument, NULL, HB_SWEEP_OPT_OFF_THRESHOLD }
+/* The custom parsers of the shared options (field: the hb_sweep_plan). */
+int hb_sweep_opts_take_settle(const hb_opt *o, const char *text, void *field);
+int hb_sweep_opts_take_spacing(const hb_opt *o, const char *text, void *field);
+extern const char *const hb_sweep_aperture_words[];
+extern const int hb_sweep_aperture_codes[];
+extern const char *const hb_sweep_spacing_words[];
+extern const int hb_sweep_spacing_codes[];
+extern const char *const hb_sweep_settle_words[];
+
+/* The shared entries of a command's option table; T is the command's
+ * struct, which holds an hb_sweep_plan plan and an hb_sweep_opts opts. */
+#define HB_SWEEP_OPTIONS(T)                                                                                         \
+	{ .name = "freq", .kind = HB_OPT_VALUE, .arg = "HZ", .unit = "Hz", .min = 1, .max = 1e9,                   \
+	  .off = offsetof(T, plan.frequency), .given = HB_OPT_GIVEN(T, opts.freq_given),                          \
+	  .help = "test frequency (default: the part's spec, else 100 kHz)" },                                     \
+	{ .name = "steps", .kind = HB_OPT_INT, .arg = "N", .min = 2, .max = 10000, .off = offsetof(T, plan.steps), \
+	  .given = HB_OPT_GIVEN(T, opts.steps_given), .help = "points on the way up (default 21)" },               \
+	{ .name = "avg", .kind = HB_OPT_INT, .arg = "N", .min = 1, .max = 256, .off = offsetof(T, plan.averaging), \
+	  .help = "readings averaged by the meter (default 1)" },                                                   \
+	{ .name = "aperture", .kind = HB_OPT_ENUM, .words = hb_sweep_aperture_words,                               \
+	  .codes = hb_sweep_aperture_codes, .off = offsetof(T, plan.aperture),                                     \
+	  .help = "integration time (default medium)" },                                                            \
+	{ .name = "settle", .kind = HB_OPT_CUSTOM, .arg = "auto|TIME", .unit = "s", .min = 0, .max = 3600,         \
+	  .words = hb_sweep_settle_words, .parse = hb_sweep_opts_take_settle, .off = offsetof(T, plan),            \
+	  .help = "auto: read until readings agree within the meter's noise; or a fixed wait, 0 s to 3600 s" },     \
+	{ .name = "settle-timeout", .kind = HB_OPT_VALUE, .arg = "S", .unit = "s", .min = 0.01, .max = 3600,       \
+	  .off = offsetof(T, plan.settle_timeout), .help = "longest auto wait per point (default 10 s)" },        \
+	{ .name = "max-current", .kind = HB_OPT_VALUE, .arg = "A", .unit = "A", .min = 1e-6, .max = 1000,          \
+	  .off = offsetof(T, opts.max_current), .help = "current limit (may only tighten the station's and part's)" }, \
+	{ .name = "max-voltage", .kind = HB_OPT_VALUE, .arg = "V", .unit = "V", .min = 1e-3, .max = 1000,          \
+	  .off = offsetof(T, opts.max_voltage), .help = "voltage limit (may only tighten the station file's)" },  \
+	{ .name = "max-power", .kind = HB_OPT_VALUE, .arg = "W", .unit = "W", .min = 1e-3, .max = 100000,          \
+	  .off = offsetof(T, opts.max_power), .help = "power limit (may only tighten the station file's)" },      \
+	{ .name = "ramp", .kind = HB_OPT_VALUE, .arg = "A/s", .unit = "A/s", .min = 1e-3, .max = 1000,             \
+	  .off = offsetof(T, opts.ramp), .help = "fastest current change between steps (default 5 A/s)" },        \
+	{ .name = "ambient", .kind = HB_OPT_VALUE, .arg = "C", .unit = "", .min = -60, .max = 200,                 \
+	  .off = offsetof(T, opts.ambient_c), .help = "ambient temperature to record, degC" },                     \
+	{ .name = "off-threshold", .kind = HB_OPT_VALUE, .arg = "A", .unit = "A", .min = 1e-6, .max = 10,          \
+	  .off = offsetof(T, opts.off_threshold),                                                                    \
+	  .help = "the output goes off only below this current (default 20 mA)" }
 
 /* What the command line said beyond the plan: which plan fields it set
  * (the part's spec fills the others) and the limits it asked for. */
@@ -42,10 +62,6 @@ typedef struct hb_sweep_opts {
 } hb_sweep_opts;
 
 void hb_sweep_opts_init(hb_sweep_opts *o);
-
-/* Takes one of the HB_SWEEP_OPT_* options into the plan or o; false when
- * opt is not one of them. *rc is HB_ERR_ARG after the one-line error. */
-bool hb_sweep_opts_parse(int opt, const char *arg, hb_sweep_plan *plan, hb_sweep_opts *o, int *rc);
 
 /* Opens the store and reads the part to be swept; prints the error and
  * returns the exit code (HB_EXIT_OK when both worked). *db is set whenever
@@ -88,8 +104,6 @@ void hb_sweep_opts_print_limits(FILE *out, const hb_limit_report *report);
 /* The test conditions alone (frequency, level from the part's spec). */
 void hb_sweep_opts_apply_conditions(const hb_sweep_opts *o, const hb_db_part *part, hb_sweep_plan *plan);
 
-/* --spacing lin|log into *spacing; HB_ERR_ARG after the one-line error. */
-int hb_sweep_opts_parse_spacing(const char *arg, hb_spacing *spacing);
 
 /* Asks before a sweep whose top current is above the station's confirmation
  * threshold; yes skips the question, and without may_ask (no terminal, or no
