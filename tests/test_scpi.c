@@ -157,7 +157,9 @@ static void test_stale_input_drained(void **state)
 	FILE *trace = open_memstream(&log, &loglen);
 	hb_scpi_set_trace(s, trace, "lcr");
 	assert_int_equal(hb_scpi_clear(s), HB_OK);
-	peer_sleep_ms(200); /* lets the stray lines arrive; correctness does not hang on the exact time */
+	/* The stray lines must be there before the query goes out: wait until
+	 * the peer has written them (step 1 of its script). */
+	assert_true(peer_wait_acted(&p, 1));
 	hb_idn idn;
 	if (hb_scpi_idn(s, &idn) != HB_OK)
 		fail_msg("idn: %s", hb_scpi_errmsg(s));
