@@ -14,47 +14,8 @@
 #include <jansson.h>
 
 #include "cli_fixture.h"
+#include "cli_json.h"
 #include "data/mil_std_105e_single.h"
-
-/* ------------------------------------------------------------------ */
-/* JSON, looked up by meaning                                          */
-
-/* The output's JSON keys may be renamed; a value is looked up under each
- * name it has had or plausibly gets, first found wins. */
-static json_t *jget(json_t *o, const char *const *names)
-{
-	for (; *names; names++) {
-		json_t *v = json_object_get(o, *names);
-		if (v)
-			return v;
-	}
-	return NULL;
-}
-
-static double jnum(json_t *o, const char *const *names)
-{
-	json_t *v = jget(o, names);
-	if (!json_is_number(v))
-		fail_msg("no number under '%s' (or its other names)", names[0]);
-	return json_number_value(v);
-}
-
-static const char *jtext(json_t *o, const char *const *names)
-{
-	json_t *v = jget(o, names);
-	if (!json_is_string(v))
-		fail_msg("no text under '%s' (or its other names)", names[0]);
-	return json_string_value(v);
-}
-
-static json_t *parse_out(const run *r)
-{
-	json_error_t jerr;
-	json_t *j = json_loads(r->out, 0, &jerr);
-	if (!j)
-		fail_msg("not JSON (%s): %s", jerr.text, r->out);
-	return j;
-}
 
 static void assert_rel(double got, double want, double rel, const char *what)
 {
