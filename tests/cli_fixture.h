@@ -66,6 +66,16 @@ static inline double monotonic(void)
 	return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
 }
 
+/* Whether this machine gives out pseudo-terminals (a container may not). */
+static inline bool terminal_available(void)
+{
+	int m = posix_openpt(O_RDWR | O_NOCTTY);
+	if (m < 0)
+		return false;
+	close(m);
+	return true;
+}
+
 /* Where a child's stdin comes from. */
 typedef enum { STDIN_NULL, STDIN_TEXT, STDIN_TERMINAL } stdin_kind;
 

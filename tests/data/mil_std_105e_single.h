@@ -4,10 +4,11 @@
  * and Tables II-A (normal), II-B (tightened), II-C (reduced), single
  * sampling, as reconstructed and cross-checked in the project's reference
  * notes "MIL-STD-105E single-sampling tables - verified reference values"
- * (sampling-tables-mil-std-105e.json/.md): primary machine source the CRAN
- * package AQLSchemes 1.7-2 (R/AAZ14Single.R), checked cell by cell against
- * a scan of the standard (Table I, II-A rows A-M), the NIBS/DPW AC-TABLE.ASC
- * copy (II-A, II-B), and further independent transcriptions. ISO 2859-1
+ * (sampling-tables-mil-std-105e.json/.md): a complete machine-readable
+ * transcription in an open-source statistics package, checked cell by cell
+ * against a scan of the standard (Table I, II-A rows A-M), a public copy
+ * of Tables II-A and II-B with their arrows, and further independent
+ * transcriptions. ISO 2859-1
  * shares Table I and the normal and tightened single-sampling plans; its
  * 1999 reduced table differs (Re = Ac + 1 throughout), so only the reduced
  * sample sizes are the same. Values are copied, not computed: `uncertain`
