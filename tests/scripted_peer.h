@@ -50,6 +50,10 @@ typedef struct peer {
 	char mismatch[256];
 	size_t commands_seen;
 	size_t commands_with_cr;
+	/* steps acted on so far, for tests that wait on the peer's progress */
+	pthread_mutex_t mu;
+	pthread_cond_t cv;
+	size_t acted;
 } peer;
 
 static inline void peer_sleep_ms(int ms)
@@ -110,6 +114,31 @@ static bool peer_read_line(peer *p, char *line, size_t cap)
 	}
 }
 
+static void peer_mark_acted(peer *p)
+{
+	pthread_mutex_lock(&p->mu);
+	p->acted++;
+	pthread_cond_broadcast(&p->cv);
+	pthread_mutex_unlock(&p->mu);
+}
+
+/* Waits until the peer has acted on `steps` steps of its script (a reply
+ * written: on TCP loopback the bytes are then in the client's receive
+ * queue). PEER_WAIT_MS is only the hang guard. Returns whether it did. */
+static inline bool peer_wait_acted(peer *p, size_t steps)
+{
+	struct timespec until;
+	clock_gettime(CLOCK_REALTIME, &until);
+	until.tv_sec += PEER_WAIT_MS / 1000;
+	pthread_mutex_lock(&p->mu);
+	int rc = 0;
+	while (p->acted < steps && rc == 0)
+		rc = pthread_cond_timedwait(&p->cv, &p->mu, &until);
+	bool done = p->acted >= steps;
+	pthread_mutex_unlock(&p->mu);
+	return done;
+}
+
 static void *peer_main(void *arg)
 {
 	peer *p = arg;
@@ -150,8 +179,10 @@ static void *peer_main(void *arg)
 		} else if (s->action == PEER_CLOSE) {
 			close(p->fd);
 			p->fd = -1;
+			peer_mark_acted(p);
 			return NULL;
 		}
+		peer_mark_acted(p);
 	}
 	/* Script done: stay until the client hangs up, so it never sees EOF early. */
 	char sink[256];
@@ -175,6 +206,8 @@ static void *peer_main(void *arg)
 static inline int peer_start_tcp(peer *p, const peer_step *steps, size_t nsteps)
 {
 	memset(p, 0, sizeof *p);
+	pthread_mutex_init(&p->mu, NULL);
+	pthread_cond_init(&p->cv, NULL);
 	p->fd = -1;
 	p->is_socket = true;
 	p->steps = steps;
@@ -198,6 +231,8 @@ static inline int peer_start_tcp(peer *p, const peer_step *steps, size_t nsteps)
 static inline int peer_start_fd(peer *p, int fd, const peer_step *steps, size_t nsteps)
 {
 	memset(p, 0, sizeof *p);
+	pthread_mutex_init(&p->mu, NULL);
+	pthread_cond_init(&p->cv, NULL);
 	p->listen_fd = -1;
 	p->fd = fd;
 	p->steps = steps;
@@ -219,6 +254,8 @@ static inline void peer_finish(peer *p)
 	if (p->listen_fd >= 0)
 		close(p->listen_fd);
 	p->fd = p->listen_fd = -1;
+	pthread_cond_destroy(&p->cv);
+	pthread_mutex_destroy(&p->mu);
 }
 
 #endif

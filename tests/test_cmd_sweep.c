@@ -1,4 +1,6 @@
 /* tests/test_cmd_sweep.c - the `sweep` and `fsweep` commands end to end: ./henrybench against `henrybench sim` over TCP, signals, faults, limits, exit codes */
+/* posix_openpt and friends (the fixture's terminal) */
+#define _XOPEN_SOURCE 700
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -24,213 +26,9 @@
 #include <jansson.h>
 
 #include "src/cli/sweep_opts.h"
+#include "cli_fixture.h"
 
-/* Only to stop a broken test from hanging; never a pass/fail criterion. */
-#define HANG_GUARD_S 60
-
-static const char *hb_bin = "./henrybench";
-static char tmpdir[256];
-static char station_limits[320], station_bare[320];
-
-/* ------------------------------------------------------------------ */
-/* processes                                                           */
-
-/* Children still alive; teardown kills what a failed test left behind. */
-static pid_t live[8];
-
-static void live_add(pid_t pid)
-{
-	for (size_t i = 0; i < sizeof live / sizeof live[0]; i++)
-		if (!live[i]) {
-			live[i] = pid;
-			return;
-		}
-}
-
-static void live_remove(pid_t pid)
-{
-	for (size_t i = 0; i < sizeof live / sizeof live[0]; i++)
-		if (live[i] == pid)
-			live[i] = 0;
-}
-
-static void kill_leftovers(void)
-{
-	for (size_t i = 0; i < sizeof live / sizeof live[0]; i++)
-		if (live[i]) {
-			kill(live[i], SIGKILL);
-			waitpid(live[i], NULL, 0);
-			live[i] = 0;
-		}
-}
-
-static double monotonic(void)
-{
-	struct timespec ts;
-	clock_gettime(CLOCK_MONOTONIC, &ts);
-	return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
-}
-
-/* Starts henrybench with argv (argv[0] ignored); stdout comes back through
- * *out_fd, stderr goes to err_path. The station file is always ours, so
- * the user's own never changes a result. */
-static pid_t spawn(char **argv, const char *station, int *out_fd, const char *err_path)
-{
-	int fds[2];
-	assert_int_equal(pipe(fds), 0);
-	fflush(NULL);
-	pid_t pid = fork();
-	assert_true(pid >= 0);
-	if (pid == 0) {
-		setenv("HENRYBENCH_STATION", station, 1);
-		unsetenv("HENRYBENCH_DB");
-		unsetenv("HENRYBENCH_PROFILE_PATH");
-		int in = open("/dev/null", O_RDONLY);
-		int err = open(err_path, O_WRONLY | O_CREAT | O_TRUNC, 0600);
-		if (in < 0 || err < 0)
-			_exit(127);
-		dup2(in, STDIN_FILENO);
-		dup2(fds[1], STDOUT_FILENO);
-		dup2(err, STDERR_FILENO);
-		close(fds[0]);
-		close(fds[1]);
-		argv[0] = (char *)hb_bin;
-		execv(hb_bin, argv);
-		_exit(127);
-	}
-	close(fds[1]);
-	live_add(pid);
-	*out_fd = fds[0];
-	return pid;
-}
-
-static int wait_exit(pid_t pid)
-{
-	int status = 0;
-	double end = monotonic() + HANG_GUARD_S;
-	while (monotonic() < end) {
-		if (waitpid(pid, &status, WNOHANG) == pid) {
-			live_remove(pid);
-			return status;
-		}
-		usleep(5000);
-	}
-	kill(pid, SIGKILL);
-	waitpid(pid, &status, 0);
-	live_remove(pid);
-	fail_msg("henrybench (pid %d) hung", (int)pid);
-	return status;
-}
-
-typedef struct text {
-	char *s;
-	size_t len, cap;
-} text;
-
-static void text_add(text *t, const char *data, size_t n)
-{
-	if (t->len + n + 1 > t->cap) {
-		t->cap = (t->len + n + 1) * 2;
-		t->s = realloc(t->s, t->cap);
-		assert_non_null(t->s);
-	}
-	memcpy(t->s + t->len, data, n);
-	t->len += n;
-	t->s[t->len] = '\0';
-}
-
-/* Reads fd into t until EOF, or until `lines` complete lines starting with
- * prefix (NULL: any lines) have arrived (0 = read to EOF). Returns how
- * many such lines. */
-static int read_until(int fd, text *t, const char *prefix, int lines)
-{
-	double end = monotonic() + HANG_GUARD_S;
-	int seen = 0;
-	size_t scanned = 0;
-	if (!t->s)
-		text_add(t, "", 0);
-	for (;;) {
-		/* count complete lines not yet looked at */
-		char *nl;
-		while ((nl = memchr(t->s + scanned, '\n', t->len - scanned))) {
-			if (!prefix || strncmp(t->s + scanned, prefix, strlen(prefix)) == 0)
-				seen++;
-			scanned = (size_t)(nl + 1 - t->s);
-		}
-		if (lines > 0 && seen >= lines)
-			return seen;
-		if (monotonic() > end)
-			return seen;
-		struct pollfd p = { fd, POLLIN, 0 };
-		int pr = poll(&p, 1, 500);
-		if (pr < 0 && errno != EINTR)
-			return seen;
-		if (pr <= 0)
-			continue;
-		char buf[4096];
-		ssize_t n = read(fd, buf, sizeof buf);
-		if (n < 0 && errno == EINTR)
-			continue;
-		if (n <= 0)
-			return seen;
-		text_add(t, buf, (size_t)n);
-	}
-}
-
-static char *slurp(const char *path)
-{
-	text t = { 0 };
-	text_add(&t, "", 0);
-	FILE *f = fopen(path, "r");
-	if (f) {
-		char buf[4096];
-		size_t n;
-		while ((n = fread(buf, 1, sizeof buf, f)) > 0)
-			text_add(&t, buf, n);
-		fclose(f);
-	}
-	return t.s;
-}
-
-typedef struct run {
-	int status; /* exit status, or 128 + signal */
-	char *out, *err;
-} run;
-
-static void run_free(run *r)
-{
-	free(r->out);
-	free(r->err);
-	memset(r, 0, sizeof *r);
-}
-
-static int exit_of(int status)
-{
-	return WIFEXITED(status) ? WEXITSTATUS(status) : 128 + WTERMSIG(status);
-}
-
-/* Runs henrybench ARGS... (NULL-terminated) to its end. */
-static void hb_run(run *r, const char *station, ...)
-{
-	char *argv[64];
-	int n = 1;
-	va_list ap;
-	va_start(ap, station);
-	for (const char *a; (a = va_arg(ap, const char *)) && n < 63;)
-		argv[n++] = (char *)a;
-	va_end(ap);
-	argv[n] = NULL;
-	char err_path[400];
-	snprintf(err_path, sizeof err_path, "%s/stderr", tmpdir);
-	int fd;
-	pid_t pid = spawn(argv, station, &fd, err_path);
-	text out = { 0 };
-	read_until(fd, &out, NULL, 0);
-	close(fd);
-	r->status = exit_of(wait_exit(pid));
-	r->out = out.s;
-	r->err = slurp(err_path);
-}
+static char station_limits[320];
 
 static bool contains_nocase(const char *hay, const char *needle)
 {
@@ -243,78 +41,6 @@ static bool contains_nocase(const char *hay, const char *needle)
 			return true;
 	}
 	return false;
-}
-
-static int count_lines(const char *s)
-{
-	int n = 0;
-	for (; *s; s++)
-		n += *s == '\n';
-	return n;
-}
-
-/* ------------------------------------------------------------------ */
-/* the simulated bench as its own process                              */
-
-typedef struct sim_server {
-	pid_t pid;
-	int fd;
-	char lcr[128], supply[128];
-	char log_path[400];
-	char *log; /* after sim_stop */
-} sim_server;
-
-static int sim_counter;
-
-/* extra: further options for `henrybench sim`, NULL-terminated. */
-static void sim_start(sim_server *s, ...)
-{
-	memset(s, 0, sizeof *s);
-	snprintf(s->log_path, sizeof s->log_path, "%s/sim-%d.log", tmpdir, ++sim_counter);
-	char *argv[32] = { NULL, "sim", "--lcr", "tcp://127.0.0.1:0", "--supply", "tcp://127.0.0.1:0", "--log",
-			   s->log_path, "--param", "time_scale=0.01" };
-	int n = 10;
-	va_list ap;
-	va_start(ap, s);
-	for (const char *a; (a = va_arg(ap, const char *)) && n < 31;)
-		argv[n++] = (char *)a;
-	va_end(ap);
-	argv[n] = NULL;
-	char err_path[420];
-	snprintf(err_path, sizeof err_path, "%s.err", s->log_path);
-	s->pid = spawn(argv, station_bare, &s->fd, err_path);
-	text out = { 0 };
-	read_until(s->fd, &out, NULL, 2);
-	/* Both lines are printed before serving starts. */
-	int lines = 0;
-	for (char *line = out.s; line && *line; line = strchr(line, '\n') ? strchr(line, '\n') + 1 : NULL) {
-		lines++;
-		if (sscanf(line, "lcr: %127s", s->lcr) == 1 || sscanf(line, "supply: %127s", s->supply) == 1)
-			continue;
-	}
-	free(out.s);
-	if (!s->lcr[0] || !s->supply[0])
-		fail_msg("henrybench sim did not print its ports (stderr: %s)", err_path);
-}
-
-static void sim_stop(sim_server *s)
-{
-	if (s->pid > 0) {
-		kill(s->pid, SIGTERM);
-		wait_exit(s->pid);
-		close(s->fd);
-		s->pid = 0;
-	}
-	free(s->log);
-	s->log = slurp(s->log_path);
-}
-
-static void sim_free(sim_server *s)
-{
-	if (s->pid > 0)
-		sim_stop(s);
-	free(s->log);
-	s->log = NULL;
 }
 
 /* The log from the last "supply output ON" on: "supply setpoint X A",
@@ -367,58 +93,14 @@ static int assert_shut_down_in_order(const char *log, double *down, int cap)
 static char db_path[400];
 static int db_counter;
 
-static void write_file(const char *path, const char *content)
-{
-	FILE *f = fopen(path, "w");
-	assert_non_null(f);
-	fputs(content, f);
-	fclose(f);
-}
-
-static void remove_tmpdir(void)
-{
-	DIR *d = opendir(tmpdir);
-	if (d) {
-		struct dirent *e;
-		while ((e = readdir(d))) {
-			if (strcmp(e->d_name, ".") == 0 || strcmp(e->d_name, "..") == 0)
-				continue;
-			char p[600];
-			snprintf(p, sizeof p, "%s/%s", tmpdir, e->d_name);
-			unlink(p);
-		}
-		closedir(d);
-	}
-	rmdir(tmpdir);
-}
-
 static int group_setup(void **state)
 {
 	(void)state;
-	const char *bin = getenv("HENRYBENCH_BIN");
-	if (bin && *bin)
-		hb_bin = bin;
-	if (access(hb_bin, X_OK) != 0) {
-		fprintf(stderr, "%s not found: run from the repository root after 'make'\n", hb_bin);
-		return -1;
-	}
-	snprintf(tmpdir, sizeof tmpdir, "/tmp/hb-test-cmd-sweep-XXXXXX");
-	if (!mkdtemp(tmpdir))
+	if (cli_fixture_setup("cmd-sweep") != 0)
 		return -1;
 	snprintf(station_limits, sizeof station_limits, "%s/station.ini", tmpdir);
 	write_file(station_limits, "# test station\n[station]\nname = test-bench\noperator = tester\n"
 				   "[limits]\nmax_current = 5\nmax_voltage = 2\nmax_power = 10\nramp_rate = 50\n");
-	snprintf(station_bare, sizeof station_bare, "%s/bare.ini", tmpdir);
-	write_file(station_bare, "# a station without limits\n[station]\nname = bare-bench\n");
-	signal(SIGPIPE, SIG_IGN);
-	return 0;
-}
-
-static int group_teardown(void **state)
-{
-	(void)state;
-	kill_leftovers();
-	remove_tmpdir();
 	return 0;
 }
 
@@ -1285,5 +967,5 @@ int main(void)
 		cmocka_unit_test(test_station_file_limit_keys),
 		cmocka_unit_test_setup_teardown(test_looser_command_line_refused_end_to_end, store_setup, store_teardown),
 	};
-	return cmocka_run_group_tests(tests, group_setup, group_teardown);
+	return cmocka_run_group_tests(tests, group_setup, cli_fixture_teardown);
 }

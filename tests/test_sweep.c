@@ -321,11 +321,71 @@ static void test_complete_sweep_leaves_supply_off(void **state)
 	engine_close_safe(&r);
 }
 
+/* The whole simulator log written to f, NUL-terminated; caller frees. */
+static char *read_log(FILE *f)
+{
+	fflush(f);
+	long end = ftell(f);
+	assert_true(end >= 0);
+	char *text = calloc(1, (size_t)end + 1);
+	assert_non_null(text);
+	rewind(f);
+	size_t got = fread(text, 1, (size_t)end, f);
+	text[got] = '\0';
+	return text;
+}
+
+/* The simulator's witness of a shut-down (its lines "supply setpoint X A
+ * at I A" and "supply output OFF at I A"): from the set-point `top` down to
+ * zero no step is larger than `max_step`, and the output goes off only
+ * after the zero set-point, with less than the 20 mA off threshold of
+ * hb_sweep_plan_defaults flowing. */
+static void assert_ramped_down(const char *log, double top, double max_step)
+{
+	char want[64];
+	snprintf(want, sizeof want, "supply setpoint %.4f A", top);
+	const char *from = NULL;
+	for (const char *p = log; (p = strstr(p, want)); p++)
+		from = p;
+	if (!from)
+		fail_msg("no set-point %.4f A in the simulator log:\n%s", top, log);
+	const char *off = strstr(from, "supply output OFF at ");
+	assert_non_null(off);
+	double prev = top;
+	int steps = 0;
+	const char *p = from + 1;
+	while ((p = strstr(p, "supply setpoint ")) && p < off) {
+		double v = atof(p + strlen("supply setpoint "));
+		if (prev - v > max_step + 1e-6)
+			fail_msg("set-point jumped from %.4f A to %.4f A (at most %.4f A a slice)", prev, v, max_step);
+		prev = v;
+		steps++;
+		p++;
+	}
+	assert_true(prev == 0);
+	/* The slices needed at that rate, rounded up: none was skipped. */
+	assert_true(steps >= (int)ceil(top / max_step - 1e-9));
+	double amps = atof(off + strlen("supply output OFF at "));
+	if (!(fabs(amps) < 0.02))
+		fail_msg("output switched off with %.4f A flowing", amps);
+}
+
 static void test_signal_ramps_down_and_aborts(void **state)
 {
 	(void)state;
+	char log_path[400];
+	snprintf(log_path, sizeof log_path, "%s/signal-ramp.log", tmpdir);
+	FILE *log = fopen(log_path, "w+");
+	assert_non_null(log);
+	hb_sim_set_log(hb_sim_inproc(), log);
 	engine_run r;
 	engine_open(&r, "sim:lcr", "sim:supply", 3, ACT_SIGINT);
+	/* 5 A/s in the 50 ms slices of docs/sweeps.md: 0.25 A a slice, so the
+	 * way down from the 1.2 A of point 4 takes five slices; at the small
+	 * plan's 50 A/s one slice would cover it and a jump would pass.
+	 * (1.2 A is no whole number of slices on purpose: the last slice must
+	 * land on an exact zero.) */
+	r.plan.limits.ramp_rate = 5;
 	assert_int_equal(engine_sweep(&r), HB_ERR_INTERRUPTED);
 	assert_int_equal(r.res.end, HB_SWEEP_ABORTED);
 	assert_true(r.res.interrupted_by_signal);
@@ -334,6 +394,11 @@ static void test_signal_ramps_down_and_aborts(void **state)
 	assert_non_null(strstr(r.res.reason, "SIGINT"));
 	assert_int_equal(hb_session_exit_code(&r.res), 130);
 	engine_close_safe(&r);
+	hb_sim_set_log(hb_sim_inproc(), NULL);
+	char *text = read_log(log);
+	fclose(log);
+	assert_ramped_down(text, 1.2, 5 * 0.05);
+	free(text);
 }
 
 /* A Ctrl-C while the instruments are still being opened: the sweep stops
@@ -390,6 +455,39 @@ static void test_compliance_aborts(void **state)
 	for (int i = 0; i < r.rec.n; i++)
 		assert_true(r.rec.pts[i].bias_set * 0.030 < 0.05 * 1.05);
 	engine_close_safe(&r);
+}
+
+/* A fixed dwell far shorter than the supply's settling: each reading sees
+ * the current still on its way up, and the point must store that current
+ * (the bracketing read-backs), not the set-point. The simulated supply is
+ * a first-order lag (tau_settle 0.2 s x time scale 0.01 = 2 ms, see
+ * `henrybench sim --list-params`), and a first-order lag after an upward
+ * step stays strictly between the old and the new set-point: it never
+ * arrives in finite time and never overshoots. The engine flags such a
+ * point unsettled (docs/sweeps.md, "still on its way there"). Virtual time
+ * makes the dwell exact, whatever the machine's load. */
+static void test_short_dwell_stores_measured_current(void **state)
+{
+	(void)state;
+	assert_int_equal(hb_sim_inproc_virtual(true), HB_OK);
+	engine_run r;
+	engine_open(&r, "sim:lcr", "sim:supply", -1, ACT_NONE);
+	r.plan.settle_time = 0.001; /* half a time constant */
+	int rc = engine_sweep(&r);
+	if (rc != HB_OK)
+		fail_msg("sweep ended: %s", r.res.reason);
+	assert_int_equal(r.rec.n, 11);
+	int short_points = 0;
+	for (int i = 1; i < r.rec.n; i++) {
+		const hb_sweep_point *p = &r.rec.pts[i], *prev = &r.rec.pts[i - 1];
+		if (!(p->bias_measured > prev->bias_set && p->bias_measured < p->bias_set))
+			fail_msg("point %d: %.6f A stored for a step from %.4f A to %.4f A", i + 1, p->bias_measured,
+				 prev->bias_set, p->bias_set);
+		short_points += !p->settled;
+	}
+	assert_true(short_points >= 1);
+	engine_close_safe(&r);
+	hb_sim_inproc_virtual(false);
 }
 
 static void test_meter_timeout_fails_safely(void **state)
@@ -808,6 +906,7 @@ int main(void)
 		cmocka_unit_test_setup_teardown(test_signal_before_start_switches_nothing_on, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_store_failure_ends_safely, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_compliance_aborts, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_short_dwell_stores_measured_current, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_meter_timeout_fails_safely, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_lost_supply_says_current_may_flow, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_auto_settle_reaches_settled_value, bench_setup, bench_teardown),
