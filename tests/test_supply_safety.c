@@ -368,6 +368,24 @@ static void test_readback_lost_during_shutdown_still_ramps(void **state)
 	free(log);
 }
 
+/* A ramp whose slices nearly divide the way down (1.2 A in 0.2 A slices)
+ * must end on a set-point of exactly zero, not on the rounding residue of
+ * six subtractions (5.5e-17 A): the supply would hold a "zero" that is
+ * not one, and the state machine would believe it was. */
+static void test_ramp_ends_on_exact_zero(void **state)
+{
+	(void)state;
+	hb_sweep_plan plan;
+	plan_for(&plan, 4.0); /* 0.2 A per 50 ms slice */
+	plan.to = 1.2;
+	plan.steps = 2;
+	sink s = { .act_after = -1 };
+	hb_sweep_result res;
+	assert_int_equal(sweep_with(&plan, &s, &res), HB_OK);
+	assert_true(sim_state("state.setpoint") == 0.0);
+	assert_true(sim_state("state.output") == 0);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -378,6 +396,7 @@ int main(void)
 		cmocka_unit_test_setup_teardown(test_output_off_mid_sweep_ends_failed, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_readback_lost_during_shutdown_still_ramps, bench_setup,
 						bench_teardown),
+		cmocka_unit_test_setup_teardown(test_ramp_ends_on_exact_zero, bench_setup, bench_teardown),
 	};
 	return cmocka_run_group_tests(tests, group_setup, group_teardown);
 }
