@@ -27,6 +27,7 @@
 
 #include "src/cli/sweep_opts.h"
 #include "cli_fixture.h"
+#include "sim_witness.h"
 
 static char station_limits[320];
 
@@ -171,24 +172,6 @@ static int count_prefix(const char *s, const char *prefix)
 /* ------------------------------------------------------------------ */
 /* tests                                                               */
 
-/* Every "supply output OFF at X A" in a simulator log: the real current at
- * the instant the output went off must be below the threshold. */
-static int assert_no_off_under_current(const char *log, double threshold)
-{
-	int n = 0;
-	for (const char *p = log; (p = strstr(p, "supply output OFF")); p++) {
-		const char *at = strstr(p, " at ");
-		const char *eol = strchr(p, '\n');
-		assert_true(at && (!eol || at < eol));
-		double amps = atof(at + 4);
-		if (fabs(amps) >= threshold)
-			print_error("output switched off with %.4f A flowing\n", amps);
-		assert_true(fabs(amps) < threshold);
-		n++;
-	}
-	return n;
-}
-
 /* A sweep killed with SIGKILL leaves the current flowing (nobody could
  * ramp it down); each following run finds it, says so, and ramps it down
  * at the ramp rate before anything else. Three kills at different
@@ -230,7 +213,7 @@ static void test_restart_after_sigkill_ramps_down_first(void **state)
 	}
 	sim_stop(&sim);
 	/* Only the last run switched off, and only once the current had gone. */
-	assert_int_equal(assert_no_off_under_current(sim.log, 0.02), 1);
+	assert_int_equal(witness_every_off_below(sim.log, 0.02), 1);
 	/* After each reconnection, the set-point walks down from where the
 	 * killed run left it, 0.1 A (2 A/s * 50 ms) at a time, to zero. */
 	int reconnections = 0;
@@ -271,7 +254,7 @@ static void test_plain_scpi_supply_with_generic_profile(void **state)
 	assert_string_equal(jstr(sw, "status"), "complete");
 	assert_int_equal(json_array_size(json_object_get(sw, "points")), 9);
 	json_decref(sw);
-	assert_no_off_under_current(sim.log, 0.02);
+	witness_every_off_below(sim.log, 0.02);
 	run_free(&r);
 	sim_free(&sim);
 }

@@ -16,6 +16,7 @@
 #include "drivers/hb_drivers.h"
 #include "src/cli/demo.h"
 #include "src/bench/bench.h"
+#include "sim_witness.h"
 
 /* Simulated time runs a hundred times faster than the wall clock. */
 #define TIME_SCALE 0.01
@@ -105,35 +106,6 @@ static char *witness_text(void)
 	text[got] = '\0';
 	fseek(witness, 0, SEEK_END);
 	return text;
-}
-
-/* Every "supply output OFF at X A" of the log: the real current at the
- * instant the output went off must be below the threshold. Returns how
- * many switch-offs the log shows. */
-static int assert_every_off_below(const char *log, double threshold)
-{
-	int n = 0;
-	for (const char *p = log; (p = strstr(p, "supply output OFF")); p++) {
-		const char *at = strstr(p, " at ");
-		const char *eol = strchr(p, '\n');
-		/* The witness must say what flowed, on the same line. */
-		assert_true(at && (!eol || at < eol));
-		double amps = atof(at + 4);
-		if (fabs(amps) >= threshold)
-			print_error("output switched off with %.4f A flowing\n", amps);
-		assert_true(fabs(amps) < threshold);
-		n++;
-	}
-	return n;
-}
-
-/* The set-points logged after `from`, in order. */
-static int setpoints_after(const char *from, double *out, int cap)
-{
-	int n = 0;
-	for (const char *p = from; (p = strstr(p, "supply setpoint ")) && n < cap; p++)
-		out[n++] = atof(p + strlen("supply setpoint "));
-	return n;
 }
 
 static void plan_for(hb_sweep_plan *plan, double ramp)
@@ -249,7 +221,7 @@ static void test_current_found_flowing_is_ramped_down_first(void **state)
 	char *log = witness_text();
 	const char *sweep_part = log + mark;
 	double sp[256];
-	int n = setpoints_after(sweep_part, sp, 256);
+	int n = witness_setpoints_after(sweep_part, sp, 256);
 	assert_true(n > 4);
 	/* The first set-points walk down from 4 A in steps no larger than the
 	 * ramp allows: ramp_rate * 50 ms = 1 A (plus rounding of the log),
@@ -270,7 +242,7 @@ static void test_current_found_flowing_is_ramped_down_first(void **state)
 	const char *zero = strstr(sweep_part, "supply setpoint 0.0000 A");
 	assert_non_null(zero);
 	assert_true(!first_off || zero < first_off);
-	assert_true(assert_every_off_below(log, OFF_THRESHOLD) >= 1);
+	assert_true(witness_every_off_below(log, OFF_THRESHOLD) >= 1);
 	free(log);
 	hb_scpi_close(other);
 	assert_true(sim_state("state.output") == 0);
@@ -308,7 +280,7 @@ static void test_no_output_off_under_current_on_any_path(void **state)
 	}
 	char *log = witness_text();
 	/* One switch-off per path, each below the threshold. */
-	assert_true(assert_every_off_below(log, OFF_THRESHOLD) >= 5);
+	assert_true(witness_every_off_below(log, OFF_THRESHOLD) >= 5);
 	free(log);
 }
 
@@ -354,7 +326,7 @@ static void test_readback_lost_during_shutdown_still_ramps(void **state)
 	const char *top = strstr(log, "supply setpoint 3.0000 A");
 	assert_non_null(top);
 	double sp[64];
-	int n = setpoints_after(top, sp, 64);
+	int n = witness_setpoints_after(top, sp, 64);
 	assert_true(n >= 4);
 	for (int i = 1; i < n; i++) {
 		if (sp[i - 1] - sp[i] > 1.0 + 1e-3)
@@ -364,7 +336,7 @@ static void test_readback_lost_during_shutdown_still_ramps(void **state)
 	assert_true(sp[n - 1] == 0);
 	if (getenv("HB_TEST_VERBOSE"))
 		print_message("%s", log);
-	assert_true(assert_every_off_below(log, OFF_THRESHOLD) >= 1);
+	assert_true(witness_every_off_below(log, OFF_THRESHOLD) >= 1);
 	free(log);
 }
 
