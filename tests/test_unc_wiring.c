@@ -1,4 +1,4 @@
-/* tests/test_unc_wiring.c - uncertainty wired into the bench: accuracy specifications from profiles and the station file, stored with each sweep (issue 10) */
+/* tests/test_unc_wiring.c - uncertainty wired into the bench (issue 10): accuracy specifications (drivers/accuracy.c, src/bench/station.c, session.c), GUM budgets of the fit (src/quality/budget.c, analysis.c, analysis_print.c) */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -17,6 +17,7 @@
 #include "drivers/hb_drivers.h"
 #include "src/cli/demo.h"
 #include "src/bench/bench.h"
+#include "src/quality/quality.h"
 
 #define TIME_SCALE 0.01
 
@@ -222,6 +223,193 @@ static void test_session_records_accuracy(void **state)
 	hb_db_close(db);
 }
 
+
+/* ---------------- budgets (src/quality/budget.c, analysis.c) ---------------- */
+
+static int64_t measure_with(hb_db *db, const hb_station *st, const char *serial, double ambient_c, double to_a,
+			    int steps)
+{
+	hb_db_part part;
+	hb_demo_part(&part);
+	assert_int_equal(hb_db_part_put(db, &part), HB_OK);
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	assert_int_equal(hb_lcr_open("sim:lcr", NULL, &lcr), HB_OK);
+	assert_int_equal(hb_supply_open("sim:supply", NULL, &supply), HB_OK);
+	hb_sweep_plan plan;
+	small_plan(&plan);
+	plan.frequency = 100e3;
+	plan.to = to_a;
+	plan.steps = steps;
+	plan.limits.max_current = to_a + 1;
+	plan.limits.max_voltage = 5;
+	plan.limits.max_power = 50;
+	hb_session s = { .db = db, .lcr = lcr, .supply = supply, .station = st, .ambient_c = ambient_c };
+	int64_t id = 0;
+	hb_sweep_result res;
+	assert_int_equal(hb_session_measure(&s, &part, serial, 0, &plan, NULL, &id, &res), HB_OK);
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+	return id;
+}
+
+static const hb_budget_input *input_named(const hb_budget *bg, const char *name)
+{
+	for (size_t i = 0; i < bg->n; i++)
+		if (strcmp(bg->in[i].input, name) == 0)
+			return &bg->in[i];
+	return NULL;
+}
+
+/*
+ * The budget of L0 on a demo-like sweep (the demo part, 0 to 8 A) carries
+ * the meter's accuracy as a Type B term: a +-0.1 % specification is a
+ * rectangular distribution, u = 0.001 L0 / sqrt(3) (JCGM 100:2008 4.3.7),
+ * and U = k sqrt(u_A^2 + u_B^2) with u_A the fit's standard error (the
+ * law of propagation, 5.1.2, with c = 1 and c = L0).
+ */
+static void test_l0_budget_has_meter_term(void **state)
+{
+	(void)state;
+	char path[512];
+	db_path_new(path, sizeof path);
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open(path, &db), HB_OK);
+	hb_station st;
+	hb_demo_station(&st);
+	int64_t id = measure_with(db, &st, "B-1", 23.0, 8, 25);
+	hb_analysis_options opt;
+	hb_analysis_options_init(&opt);
+	hb_analysis_summary *s = calloc(1, sizeof *s);
+	assert_non_null(s);
+	assert_int_equal(hb_analysis_sweep(db, id, &opt, s), HB_OK);
+	const hb_budget *bg = hb_analysis_budget(s, "L0");
+	assert_non_null(bg);
+	double L0 = s->bias.modelfree.L0, uA = s->bias.modelfree.L0_std_err;
+	assert_true(L0 > 90e-6 && L0 < 130e-6);
+	const hb_budget_input *m = input_named(bg, "meter gain");
+	assert_non_null(m);
+	char msrc[sizeof m->source];
+	snprintf(msrc, sizeof msrc, "%s", m->source);
+	assert_non_null(strstr(msrc, "meter accuracy"));
+	double uB = 0.001 * L0 / sqrt(3.0);
+	assert_true(fabs(m->contribution - uB) < 1e-9 * uB);
+	/* k from the stated 95.45 % and the budget's nu_eff; here u_B dominates, nu_eff is large, k near 2 */
+	/* Welch-Satterthwaite (GUM G.4.1) from the stated inputs: the meter's term
+	 * is exactly known (infinite dof), so nu_eff = u_c^4 / (u_A^4 / nu_A) */
+	const hb_budget_input *ta = input_named(bg, "L0 fit (Type A)");
+	assert_non_null(ta);
+	assert_true(ta->u == uA && ta->dof >= 1);
+	double uc2 = uA * uA + uB * uB;
+	double nu = uc2 * uc2 / (uA * uA * uA * uA / ta->dof);
+	assert_true(fabs(bg->dof - nu) < 1e-9 * nu);
+	double k = hb_unc_coverage_factor(floor(nu), HB_UNC_P_K2);
+	assert_true(fabs(bg->k - k) < 1e-9);
+	double U = k * sqrt(uc2);
+	assert_true(fabs(bg->U - U) < 1e-9 * U);
+	/* far more than the k = 1 standard error the tool printed before */
+	assert_true(bg->U > 2 * uA);
+
+	/* the drop currents: the meter's gain cancels, the current's accuracy enters with c = 1 */
+	const hb_budget *d20 = hb_analysis_budget(s, "I_drop20");
+	assert_non_null(d20);
+	assert_true(input_named(d20, "meter gain")->contribution == 0);
+	const hb_budget_input *bi = input_named(d20, "bias current");
+	assert_non_null(bi);
+	double a = 0.0005 * d20->value + 0.001;
+	assert_true(fabs(bi->u - a / sqrt(3.0)) < 1e-12);
+	/* mu_i, gap, Js and the physical gap have budgets with the fringing model in the last */
+	assert_non_null(hb_analysis_budget(s, "core.mu_i"));
+	assert_non_null(hb_analysis_budget(s, "core.gap"));
+	assert_non_null(hb_analysis_budget(s, "core.Js"));
+	const hb_budget *gp = hb_analysis_budget(s, "core.gap_physical");
+	assert_non_null(gp);
+	assert_non_null(input_named(gp, "fringing model"));
+	assert_true(input_named(gp, "meter gain") != NULL && isfinite(input_named(gp, "meter gain")->c));
+
+	/* stored with the fit, and in the JSON of the one value shape */
+	hb_db_fit_unc *rows = NULL;
+	size_t nr = 0;
+	assert_int_equal(hb_db_fit_unc_list(db, s->fit_id, &rows, &nr), HB_OK);
+	assert_true(nr == s->n_budgets);
+	const hb_db_fit_unc *l0row = NULL;
+	for (size_t i = 0; i < nr; i++)
+		if (strcmp(rows[i].name, "L0") == 0)
+			l0row = &rows[i];
+	assert_non_null(l0row);
+	assert_true(fabs(l0row->U - bg->U) < 1e-9 * bg->U);
+	json_t *o = hb_budget_add_stored_json(json_object(), l0row);
+	assert_true(fabs(json_real_value(json_object_get(o, "U")) - bg->U) < 1e-9 * bg->U);
+	json_t *b0 = json_array_get(json_object_get(o, "budget"), 1);
+	assert_string_equal(json_string_value(json_object_get(b0, "input")), "meter gain");
+	json_decref(o);
+	json_t *j = hb_analysis_summary_json(s);
+	json_t *jl0 = json_object_get(json_object_get(j, "values"), "L0");
+	assert_true(json_is_real(json_object_get(jl0, "U")));
+	assert_true(json_is_real(json_object_get(jl0, "std_err")));
+	assert_true(json_array_size(json_object_get(jl0, "budget")) == 2);
+	json_decref(j);
+	/* the text table */
+	char *buf = NULL;
+	size_t len = 0;
+	FILE *mf = open_memstream(&buf, &len);
+	hb_analysis_print_budget(mf, rows, nr);
+	fclose(mf);
+	const char *text = buf ? buf : "";
+	assert_non_null(strstr(text, "meter gain"));
+	assert_non_null(strstr(text, "fringing model"));
+	assert_non_null(strstr(text, "nu_eff"));
+	free(buf);
+	hb_db_fit_uncs_free(rows);
+	free(s);
+	hb_db_close(db);
+}
+
+/* DCR referred to 20 C with copper's 0.00393/K from the stored ambient
+ * (R20 = R_T / (1 + 0.00393 (T - 20))); without a temperature the value is
+ * as measured and says it is uncorrected. */
+static void test_dcr_referral(void **state)
+{
+	(void)state;
+	char path[512];
+	db_path_new(path, sizeof path);
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open(path, &db), HB_OK);
+	hb_station st;
+	hb_demo_station(&st);
+	int64_t warm = measure_with(db, &st, "D-1", 30.0, 4, 9);
+	int64_t none = measure_with(db, &st, "D-2", NAN, 4, 9);
+	hb_analysis_options opt;
+	hb_analysis_options_init(&opt);
+	hb_analysis_summary *s = calloc(1, sizeof *s);
+	assert_non_null(s);
+	assert_int_equal(hb_analysis_sweep(db, warm, &opt, s), HB_OK);
+	assert_true(isfinite(s->dcr_ohm));
+	double r20 = s->dcr_ohm / (1 + 0.00393 * (30.0 - 20.0));
+	assert_true(fabs(s->dcr_ref_ohm - r20) < 1e-12 * r20);
+	const hb_budget *bg = hb_analysis_budget(s, "DCR");
+	assert_non_null(bg);
+	assert_non_null(strstr(bg->note, "referred to 20 C from 30.0 C"));
+	assert_true(input_named(bg, "T") != NULL);
+	/* the verdict judges the referred value */
+	for (size_t i = 0; i < s->n_checks; i++)
+		if (strcmp(s->checks[i].name, "DCR") == 0)
+			assert_true(fabs(s->checks[i].check.measured - r20) < 1e-12 * r20);
+	assert_int_equal(hb_analysis_sweep(db, none, &opt, s), HB_OK);
+	assert_true(isnan(s->dcr_ref_ohm));
+	bg = hb_analysis_budget(s, "DCR");
+	assert_non_null(bg);
+	assert_true(bg->value == s->dcr_ohm);
+	assert_non_null(strstr(bg->note, "uncorrected"));
+	bool noted = false;
+	for (size_t i = 0; i < s->n_checks; i++)
+		if (strcmp(s->checks[i].name, "DCR") == 0)
+			noted = strstr(s->checks[i].note, "uncorrected") != NULL;
+	assert_true(noted);
+	free(s);
+	hb_db_close(db);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -229,6 +417,8 @@ int main(void)
 		cmocka_unit_test(test_generic_profiles_carry_placeholders),
 		cmocka_unit_test(test_profile_rejects_bad_accuracy),
 		cmocka_unit_test_setup_teardown(test_session_records_accuracy, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_l0_budget_has_meter_term, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_dcr_referral, bench_setup, bench_teardown),
 	};
 	return cmocka_run_group_tests(tests, group_setup, group_teardown);
 }

@@ -131,6 +131,14 @@ static hb_check untested(void)
 	return hb_verdict_limits(NAN, NAN, NAN);
 }
 
+const hb_budget *hb_analysis_budget(const hb_analysis_summary *s, const char *name)
+{
+	for (size_t i = 0; s && i < s->n_budgets; i++)
+		if (strcmp(s->budgets[i].name, name) == 0)
+			return &s->budgets[i];
+	return NULL;
+}
+
 static void judge_bias(hb_analysis_summary *s, const hb_db_part *part, const hb_db_sweep *sw, const double *I,
 		       const double *L, size_t n)
 {
@@ -155,11 +163,18 @@ static void judge_bias(hb_analysis_summary *s, const hb_db_part *part, const hb_
 			add_check(s, "Lsat", "H", untested(), "sweep did not reach the saturation-spec current");
 	}
 	if (isfinite(part->dcr_max_ohm)) {
-		if (isfinite(s->dcr_ohm))
-			add_check(s, "DCR", "ohm", hb_verdict_max(s->dcr_ohm, part->dcr_max_ohm),
-				  s->dcr_from_meter ? "the meter's DC-resistance reading, at zero bias"
-						    : "two-wire from the supply's V/I at low current, leads and contacts included");
-		else
+		if (isfinite(s->dcr_ohm)) {
+			/* a spec's DCR holds at 20 C: referred there when a temperature is stored */
+			char note[160], ref[96];
+			bool referred = isfinite(s->dcr_ref_ohm);
+			if (referred)
+				snprintf(ref, sizeof ref, "referred to 20 C from %.1f C (copper 0.00393/K)", s->temperature_c);
+			else
+				snprintf(ref, sizeof ref, "uncorrected: no temperature stored");
+			snprintf(note, sizeof note, "%s; %s", s->dcr_from_meter ? "the meter's DC-resistance reading, at zero bias"
+							: "two-wire from the supply's V/I at low current, leads included", ref);
+			add_check(s, "DCR", "ohm", hb_verdict_max(referred ? s->dcr_ref_ohm : s->dcr_ohm, part->dcr_max_ohm), note);
+		} else
 			add_check(s, "DCR", "ohm", untested(), "no voltage read-back at low current");
 	}
 }
@@ -451,6 +466,8 @@ static int store_results(hb_db *db, hb_analysis_summary *s)
 			fit_value(f, HB_DB_FV_GAP, gap, gap_se, "m");
 		}
 		fit_value(f, "DCR", s->dcr_ohm, NAN, "ohm");
+		fit_value(f, "DCR_20C", s->dcr_ref_ohm, NAN, "ohm");
+		fit_value(f, "DCR_temperature_C", s->temperature_c, NAN, "C");
 		fit_value(f, "Cp_used", s->cp_farad, NAN, "F");
 		fit_value(f, "Cp_from_sweep", s->cp_sweep_id > 0 ? (double)s->cp_sweep_id : NAN, NAN, "");
 		size_t len = 0;
@@ -504,6 +521,16 @@ static int store_results(hb_db *db, hb_analysis_summary *s)
 	free(f);
 	if (rc != HB_OK)
 		return rc;
+	for (size_t i = 0; i < s->n_budgets; i++) {
+		hb_db_fit_unc u;
+		hb_budget_to_db(&s->budgets[i], s->fit_id, &u);
+		rc = hb_db_fit_unc_put(db, &u);
+		if (rc != HB_OK) {
+			snprintf(s->message, sizeof s->message, "could not store the uncertainty of %s: %s", u.name,
+				 hb_db_errmsg(db));
+			return rc;
+		}
+	}
 	for (size_t i = 0; i < s->n_checks; i++) {
 		hb_db_verdict v;
 		hb_db_verdict_init(&v);
@@ -577,6 +604,8 @@ int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *op
 	memset(s, 0, sizeof *s);
 	s->sweep_id = sweep_id;
 	s->dcr_ohm = NAN;
+	s->dcr_ref_ohm = NAN;
+	s->temperature_c = NAN;
 	s->cp_farad = NAN;
 	s->overall = HB_OVERALL_INCOMPLETE;
 	hb_db_sweep sw;
@@ -665,6 +694,17 @@ int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *op
 	if (s->fit_status == HB_OK && diagnose_misfits(s, pts, n, I, L, spread, m, &fo) == HB_ERR_NOMEM) {
 		rc = HB_ERR_NOMEM;
 		goto out;
+	}
+	{
+		hb_budget_context bc;
+		hb_budget_context_from_sweep(&bc, &sw);
+		s->n_budgets = hb_budget_bias(&s->bias, I, L, sigma, m, &fo, s->dcr_ohm, &bc,
+					      s->budgets, HB_BUDGET_MAX);
+		const hb_budget *dcr = hb_analysis_budget(s, "DCR");
+		if (dcr && isfinite(bc.temperature_c)) {
+			s->dcr_ref_ohm = dcr->value;
+			s->temperature_c = bc.temperature_c;
+		}
 	}
 	judge_bias(s, &part, &sw, I, L, m);
 	{

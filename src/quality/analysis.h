@@ -10,6 +10,7 @@
 
 #include "../../db/hb_db.h"
 #include "../../fit/hb_fit.h"
+#include "budget.h"
 #include "rules.h"
 
 typedef struct hb_analysis_options {
@@ -39,6 +40,8 @@ typedef struct hb_analysis_summary {
 	hb_fit_freq_result freq;   /* frequency sweeps */
 	double dcr_ohm;            /* the meter's reading, else the supply's V/I (two-wire, leads in); NAN if none */
 	bool dcr_from_meter;
+	double dcr_ref_ohm;        /* dcr_ohm referred to 20 C (copper) when a temperature is stored; NAN otherwise */
+	double temperature_c;      /* the temperature it was referred from (the sweep's ambient); NAN = none */
 	double cp_farad;           /* winding capacitance the core fit corrected for, NAN if none */
 	int64_t cp_sweep_id;       /* the frequency sweep it came from */
 	bool knee_diagnosed, core_diagnosed; /* a flagged model's misfit was traced to a cause */
@@ -47,6 +50,9 @@ typedef struct hb_analysis_summary {
 	hb_analysis_check checks[HB_ANALYSIS_MAX_CHECKS];
 	hb_overall overall;
 	char message[256];
+	/* GUM budgets of the reported quantities (budget.h), bias sweeps */
+	size_t n_budgets;
+	hb_budget budgets[HB_BUDGET_MAX];
 } hb_analysis_summary;
 
 void hb_analysis_options_init(hb_analysis_options *opt);
@@ -54,6 +60,15 @@ void hb_analysis_options_init(hb_analysis_options *opt);
  * the fit ran (the summary then says how well). */
 int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *opt, hb_analysis_summary *out);
 void hb_analysis_print(FILE *out, const hb_analysis_summary *summary);
+/* The budget of the named quantity ("L0", "I_drop20", "core.gap", "DCR"), NULL if none. */
+const hb_budget *hb_analysis_budget(const hb_analysis_summary *summary, const char *name);
+/*
+ * The budget table of a stored fit, one block per quantity: input, value,
+ * standard uncertainty, sensitivity coefficient, contribution and source,
+ * then u_c, nu_eff, k and U (coverage 95.45 %). `fit ID --budget` prints
+ * this from hb_db_fit_unc_list(fit ID); n = 0 prints why there is none.
+ */
+void hb_analysis_print_budget(FILE *out, const hb_db_fit_unc *list, size_t n);
 json_t *hb_analysis_summary_json(const hb_analysis_summary *summary);
 
 /* Why a stored fit value has no number (value NULL: "beyond the data

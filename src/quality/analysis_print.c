@@ -28,6 +28,20 @@ static void print_value(FILE *out, const char *label, double v, double se, const
 		fprintf(out, "  %-28s %s\n", label, a);
 }
 
+/* The expanded uncertainty under a value that has a budget. */
+static void print_unc(FILE *out, const hb_analysis_summary *s, const char *name)
+{
+	const hb_budget *bg = hb_analysis_budget(s, name);
+	if (!bg || !isfinite(bg->U))
+		return;
+	char a[40];
+	if (!*bg->unit)
+		snprintf(a, sizeof a, "%.2g", bg->U);
+	else
+		hb_format_si(a, sizeof a, bg->U, bg->unit, 2);
+	fprintf(out, "  %-28s U = %s (k = %.2f, 95.45 %%)%s%s\n", "", a, bg->k, bg->note[0] ? "; " : "", bg->note);
+}
+
 size_t hb_analysis_misfit_lines(const char *model, const hb_misfit_diag *d, char lines[4][HB_ANALYSIS_LINE])
 {
 	snprintf(lines[0], HB_ANALYSIS_LINE,
@@ -116,6 +130,7 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 		return;
 	}
 	print_value(out, mf->cp_corrected ? "L0 (zero bias, as read)" : "L0 (zero bias)", mf->L0, mf->L0_std_err, "H");
+	print_unc(out, s, "L0");
 	char beyond[72];
 	snprintf(beyond, sizeof beyond, HB_FIT_REASON_BEYOND " (highest bias %#.3g A)", mf->I_max);
 	if (mf->cp_corrected) {
@@ -131,9 +146,12 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 	for (size_t i = 0; i < mf->n_drops; i++) {
 		char label[48];
 		snprintf(label, sizeof label, "current at -%g %% L", mf->drop[i].fraction * 100);
-		if (mf->drop[i].reached)
+		if (mf->drop[i].reached) {
 			print_value(out, label, mf->drop[i].current, mf->drop[i].std_err, "A");
-		else
+			char name[32];
+			snprintf(name, sizeof name, "I_drop%g", mf->drop[i].fraction * 100);
+			print_unc(out, s, name);
+		} else
 			fprintf(out, "  %-28s %s\n", label, beyond);
 	}
 	if (b->knee_status == HB_OK) {
@@ -185,12 +203,15 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 				print_reason(out, label, lr->param[j], punit[j], HB_FIT_REASON_UNDETERMINED);
 			else
 				print_value(out, label, lr->param[j], lr->std_err[j], punit[j]);
+			static const char *const bname[] = { "core.mu_i", "core.gap", "core.Js" };
+			print_unc(out, s, bname[j]);
 			if (j == HB_CORE_GAP) {
 				snprintf(label, sizeof label, "gap, physical (fringing)%s", mis ? " (misfit)" : "");
 				if (lr->undetermined & (1u << HB_CORE_GAP))
 					print_reason(out, label, c->gap_physical, "m", HB_FIT_REASON_UNDETERMINED);
 				else
 					print_value(out, label, c->gap_physical, c->gap_physical_se, "m");
+				print_unc(out, s, "core.gap_physical");
 			}
 		}
 		print_value(out, "mu_e", c->mu_e, c->mu_e_se, "");
@@ -231,8 +252,12 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 		fprintf(out, "  %-28s %s\n", "stored energy at rated", beyond);
 	else
 		print_value(out, "stored energy at rated", b->W_rated, NAN, "J");
-	if (isfinite(s->dcr_ohm))
+	if (isfinite(s->dcr_ohm)) {
 		print_value(out, s->dcr_from_meter ? "DCR (meter)" : "DCR (two-wire, leads incl.)", s->dcr_ohm, NAN, "ohm");
+		if (isfinite(s->dcr_ref_ohm))
+			print_value(out, "DCR referred to 20 C", s->dcr_ref_ohm, NAN, "ohm");
+		print_unc(out, s, "DCR");
+	}
 	if (s->n_checks) {
 		fprintf(out, "verdicts:\n");
 		for (size_t i = 0; i < s->n_checks; i++) {
@@ -289,8 +314,13 @@ json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 		json_object_set_new(j, "note", json_string(HB_FIT_INCREMENTAL_NOTE));
 		json_object_set_new(j, "cp_corrected", json_boolean(s->bias.modelfree.cp_corrected));
 		json_object_set_new(j, "L0_basis", json_string(s->bias.modelfree.L0_basis));
-		for (size_t i = 0; i < s->bias.values.count; i++)
-			json_object_set_new(vals, s->bias.values.v[i].name, hb_analysis_value_json(&s->bias.values.v[i]));
+		for (size_t i = 0; i < s->bias.values.count; i++) {
+			json_t *o = hb_analysis_value_json(&s->bias.values.v[i]);
+			const hb_budget *bg = hb_analysis_budget(s, s->bias.values.v[i].name);
+			if (bg && isfinite(s->bias.values.v[i].value))
+				hb_budget_add_json(o, bg);
+			json_object_set_new(vals, s->bias.values.v[i].name, o);
+		}
 		if (s->bias.core_status == HB_OK) {
 			const hb_fit_core_result *c = &s->bias.core;
 			json_object_set_new(j, "law", json_string(hb_core_law_name(c->best)));
@@ -298,16 +328,28 @@ json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 			const hb_fit_core_law_result *lr = &c->law[c->best];
 			bool mis = c->flags & HB_CORE_NO_LAW_FITS;
 			bool u_mu = lr->undetermined & (1u << HB_CORE_MU_I), u_g = lr->undetermined & (1u << HB_CORE_GAP);
-			json_object_set_new(vals, "mu_i",
-					    hb_analysis_value_object(lr->param[HB_CORE_MU_I], u_mu ? NAN : lr->std_err[HB_CORE_MU_I],
-								     "", u_mu ? HB_FIT_REASON_UNDETERMINED : NULL, mis));
-			json_object_set_new(vals, "gap",
-					    hb_analysis_value_object(c->gap_physical, u_g ? NAN : c->gap_physical_se, "m",
-								     u_g && isfinite(c->gap_physical) ?
-									     HB_FIT_REASON_UNDETERMINED : NULL,
-								     mis));
+			json_t *mu = hb_analysis_value_object(lr->param[HB_CORE_MU_I], u_mu ? NAN : lr->std_err[HB_CORE_MU_I],
+							      "", u_mu ? HB_FIT_REASON_UNDETERMINED : NULL, mis);
+			if (hb_analysis_budget(s, "core.mu_i"))
+				hb_budget_add_json(mu, hb_analysis_budget(s, "core.mu_i"));
+			json_object_set_new(vals, "mu_i", mu);
+			json_t *gp = hb_analysis_value_object(c->gap_physical, u_g ? NAN : c->gap_physical_se, "m",
+							      u_g && isfinite(c->gap_physical) ? HB_FIT_REASON_UNDETERMINED : NULL,
+							      mis);
+			if (hb_analysis_budget(s, "core.gap_physical"))
+				hb_budget_add_json(gp, hb_analysis_budget(s, "core.gap_physical"));
+			json_object_set_new(vals, "gap", gp);
 		}
 		json_object_set_new(j, "DCR_ohm", num(s->dcr_ohm));
+		if (hb_analysis_budget(s, "DCR")) {
+			/* value: referred to 20 C when a temperature is stored, else as measured ("uncertainty_note" says which) */
+			const hb_budget *bg = hb_analysis_budget(s, "DCR");
+			json_t *o = hb_analysis_value_object(bg->value, NAN, "ohm", NULL, false);
+			json_object_set_new(o, "as_measured", num(s->dcr_ohm));
+			json_object_set_new(o, "temperature_C", num(s->temperature_c));
+			json_object_set_new(o, "referred", json_boolean(isfinite(s->dcr_ref_ohm)));
+			json_object_set_new(vals, "DCR", hb_budget_add_json(o, bg));
+		}
 		json_t *mis = json_object();
 		const hb_misfit_diag *dg[2] = { s->knee_diagnosed ? &s->knee_diag : NULL,
 						s->core_diagnosed ? &s->core_diag : NULL };
@@ -357,4 +399,45 @@ json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 	if (s->n_checks)
 		json_object_set_new(j, "overall", json_string(hb_overall_name(s->overall)));
 	return j;
+}
+
+void hb_analysis_print_budget(FILE *out, const hb_db_fit_unc *list, size_t n)
+{
+	if (n == 0) {
+		fprintf(out, "no uncertainty budget stored with this fit (fitted before budgets were kept: refit it)\n");
+		return;
+	}
+	for (size_t q = 0; q < n; q++) {
+		const hb_db_fit_unc *u = &list[q];
+		json_error_t err;
+		json_t *a = json_loads(u->budget, 0, &err);
+		fprintf(out, "%s%s = %.7g\n", q ? "\n" : "", u->name, u->value);
+		fprintf(out, "  %-24s %-4s %-13s %-11s %-12s %-11s %s\n", "input", "type", "value", "u(x)", "c", "u_i(y)",
+			"source");
+		size_t m = json_is_array(a) ? json_array_size(a) : 0;
+		for (size_t i = 0; i < m; i++) {
+			json_t *o = json_array_get(a, i);
+			const char *name = json_string_value(json_object_get(o, "input"));
+			const char *type = json_string_value(json_object_get(o, "type"));
+			const char *src = json_string_value(json_object_get(o, "source"));
+			json_t *jv = json_object_get(o, "value"), *ju = json_object_get(o, "u"), *jc = json_object_get(o, "c"),
+			       *jk = json_object_get(o, "contribution");
+			fprintf(out, "  %-24s %-4s %-13.6g %-11.3g %-12.4g %-11.3g %s\n", name ? name : "?", type ? type : "?",
+				json_is_number(jv) ? json_number_value(jv) : NAN, json_is_number(ju) ? json_number_value(ju) : NAN,
+				json_is_number(jc) ? json_number_value(jc) : NAN, json_is_number(jk) ? json_number_value(jk) : NAN,
+				src ? src : "");
+		}
+		json_decref(a);
+		char dof[24];
+		if (isfinite(u->dof))
+			snprintf(dof, sizeof dof, "%.1f", u->dof);
+		else
+			snprintf(dof, sizeof dof, "inf");
+		fprintf(out, "  u_c = %.3g   nu_eff = %s   k = %.3f (95.45 %%)   U = %.3g", u->u_c, dof, u->k, u->U);
+		if (isfinite(u->value) && u->value != 0)
+			fprintf(out, "   (%.3g %% of the value)", 100 * u->U / fabs(u->value));
+		fprintf(out, "\n");
+		if (u->note[0])
+			fprintf(out, "  %s\n", u->note);
+	}
 }
