@@ -1,4 +1,4 @@
-/* tests/test_unc_wiring.c - uncertainty wired into the bench (issue 10): accuracy specifications (drivers/accuracy.c, src/bench/station.c, session.c), GUM budgets of the fit (src/quality/budget.c, analysis.c, analysis_print.c) */
+/* tests/test_unc_wiring.c - uncertainty wired into the bench (issue 10): accuracy specifications (drivers/accuracy.c, src/bench/station.c, session.c), GUM budgets of the fit (src/quality/budget.c, analysis.c, analysis_print.c), decision rules in verdicts (analysis.c, decision.c, inspect.c) */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -410,6 +410,158 @@ static void test_dcr_referral(void **state)
 	hb_db_close(db);
 }
 
+/* ---------------- decision rules in verdicts (src/quality/analysis.c) ---------------- */
+
+static const hb_analysis_check *check_named(const hb_analysis_summary *s, const char *name)
+{
+	for (size_t i = 0; i < s->n_checks; i++)
+		if (strcmp(s->checks[i].name, name) == 0)
+			return &s->checks[i];
+	return NULL;
+}
+
+/*
+ * A part whose L0 lies 0.05 % inside its upper tolerance limit, measured
+ * with U of about 0.3 %: simple acceptance passes it; the non-binary rule
+ * with guard band w = r U (ILAC-G8:2019 4.2.3) makes it a conditional pass;
+ * the guarded binary rule (4.2.2) rejects it (acceptance limit TU - U) and
+ * states the acceptance limits. The verdict stored says which rule and U.
+ */
+static void test_guard_band_just_inside_is_conditional(void **state)
+{
+	(void)state;
+	char path[512];
+	db_path_new(path, sizeof path);
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open(path, &db), HB_OK);
+	hb_station st;
+	hb_demo_station(&st);
+	int64_t id = measure_with(db, &st, "G-1", 23.0, 8, 25);
+	hb_analysis_options opt;
+	hb_analysis_options_init(&opt);
+	hb_analysis_summary *s = calloc(1, sizeof *s);
+	assert_non_null(s);
+	assert_int_equal(hb_analysis_sweep(db, id, &opt, s), HB_OK);
+	double L0 = s->bias.modelfree.L0;
+	/* the tolerance's upper limit 0.05 % above the measured L0 */
+	hb_db_part part;
+	assert_int_equal(hb_db_part_get(db, "HBX-108G", &part), HB_OK);
+	part.tolerance = 0.10;
+	part.nominal_h = L0 * 1.0005 / 1.10;
+	snprintf(part.decision_rule, sizeof part.decision_rule, "simple");
+	assert_int_equal(hb_db_part_put(db, &part), HB_OK);
+	assert_int_equal(hb_analysis_sweep(db, id, &opt, s), HB_OK);
+	const hb_analysis_check *k = check_named(s, "L0");
+	assert_non_null(k);
+	assert_int_equal(k->decision.rule, HB_DECISION_SIMPLE);
+	assert_int_equal(k->decision.outcome, HB_DECISION_PASS);
+	double U = hb_analysis_budget(s, "L0")->U;
+	assert_true(U > 0.001 * L0); /* U well above the 0.05 % margin */
+
+	snprintf(part.decision_rule, sizeof part.decision_rule, "non-binary");
+	part.guard_r = 1;
+	assert_int_equal(hb_db_part_put(db, &part), HB_OK);
+	assert_int_equal(hb_analysis_sweep(db, id, &opt, s), HB_OK);
+	k = check_named(s, "L0");
+	assert_int_equal(k->decision.rule, HB_DECISION_NONBINARY);
+	assert_int_equal(k->decision.outcome, HB_DECISION_CONDITIONAL_PASS);
+	assert_true(fabs(k->decision.U - U) < 1e-12 * U);
+	assert_int_equal(s->overall, HB_OVERALL_CONDITIONAL);
+	hb_db_verdict *vs = NULL;
+	size_t nv = 0;
+	assert_int_equal(hb_db_verdict_list(db, id, &vs, &nv), HB_OK);
+	const hb_db_verdict *v = NULL;
+	for (size_t i = 0; i < nv; i++)
+		if (strcmp(vs[i].check_name, "L0") == 0)
+			v = &vs[i];
+	assert_non_null(v);
+	assert_int_equal(v->outcome, HB_DB_CONDITIONAL_PASS);
+	assert_string_equal(v->decision_rule, "non-binary");
+	assert_true(fabs(v->expanded_u - U) < 1e-9 * U);
+	assert_true(v->coverage_k > 1.9);
+	assert_true(fabs(v->accept_high - (k->check.high - U)) < 1e-9 * U);
+	hb_db_verdicts_free(vs);
+	/* JSON and text state the rule */
+	json_t *j = hb_analysis_check_json(k);
+	assert_string_equal(json_string_value(json_object_get(j, "outcome")), "conditional-pass");
+	json_t *r = json_object_get(j, "decision_rule");
+	assert_string_equal(json_string_value(json_object_get(r, "name")), "non-binary");
+	assert_non_null(strstr(json_string_value(json_object_get(r, "statement")), "ILAC-G8"));
+	json_decref(j);
+
+	/* the binary guarded rule: rejected, with the acceptance limit it produced */
+	snprintf(part.decision_rule, sizeof part.decision_rule, "guarded");
+	assert_int_equal(hb_db_part_put(db, &part), HB_OK);
+	assert_int_equal(hb_analysis_sweep(db, id, &opt, s), HB_OK);
+	k = check_named(s, "L0");
+	assert_int_equal(k->decision.outcome, HB_DECISION_FAIL);
+	assert_true(fabs(k->decision.al_high - (k->check.high - U)) < 1e-9 * U);
+	/* moved inside the acceptance limit it passes, and states its false-accept risk: at most
+	 * P(z > r k) = 2.3 % at the acceptance limit for r = 1, k = 2 (normal approximation) */
+	part.nominal_h = L0 * 1.01 / 1.10;
+	assert_int_equal(hb_db_part_put(db, &part), HB_OK);
+	assert_int_equal(hb_analysis_sweep(db, id, &opt, s), HB_OK);
+	k = check_named(s, "L0");
+	assert_int_equal(k->decision.outcome, HB_DECISION_PASS);
+	assert_true(k->decision.p_false_accept >= 0 && k->decision.p_false_accept < 0.023);
+	char *buf = NULL;
+	size_t len = 0;
+	FILE *mf = open_memstream(&buf, &len);
+	hb_analysis_print(mf, s);
+	fclose(mf);
+	const char *text = buf ? buf : "";
+	assert_non_null(strstr(text, "decision rule: guarded (r = 1)"));
+	assert_non_null(strstr(text, "P(false accept)"));
+	assert_non_null(strstr(text, "acceptance ["));
+	free(buf);
+	free(s);
+	hb_db_close(db);
+}
+
+/* The station's default rule, recorded with the sweep, holds for a part that states none. */
+static void test_station_default_rule(void **state)
+{
+	(void)state;
+	char path[512];
+	db_path_new(path, sizeof path);
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open(path, &db), HB_OK);
+	hb_station st;
+	hb_demo_station(&st);
+	snprintf(st.decision_rule, sizeof st.decision_rule, "non-binary");
+	st.guard_r = 0.5;
+	int64_t id = measure_with(db, &st, "S-1", 23.0, 4, 9);
+	hb_analysis_options opt;
+	hb_analysis_options_init(&opt);
+	hb_analysis_summary *s = calloc(1, sizeof *s);
+	assert_non_null(s);
+	assert_int_equal(hb_analysis_sweep(db, id, &opt, s), HB_OK);
+	const hb_analysis_check *k = check_named(s, "L0");
+	assert_non_null(k);
+	assert_int_equal(k->decision.rule, HB_DECISION_NONBINARY);
+	assert_true(k->guard_r == 0.5);
+	free(s);
+	hb_db_close(db);
+}
+
+/* The plan printout of a lot inspection states how conditional units count. */
+static void test_inspection_states_conditional_policy(void **state)
+{
+	(void)state;
+	hb_inspect_config cfg;
+	hb_inspect_config_init(&cfg);
+	assert_int_equal(cfg.conditional_policy, HB_CONDITIONAL_NONCONFORMING);
+	char *buf = NULL;
+	size_t len = 0;
+	FILE *mf = open_memstream(&buf, &len);
+	hb_inspect_print_rules(mf, &cfg);
+	fclose(mf);
+	const char *text = buf ? buf : "";
+	assert_non_null(strstr(text, "policy 'nonconforming'"));
+	assert_non_null(strstr(text, "tallied separately"));
+	free(buf);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -419,6 +571,9 @@ int main(void)
 		cmocka_unit_test_setup_teardown(test_session_records_accuracy, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_l0_budget_has_meter_term, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_dcr_referral, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_guard_band_just_inside_is_conditional, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_station_default_rule, bench_setup, bench_teardown),
+		cmocka_unit_test(test_inspection_states_conditional_policy),
 	};
 	return cmocka_run_group_tests(tests, group_setup, group_teardown);
 }

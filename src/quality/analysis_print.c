@@ -7,6 +7,8 @@
 #include "analysis.h"
 #include "../../common/hb_text.h"
 
+static json_t *num(double v);
+
 static void print_value(FILE *out, const char *label, double v, double se, const char *unit)
 {
 	char a[40], b[40];
@@ -98,6 +100,69 @@ static void print_reason(FILE *out, const char *label, double v, const char *uni
 	else
 		hb_format_si(a, sizeof a, v, unit, 5);
 	fprintf(out, "  %-28s %s  (%s)\n", label, a, reason);
+}
+
+void hb_analysis_print_check(FILE *out, const hb_analysis_check *k, bool with_statement)
+{
+	char mv[40], lo[40], hi[40], u[40], al[40], ah[40];
+	const hb_decision *d = &k->decision;
+	if (with_statement) {
+		char rule[400];
+		fprintf(out, "  decision rule: %s\n", hb_analysis_rule_text(k, rule, sizeof rule));
+	}
+	hb_format_si(mv, sizeof mv, k->check.measured, k->unit, 5);
+	hb_format_si(lo, sizeof lo, k->check.low, k->unit, 5);
+	hb_format_si(hi, sizeof hi, k->check.high, k->unit, 5);
+	fprintf(out, "  %-5s %-16s measured %-14s", k->name, hb_decision_outcome_name(d->outcome),
+		isfinite(k->check.measured) ? mv : "-");
+	if (isfinite(d->U))
+		fprintf(out, " U %s (k = %.2f)", hb_format_si(u, sizeof u, d->U, k->unit, 2), d->k);
+	else
+		fprintf(out, " U -");
+	fprintf(out, " limits [%s, %s]", isfinite(k->check.low) ? lo : "-", isfinite(k->check.high) ? hi : "-");
+	if (d->rule != HB_DECISION_SIMPLE && (isfinite(d->al_low) || isfinite(d->al_high)))
+		fprintf(out, " acceptance [%s, %s]", isfinite(d->al_low) ? hb_format_si(al, sizeof al, d->al_low, k->unit, 5) : "-",
+			isfinite(d->al_high) ? hb_format_si(ah, sizeof ah, d->al_high, k->unit, 5) : "-");
+	if (isfinite(k->check.margin_frac))
+		fprintf(out, " margin %+.1f %%", k->check.margin_frac * 100);
+	if (d->rule == HB_DECISION_GUARDED && isfinite(d->p_false_accept))
+		fprintf(out, " P(false accept) %.2g %%", d->p_false_accept * 100);
+	fprintf(out, "\n");
+	if (k->rule_note[0])
+		fprintf(out, "        (%s)\n", k->rule_note);
+}
+
+json_t *hb_analysis_check_json(const hb_analysis_check *k)
+{
+	const hb_decision *d = &k->decision;
+	json_t *o = json_object();
+	json_object_set_new(o, "check", json_string(k->name));
+	json_object_set_new(o, "outcome", json_string(hb_decision_outcome_name(d->outcome)));
+	json_object_set_new(o, "measured", num(k->check.measured));
+	json_object_set_new(o, "limit_low", num(k->check.low));
+	json_object_set_new(o, "limit_high", num(k->check.high));
+	json_object_set_new(o, "margin_fraction", num(k->check.margin_frac));
+	json_object_set_new(o, "unit", json_string(k->unit));
+	json_object_set_new(o, "note", json_string(k->note));
+	json_t *r = json_object();
+	json_object_set_new(r, "name", json_string(hb_decision_rule_name(d->rule)));
+	json_object_set_new(r, "statement", json_string(hb_decision_rule_statement(d->rule)));
+	json_object_set_new(r, "r", d->rule == HB_DECISION_SIMPLE ? json_null() : num(k->guard_r));
+	json_object_set_new(r, "guard_band", num(d->w));
+	if (k->rule_note[0])
+		json_object_set_new(r, "note", json_string(k->rule_note));
+	json_object_set_new(o, "decision_rule", r);
+	json_object_set_new(o, "U", num(d->U));
+	json_object_set_new(o, "k", num(d->k));
+	json_object_set_new(o, "acceptance_low", num(d->al_low));
+	json_object_set_new(o, "acceptance_high", num(d->al_high));
+	if (d->rule == HB_DECISION_NONBINARY) {
+		json_object_set_new(o, "rejection_low", num(d->rl_low));
+		json_object_set_new(o, "rejection_high", num(d->rl_high));
+	}
+	json_object_set_new(o, "p_conform", num(d->p_conform));
+	json_object_set_new(o, "p_false_accept", num(d->p_false_accept));
+	return o;
 }
 
 void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
@@ -260,19 +325,8 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 	}
 	if (s->n_checks) {
 		fprintf(out, "verdicts:\n");
-		for (size_t i = 0; i < s->n_checks; i++) {
-			const hb_analysis_check *k = &s->checks[i];
-			char mv[40], lo[40], hi[40];
-			hb_format_si(mv, sizeof mv, k->check.measured, k->unit, 5);
-			hb_format_si(lo, sizeof lo, k->check.low, k->unit, 5);
-			hb_format_si(hi, sizeof hi, k->check.high, k->unit, 5);
-			fprintf(out, "  %-5s %-10s measured %-14s limits [%s, %s]", k->name,
-				hb_outcome_name(k->check.outcome), isfinite(k->check.measured) ? mv : "-",
-				isfinite(k->check.low) ? lo : "-", isfinite(k->check.high) ? hi : "-");
-			if (isfinite(k->check.margin_frac))
-				fprintf(out, " margin %+.1f %%", k->check.margin_frac * 100);
-			fprintf(out, "\n");
-		}
+		for (size_t i = 0; i < s->n_checks; i++)
+			hb_analysis_print_check(out, &s->checks[i], i == 0 || s->checks[i].decision.rule != s->checks[i - 1].decision.rule);
 		fprintf(out, "  overall: %s\n", hb_overall_name(s->overall));
 	}
 }
@@ -382,19 +436,8 @@ json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 	}
 	json_object_set_new(j, "values", vals);
 	json_t *checks = json_array();
-	for (size_t i = 0; i < s->n_checks; i++) {
-		const hb_analysis_check *k = &s->checks[i];
-		json_t *o = json_object();
-		json_object_set_new(o, "check", json_string(k->name));
-		json_object_set_new(o, "outcome", json_string(hb_outcome_name(k->check.outcome)));
-		json_object_set_new(o, "measured", num(k->check.measured));
-		json_object_set_new(o, "limit_low", num(k->check.low));
-		json_object_set_new(o, "limit_high", num(k->check.high));
-		json_object_set_new(o, "margin_fraction", num(k->check.margin_frac));
-		json_object_set_new(o, "unit", json_string(k->unit));
-		json_object_set_new(o, "note", json_string(k->note));
-		json_array_append_new(checks, o);
-	}
+	for (size_t i = 0; i < s->n_checks; i++)
+		json_array_append_new(checks, hb_analysis_check_json(&s->checks[i]));
 	json_object_set_new(j, "verdicts", checks);
 	if (s->n_checks)
 		json_object_set_new(j, "overall", json_string(hb_overall_name(s->overall)));

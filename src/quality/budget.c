@@ -443,3 +443,30 @@ json_t *hb_budget_add_json(json_t *o, const hb_budget *bg)
 	json_object_set_new(o, "budget", hb_budget_inputs_json(bg));
 	return o;
 }
+
+void hb_budget_lsat(const hb_fit_bias_result *b, double i_sat, double l_at, double dl_di, double drop,
+		    const hb_budget_context *c, hb_budget *bg)
+{
+	const hb_fit_modelfree_result *mf = &b->modelfree;
+	budget_start(bg, "Lsat", "H", l_at, NAN);
+	hb_unc_budget *ub = hb_unc_new();
+	if (!ub)
+		return;
+	pending in[4] = {
+		{ "reading noise", "H", HB_UNC_TYPE_A, l_at, mf->noise_sigma, 1, l0_dof(mf),
+		  "one reading's scatter (the sweep's noise), interpolated between points" },
+		{ "limit from L0 (Type A)", "H", HB_UNC_TYPE_A, mf->L0, mf->L0_std_err, -(1 - drop), l0_dof(mf),
+		  "the limit (1 - drop) L0 moves with the fitted L0" },
+		{ "meter gain", "", HB_UNC_TYPE_B, 1, hb_unc_rectangular(c->meter_rel), l_at - (1 - drop) * mf->L0, INFINITY,
+		  "" },
+		{ "bias current", "A", HB_UNC_TYPE_B, i_sat, hb_unc_rectangular(supply_half_width(c, i_sat)), dl_di, INFINITY,
+		  "" },
+	};
+	char ms[140];
+	meter_source(c, ms, sizeof ms);
+	snprintf(in[2].source, sizeof in[2].source, "c = L - (1 - drop) L0: the gain scales reading and limit alike; %s",
+		 ms);
+	supply_source(c, " at the spec current; c = dL/dI there", in[3].source, sizeof in[3].source);
+	evaluate(ub, bg, in, 4);
+	hb_unc_free(ub);
+}

@@ -80,6 +80,13 @@ size_t hb_budget_bias(const hb_fit_bias_result *b, const double *I, const double
 		      const hb_fit_options *fo, double dcr_ohm, const hb_budget_context *ctx, hb_budget *out,
 		      size_t cap);
 
+/* The Lsat check: L at the saturation-spec current against (1 - drop) L0.
+ * The check is of L_at - (1 - drop) L0, so the meter's gain enters only
+ * through that difference; the reading noise, the bias current's accuracy
+ * through dL/dI and the L0 fit's scatter (through the limit) enter as they are. */
+void hb_budget_lsat(const hb_fit_bias_result *b, double i_sat, double l_at, double dl_di, double drop,
+		    const hb_budget_context *ctx, hb_budget *out);
+
 /* The budget as stored (fit_uncertainty row, budget JSON text) and back. */
 void hb_budget_to_db(const hb_budget *bg, int64_t fit_id, hb_db_fit_unc *out);
 /* The budget's inputs as JSON: [{"input":..,"u":..,"c":..,"contribution":..,"source":..,

@@ -163,14 +163,17 @@ void rpt_part_section(hb_html *h, const hb_db_part *p)
 
 static const char *overall_of(const hb_db_verdict *v, size_t n)
 {
-	bool all_pass = n > 0;
+	bool untested = n == 0, conditional = false;
 	for (size_t i = 0; i < n; i++) {
 		if (v[i].outcome == HB_DB_FAIL)
 			return "fail";
-		if (v[i].outcome != HB_DB_PASS)
-			all_pass = false;
+		if (v[i].outcome == HB_DB_CONDITIONAL_PASS || v[i].outcome == HB_DB_CONDITIONAL_FAIL)
+			conditional = true;
+		else if (v[i].outcome != HB_DB_PASS)
+			untested = true;
 	}
-	return all_pass ? "pass" : "incomplete";
+	/* as the analysis decides it (src/quality/analysis.c) */
+	return untested ? "incomplete" : conditional ? "conditional" : "pass";
 }
 
 static const char *check_unit(const char *check)
@@ -193,18 +196,50 @@ void rpt_verdict_section(hb_html *h, const sweep_data *d)
 	}
 	snprintf(line, sizeof line, "Unit %s, sweep %lld, overall:", rpt_or_dash(d->sweep.serial), (long long)d->sweep.id);
 	hb_html_verdict(h, line, overall_of(d->verdicts, d->nv));
-	static const char *const head[] = { "Check", "Result", "Measured", "Lower limit", "Upper limit", "Margin",
-					    "Basis" };
-	hb_html_table_begin(h, "Margin: distance to the nearer limit as a fraction of that limit; negative = outside.",
-			    head, 7);
+	/* every rule in force is stated in words (ILAC-G8:2019, ISO/IEC 17025 7.8.6) */
+	for (size_t i = 0; i < d->nv; i++) {
+		bool seen = false;
+		for (size_t j = 0; j < i; j++)
+			seen |= strcmp(d->verdicts[j].decision_rule, d->verdicts[i].decision_rule) == 0;
+		hb_decision_rule rule;
+		if (seen || hb_decision_rule_parse(d->verdicts[i].decision_rule, &rule) != HB_OK)
+			continue;
+		char stmt[400];
+		if (rule == HB_DECISION_SIMPLE)
+			snprintf(stmt, sizeof stmt, "Decision rule: %s.", hb_decision_rule_statement(rule));
+		else
+			snprintf(stmt, sizeof stmt, "Decision rule: %s (r = %g).", hb_decision_rule_statement(rule),
+				 isfinite(d->verdicts[i].guard_r) ? d->verdicts[i].guard_r : 1);
+		hb_html_paragraph(h, stmt);
+	}
+	static const char *const head[] = { "Check", "Result", "Rule", "Measured", "U (k)", "Lower limit", "Upper limit",
+					    "Acceptance limits", "P(false accept)", "Margin", "Basis" };
+	hb_html_table_begin(h, "U: expanded uncertainty of the measured value with its coverage factor (95.45 %). "
+			       "Acceptance limits: what the rule made of the tolerance limits. Margin: distance to the "
+			       "nearer limit as a fraction of that limit; negative = outside.",
+			    head, 11);
 	for (size_t i = 0; i < d->nv; i++) {
 		const hb_db_verdict *v = &d->verdicts[i];
 		const char *u = check_unit(v->check_name);
-		char m[40], lo[40], hi[40], mg[24];
-		const char *cells[7] = { v->check_name, hb_db_outcome_name(v->outcome), rpt_si(m, sizeof m, v->measured, u, 5),
-					 rpt_si(lo, sizeof lo, v->limit_low, u, 5), rpt_si(hi, sizeof hi, v->limit_high, u, 5),
-					 rpt_pct(mg, sizeof mg, v->margin), v->note };
-		hb_html_table_row_class(h, hb_db_outcome_name(v->outcome), cells, 7);
+		char m[40], lo[40], hi[40], mg[24], uu[40], uk[64], al[40], ah[40], acc[96], pfa[24];
+		if (isfinite(v->expanded_u))
+			snprintf(uk, sizeof uk, "%s (k = %.2f)", rpt_si(uu, sizeof uu, v->expanded_u, u, 2), v->coverage_k);
+		else
+			snprintf(uk, sizeof uk, "-");
+		if (isfinite(v->accept_low) || isfinite(v->accept_high))
+			snprintf(acc, sizeof acc, "%s ... %s", rpt_si(al, sizeof al, v->accept_low, u, 5),
+				 rpt_si(ah, sizeof ah, v->accept_high, u, 5));
+		else
+			snprintf(acc, sizeof acc, "-");
+		if (isfinite(v->p_false_accept) && strcmp(v->decision_rule, "guarded") == 0)
+			snprintf(pfa, sizeof pfa, "%.2g %%", v->p_false_accept * 100);
+		else
+			snprintf(pfa, sizeof pfa, "-");
+		const char *cells[11] = { v->check_name, hb_db_outcome_name(v->outcome), v->decision_rule,
+					  rpt_si(m, sizeof m, v->measured, u, 5), uk,
+					  rpt_si(lo, sizeof lo, v->limit_low, u, 5), rpt_si(hi, sizeof hi, v->limit_high, u, 5),
+					  acc, pfa, rpt_pct(mg, sizeof mg, v->margin), v->note };
+		hb_html_table_row_class(h, hb_db_outcome_name(v->outcome), cells, 11);
 	}
 	hb_html_table_end(h);
 	hb_html_section_end(h);
