@@ -1,4 +1,4 @@
-/* tests/test_unc_wiring.c - uncertainty wired into the bench (issue 10): accuracy specifications (drivers/accuracy.c, src/bench/station.c, session.c), GUM budgets of the fit (src/quality/budget.c, analysis.c, analysis_print.c), decision rules in verdicts (analysis.c, decision.c, inspect.c) */
+/* tests/test_unc_wiring.c - uncertainty wired into the bench (issue 10): accuracy specifications (drivers/accuracy.c, src/bench/station.c, session.c), GUM budgets of the fit (src/quality/budget.c, analysis.c, analysis_print.c), decision rules in verdicts (analysis.c, decision.c, inspect.c), Cpk with confidence (history.c) */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -562,6 +562,66 @@ static void test_inspection_states_conditional_policy(void **state)
 	free(buf);
 }
 
+/* ---------------- Cpk with confidence (src/quality/history.c) ---------------- */
+
+static void history_of(const double *l0, size_t n, double nominal, double tol, hb_history_summary *out)
+{
+	hb_db_part part;
+	hb_db_part_init(&part);
+	part.nominal_h = nominal;
+	part.tolerance = tol;
+	part.sat_drop = 0.3;
+	hb_db_history_row rows[8];
+	memset(rows, 0, sizeof rows);
+	for (size_t i = 0; i < n; i++) {
+		snprintf(rows[i].lot_code, sizeof rows[i].lot_code, "LOT-A");
+		rows[i].l0_h = l0[i];
+		rows[i].i_drop_a[0] = rows[i].i_drop_a[1] = rows[i].i_drop_a[2] = 3.0 + 0.01 * (double)i;
+		rows[i].mu_e = rows[i].gap_m = NAN;
+	}
+	int drops[HB_DB_HISTORY_DROPS] = { 10, 20, 30 };
+	assert_int_equal(hb_history_summarise(&part, rows, n, drops, out), HB_OK);
+}
+
+/*
+ * Bissell's interval (Applied Statistics 39 (1990) 331-340), computed here
+ * from the stated formula: Cpk +- z_0.975 sqrt(1/(9n) + Cpk^2/(2(n-1))),
+ * on three units; the lot carries it with the small-sample warning.
+ */
+static void test_history_cpk_interval(void **state)
+{
+	(void)state;
+	double l0[3] = { 100e-6, 102e-6, 104e-6 };
+	hb_history_summary h;
+	history_of(l0, 3, 100e-6, 0.10, &h);
+	assert_int_equal(h.n_lots, 1);
+	const hb_history_lot *lot = &h.lots[0];
+	/* mean 102, s 2: Cpk = min(110 - 102, 102 - 90) / 6 = 4/3 */
+	assert_true(fabs(lot->cpk - 4.0 / 3.0) < 1e-9);
+	double half = 1.959963984540054 * sqrt(1.0 / 27 + lot->cpk * lot->cpk / 4);
+	assert_true(fabs(lot->cpk_ci.lower - (lot->cpk - half)) < 1e-9);
+	assert_true(fabs(lot->cpk_ci.upper - (lot->cpk + half)) < 1e-9);
+	assert_true(lot->cpk_ci.small_sample);
+	json_t *j = hb_history_cpk_json(lot);
+	assert_true(fabs(json_real_value(json_object_get(j, "Cpk_lower")) - (lot->cpk - half)) < 1e-9);
+	assert_true(json_is_true(json_object_get(j, "small_sample")));
+	assert_non_null(json_object_get(j, "warning"));
+	json_decref(j);
+	char buf[128];
+	assert_non_null(strstr(hb_history_cpk_text(lot, buf, sizeof buf), "n = 3 < 30"));
+	hb_history_summary_free(&h);
+
+	/* the mean a hair above the upper limit: Cpk -3e-6 prints "0.00", never "-0.00" */
+	double on[3] = { 108e-6 + 3e-11, 110e-6, 112e-6 };
+	history_of(on, 3, 100e-6, 0.10, &h);
+	lot = &h.lots[0];
+	assert_true(lot->cpk < 0 && lot->cpk > -1e-4);
+	hb_history_cpk_text(lot, buf, sizeof buf);
+	assert_null(strstr(buf, "-0.00"));
+	assert_true(strncmp(buf, "0.00", 4) == 0);
+	hb_history_summary_free(&h);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -574,6 +634,7 @@ int main(void)
 		cmocka_unit_test_setup_teardown(test_guard_band_just_inside_is_conditional, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_station_default_rule, bench_setup, bench_teardown),
 		cmocka_unit_test(test_inspection_states_conditional_policy),
+		cmocka_unit_test(test_history_cpk_interval),
 	};
 	return cmocka_run_group_tests(tests, group_setup, group_teardown);
 }
