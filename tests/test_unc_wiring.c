@@ -1,4 +1,4 @@
-/* tests/test_unc_wiring.c - uncertainty wired into the bench (issue 10): accuracy specifications (drivers/accuracy.c, src/bench/station.c, session.c), GUM budgets of the fit (src/quality/budget.c, analysis.c, analysis_print.c), decision rules in verdicts (analysis.c, decision.c, inspect.c), Cpk with confidence (history.c) */
+/* tests/test_unc_wiring.c - uncertainty wired into the bench (issue 10): accuracy specifications (drivers/accuracy.c, src/bench/station.c, session.c), GUM budgets of the fit (src/quality/budget.c, analysis.c, analysis_print.c), decision rules in verdicts (analysis.c, decision.c, inspect.c), Cpk with confidence (history.c), coverage on the simulator with a meter gain error (drivers/sim/) */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -622,6 +622,102 @@ static void test_history_cpk_interval(void **state)
 	hb_history_summary_free(&h);
 }
 
+/* ---------------- coverage on the simulator (drivers/sim gain) ---------------- */
+
+#define COVERAGE_RUNS 40
+#define COVERAGE_TIME_SCALE 1e-3
+
+/* One seeded sweep of the demo part with the meter's gain error set; L0,
+ * its Type A standard error and U from the analysis (knee and core models
+ * off: L0 is model-free). */
+static void coverage_run(hb_db *db, unsigned seed, double gain, double noise, double *l0, double *se, double *U)
+{
+	assert_int_equal(hb_demo_configure_sim(COVERAGE_TIME_SCALE, seed, 0), HB_OK);
+	hb_sim *sim = hb_sim_inproc();
+	hb_sim_inproc_lock();
+	assert_int_equal(hb_sim_set_param(sim, "gain", gain), HB_OK);
+	assert_int_equal(hb_sim_set_param(sim, "noise", noise), HB_OK);
+	hb_sim_inproc_unlock();
+	hb_station st;
+	hb_demo_station(&st);
+	hb_db_part part;
+	hb_demo_part(&part);
+	assert_int_equal(hb_db_part_put(db, &part), HB_OK);
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	assert_int_equal(hb_lcr_open("sim:lcr", NULL, &lcr), HB_OK);
+	assert_int_equal(hb_supply_open("sim:supply", NULL, &supply), HB_OK);
+	hb_sweep_plan plan;
+	small_plan(&plan);
+	plan.frequency = 100e3;
+	plan.to = 3;
+	plan.steps = 13;
+	plan.settle_time = 0.003; /* 15 settling time constants at this time scale */
+	plan.limits.ramp_rate = 200;
+	hb_session s = { .db = db, .lcr = lcr, .supply = supply, .station = &st, .ambient_c = 23 };
+	int64_t id = 0;
+	hb_sweep_result res;
+	char serial[32];
+	snprintf(serial, sizeof serial, "C%u-%g", seed, noise);
+	assert_int_equal(hb_session_measure(&s, &part, serial, 0, &plan, NULL, &id, &res), HB_OK);
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+	hb_analysis_options opt;
+	hb_analysis_options_init(&opt);
+	opt.knee = opt.core = false;
+	opt.noise_rel = res.noise_rel;
+	hb_analysis_summary *an = calloc(1, sizeof *an);
+	assert_non_null(an);
+	assert_int_equal(hb_analysis_sweep(db, id, &opt, an), HB_OK);
+	const hb_budget *bg = hb_analysis_budget(an, "L0");
+	assert_non_null(bg);
+	*l0 = an->bias.modelfree.L0;
+	*se = an->bias.modelfree.L0_std_err;
+	*U = bg->U;
+	free(an);
+	hb_sim_inproc_shutdown();
+}
+
+/*
+ * Coverage: 40 seeded runs of the simulated demo part, each with a meter
+ * gain error inside the generic profile's stated accuracy (+-0.1 % at
+ * 100 kHz), spread evenly over it (golden-ratio sequence); the truth is
+ * the same sweep without gain error and reading noise. The expanded
+ * uncertainty (k for 95.45 %) must cover the truth in at least 36 of 40
+ * runs (P(fewer | 95.45 %) about 9 %; a +-a rectangular term with k = 2
+ * covers more than 95 %, GUM G.2.3). The fit's standard error alone (the
+ * old k = 1 "+-", even doubled) must cover clearly fewer: that is what the
+ * meter's term is for.
+ */
+static void test_coverage_with_meter_gain(void **state)
+{
+	(void)state;
+	char path[512];
+	db_path_new(path, sizeof path);
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open(path, &db), HB_OK);
+	double truth, se0, u0;
+	coverage_run(db, 1, 0, 0, &truth, &se0, &u0);
+	const double a = 0.001; /* generic-lcr accuracy.basic, the test frequency not above 100 kHz */
+	int covered = 0, covered_type_a = 0;
+	double worst = 0;
+	for (unsigned i = 1; i <= COVERAGE_RUNS; i++) {
+		double frac = fmod(0.6180339887498949 * i, 1.0);
+		double gain = a * (2 * frac - 1);
+		double l0, se, U;
+		coverage_run(db, 100 + i, gain, 1e-4, &l0, &se, &U);
+		double err = fabs(l0 - truth);
+		covered += err <= U;
+		covered_type_a += err <= 2 * se;
+		worst = fmax(worst, err / U);
+	}
+	print_message("coverage: U covers the truth in %d of %d runs (worst |error|/U %.2f); 2 x the fit's "
+		      "standard error alone in %d\n", covered, COVERAGE_RUNS, worst, covered_type_a);
+	assert_true(covered >= 36);
+	assert_true(covered_type_a <= COVERAGE_RUNS / 2);
+	hb_db_close(db);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -635,6 +731,7 @@ int main(void)
 		cmocka_unit_test_setup_teardown(test_station_default_rule, bench_setup, bench_teardown),
 		cmocka_unit_test(test_inspection_states_conditional_policy),
 		cmocka_unit_test(test_history_cpk_interval),
+		cmocka_unit_test(test_coverage_with_meter_gain),
 	};
 	return cmocka_run_group_tests(tests, group_setup, group_teardown);
 }
