@@ -1,4 +1,4 @@
-/* tests/test_unc_wiring.c - uncertainty wired into the bench (issue 10): accuracy specifications (drivers/accuracy.c, src/bench/station.c, session.c), GUM budgets of the fit (src/quality/budget.c, analysis.c, analysis_print.c), decision rules in verdicts (analysis.c, decision.c, inspect.c), Cpk with confidence (history.c), coverage on the simulator with a meter gain error (drivers/sim/) */
+/* tests/test_unc_wiring.c - uncertainty wired into the bench (issue 10): accuracy specifications (drivers/accuracy.c, src/bench/station.c, session.c), GUM budgets of the fit (src/quality/budget.c, analysis.c, analysis_print.c), decision rules in verdicts (analysis.c, decision.c, inspect.c, src/report/report.c), Cpk with confidence (history.c), coverage on the simulator with a meter gain error (drivers/sim/) */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -18,6 +18,7 @@
 #include "src/cli/demo.h"
 #include "src/bench/bench.h"
 #include "src/quality/quality.h"
+#include "src/report/report.h"
 
 #define TIME_SCALE 0.01
 
@@ -513,6 +514,19 @@ static void test_guard_band_just_inside_is_conditional(void **state)
 	assert_non_null(strstr(text, "decision rule: guarded (r = 1)"));
 	assert_non_null(strstr(text, "P(false accept)"));
 	assert_non_null(strstr(text, "acceptance ["));
+	free(buf);
+	/* the HTML report states the rule, U beside the values and the budgets in an appendix */
+	buf = NULL;
+	len = 0;
+	mf = open_memstream(&buf, &len);
+	char err[256];
+	assert_int_equal(hb_report_sweep(db, id, mf, err, sizeof err), HB_OK);
+	fclose(mf);
+	text = buf ? buf : "";
+	assert_non_null(strstr(text, "Decision rule: guarded acceptance"));
+	assert_non_null(strstr(text, "Expanded uncertainty U (k)"));
+	assert_non_null(strstr(text, "Appendix: uncertainty budgets"));
+	assert_non_null(strstr(text, "P(false accept)"));
 	free(buf);
 	free(s);
 	hb_db_close(db);
