@@ -732,6 +732,105 @@ static void test_coverage_with_meter_gain(void **state)
 	hb_db_close(db);
 }
 
+/* A lot whose every unit sits 0.15 % inside the upper L0 limit, judged by
+ * the non-binary rule: each unit is a conditional pass. The default policy
+ * counts it nonconforming (lot 8, AQL 25, level II: n 2, Ac 1, Re 2 - rejected),
+ * the by-side policy conforming (accepted); both tally the conditional units
+ * separately (src/quality/inspect.c). */
+static hb_inspect_action lot_next(void *ctx, int sequence, const char *complaint, char *serial, size_t cap)
+{
+	(void)ctx;
+	if (complaint)
+		return HB_INSPECT_PAUSE;
+	snprintf(serial, cap, "L-%03d", sequence);
+	return HB_INSPECT_MEASURE;
+}
+
+static void inspect_lot(hb_db *db, hb_db_part *part, const hb_station *st, const char *lot, hb_conditional_policy pol,
+			hb_inspect_result *r)
+{
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	assert_int_equal(hb_lcr_open("sim:lcr", NULL, &lcr), HB_OK);
+	assert_int_equal(hb_supply_open("sim:supply", NULL, &supply), HB_OK);
+	hb_inspect_config cfg;
+	hb_inspect_config_init(&cfg);
+	cfg.db = db;
+	cfg.lcr = lcr;
+	cfg.supply = supply;
+	cfg.station = st;
+	cfg.part = part;
+	cfg.lot_code = lot;
+	cfg.lot_size = 8;
+	cfg.aql = 25;
+	cfg.conditional_policy = pol;
+	hb_demo_bias_plan(&cfg.plan, st);
+	cfg.plan.to = 1.25 * part->sat_current_a;
+	cfg.plan.steps = 9;
+	hb_inspect_callbacks cb = { .next_unit = lot_next };
+	assert_int_equal(hb_inspect_run(&cfg, &cb, r), HB_OK);
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+}
+
+static void test_lot_counts_conditional_by_policy(void **state)
+{
+	(void)state;
+	assert_int_equal(hb_demo_configure_sim(1e-3, 1, 0), HB_OK);
+	char path[512];
+	db_path_new(path, sizeof path);
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open(path, &db), HB_OK);
+	hb_station st;
+	hb_demo_station(&st);
+	hb_db_part part;
+	hb_demo_part(&part);
+	assert_int_equal(hb_db_part_put(db, &part), HB_OK);
+	/* the L0 these sweeps give, from a lot judged by simple acceptance */
+	hb_inspect_result r;
+	inspect_lot(db, &part, &st, "REF", HB_CONDITIONAL_NONCONFORMING, &r);
+	assert_int_equal(r.tally.conditional, 0);
+	hb_db_inspection *recs = NULL;
+	size_t n = 0;
+	assert_int_equal(hb_db_inspection_list(db, r.lot_id, &recs, &n), HB_OK);
+	assert_true(n >= 1);
+	hb_db_fit *fit = calloc(1, sizeof *fit);
+	assert_non_null(fit);
+	assert_int_equal(hb_db_fit_get_latest(db, recs[0].sweep_id, NULL, fit), HB_OK);
+	double L0 = NAN;
+	for (size_t i = 0; i < fit->n_values; i++)
+		if (strcmp(fit->values[i].name, "L0") == 0)
+			L0 = fit->values[i].value;
+	free(fit);
+	hb_db_inspections_free(recs);
+	assert_true(isfinite(L0));
+	part.tolerance = 0.10;
+	part.nominal_h = L0 * 1.0015 / 1.10;
+	snprintf(part.decision_rule, sizeof part.decision_rule, "non-binary");
+	part.guard_r = 1;
+	assert_int_equal(hb_db_part_put(db, &part), HB_OK);
+
+	inspect_lot(db, &part, &st, "COND-1", HB_CONDITIONAL_NONCONFORMING, &r);
+	assert_int_equal(r.conditional_policy, HB_CONDITIONAL_NONCONFORMING);
+	assert_true(r.tally.conditional >= 1);
+	assert_int_equal(r.tally.conditional_nonconforming, r.tally.conditional);
+	assert_int_equal(r.decision, HB_LOT_REJECT);
+	assert_int_equal(hb_db_inspection_list(db, r.lot_id, &recs, &n), HB_OK);
+	assert_true(n >= 1 && recs[0].conditional && recs[0].outcome == HB_DB_FAIL);
+	hb_db_inspections_free(recs);
+	json_t *j = hb_inspect_lot_json(db, r.lot_id, &r);
+	assert_int_equal(json_integer_value(json_object_get(j, "conditional")), r.tally.conditional);
+	assert_string_equal(json_string_value(json_object_get(j, "conditional_policy")), "nonconforming");
+	json_decref(j);
+
+	inspect_lot(db, &part, &st, "COND-2", HB_CONDITIONAL_BY_SIDE, &r);
+	assert_int_equal(r.tally.conditional, 2);
+	assert_int_equal(r.tally.conditional_nonconforming, 0);
+	assert_int_equal(r.decision, HB_LOT_ACCEPT);
+	hb_db_close(db);
+	hb_sim_inproc_shutdown();
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -744,6 +843,7 @@ int main(void)
 		cmocka_unit_test_setup_teardown(test_guard_band_just_inside_is_conditional, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_station_default_rule, bench_setup, bench_teardown),
 		cmocka_unit_test(test_inspection_states_conditional_policy),
+		cmocka_unit_test(test_lot_counts_conditional_by_policy),
 		cmocka_unit_test(test_history_cpk_interval),
 		cmocka_unit_test(test_coverage_with_meter_gain),
 	};
