@@ -481,6 +481,11 @@ static void test_guard_band_just_inside_is_conditional(void **state)
 	assert_true(fabs(v->expanded_u - U) < 1e-9 * U);
 	assert_true(v->coverage_k > 1.9);
 	assert_true(fabs(v->accept_high - (k->check.high - U)) < 1e-9 * U);
+	json_t *sv = hb_analysis_stored_verdict_json(v, "H");
+	assert_string_equal(json_string_value(json_object_get(sv, "outcome")), "conditional-pass");
+	assert_string_equal(json_string_value(json_object_get(json_object_get(sv, "decision_rule"), "name")), "non-binary");
+	assert_true(fabs(json_real_value(json_object_get(sv, "U")) - U) < 1e-9 * U);
+	json_decref(sv);
 	hb_db_verdicts_free(vs);
 	/* JSON and text state the rule */
 	json_t *j = hb_analysis_check_json(k);

@@ -87,6 +87,11 @@ void hb_analysis_print_check(FILE *out, const hb_analysis_check *k, bool with_st
  * "guard_band"[,"note"]},"U","k","acceptance_low","acceptance_high",
  * ["rejection_low","rejection_high" non-binary],"p_conform","p_false_accept"}. */
 json_t *hb_analysis_check_json(const hb_analysis_check *k);
+/* The same two for a verdict read back from the store (show, export, the
+ * history of a unit): the rule's statement rebuilt from its name; unit "H",
+ * "ohm" or "A" as the check's. */
+void hb_analysis_print_stored_verdict(FILE *out, const hb_db_verdict *v, const char *unit);
+json_t *hb_analysis_stored_verdict_json(const hb_db_verdict *v, const char *unit);
 /* The budget of the named quantity ("L0", "I_drop20", "core.gap", "DCR"), NULL if none. */
 const hb_budget *hb_analysis_budget(const hb_analysis_summary *summary, const char *name);
 /*

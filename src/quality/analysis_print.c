@@ -484,3 +484,52 @@ void hb_analysis_print_budget(FILE *out, const hb_db_fit_unc *list, size_t n)
 			fprintf(out, "  %s\n", u->note);
 	}
 }
+
+void hb_analysis_print_stored_verdict(FILE *out, const hb_db_verdict *v, const char *unit)
+{
+	char mv[40], lo[40], hi[40], u[40], al[40], ah[40];
+	fprintf(out, "  %-5s %-16s measured %-14s", v->check_name, hb_db_outcome_name(v->outcome),
+		isfinite(v->measured) ? hb_format_si(mv, sizeof mv, v->measured, unit, 5) : "-");
+	if (isfinite(v->expanded_u))
+		fprintf(out, " U %s (k = %.2f)", hb_format_si(u, sizeof u, v->expanded_u, unit, 2), v->coverage_k);
+	else
+		fprintf(out, " U -");
+	fprintf(out, " limits [%s, %s]", isfinite(v->limit_low) ? hb_format_si(lo, sizeof lo, v->limit_low, unit, 5) : "-",
+		isfinite(v->limit_high) ? hb_format_si(hi, sizeof hi, v->limit_high, unit, 5) : "-");
+	fprintf(out, " rule %s", v->decision_rule[0] ? v->decision_rule : "simple");
+	if (isfinite(v->guard_r))
+		fprintf(out, " (r = %g)", v->guard_r);
+	if (strcmp(v->decision_rule, "simple") != 0 && (isfinite(v->accept_low) || isfinite(v->accept_high)))
+		fprintf(out, " acceptance [%s, %s]",
+			isfinite(v->accept_low) ? hb_format_si(al, sizeof al, v->accept_low, unit, 5) : "-",
+			isfinite(v->accept_high) ? hb_format_si(ah, sizeof ah, v->accept_high, unit, 5) : "-");
+	if (strcmp(v->decision_rule, "guarded") == 0 && isfinite(v->p_false_accept))
+		fprintf(out, " P(false accept) %.2g %%", v->p_false_accept * 100);
+	fprintf(out, "\n");
+}
+
+json_t *hb_analysis_stored_verdict_json(const hb_db_verdict *v, const char *unit)
+{
+	json_t *o = json_object();
+	json_object_set_new(o, "check", json_string(v->check_name));
+	json_object_set_new(o, "outcome", json_string(hb_db_outcome_name(v->outcome)));
+	json_object_set_new(o, "measured", num(v->measured));
+	json_object_set_new(o, "limit_low", num(v->limit_low));
+	json_object_set_new(o, "limit_high", num(v->limit_high));
+	json_object_set_new(o, "margin_fraction", num(v->margin));
+	json_object_set_new(o, "unit", json_string(unit ? unit : ""));
+	json_object_set_new(o, "note", json_string(v->note));
+	hb_decision_rule rule = HB_DECISION_SIMPLE;
+	hb_decision_rule_parse(v->decision_rule, &rule);
+	json_t *r = json_object();
+	json_object_set_new(r, "name", json_string(hb_decision_rule_name(rule)));
+	json_object_set_new(r, "statement", json_string(hb_decision_rule_statement(rule)));
+	json_object_set_new(r, "r", num(v->guard_r));
+	json_object_set_new(o, "decision_rule", r);
+	json_object_set_new(o, "U", num(v->expanded_u));
+	json_object_set_new(o, "k", num(v->coverage_k));
+	json_object_set_new(o, "acceptance_low", num(v->accept_low));
+	json_object_set_new(o, "acceptance_high", num(v->accept_high));
+	json_object_set_new(o, "p_false_accept", num(v->p_false_accept));
+	return o;
+}
