@@ -654,7 +654,7 @@ int hb_db_fit_unc_put(hb_db *db, const hb_db_fit_unc *u)
 	db_bind_text(st, 2, u->name);
 	db_bind_real(st, 3, u->value);
 	db_bind_real(st, 4, u->u_c);
-	db_bind_real(st, 5, u->dof); /* infinite dof binds as NULL: read back as NAN, shown as "inf" by callers */
+	db_bind_real(st, 5, u->dof); /* SQLite keeps an IEEE infinity: every input exactly known */
 	db_bind_real(st, 6, u->k);
 	db_bind_real(st, 7, u->U);
 	db_bind_text(st, 8, u->budget[0] ? u->budget : "[]");

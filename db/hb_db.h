@@ -334,7 +334,7 @@ enum { HB_DB_BUDGET_LEN = 4096 };
 typedef struct hb_db_fit_unc {
 	int64_t fit_id;
 	char name[32];             /* the fit value's name, e.g. "L0", "I_drop20", "DCR" */
-	double value, u_c, dof, k, U; /* dof INFINITY is stored as NULL */
+	double value, u_c, dof, k, U; /* dof INFINITY: every input exactly known; NAN = not known */
 	char budget[HB_DB_BUDGET_LEN]; /* [{"input":..,"u":..,"c":..,"contribution":..,"source":..}, ...] */
 	char note[HB_DB_TEXT_LEN]; /* e.g. "uncorrected: no temperature stored" */
 } hb_db_fit_unc;

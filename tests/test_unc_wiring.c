@@ -339,6 +339,10 @@ static void test_l0_budget_has_meter_term(void **state)
 			l0row = &rows[i];
 	assert_non_null(l0row);
 	assert_true(fabs(l0row->U - bg->U) < 1e-9 * bg->U);
+	/* every DCR input is a specification: infinite dof, stored and read back as such */
+	for (size_t i = 0; i < nr; i++)
+		if (strcmp(rows[i].name, "DCR") == 0)
+			assert_true(isinf(rows[i].dof) && rows[i].dof > 0);
 	json_t *o = hb_budget_add_stored_json(json_object(), l0row);
 	assert_true(fabs(json_real_value(json_object_get(o, "U")) - bg->U) < 1e-9 * bg->U);
 	json_t *b0 = json_array_get(json_object_get(o, "budget"), 1);
@@ -570,6 +574,14 @@ static void test_inspection_states_conditional_policy(void **state)
 	hb_inspect_config cfg;
 	hb_inspect_config_init(&cfg);
 	assert_int_equal(cfg.conditional_policy, HB_CONDITIONAL_NONCONFORMING);
+	hb_conditional_policy pol;
+	assert_int_equal(hb_conditional_policy_parse("by-side", &pol), HB_OK);
+	assert_int_equal(pol, HB_CONDITIONAL_BY_SIDE);
+	assert_int_equal(hb_conditional_policy_parse("lenient", &pol), HB_ERR_ARG);
+	hb_decision_rule rule;
+	assert_int_equal(hb_decision_rule_parse("guarded", &rule), HB_OK);
+	assert_int_equal(rule, HB_DECISION_GUARDED);
+	assert_int_equal(hb_decision_rule_parse("strict", &rule), HB_ERR_ARG);
 	char *buf = NULL;
 	size_t len = 0;
 	FILE *mf = open_memstream(&buf, &len);

@@ -169,6 +169,19 @@ const char *hb_decision_rule_name(hb_decision_rule rule)
 	}
 }
 
+int hb_conditional_policy_parse(const char *text, hb_conditional_policy *policy)
+{
+	if (!text || !policy)
+		return HB_ERR_ARG;
+	if (strcmp(text, "nonconforming") == 0)
+		*policy = HB_CONDITIONAL_NONCONFORMING;
+	else if (strcmp(text, "by-side") == 0)
+		*policy = HB_CONDITIONAL_BY_SIDE;
+	else
+		return HB_ERR_ARG;
+	return HB_OK;
+}
+
 int hb_decision_rule_parse(const char *text, hb_decision_rule *rule)
 {
 	if (!text || !rule)
