@@ -839,6 +839,16 @@ static void test_lot_counts_conditional_by_policy(void **state)
 	assert_int_equal(json_integer_value(json_object_get(j, "conditional")), r.tally.conditional);
 	assert_string_equal(json_string_value(json_object_get(j, "conditional_policy")), "nonconforming");
 	json_decref(j);
+	char *buf = NULL;
+	size_t len = 0;
+	FILE *mf = open_memstream(&buf, &len);
+	char err[256];
+	assert_int_equal(hb_report_lot(db, part.part_number, "COND-1", mf, err, sizeof err), HB_OK);
+	fclose(mf);
+	const char *text = buf ? buf : "";
+	assert_non_null(strstr(text, "fail (conditional)"));
+	assert_non_null(strstr(text, "counted nonconforming)"));
+	free(buf);
 
 	inspect_lot(db, &part, &st, "COND-2", HB_CONDITIONAL_BY_SIDE, &r);
 	assert_int_equal(r.tally.conditional, 2);

@@ -160,7 +160,7 @@ int hb_report_lot(hb_db *db, const char *part_number, const char *lot_code, FILE
 	hb_html_kv_row(h, "Sampling plan", line);
 	hb_html_kv_row(h, "Opened", rpt_or_dash(lot.created));
 	hb_html_kv_row(h, "Decided", rpt_or_dash(lot.decided));
-	int passed = 0, failed = 0, skipped = 0;
+	int passed = 0, failed = 0, skipped = 0, cond = 0, cond_nc = 0;
 	for (size_t i = 0; i < nr; i++) {
 		if (recs[i].outcome == HB_DB_PASS)
 			passed++;
@@ -168,9 +168,14 @@ int hb_report_lot(hb_db *db, const char *part_number, const char *lot_code, FILE
 			failed++;
 		else if (recs[i].outcome == HB_DB_SKIPPED)
 			skipped++;
+		if (recs[i].conditional && recs[i].outcome != HB_DB_SKIPPED) {
+			cond++;
+			cond_nc += recs[i].outcome == HB_DB_FAIL;
+		}
 	}
-	snprintf(line, sizeof line, "%d tested: %d conforming, %d nonconforming; %d skipped", passed + failed, passed,
-		 failed, skipped);
+	/* conditional units (a rule with a guard band) shown apart: the plan's policy counted them */
+	snprintf(line, sizeof line, "%d tested: %d conforming, %d nonconforming; %d skipped; %d conditional (%d of them "
+		 "counted nonconforming)", passed + failed, passed, failed, skipped, cond, cond_nc);
 	hb_html_kv_row(h, "Tally", line);
 	hb_html_kv_end(h);
 	hb_html_section_end(h);
@@ -217,10 +222,12 @@ int hb_report_lot(hb_db *db, const char *part_number, const char *lot_code, FILE
 					dcrs = hb_db_outcome_name(x->outcome);
 			}
 		}
-		const char *result = r->outcome == HB_DB_PASS ? "pass" : r->outcome == HB_DB_FAIL ? "fail" : "skipped";
+		const char *result = r->outcome == HB_DB_PASS ? (r->conditional ? "pass (conditional)" : "pass") :
+				     r->outcome == HB_DB_FAIL ? (r->conditional ? "fail (conditional)" : "fail") : "skipped";
 		const char *cells[11] = { seq, rpt_or_dash(r->serial), sw, fi, l0s, mg, lsat, dcrs, result, rpt_or_dash(r->at_iso),
 					  rpt_or_dash(r->note) };
-		hb_html_table_row_class(h, result, cells, 11);
+		hb_html_table_row_class(h, r->outcome == HB_DB_PASS ? "pass" : r->outcome == HB_DB_FAIL ? "fail" : "skipped",
+					cells, 11);
 		hb_db_verdicts_free(v);
 	}
 	hb_html_table_end(h);
