@@ -323,6 +323,10 @@ static void test_l0_budget_has_meter_term(void **state)
 	assert_non_null(hb_analysis_budget(s, "core.mu_i"));
 	assert_non_null(hb_analysis_budget(s, "core.gap"));
 	assert_non_null(hb_analysis_budget(s, "core.Js"));
+	/* mu_e is L0 in other units: the same relative expanded uncertainty when the meter term dominates */
+	const hb_budget *me = hb_analysis_budget(s, "core.mu_e");
+	assert_non_null(me);
+	assert_true(fabs(input_named(me, "meter gain")->contribution / me->value - uB / L0) < 1e-9);
 	const hb_budget *gp = hb_analysis_budget(s, "core.gap_physical");
 	assert_non_null(gp);
 	assert_non_null(input_named(gp, "fringing model"));

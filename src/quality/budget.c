@@ -282,6 +282,24 @@ size_t hb_budget_bias(const hb_fit_bias_result *b, const double *I, const double
 			snprintf(in[2].source, sizeof in[2].source, "c by refitting with the currents scaled +-1 %%; %s", ss);
 			evaluate(ub, bg, in, 3);
 		}
+		/* mu_e and AL are L0 in other units: its budget scaled (the fit gives them from the model-free L0) */
+		static const char *const lnames[2] = { "core.mu_e", "core.AL" };
+		static const char *const lunits[2] = { "", "H" };
+		const double lval[2] = { cr->mu_e, cr->AL }, lse[2] = { cr->mu_e_se, cr->AL_se };
+		for (int j = 0; j < 2 && m < cap && isfinite(mf->L0) && mf->L0 > 0; j++) {
+			if (!isfinite(lval[j]))
+				continue;
+			hb_budget *bg = &out[m++];
+			budget_start(bg, lnames[j], lunits[j], lval[j], lse[j]);
+			pending in[2] = {
+				{ "from L0 (Type A)", lunits[j], HB_UNC_TYPE_A, lval[j], lse[j], 1, l0_dof(mf), "" },
+				{ "meter gain", "", HB_UNC_TYPE_B, 1, u_gl, lval[j], INFINITY, "" },
+			};
+			snprintf(in[0].source, sizeof in[0].source, "the zero-bias L0's standard error (polynomial %s), scaled",
+				 mf->L0_basis);
+			snprintf(in[1].source, sizeof in[1].source, "%s", ms);
+			evaluate(ub, bg, in, 2);
+		}
 		if (isfinite(cr->gap_physical) && !(lr->undetermined & (1u << HB_CORE_GAP)) && fo->geo.window_height > 0 &&
 		    m < cap) {
 			hb_budget *bg = &out[m++];

@@ -11,7 +11,7 @@
 #include "../../db/hb_db.h"
 #include "../../fit/hb_fit.h"
 
-enum { HB_BUDGET_MAX_INPUTS = 8, HB_BUDGET_MAX = 12 };
+enum { HB_BUDGET_MAX_INPUTS = 8, HB_BUDGET_MAX = 16 };
 
 /* Reference temperature of a DC resistance when the spec states none, C. */
 #define HB_BUDGET_T_REF 20.0
@@ -42,7 +42,7 @@ typedef struct hb_budget_input {
 
 typedef struct hb_budget {
 	char name[32];       /* the fit value's name: "L0", "I_drop20", "core.mu_i", "core.gap",
-			      * "core.gap_physical", "core.Js", "DCR" */
+			      * "core.gap_physical", "core.Js", "core.mu_e", "core.AL", "DCR"; "Lsat" for its check */
 	char unit[12];
 	double value;        /* y (DCR: referred to 20 C when a temperature is stored) */
 	double std_err;      /* Type A as the fit gives it (k = 1) */
@@ -70,7 +70,7 @@ void hb_budget_context_from_sweep(hb_budget_context *ctx, const hb_db_sweep *sw)
 
 /*
  * Budgets of a bias sweep's fit: L0, each reached drop current, and with a
- * core fit mu_i, the effective gap, Js and the physical gap; then the DCR
+ * core fit mu_i, the effective gap, Js, the physical gap, mu_e and AL; then the DCR
  * (dcr_ohm NAN: none). The instruments' terms of the core parameters come
  * from refitting the best law with the readings (or currents) scaled
  * (central differences), so I, L, sigma and fo must be those of the fit.
