@@ -39,7 +39,7 @@ hb_db_outcome hb_analysis_db_outcome(hb_decision_outcome o)
 const char *hb_analysis_rule_text(const hb_analysis_check *k, char *buf, size_t cap)
 {
 	if (k->decision.rule == HB_DECISION_SIMPLE)
-		snprintf(buf, cap, "simple: %s", hb_decision_rule_statement(k->decision.rule));
+		snprintf(buf, cap, "%s", hb_decision_rule_statement(k->decision.rule));
 	else
 		snprintf(buf, cap, "%s (r = %g): %s", hb_decision_rule_name(k->decision.rule), k->guard_r,
 			 hb_decision_rule_statement(k->decision.rule));

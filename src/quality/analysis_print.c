@@ -38,9 +38,9 @@ static void print_unc(FILE *out, const hb_analysis_summary *s, const char *name)
 		return;
 	char a[40];
 	if (!*bg->unit)
-		snprintf(a, sizeof a, "%.2g", bg->U);
+		snprintf(a, sizeof a, "%.3g", bg->U);
 	else
-		hb_format_si(a, sizeof a, bg->U, bg->unit, 2);
+		hb_format_si(a, sizeof a, bg->U, bg->unit, 3);
 	fprintf(out, "  %-28s U = %s (k = %.2f, 95.45 %%)%s%s\n", "", a, bg->k, bg->note[0] ? "; " : "", bg->note);
 }
 
@@ -116,7 +116,7 @@ void hb_analysis_print_check(FILE *out, const hb_analysis_check *k, bool with_st
 	fprintf(out, "  %-5s %-16s measured %-14s", k->name, hb_decision_outcome_name(d->outcome),
 		isfinite(k->check.measured) ? mv : "-");
 	if (isfinite(d->U))
-		fprintf(out, " U %s (k = %.2f)", hb_format_si(u, sizeof u, d->U, k->unit, 2), d->k);
+		fprintf(out, " U %s (k = %.2f)", hb_format_si(u, sizeof u, d->U, k->unit, 3), d->k);
 	else
 		fprintf(out, " U -");
 	fprintf(out, " limits [%s, %s]", isfinite(k->check.low) ? lo : "-", isfinite(k->check.high) ? hi : "-");
@@ -280,7 +280,9 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 			}
 		}
 		print_value(out, "mu_e", c->mu_e, c->mu_e_se, "");
+		print_unc(out, s, "core.mu_e");
 		print_value(out, "AL", c->AL, c->AL_se, "H");
+		print_unc(out, s, "core.AL");
 		if (c->rated_current > mf->I_max)
 			fprintf(out, "  %-28s %s\n", "B peak at rated current", beyond);
 		else
@@ -491,7 +493,7 @@ void hb_analysis_print_stored_verdict(FILE *out, const hb_db_verdict *v, const c
 	fprintf(out, "  %-5s %-16s measured %-14s", v->check_name, hb_db_outcome_name(v->outcome),
 		isfinite(v->measured) ? hb_format_si(mv, sizeof mv, v->measured, unit, 5) : "-");
 	if (isfinite(v->expanded_u))
-		fprintf(out, " U %s (k = %.2f)", hb_format_si(u, sizeof u, v->expanded_u, unit, 2), v->coverage_k);
+		fprintf(out, " U %s (k = %.2f)", hb_format_si(u, sizeof u, v->expanded_u, unit, 3), v->coverage_k);
 	else
 		fprintf(out, " U -");
 	fprintf(out, " limits [%s, %s]", isfinite(v->limit_low) ? hb_format_si(lo, sizeof lo, v->limit_low, unit, 5) : "-",

@@ -229,7 +229,7 @@ void rpt_verdict_section(hb_html *h, const sweep_data *d)
 		const char *u = check_unit(v->check_name);
 		char m[40], lo[40], hi[40], mg[24], uu[40], uk[64], al[40], ah[40], acc[96], pfa[24];
 		if (isfinite(v->expanded_u))
-			snprintf(uk, sizeof uk, "%s (k = %.2f)", rpt_si(uu, sizeof uu, v->expanded_u, u, 2), v->coverage_k);
+			snprintf(uk, sizeof uk, "%s (k = %.2f)", rpt_si(uu, sizeof uu, v->expanded_u, u, 3), v->coverage_k);
 		else
 			snprintf(uk, sizeof uk, "-");
 		if (isfinite(v->accept_low) || isfinite(v->accept_high))
@@ -439,7 +439,7 @@ void rpt_fit_section(hb_html *h, const sweep_data *d)
 		for (size_t q = 0; q < d->nunc; q++)
 			if (strcmp(d->unc[q].name, v->name) == 0 && isfinite(d->unc[q].U)) {
 				char uu[40];
-				snprintf(ub, sizeof ub, "%s (k = %.2f)", rpt_si(uu, sizeof uu, d->unc[q].U, v->unit, 2), d->unc[q].k);
+				snprintf(ub, sizeof ub, "%s (k = %.2f)", rpt_si(uu, sizeof uu, d->unc[q].U, v->unit, 3), d->unc[q].k);
 			}
 		const char *cells[6] = { v->name, mean, val, se, rel, ub };
 		hb_html_table_row(h, cells, 6);
