@@ -11,7 +11,8 @@
 #define PART_COLUMNS                                                                              \
 	"id, part_number, description, maker, nominal_h, tolerance, test_freq_hz, test_level,"   \
 	" test_level_kind, sat_current_a, sat_drop, rated_current_a, dcr_max_ohm, turns, ae_m2," \
-	" le_m, window_m, toroid_od_m, toroid_id_m, toroid_h_m, mu_i, bsat_t, created, updated"
+	" le_m, window_m, toroid_od_m, toroid_id_m, toroid_h_m, mu_i, bsat_t, created, updated, decision_rule,"  \
+	" guard_r"
 
 void hb_db_part_init(hb_db_part *p)
 {
@@ -23,6 +24,7 @@ void hb_db_part_init(hb_db_part *p)
 	p->ae_m2 = p->le_m = p->window_m = NAN;
 	p->toroid_od_m = p->toroid_id_m = p->toroid_h_m = NAN;
 	p->mu_i = p->bsat_t = NAN;
+	p->guard_r = NAN;
 }
 
 static void read_part(sqlite3_stmt *st, void *row, const void *ctx)
@@ -55,6 +57,8 @@ static void read_part(sqlite3_stmt *st, void *row, const void *ctx)
 	p->bsat_t = db_col_real(st, 21);
 	db_col_text(st, 22, p->created, sizeof p->created);
 	db_col_text(st, 23, p->updated, sizeof p->updated);
+	db_col_text(st, 24, p->decision_rule, sizeof p->decision_rule);
+	p->guard_r = db_col_real(st, 25);
 }
 
 int hb_db_part_put(hb_db *db, hb_db_part *p)
@@ -63,7 +67,9 @@ int hb_db_part_put(hb_db *db, hb_db_part *p)
 		return HB_ERR_ARG;
 	if (!p->part_number[0])
 		return db_error(db, HB_ERR_ARG, "a part needs a part number");
-	sqlite3_stmt *st = db_stmt(db, ST_PART_UPSERT,
+	/* an older store (the migration tests) has no decision-rule columns */
+	bool old = db->old_version && db->old_version < 6;
+	sqlite3_stmt *st = old ? db_stmt(db, ST_PART_UPSERT_V5,
 		"INSERT INTO parts (part_number, description, maker, nominal_h, tolerance, test_freq_hz,"
 		" test_level, test_level_kind, sat_current_a, sat_drop, rated_current_a, dcr_max_ohm, turns,"
 		" ae_m2, le_m, window_m, toroid_od_m, toroid_id_m, toroid_h_m, mu_i, bsat_t, created, updated)"
@@ -78,6 +84,24 @@ int hb_db_part_put(hb_db *db, hb_db_part *p)
 		" le_m = excluded.le_m, window_m = excluded.window_m, toroid_od_m = excluded.toroid_od_m,"
 		" toroid_id_m = excluded.toroid_id_m, toroid_h_m = excluded.toroid_h_m,"
 		" mu_i = excluded.mu_i, bsat_t = excluded.bsat_t, updated = excluded.updated"
+		" RETURNING id") :
+		db_stmt(db, ST_PART_UPSERT,
+		"INSERT INTO parts (part_number, description, maker, nominal_h, tolerance, test_freq_hz,"
+		" test_level, test_level_kind, sat_current_a, sat_drop, rated_current_a, dcr_max_ohm, turns,"
+		" ae_m2, le_m, window_m, toroid_od_m, toroid_id_m, toroid_h_m, mu_i, bsat_t, created, updated,"
+		" decision_rule, guard_r)"
+		" VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13, ?14, ?15, ?16, ?17, ?18,"
+		" ?19, ?20, ?21, ?22, ?22, ?23, ?24)"
+		" ON CONFLICT (part_number) DO UPDATE SET description = excluded.description,"
+		" maker = excluded.maker, nominal_h = excluded.nominal_h, tolerance = excluded.tolerance,"
+		" test_freq_hz = excluded.test_freq_hz, test_level = excluded.test_level,"
+		" test_level_kind = excluded.test_level_kind, sat_current_a = excluded.sat_current_a,"
+		" sat_drop = excluded.sat_drop, rated_current_a = excluded.rated_current_a,"
+		" dcr_max_ohm = excluded.dcr_max_ohm, turns = excluded.turns, ae_m2 = excluded.ae_m2,"
+		" le_m = excluded.le_m, window_m = excluded.window_m, toroid_od_m = excluded.toroid_od_m,"
+		" toroid_id_m = excluded.toroid_id_m, toroid_h_m = excluded.toroid_h_m,"
+		" mu_i = excluded.mu_i, bsat_t = excluded.bsat_t, updated = excluded.updated,"
+		" decision_rule = excluded.decision_rule, guard_r = excluded.guard_r"
 		" RETURNING id");
 	if (!st)
 		return HB_ERR_DB;
@@ -106,6 +130,10 @@ int hb_db_part_put(hb_db *db, hb_db_part *p)
 	db_bind_real(st, 20, p->mu_i);
 	db_bind_real(st, 21, p->bsat_t);
 	db_bind_text(st, 22, now);
+	if (!old) {
+		db_bind_text(st, 23, p->decision_rule);
+		db_bind_real(st, 24, p->guard_r);
+	}
 	int64_t id = 0;
 	int status = db_write_one(db, st, "storing a part", &id, NULL);
 	if (status == HB_OK) {
@@ -344,11 +372,11 @@ int hb_db_inspection_put(hb_db *db, hb_db_inspection *rec)
 	if (rec->outcome != HB_DB_PASS && rec->outcome != HB_DB_FAIL && rec->outcome != HB_DB_SKIPPED)
 		return db_error(db, HB_ERR_ARG, "inspection outcome must be pass, fail or skipped");
 	sqlite3_stmt *st = db_stmt(db, ST_INSP_UPSERT,
-		"INSERT INTO inspections (lot_id, sequence, unit_id, sweep_id, outcome, note, at, at_unix)"
-		" VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8)"
+		"INSERT INTO inspections (lot_id, sequence, unit_id, sweep_id, outcome, note, at, at_unix, conditional)"
+		" VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9)"
 		" ON CONFLICT (lot_id, sequence) DO UPDATE SET unit_id = excluded.unit_id,"
 		" sweep_id = excluded.sweep_id, outcome = excluded.outcome, note = excluded.note,"
-		" at = excluded.at, at_unix = excluded.at_unix RETURNING id");
+		" at = excluded.at, at_unix = excluded.at_unix, conditional = excluded.conditional RETURNING id");
 	if (!st)
 		return HB_ERR_DB;
 	if (rec->at <= 0)
@@ -362,6 +390,7 @@ int hb_db_inspection_put(hb_db *db, hb_db_inspection *rec)
 	db_bind_text(st, 6, rec->note);
 	db_bind_text(st, 7, rec->at_iso);
 	sqlite3_bind_double(st, 8, rec->at);
+	sqlite3_bind_int(st, 9, rec->conditional ? 1 : 0);
 	return db_write_one(db, st, "storing an inspection record", &rec->id, NULL);
 }
 
@@ -384,6 +413,7 @@ static void read_inspection(sqlite3_stmt *st, void *row, const void *ctx)
 	db_col_text(st, 7, r->at_iso, sizeof r->at_iso);
 	db_col_text(st, 8, r->serial, sizeof r->serial);
 	db_col_text(st, 9, r->note, sizeof r->note);
+	r->conditional = sqlite3_column_int(st, 10) != 0;
 }
 
 int hb_db_inspection_list(hb_db *db, int64_t lot_id, hb_db_inspection **out, size_t *count)
@@ -394,7 +424,7 @@ int hb_db_inspection_list(hb_db *db, int64_t lot_id, hb_db_inspection **out, siz
 	*count = 0;
 	sqlite3_stmt *st = db_stmt(db, ST_INSP_LIST,
 		"SELECT i.id, i.lot_id, i.unit_id, i.sweep_id, i.sequence, i.outcome, i.at_unix, i.at,"
-		" coalesce(u.serial, ''), i.note FROM inspections i LEFT JOIN units u ON u.id = i.unit_id"
+		" coalesce(u.serial, ''), i.note, i.conditional FROM inspections i LEFT JOIN units u ON u.id = i.unit_id"
 		" WHERE i.lot_id = ?1 ORDER BY i.sequence");
 	if (!st)
 		return HB_ERR_DB;

@@ -254,7 +254,8 @@ int db_read_all(hb_db *db, sqlite3_stmt *st, db_row_reader *read, const void *ct
 
 static const char *const kind_names[] = { "bias", "frequency" };
 static const char *const status_names[] = { "running", "complete", "aborted", "failed", "interrupted" };
-static const char *const outcome_names[] = { "not-tested", "pass", "fail", "skipped" };
+static const char *const outcome_names[] = { "not-tested", "pass", "fail", "skipped", "conditional-pass",
+						    "conditional-fail" };
 static const char *const decision_names[] = { "open", "accept", "reject" };
 
 #define NAME_OF(table, i) ((unsigned)(i) < sizeof table / sizeof table[0] ? table[i] : "?")

@@ -18,7 +18,9 @@
 	" s.settle_max_s, s.plan_from, s.plan_to, s.plan_steps, s.plan_spacing, s.limit_current_a,"  \
 	" s.limit_voltage_v, s.ambient_c, s.note,"                                                  \
 	" (SELECT count(*) FROM points pt WHERE pt.sweep_id = s.id), s.reading_noise_rel, s.dcr_meter_ohm,"        \
-	" s.supply_found_a, s.supply_off_a, s.supply_decay_s"
+	" s.supply_found_a, s.supply_off_a, s.supply_decay_s, s.meter_accuracy_rel, s.meter_accuracy,"            \
+	" s.supply_accuracy_rel, s.supply_accuracy_offset_a, s.supply_accuracy, s.station_decision_rule,"       \
+	" s.station_guard_r"
 
 void hb_db_sweep_init(hb_db_sweep *s)
 {
@@ -31,6 +33,7 @@ void hb_db_sweep_init(hb_db_sweep *s)
 	s->plan_from = s->plan_to = NAN;
 	s->reading_noise_rel = s->dcr_meter_ohm = NAN;
 	s->supply_found_a = s->supply_off_a = s->supply_decay_s = NAN;
+	s->meter_accuracy_rel = s->supply_accuracy_rel = s->supply_accuracy_offset_a = s->station_guard_r = NAN;
 	s->limit_current_a = s->limit_voltage_v = s->ambient_c = NAN;
 }
 
@@ -97,6 +100,13 @@ static void read_sweep(sqlite3_stmt *st, void *row, const void *ctx)
 	s->supply_found_a = db_col_real(st, 45);
 	s->supply_off_a = db_col_real(st, 46);
 	s->supply_decay_s = db_col_real(st, 47);
+	s->meter_accuracy_rel = db_col_real(st, 48);
+	db_col_text(st, 49, s->meter_accuracy, sizeof s->meter_accuracy);
+	s->supply_accuracy_rel = db_col_real(st, 50);
+	s->supply_accuracy_offset_a = db_col_real(st, 51);
+	db_col_text(st, 52, s->supply_accuracy, sizeof s->supply_accuracy);
+	db_col_text(st, 53, s->station_decision_rule, sizeof s->station_decision_rule);
+	s->station_guard_r = db_col_real(st, 54);
 }
 
 int hb_db_sweep_begin(hb_db *db, hb_db_sweep *s)
@@ -160,6 +170,10 @@ int hb_db_sweep_begin(hb_db *db, hb_db_sweep *s)
 	db_bind_real(st, 33, s->ambient_c);
 	db_bind_text(st, 34, s->note);
 	int status = db_write_one(db, st, "starting a sweep", &s->id, NULL);
+	/* A store held at an older schema (only the migration tests do that)
+	 * has no step-6 columns; a fresh sweep records them here. */
+	if (status == HB_OK && !(db->old_version && db->old_version < 6))
+		status = hb_db_sweep_set_accuracy(db, s);
 	if (status == HB_OK) {
 		s->status = HB_DB_RUNNING;
 		s->ended = NAN;
@@ -245,6 +259,27 @@ int hb_db_sweep_set_dcr(hb_db *db, int64_t sweep_id, double ohms)
 {
 	return sweep_set_real(db, ST_SWEEP_DCR, "UPDATE sweeps SET dcr_meter_ohm = ?2 WHERE id = ?1", sweep_id, ohms,
 			      "recording the meter's DC resistance");
+}
+
+int hb_db_sweep_set_accuracy(hb_db *db, const hb_db_sweep *s)
+{
+	if (!db || !s)
+		return HB_ERR_ARG;
+	sqlite3_stmt *st = db_stmt(db, ST_SWEEP_ACCURACY,
+		"UPDATE sweeps SET meter_accuracy_rel = ?2, meter_accuracy = ?3, supply_accuracy_rel = ?4,"
+		" supply_accuracy_offset_a = ?5, supply_accuracy = ?6, station_decision_rule = ?7, station_guard_r = ?8"
+		" WHERE id = ?1");
+	if (!st)
+		return HB_ERR_DB;
+	sqlite3_bind_int64(st, 1, s->id);
+	db_bind_real(st, 2, s->meter_accuracy_rel);
+	db_bind_text(st, 3, s->meter_accuracy);
+	db_bind_real(st, 4, s->supply_accuracy_rel);
+	db_bind_real(st, 5, s->supply_accuracy_offset_a);
+	db_bind_text(st, 6, s->supply_accuracy);
+	db_bind_text(st, 7, s->station_decision_rule);
+	db_bind_real(st, 8, s->station_guard_r);
+	return db_write_one(db, st, "recording the accuracy in force", NULL, NULL);
 }
 
 int hb_db_sweep_set_supply_record(hb_db *db, int64_t sweep_id, double found_a, double off_a, double decay_s)
@@ -595,6 +630,73 @@ int hb_db_fit_get_latest(hb_db *db, int64_t sweep_id, const char *model, hb_db_f
 	return status;
 }
 
+/* ---------------- fit uncertainty ---------------- */
+
+void hb_db_fit_unc_init(hb_db_fit_unc *u)
+{
+	if (!u)
+		return;
+	memset(u, 0, sizeof *u);
+	u->value = u->u_c = u->dof = u->k = u->U = NAN;
+	snprintf(u->budget, sizeof u->budget, "[]");
+}
+
+int hb_db_fit_unc_put(hb_db *db, const hb_db_fit_unc *u)
+{
+	if (!db || !u || !u->name[0] || u->fit_id <= 0)
+		return HB_ERR_ARG;
+	sqlite3_stmt *st = db_stmt(db, ST_FIT_UNC_PUT,
+		"INSERT OR REPLACE INTO fit_uncertainty (fit_id, name, value, u_c, dof, k, U, budget, note)"
+		" VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9)");
+	if (!st)
+		return HB_ERR_DB;
+	sqlite3_bind_int64(st, 1, u->fit_id);
+	db_bind_text(st, 2, u->name);
+	db_bind_real(st, 3, u->value);
+	db_bind_real(st, 4, u->u_c);
+	db_bind_real(st, 5, u->dof); /* SQLite keeps an IEEE infinity: every input exactly known */
+	db_bind_real(st, 6, u->k);
+	db_bind_real(st, 7, u->U);
+	db_bind_text(st, 8, u->budget[0] ? u->budget : "[]");
+	db_bind_text(st, 9, u->note);
+	return db_write_one(db, st, "storing a fit uncertainty", NULL, NULL);
+}
+
+static void read_fit_unc(sqlite3_stmt *st, void *row, const void *ctx)
+{
+	hb_db_fit_unc *u = row;
+	hb_db_fit_unc_init(u);
+	u->fit_id = *(const int64_t *)ctx;
+	db_col_text(st, 0, u->name, sizeof u->name);
+	u->value = db_col_real(st, 1);
+	u->u_c = db_col_real(st, 2);
+	u->dof = db_col_real(st, 3);
+	u->k = db_col_real(st, 4);
+	u->U = db_col_real(st, 5);
+	db_col_text(st, 6, u->budget, sizeof u->budget);
+	db_col_text(st, 7, u->note, sizeof u->note);
+}
+
+int hb_db_fit_unc_list(hb_db *db, int64_t fit_id, hb_db_fit_unc **out, size_t *count)
+{
+	if (!db || !out || !count)
+		return HB_ERR_ARG;
+	*out = NULL;
+	*count = 0;
+	sqlite3_stmt *st = db_stmt(db, ST_FIT_UNC_LIST,
+		"SELECT name, value, u_c, dof, k, U, budget, note FROM fit_uncertainty WHERE fit_id = ?1 ORDER BY name");
+	if (!st)
+		return HB_ERR_DB;
+	sqlite3_bind_int64(st, 1, fit_id);
+	return db_read_all(db, st, read_fit_unc, &fit_id, sizeof **out, "listing fit uncertainties", (void **)out,
+			   count);
+}
+
+void hb_db_fit_uncs_free(hb_db_fit_unc *list)
+{
+	free(list);
+}
+
 /* ---------------- verdicts ---------------- */
 
 void hb_db_verdict_init(hb_db_verdict *v)
@@ -603,6 +705,8 @@ void hb_db_verdict_init(hb_db_verdict *v)
 		return;
 	memset(v, 0, sizeof *v);
 	v->measured = v->limit_low = v->limit_high = v->margin = NAN;
+	snprintf(v->decision_rule, sizeof v->decision_rule, "simple");
+	v->guard_r = v->expanded_u = v->coverage_k = v->accept_low = v->accept_high = v->p_false_accept = NAN;
 }
 
 int hb_db_verdict_put(hb_db *db, hb_db_verdict *v)
@@ -611,15 +715,29 @@ int hb_db_verdict_put(hb_db *db, hb_db_verdict *v)
 		return HB_ERR_ARG;
 	if (!v->check_name[0])
 		return db_error(db, HB_ERR_ARG, "a verdict needs a check name");
-	if (v->outcome != HB_DB_NOT_TESTED && v->outcome != HB_DB_PASS && v->outcome != HB_DB_FAIL)
-		return db_error(db, HB_ERR_ARG, "verdict %s: outcome must be pass, fail or not-tested",
+	if (v->outcome == HB_DB_SKIPPED || (unsigned)v->outcome > HB_DB_CONDITIONAL_FAIL)
+		return db_error(db, HB_ERR_ARG,
+				"verdict %s: outcome must be pass, conditional-pass, conditional-fail, fail or not-tested",
 				v->check_name);
-	sqlite3_stmt *st = db_stmt(db, ST_VERDICT_UPSERT,
+	/* an older store (the migration tests) takes the columns it has; the
+	 * rule's columns then keep their defaults */
+	bool old = db->old_version && db->old_version < 6;
+	sqlite3_stmt *st = old ? db_stmt(db, ST_VERDICT_UPSERT_V5,
 		"INSERT INTO verdicts (sweep_id, check_name, measured, limit_low, limit_high, margin, outcome,"
 		" note, created) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9)"
 		" ON CONFLICT (sweep_id, check_name) DO UPDATE SET measured = excluded.measured,"
 		" limit_low = excluded.limit_low, limit_high = excluded.limit_high, margin = excluded.margin,"
-		" outcome = excluded.outcome, note = excluded.note, created = excluded.created RETURNING id");
+		" outcome = excluded.outcome, note = excluded.note, created = excluded.created RETURNING id") :
+		db_stmt(db, ST_VERDICT_UPSERT,
+		"INSERT INTO verdicts (sweep_id, check_name, measured, limit_low, limit_high, margin, outcome,"
+		" note, created, decision_rule, guard_r, expanded_u, coverage_k, accept_low, accept_high, p_false_accept)"
+		" VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13, ?14, ?15, ?16)"
+		" ON CONFLICT (sweep_id, check_name) DO UPDATE SET measured = excluded.measured,"
+		" limit_low = excluded.limit_low, limit_high = excluded.limit_high, margin = excluded.margin,"
+		" outcome = excluded.outcome, note = excluded.note, created = excluded.created,"
+		" decision_rule = excluded.decision_rule, guard_r = excluded.guard_r, expanded_u = excluded.expanded_u,"
+		" coverage_k = excluded.coverage_k, accept_low = excluded.accept_low, accept_high = excluded.accept_high,"
+		" p_false_accept = excluded.p_false_accept RETURNING id");
 	if (!st)
 		return HB_ERR_DB;
 	char now[HB_DB_TIME_LEN];
@@ -633,6 +751,15 @@ int hb_db_verdict_put(hb_db *db, hb_db_verdict *v)
 	db_bind_text(st, 7, hb_db_outcome_name(v->outcome));
 	db_bind_text(st, 8, v->note);
 	db_bind_text(st, 9, now);
+	if (old)
+		return db_write_one(db, st, "storing a verdict", &v->id, NULL);
+	db_bind_text(st, 10, v->decision_rule[0] ? v->decision_rule : "simple");
+	db_bind_real(st, 11, v->guard_r);
+	db_bind_real(st, 12, v->expanded_u);
+	db_bind_real(st, 13, v->coverage_k);
+	db_bind_real(st, 14, v->accept_low);
+	db_bind_real(st, 15, v->accept_high);
+	db_bind_real(st, 16, v->p_false_accept);
 	return db_write_one(db, st, "storing a verdict", &v->id, NULL);
 }
 
@@ -644,6 +771,10 @@ static hb_db_outcome outcome_of(const unsigned char *text)
 		return HB_DB_PASS;
 	if (strcmp((const char *)text, "fail") == 0)
 		return HB_DB_FAIL;
+	if (strcmp((const char *)text, "conditional-pass") == 0)
+		return HB_DB_CONDITIONAL_PASS;
+	if (strcmp((const char *)text, "conditional-fail") == 0)
+		return HB_DB_CONDITIONAL_FAIL;
 	return HB_DB_NOT_TESTED;
 }
 
@@ -660,6 +791,13 @@ static void read_verdict(sqlite3_stmt *st, void *row, const void *ctx)
 	v->margin = db_col_real(st, 5);
 	v->outcome = outcome_of(sqlite3_column_text(st, 6));
 	db_col_text(st, 7, v->note, sizeof v->note);
+	db_col_text(st, 8, v->decision_rule, sizeof v->decision_rule);
+	v->guard_r = db_col_real(st, 9);
+	v->expanded_u = db_col_real(st, 10);
+	v->coverage_k = db_col_real(st, 11);
+	v->accept_low = db_col_real(st, 12);
+	v->accept_high = db_col_real(st, 13);
+	v->p_false_accept = db_col_real(st, 14);
 }
 
 int hb_db_verdict_list(hb_db *db, int64_t sweep_id, hb_db_verdict **out, size_t *count)
@@ -669,7 +807,8 @@ int hb_db_verdict_list(hb_db *db, int64_t sweep_id, hb_db_verdict **out, size_t 
 	*out = NULL;
 	*count = 0;
 	sqlite3_stmt *st = db_stmt(db, ST_VERDICT_LIST,
-		"SELECT id, check_name, measured, limit_low, limit_high, margin, outcome, note FROM verdicts"
+		"SELECT id, check_name, measured, limit_low, limit_high, margin, outcome, note, decision_rule, guard_r,"
+		" expanded_u, coverage_k, accept_low, accept_high, p_false_accept FROM verdicts"
 		" WHERE sweep_id = ?1 ORDER BY check_name");
 	if (!st)
 		return HB_ERR_DB;
@@ -732,13 +871,15 @@ int hb_db_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **
 	if (status < 0)
 		return status;
 	/* The verdict column yields hb_db_outcome values: 2 fail, 1 pass (every check
-	 * passed), 0 not tested (an untested check is never a pass). */
+	 * passed), 0 not tested (an untested check is never a pass). A conditional
+	 * outcome counts on its own side of the limit here; lot inspection applies
+	 * its stated policy to them separately. */
 	sqlite3_stmt *st = db_stmt(db, ST_HISTORY,
 		"SELECT s.id, u.id, s.started_unix, s.started_at, s.station, coalesce(l.lot_code, ''), u.serial,"
 		FIT_VALUE("?5") "," FIT_VALUE("?6") "," FIT_VALUE("?7") "," FIT_VALUE("?8") ","
 		FIT_VALUE("?9") "," FIT_VALUE("?10") ","
-		" (SELECT CASE WHEN sum(outcome = 'fail') > 0 THEN 2"
-		"  WHEN count(*) > 0 AND sum(outcome = 'pass') = count(*) THEN 1"
+		" (SELECT CASE WHEN sum(outcome IN ('fail', 'conditional-fail')) > 0 THEN 2"
+		"  WHEN count(*) > 0 AND sum(outcome IN ('pass', 'conditional-pass')) = count(*) THEN 1"
 		"  ELSE 0 END FROM verdicts WHERE verdicts.sweep_id = s.id)"
 		" FROM units u LEFT JOIN lots l ON l.id = u.lot_id"
 		" JOIN sweeps s ON s.id = (SELECT s2.id FROM sweeps s2 WHERE s2.unit_id = u.id"

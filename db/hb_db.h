@@ -75,12 +75,21 @@ typedef enum {
 	HB_DB_FAILED,
 	HB_DB_INTERRUPTED
 } hb_db_sweep_status;
-typedef enum { HB_DB_NOT_TESTED = 0, HB_DB_PASS, HB_DB_FAIL, HB_DB_SKIPPED } hb_db_outcome;
+/* The conditional outcomes come from the non-binary decision rule (ILAC-G8:2019 4.2.3). */
+typedef enum {
+	HB_DB_NOT_TESTED = 0,
+	HB_DB_PASS,
+	HB_DB_FAIL,
+	HB_DB_SKIPPED,
+	HB_DB_CONDITIONAL_PASS,
+	HB_DB_CONDITIONAL_FAIL
+} hb_db_outcome;
 typedef enum { HB_DB_LOT_OPEN = 0, HB_DB_LOT_ACCEPT, HB_DB_LOT_REJECT } hb_db_lot_decision;
 
 /* Stable lower-case names used in the store, JSON and CLI:
  * "bias"/"frequency", "running"/"complete"/"aborted"/"failed"/"interrupted",
- * "not-tested"/"pass"/"fail"/"skipped", "open"/"accept"/"reject". */
+ * "not-tested"/"pass"/"fail"/"skipped"/"conditional-pass"/"conditional-fail",
+ * "open"/"accept"/"reject". */
 const char *hb_db_sweep_kind_name(hb_db_sweep_kind kind);
 const char *hb_db_sweep_status_name(hb_db_sweep_status status);
 const char *hb_db_outcome_name(hb_db_outcome outcome);
@@ -111,6 +120,8 @@ typedef struct hb_db_part {
 	double toroid_od_m, toroid_id_m, toroid_h_m; /* raw toroid dimensions if given */
 	double mu_i, bsat_t;
 	char created[HB_DB_TIME_LEN], updated[HB_DB_TIME_LEN];
+	char decision_rule[16];  /* "simple", "guarded", "non-binary"; "" = the station's default */
+	double guard_r;          /* r of the guard band w = r U; NAN = 1 */
 } hb_db_part;
 
 void hb_db_part_init(hb_db_part *part);
@@ -203,6 +214,14 @@ typedef struct hb_db_sweep {
 	double supply_found_a;                    /* current found flowing when the supply was opened */
 	double supply_off_a;                      /* current when the output was switched off */
 	double supply_decay_s;                    /* zero set-point to below the switch-off threshold */
+	/* The accuracy in force (profile or station file), recorded at begin. */
+	double meter_accuracy_rel;                /* fraction of reading at the test frequency; NAN = none stated */
+	char meter_accuracy[HB_DB_TEXT_LEN];      /* the specification and where it came from */
+	double supply_accuracy_rel;               /* read-back current: fraction of reading ... */
+	double supply_accuracy_offset_a;          /* ... plus this offset, A */
+	char supply_accuracy[HB_DB_TEXT_LEN];
+	char station_decision_rule[16];           /* the station's default rule then; "" = none stated */
+	double station_guard_r;                   /* its r; NAN = 1 */
 } hb_db_sweep;
 
 void hb_db_sweep_init(hb_db_sweep *sweep);
@@ -221,6 +240,9 @@ int hb_db_sweep_set_dcr(hb_db *db, int64_t sweep_id, double ohms);
  * opened, current when the output was switched off, decay time from the
  * zero set-point (NAN where unknown). */
 int hb_db_sweep_set_supply_record(hb_db *db, int64_t sweep_id, double found_a, double off_a, double decay_s);
+/* Writes the accuracy and station decision-rule fields of s (step 6) to sweep s->id;
+ * hb_db_sweep_begin calls it. */
+int hb_db_sweep_set_accuracy(hb_db *db, const hb_db_sweep *s);
 
 typedef struct hb_db_sweep_filter {
 	const char *part_number;  /* NULL = any */
@@ -305,6 +327,25 @@ int hb_db_fit_put(hb_db *db, hb_db_fit *fit);
 /* Newest fit of the sweep with that model (NULL = any); HB_ERR_NOTFOUND if none. */
 int hb_db_fit_get_latest(hb_db *db, int64_t sweep_id, const char *model, hb_db_fit *out);
 
+/* The GUM uncertainty of one fitted quantity: combined standard
+ * uncertainty, effective degrees of freedom, coverage factor, expanded
+ * uncertainty, and the budget's inputs as JSON text (built in src/quality). */
+enum { HB_DB_BUDGET_LEN = 4096 };
+typedef struct hb_db_fit_unc {
+	int64_t fit_id;
+	char name[32];             /* the fit value's name, e.g. "L0", "I_drop20", "DCR" */
+	double value, u_c, dof, k, U; /* dof INFINITY: every input exactly known; NAN = not known */
+	char budget[HB_DB_BUDGET_LEN]; /* [{"input":..,"u":..,"c":..,"contribution":..,"source":..}, ...] */
+	char note[HB_DB_TEXT_LEN]; /* e.g. "uncorrected: no temperature stored" */
+} hb_db_fit_unc;
+
+void hb_db_fit_unc_init(hb_db_fit_unc *u);
+/* Stores (or replaces) the uncertainty of one value of a stored fit. */
+int hb_db_fit_unc_put(hb_db *db, const hb_db_fit_unc *u);
+/* In name order; an empty list for a fit stored before step 6. */
+int hb_db_fit_unc_list(hb_db *db, int64_t fit_id, hb_db_fit_unc **out, size_t *count);
+void hb_db_fit_uncs_free(hb_db_fit_unc *list);
+
 /* ---------------- verdicts ---------------- */
 
 typedef struct hb_db_verdict {
@@ -314,6 +355,12 @@ typedef struct hb_db_verdict {
 	double margin;             /* distance to the nearer limit, fraction of it; negative = outside */
 	hb_db_outcome outcome;
 	char note[HB_DB_TEXT_LEN];
+	/* The decision rule behind the outcome (ILAC-G8:2019) and what it produced. */
+	char decision_rule[16];    /* "simple" (default), "guarded", "non-binary" */
+	double guard_r;            /* r in w = r U; NAN for the simple rule */
+	double expanded_u, coverage_k; /* U and k of the measured value; NAN = not known */
+	double accept_low, accept_high; /* acceptance limits the rule produced; NAN = none that side */
+	double p_false_accept;     /* guarded rule: probability of false accept at the measured value */
 } hb_db_verdict;
 
 void hb_db_verdict_init(hb_db_verdict *verdict);
@@ -333,6 +380,7 @@ typedef struct hb_db_inspection {
 	char at_iso[HB_DB_TIME_LEN];
 	char serial[HB_DB_ID_LEN]; /* filled on read */
 	char note[HB_DB_TEXT_LEN];
+	bool conditional;          /* the unit's outcome was conditional; outcome is how the plan's policy counted it */
 } hb_db_inspection;
 
 void hb_db_inspection_init(hb_db_inspection *rec);

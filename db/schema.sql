@@ -191,3 +191,58 @@ ALTER TABLE points ADD COLUMN settled INTEGER NOT NULL DEFAULT 1;
 ALTER TABLE sweeps ADD COLUMN supply_found_a REAL;
 ALTER TABLE sweeps ADD COLUMN supply_off_a REAL;
 ALTER TABLE sweeps ADD COLUMN supply_decay_s REAL;
+
+-- step 6: uncertainty and decision rules: the accuracy in force with each sweep, the GUM budget of each fitted quantity, the decision rule of a part and what it produced in each verdict, conditional outcomes
+-- the meter's accuracy (fraction of reading, at the sweep's test frequency) and the supply's read-back current accuracy, as the profile or station file stated them
+ALTER TABLE sweeps ADD COLUMN meter_accuracy_rel REAL;
+ALTER TABLE sweeps ADD COLUMN meter_accuracy TEXT NOT NULL DEFAULT '';
+ALTER TABLE sweeps ADD COLUMN supply_accuracy_rel REAL;
+ALTER TABLE sweeps ADD COLUMN supply_accuracy_offset_a REAL;
+ALTER TABLE sweeps ADD COLUMN supply_accuracy TEXT NOT NULL DEFAULT '';
+-- the station's default decision rule when the sweep ran ('' = none stated: simple acceptance)
+ALTER TABLE sweeps ADD COLUMN station_decision_rule TEXT NOT NULL DEFAULT '';
+ALTER TABLE sweeps ADD COLUMN station_guard_r REAL;
+-- a part's decision rule: '' = the station's default; guard_r is r in w = r U
+ALTER TABLE parts ADD COLUMN decision_rule TEXT NOT NULL DEFAULT '' CHECK (decision_rule IN ('', 'simple', 'guarded', 'non-binary'));
+ALTER TABLE parts ADD COLUMN guard_r REAL;
+
+CREATE TABLE fit_uncertainty (
+	fit_id INTEGER NOT NULL REFERENCES fits(id) ON DELETE CASCADE,
+	name TEXT NOT NULL,
+	value REAL,
+	u_c REAL,
+	dof REAL,
+	k REAL,
+	U REAL,
+	budget TEXT NOT NULL DEFAULT '[]',
+	note TEXT NOT NULL DEFAULT '',
+	PRIMARY KEY (fit_id, name)
+) WITHOUT ROWID;
+
+-- verdicts with the conditional outcomes of the non-binary rule: SQLite cannot widen a CHECK in place, so the table is rebuilt
+CREATE TABLE verdicts_new (
+	id INTEGER PRIMARY KEY,
+	sweep_id INTEGER NOT NULL REFERENCES sweeps(id) ON DELETE CASCADE,
+	check_name TEXT NOT NULL,
+	measured REAL,
+	limit_low REAL,
+	limit_high REAL,
+	margin REAL,
+	outcome TEXT NOT NULL CHECK (outcome IN ('not-tested', 'pass', 'fail', 'conditional-pass', 'conditional-fail')),
+	note TEXT NOT NULL DEFAULT '',
+	created TEXT NOT NULL,
+	decision_rule TEXT NOT NULL DEFAULT 'simple',
+	guard_r REAL,
+	expanded_u REAL,
+	coverage_k REAL,
+	accept_low REAL,
+	accept_high REAL,
+	p_false_accept REAL,
+	UNIQUE (sweep_id, check_name)
+);
+INSERT INTO verdicts_new (id, sweep_id, check_name, measured, limit_low, limit_high, margin, outcome, note, created)
+	SELECT id, sweep_id, check_name, measured, limit_low, limit_high, margin, outcome, note, created FROM verdicts;
+DROP TABLE verdicts;
+ALTER TABLE verdicts_new RENAME TO verdicts;
+-- a lot's sample record: the unit's outcome was conditional (counted by the plan's stated policy)
+ALTER TABLE inspections ADD COLUMN conditional INTEGER NOT NULL DEFAULT 0;

@@ -165,6 +165,41 @@ void hb_profile_operations(const hb_profile *profile, char *provided, size_t pca
 int hb_profile_search_path(char *buf, size_t cap);
 
 /* ------------------------------------------------------------------ */
+/* Accuracy specifications (docs/profiles.md "Accuracy")              */
+/* ------------------------------------------------------------------ */
+
+/*
+ * The maker's accuracy of a reading as a half-width (a +- limit), in the
+ * form data sheets print it: a fraction of the reading plus an offset in
+ * the quantity's unit, and for a meter an extra fraction above a
+ * frequency. The GUM treats such a +- limit as a rectangular distribution
+ * (JCGM 100:2008 4.3.7): u = a / sqrt(3); that is the reader's business.
+ */
+typedef struct hb_accuracy {
+	double rel;            /* fraction of the reading, 0.001 = 0.1 %; NAN = not stated */
+	double offset;         /* in the quantity's unit (A for a supply read-back), 0 = none */
+	double freq_above_hz;  /* meter: above this frequency ... NAN = no such term */
+	double freq_above_rel; /* ... this fraction is added to rel */
+	bool placeholder;      /* an illustrative value, not yet taken from the instrument's data sheet */
+	char source[128];      /* "profile generic-lcr: ...", "station file ..." */
+} hb_accuracy;
+
+void hb_accuracy_init(hb_accuracy *a);
+/* "0.1%" or "0.05% + 1mA" (offset_unit "A"; NULL = no offset term allowed).
+ * HB_ERR_ARG with a message naming the text. */
+int hb_accuracy_parse_rel(const char *text, const char *offset_unit, double *rel, double *offset, char *err,
+			  size_t errlen);
+/* "100kHz:0.05%": the fraction added above the frequency. */
+int hb_accuracy_parse_freq_above(const char *text, double *hz, double *rel, char *err, size_t errlen);
+/* The fraction of reading in force at freq_hz (NAN freq: the basic term); NAN when not stated. */
+double hb_accuracy_rel_at(const hb_accuracy *a, double freq_hz);
+/* "0.1% ; above 100 kHz +0.05%", "0.05% + 1.000 mA (placeholder)"; "" when not stated. */
+char *hb_accuracy_format(const hb_accuracy *a, const char *offset_unit, char *buf, size_t cap);
+/* The accuracy a loaded profile states (rel NAN when it states none). */
+void hb_profile_lcr_accuracy(const hb_profile *profile, hb_accuracy *out);
+void hb_profile_supply_accuracy(const hb_profile *profile, hb_accuracy *out);
+
+/* ------------------------------------------------------------------ */
 /* LCR meter                                                           */
 /* ------------------------------------------------------------------ */
 
@@ -219,6 +254,8 @@ int hb_lcr_measure(hb_lcr *lcr, hb_lcr_reading *reading);
 int hb_lcr_set_internal_bias(hb_lcr *lcr, bool on, double amps);
 int hb_lcr_correct(hb_lcr *lcr, hb_correction which);
 int hb_lcr_measure_dcr(hb_lcr *lcr, double *ohms);
+/* The accuracy the meter's profile states (rel NAN when none). */
+void hb_lcr_accuracy(const hb_lcr *lcr, hb_accuracy *out);
 /* Reads the instrument's error queue; nonzero count means trouble. */
 int hb_lcr_errors(hb_lcr *lcr, hb_scpi_error *list, size_t cap, size_t *count, bool *lost);
 
@@ -258,6 +295,8 @@ int hb_supply_output_state(hb_supply *supply, bool *on);
 /* The current set-point as the supply holds it (profile operation
  * current.query); HB_ERR_UNSUPPORTED when the profile cannot ask. */
 int hb_supply_query_current(hb_supply *supply, double *amps);
+/* The read-back current accuracy the supply's profile states (rel NAN when none). */
+void hb_supply_accuracy(const hb_supply *supply, hb_accuracy *out);
 /* *tripped set when over-voltage/over-current protection has tripped. */
 int hb_supply_protection(hb_supply *supply, bool *tripped);
 int hb_supply_errors(hb_supply *supply, hb_scpi_error *list, size_t cap, size_t *count, bool *lost);

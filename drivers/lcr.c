@@ -500,3 +500,8 @@ int hb_lcr_errors(hb_lcr *lcr, hb_scpi_error *list, size_t cap, size_t *count, b
 		return rc;
 	return hb_instrument_errors(&lcr->in, list, cap, count, lost);
 }
+
+void hb_lcr_accuracy(const hb_lcr *lcr, hb_accuracy *out)
+{
+	hb_profile_lcr_accuracy(lcr ? lcr->in.profile : NULL, out);
+}

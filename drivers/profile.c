@@ -131,6 +131,11 @@ const keydef hb_profile_keys[HB_PK_COUNT] = {
 	{ HB_PK_SUP_CURRENT_QUERY_SCALE, SEC_SUPPLY, "current.query.scale", VT_REAL, false, 1e-18, 1e18, NULL },
 	{ HB_PK_SUP_CURRENT_TOLERANCE, SEC_SUPPLY, "current.tolerance", VT_REAL, false, 1e-12, 1e3, NULL },
 	{ HB_PK_SUP_OPTIONAL, SEC_SUPPLY, "optional", VT_TEXT, false, 0, 0, NULL },
+	{ HB_PK_LCR_ACCURACY_BASIC, SEC_LCR, "accuracy.basic", VT_TEXT, false, 0, 0, NULL },
+	{ HB_PK_LCR_ACCURACY_FREQ_ABOVE, SEC_LCR, "accuracy.freq_above", VT_TEXT, false, 0, 0, NULL },
+	{ HB_PK_LCR_ACCURACY_SOURCE, SEC_LCR, "accuracy.source", VT_TEXT, false, 0, 0, NULL },
+	{ HB_PK_SUP_ACCURACY_CURRENT, SEC_SUPPLY, "accuracy.current", VT_TEXT, false, 0, 0, NULL },
+	{ HB_PK_SUP_ACCURACY_SOURCE, SEC_SUPPLY, "accuracy.source", VT_TEXT, false, 0, 0, NULL },
 };
 
 
@@ -343,8 +348,22 @@ static int store_value(load_ctx *c, const keydef *kd, const char *value)
 			p->has_model_re = true;
 		break;
 	}
-	case VT_TEXT:
+	case VT_TEXT: {
+		/* an accuracy that cannot be read is an error at load, not a silent zero */
+		double a, b;
+		int bad = HB_OK;
+		if (kd->id == HB_PK_LCR_ACCURACY_BASIC)
+			bad = hb_accuracy_parse_rel(value, NULL, &a, &b, why, sizeof why);
+		else if (kd->id == HB_PK_SUP_ACCURACY_CURRENT)
+			bad = hb_accuracy_parse_rel(value, "A", &a, &b, why, sizeof why);
+		else if (kd->id == HB_PK_LCR_ACCURACY_FREQ_ABOVE)
+			bad = hb_accuracy_parse_freq_above(value, &a, &b, why, sizeof why);
+		if (bad != HB_OK) {
+			ctx_err(c, c->line, "key '%s': %s", kd->name, why);
+			return 0;
+		}
 		break;
+	}
 	}
 	v->text = strdup(value);
 	if (!v->text) {

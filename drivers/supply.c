@@ -383,3 +383,8 @@ int hb_supply_query_current(hb_supply *s, double *amps)
 	return hb_instrument_ask_number(&s->in, HB_PK_SUP_CURRENT_QUERY, HB_PK_SUP_CURRENT_QUERY_FIELD,
 					HB_PK_SUP_CURRENT_QUERY_SCALE, "current set-point", amps);
 }
+
+void hb_supply_accuracy(const hb_supply *s, hb_accuracy *out)
+{
+	hb_profile_supply_accuracy(s ? s->in.profile : NULL, out);
+}

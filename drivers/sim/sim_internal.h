@@ -30,6 +30,8 @@ typedef struct sim_params {
 	/* supply dynamics and read-back (a dynamics preset sets these) */
 	double slew, zeta, f_n, rb_latency, rb_average;
 	double rb_noise, rb_noise_abs, status_subsystem, virtual_time;
+	/* the meter's gain error: every impedance it reports is (1 + gain) times the true one */
+	double gain;
 } sim_params;
 
 typedef struct sim_param_info {

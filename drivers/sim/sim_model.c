@@ -48,6 +48,7 @@ const sim_param_info sim_param_table[] = {
 	{ "rb_noise_abs", P(rb_noise_abs), "A", 0, 1, false, false, "absolute read-back noise sigma, added to rb_noise*|I|" },
 	{ "status_subsystem", P(status_subsystem), "", 0, 1, false, true, "1: supply has STATus and protection queries; 0: plain supply, -113" },
 	{ "virtual_time", P(virtual_time), "", 0, 1, false, true, "1: the bench runs on a virtual clock (in-process bench: bit-repeatable)" },
+	{ "gain", P(gain), "", -0.1, 0.1, false, false, "meter's relative gain error on the impedance (0: exact)" },
 };
 const size_t sim_param_count = sizeof sim_param_table / sizeof sim_param_table[0];
 

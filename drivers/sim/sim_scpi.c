@@ -400,7 +400,8 @@ void sim_finish_pending(hb_sim *sim, sim_conn *conn, double now)
 		 * midpoints (any the clock did not reach are taken now). */
 		while (conn->pend_samples < SIM_READ_SAMPLES)
 			sim_sample_reading(sim, conn);
-		double complex z = conn->pend_zsum / SIM_READ_SAMPLES;
+		/* a gain error scales what the meter reports, not the part */
+		double complex z = conn->pend_zsum / SIM_READ_SAMPLES * (1 + sim->p.gain);
 		double mag = cabs(z);
 		z += sigma * mag * (gsl_ran_gaussian(sim->rng, 1.0) + I * gsl_ran_gaussian(sim->rng, 1.0));
 		int status = 0;
@@ -417,7 +418,7 @@ void sim_finish_pending(hb_sim *sim, sim_conn *conn, double now)
 		reply_add(conn, "%.7E,%.7E,%d", primary, secondary, status);
 	} else if (kind == SIM_PEND_DCR) {
 		double r = sim_winding_r(&sim->p, sim->s.temp_c) + (m->short_corr ? 0 : sim->p.rlead);
-		r *= 1 + sigma * gsl_ran_gaussian(sim->rng, 1.0);
+		r *= (1 + sim->p.gain) * (1 + sigma * gsl_ran_gaussian(sim->rng, 1.0));
 		reply_add(conn, "%.7E", r);
 	} else if (kind == SIM_PEND_WAIT) {
 		reply_add(conn, "%.7E", conn->pend_value);

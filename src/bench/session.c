@@ -88,6 +88,40 @@ static const char *aperture_name(hb_aperture a)
 	return a == HB_APERTURE_SHORT ? "short" : a == HB_APERTURE_LONG ? "long" : "medium";
 }
 
+/* The accuracy in force: the station file's, where it states one, else the
+ * profile's; recorded with the sweep so that a later analysis uses what
+ * was true when the points were taken. */
+static void record_accuracy(const hb_session *s, const hb_sweep_plan *plan, hb_db_sweep *sw)
+{
+	hb_accuracy m, a;
+	if (isfinite(s->station->meter_accuracy.rel))
+		m = s->station->meter_accuracy;
+	else
+		hb_lcr_accuracy(s->lcr, &m);
+	double f = plan->kind == HB_SWEEP_BIAS ? plan->frequency : NAN;
+	sw->meter_accuracy_rel = hb_accuracy_rel_at(&m, f);
+	if (isfinite(m.rel)) {
+		char spec[128];
+		snprintf(sw->meter_accuracy, sizeof sw->meter_accuracy, "%s; %s", hb_accuracy_format(&m, NULL, spec, sizeof spec),
+			 m.source);
+	}
+	if (s->supply) {
+		if (isfinite(s->station->supply_accuracy.rel))
+			a = s->station->supply_accuracy;
+		else
+			hb_supply_accuracy(s->supply, &a);
+		if (isfinite(a.rel)) {
+			char spec[128];
+			sw->supply_accuracy_rel = a.rel;
+			sw->supply_accuracy_offset_a = a.offset;
+			snprintf(sw->supply_accuracy, sizeof sw->supply_accuracy, "%s; %s",
+				 hb_accuracy_format(&a, "A", spec, sizeof spec), a.source);
+		}
+	}
+	snprintf(sw->station_decision_rule, sizeof sw->station_decision_rule, "%s", s->station->decision_rule);
+	sw->station_guard_r = s->station->guard_r;
+}
+
 static hb_db_sweep_status end_status(const hb_sweep_result *r)
 {
 	switch (r->end) {
@@ -151,6 +185,7 @@ int hb_session_measure(hb_session *s, const hb_db_part *part, const char *serial
 	sw.limit_current_a = plan->limits.max_current;
 	sw.limit_voltage_v = plan->limits.max_voltage;
 	sw.ambient_c = s->ambient_c;
+	record_accuracy(s, plan, &sw);
 	snprintf(sw.note, sizeof sw.note, "%s", note ? note : "");
 	rc = hb_db_sweep_begin(s->db, &sw);
 	if (rc != HB_OK) {

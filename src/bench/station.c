@@ -27,6 +27,9 @@ void hb_station_defaults(hb_station *s)
 	s->part_overdrive = HB_STATION_PART_OVERDRIVE;
 	s->part_overdrive_set = false;
 	s->lock_limits = false;
+	hb_accuracy_init(&s->meter_accuracy);
+	hb_accuracy_init(&s->supply_accuracy);
+	s->guard_r = NAN;
 }
 
 typedef struct parse_ctx {
@@ -77,6 +80,37 @@ static int on_entry(void *user, const char *section, const char *name, const cha
 			snprintf(s->operator_name, sizeof s->operator_name, "%s", value);
 			return 1;
 		}
+		if (strcmp(name, "decision_rule") == 0) {
+			if (strcmp(value, "simple") && strcmp(value, "guarded") && strcmp(value, "non-binary")) {
+				snprintf(c->err, c->errlen, "%s:%d: key 'decision_rule': '%s' is not simple, guarded or non-binary",
+					 s->path, line, value);
+				c->failed = 1;
+				return 0;
+			}
+			snprintf(s->decision_rule, sizeof s->decision_rule, "%s", value);
+			return 1;
+		}
+		if (strcmp(name, "guard_r") == 0)
+			return set_limit(c, value, "", &s->guard_r, line, name);
+	} else if (strcmp(section, "accuracy") == 0) {
+		char why[200];
+		int rc = HB_ERR_ARG;
+		hb_accuracy *a = strncmp(name, "meter", 5) == 0 ? &s->meter_accuracy : &s->supply_accuracy;
+		if (strcmp(name, "meter") == 0)
+			rc = hb_accuracy_parse_rel(value, NULL, &a->rel, &a->offset, why, sizeof why);
+		else if (strcmp(name, "meter.freq_above") == 0)
+			rc = hb_accuracy_parse_freq_above(value, &a->freq_above_hz, &a->freq_above_rel, why, sizeof why);
+		else if (strcmp(name, "supply.current") == 0)
+			rc = hb_accuracy_parse_rel(value, "A", &a->rel, &a->offset, why, sizeof why);
+		else
+			goto unknown;
+		if (rc != HB_OK) {
+			snprintf(c->err, c->errlen, "%s:%d: key '%s': %s", s->path, line, name, why);
+			c->failed = 1;
+			return 0;
+		}
+		snprintf(a->source, sizeof a->source, "station file %s", s->path);
+		return 1;
 	} else if (strcmp(section, "limits") == 0) {
 		if (strcmp(name, "max_current") == 0)
 			return set_limit(c, value, "A", &s->max_current, line, name);
@@ -109,7 +143,8 @@ static int on_entry(void *user, const char *section, const char *name, const cha
 			return 0;
 		}
 	}
-	snprintf(c->err, c->errlen, "%s:%d: unknown key '%s' in section [%s] (known: [station] name, operator; [limits] max_current, max_voltage, max_power, confirm_above, ramp_rate, off_threshold, part_overdrive, lock_limits)",
+unknown:
+	snprintf(c->err, c->errlen, "%s:%d: unknown key '%s' in section [%s] (known: [station] name, operator, decision_rule, guard_r; [limits] max_current, max_voltage, max_power, confirm_above, ramp_rate, off_threshold, part_overdrive, lock_limits; [accuracy] meter, meter.freq_above, supply.current)",
 		 s->path, line, name, section);
 	c->failed = 1;
 	return 0;

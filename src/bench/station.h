@@ -5,6 +5,8 @@
 #include <stdbool.h>
 #include <stddef.h>
 
+#include "../../drivers/hb_drivers.h" /* hb_accuracy */
+
 /* A saturation characterisation runs well past the knee: 2.5 x covers the
  * demo part's documented range (HBX-108G, saturation-spec 3.2 A, swept to
  * 8 A in the README and by `henrybench demo`). */
@@ -26,6 +28,13 @@ typedef struct hb_station {
 	                         * part's highest rated current; default HB_STATION_PART_OVERDRIVE */
 	bool part_overdrive_set; /* part_overdrive came from the file, not the default */
 	bool lock_limits;       /* [limits] lock_limits = yes: no limit option on the command line */
+	/* [accuracy] meter, meter.freq_above, supply.current: override the
+	 * profiles' specifications for this station's instruments (rel NAN = not set) */
+	hb_accuracy meter_accuracy, supply_accuracy;
+	/* [station] decision_rule = simple | guarded | non-binary, guard_r: the
+	 * default rule for parts that state none ("" = simple) */
+	char decision_rule[16];
+	double guard_r;         /* NAN = 1 */
 	char path[512];         /* the file read, empty if none */
 } hb_station;
 

@@ -15,6 +15,35 @@ void hb_analysis_options_init(hb_analysis_options *opt)
 	opt->core = true;
 	opt->fix_mu_i = opt->fix_gap = opt->fix_bsat = NAN;
 	opt->store = true;
+	opt->default_rule = HB_DECISION_SIMPLE;
+	opt->default_r = NAN;
+}
+
+hb_db_outcome hb_analysis_db_outcome(hb_decision_outcome o)
+{
+	switch (o) {
+	case HB_DECISION_PASS:
+		return HB_DB_PASS;
+	case HB_DECISION_CONDITIONAL_PASS:
+		return HB_DB_CONDITIONAL_PASS;
+	case HB_DECISION_CONDITIONAL_FAIL:
+		return HB_DB_CONDITIONAL_FAIL;
+	case HB_DECISION_FAIL:
+		return HB_DB_FAIL;
+	case HB_DECISION_NOT_TESTED:
+	default:
+		return HB_DB_NOT_TESTED;
+	}
+}
+
+const char *hb_analysis_rule_text(const hb_analysis_check *k, char *buf, size_t cap)
+{
+	if (k->decision.rule == HB_DECISION_SIMPLE)
+		snprintf(buf, cap, "%s", hb_decision_rule_statement(k->decision.rule));
+	else
+		snprintf(buf, cap, "%s (r = %g): %s", hb_decision_rule_name(k->decision.rule), k->guard_r,
+			 hb_decision_rule_statement(k->decision.rule));
+	return buf;
 }
 
 /*
@@ -131,8 +160,16 @@ static hb_check untested(void)
 	return hb_verdict_limits(NAN, NAN, NAN);
 }
 
+const hb_budget *hb_analysis_budget(const hb_analysis_summary *s, const char *name)
+{
+	for (size_t i = 0; s && i < s->n_budgets; i++)
+		if (strcmp(s->budgets[i].name, name) == 0)
+			return &s->budgets[i];
+	return NULL;
+}
+
 static void judge_bias(hb_analysis_summary *s, const hb_db_part *part, const hb_db_sweep *sw, const double *I,
-		       const double *L, size_t n)
+		       const double *L, size_t n, const hb_budget_context *bc)
 {
 	const hb_fit_modelfree_result *mf = &s->bias.modelfree;
 	/* L0 counts only when measured at the spec's test frequency. */
@@ -148,6 +185,16 @@ static void judge_bias(hb_analysis_summary *s, const hb_db_part *part, const hb_
 	}
 	if (isfinite(part->sat_current_a) && isfinite(part->sat_drop) && s->fit_status == HB_OK) {
 		double l_at = interp_at(I, L, n, part->sat_current_a);
+		/* dL/dI of the segment the spec current falls in: how far a current error moves L there */
+		double slope = NAN;
+		for (size_t i = 1; i < n && isfinite(l_at); i++)
+			if (part->sat_current_a <= I[i]) {
+				slope = (L[i] - L[i - 1]) / (I[i] - I[i - 1]);
+				break;
+			}
+		if (isfinite(l_at) && s->n_budgets < HB_BUDGET_MAX && bc)
+			hb_budget_lsat(&s->bias, part->sat_current_a, l_at, slope, part->sat_drop, bc,
+				       &s->budgets[s->n_budgets++]);
 		if (isfinite(l_at))
 			add_check(s, "Lsat", "H", hb_verdict_min(l_at, (1 - part->sat_drop) * mf->L0),
 				  "L at the saturation-spec current at least (1 - drop) L0");
@@ -155,11 +202,18 @@ static void judge_bias(hb_analysis_summary *s, const hb_db_part *part, const hb_
 			add_check(s, "Lsat", "H", untested(), "sweep did not reach the saturation-spec current");
 	}
 	if (isfinite(part->dcr_max_ohm)) {
-		if (isfinite(s->dcr_ohm))
-			add_check(s, "DCR", "ohm", hb_verdict_max(s->dcr_ohm, part->dcr_max_ohm),
-				  s->dcr_from_meter ? "the meter's DC-resistance reading, at zero bias"
-						    : "two-wire from the supply's V/I at low current, leads and contacts included");
-		else
+		if (isfinite(s->dcr_ohm)) {
+			/* a spec's DCR holds at 20 C: referred there when a temperature is stored */
+			char note[160], ref[96];
+			bool referred = isfinite(s->dcr_ref_ohm);
+			if (referred)
+				snprintf(ref, sizeof ref, "referred to 20 C from %.1f C (copper 0.00393/K)", s->temperature_c);
+			else
+				snprintf(ref, sizeof ref, "uncorrected: no temperature stored");
+			snprintf(note, sizeof note, "%s; %s", s->dcr_from_meter ? "the meter's DC-resistance reading, at zero bias"
+							: "two-wire from the supply's V/I at low current, leads included", ref);
+			add_check(s, "DCR", "ohm", hb_verdict_max(referred ? s->dcr_ref_ohm : s->dcr_ohm, part->dcr_max_ohm), note);
+		} else
 			add_check(s, "DCR", "ohm", untested(), "no voltage read-back at low current");
 	}
 }
@@ -451,6 +505,8 @@ static int store_results(hb_db *db, hb_analysis_summary *s)
 			fit_value(f, HB_DB_FV_GAP, gap, gap_se, "m");
 		}
 		fit_value(f, "DCR", s->dcr_ohm, NAN, "ohm");
+		fit_value(f, "DCR_20C", s->dcr_ref_ohm, NAN, "ohm");
+		fit_value(f, "DCR_temperature_C", s->temperature_c, NAN, "C");
 		fit_value(f, "Cp_used", s->cp_farad, NAN, "F");
 		fit_value(f, "Cp_from_sweep", s->cp_sweep_id > 0 ? (double)s->cp_sweep_id : NAN, NAN, "");
 		size_t len = 0;
@@ -504,6 +560,16 @@ static int store_results(hb_db *db, hb_analysis_summary *s)
 	free(f);
 	if (rc != HB_OK)
 		return rc;
+	for (size_t i = 0; i < s->n_budgets; i++) {
+		hb_db_fit_unc u;
+		hb_budget_to_db(&s->budgets[i], s->fit_id, &u);
+		rc = hb_db_fit_unc_put(db, &u);
+		if (rc != HB_OK) {
+			snprintf(s->message, sizeof s->message, "could not store the uncertainty of %s: %s", u.name,
+				 hb_db_errmsg(db));
+			return rc;
+		}
+	}
 	for (size_t i = 0; i < s->n_checks; i++) {
 		hb_db_verdict v;
 		hb_db_verdict_init(&v);
@@ -514,9 +580,16 @@ static int store_results(hb_db *db, hb_analysis_summary *s)
 		v.limit_low = k->check.low;
 		v.limit_high = k->check.high;
 		v.margin = k->check.margin_frac;
-		v.outcome = k->check.outcome == HB_OUTCOME_PASS ? HB_DB_PASS :
-			    k->check.outcome == HB_OUTCOME_FAIL ? HB_DB_FAIL : HB_DB_NOT_TESTED;
-		snprintf(v.note, sizeof v.note, "%s", k->note);
+		v.outcome = hb_analysis_db_outcome(k->decision.outcome);
+		snprintf(v.note, sizeof v.note, "%s%s%s", k->note, k->rule_note[0] ? "; " : "", k->rule_note);
+		snprintf(v.decision_rule, sizeof v.decision_rule, "%s", hb_decision_rule_name(k->decision.rule));
+		v.guard_r = k->decision.rule == HB_DECISION_SIMPLE ? NAN : k->guard_r;
+		v.expanded_u = k->decision.U;
+		v.coverage_k = k->decision.k;
+		v.accept_low = k->decision.al_low;
+		v.accept_high = k->decision.al_high;
+		v.p_false_accept = k->decision.rule == HB_DECISION_SIMPLE && isnan(k->decision.U) ? NAN :
+				   k->decision.p_false_accept;
 		rc = hb_db_verdict_put(db, &v);
 		if (rc != HB_OK) {
 			snprintf(s->message, sizeof s->message, "could not store verdict %s: %s", k->name, hb_db_errmsg(db));
@@ -572,11 +645,92 @@ out:
 	return rc;
 }
 
+/* The rule in force: the part's, else the station's default recorded with
+ * the sweep, else the caller's default (simple acceptance). */
+static void resolve_rule(const hb_db_part *part, const hb_db_sweep *sw, const hb_analysis_options *opt,
+			 hb_decision_rule *rule, double *r)
+{
+	*rule = opt->default_rule;
+	*r = isfinite(opt->default_r) ? opt->default_r : 1;
+	hb_decision_rule parsed;
+	if (sw->station_decision_rule[0] && hb_decision_rule_parse(sw->station_decision_rule, &parsed) == HB_OK) {
+		*rule = parsed;
+		*r = isfinite(sw->station_guard_r) ? sw->station_guard_r : 1;
+	}
+	if (part->decision_rule[0] && hb_decision_rule_parse(part->decision_rule, &parsed) == HB_OK) {
+		*rule = parsed;
+		*r = isfinite(part->guard_r) ? part->guard_r : 1;
+	}
+}
+
+/* Each check judged by the rule with its value's U; the overall verdict
+ * from the rule's outcomes. */
+static void apply_rules(hb_analysis_summary *s, const hb_db_part *part, const hb_db_sweep *sw,
+			const hb_analysis_options *opt)
+{
+	hb_decision_rule rule;
+	double r;
+	resolve_rule(part, sw, opt, &rule, &r);
+	bool failed = false, untested = s->n_checks == 0, conditional = false;
+	for (size_t i = 0; i < s->n_checks; i++) {
+		hb_analysis_check *k = &s->checks[i];
+		const hb_budget *bg = hb_analysis_budget(s, k->name);
+		double U = bg ? bg->U : NAN, kf = bg ? bg->k : NAN;
+		k->guard_r = r;
+		k->rule_note[0] = 0;
+		hb_decision_spec spec;
+		hb_decision_spec_init(&spec);
+		spec.tl_low = k->check.low;
+		spec.tl_high = k->check.high;
+		spec.rule = rule;
+		spec.r = r;
+		if (!(isfinite(U) && isfinite(kf) && kf > 0)) {
+			U = kf = NAN;
+			if (rule != HB_DECISION_SIMPLE) {
+				spec.rule = HB_DECISION_SIMPLE;
+				snprintf(k->rule_note, sizeof k->rule_note,
+					 "no expanded uncertainty for this value: judged by simple acceptance instead of %s",
+					 hb_decision_rule_name(rule));
+			}
+		}
+		if (k->check.outcome == HB_OUTCOME_NOT_TESTED ||
+		    hb_decision_evaluate(&spec, k->check.measured, U, kf, &k->decision) != HB_OK) {
+			memset(&k->decision, 0, sizeof k->decision);
+			k->decision.rule = spec.rule;
+			k->decision.outcome = HB_DECISION_NOT_TESTED;
+			k->decision.measured = k->check.measured;
+			k->decision.U = U;
+			k->decision.k = kf;
+			k->decision.u = k->decision.w = NAN;
+			k->decision.al_low = k->decision.al_high = k->decision.rl_low = k->decision.rl_high = NAN;
+			k->decision.p_conform = k->decision.p_false_accept = NAN;
+		}
+		switch (k->decision.outcome) {
+		case HB_DECISION_FAIL:
+			failed = true;
+			break;
+		case HB_DECISION_CONDITIONAL_PASS:
+		case HB_DECISION_CONDITIONAL_FAIL:
+			conditional = true;
+			break;
+		case HB_DECISION_NOT_TESTED:
+			untested = true;
+			break;
+		case HB_DECISION_PASS:
+			break;
+		}
+	}
+	s->overall = failed ? HB_OVERALL_FAIL : untested ? HB_OVERALL_INCOMPLETE : conditional ? HB_OVERALL_CONDITIONAL
+												 : HB_OVERALL_PASS;
+}
+
 int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *opt, hb_analysis_summary *s)
 {
 	memset(s, 0, sizeof *s);
 	s->sweep_id = sweep_id;
 	s->dcr_ohm = NAN;
+	s->dcr_ref_ohm = NAN;
+	s->temperature_c = NAN;
 	s->cp_farad = NAN;
 	s->overall = HB_OVERALL_INCOMPLETE;
 	hb_db_sweep sw;
@@ -666,13 +820,19 @@ int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *op
 		rc = HB_ERR_NOMEM;
 		goto out;
 	}
-	judge_bias(s, &part, &sw, I, L, m);
+	hb_budget_context bc;
 	{
-		hb_check checks[HB_ANALYSIS_MAX_CHECKS];
-		for (size_t i = 0; i < s->n_checks; i++)
-			checks[i] = s->checks[i].check;
-		s->overall = hb_verdict_overall(checks, s->n_checks);
+		hb_budget_context_from_sweep(&bc, &sw);
+		s->n_budgets = hb_budget_bias(&s->bias, I, L, sigma, m, &fo, s->dcr_ohm, &bc,
+					      s->budgets, HB_BUDGET_MAX);
+		const hb_budget *dcr = hb_analysis_budget(s, "DCR");
+		if (dcr && isfinite(bc.temperature_c)) {
+			s->dcr_ref_ohm = dcr->value;
+			s->temperature_c = bc.temperature_c;
+		}
 	}
+	judge_bias(s, &part, &sw, I, L, m, &bc);
+	apply_rules(s, &part, &sw, opt);
 store:
 	rc = HB_OK;
 	if (opt->store && (s->fit_status == HB_OK || s->n_checks > 0))

@@ -10,6 +10,8 @@
 
 #include "../../db/hb_db.h"
 #include "../../fit/hb_fit.h"
+#include "budget.h"
+#include "decision.h"
 #include "rules.h"
 
 typedef struct hb_analysis_options {
@@ -19,16 +21,33 @@ typedef struct hb_analysis_options {
 	bool knee, core;           /* which models to fit (both by default) */
 	double fix_mu_i, fix_gap, fix_bsat; /* NAN = fitted */
 	bool store;                /* store the fit and verdicts (default true) */
+	/* The decision rule for parts that state none, when the sweep recorded
+	 * no station default either: simple acceptance unless set. */
+	hb_decision_rule default_rule;
+	double default_r;          /* NAN = 1 */
 } hb_analysis_options;
+
 
 enum { HB_ANALYSIS_MAX_CHECKS = 4 };
 
 typedef struct hb_analysis_check {
 	char name[16];             /* "L0", "Lsat", "DCR" */
 	char unit[8];
-	hb_check check;
+	hb_check check;            /* the plain comparison with the tolerance limits (margins) */
 	char note[160];
+	/* The decision rule applied with the value's expanded uncertainty
+	 * (decision.h, ILAC-G8:2019): decision.outcome is THE outcome, with
+	 * the conditional ones; U, k, acceptance limits and the probability of
+	 * false accept are in it. */
+	hb_decision decision;
+	double guard_r;            /* r of w = r U */
+	char rule_note[120];       /* e.g. "no U for this value: judged by simple acceptance" */
 } hb_analysis_check;
+
+/* "pass", "conditional-pass", ... as the store and JSON spell it. */
+hb_db_outcome hb_analysis_db_outcome(hb_decision_outcome o);
+/* The rule a verdict states, in one line: "guarded (r = 1): <statement>". */
+const char *hb_analysis_rule_text(const hb_analysis_check *k, char *buf, size_t cap);
 
 typedef struct hb_analysis_summary {
 	bool ran;
@@ -39,6 +58,8 @@ typedef struct hb_analysis_summary {
 	hb_fit_freq_result freq;   /* frequency sweeps */
 	double dcr_ohm;            /* the meter's reading, else the supply's V/I (two-wire, leads in); NAN if none */
 	bool dcr_from_meter;
+	double dcr_ref_ohm;        /* dcr_ohm referred to 20 C (copper) when a temperature is stored; NAN otherwise */
+	double temperature_c;      /* the temperature it was referred from (the sweep's ambient); NAN = none */
 	double cp_farad;           /* winding capacitance the core fit corrected for, NAN if none */
 	int64_t cp_sweep_id;       /* the frequency sweep it came from */
 	bool knee_diagnosed, core_diagnosed; /* a flagged model's misfit was traced to a cause */
@@ -47,6 +68,9 @@ typedef struct hb_analysis_summary {
 	hb_analysis_check checks[HB_ANALYSIS_MAX_CHECKS];
 	hb_overall overall;
 	char message[256];
+	/* GUM budgets of the reported quantities (budget.h), bias sweeps */
+	size_t n_budgets;
+	hb_budget budgets[HB_BUDGET_MAX];
 } hb_analysis_summary;
 
 void hb_analysis_options_init(hb_analysis_options *opt);
@@ -54,6 +78,29 @@ void hb_analysis_options_init(hb_analysis_options *opt);
  * the fit ran (the summary then says how well). */
 int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *opt, hb_analysis_summary *out);
 void hb_analysis_print(FILE *out, const hb_analysis_summary *summary);
+/* One verdict line: outcome by the rule, measured, U and k, the tolerance
+ * and acceptance limits, the probability of false accept (guarded rule);
+ * with_statement first prints the rule and its statement. */
+void hb_analysis_print_check(FILE *out, const hb_analysis_check *k, bool with_statement);
+/* One verdict as JSON: {"check","outcome","measured","limit_low","limit_high",
+ * "margin_fraction","unit","note","decision_rule":{"name","statement","r",
+ * "guard_band"[,"note"]},"U","k","acceptance_low","acceptance_high",
+ * ["rejection_low","rejection_high" non-binary],"p_conform","p_false_accept"}. */
+json_t *hb_analysis_check_json(const hb_analysis_check *k);
+/* The same two for a verdict read back from the store (show, export, the
+ * history of a unit): the rule's statement rebuilt from its name; unit "H",
+ * "ohm" or "A" as the check's. */
+void hb_analysis_print_stored_verdict(FILE *out, const hb_db_verdict *v, const char *unit);
+json_t *hb_analysis_stored_verdict_json(const hb_db_verdict *v, const char *unit);
+/* The budget of the named quantity ("L0", "I_drop20", "core.gap", "DCR"), NULL if none. */
+const hb_budget *hb_analysis_budget(const hb_analysis_summary *summary, const char *name);
+/*
+ * The budget table of a stored fit, one block per quantity: input, value,
+ * standard uncertainty, sensitivity coefficient, contribution and source,
+ * then u_c, nu_eff, k and U (coverage 95.45 %). `fit ID --budget` prints
+ * this from hb_db_fit_unc_list(fit ID); n = 0 prints why there is none.
+ */
+void hb_analysis_print_budget(FILE *out, const hb_db_fit_unc *list, size_t n);
 json_t *hb_analysis_summary_json(const hb_analysis_summary *summary);
 
 /* Why a stored fit value has no number (value NULL: "beyond the data

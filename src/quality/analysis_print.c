@@ -7,6 +7,8 @@
 #include "analysis.h"
 #include "../../common/hb_text.h"
 
+static json_t *num(double v);
+
 static void print_value(FILE *out, const char *label, double v, double se, const char *unit)
 {
 	char a[40], b[40];
@@ -26,6 +28,20 @@ static void print_value(FILE *out, const char *label, double v, double se, const
 		fprintf(out, "  %-28s %s  +- %s\n", label, a, b);
 	else
 		fprintf(out, "  %-28s %s\n", label, a);
+}
+
+/* The expanded uncertainty under a value that has a budget. */
+static void print_unc(FILE *out, const hb_analysis_summary *s, const char *name)
+{
+	const hb_budget *bg = hb_analysis_budget(s, name);
+	if (!bg || !isfinite(bg->U))
+		return;
+	char a[40];
+	if (!*bg->unit)
+		snprintf(a, sizeof a, "%.3g", bg->U);
+	else
+		hb_format_si(a, sizeof a, bg->U, bg->unit, 3);
+	fprintf(out, "  %-28s U = %s (k = %.2f, 95.45 %%)%s%s\n", "", a, bg->k, bg->note[0] ? "; " : "", bg->note);
 }
 
 size_t hb_analysis_misfit_lines(const char *model, const hb_misfit_diag *d, char lines[4][HB_ANALYSIS_LINE])
@@ -86,6 +102,69 @@ static void print_reason(FILE *out, const char *label, double v, const char *uni
 	fprintf(out, "  %-28s %s  (%s)\n", label, a, reason);
 }
 
+void hb_analysis_print_check(FILE *out, const hb_analysis_check *k, bool with_statement)
+{
+	char mv[40], lo[40], hi[40], u[40], al[40], ah[40];
+	const hb_decision *d = &k->decision;
+	if (with_statement) {
+		char rule[400];
+		fprintf(out, "  decision rule: %s\n", hb_analysis_rule_text(k, rule, sizeof rule));
+	}
+	hb_format_si(mv, sizeof mv, k->check.measured, k->unit, 5);
+	hb_format_si(lo, sizeof lo, k->check.low, k->unit, 5);
+	hb_format_si(hi, sizeof hi, k->check.high, k->unit, 5);
+	fprintf(out, "  %-5s %-16s measured %-14s", k->name, hb_decision_outcome_name(d->outcome),
+		isfinite(k->check.measured) ? mv : "-");
+	if (isfinite(d->U))
+		fprintf(out, " U %s (k = %.2f)", hb_format_si(u, sizeof u, d->U, k->unit, 3), d->k);
+	else
+		fprintf(out, " U -");
+	fprintf(out, " limits [%s, %s]", isfinite(k->check.low) ? lo : "-", isfinite(k->check.high) ? hi : "-");
+	if (d->rule != HB_DECISION_SIMPLE && (isfinite(d->al_low) || isfinite(d->al_high)))
+		fprintf(out, " acceptance [%s, %s]", isfinite(d->al_low) ? hb_format_si(al, sizeof al, d->al_low, k->unit, 5) : "-",
+			isfinite(d->al_high) ? hb_format_si(ah, sizeof ah, d->al_high, k->unit, 5) : "-");
+	if (isfinite(k->check.margin_frac))
+		fprintf(out, " margin %+.1f %%", k->check.margin_frac * 100);
+	if (d->rule == HB_DECISION_GUARDED && isfinite(d->p_false_accept))
+		fprintf(out, " P(false accept) %.2g %%", d->p_false_accept * 100);
+	fprintf(out, "\n");
+	if (k->rule_note[0])
+		fprintf(out, "        (%s)\n", k->rule_note);
+}
+
+json_t *hb_analysis_check_json(const hb_analysis_check *k)
+{
+	const hb_decision *d = &k->decision;
+	json_t *o = json_object();
+	json_object_set_new(o, "check", json_string(k->name));
+	json_object_set_new(o, "outcome", json_string(hb_decision_outcome_name(d->outcome)));
+	json_object_set_new(o, "measured", num(k->check.measured));
+	json_object_set_new(o, "limit_low", num(k->check.low));
+	json_object_set_new(o, "limit_high", num(k->check.high));
+	json_object_set_new(o, "margin_fraction", num(k->check.margin_frac));
+	json_object_set_new(o, "unit", json_string(k->unit));
+	json_object_set_new(o, "note", json_string(k->note));
+	json_t *r = json_object();
+	json_object_set_new(r, "name", json_string(hb_decision_rule_name(d->rule)));
+	json_object_set_new(r, "statement", json_string(hb_decision_rule_statement(d->rule)));
+	json_object_set_new(r, "r", d->rule == HB_DECISION_SIMPLE ? json_null() : num(k->guard_r));
+	json_object_set_new(r, "guard_band", num(d->w));
+	if (k->rule_note[0])
+		json_object_set_new(r, "note", json_string(k->rule_note));
+	json_object_set_new(o, "decision_rule", r);
+	json_object_set_new(o, "U", num(d->U));
+	json_object_set_new(o, "k", num(d->k));
+	json_object_set_new(o, "acceptance_low", num(d->al_low));
+	json_object_set_new(o, "acceptance_high", num(d->al_high));
+	if (d->rule == HB_DECISION_NONBINARY) {
+		json_object_set_new(o, "rejection_low", num(d->rl_low));
+		json_object_set_new(o, "rejection_high", num(d->rl_high));
+	}
+	json_object_set_new(o, "p_conform", num(d->p_conform));
+	json_object_set_new(o, "p_false_accept", num(d->p_false_accept));
+	return o;
+}
+
 void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 {
 	if (!s->ran)
@@ -116,6 +195,7 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 		return;
 	}
 	print_value(out, mf->cp_corrected ? "L0 (zero bias, as read)" : "L0 (zero bias)", mf->L0, mf->L0_std_err, "H");
+	print_unc(out, s, "L0");
 	char beyond[72];
 	snprintf(beyond, sizeof beyond, HB_FIT_REASON_BEYOND " (highest bias %#.3g A)", mf->I_max);
 	if (mf->cp_corrected) {
@@ -131,9 +211,12 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 	for (size_t i = 0; i < mf->n_drops; i++) {
 		char label[48];
 		snprintf(label, sizeof label, "current at -%g %% L", mf->drop[i].fraction * 100);
-		if (mf->drop[i].reached)
+		if (mf->drop[i].reached) {
 			print_value(out, label, mf->drop[i].current, mf->drop[i].std_err, "A");
-		else
+			char name[32];
+			snprintf(name, sizeof name, "I_drop%g", mf->drop[i].fraction * 100);
+			print_unc(out, s, name);
+		} else
 			fprintf(out, "  %-28s %s\n", label, beyond);
 	}
 	if (b->knee_status == HB_OK) {
@@ -185,16 +268,21 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 				print_reason(out, label, lr->param[j], punit[j], HB_FIT_REASON_UNDETERMINED);
 			else
 				print_value(out, label, lr->param[j], lr->std_err[j], punit[j]);
+			static const char *const bname[] = { "core.mu_i", "core.gap", "core.Js" };
+			print_unc(out, s, bname[j]);
 			if (j == HB_CORE_GAP) {
 				snprintf(label, sizeof label, "gap, physical (fringing)%s", mis ? " (misfit)" : "");
 				if (lr->undetermined & (1u << HB_CORE_GAP))
 					print_reason(out, label, c->gap_physical, "m", HB_FIT_REASON_UNDETERMINED);
 				else
 					print_value(out, label, c->gap_physical, c->gap_physical_se, "m");
+				print_unc(out, s, "core.gap_physical");
 			}
 		}
 		print_value(out, "mu_e", c->mu_e, c->mu_e_se, "");
+		print_unc(out, s, "core.mu_e");
 		print_value(out, "AL", c->AL, c->AL_se, "H");
+		print_unc(out, s, "core.AL");
 		if (c->rated_current > mf->I_max)
 			fprintf(out, "  %-28s %s\n", "B peak at rated current", beyond);
 		else
@@ -231,23 +319,16 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 		fprintf(out, "  %-28s %s\n", "stored energy at rated", beyond);
 	else
 		print_value(out, "stored energy at rated", b->W_rated, NAN, "J");
-	if (isfinite(s->dcr_ohm))
+	if (isfinite(s->dcr_ohm)) {
 		print_value(out, s->dcr_from_meter ? "DCR (meter)" : "DCR (two-wire, leads incl.)", s->dcr_ohm, NAN, "ohm");
+		if (isfinite(s->dcr_ref_ohm))
+			print_value(out, "DCR referred to 20 C", s->dcr_ref_ohm, NAN, "ohm");
+		print_unc(out, s, "DCR");
+	}
 	if (s->n_checks) {
 		fprintf(out, "verdicts:\n");
-		for (size_t i = 0; i < s->n_checks; i++) {
-			const hb_analysis_check *k = &s->checks[i];
-			char mv[40], lo[40], hi[40];
-			hb_format_si(mv, sizeof mv, k->check.measured, k->unit, 5);
-			hb_format_si(lo, sizeof lo, k->check.low, k->unit, 5);
-			hb_format_si(hi, sizeof hi, k->check.high, k->unit, 5);
-			fprintf(out, "  %-5s %-10s measured %-14s limits [%s, %s]", k->name,
-				hb_outcome_name(k->check.outcome), isfinite(k->check.measured) ? mv : "-",
-				isfinite(k->check.low) ? lo : "-", isfinite(k->check.high) ? hi : "-");
-			if (isfinite(k->check.margin_frac))
-				fprintf(out, " margin %+.1f %%", k->check.margin_frac * 100);
-			fprintf(out, "\n");
-		}
+		for (size_t i = 0; i < s->n_checks; i++)
+			hb_analysis_print_check(out, &s->checks[i], i == 0 || s->checks[i].decision.rule != s->checks[i - 1].decision.rule);
 		fprintf(out, "  overall: %s\n", hb_overall_name(s->overall));
 	}
 }
@@ -289,8 +370,13 @@ json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 		json_object_set_new(j, "note", json_string(HB_FIT_INCREMENTAL_NOTE));
 		json_object_set_new(j, "cp_corrected", json_boolean(s->bias.modelfree.cp_corrected));
 		json_object_set_new(j, "L0_basis", json_string(s->bias.modelfree.L0_basis));
-		for (size_t i = 0; i < s->bias.values.count; i++)
-			json_object_set_new(vals, s->bias.values.v[i].name, hb_analysis_value_json(&s->bias.values.v[i]));
+		for (size_t i = 0; i < s->bias.values.count; i++) {
+			json_t *o = hb_analysis_value_json(&s->bias.values.v[i]);
+			const hb_budget *bg = hb_analysis_budget(s, s->bias.values.v[i].name);
+			if (bg && isfinite(s->bias.values.v[i].value))
+				hb_budget_add_json(o, bg);
+			json_object_set_new(vals, s->bias.values.v[i].name, o);
+		}
 		if (s->bias.core_status == HB_OK) {
 			const hb_fit_core_result *c = &s->bias.core;
 			json_object_set_new(j, "law", json_string(hb_core_law_name(c->best)));
@@ -298,16 +384,28 @@ json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 			const hb_fit_core_law_result *lr = &c->law[c->best];
 			bool mis = c->flags & HB_CORE_NO_LAW_FITS;
 			bool u_mu = lr->undetermined & (1u << HB_CORE_MU_I), u_g = lr->undetermined & (1u << HB_CORE_GAP);
-			json_object_set_new(vals, "mu_i",
-					    hb_analysis_value_object(lr->param[HB_CORE_MU_I], u_mu ? NAN : lr->std_err[HB_CORE_MU_I],
-								     "", u_mu ? HB_FIT_REASON_UNDETERMINED : NULL, mis));
-			json_object_set_new(vals, "gap",
-					    hb_analysis_value_object(c->gap_physical, u_g ? NAN : c->gap_physical_se, "m",
-								     u_g && isfinite(c->gap_physical) ?
-									     HB_FIT_REASON_UNDETERMINED : NULL,
-								     mis));
+			json_t *mu = hb_analysis_value_object(lr->param[HB_CORE_MU_I], u_mu ? NAN : lr->std_err[HB_CORE_MU_I],
+							      "", u_mu ? HB_FIT_REASON_UNDETERMINED : NULL, mis);
+			if (hb_analysis_budget(s, "core.mu_i"))
+				hb_budget_add_json(mu, hb_analysis_budget(s, "core.mu_i"));
+			json_object_set_new(vals, "mu_i", mu);
+			json_t *gp = hb_analysis_value_object(c->gap_physical, u_g ? NAN : c->gap_physical_se, "m",
+							      u_g && isfinite(c->gap_physical) ? HB_FIT_REASON_UNDETERMINED : NULL,
+							      mis);
+			if (hb_analysis_budget(s, "core.gap_physical"))
+				hb_budget_add_json(gp, hb_analysis_budget(s, "core.gap_physical"));
+			json_object_set_new(vals, "gap", gp);
 		}
 		json_object_set_new(j, "DCR_ohm", num(s->dcr_ohm));
+		if (hb_analysis_budget(s, "DCR")) {
+			/* value: referred to 20 C when a temperature is stored, else as measured ("uncertainty_note" says which) */
+			const hb_budget *bg = hb_analysis_budget(s, "DCR");
+			json_t *o = hb_analysis_value_object(bg->value, NAN, "ohm", NULL, false);
+			json_object_set_new(o, "as_measured", num(s->dcr_ohm));
+			json_object_set_new(o, "temperature_C", num(s->temperature_c));
+			json_object_set_new(o, "referred", json_boolean(isfinite(s->dcr_ref_ohm)));
+			json_object_set_new(vals, "DCR", hb_budget_add_json(o, bg));
+		}
 		json_t *mis = json_object();
 		const hb_misfit_diag *dg[2] = { s->knee_diagnosed ? &s->knee_diag : NULL,
 						s->core_diagnosed ? &s->core_diag : NULL };
@@ -340,21 +438,100 @@ json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 	}
 	json_object_set_new(j, "values", vals);
 	json_t *checks = json_array();
-	for (size_t i = 0; i < s->n_checks; i++) {
-		const hb_analysis_check *k = &s->checks[i];
-		json_t *o = json_object();
-		json_object_set_new(o, "check", json_string(k->name));
-		json_object_set_new(o, "outcome", json_string(hb_outcome_name(k->check.outcome)));
-		json_object_set_new(o, "measured", num(k->check.measured));
-		json_object_set_new(o, "limit_low", num(k->check.low));
-		json_object_set_new(o, "limit_high", num(k->check.high));
-		json_object_set_new(o, "margin_fraction", num(k->check.margin_frac));
-		json_object_set_new(o, "unit", json_string(k->unit));
-		json_object_set_new(o, "note", json_string(k->note));
-		json_array_append_new(checks, o);
-	}
+	for (size_t i = 0; i < s->n_checks; i++)
+		json_array_append_new(checks, hb_analysis_check_json(&s->checks[i]));
 	json_object_set_new(j, "verdicts", checks);
 	if (s->n_checks)
 		json_object_set_new(j, "overall", json_string(hb_overall_name(s->overall)));
 	return j;
+}
+
+void hb_analysis_print_budget(FILE *out, const hb_db_fit_unc *list, size_t n)
+{
+	if (n == 0) {
+		fprintf(out, "no uncertainty budget stored with this fit (fitted before budgets were kept: refit it)\n");
+		return;
+	}
+	for (size_t q = 0; q < n; q++) {
+		const hb_db_fit_unc *u = &list[q];
+		json_error_t err;
+		json_t *a = json_loads(u->budget, 0, &err);
+		fprintf(out, "%s%s = %.7g\n", q ? "\n" : "", u->name, u->value);
+		fprintf(out, "  %-24s %-4s %-13s %-11s %-12s %-11s %s\n", "input", "type", "value", "u(x)", "c", "u_i(y)",
+			"source");
+		size_t m = json_is_array(a) ? json_array_size(a) : 0;
+		for (size_t i = 0; i < m; i++) {
+			json_t *o = json_array_get(a, i);
+			const char *name = json_string_value(json_object_get(o, "input"));
+			const char *type = json_string_value(json_object_get(o, "type"));
+			const char *src = json_string_value(json_object_get(o, "source"));
+			json_t *jv = json_object_get(o, "value"), *ju = json_object_get(o, "u"), *jc = json_object_get(o, "c"),
+			       *jk = json_object_get(o, "contribution");
+			fprintf(out, "  %-24s %-4s %-13.6g %-11.3g %-12.4g %-11.3g %s\n", name ? name : "?", type ? type : "?",
+				json_is_number(jv) ? json_number_value(jv) : NAN, json_is_number(ju) ? json_number_value(ju) : NAN,
+				json_is_number(jc) ? json_number_value(jc) : NAN, json_is_number(jk) ? json_number_value(jk) : NAN,
+				src ? src : "");
+		}
+		json_decref(a);
+		char dof[24];
+		if (isfinite(u->dof))
+			snprintf(dof, sizeof dof, "%.1f", u->dof);
+		else
+			snprintf(dof, sizeof dof, "inf");
+		fprintf(out, "  u_c = %.3g   nu_eff = %s   k = %.3f (95.45 %%)   U = %.3g", u->u_c, dof, u->k, u->U);
+		if (isfinite(u->value) && u->value != 0)
+			fprintf(out, "   (%.3g %% of the value)", 100 * u->U / fabs(u->value));
+		fprintf(out, "\n");
+		if (u->note[0])
+			fprintf(out, "  %s\n", u->note);
+	}
+}
+
+void hb_analysis_print_stored_verdict(FILE *out, const hb_db_verdict *v, const char *unit)
+{
+	char mv[40], lo[40], hi[40], u[40], al[40], ah[40];
+	fprintf(out, "  %-5s %-16s measured %-14s", v->check_name, hb_db_outcome_name(v->outcome),
+		isfinite(v->measured) ? hb_format_si(mv, sizeof mv, v->measured, unit, 5) : "-");
+	if (isfinite(v->expanded_u))
+		fprintf(out, " U %s (k = %.2f)", hb_format_si(u, sizeof u, v->expanded_u, unit, 3), v->coverage_k);
+	else
+		fprintf(out, " U -");
+	fprintf(out, " limits [%s, %s]", isfinite(v->limit_low) ? hb_format_si(lo, sizeof lo, v->limit_low, unit, 5) : "-",
+		isfinite(v->limit_high) ? hb_format_si(hi, sizeof hi, v->limit_high, unit, 5) : "-");
+	fprintf(out, " rule %s", v->decision_rule[0] ? v->decision_rule : "simple");
+	if (isfinite(v->guard_r))
+		fprintf(out, " (r = %g)", v->guard_r);
+	if (strcmp(v->decision_rule, "simple") != 0 && (isfinite(v->accept_low) || isfinite(v->accept_high)))
+		fprintf(out, " acceptance [%s, %s]",
+			isfinite(v->accept_low) ? hb_format_si(al, sizeof al, v->accept_low, unit, 5) : "-",
+			isfinite(v->accept_high) ? hb_format_si(ah, sizeof ah, v->accept_high, unit, 5) : "-");
+	if (strcmp(v->decision_rule, "guarded") == 0 && isfinite(v->p_false_accept))
+		fprintf(out, " P(false accept) %.2g %%", v->p_false_accept * 100);
+	fprintf(out, "\n");
+}
+
+json_t *hb_analysis_stored_verdict_json(const hb_db_verdict *v, const char *unit)
+{
+	json_t *o = json_object();
+	json_object_set_new(o, "check", json_string(v->check_name));
+	json_object_set_new(o, "outcome", json_string(hb_db_outcome_name(v->outcome)));
+	json_object_set_new(o, "measured", num(v->measured));
+	json_object_set_new(o, "limit_low", num(v->limit_low));
+	json_object_set_new(o, "limit_high", num(v->limit_high));
+	json_object_set_new(o, "margin_fraction", num(v->margin));
+	json_object_set_new(o, "unit", json_string(unit ? unit : ""));
+	json_object_set_new(o, "note", json_string(v->note));
+	hb_decision_rule rule = HB_DECISION_SIMPLE;
+	hb_decision_rule_parse(v->decision_rule, &rule);
+	json_t *r = json_object();
+	json_object_set_new(r, "name", json_string(hb_decision_rule_name(rule)));
+	json_object_set_new(r, "statement", json_string(hb_decision_rule_statement(rule)));
+	json_object_set_new(r, "r", num(v->guard_r));
+	json_object_set_new(o, "decision_rule", r);
+	json_object_set_new(o, "U", num(v->expanded_u));
+	json_object_set_new(o, "k", num(v->coverage_k));
+	json_object_set_new(o, "acceptance_low", num(v->accept_low));
+	json_object_set_new(o, "acceptance_high", num(v->accept_high));
+	json_object_set_new(o, "p_false_accept", num(v->p_false_accept));
+	return o;
 }

@@ -1,5 +1,6 @@
 /* src/quality/decision.c - decision rules with measurement uncertainty and Cpk confidence intervals (no I/O) */
 #include <math.h>
+#include <string.h>
 
 #include <gsl/gsl_cdf.h>
 #include <gsl/gsl_errno.h>
@@ -166,6 +167,35 @@ const char *hb_decision_rule_name(hb_decision_rule rule)
 	default:
 		return "unknown";
 	}
+}
+
+int hb_conditional_policy_parse(const char *text, hb_conditional_policy *policy)
+{
+	if (!text || !policy)
+		return HB_ERR_ARG;
+	if (strcmp(text, "nonconforming") == 0)
+		*policy = HB_CONDITIONAL_NONCONFORMING;
+	else if (strcmp(text, "by-side") == 0)
+		*policy = HB_CONDITIONAL_BY_SIDE;
+	else
+		return HB_ERR_ARG;
+	return HB_OK;
+}
+
+int hb_decision_rule_parse(const char *text, hb_decision_rule *rule)
+{
+	if (!text || !rule)
+		return HB_ERR_ARG;
+	for (int r = 0; r < HB_DECISION_NRULES; r++)
+		if (strcmp(text, hb_decision_rule_name((hb_decision_rule)r)) == 0) {
+			*rule = (hb_decision_rule)r;
+			return HB_OK;
+		}
+	if (strcmp(text, "nonbinary") == 0) {
+		*rule = HB_DECISION_NONBINARY;
+		return HB_OK;
+	}
+	return HB_ERR_ARG;
 }
 
 const char *hb_decision_rule_statement(hb_decision_rule rule)

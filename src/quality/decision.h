@@ -93,8 +93,12 @@ typedef enum hb_conditional_policy {
 /* True when the outcome counts as conforming under the policy; NOT_TESTED never does. */
 bool hb_decision_counts_conforming(hb_decision_outcome o, hb_conditional_policy policy);
 const char *hb_conditional_policy_name(hb_conditional_policy policy); /* "nonconforming", "by-side" */
+/* Those names back; HB_ERR_ARG for anything else. */
+int hb_conditional_policy_parse(const char *text, hb_conditional_policy *policy);
 
 const char *hb_decision_rule_name(hb_decision_rule rule);       /* "simple", "guarded", "non-binary" */
+/* The names above (also "nonbinary"); HB_ERR_ARG for anything else. */
+int hb_decision_rule_parse(const char *text, hb_decision_rule *rule);
 const char *hb_decision_rule_statement(hb_decision_rule rule);  /* one sentence naming the rule and its source */
 const char *hb_decision_outcome_name(hb_decision_outcome o);    /* "pass", "conditional-pass", ... */
 

@@ -119,6 +119,10 @@ int hb_history_summarise(const hb_db_part *part, const hb_db_history_row *rows, 
 		if (lot->l0.n >= 2 && isfinite(lsl) &&
 		    hb_capability(&lot->l0, lsl, usl, &lot->cp, &lot->cpk) != HB_OK)
 			lot->cp = lot->cpk = NAN;
+		/* a mean on a limit gives -0.0: printed it would read "-0.00" */
+		if (lot->cpk == 0)
+			lot->cpk = 0;
+		hb_cpk_confidence(lot->cpk, lot->l0.n, 0.95, &lot->cpk_ci);
 		lot->l0_change_h = lot->l0_change_rel = lot->isat_change_a = lot->isat_change_rel = NAN;
 		if (!lot->lot_code[0] || lot->l0.n == 0)
 			continue;
@@ -160,4 +164,53 @@ void hb_history_summary_free(hb_history_summary *s)
 	free(s->lots);
 	s->lots = NULL;
 	s->n_lots = 0;
+}
+
+static json_t *num_or_null(double v)
+{
+	return isfinite(v) ? json_real(v) : json_null();
+}
+
+json_t *hb_history_cpk_json(const hb_history_lot *lot)
+{
+	const hb_cpk_interval *ci = &lot->cpk_ci;
+	json_t *o = json_object();
+	json_object_set_new(o, "Cpk", num_or_null(lot->cpk));
+	json_object_set_new(o, "Cpk_lower", num_or_null(ci->lower));
+	json_object_set_new(o, "Cpk_upper", num_or_null(ci->upper));
+	json_object_set_new(o, "confidence", json_real(0.95));
+	json_object_set_new(o, "n", json_integer((json_int_t)lot->l0.n));
+	json_object_set_new(o, "small_sample", json_boolean(lot->l0.n < HB_CPK_MIN_N));
+	if (lot->l0.n < HB_CPK_MIN_N) {
+		char w[96];
+		snprintf(w, sizeof w, "n = %zu < %d: the interval is wide and the normal approximation rough", lot->l0.n,
+			 HB_CPK_MIN_N);
+		json_object_set_new(o, "warning", json_string(w));
+	}
+	json_object_set_new(o, "method", json_string("Bissell (1990) normal approximation"));
+	return o;
+}
+
+char *hb_cpk_text(double cpk, size_t n, char *buf, size_t cap)
+{
+	if (!buf || !cap)
+		return buf;
+	if (!isfinite(cpk)) {
+		snprintf(buf, cap, "-");
+		return buf;
+	}
+	hb_cpk_interval ci;
+	hb_cpk_confidence(cpk, n, 0.95, &ci);
+	size_t len = (size_t)snprintf(buf, cap, "%.2f", hb_cpk_unsigned_zero(cpk, 2));
+	if (len < cap && isfinite(ci.lower))
+		len += (size_t)snprintf(buf + len, cap - len, " (95 %%: %.2f to %.2f%s", hb_cpk_unsigned_zero(ci.lower, 2),
+					hb_cpk_unsigned_zero(ci.upper, 2), n < HB_CPK_MIN_N ? "" : ")");
+	if (len < cap && isfinite(ci.lower) && n < HB_CPK_MIN_N)
+		snprintf(buf + len, cap - len, "; n = %zu < %d, rough)", n, HB_CPK_MIN_N);
+	return buf;
+}
+
+char *hb_history_cpk_text(const hb_history_lot *lot, char *buf, size_t cap)
+{
+	return hb_cpk_text(lot->cpk, lot->l0.n, buf, cap);
 }

@@ -6,6 +6,9 @@
 #include <stddef.h>
 
 #include "../../db/hb_db.h"
+#include <jansson.h>
+
+#include "decision.h"
 #include "rules.h"
 
 typedef struct hb_history_lot {
@@ -14,7 +17,9 @@ typedef struct hb_history_lot {
 	char first_iso[HB_DB_TIME_LEN], last_iso[HB_DB_TIME_LEN];
 	size_t n_units, n_pass, n_fail, n_not_tested;
 	hb_stats l0;                   /* n = 0 when no unit gave L0 */
-	double cp, cpk;                /* against nominal +- tolerance; NAN when not computable */
+	double cp, cpk;                /* against nominal +- tolerance; NAN when not computable; never -0 */
+	hb_cpk_interval cpk_ci;        /* Cpk's two-sided 95 % interval (Bissell 1990) and the small-sample
+				        * warning (n < HB_CPK_MIN_N); bounds NAN when Cpk is */
 	hb_stats isat;                 /* current at the part's saturation drop */
 	/* Trend, against the first lot with a code (NAN for that lot and for ""): */
 	double l0_change_h, l0_change_rel, isat_change_a, isat_change_rel;
@@ -39,5 +44,18 @@ typedef struct hb_history_summary {
 int hb_history_summarise(const hb_db_part *part, const hb_db_history_row *rows, size_t n,
 			 const int drop_percent[HB_DB_HISTORY_DROPS], hb_history_summary *out);
 void hb_history_summary_free(hb_history_summary *summary);
+
+/* Cpk of a lot with its confidence, for every output (text, JSON, HTML):
+ * {"Cpk": 0.79 | null, "Cpk_lower": -0.07 | null, "Cpk_upper": 1.66 | null,
+ *  "confidence": 0.95, "n": 3, "small_sample": true,
+ *  "warning": "n = 3 < 30: the interval is wide and the normal approximation rough" (only when small),
+ *  "method": "Bissell (1990) normal approximation"}.
+ * The history JSON in src/cli calls this for each lot. */
+json_t *hb_history_cpk_json(const hb_history_lot *lot);
+/* The same in one line for text and HTML: "0.79 (95 %: -0.07 to 1.66; n = 3 < 30, rough)" or
+ * "1.52 (95 %: 1.21 to 1.83)"; "-" when there is no Cpk. Two decimals, no "-0.00". */
+char *hb_history_cpk_text(const hb_history_lot *lot, char *buf, size_t cap);
+/* Same from a Cpk and its n, for callers that compute their own (the lot report). */
+char *hb_cpk_text(double cpk, size_t n, char *buf, size_t cap);
 
 #endif

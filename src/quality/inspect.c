@@ -116,6 +116,12 @@ void hb_inspect_print_rules(FILE *out, const hb_inspect_config *cfg)
 		     "    position used, the same unit is measured again; %d in a row pause the inspection (resumable)\n"
 		     "  stopped by a safety limit or by the operator: not judged; the inspection pauses (resumable)\n"
 		     "  incomplete verdict (a check could not be made): NONCONFORMING\n", bench);
+	if (cfg->conditional_policy == HB_CONDITIONAL_BY_SIDE)
+		fprintf(out, "conditional outcomes (decision rule with a guard band, ILAC-G8:2019 4.2.3), policy 'by-side':\n"
+			     "  conditional pass counts as conforming, conditional fail as NONCONFORMING; tallied separately\n");
+	else
+		fprintf(out, "conditional outcomes (decision rule with a guard band, ILAC-G8:2019 4.2.3), policy 'nonconforming':\n"
+			     "  a conditional pass or conditional fail counts as NONCONFORMING; tallied separately\n");
 }
 
 static bool lot_plan_differs(const hb_db_lot *lot, const hb_sampling_plan *p)
@@ -148,6 +154,11 @@ static void tally_from_records(const hb_db_inspection *recs, size_t n, hb_inspec
 			t->nonconforming++;
 		} else if (recs[i].outcome == HB_DB_SKIPPED)
 			t->skipped++;
+		if (recs[i].conditional && recs[i].outcome != HB_DB_SKIPPED) {
+			t->conditional++;
+			if (recs[i].outcome == HB_DB_FAIL)
+				t->conditional_nonconforming++;
+		}
 		if (recs[i].sequence > max_seq)
 			max_seq = recs[i].sequence;
 	}
@@ -180,6 +191,7 @@ static int record(run_state *st, hb_inspect_unit *u)
 	rec.lot_id = st->lot.id;
 	rec.sequence = u->sequence;
 	rec.outcome = u->outcome;
+	rec.conditional = u->conditional;
 	rec.sweep_id = u->sweep_id;
 	snprintf(rec.note, sizeof rec.note, "%s", u->note);
 	int rc = HB_OK;
@@ -197,19 +209,39 @@ static int record(run_state *st, hb_inspect_unit *u)
 		t->tested++;
 	if (u->outcome == HB_DB_FAIL)
 		t->nonconforming++;
+	if (u->conditional && u->outcome != HB_DB_SKIPPED) {
+		t->conditional++;
+		if (u->outcome == HB_DB_FAIL)
+			t->conditional_nonconforming++;
+	}
 	t->next_sequence = u->sequence + 1;
 	if (cfg->out) {
 		char l0[32] = "-";
 		if (isfinite(u->l0_h))
 			hb_format_si(l0, sizeof l0, u->l0_h, "H", 4);
-		const char *word = u->outcome == HB_DB_PASS ? "conforming" :
-				   u->outcome == HB_DB_FAIL ? "NONCONFORMING" : "skipped";
+		const char *word = u->outcome == HB_DB_PASS ? (u->conditional ? "conforming(c)" : "conforming") :
+				   u->outcome == HB_DB_FAIL ? (u->conditional ? "NONCONFORM(c)" : "NONCONFORMING") : "skipped";
 		fprintf(cfg->out, "  #%-3d %-18s L0 %-11s %-13s tested %d/%ld, nonconforming %d (Ac %d, Re %d)%s%s\n",
 			u->sequence, u->serial[0] ? u->serial : "-", l0, word, t->tested, st->out->plan.sample_size,
 			t->nonconforming, st->out->plan.ac, st->out->plan.re, u->note[0] ? "  " : "", u->note);
 		fflush(cfg->out);
 	}
 	return HB_OK;
+}
+
+/* Conforming or not by the checks' outcomes, a conditional one counted by
+ * the plan's policy (decision.h). */
+static hb_db_outcome unit_outcome(const hb_analysis_summary *an, hb_conditional_policy policy, bool *conditional)
+{
+	*conditional = an->overall == HB_OVERALL_CONDITIONAL;
+	if (an->overall == HB_OVERALL_PASS)
+		return HB_DB_PASS;
+	if (an->overall != HB_OVERALL_CONDITIONAL)
+		return HB_DB_FAIL;
+	for (size_t i = 0; i < an->n_checks; i++)
+		if (!hb_decision_counts_conforming(an->checks[i].decision.outcome, policy))
+			return HB_DB_FAIL;
+	return HB_DB_PASS;
 }
 
 /* Names the checks behind a nonconforming or incomplete verdict. */
@@ -221,16 +253,20 @@ static void verdict_note(const hb_analysis_summary *an, char *buf, size_t cap)
 		return;
 	if (an->overall == HB_OVERALL_INCOMPLETE)
 		len += (size_t)snprintf(buf + len, cap - len, "incomplete, counted nonconforming:");
+	if (an->overall == HB_OVERALL_CONDITIONAL)
+		len += (size_t)snprintf(buf + len, cap - len, "conditional:");
 	if (an->n_checks == 0 && len < cap)
 		snprintf(buf + len, cap - len, " no check could be made%s%s", an->message[0] ? ": " : "", an->message);
 	for (size_t i = 0; i < an->n_checks && len < cap; i++) {
 		const hb_analysis_check *k = &an->checks[i];
-		if (k->check.outcome == HB_OUTCOME_PASS)
+		if (k->decision.outcome == HB_DECISION_PASS)
 			continue;
 		char mv[32];
-		if (k->check.outcome == HB_OUTCOME_FAIL)
-			len += (size_t)snprintf(buf + len, cap - len, "%s%s fail (%s)", len ? ", " : "", k->name,
-						hb_format_si(mv, sizeof mv, k->check.measured, k->unit, 4));
+		if (k->decision.outcome != HB_DECISION_NOT_TESTED)
+			len += (size_t)snprintf(buf + len, cap - len, "%s%s %s (%s, %s rule)", len ? ", " : "", k->name,
+						hb_decision_outcome_name(k->decision.outcome),
+						hb_format_si(mv, sizeof mv, k->check.measured, k->unit, 4),
+						hb_decision_rule_name(k->decision.rule));
 		else
 			len += (size_t)snprintf(buf + len, cap - len, "%s%s not tested", len ? " " : "", k->name);
 	}
@@ -375,7 +411,7 @@ static unit_end measure_unit(run_state *st, int sequence, const char *serial, hb
 		u.sweep_id = sweep_id;
 		u.l0_h = an->bias.modelfree.L0;
 		u.overall = an->overall;
-		u.outcome = an->overall == HB_OVERALL_PASS ? HB_DB_PASS : HB_DB_FAIL;
+		u.outcome = unit_outcome(an, cfg->conditional_policy, &u.conditional);
 		verdict_note(an, u.note, sizeof u.note);
 		*unit = u;
 		return record(st, &u) == HB_OK ? UNIT_RECORDED : UNIT_ERROR;
@@ -398,6 +434,10 @@ static void print_decision(const run_state *st)
 			t->nonconforming, t->tested, r->plan.ac);
 	if (t->skipped)
 		fprintf(o, "  %d unit(s) skipped as not testable and replaced by the next drawn\n", t->skipped);
+	if (t->conditional)
+		fprintf(o, "  %d unit(s) conditional (policy '%s'): %d counted nonconforming, %d conforming\n", t->conditional,
+			hb_conditional_policy_name(r->conditional_policy), t->conditional_nonconforming,
+			t->conditional - t->conditional_nonconforming);
 }
 
 int hb_inspect_run(const hb_inspect_config *cfg, const hb_inspect_callbacks *cb, hb_inspect_result *out)
@@ -415,6 +455,7 @@ int hb_inspect_run(const hb_inspect_config *cfg, const hb_inspect_callbacks *cb,
 		snprintf(out->message, sizeof out->message, "%s", err);
 		return HB_ERR_ARG;
 	}
+	out->conditional_policy = cfg->conditional_policy;
 	run_state st = { cfg, cb, out, { 0 }, 0,
 			 cfg->bench_failures_to_pause > 0 ? cfg->bench_failures_to_pause : HB_INSPECT_BENCH_FAILURES_TO_PAUSE };
 	hb_analysis_summary *an = calloc(1, sizeof *an);
@@ -660,6 +701,9 @@ json_t *hb_inspect_lot_json(hb_db *db, int64_t lot_id, const hb_inspect_result *
 	json_object_set_new(j, "tested", json_integer(r->tally.tested));
 	json_object_set_new(j, "nonconforming", json_integer(r->tally.nonconforming));
 	json_object_set_new(j, "skipped", json_integer(r->tally.skipped));
+	json_object_set_new(j, "conditional", json_integer(r->tally.conditional));
+	json_object_set_new(j, "conditional_nonconforming", json_integer(r->tally.conditional_nonconforming));
+	json_object_set_new(j, "conditional_policy", json_string(hb_conditional_policy_name(r->conditional_policy)));
 	json_object_set_new(j, "next_sequence", json_integer(r->tally.next_sequence));
 	if (r->end == HB_INSPECT_PAUSED && r->message[0]) {
 		json_object_set_new(j, "paused", json_string(r->message));
@@ -679,6 +723,7 @@ json_t *hb_inspect_lot_json(hb_db *db, int64_t lot_id, const hb_inspect_result *
 			json_object_set_new(u, "sequence", json_integer(recs[i].sequence));
 			json_object_set_new(u, "serial", json_string(recs[i].serial));
 			json_object_set_new(u, "outcome", json_string(hb_db_outcome_name(recs[i].outcome)));
+			json_object_set_new(u, "conditional", json_boolean(recs[i].conditional));
 			json_object_set_new(u, "sweep_id", recs[i].sweep_id ? json_integer(recs[i].sweep_id) : json_null());
 			double l0 = NAN;
 			if (recs[i].sweep_id && hb_db_fit_get_latest(db, recs[i].sweep_id, NULL, fit) == HB_OK)

@@ -54,6 +54,9 @@ typedef struct hb_inspect_config {
 	hb_inspect_part_policy part_fault;
 	int bench_failures_to_pause;   /* 0 = HB_INSPECT_BENCH_FAILURES_TO_PAUSE */
 	bool resume_only;              /* refuse a lot that has not been begun (a mistyped lot code) */
+	/* How a unit with a conditional outcome (the non-binary decision rule)
+	 * counts; the plan printout states it. Default: nonconforming. */
+	hb_conditional_policy conditional_policy;
 } hb_inspect_config;
 
 /* One sample position as it was recorded (or would have been). */
@@ -66,12 +69,15 @@ typedef struct hb_inspect_unit {
 	hb_overall overall;            /* of the part's checks */
 	hb_sweep_cause cause;          /* HB_CAUSE_PART: the part could not be measured */
 	char note[HB_DB_TEXT_LEN];
+	bool conditional;              /* a check came out conditional; outcome is how the policy counted it */
 } hb_inspect_unit;
 
 typedef struct hb_inspect_tally {
 	int tested;                    /* pass + fail */
 	int nonconforming;
 	int skipped;
+	int conditional;               /* of the tested, units with a conditional outcome (counted by the policy) */
+	int conditional_nonconforming; /* of those, counted nonconforming */
 	int next_sequence;
 } hb_inspect_tally;
 
@@ -121,6 +127,7 @@ typedef struct hb_inspect_result {
 	int pause_sequence;            /* the position a resumed run measures first (0 = none) */
 	char pause_serial[HB_DB_ID_LEN]; /* the unit it measures there, when known */
 	bool current_may_flow;         /* a sweep lost the supply: see hb_session_warn_current_may_flow */
+	hb_conditional_policy conditional_policy; /* the policy the run counted conditional units by */
 	char message[320];             /* why it paused or failed */
 } hb_inspect_result;
 

@@ -530,6 +530,8 @@ const char *hb_overall_name(hb_overall overall)
 		return "fail";
 	case HB_OVERALL_INCOMPLETE:
 		return "incomplete";
+	case HB_OVERALL_CONDITIONAL:
+		return "conditional";
 	}
 	return "?";
 }

@@ -124,6 +124,8 @@ typedef enum hb_overall {
 	HB_OVERALL_PASS,       /* every check tested and passed */
 	HB_OVERALL_FAIL,       /* at least one check failed */
 	HB_OVERALL_INCOMPLETE, /* nothing failed, but something was not tested */
+	HB_OVERALL_CONDITIONAL, /* every check tested, none failed outright, at least one conditional
+				 * (the non-binary decision rule, decision.h): a lot counts it by its policy */
 } hb_overall;
 
 typedef struct hb_check {
@@ -151,6 +153,6 @@ hb_check hb_verdict_max(double measured, double max);
  * are no checks at all), else pass. */
 hb_overall hb_verdict_overall(const hb_check *checks, size_t n);
 const char *hb_outcome_name(hb_outcome outcome);  /* "pass", "fail", "not-tested" */
-const char *hb_overall_name(hb_overall overall);  /* "pass", "fail", "incomplete" */
+const char *hb_overall_name(hb_overall overall);  /* "pass", "fail", "incomplete", "conditional" */
 
 #endif

@@ -25,6 +25,7 @@ void rpt_sweep_data_free(sweep_data *d)
 {
 	hb_db_points_free(d->pts);
 	hb_db_verdicts_free(d->verdicts);
+	hb_db_fit_uncs_free(d->unc);
 	free(d->fit);
 	memset(d, 0, sizeof *d);
 }
@@ -57,6 +58,11 @@ int rpt_load_sweep(hb_db *db, int64_t id, sweep_data *d, char *err, size_t errle
 	rc = hb_db_verdict_list(db, id, &d->verdicts, &d->nv);
 	if (rc != HB_OK)
 		goto db_error;
+	if (d->have_fit) {
+		rc = hb_db_fit_unc_list(db, d->fit->id, &d->unc, &d->nunc);
+		if (rc != HB_OK)
+			goto db_error;
+	}
 	return HB_OK;
 db_error:
 	hb_set_err(err, errlen, "sweep %lld: %s", (long long)id, hb_db_errmsg(db));
@@ -163,14 +169,17 @@ void rpt_part_section(hb_html *h, const hb_db_part *p)
 
 static const char *overall_of(const hb_db_verdict *v, size_t n)
 {
-	bool all_pass = n > 0;
+	bool untested = n == 0, conditional = false;
 	for (size_t i = 0; i < n; i++) {
 		if (v[i].outcome == HB_DB_FAIL)
 			return "fail";
-		if (v[i].outcome != HB_DB_PASS)
-			all_pass = false;
+		if (v[i].outcome == HB_DB_CONDITIONAL_PASS || v[i].outcome == HB_DB_CONDITIONAL_FAIL)
+			conditional = true;
+		else if (v[i].outcome != HB_DB_PASS)
+			untested = true;
 	}
-	return all_pass ? "pass" : "incomplete";
+	/* as the analysis decides it (src/quality/analysis.c) */
+	return untested ? "incomplete" : conditional ? "conditional" : "pass";
 }
 
 static const char *check_unit(const char *check)
@@ -193,18 +202,50 @@ void rpt_verdict_section(hb_html *h, const sweep_data *d)
 	}
 	snprintf(line, sizeof line, "Unit %s, sweep %lld, overall:", rpt_or_dash(d->sweep.serial), (long long)d->sweep.id);
 	hb_html_verdict(h, line, overall_of(d->verdicts, d->nv));
-	static const char *const head[] = { "Check", "Result", "Measured", "Lower limit", "Upper limit", "Margin",
-					    "Basis" };
-	hb_html_table_begin(h, "Margin: distance to the nearer limit as a fraction of that limit; negative = outside.",
-			    head, 7);
+	/* every rule in force is stated in words (ILAC-G8:2019, ISO/IEC 17025 7.8.6) */
+	for (size_t i = 0; i < d->nv; i++) {
+		bool seen = false;
+		for (size_t j = 0; j < i; j++)
+			seen |= strcmp(d->verdicts[j].decision_rule, d->verdicts[i].decision_rule) == 0;
+		hb_decision_rule rule;
+		if (seen || hb_decision_rule_parse(d->verdicts[i].decision_rule, &rule) != HB_OK)
+			continue;
+		char stmt[400];
+		if (rule == HB_DECISION_SIMPLE)
+			snprintf(stmt, sizeof stmt, "Decision rule: %s.", hb_decision_rule_statement(rule));
+		else
+			snprintf(stmt, sizeof stmt, "Decision rule: %s (r = %g).", hb_decision_rule_statement(rule),
+				 isfinite(d->verdicts[i].guard_r) ? d->verdicts[i].guard_r : 1);
+		hb_html_paragraph(h, stmt);
+	}
+	static const char *const head[] = { "Check", "Result", "Rule", "Measured", "U (k)", "Lower limit", "Upper limit",
+					    "Acceptance limits", "P(false accept)", "Margin", "Basis" };
+	hb_html_table_begin(h, "U: expanded uncertainty of the measured value with its coverage factor (95.45 %). "
+			       "Acceptance limits: what the rule made of the tolerance limits. Margin: distance to the "
+			       "nearer limit as a fraction of that limit; negative = outside.",
+			    head, 11);
 	for (size_t i = 0; i < d->nv; i++) {
 		const hb_db_verdict *v = &d->verdicts[i];
 		const char *u = check_unit(v->check_name);
-		char m[40], lo[40], hi[40], mg[24];
-		const char *cells[7] = { v->check_name, hb_db_outcome_name(v->outcome), rpt_si(m, sizeof m, v->measured, u, 5),
-					 rpt_si(lo, sizeof lo, v->limit_low, u, 5), rpt_si(hi, sizeof hi, v->limit_high, u, 5),
-					 rpt_pct(mg, sizeof mg, v->margin), v->note };
-		hb_html_table_row_class(h, hb_db_outcome_name(v->outcome), cells, 7);
+		char m[40], lo[40], hi[40], mg[24], uu[40], uk[64], al[40], ah[40], acc[96], pfa[24];
+		if (isfinite(v->expanded_u))
+			snprintf(uk, sizeof uk, "%s (k = %.2f)", rpt_si(uu, sizeof uu, v->expanded_u, u, 3), v->coverage_k);
+		else
+			snprintf(uk, sizeof uk, "-");
+		if (isfinite(v->accept_low) || isfinite(v->accept_high))
+			snprintf(acc, sizeof acc, "%s ... %s", rpt_si(al, sizeof al, v->accept_low, u, 5),
+				 rpt_si(ah, sizeof ah, v->accept_high, u, 5));
+		else
+			snprintf(acc, sizeof acc, "-");
+		if (isfinite(v->p_false_accept) && strcmp(v->decision_rule, "guarded") == 0)
+			snprintf(pfa, sizeof pfa, "%.2g %%", v->p_false_accept * 100);
+		else
+			snprintf(pfa, sizeof pfa, "-");
+		const char *cells[11] = { v->check_name, hb_db_outcome_name(v->outcome), v->decision_rule,
+					  rpt_si(m, sizeof m, v->measured, u, 5), uk,
+					  rpt_si(lo, sizeof lo, v->limit_low, u, 5), rpt_si(hi, sizeof hi, v->limit_high, u, 5),
+					  acc, pfa, rpt_pct(mg, sizeof mg, v->margin), v->note };
+		hb_html_table_row_class(h, hb_db_outcome_name(v->outcome), cells, 11);
 	}
 	hb_html_table_end(h);
 	hb_html_section_end(h);
@@ -358,11 +399,13 @@ void rpt_fit_section(hb_html *h, const sweep_data *d)
 	else if (d->sweep.kind == HB_DB_SWEEP_BIAS)
 		hb_html_paragraph(h, "No winding capacitance was known for this unit: the drop currents come from the "
 				     "readings as they are (cp_corrected: false).");
-	static const char *const head[] = { "Value", "Meaning", "Result", "Standard uncertainty", "Relative" };
+	static const char *const head[] = { "Value", "Meaning", "Result", "Standard uncertainty (fit)", "Relative",
+					    "Expanded uncertainty U (k)" };
 	hb_html_table_begin(h,
-			    "Uncertainties are one standard deviation from the fit covariance (k = 1). A value beyond "
-			    "the measured bias range is not given as a number.",
-			    head, 5);
+			    "Standard uncertainty: one standard deviation from the fit covariance (k = 1, Type A only). "
+			    "U: the expanded uncertainty of the whole budget (appendix) with its coverage factor for "
+			    "95.45 %. A value beyond the measured bias range is not given as a number.",
+			    head, 6);
 	for (size_t i = 0; i < f->n_values; i++) {
 		const hb_db_fit_value *v = &f->values[i];
 		char meaning[160], val[128], se[96], rel[24], why[96];
@@ -392,8 +435,14 @@ void rpt_fit_section(hb_html *h, const sweep_data *d)
 			snprintf(mbuf, sizeof mbuf, "%s [model misfit: residuals %.1f x the reading noise]", mean, ratio);
 			mean = mbuf;
 		}
-		const char *cells[5] = { v->name, mean, val, se, rel };
-		hb_html_table_row(h, cells, 5);
+		char ub[80] = "-";
+		for (size_t q = 0; q < d->nunc; q++)
+			if (strcmp(d->unc[q].name, v->name) == 0 && isfinite(d->unc[q].U)) {
+				char uu[40];
+				snprintf(ub, sizeof ub, "%s (k = %.2f)", rpt_si(uu, sizeof uu, d->unc[q].U, v->unit, 3), d->unc[q].k);
+			}
+		const char *cells[6] = { v->name, mean, val, se, rel, ub };
+		hb_html_table_row(h, cells, 6);
 	}
 	hb_html_table_end(h);
 	hb_html_section_end(h);
@@ -538,4 +587,49 @@ void rpt_trace_paragraph(hb_html *h, hb_db *db, const char *what)
 		 "the store; re-run 'henrybench show SWEEP_ID' to see the same records.",
 		 what, rpt_or_dash(hb_db_path(db)), now, HB_VERSION, HB_FIT_CODE_VERSION);
 	hb_html_paragraph(h, line);
+}
+
+void rpt_budget_section(hb_html *h, const sweep_data *d)
+{
+	if (d->nunc == 0)
+		return;
+	hb_html_section_begin(h, "Appendix: uncertainty budgets");
+	hb_html_paragraph(h, "Each quantity's GUM budget (JCGM 100:2008): input, its value and standard uncertainty "
+			     "u(x), sensitivity coefficient c, contribution |c| u(x), and where u(x) comes from; then the "
+			     "combined standard uncertainty u_c, the effective degrees of freedom (Welch-Satterthwaite), "
+			     "the coverage factor k for 95.45 % and U = k u_c. See docs/uncertainty.md.");
+	static const char *const head[] = { "Input", "Type", "Value", "u(x)", "c", "Contribution", "Source" };
+	for (size_t q = 0; q < d->nunc; q++) {
+		const hb_db_fit_unc *u = &d->unc[q];
+		char cap[400], dof[24];
+		if (isfinite(u->dof))
+			snprintf(dof, sizeof dof, "%.1f", u->dof);
+		else
+			snprintf(dof, sizeof dof, "infinite");
+		snprintf(cap, sizeof cap, "%s = %.7g: u_c = %.3g, nu_eff = %s, k = %.3f, U = %.3g%s%s", u->name, u->value,
+			 u->u_c, dof, u->k, u->U, u->note[0] ? "; " : "", u->note);
+		hb_html_table_begin(h, cap, head, 7);
+		json_error_t err;
+		json_t *a = json_loads(u->budget, 0, &err);
+		for (size_t i = 0; json_is_array(a) && i < json_array_size(a); i++) {
+			json_t *o = json_array_get(a, i);
+			char c[4][32];
+			const char *keys[4] = { "value", "u", "c", "contribution" };
+			for (int k = 0; k < 4; k++) {
+				json_t *x = json_object_get(o, keys[k]);
+				if (json_is_number(x))
+					snprintf(c[k], sizeof c[k], "%.4g", json_number_value(x));
+				else
+					snprintf(c[k], sizeof c[k], "-");
+			}
+			const char *name = json_string_value(json_object_get(o, "input"));
+			const char *type = json_string_value(json_object_get(o, "type"));
+			const char *src = json_string_value(json_object_get(o, "source"));
+			const char *cells[7] = { name ? name : "?", type ? type : "?", c[0], c[1], c[2], c[3], src ? src : "" };
+			hb_html_table_row(h, cells, 7);
+		}
+		json_decref(a);
+		hb_html_table_end(h);
+	}
+	hb_html_section_end(h);
 }

@@ -21,6 +21,8 @@ typedef struct sweep_data {
 	hb_db_fit *fit;
 	hb_db_verdict *verdicts;
 	size_t nv;
+	hb_db_fit_unc *unc;     /* the fit's GUM budgets (empty for a fit stored before them) */
+	size_t nunc;
 } sweep_data;
 
 int rpt_load_sweep(hb_db *db, int64_t id, sweep_data *d, char *err, size_t errlen);
@@ -32,6 +34,8 @@ void rpt_fit_section(hb_html *h, const sweep_data *d);
 void rpt_measurement_section(hb_html *h, const hb_db_sweep *s);
 void rpt_points_section(hb_html *h, const sweep_data *d);
 void rpt_verdict_section(hb_html *h, const sweep_data *d);
+/* Appendix: the uncertainty budget of every budgeted value. */
+void rpt_budget_section(hb_html *h, const sweep_data *d);
 void rpt_figure(hb_html *h, int rc, char *svg, const char *caption, const char *err);
 void rpt_trace_paragraph(hb_html *h, hb_db *db, const char *what);
 const char *rpt_or_dash(const char *s);

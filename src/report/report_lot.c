@@ -86,9 +86,10 @@ void rpt_stats_row(hb_html *h, const char *name, const double *vals, size_t n, d
 	else if (hb_capability(&st, lsl, usl, &cp, &cpk) != HB_OK)
 		why = st.n < 2 ? "needs 2 or more units" : "no spread";
 	snprintf(c[1], sizeof c[1], "%zu", st.n);
-	char cpb[24], cpkb[24];
+	char cpb[24], cpkb[96];
 	snprintf(cpb, sizeof cpb, isfinite(cp) ? "%.2f" : "-", cp);
-	snprintf(cpkb, sizeof cpkb, isfinite(cpk) ? "%.2f" : "-", cpk);
+	/* Cpk with its Bissell interval and the small-sample warning, never "-0.00" */
+	hb_cpk_text(cpk, st.n, cpkb, sizeof cpkb);
 	char limits[96], lo[40], hi[40];
 	snprintf(limits, sizeof limits, "%s .. %s%s%s", rpt_si(lo, sizeof lo, lsl, unit, 4), rpt_si(hi, sizeof hi, usl, unit, 4),
 		 *why ? "; " : "", why);
@@ -98,7 +99,8 @@ void rpt_stats_row(hb_html *h, const char *name, const double *vals, size_t n, d
 	hb_html_table_row(h, cells, 9);
 }
 
-const char *const rpt_stats_head[] = { "Quantity", "n", "Mean", "Std. deviation (n-1)", "Min", "Max", "Cp", "Cpk",
+const char *const rpt_stats_head[] = { "Quantity", "n", "Mean", "Std. deviation (n-1)", "Min", "Max", "Cp",
+					  "Cpk (95 % interval)",
 					  "Limits" };
 
 int hb_report_lot(hb_db *db, const char *part_number, const char *lot_code, FILE *out, char *err, size_t errlen)
@@ -158,7 +160,7 @@ int hb_report_lot(hb_db *db, const char *part_number, const char *lot_code, FILE
 	hb_html_kv_row(h, "Sampling plan", line);
 	hb_html_kv_row(h, "Opened", rpt_or_dash(lot.created));
 	hb_html_kv_row(h, "Decided", rpt_or_dash(lot.decided));
-	int passed = 0, failed = 0, skipped = 0;
+	int passed = 0, failed = 0, skipped = 0, cond = 0, cond_nc = 0;
 	for (size_t i = 0; i < nr; i++) {
 		if (recs[i].outcome == HB_DB_PASS)
 			passed++;
@@ -166,9 +168,14 @@ int hb_report_lot(hb_db *db, const char *part_number, const char *lot_code, FILE
 			failed++;
 		else if (recs[i].outcome == HB_DB_SKIPPED)
 			skipped++;
+		if (recs[i].conditional && recs[i].outcome != HB_DB_SKIPPED) {
+			cond++;
+			cond_nc += recs[i].outcome == HB_DB_FAIL;
+		}
 	}
-	snprintf(line, sizeof line, "%d tested: %d conforming, %d nonconforming; %d skipped", passed + failed, passed,
-		 failed, skipped);
+	/* conditional units (a rule with a guard band) shown apart: the plan's policy counted them */
+	snprintf(line, sizeof line, "%d tested: %d conforming, %d nonconforming; %d skipped; %d conditional (%d of them "
+		 "counted nonconforming)", passed + failed, passed, failed, skipped, cond, cond_nc);
 	hb_html_kv_row(h, "Tally", line);
 	hb_html_kv_end(h);
 	hb_html_section_end(h);
@@ -215,10 +222,12 @@ int hb_report_lot(hb_db *db, const char *part_number, const char *lot_code, FILE
 					dcrs = hb_db_outcome_name(x->outcome);
 			}
 		}
-		const char *result = r->outcome == HB_DB_PASS ? "pass" : r->outcome == HB_DB_FAIL ? "fail" : "skipped";
+		const char *result = r->outcome == HB_DB_PASS ? (r->conditional ? "pass (conditional)" : "pass") :
+				     r->outcome == HB_DB_FAIL ? (r->conditional ? "fail (conditional)" : "fail") : "skipped";
 		const char *cells[11] = { seq, rpt_or_dash(r->serial), sw, fi, l0s, mg, lsat, dcrs, result, rpt_or_dash(r->at_iso),
 					  rpt_or_dash(r->note) };
-		hb_html_table_row_class(h, result, cells, 11);
+		hb_html_table_row_class(h, r->outcome == HB_DB_PASS ? "pass" : r->outcome == HB_DB_FAIL ? "fail" : "skipped",
+					cells, 11);
 		hb_db_verdicts_free(v);
 	}
 	hb_html_table_end(h);
@@ -228,7 +237,8 @@ int hb_report_lot(hb_db *db, const char *part_number, const char *lot_code, FILE
 	double lsl = isfinite(part.nominal_h) && isfinite(part.tolerance) ? part.nominal_h * (1 - part.tolerance) : NAN;
 	double usl = isfinite(part.nominal_h) && isfinite(part.tolerance) ? part.nominal_h * (1 + part.tolerance) : NAN;
 	hb_html_table_begin(h, "Cp = (USL - LSL)/(6 s), Cpk = min(USL - mean, mean - LSL)/(3 s), s the sample standard "
-			    "deviation (ISO 22514-2); a handful of units gives only a rough estimate.",
+			    "deviation (ISO 22514-2); Cpk with its two-sided 95 % interval, Bissell's normal approximation "
+			    "(Applied Statistics 39, 1990); below 30 units the interval is wide and the approximation rough.",
 			    rpt_stats_head, 9);
 	rpt_stats_row(h, "L0 (zero-bias)", l0, nl, lsl, usl, "H");
 	rpt_stats_row(h, "DCR (two-wire)", dcr, ndcr, NAN, part.dcr_max_ohm, "ohm");

@@ -81,7 +81,8 @@ int hb_report_part(hb_db *db, const char *part_number, FILE *out, char *err, siz
 	double lsl = isfinite(part.nominal_h) && isfinite(part.tolerance) ? part.nominal_h * (1 - part.tolerance) : NAN;
 	double usl = isfinite(part.nominal_h) && isfinite(part.tolerance) ? part.nominal_h * (1 + part.tolerance) : NAN;
 	hb_html_section_begin(h, "Statistics per lot");
-	hb_html_table_begin(h, "L0 against the tolerance; Cp and Cpk with the sample standard deviation (ISO 22514-2).",
+	hb_html_table_begin(h, "L0 against the tolerance; Cp and Cpk with the sample standard deviation (ISO 22514-2); "
+			    "Cpk's two-sided 95 % interval by Bissell's normal approximation (1990), rough below 30 units.",
 			    rpt_stats_head, 9);
 	/* Lots in order of first appearance; rows of one lot gathered into sel. */
 	for (size_t i = 0; i < n; i++) {
