@@ -85,7 +85,7 @@ static int take_model(const hb_opt *o, const char *text, void *field)
 
 typedef struct fit_args {
 	hb_analysis_options opt;
-	bool no_store, json;
+	bool no_store, json, budget;
 } fit_args;
 
 static const char *const model_words[] = { "knee", "core", "all", NULL };
@@ -105,22 +105,58 @@ static const hb_opt fit_table[] = {
 	{ .name = "no-store", .kind = HB_OPT_FLAG, .off = offsetof(fit_args, no_store),
 	  .help = "fit and print, store nothing" },
 	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(fit_args, json), .help = "the fit as JSON on stdout" },
+	{ .name = "budget", .kind = HB_OPT_FLAG, .off = offsetof(fit_args, budget),
+	  .help = "after the fit, the stored uncertainty budget of each value (GUM; with --json it is in the values)" },
 	{ .name = NULL },
 };
 
 const hb_cmd_opts hb_opts_fit = {
 	.name = "fit",
 	.usage = "SWEEP_ID [--model knee|core|all] [--drop 10,20,30] [--fix NAME=VALUE]\n"
-		 "                      [--noise PCT] [--no-store] [--json]",
+		 "                      [--noise PCT] [--no-store] [--json] [--budget]",
 	.about = "Fits a stored sweep and stores the fit (model, parameters, standard errors, covariance,\n"
 		 "residuals, derived values, fit-code version) and the verdicts against the part's spec.\n",
 	.opts = fit_table,
 	.max_operands = -1,
 };
 
+/* The budget table of the sweep's newest fit, read back from the store so
+ * that it is what show, export and the report hold, not a fresh computation. */
+static int print_budget(hb_db *db, int64_t sweep_id, hb_db_sweep_kind kind)
+{
+	hb_db_fit *fit = calloc(1, sizeof *fit); /* too big for the stack: values and covariance */
+	if (!fit) {
+		hb_cli_error("out of memory");
+		return HB_ERR_NOMEM;
+	}
+	hb_db_fit_init(fit);
+	int rc = hb_db_fit_get_latest(db, sweep_id, NULL, fit);
+	if (rc != HB_OK) {
+		hb_cli_error("fit --budget: no stored fit of sweep %lld: %s", (long long)sweep_id, hb_db_errmsg(db));
+		free(fit);
+		return rc;
+	}
+	hb_db_fit_unc *list = NULL;
+	size_t n = 0;
+	rc = hb_db_fit_unc_list(db, fit->id, &list, &n);
+	if (rc != HB_OK) {
+		hb_cli_error("fit --budget: fit %lld: %s", (long long)fit->id, hb_db_errmsg(db));
+	} else {
+		printf("\nuncertainty budget of fit %lld (GUM, coverage 95.45 %%)\n", (long long)fit->id);
+		if (n == 0 && kind == HB_DB_SWEEP_FREQUENCY)
+			/* not an old fit to refit, as the generic message would say: none is computed */
+			printf("none: budgets are computed for bias sweeps only (docs/uncertainty.md)\n");
+		else
+			hb_analysis_print_budget(stdout, list, n);
+	}
+	hb_db_fit_uncs_free(list);
+	free(fit);
+	return rc;
+}
+
 int hb_cmd_fit(int argc, char **argv)
 {
-	fit_args a = { .no_store = false, .json = false };
+	fit_args a = { .no_store = false, .json = false, .budget = false };
 	hb_analysis_options_init(&a.opt);
 	hb_opts_result r;
 	if (hb_opts_parse(&hb_opts_fit, argc, argv, &a, &r) != HB_OK)
@@ -131,6 +167,11 @@ int hb_cmd_fit(int argc, char **argv)
 	if (a.no_store)
 		opt.store = false;
 	bool json = a.json;
+	if (a.budget && a.no_store) {
+		/* the table is read back from the store: nothing stored, nothing to print */
+		hb_cli_error("fit: --budget prints the stored budget; it cannot go with --no-store");
+		return HB_EXIT_USAGE;
+	}
 	if (r.first + 1 != argc) {
 		hb_cli_error("fit needs exactly one SWEEP_ID (try --help)");
 		return HB_EXIT_USAGE;
@@ -166,6 +207,9 @@ int hb_cmd_fit(int argc, char **argv)
 		hb_cli_error("fit of sweep %lld: %s", id, an->message[0] ? an->message : hb_status_name(rc));
 		goto out;
 	}
+	/* the JSON values already carry their budgets; text gets the table */
+	if (a.budget && !json && print_budget(db, (int64_t)id, an->kind) != HB_OK)
+		goto out;
 	exit_code = HB_EXIT_OK;
 out:
 	free(an);
