@@ -129,8 +129,11 @@ json_t *hb_json_supply_record(const hb_db_sweep *s);
 /* One point; its reading keys follow s->measured_pair. */
 json_t *hb_json_point(const hb_db_sweep *s, const hb_db_point *p);
 /* A stored fit with its values: each value an object of value, std_err,
- * unit and, when they apply, reason and misfit (docs/fitting.md). */
-json_t *hb_json_fit(const hb_db_fit *f);
+ * unit and, when they apply, reason and misfit (docs/fitting.md); a value
+ * with a stored uncertainty (unc: hb_db_fit_unc_list of the fit, may be
+ * NULL) also gets u_c, k, U, dof, coverage and its budget (docs/uncertainty.md). */
+json_t *hb_json_fit(const hb_db_fit *f, const hb_db_fit_unc *unc, size_t n_unc);
+/* One stored verdict with its decision rule, U, k and acceptance limits. */
 json_t *hb_json_verdict(const hb_db_verdict *v);
 /* The whole stored sweep: hb_json_sweep with "points", "fit" (the latest,
  * or null) and "verdicts". `show --json` prints it; `export --json` holds

@@ -179,7 +179,34 @@ json_t *hb_json_point(const hb_db_sweep *s, const hb_db_point *p)
 	return q;
 }
 
-json_t *hb_json_fit(const hb_db_fit *f)
+/* The stored uncertainty row that belongs to a fit value. The budgets are
+ * named after the quantities the analysis computed; the history's short
+ * names ("mu_e", "gap") and the referred DCR carry the same number under
+ * another name. A row is taken only when its value is the value's own, so
+ * the measured DCR never shows the budget of the one referred to 20 C. */
+static const hb_db_fit_unc *unc_of(const hb_db_fit_value *fv, const hb_db_fit_unc *unc, size_t n)
+{
+	const char *names[3] = { fv->name, NULL, NULL };
+	if (strcmp(fv->name, HB_DB_FV_MU_E) == 0) {
+		names[1] = "core.mu_e";
+	} else if (strcmp(fv->name, HB_DB_FV_GAP) == 0) {
+		names[1] = "core.gap_physical";
+		names[2] = "core.gap"; /* no physical gap: the effective one stood in */
+	} else if (strcmp(fv->name, "DCR_20C") == 0) {
+		names[1] = "DCR";
+	}
+	for (size_t k = 0; k < 3 && names[k]; k++)
+		for (size_t i = 0; i < n; i++) {
+			if (strcmp(unc[i].name, names[k]) != 0)
+				continue;
+			double a = unc[i].value, b = fv->value;
+			if (a == b || fabs(a - b) <= 1e-9 * fmax(fabs(a), fabs(b)))
+				return &unc[i];
+		}
+	return NULL;
+}
+
+json_t *hb_json_fit(const hb_db_fit *f, const hb_db_fit_unc *unc, size_t n_unc)
 {
 	json_t *o = json_object();
 	json_object_set_new(o, "id", json_integer(f->id));
@@ -200,9 +227,12 @@ json_t *hb_json_fit(const hb_db_fit *f)
 		const hb_db_fit_value *fv = &f->values[i];
 		char why[96];
 		const char *reason = hb_analysis_value_reason(f, fv, why, sizeof why);
-		json_object_set_new(vals, fv->name,
-				    hb_analysis_value_object(fv->value, fv->std_error, fv->unit, reason,
-							     hb_analysis_value_misfit(f, fv->name, NULL)));
+		json_t *vo = hb_analysis_value_object(fv->value, fv->std_error, fv->unit, reason,
+						      hb_analysis_value_misfit(f, fv->name, NULL));
+		const hb_db_fit_unc *u = unc ? unc_of(fv, unc, n_unc) : NULL;
+		if (u)
+			hb_budget_add_stored_json(vo, u);
+		json_object_set_new(vals, fv->name, vo);
 	}
 	json_object_set_new(o, "values", vals);
 	return o;
@@ -243,7 +273,23 @@ json_t *hb_json_sweep_record(hb_db *db, const hb_db_sweep *s, char *err, size_t 
 		json_array_append_new(arr, hb_json_point(s, &pts[i]));
 	json_object_set_new(o, "points", arr);
 	hb_db_fit_init(fit);
-	json_object_set_new(o, "fit", hb_db_fit_get_latest(db, s->id, NULL, fit) == HB_OK ? hb_json_fit(fit) : json_null());
+	json_t *jf = NULL;
+	if (hb_db_fit_get_latest(db, s->id, NULL, fit) == HB_OK) {
+		hb_db_fit_unc *unc = NULL;
+		size_t nu = 0;
+		if (hb_db_fit_unc_list(db, fit->id, &unc, &nu) != HB_OK) {
+			/* a record without its uncertainty would read as one that has none */
+			hb_set_err(err, errlen, "fit %lld: %s", (long long)fit->id, hb_db_errmsg(db));
+			json_decref(o);
+			hb_db_points_free(pts);
+			hb_db_verdicts_free(v);
+			free(fit);
+			return NULL;
+		}
+		jf = hb_json_fit(fit, unc, nu);
+		hb_db_fit_uncs_free(unc);
+	}
+	json_object_set_new(o, "fit", jf ? jf : json_null());
 	arr = json_array();
 	for (size_t i = 0; i < nv; i++)
 		json_array_append_new(arr, hb_json_verdict(&v[i]));
