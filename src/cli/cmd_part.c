@@ -11,13 +11,14 @@
 #include "../../db/hb_db.h"
 #include "../../fit/hb_fit.h"
 #include "../io/io.h"
+#include "../quality/quality.h"
 #include "cli.h"
 
 /* Which fields an edit gives, so the others stay as stored. */
 typedef struct part_edit {
 	hb_db_part p;
 	bool desc, maker, nominal, tol, freq, level, sat_current, sat_drop, rated, dcr, turns, core, ae, le,
-		window, mu_i, bsat;
+		window, mu_i, bsat, rule, guard_r;
 	bool json;
 } part_edit;
 
@@ -102,6 +103,39 @@ static int take_maker(const hb_opt *o, const char *text, void *field)
 	return HB_OK;
 }
 
+static const char *const rule_words[] = { "simple", "guarded", "non-binary", NULL };
+
+/* The part's decision rule (ILAC-G8:2019), stored by its canonical name so
+ * that "nonbinary" and "non-binary" are one rule in the store. */
+static int take_rule(const hb_opt *o, const char *text, void *field)
+{
+	hb_db_part *p = field;
+	hb_decision_rule rule;
+	if (hb_decision_rule_parse(text, &rule) != HB_OK) {
+		hb_cli_error("--%s '%s' unknown: accepted simple, guarded or non-binary", o->name, text);
+		return HB_ERR_ARG;
+	}
+	snprintf(p->decision_rule, sizeof p->decision_rule, "%s", hb_decision_rule_name(rule));
+	return HB_OK;
+}
+
+/* Guard-band factor r of w = r U: above 0 (r = 0 would be simple acceptance
+ * under another name) and up to 3 (beyond, the band outgrows any tolerance
+ * a measurement with that U could be judged against). */
+#define GUARD_R_MAX 3.0
+static int take_guard_r(const hb_opt *o, const char *text, void *field)
+{
+	hb_db_part *p = field;
+	double r;
+	char err[256];
+	if (hb_parse_value(text, "", &r, err, sizeof err) != HB_OK || !(r > 0) || r > GUARD_R_MAX) {
+		hb_cli_error("--%s '%s': accepted a number above 0 up to %g, e.g. 1", o->name, text, GUARD_R_MAX);
+		return HB_ERR_ARG;
+	}
+	p->guard_r = r;
+	return HB_OK;
+}
+
 /* A spec that is one number in one field of hb_db_part: parsing and merging
  * it is the same code (merge() walks these entries). */
 #define PART_NUMBER(n, a, u, lo, hi, member, flag, text)                                                        \
@@ -133,6 +167,12 @@ static const hb_opt part_table[] = {
 	PART_NUMBER("window", "H", "m", 1e-5, 1, window_m, window, "winding window height, e.g. 9mm"),
 	PART_NUMBER("mu-i", "MU", "", 1, 1e6, mu_i, mu_i, "initial permeability of the material"),
 	PART_NUMBER("bsat", "B", "T", 1e-3, 10, bsat_t, bsat, "saturation flux density, e.g. 0.39T"),
+	{ .name = "decision-rule", .kind = HB_OPT_CUSTOM, .arg = "simple|guarded|non-binary", .words = rule_words,
+	  .parse = take_rule, .off = offsetof(part_edit, p), .given = HB_OPT_GIVEN(part_edit, rule),
+	  .help = "how a verdict uses U (ILAC-G8:2019); default: the station's, else simple" },
+	{ .name = "guard-r", .kind = HB_OPT_CUSTOM, .arg = "R", .parse = take_guard_r, .off = offsetof(part_edit, p),
+	  .given = HB_OPT_GIVEN(part_edit, guard_r),
+	  .help = "guard band w = R U of the guarded and non-binary rules, above 0 up to 3 (default 1)" },
 	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(part_edit, json),
 	  .help = "machine-readable output (list, show)" },
 	{ .name = NULL },
@@ -205,6 +245,10 @@ static void merge(hb_db_part *dst, const part_edit *e)
 	}
 	if (e->turns)
 		dst->turns = s->turns;
+	if (e->rule)
+		memcpy(dst->decision_rule, s->decision_rule, sizeof dst->decision_rule);
+	if (e->guard_r)
+		dst->guard_r = s->guard_r;
 	if (e->core) {
 		dst->toroid_od_m = s->toroid_od_m;
 		dst->toroid_id_m = s->toroid_id_m;
@@ -405,6 +449,14 @@ static int part_show(int argc, char **argv)
 		show_line("mu_i", a);
 	}
 	show_line("Bsat", hb_si_or_dash(a, sizeof a, p.bsat_t, "T"));
+	/* r is shown even with the simple rule: it is stored, and a later
+	 * --decision-rule guarded would take it */
+	snprintf(b, sizeof b, "%g", isfinite(p.guard_r) ? p.guard_r : 1.0);
+	if (p.decision_rule[0])
+		snprintf(c, sizeof c, "%s (r = %s)", p.decision_rule, b);
+	else
+		snprintf(c, sizeof c, "the station's default, else simple (r = %s)", b);
+	show_line("decision rule", c);
 	show_line("created", p.created);
 	show_line("updated", p.updated);
 	return HB_EXIT_OK;

@@ -75,6 +75,9 @@ json_t *hb_json_part(const hb_db_part *p)
 	}
 	json_object_set_new(o, "mu_i", hb_json_num(p->mu_i));
 	json_object_set_new(o, "bsat_T", hb_json_num(p->bsat_t));
+	/* "" = none stated: the station's default applies (null, not a rule name) */
+	json_object_set_new(o, "decision_rule", p->decision_rule[0] ? json_string(p->decision_rule) : json_null());
+	json_object_set_new(o, "guard_r", hb_json_num(p->guard_r));
 	json_object_set_new(o, "created", json_string(p->created));
 	json_object_set_new(o, "updated", json_string(p->updated));
 	return o;
