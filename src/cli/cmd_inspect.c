@@ -25,6 +25,7 @@ typedef struct inspect_args {
 	bool to_given;
 	bool autorun, yes, json, show_fit, resume;
 	hb_inspect_part_policy part_fault;
+	hb_conditional_policy conditional_policy;
 } inspect_args;
 
 /* Where the serial numbers come from, and the prompt's streams. */
@@ -73,6 +74,18 @@ static int match_part_fault(const char *text, int *code)
 
 static const char *const part_fault_words[] = { "nonconforming", "retest", NULL };
 
+/* The names decision.c gives the policies, so the plan and the option agree. */
+static int match_conditional_policy(const char *text, int *code)
+{
+	hb_conditional_policy policy;
+	if (hb_conditional_policy_parse(text, &policy) != HB_OK)
+		return HB_ERR_ARG;
+	*code = (int)policy;
+	return HB_OK;
+}
+
+static const char *const conditional_policy_words[] = { "nonconforming", "by-side", NULL };
+
 static const hb_opt inspect_table[] = {
 	{ .name = "part", .kind = HB_OPT_TEXT, .arg = "P", .off = offsetof(inspect_args, part),
 	  .help = "stored part (required)" },
@@ -100,6 +113,10 @@ static const hb_opt inspect_table[] = {
 	{ .name = "part-fault", .kind = HB_OPT_ENUM, .words = part_fault_words, .match = match_part_fault,
 	  .off = offsetof(inspect_args, part_fault),
 	  .help = "a unit the part keeps from being measured: nonconforming (default) or retest (see below)" },
+	{ .name = "conditional-policy", .kind = HB_OPT_ENUM, .words = conditional_policy_words,
+	  .match = match_conditional_policy, .off = offsetof(inspect_args, conditional_policy),
+	  .help = "how a conditional unit (non-binary rule) counts: nonconforming (default) or by-side "
+		  "(a conditional pass conforms)" },
 	{ .name = "resume", .kind = HB_OPT_FLAG, .off = offsetof(inspect_args, resume),
 	  .help = "continue a begun lot only (refuses a lot code never begun)" },
 	{ .name = "from", .kind = HB_OPT_VALUE, .arg = "A", .unit = "A", .min = 0, .max = 1000,
@@ -153,6 +170,7 @@ static int parse_args(int argc, char **argv, inspect_args *a)
 	a->lot_size = -1;
 	a->level = HB_LEVEL_II;
 	a->severity = HB_SEVERITY_NORMAL;
+	a->conditional_policy = HB_CONDITIONAL_NONCONFORMING; /* the consumer-safe reading */
 	hb_sweep_opts_init(&a->opts);
 	hb_opts_result r;
 	if (hb_opts_parse(&hb_opts_inspect, argc, argv, a, &r) != HB_OK)
@@ -457,6 +475,7 @@ int hb_cmd_inspect(int argc, char **argv)
 	cfg.progress_tty = isatty(fileno(info));
 	cfg.verbose_fit = a.show_fit;
 	cfg.part_fault = a.part_fault;
+	cfg.conditional_policy = a.conditional_policy;
 	cfg.resume_only = a.resume;
 	hb_inspect_callbacks cb = { .ctx = &src, .next_unit = next_unit, .sweep_failed = sweep_failed };
 	hb_inspect_result res;
