@@ -13,6 +13,7 @@
 
 #include "../../db/hb_db.h"
 #include "../io/io.h"
+#include "../quality/quality.h"
 #include "cli.h"
 
 /* "YYYY-MM-DD" or "YYYY-MM-DDTHH:MM[:SS][Z]", always UTC. */
@@ -201,9 +202,13 @@ static void print_text(const hb_db_sweep *s, const hb_db_point *pts, size_t n, c
 		printf("  ambient             %.1f degC\n", s->ambient_c);
 	if (s->note[0])
 		printf("  note                %s\n", s->note);
+	/* the accuracy the budgets took for this sweep, as recorded with it */
+	printf("  meter accuracy      %s\n", s->meter_accuracy[0] ? s->meter_accuracy : "not stated");
+	printf("  supply accuracy     %s\n", s->supply_accuracy[0] ? s->supply_accuracy : "not stated");
+	if (nv)
+		printf("  verdicts\n");
 	for (size_t i = 0; i < nv; i++)
-		printf("  check %-12s  %-10s measured %.6g, limits [%.6g, %.6g], margin %.3g\n", v[i].check_name,
-		       hb_db_outcome_name(v[i].outcome), v[i].measured, v[i].limit_low, v[i].limit_high, v[i].margin);
+		hb_analysis_print_stored_verdict(stdout, &v[i], hb_analysis_check_unit(v[i].check_name));
 	printf("\n%5s %-4s %12s %12s %12s %14s %14s %9s %6s\n", "seq", "dir", "bias_set_A", "bias_A", "freq_Hz",
 	       hb_io_reading_column(s->measured_pair, 0), hb_io_reading_column(s->measured_pair, 1), "t_s", "status");
 	for (size_t i = 0; i < n; i++) {

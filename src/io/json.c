@@ -243,15 +243,9 @@ json_t *hb_json_fit(const hb_db_fit *f, const hb_db_fit_unc *unc, size_t n_unc)
 
 json_t *hb_json_verdict(const hb_db_verdict *v)
 {
-	json_t *q = json_object();
-	json_object_set_new(q, "check", json_string(v->check_name));
-	json_object_set_new(q, "outcome", json_string(hb_db_outcome_name(v->outcome)));
-	json_object_set_new(q, "measured", hb_json_num(v->measured));
-	json_object_set_new(q, "limit_low", hb_json_num(v->limit_low));
-	json_object_set_new(q, "limit_high", hb_json_num(v->limit_high));
-	json_object_set_new(q, "margin", hb_json_num(v->margin));
-	json_object_set_new(q, "note", json_string(v->note));
-	return q;
+	/* the analysis's own shape of a stored verdict, so that fit --json, show
+	 * and export state the rule, U and the acceptance limits alike */
+	return hb_analysis_stored_verdict_json(v, hb_analysis_check_unit(v->check_name));
 }
 
 json_t *hb_json_sweep_record(hb_db *db, const hb_db_sweep *s, char *err, size_t errlen)

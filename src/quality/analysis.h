@@ -92,6 +92,9 @@ json_t *hb_analysis_check_json(const hb_analysis_check *k);
  * "ohm" or "A" as the check's. */
 void hb_analysis_print_stored_verdict(FILE *out, const hb_db_verdict *v, const char *unit);
 json_t *hb_analysis_stored_verdict_json(const hb_db_verdict *v, const char *unit);
+/* The unit of a stored check's values, which the store does not keep:
+ * "ohm" for DCR, "A" for a current check ("I..."), else "H". */
+const char *hb_analysis_check_unit(const char *check_name);
 /* The budget of the named quantity ("L0", "I_drop20", "core.gap", "DCR"), NULL if none. */
 const hb_budget *hb_analysis_budget(const hb_analysis_summary *summary, const char *name);
 /*

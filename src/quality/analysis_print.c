@@ -487,6 +487,15 @@ void hb_analysis_print_budget(FILE *out, const hb_db_fit_unc *list, size_t n)
 	}
 }
 
+const char *hb_analysis_check_unit(const char *check)
+{
+	if (strcmp(check, "DCR") == 0)
+		return "ohm";
+	if (strncmp(check, "I", 1) == 0)
+		return "A";
+	return "H";
+}
+
 void hb_analysis_print_stored_verdict(FILE *out, const hb_db_verdict *v, const char *unit)
 {
 	char mv[40], lo[40], hi[40], u[40], al[40], ah[40];

@@ -182,15 +182,6 @@ static const char *overall_of(const hb_db_verdict *v, size_t n)
 	return untested ? "incomplete" : conditional ? "conditional" : "pass";
 }
 
-static const char *check_unit(const char *check)
-{
-	if (strcmp(check, "DCR") == 0)
-		return "ohm";
-	if (strncmp(check, "I", 1) == 0)
-		return "A";
-	return "H";
-}
-
 void rpt_verdict_section(hb_html *h, const sweep_data *d)
 {
 	char line[160];
@@ -226,7 +217,7 @@ void rpt_verdict_section(hb_html *h, const sweep_data *d)
 			    head, 11);
 	for (size_t i = 0; i < d->nv; i++) {
 		const hb_db_verdict *v = &d->verdicts[i];
-		const char *u = check_unit(v->check_name);
+		const char *u = hb_analysis_check_unit(v->check_name);
 		char m[40], lo[40], hi[40], mg[24], uu[40], uk[64], al[40], ah[40], acc[96], pfa[24];
 		if (isfinite(v->expanded_u))
 			snprintf(uk, sizeof uk, "%s (k = %.2f)", rpt_si(uu, sizeof uu, v->expanded_u, u, 3), v->coverage_k);
