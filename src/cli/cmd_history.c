@@ -64,25 +64,30 @@ static void print_history_text(const hb_db_part *part, const hb_db_history_row *
 			snprintf(c, sizeof c, "-");
 		printf(" %-8s %-10s %s\n", c, hb_si_or_dash(d, sizeof d, r->gap_m, "m"), hb_db_outcome_name(r->verdict));
 	}
-	printf("\nper lot (L0; Cp/Cpk against nominal +- tolerance, ISO 22514-2 with the sample s):\n");
-	printf("%-14s %5s %5s %5s %-11s %-10s %-11s %-11s %6s %6s  %s\n", "lot", "units", "pass", "fail", "mean", "s", "min",
-	       "max", "Cp", "Cpk", "first measured");
+	printf("\nper lot (L0; Cp/Cpk against nominal +- tolerance, ISO 22514-2 with the sample s;\n"
+	       "Cpk with its 95 %% interval, Bissell 1990):\n");
+	printf("%-14s %5s %5s %5s %-11s %-10s %-11s %-11s %6s  %-20s  %s\n", "lot", "units", "pass", "fail", "mean", "s",
+	       "min", "max", "Cp", "first measured", "Cpk");
+	bool small = false;
 	for (size_t k = 0; k < s->n_lots; k++) {
 		const hb_history_lot *l = &s->lots[k];
+		char cpk[96];
 		printf("%-14s %5zu %5zu %5zu %-11s %-10s %-11s %-11s", l->lot_code[0] ? l->lot_code : "(no lot)", l->n_units,
 		       l->n_pass, l->n_fail, hb_si_or_dash(a, sizeof a, l->l0.mean, "H"),
 		       hb_si_or_dash(b, sizeof b, l->l0.stddev, "H"), hb_si_or_dash(c, sizeof c, l->l0.min, "H"),
 		       hb_si_or_dash(d, sizeof d, l->l0.max, "H"));
 		if (isfinite(l->cp))
-			printf(" %6.2f", l->cp);
+			printf(" %6.2f", hb_cpk_unsigned_zero(l->cp, 2));
 		else
 			printf(" %6s", "-");
-		if (isfinite(l->cpk))
-			printf(" %6.2f", l->cpk);
-		else
-			printf(" %6s", "-");
-		printf("  %s\n", l->first_iso);
+		/* the interval is long: last, so the columns before it stay aligned */
+		printf("  %-20s  %s\n", l->first_iso, hb_history_cpk_text(l, cpk, sizeof cpk));
+		small |= isfinite(l->cpk) && l->l0.n < HB_CPK_MIN_N;
 	}
+	if (small)
+		printf("  warning: a lot with fewer than %d units has a wide Cpk interval and the normal approximation is "
+		       "rough;\n  read its Cpk as an indication, not a capability\n",
+		       HB_CPK_MIN_N);
 	printf("\ntrend across lots in time order (change from the first lot; Isat = I at -%d %% L):\n",
 	       s->sat_drop_percent);
 	if (s->n_trend_lots < 2) {
@@ -156,6 +161,8 @@ static json_t *history_json(const hb_db_part *part, const hb_db_history_row *row
 		json_object_set_new(o, "L0_H", stats_json(&l->l0));
 		json_object_set_new(o, "Cp", hb_json_num(l->cp));
 		json_object_set_new(o, "Cpk", hb_json_num(l->cpk));
+		/* the one serialiser of Cpk's confidence (text, JSON and HTML agree) */
+		json_object_set_new(o, "Cpk_interval", hb_history_cpk_json(l));
 		json_object_set_new(o, "I_sat_A", stats_json(&l->isat));
 		json_object_set_new(o, "L0_change_H", hb_json_num(l->l0_change_h));
 		json_object_set_new(o, "L0_change_rel", hb_json_num(l->l0_change_rel));
