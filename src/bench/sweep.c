@@ -10,60 +10,7 @@
 
 #include "bias_supply.h"
 #include "sweep.h"
-
-/* ------------------------------------------------------------------ */
-/* signals                                                             */
-/* ------------------------------------------------------------------ */
-
-static volatile sig_atomic_t pending_signal;
-static volatile sig_atomic_t signal_count;
-static struct sigaction saved_int, saved_term, saved_hup;
-static int signals_installed;
-
-static void on_signal(int signo)
-{
-	if (!pending_signal)
-		pending_signal = signo;
-	signal_count++;
-}
-
-void hb_sweep_install_signals(void)
-{
-	if (signals_installed)
-		return;
-	struct sigaction sa;
-	memset(&sa, 0, sizeof sa);
-	sa.sa_handler = on_signal;
-	sigemptyset(&sa.sa_mask);
-	/* No SA_RESTART: a blocked wait returns early and the engine looks
-	 * at the flag sooner. The link layer retries EINTR with the time left. */
-	sa.sa_flags = 0;
-	sigaction(SIGINT, &sa, &saved_int);
-	sigaction(SIGTERM, &sa, &saved_term);
-	sigaction(SIGHUP, &sa, &saved_hup);
-	signals_installed = 1;
-}
-
-void hb_sweep_restore_signals(void)
-{
-	if (!signals_installed)
-		return;
-	sigaction(SIGINT, &saved_int, NULL);
-	sigaction(SIGTERM, &saved_term, NULL);
-	sigaction(SIGHUP, &saved_hup, NULL);
-	signals_installed = 0;
-}
-
-int hb_sweep_pending_signal(void)
-{
-	return pending_signal;
-}
-
-void hb_sweep_clear_signal(void)
-{
-	pending_signal = 0;
-	signal_count = 0;
-}
+#include "sweep_internal.h"
 
 /* ------------------------------------------------------------------ */
 /* time                                                                */
@@ -78,17 +25,14 @@ static double now_seconds(void)
 
 static int sleep_watching(double seconds)
 {
-	return hb_clock_sleep(seconds, &pending_signal);
+	return hb_clock_sleep(seconds, &hb__sweep_pending_signal);
 }
 
 /* ------------------------------------------------------------------ */
 /* the run                                                             */
 /* ------------------------------------------------------------------ */
 
-/* One supply read-back and when it was taken (mid-point of the query). */
-typedef struct rb_sample {
-	double t, amps;
-} rb_sample;
+typedef hb_rb_sample rb_sample;
 
 typedef struct engine {
 	hb_lcr *lcr;
@@ -133,7 +77,7 @@ static int stop_with(engine *e, hb_sweep_end end, hb_sweep_cause cause, int stat
 
 static int signal_stop(engine *e)
 {
-	int signo = pending_signal;
+	int signo = hb__sweep_pending_signal;
 	e->result->interrupted_by_signal = true;
 	e->result->signal_number = signo;
 	return stop_with(e, HB_SWEEP_ABORTED, HB_CAUSE_OPERATOR, HB_ERR_INTERRUPTED, "interrupted by signal %d (%s)", signo,
@@ -166,7 +110,7 @@ static void engine_notice(void *ctx, const char *text)
 
 static int read_once(engine *e, hb_lcr_reading *r)
 {
-	if (pending_signal)
+	if (hb__sweep_pending_signal)
 		return signal_stop(e);
 	int rc = hb_lcr_measure(e->lcr, r);
 	if (rc == HB_ERR_OVERLOAD) {
@@ -181,7 +125,7 @@ static int read_once(engine *e, hb_lcr_reading *r)
 /* One current read-back, time-stamped at the middle of the query. */
 static int read_amps(engine *e, rb_sample *out)
 {
-	if (pending_signal)
+	if (hb__sweep_pending_signal)
 		return signal_stop(e);
 	double t_a = now_seconds(), amps = NAN;
 	int rc = hb_supply_measure_current(e->supply, &amps);
@@ -240,99 +184,6 @@ static double current_tolerance(const engine *e, double setpoint)
 	return fmax(tol, lo);
 }
 
-/* Least-squares slope of the read-backs from index `from` on (A/s). */
-static double series_slope(const engine *e, size_t from, double *sxx_out)
-{
-	size_t n = e->n_series - from;
-	double mt = 0, ma = 0;
-	for (size_t i = from; i < e->n_series; i++) {
-		mt += e->series[i].t;
-		ma += e->series[i].amps;
-	}
-	mt /= (double)n;
-	ma /= (double)n;
-	double sxy = 0, sxx = 0;
-	for (size_t i = from; i < e->n_series; i++) {
-		sxy += (e->series[i].t - mt) * (e->series[i].amps - ma);
-		sxx += (e->series[i].t - mt) * (e->series[i].t - mt);
-	}
-	*sxx_out = sxx;
-	return sxx > 0 ? sxy / sxx : 0;
-}
-
-/* Least-squares a_inf, c of a(t) = a_inf + c*exp(-(t - t0)/tau) over the
- * read-backs from index `from` on, for a given tau; returns the residual
- * sum of squares (INFINITY when the system is singular). */
-static double exp_fit(const engine *e, size_t from, double t0, double tau, double *a_inf)
-{
-	double s1 = 0, sx = 0, sxx = 0, sy = 0, sxy = 0;
-	for (size_t i = from; i < e->n_series; i++) {
-		double x = exp(-(e->series[i].t - t0) / tau);
-		double y = e->series[i].amps;
-		s1 += 1;
-		sx += x;
-		sxx += x * x;
-		sy += y;
-		sxy += x * y;
-	}
-	double det = s1 * sxx - sx * sx;
-	if (!(det > 1e-12 * s1 * sxx))
-		return INFINITY;
-	double c = (s1 * sxy - sx * sy) / det;
-	double a = (sy - c * sx) / s1;
-	double ss = 0;
-	for (size_t i = from; i < e->n_series; i++) {
-		double r = e->series[i].amps - (a + c * exp(-(e->series[i].t - t0) / tau));
-		ss += r * r;
-	}
-	*a_inf = a;
-	return ss;
-}
-
-/* First-order prediction of where the read-back is going: the fit above
- * over the read-backs of the last three learnt response times, with its
- * own time constant found by a golden-section search between a quarter
- * and four times the learnt one (a lag is rarely the same at every
- * current). Returns false when the fit is not usable; *rms gets the
- * residual spread. */
-static bool predict_final(const engine *e, double *a_inf, double *rms)
-{
-	size_t n = e->n_series;
-	if (n < 6 || !(e->tau > 0))
-		return false;
-	double t_end = e->series[n - 1].t;
-	size_t from = n;
-	while (from > 0 && t_end - e->series[from - 1].t <= 3.0 * e->tau)
-		from--;
-	if (n - from < 6)
-		return false;
-	double t0 = e->series[from].t;
-	const double g = 0.5 * (sqrt(5.0) - 1.0);
-	double lo = log(e->tau / 4), hi = log(e->tau * 4);
-	double x1 = hi - g * (hi - lo), x2 = lo + g * (hi - lo), a1, a2;
-	double f1 = exp_fit(e, from, t0, exp(x1), &a1), f2 = exp_fit(e, from, t0, exp(x2), &a2);
-	for (int it = 0; it < 30; it++) {
-		if (f1 < f2) {
-			hi = x2;
-			x2 = x1;
-			f2 = f1;
-			x1 = hi - g * (hi - lo);
-			f1 = exp_fit(e, from, t0, exp(x1), &a1);
-		} else {
-			lo = x1;
-			x1 = x2;
-			f1 = f2;
-			x2 = lo + g * (hi - lo);
-			f2 = exp_fit(e, from, t0, exp(x2), &a2);
-		}
-	}
-	double ss = exp_fit(e, from, t0, exp(0.5 * (lo + hi)), a_inf);
-	if (!isfinite(ss))
-		return false;
-	*rms = sqrt(ss / (double)(n - from - 3));
-	return true;
-}
-
 /* Waits until the current has arrived, judged from the read-back series
  * since the step (see docs/sweeps.md, "Settling"):
  *  - the response time of this step is the time the read-back took to
@@ -385,7 +236,7 @@ static int settle_current(engine *e, double setpoint, double t_step, double tol,
 			from--;
 		bool full = from > 0 || (s.t - e->series[0].t) >= 0.9 * window;
 		double a_inf, rms;
-		bool pf = !e->overshoot && e->tau > 0 && since >= e->tau && predict_final(e, &a_inf, &rms);
+		bool pf = !e->overshoot && e->tau > 0 && since >= e->tau && hb_transient_predict(e->series, e->n_series, e->tau, &a_inf, &rms);
 		if (pf &&
 		    rms <= 3.0 * e->sigma_amps + 0.1 * tol && fabs(s.amps - a_inf) <= tol &&
 		    fabs(a_inf - setpoint) <= 0.02 * fabs(setpoint) + 0.01) {
@@ -399,7 +250,7 @@ static int settle_current(engine *e, double setpoint, double t_step, double tol,
 				hi = fmax(hi, e->series[i].amps);
 			}
 			double sxx;
-			double slope = series_slope(e, from, &sxx);
+			double slope = hb_transient_slope(e->series, from, e->n_series, &sxx);
 			double slope_noise = sxx > 0 ? e->sigma_amps / sqrt(sxx) : 0;
 			double still_to_come = fmax(0, fabs(slope) - 2.0 * slope_noise) * fmax(resp, window / 3.0);
 			if (hi - lo <= noise_band && still_to_come <= tol) {
@@ -680,13 +531,13 @@ static int start_supply(engine *e)
 {
 	/* A signal that came while the instruments were being opened must stop
 	 * the sweep before the output is ever switched on. */
-	if (pending_signal)
+	if (hb__sweep_pending_signal)
 		return signal_stop(e);
 	hb_bias_config cfg = {
 		.ramp_rate = e->plan->limits.ramp_rate,
 		.off_threshold = e->plan->limits.off_threshold,
 		.confirm_timeout = 2.0,
-		.stop = &pending_signal,
+		.stop = &hb__sweep_pending_signal,
 		.notice = engine_notice,
 		.notice_ctx = e,
 	};
@@ -698,7 +549,7 @@ static int start_supply(engine *e)
 	e->result->start_amps = found;
 	if (rc != HB_OK)
 		return bias_fault(e, rc);
-	if (pending_signal)
+	if (hb__sweep_pending_signal)
 		return signal_stop(e);
 	rc = hb_bias_enable(e->bias, e->plan->limits.max_voltage);
 	if (rc != HB_OK)
@@ -932,7 +783,7 @@ int hb_sweep_run(hb_lcr *lcr, hb_supply *supply, const hb_sweep_plan *plan, cons
 			result->end = HB_SWEEP_FAILED;
 		}
 	}
-	if (result->status == HB_OK && pending_signal) {
+	if (result->status == HB_OK && hb__sweep_pending_signal) {
 		/* A signal that came during the last step still counts. */
 		signal_stop(&e);
 	}
