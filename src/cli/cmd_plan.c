@@ -48,28 +48,8 @@ const hb_cmd_opts hb_opts_plan = {
 
 static int print_json(const hb_sampling_plan *p)
 {
-	json_t *o = json_object();
-	if (!o)
-		return HB_ERR_NOMEM;
-	char letter[2] = { p->letter, 0 }, initial[2] = { p->initial_letter, 0 };
-	json_object_set_new(o, "standard", json_string("ISO 2859-1 single sampling"));
-	json_object_set_new(o, "lot_size", json_integer(p->lot_size));
-	json_object_set_new(o, "aql", json_real(p->aql));
-	json_object_set_new(o, "level", json_string(hb_iso2859_level_name(p->level)));
-	json_object_set_new(o, "severity", json_string(hb_iso2859_severity_name(p->severity)));
-	json_object_set_new(o, "initial_code_letter", json_string(initial));
-	json_object_set_new(o, "code_letter", json_string(letter));
-	json_object_set_new(o, "arrow", json_string(p->arrow > 0 ? "down" : p->arrow < 0 ? "up" : "none"));
-	json_object_set_new(o, "table_sample_size", json_integer(p->table_sample_size));
-	json_object_set_new(o, "sample_size", json_integer(p->sample_size));
-	json_object_set_new(o, "full_inspection", json_boolean(p->full_inspection));
-	json_object_set_new(o, "ac", json_integer(p->ac));
-	json_object_set_new(o, "re", json_integer(p->re));
-	int rc = json_dumpf(o, stdout, JSON_INDENT(2) | JSON_REAL_PRECISION(6)) == 0 ? HB_OK : HB_ERR_IO;
-	json_decref(o);
-	if (rc == HB_OK && fputc('\n', stdout) == EOF)
-		rc = HB_ERR_IO;
-	return rc;
+	/* The same writer as every other command's JSON. */
+	return hb_print_json(hb_sampling_plan_json(p));
 }
 
 static void print_text(const hb_sampling_plan *p)

@@ -669,6 +669,28 @@ static json_t *num_or_null(double v)
 	return isfinite(v) ? json_real(v) : json_null();
 }
 
+json_t *hb_sampling_plan_json(const hb_sampling_plan *p)
+{
+	json_t *o = json_object();
+	if (!o)
+		return NULL;
+	char letter[2] = { p->letter, 0 }, initial[2] = { p->initial_letter, 0 };
+	json_object_set_new(o, "standard", json_string("ISO 2859-1 single sampling"));
+	json_object_set_new(o, "lot_size", json_integer(p->lot_size));
+	json_object_set_new(o, "aql", json_real(p->aql));
+	json_object_set_new(o, "level", json_string(hb_iso2859_level_name(p->level)));
+	json_object_set_new(o, "severity", json_string(hb_iso2859_severity_name(p->severity)));
+	json_object_set_new(o, "initial_code_letter", json_string(initial));
+	json_object_set_new(o, "code_letter", json_string(letter));
+	json_object_set_new(o, "arrow", json_string(p->arrow > 0 ? "down" : p->arrow < 0 ? "up" : "none"));
+	json_object_set_new(o, "table_sample_size", json_integer(p->table_sample_size));
+	json_object_set_new(o, "sample_size", json_integer(p->sample_size));
+	json_object_set_new(o, "full_inspection", json_boolean(p->full_inspection));
+	json_object_set_new(o, "ac", json_integer(p->ac));
+	json_object_set_new(o, "re", json_integer(p->re));
+	return o;
+}
+
 json_t *hb_inspect_lot_json(hb_db *db, int64_t lot_id, const hb_inspect_result *r)
 {
 	hb_db_lot lot;
@@ -679,21 +701,7 @@ json_t *hb_inspect_lot_json(hb_db *db, int64_t lot_id, const hb_inspect_result *
 	hb_db_part part;
 	if (hb_db_part_get_id(db, lot.part_id, &part) == HB_OK)
 		json_object_set_new(j, "part", json_string(part.part_number));
-	json_t *plan = json_object();
-	const hb_sampling_plan *p = &r->plan;
-	char letter[2] = { p->letter, 0 }, initial[2] = { p->initial_letter, 0 };
-	json_object_set_new(plan, "standard", json_string("ISO 2859-1 single sampling"));
-	json_object_set_new(plan, "lot_size", json_integer(p->lot_size));
-	json_object_set_new(plan, "aql", json_real(p->aql));
-	json_object_set_new(plan, "level", json_string(hb_iso2859_level_name(p->level)));
-	json_object_set_new(plan, "severity", json_string(hb_iso2859_severity_name(p->severity)));
-	json_object_set_new(plan, "initial_code_letter", json_string(initial));
-	json_object_set_new(plan, "code_letter", json_string(letter));
-	json_object_set_new(plan, "arrow", json_string(p->arrow > 0 ? "down" : p->arrow < 0 ? "up" : "none"));
-	json_object_set_new(plan, "sample_size", json_integer(p->sample_size));
-	json_object_set_new(plan, "full_inspection", json_boolean(p->full_inspection));
-	json_object_set_new(plan, "ac", json_integer(p->ac));
-	json_object_set_new(plan, "re", json_integer(p->re));
+	json_t *plan = hb_sampling_plan_json(&r->plan);
 	json_object_set_new(j, "plan", plan);
 	json_object_set_new(j, "decision", json_string(hb_db_lot_decision_name(lot.decision)));
 	if (lot.decided[0])

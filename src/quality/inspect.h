@@ -184,5 +184,8 @@ void hb_inspect_print_rules(FILE *out, const hb_inspect_config *cfg);
 
 /* The lot, its plan, tally, decision and every recorded position as JSON. */
 json_t *hb_inspect_lot_json(hb_db *db, int64_t lot_id, const hb_inspect_result *result);
+/* One ISO 2859-1 plan as JSON, the same object in `plan --json` and in a
+ * lot's record; NULL when out of memory. */
+json_t *hb_sampling_plan_json(const hb_sampling_plan *plan);
 
 #endif
