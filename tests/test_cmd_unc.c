@@ -97,6 +97,22 @@ static void test_fit_budget_prints_the_meter_term_of_L0(void **state)
 	assert_int_equal(r.status, 2);
 	assert_int_equal(count_lines(r.err), 1);
 	run_free(&r);
+
+	/* A fit that is not stored names no fit number (it used to say "stored
+	 * as fit 0"), and the store gains no fit. */
+	hb_db_fit before, after;
+	assert_int_equal(hb_db_open(demo_db, &db), HB_OK);
+	assert_int_equal(hb_db_fit_get_latest(db, bias_id, NULL, &before), HB_OK);
+	hb_db_close(db);
+	hb_run(&r, station_bare, "--db", demo_db, "fit", id, "--no-store", NULL);
+	assert_int_equal(r.status, 0);
+	assert_non_null(strstr(r.out, "(not stored,"));
+	assert_null(strstr(r.out, "stored as fit"));
+	run_free(&r);
+	assert_int_equal(hb_db_open(demo_db, &db), HB_OK);
+	assert_int_equal(hb_db_fit_get_latest(db, bias_id, NULL, &after), HB_OK);
+	hb_db_close(db);
+	assert_true(after.id == before.id);
 }
 
 /* The rule a part states is stored under its canonical name and shown. */

@@ -662,6 +662,63 @@ static void test_session_stores_every_point(void **state)
 	hb_db_close(db);
 }
 
+/* A Z-theta sweep's progress line names |Z| in ohm: its primary is not an
+ * inductance and must not be shown as one. */
+static void test_progress_names_the_measured_pair(void **state)
+{
+	(void)state;
+	char path[512];
+	db_path_new(path, sizeof path);
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open(path, &db), HB_OK);
+	hb_db_part part;
+	put_demo_part(db, &part);
+	hb_station st;
+	hb_demo_station(&st);
+	hb_lcr *lcr = NULL;
+	hb_supply *supply = NULL;
+	open_bench("sim:lcr", "sim:supply", &lcr, &supply);
+	char *text = NULL;
+	size_t len = 0;
+	FILE *progress = open_memstream(&text, &len);
+	assert_non_null(progress);
+	for (int pair = 0; pair < 2; pair++) {
+		hb_sweep_plan plan;
+		small_plan(&plan);
+		plan.steps = 3;
+		plan.pair = pair ? HB_PAIR_Z_THETA : HB_PAIR_L_R;
+		hb_session s = { .db = db, .lcr = lcr, .supply = supply, .station = &st, .progress = progress,
+				 .ambient_c = NAN };
+		int64_t id = 0;
+		hb_sweep_result res;
+		assert_int_equal(hb_session_measure(&s, &part, pair ? "Z-1" : "L-1", 0, &plan, "test", &id, &res), HB_OK);
+		fflush(progress);
+		/* The last progress line of this sweep: "point 3/3 <bias> <name> <value> ..." */
+		const char *last = strstr(text, "point 3/3");
+		while (last && strstr(last + 1, "point 3/3"))
+			last = strstr(last + 1, "point 3/3");
+		assert_non_null(last);
+		const char *eol = strchr(last, '\n');
+		assert_non_null(eol);
+		char line[256];
+		snprintf(line, sizeof line, "%.*s", (int)(eol - last), last);
+		if (pair) {
+			assert_non_null(strstr(line, " |Z| "));
+			assert_non_null(strstr(line, "ohm"));
+			assert_null(strstr(line, " L "));
+		} else {
+			assert_non_null(strstr(line, " L "));
+			assert_non_null(strstr(line, "H change"));
+		}
+	}
+	fclose(progress);
+	free(text);
+	assert_supply_safe();
+	hb_supply_close(supply);
+	hb_lcr_close(lcr);
+	hb_db_close(db);
+}
+
 /* ------------------------------------------------------------------ */
 /* other processes: kill, concurrent reader, concurrent writer         */
 
@@ -912,6 +969,7 @@ int main(void)
 		cmocka_unit_test_setup_teardown(test_auto_settle_reaches_settled_value, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_frequency_sweep_without_supply, bench_setup, bench_teardown),
 		cmocka_unit_test_setup_teardown(test_session_stores_every_point, bench_setup, bench_teardown),
+		cmocka_unit_test_setup_teardown(test_progress_names_the_measured_pair, bench_setup, bench_teardown),
 		cmocka_unit_test(test_sigkill_keeps_points_marks_interrupted),
 		cmocka_unit_test(test_read_while_sweep_runs),
 		cmocka_unit_test(test_two_processes_one_store),

@@ -9,6 +9,7 @@
 typedef struct sink_ctx {
 	hb_session *s;
 	int64_t sweep_id;
+	hb_pair pair; /* what the primary reading is: L (H) or |Z| (ohm) */
 } sink_ctx;
 
 static int store_point(void *ctx, const hb_sweep_point *p, int total)
@@ -46,7 +47,10 @@ static void show_progress(void *ctx, const hb_sweep_point *p, int index, int tot
 	if (!out)
 		return;
 	char l_text[32], x_text[32];
-	hb_format_si(l_text, sizeof l_text, p->primary, "H", 5);
+	/* The primary of a Z-theta reading is |Z| in ohm, not an inductance. */
+	bool z = c->pair == HB_PAIR_Z_THETA;
+	const char *name = z ? "|Z|" : "L";
+	hb_format_si(l_text, sizeof l_text, p->primary, z ? "ohm" : "H", 5);
 	double change = isfinite(l_first) && l_first != 0 ? (p->primary / l_first - 1) * 100 : NAN;
 	if (p->direction == 0)
 		hb_format_si(x_text, sizeof x_text, p->frequency, "Hz", 4);
@@ -58,13 +62,13 @@ static void show_progress(void *ctx, const hb_sweep_point *p, int index, int tot
 		snprintf(x_text, sizeof x_text, "%8.4f A", amps);
 	}
 	if (c->s->progress_tty) {
-		fprintf(out, "\r\033[K  point %d/%d  %s  L %s  %+6.2f %%  %s  ~%.0f s left", index + 1, total,
-			x_text, l_text, change, p->settled ? "" : "(not settled)", left);
+		fprintf(out, "\r\033[K  point %d/%d  %s  %s %s  %+6.2f %%  %s  ~%.0f s left", index + 1, total,
+			x_text, name, l_text, change, p->settled ? "" : "(not settled)", left);
 		if (index + 1 == total)
 			fputc('\n', out);
 	} else {
-		fprintf(out, "point %d/%d %s L %s change %+.2f%%%s left %.0fs\n", index + 1, total, x_text, l_text, change,
-			p->settled ? "" : " not-settled", left);
+		fprintf(out, "point %d/%d %s %s %s change %+.2f%%%s left %.0fs\n", index + 1, total, x_text, name, l_text,
+			change, p->settled ? "" : " not-settled", left);
 	}
 	fflush(out);
 }
@@ -206,7 +210,7 @@ int hb_session_measure(hb_session *s, const hb_db_part *part, const char *serial
 				drc == HB_ERR_UNSUPPORTED ? "the meter's profile has no dcr operation" : hb_lcr_errmsg(s->lcr));
 	}
 
-	sink_ctx ctx = { s, sw.id };
+	sink_ctx ctx = { s, sw.id, plan->pair };
 	hb_sweep_callbacks cb = { &ctx, store_point, show_progress, show_notice };
 	rc = hb_sweep_run(s->lcr, s->supply, plan, &cb, result);
 	if (s->progress && s->progress_tty && result->points > 0 && rc != HB_OK)

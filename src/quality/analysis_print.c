@@ -169,8 +169,12 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 {
 	if (!s->ran)
 		return;
-	fprintf(out, "fit of sweep %lld (stored as fit %lld, %s):\n", (long long)s->sweep_id, (long long)s->fit_id,
-		HB_FIT_CODE_VERSION);
+	/* A fit that was not stored (--no-store) has no number to name. */
+	if (s->fit_id > 0)
+		fprintf(out, "fit of sweep %lld (stored as fit %lld, %s):\n", (long long)s->sweep_id,
+			(long long)s->fit_id, HB_FIT_CODE_VERSION);
+	else
+		fprintf(out, "fit of sweep %lld (not stored, %s):\n", (long long)s->sweep_id, HB_FIT_CODE_VERSION);
 	if (s->kind == HB_DB_SWEEP_FREQUENCY) {
 		const hb_fit_freq_result *q = &s->freq;
 		if (s->fit_status != HB_OK) {
