@@ -102,7 +102,9 @@ static void record_accuracy(const hb_session *s, const hb_sweep_plan *plan, hb_d
 		m = s->station->meter_accuracy;
 	else
 		hb_lcr_accuracy(s->lcr, &m);
-	double f = plan->kind == HB_SWEEP_BIAS ? plan->frequency : NAN;
+	/* A frequency sweep takes the fraction in force at its highest frequency for
+	 * every point: the largest over the range, so never an understatement. */
+	double f = plan->kind == HB_SWEEP_BIAS ? plan->frequency : fmax(plan->f_from, plan->f_to);
 	sw->meter_accuracy_rel = hb_accuracy_rel_at(&m, f);
 	if (isfinite(m.rel)) {
 		char spec[128];

@@ -122,7 +122,7 @@ const hb_cmd_opts hb_opts_fit = {
 
 /* The budget table of the sweep's newest fit, read back from the store so
  * that it is what show, export and the report hold, not a fresh computation. */
-static int print_budget(hb_db *db, int64_t sweep_id, hb_db_sweep_kind kind)
+static int print_budget(hb_db *db, int64_t sweep_id)
 {
 	hb_db_fit *fit = calloc(1, sizeof *fit); /* too big for the stack: values and covariance */
 	if (!fit) {
@@ -143,11 +143,7 @@ static int print_budget(hb_db *db, int64_t sweep_id, hb_db_sweep_kind kind)
 		hb_cli_error("fit --budget: fit %lld: %s", (long long)fit->id, hb_db_errmsg(db));
 	} else {
 		printf("\nuncertainty budget of fit %lld (GUM, coverage 95.45 %%)\n", (long long)fit->id);
-		if (n == 0 && kind == HB_DB_SWEEP_FREQUENCY)
-			/* not an old fit to refit, as the generic message would say: none is computed */
-			printf("none: budgets are computed for bias sweeps only (docs/uncertainty.md)\n");
-		else
-			hb_analysis_print_budget(stdout, list, n);
+		hb_analysis_print_budget(stdout, list, n);
 	}
 	hb_db_fit_uncs_free(list);
 	free(fit);
@@ -208,7 +204,7 @@ int hb_cmd_fit(int argc, char **argv)
 		goto out;
 	}
 	/* the JSON values already carry their budgets; text gets the table */
-	if (a.budget && !json && print_budget(db, (int64_t)id, an->kind) != HB_OK)
+	if (a.budget && !json && print_budget(db, (int64_t)id) != HB_OK)
 		goto out;
 	exit_code = HB_EXIT_OK;
 out:

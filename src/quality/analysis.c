@@ -160,6 +160,12 @@ static hb_check untested(void)
 	return hb_verdict_limits(NAN, NAN, NAN);
 }
 
+bool hb_analysis_srf_beyond(const hb_analysis_summary *s)
+{
+	return s->kind == HB_DB_SWEEP_FREQUENCY && isfinite(s->freq.srf) && isfinite(s->freq_f_max) &&
+	       s->freq.srf > s->freq_f_max;
+}
+
 const hb_budget *hb_analysis_budget(const hb_analysis_summary *s, const char *name)
 {
 	for (size_t i = 0; s && i < s->n_budgets; i++)
@@ -635,8 +641,14 @@ static int analyse_frequency(hb_analysis_summary *s, const hb_db_sweep *sw, cons
 		goto out;
 	hb_fit_freq_options fo = { .parallel_r = false, .within = 0.05 };
 	rc = hb_fit_freq(ws, f, Ls, Rs, m, &fo, &s->freq);
-	if (rc != HB_OK)
+	if (rc != HB_OK) {
 		snprintf(s->message, sizeof s->message, "frequency fit: %s", hb_fit_ws_error(ws));
+	} else {
+		hb_budget_context bc;
+		hb_budget_context_from_sweep(&bc, sw);
+		s->n_budgets = hb_budget_freq(&s->freq, f, Ls, Rs, m, &fo, &bc, s->budgets, HB_BUDGET_MAX);
+		s->freq_f_max = f[m - 1];
+	}
 	hb_fit_ws_free(ws);
 out:
 	free(f);
@@ -730,6 +742,7 @@ int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *op
 	s->sweep_id = sweep_id;
 	s->dcr_ohm = NAN;
 	s->dcr_ref_ohm = NAN;
+	s->freq_f_max = NAN;
 	s->temperature_c = NAN;
 	s->cp_farad = NAN;
 	s->overall = HB_OVERALL_INCOMPLETE;

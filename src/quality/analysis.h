@@ -56,6 +56,7 @@ typedef struct hb_analysis_summary {
 	int fit_status;
 	hb_fit_bias_result bias;   /* bias sweeps */
 	hb_fit_freq_result freq;   /* frequency sweeps */
+	double freq_f_max;         /* the highest frequency the frequency fit saw, Hz */
 	double dcr_ohm;            /* the meter's reading, else the supply's V/I (two-wire, leads in); NAN if none */
 	bool dcr_from_meter;
 	double dcr_ref_ohm;        /* dcr_ohm referred to 20 C (copper) when a temperature is stored; NAN otherwise */
@@ -97,6 +98,9 @@ json_t *hb_analysis_stored_verdict_json(const hb_db_verdict *v, const char *unit
 const char *hb_analysis_check_unit(const char *check_name);
 /* The budget of the named quantity ("L0", "I_drop20", "core.gap", "DCR"), NULL if none. */
 const hb_budget *hb_analysis_budget(const hb_analysis_summary *summary, const char *name);
+/* The fitted self-resonance lies above the highest frequency the fit saw:
+ * a model value beyond the data, never reported as a number. */
+bool hb_analysis_srf_beyond(const hb_analysis_summary *summary);
 /*
  * The budget table of a stored fit, one block per quantity: input, value,
  * standard uncertainty, sensitivity coefficient, contribution and source,

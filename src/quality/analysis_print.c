@@ -182,9 +182,20 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 			return;
 		}
 		print_value(out, "L (low-frequency)", q->param[HB_FREQ_L], q->std_err[HB_FREQ_L], "H");
+		print_unc(out, s, "L");
 		print_value(out, "R (series)", q->param[HB_FREQ_R], q->std_err[HB_FREQ_R], "ohm");
+		print_unc(out, s, "R");
 		print_value(out, "C (parallel)", q->param[HB_FREQ_C], q->std_err[HB_FREQ_C], "F");
-		print_value(out, "self-resonance", q->srf, q->srf_se, "Hz");
+		print_unc(out, s, "C");
+		if (hb_analysis_srf_beyond(s)) {
+			/* the model would place it, but no reading was taken there */
+			char fmax[32];
+			fprintf(out, "  %-28s above the highest frequency swept (%s): not measured\n", "self-resonance",
+				hb_format_si(fmax, sizeof fmax, s->freq_f_max, "Hz", 4));
+		} else {
+			print_value(out, "self-resonance", q->srf, q->srf_se, "Hz");
+			print_unc(out, s, "srf");
+		}
 		print_value(out, "Q highest measured (X/R)", q->q_max, NAN, "");
 		print_value(out, "  at", q->q_max_freq, NAN, "Hz");
 		print_value(out, "L within 5 % from", q->band_lo, NAN, "Hz");
@@ -429,11 +440,28 @@ json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 		json_object_set_new(j, "misfit_diagnosis", mis);
 	} else {
 		const hb_fit_freq_result *q = &s->freq;
+		bool beyond = hb_analysis_srf_beyond(s);
 		json_object_set_new(vals, "L_H", num(q->param[HB_FREQ_L]));
 		json_object_set_new(vals, "R_ohm", num(q->param[HB_FREQ_R]));
 		json_object_set_new(vals, "C_F", num(q->param[HB_FREQ_C]));
-		json_object_set_new(vals, "srf_Hz", num(q->srf));
-		json_object_set_new(vals, "srf_std_err_Hz", num(q->srf_se));
+		json_object_set_new(vals, "srf_Hz", num(beyond ? NAN : q->srf));
+		json_object_set_new(vals, "srf_std_err_Hz", num(beyond ? NAN : q->srf_se));
+		if (beyond)
+			json_object_set_new(vals, "srf_above_Hz", num(s->freq_f_max));
+		/* the same values with their uncertainty budgets, in the one value shape */
+		static const char *const fnames[] = { "L", "R", "C", "srf" };
+		static const char *const funits[] = { "H", "ohm", "F", "Hz" };
+		const double fv[] = { q->param[HB_FREQ_L], q->param[HB_FREQ_R], q->param[HB_FREQ_C], q->srf };
+		const double fse[] = { q->std_err[HB_FREQ_L], q->std_err[HB_FREQ_R], q->std_err[HB_FREQ_C], q->srf_se };
+		for (size_t i = 0; i < 4; i++) {
+			bool out_of_data = i == 3 && beyond;
+			json_t *o = hb_analysis_value_object(out_of_data ? NAN : fv[i], out_of_data ? NAN : fse[i], funits[i],
+							     out_of_data ? HB_FIT_REASON_BEYOND : NULL, false);
+			const hb_budget *bg = hb_analysis_budget(s, fnames[i]);
+			if (bg && !out_of_data)
+				hb_budget_add_json(o, bg);
+			json_object_set_new(vals, fnames[i], o);
+		}
 		/* measured X/R of the readings: the model's constant R would overstate Q */
 		json_object_set_new(vals, "q_max_measured", num(q->q_max));
 		json_object_set_new(vals, "q_max_measured_freq_Hz", num(q->q_max_freq));

@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "budget.h"
+#include "budget_internal.h"
 #include "../../common/hb_text.h"
 
 void hb_budget_context_init(hb_budget_context *c)
@@ -30,13 +31,7 @@ void hb_budget_context_from_sweep(hb_budget_context *c, const hb_db_sweep *sw)
 	c->dcr_from_meter = isfinite(sw->dcr_meter_ohm);
 }
 
-/* One input before evaluation. */
-typedef struct pending {
-	const char *input, *unit;
-	hb_unc_type type;
-	double value, u, c, dof;
-	char source[160];
-} pending;
+typedef hb_budget_pending pending;
 
 /* Evaluates the inputs (c given) into bg; false when the budget cannot be
  * evaluated (no finite input). */
@@ -487,4 +482,21 @@ void hb_budget_lsat(const hb_fit_bias_result *b, double i_sat, double l_at, doub
 	supply_source(c, " at the spec current; c = dL/dI there", in[3].source, sizeof in[3].source);
 	evaluate(ub, bg, in, 4);
 	hb_unc_free(ub);
+}
+
+/* ---------------- shared with the other budget files of quality/ ---------------- */
+
+bool hb_budget__evaluate(hb_unc_budget *ub, hb_budget *bg, const hb_budget_pending *in, size_t n)
+{
+	return evaluate(ub, bg, in, n);
+}
+
+void hb_budget__start(hb_budget *bg, const char *name, const char *unit, double value, double se)
+{
+	budget_start(bg, name, unit, value, se);
+}
+
+void hb_budget__meter_source(const hb_budget_context *c, char *buf, size_t cap)
+{
+	meter_source(c, buf, cap);
 }

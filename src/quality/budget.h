@@ -87,6 +87,19 @@ size_t hb_budget_bias(const hb_fit_bias_result *b, const double *I, const double
 void hb_budget_lsat(const hb_fit_bias_result *b, double i_sat, double l_at, double dl_di, double drop,
 		    const hb_budget_context *ctx, hb_budget *out);
 
+/*
+ * Budgets of a frequency sweep's fit ((R + j w L) parallel C): "L", "R", "C"
+ * and "srf". Type A from the fit's covariance (its degrees of freedom);
+ * Type B from the meter's gain accuracy, its sensitivity found by refitting
+ * with every reading scaled (a gain error scales every impedance, so L and
+ * R follow it, C goes the other way and the resonance does not move). The
+ * meter's phase and source-frequency accuracy are not stated in the
+ * accuracy form and are not included: each budget's note says so.
+ * f, Ls, Rs and fo must be those of the fit. Returns the budgets written.
+ */
+size_t hb_budget_freq(const hb_fit_freq_result *q, const double *f, const double *Ls, const double *Rs, size_t n,
+		      const hb_fit_freq_options *fo, const hb_budget_context *ctx, hb_budget *out, size_t cap);
+
 /* The budget as stored (fit_uncertainty row, budget JSON text) and back. */
 void hb_budget_to_db(const hb_budget *bg, int64_t fit_id, hb_db_fit_unc *out);
 /* The budget's inputs as JSON: [{"input":..,"u":..,"c":..,"contribution":..,"source":..,
