@@ -91,6 +91,14 @@ static void check_h1(hb_unc_budget *b, bool numeric)
 	const double want[H1_N] = { 25, 5.8, 3.9, 6.7, 0, 0, 0, 2.9, 16.6 };
 	for (size_t i = 0; i < H1_N; i++)
 		check_near(hb_unc_input_at(b, i)->contribution, want[i], 0.05);
+	/* Corroborated by an independent reference library: the GUM H.1 example in the
+	 * documentation of GTC (the uncertainty library of the Measurement Standards
+	 * Laboratory of New Zealand, first-order calculation) prints l = 50000838(32) nm
+	 * with the components ls 25, d_theta 16.599, d2 6.7, d0 5.8, d1 3.9 and
+	 * d_alpha 2.88679 nm, the rest 0: the same to the digits it prints. */
+	check_near(hb_unc_input_at(b, D_THETA)->contribution, 16.599, 0.0005);
+	check_near(hb_unc_input_at(b, D_ALPHA)->contribution, 2.88679, 0.000005);
+	check_near(r.u_c, 32, 0.5);
 	/* H.1.3.6: c for delta_theta = -l_s alpha_s = -575 nm/C */
 	check_near(hb_unc_input_at(b, D_THETA)->c, -575, 0.01);
 	/* the default 95.45 %: t(16) = 2.17 (GUM Table G.2, from memory) */
