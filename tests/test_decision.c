@@ -240,6 +240,11 @@ static void test_cpk_textbook(void **state)
 	check_near(ci.lower, 0.88, 0.005);
 	check_near(ci.upper, 1.78, 0.005);
 	assert_true(ci.small_sample);
+	/* A published example: Quality Digest, May 2000, "The Last Word" (Cpk
+	 * confidence intervals): n = 45, Cpk 1.15, 95 %: "between 0.89 and 1.41". */
+	assert_int_equal(hb_cpk_confidence(1.15, 45, 0.95, &ci), HB_OK);
+	check_near(ci.lower, 0.89, 0.005);
+	check_near(ci.upper, 1.41, 0.005);
 	assert_int_equal(hb_cpk_confidence(1.33, 30, 0.95, &ci), HB_OK);
 	assert_false(ci.small_sample);
 	assert_int_equal(hb_cpk_confidence(1.33, 29, 0.95, &ci), HB_OK);
