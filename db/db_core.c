@@ -30,6 +30,8 @@ sqlite3_stmt *db_prepare_cached(hb_db *db, sqlite3_stmt **cache, const char *sql
 	if (rc != SQLITE_OK) {
 		db_fail(db, rc, "preparing a query");
 		*cache = NULL;
+	} else {
+		db_plan_note(db, sql);
 	}
 	return *cache;
 }
@@ -594,11 +596,14 @@ void hb_db_close(hb_db *db)
 		return;
 	for (int i = 0; i < ST_COUNT; i++)
 		sqlite3_finalize(db->stmt[i]);
-	for (int i = 0; i < (1 << DB_SWEEP_FILTERS); i++)
+	for (int i = 0; i < (1 << DB_SWEEP_FILTERS); i++) {
 		sqlite3_finalize(db->sweep_list[i]);
+		sqlite3_finalize(db->sweep_count[i]);
+	}
 	if (db->conn && !sqlite3_get_autocommit(db->conn))
 		sqlite3_exec(db->conn, "ROLLBACK", NULL, NULL, NULL);
 	sqlite3_close(db->conn);
+	free(db->plan_findings);
 	free(db->path);
 	free(db);
 }

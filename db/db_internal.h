@@ -32,11 +32,15 @@ struct hb_db {
 	char errmsg[768];
 	sqlite3_stmt *stmt[ST_COUNT];
 	sqlite3_stmt *sweep_list[1 << DB_SWEEP_FILTERS];
+	sqlite3_stmt *sweep_count[1 << DB_SWEEP_FILTERS];
 	int batch;          /* inside hb_db_batch_begin */
 	int recovered;
 	int old_version;     /* opened at an older schema on purpose (migration tests): 0 = latest */
 	char host[HB_DB_ID_LEN];
 	char boot_id[64];
+	bool plan_watch;     /* hb_db_plan_watch: each newly prepared statement's plan is checked */
+	char *plan_findings; /* full scans of growing tables found, one line each */
+	size_t plan_checked;
 };
 
 /* Prepared statement of slot, preparing sql on first use; NULL on error
@@ -45,6 +49,8 @@ sqlite3_stmt *db_stmt(hb_db *db, enum db_stmt_slot slot, const char *sql);
 sqlite3_stmt *db_prepare_cached(hb_db *db, sqlite3_stmt **cache, const char *sql);
 /* Resets and clears bindings so the statement holds no read snapshot. */
 void db_release(sqlite3_stmt *st);
+/* With the plan watch on, EXPLAIN QUERY PLAN of sql; full scans are kept as findings. */
+void db_plan_note(hb_db *db, const char *sql);
 
 /* Records "what: sqlite message" and maps the SQLite code to an hb_status. */
 int db_fail(hb_db *db, int rc, const char *what);

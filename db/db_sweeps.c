@@ -315,26 +315,81 @@ int hb_db_sweep_get(hb_db *db, int64_t sweep_id, hb_db_sweep *out)
 enum { F_PART = 1, F_SERIAL = 2, F_LOT = 4, F_STATUS = 8, F_KIND = 16, F_SINCE = 32 };
 
 /* The statement for one combination of filters, so each keeps plain
- * equality terms the planner can drive from an index. */
+ * equality terms the planner can drive from an index. With a part, unit or
+ * lot named, the sweep's own terms are written +s.x: that keeps the planner
+ * from driving the query by the status or start-time index (every complete
+ * sweep of the store walked to find one unit's, 30-46 ms at 40,000 sweeps)
+ * and makes it start from the few units named. */
+/* SELECT columns ... WHERE <the mask's filters> tail. */
+static void sweep_filter_sql(char *sql, size_t cap, unsigned mask, const char *columns, const char *tail)
+{
+	int by_unit = (mask & (F_PART | F_SERIAL | F_LOT)) != 0;
+	snprintf(sql, cap,
+		 "SELECT %s FROM sweeps s %s units u ON u.id = s.unit_id"
+		 " %s parts p ON p.id = u.part_id %s lots l ON l.id = u.lot_id WHERE 1%s%s%s%s%s%s%s",
+		 columns, by_unit ? "JOIN" : "LEFT JOIN", by_unit ? "JOIN" : "LEFT JOIN",
+		 (mask & F_LOT) ? "JOIN" : "LEFT JOIN",
+		 (mask & F_PART) ? " AND p.part_number = ?1" : "",
+		 (mask & F_SERIAL) ? " AND u.serial = ?2" : "",
+		 (mask & F_LOT) ? " AND l.lot_code = ?3" : "",
+		 (mask & F_STATUS) ? (by_unit ? " AND +s.status = ?4" : " AND s.status = ?4") : "",
+		 (mask & F_KIND) ? (by_unit ? " AND +s.kind = ?5" : " AND s.kind = ?5") : "",
+		 (mask & F_SINCE) ? (by_unit ? " AND +s.started_unix >= ?6" : " AND s.started_unix >= ?6") : "", tail);
+}
+
 static sqlite3_stmt *sweep_list_stmt(hb_db *db, unsigned mask)
 {
 	if (db->sweep_list[mask])
 		return db->sweep_list[mask];
 	char sql[2048];
-	int by_unit = (mask & (F_PART | F_SERIAL | F_LOT)) != 0;
-	snprintf(sql, sizeof sql,
-		 "SELECT " SWEEP_COLUMNS " FROM sweeps s %s units u ON u.id = s.unit_id"
-		 " %s parts p ON p.id = u.part_id %s lots l ON l.id = u.lot_id WHERE 1%s%s%s%s%s%s"
-		 " ORDER BY s.started_unix DESC, s.id DESC LIMIT ?7",
-		 by_unit ? "JOIN" : "LEFT JOIN", by_unit ? "JOIN" : "LEFT JOIN",
-		 (mask & F_LOT) ? "JOIN" : "LEFT JOIN",
-		 (mask & F_PART) ? " AND p.part_number = ?1" : "",
-		 (mask & F_SERIAL) ? " AND u.serial = ?2" : "",
-		 (mask & F_LOT) ? " AND l.lot_code = ?3" : "",
-		 (mask & F_STATUS) ? " AND s.status = ?4" : "",
-		 (mask & F_KIND) ? " AND s.kind = ?5" : "",
-		 (mask & F_SINCE) ? " AND s.started_unix >= ?6" : "");
+	sweep_filter_sql(sql, sizeof sql, mask, SWEEP_COLUMNS, " ORDER BY s.started_unix DESC, s.id DESC LIMIT ?7");
 	return db_prepare_cached(db, &db->sweep_list[mask], sql);
+}
+
+static sqlite3_stmt *sweep_count_stmt(hb_db *db, unsigned mask)
+{
+	if (db->sweep_count[mask])
+		return db->sweep_count[mask];
+	char sql[1024];
+	sweep_filter_sql(sql, sizeof sql, mask, "count(*)", "");
+	return db_prepare_cached(db, &db->sweep_count[mask], sql);
+}
+
+/* The filter's mask; -1 (message set) for an unknown status or kind. */
+static int sweep_filter_mask(hb_db *db, const hb_db_sweep_filter *f, unsigned *mask)
+{
+	*mask = 0;
+	if (f->part_number)
+		*mask |= F_PART;
+	if (f->serial)
+		*mask |= F_SERIAL;
+	if (f->lot_code)
+		*mask |= F_LOT;
+	if (f->status >= 0)
+		*mask |= F_STATUS;
+	if (f->kind >= 0)
+		*mask |= F_KIND;
+	if (f->since > 0)
+		*mask |= F_SINCE;
+	if (f->status > HB_DB_INTERRUPTED || f->kind > HB_DB_SWEEP_FREQUENCY)
+		return db_error(db, HB_ERR_ARG, "sweep filter: unknown status or kind");
+	return HB_OK;
+}
+
+static void sweep_filter_bind(sqlite3_stmt *st, unsigned mask, const hb_db_sweep_filter *f)
+{
+	if (mask & F_PART)
+		db_bind_text(st, 1, f->part_number);
+	if (mask & F_SERIAL)
+		db_bind_text(st, 2, f->serial);
+	if (mask & F_LOT)
+		db_bind_text(st, 3, f->lot_code);
+	if (mask & F_STATUS)
+		db_bind_text(st, 4, hb_db_sweep_status_name((hb_db_sweep_status)f->status));
+	if (mask & F_KIND)
+		db_bind_text(st, 5, hb_db_sweep_kind_name((hb_db_sweep_kind)f->kind));
+	if (mask & F_SINCE)
+		sqlite3_bind_double(st, 6, f->since);
 }
 
 int hb_db_sweep_list(hb_db *db, const hb_db_sweep_filter *f, hb_db_sweep **out, size_t *count)
@@ -348,38 +403,35 @@ int hb_db_sweep_list(hb_db *db, const hb_db_sweep_filter *f, hb_db_sweep **out, 
 		hb_db_sweep_filter_init(&any);
 		f = &any;
 	}
-	unsigned mask = 0;
-	if (f->part_number)
-		mask |= F_PART;
-	if (f->serial)
-		mask |= F_SERIAL;
-	if (f->lot_code)
-		mask |= F_LOT;
-	if (f->status >= 0)
-		mask |= F_STATUS;
-	if (f->kind >= 0)
-		mask |= F_KIND;
-	if (f->since > 0)
-		mask |= F_SINCE;
-	if (f->status > HB_DB_INTERRUPTED || f->kind > HB_DB_SWEEP_FREQUENCY)
-		return db_error(db, HB_ERR_ARG, "sweep filter: unknown status or kind");
+	unsigned mask;
+	if (sweep_filter_mask(db, f, &mask) != HB_OK)
+		return HB_ERR_ARG;
 	sqlite3_stmt *st = sweep_list_stmt(db, mask);
 	if (!st)
 		return HB_ERR_DB;
-	if (mask & F_PART)
-		db_bind_text(st, 1, f->part_number);
-	if (mask & F_SERIAL)
-		db_bind_text(st, 2, f->serial);
-	if (mask & F_LOT)
-		db_bind_text(st, 3, f->lot_code);
-	if (mask & F_STATUS)
-		db_bind_text(st, 4, hb_db_sweep_status_name((hb_db_sweep_status)f->status));
-	if (mask & F_KIND)
-		db_bind_text(st, 5, hb_db_sweep_kind_name((hb_db_sweep_kind)f->kind));
-	if (mask & F_SINCE)
-		sqlite3_bind_double(st, 6, f->since);
+	sweep_filter_bind(st, mask, f);
 	sqlite3_bind_int64(st, 7, f->limit > 0 ? f->limit : -1);
 	return db_read_all(db, st, read_sweep, NULL, sizeof **out, "listing sweeps", (void **)out, count);
+}
+
+static void read_count(sqlite3_stmt *st, void *row, const void *ctx)
+{
+	(void)ctx;
+	*(int64_t *)row = sqlite3_column_int64(st, 0);
+}
+
+int hb_db_sweep_count(hb_db *db, const hb_db_sweep_filter *f, int64_t *count)
+{
+	if (!db || !f || !count)
+		return HB_ERR_ARG;
+	unsigned mask;
+	if (sweep_filter_mask(db, f, &mask) != HB_OK)
+		return HB_ERR_ARG;
+	sqlite3_stmt *st = sweep_count_stmt(db, mask);
+	if (!st)
+		return HB_ERR_DB;
+	sweep_filter_bind(st, mask, f);
+	return db_read_one(db, st, read_count, count, NULL, "count", "of sweeps", "counting sweeps");
 }
 
 void hb_db_sweeps_free(hb_db_sweep *sweeps)

@@ -257,6 +257,8 @@ typedef struct hb_db_sweep_filter {
 void hb_db_sweep_filter_init(hb_db_sweep_filter *filter);
 /* Newest first. */
 int hb_db_sweep_list(hb_db *db, const hb_db_sweep_filter *filter, hb_db_sweep **out, size_t *count);
+/* How many sweeps the filter matches (its limit ignored). */
+int hb_db_sweep_count(hb_db *db, const hb_db_sweep_filter *filter, int64_t *count);
 void hb_db_sweeps_free(hb_db_sweep *sweeps);
 
 /* ---------------- points ---------------- */
@@ -422,5 +424,18 @@ void hb_db_history_filter_init(hb_db_history_filter *filter);
 /* Oldest first. */
 int hb_db_history(hb_db *db, const hb_db_history_filter *filter, hb_db_history_row **out, size_t *count);
 void hb_db_history_free(hb_db_history_row *rows);
+
+/* ---------------- query plans (scale) ---------------- */
+
+/*
+ * With the watch on, every statement the handle prepares from then on is
+ * checked with EXPLAIN QUERY PLAN; a full scan of a table that grows with
+ * the sweeps (anything but parts and lots) is kept as a finding: one line
+ * "SCAN t in: <sql>". For tests and `make bench`: a finding is a query
+ * that slows down as the store grows.
+ */
+int hb_db_plan_watch(hb_db *db, bool on);
+const char *hb_db_plan_findings(const hb_db *db); /* "" = none */
+size_t hb_db_plan_checked(const hb_db *db);       /* statements checked since the watch began */
 
 #endif

@@ -246,3 +246,6 @@ DROP TABLE verdicts;
 ALTER TABLE verdicts_new RENAME TO verdicts;
 -- a lot's sample record: the unit's outcome was conditional (counted by the plan's stated policy)
 ALTER TABLE inspections ADD COLUMN conditional INTEGER NOT NULL DEFAULT 0;
+
+-- step 7: an index for the queries of a large store: a sweep's newest fit, found without sorting its fits (history, fit, show)
+CREATE INDEX fits_sweep_newest ON fits(sweep_id, id);

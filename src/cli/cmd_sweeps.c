@@ -71,8 +71,12 @@ static const char *const status_words[] = { "running", "complete", "aborted", "f
 
 typedef struct sweeps_args {
 	hb_db_sweep_filter f;
-	bool json;
+	bool json, all;
 } sweeps_args;
+
+/* Without --limit or --all: the newest this many (a store of tens of
+ * thousands of sweeps is not a screenful). */
+enum { SWEEPS_DEFAULT_LIMIT = 50 };
 
 static const hb_opt sweeps_table[] = {
 	{ .name = "part", .kind = HB_OPT_TEXT, .arg = "P", .off = offsetof(sweeps_args, f.part_number), .help = "part number" },
@@ -86,7 +90,8 @@ static const hb_opt sweeps_table[] = {
 	{ .name = "since", .kind = HB_OPT_CUSTOM, .arg = "DATE", .parse = take_since, .off = offsetof(sweeps_args, f.since),
 	  .help = "started on or after DATE (UTC), e.g. 2024-05-01 or 2024-05-01T08:00Z" },
 	{ .name = "limit", .kind = HB_OPT_LONG, .arg = "N", .min = 1, .max = 100000000L,
-	  .off = offsetof(sweeps_args, f.limit), .help = "at most N sweeps" },
+	  .off = offsetof(sweeps_args, f.limit), .help = "at most N sweeps (default 50)" },
+	{ .name = "all", .kind = HB_OPT_FLAG, .off = offsetof(sweeps_args, all), .help = "every matching sweep, no limit" },
 	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(sweeps_args, json), .help = "machine-readable output" },
 	{ .name = NULL },
 };
@@ -94,8 +99,9 @@ static const hb_opt sweeps_table[] = {
 const hb_cmd_opts hb_opts_sweeps = {
 	.name = "sweeps",
 	.usage = "[--part P] [--unit SERIAL] [--lot L] [--status S]\n"
-		 "                         [--kind bias|frequency] [--since DATE] [--limit N] [--json]",
-	.about = "\nLists stored sweeps, newest first.\n",
+		 "                         [--kind bias|frequency] [--since DATE] [--limit N | --all] [--json]",
+	.about = "\nLists stored sweeps, newest first: the newest 50 unless --limit or --all says otherwise\n"
+		 "(a note on stderr says how many matched).\n",
 	.opts = sweeps_table,
 	.max_operands = 0,
 };
@@ -114,14 +120,27 @@ int hb_cmd_sweeps(int argc, char **argv)
 	hb_db *db = hb_cli_open_store();
 	if (!db)
 		return HB_EXIT_RUNTIME;
+	if (a.all && f.limit > 0) {
+		hb_db_close(db);
+		hb_cli_error("sweeps: --all and --limit %ld contradict each other; give one", f.limit);
+		return HB_EXIT_USAGE;
+	}
+	if (!a.all && f.limit <= 0)
+		f.limit = SWEEPS_DEFAULT_LIMIT;
 	hb_db_sweep *list = NULL;
 	size_t n = 0;
-	if (hb_db_sweep_list(db, &f, &list, &n) != HB_OK) {
+	int64_t matched = 0;
+	if (hb_db_sweep_list(db, &f, &list, &n) != HB_OK ||
+	    (f.limit > 0 && (size_t)f.limit == n && hb_db_sweep_count(db, &f, &matched) != HB_OK)) {
 		hb_cli_error("%s", hb_db_errmsg(db));
+		hb_db_sweeps_free(list);
 		hb_db_close(db);
 		return HB_EXIT_RUNTIME;
 	}
 	hb_db_close(db);
+	if ((size_t)matched > n)
+		fprintf(stderr, "sweeps: the newest %zu of %lld matching sweeps shown; --limit N or --all for more\n", n,
+			(long long)matched);
 	if (json) {
 		json_t *arr = json_array();
 		for (size_t i = 0; i < n; i++)
