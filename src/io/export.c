@@ -16,24 +16,31 @@
 
 int hb_export_csv(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err, size_t errlen)
 {
-	hb_db_sweep *sw = calloc(n ? n : 1, sizeof *sw);
+	/* First pass: every sweep found before a byte is written, and readings
+	 * get their own SI names when every sweep read the same pair. Only one
+	 * sweep's record and points are in memory at a time. */
+	hb_db_sweep *sw = malloc(sizeof *sw);
+	char first_pair[sizeof sw->measured_pair] = "";
 	if (!sw) {
 		hb_set_err(err, errlen, "out of memory");
 		return HB_ERR_NOMEM;
 	}
 	int rc = HB_OK;
-	for (size_t i = 0; i < n && rc == HB_OK; i++)
-		if ((rc = hb_db_sweep_get(db, ids[i], &sw[i])) != HB_OK)
+	bool same_pair = true;
+	for (size_t i = 0; i < n && rc == HB_OK; i++) {
+		if ((rc = hb_db_sweep_get(db, ids[i], sw)) != HB_OK) {
 			hb_set_err(err, errlen, "sweep %lld: %s", (long long)ids[i], hb_db_errmsg(db));
+			break;
+		}
+		if (i == 0)
+			snprintf(first_pair, sizeof first_pair, "%s", sw->measured_pair);
+		else if (strcmp(sw->measured_pair, first_pair) != 0)
+			same_pair = false;
+	}
 	if (rc != HB_OK) {
 		free(sw);
 		return rc;
 	}
-	/* Readings get their own SI names when every sweep read the same pair. */
-	bool same_pair = true;
-	for (size_t i = 1; i < n; i++)
-		if (strcmp(sw[i].measured_pair, sw[0].measured_pair) != 0)
-			same_pair = false;
 	static const char *const head[] = { "sweep_id", "kind", "part_number", "serial", "lot_code", "measured_pair",
 					    "seq", "direction", "bias_set_A", "bias_measured_A", "supply_V",
 					    "frequency_Hz" };
@@ -42,26 +49,26 @@ int hb_export_csv(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err,
 	hb_csv_begin(&w, out);
 	for (size_t k = 0; k < sizeof head / sizeof head[0]; k++)
 		hb_csv_text(&w, head[k]);
-	hb_csv_text(&w, n && same_pair ? hb_io_reading_column(sw[0].measured_pair, 0) : "primary");
-	hb_csv_text(&w, n && same_pair ? hb_io_reading_column(sw[0].measured_pair, 1) : "secondary");
+	hb_csv_text(&w, n && same_pair ? hb_io_reading_column(first_pair, 0) : "primary");
+	hb_csv_text(&w, n && same_pair ? hb_io_reading_column(first_pair, 1) : "secondary");
 	for (size_t k = 0; k < sizeof tail / sizeof tail[0]; k++)
 		hb_csv_text(&w, tail[k]);
 	hb_csv_row_end(&w);
 	for (size_t i = 0; i < n && rc == HB_OK; i++) {
 		hb_db_point *pts = NULL;
 		size_t np = 0;
-		if ((rc = hb_db_points_get(db, ids[i], &pts, &np)) != HB_OK) {
+		if ((rc = hb_db_sweep_get(db, ids[i], sw)) != HB_OK || (rc = hb_db_points_get(db, ids[i], &pts, &np)) != HB_OK) {
 			hb_set_err(err, errlen, "sweep %lld: %s", (long long)ids[i], hb_db_errmsg(db));
 			break;
 		}
 		for (size_t k = 0; k < np; k++) {
 			const hb_db_point *p = &pts[k];
-			hb_csv_int(&w, sw[i].id);
-			hb_csv_text(&w, hb_db_sweep_kind_name(sw[i].kind));
-			hb_csv_text(&w, sw[i].part_number);
-			hb_csv_text(&w, sw[i].serial);
-			hb_csv_text(&w, sw[i].lot_code);
-			hb_csv_text(&w, sw[i].measured_pair);
+			hb_csv_int(&w, sw->id);
+			hb_csv_text(&w, hb_db_sweep_kind_name(sw->kind));
+			hb_csv_text(&w, sw->part_number);
+			hb_csv_text(&w, sw->serial);
+			hb_csv_text(&w, sw->lot_code);
+			hb_csv_text(&w, sw->measured_pair);
 			hb_csv_int(&w, p->seq);
 			hb_csv_text(&w, p->direction == HB_DB_DIR_DOWN ? "down" : "up");
 			hb_csv_num(&w, p->bias_set_a);
@@ -87,27 +94,82 @@ int hb_export_csv(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err,
 	return rc;
 }
 
+/* One value of the document, dumped as hb_json_write would and indented by
+ * `indent` spaces after each line break, so the streamed document reads as
+ * the one-piece dump did. */
+static int put_value(FILE *out, const json_t *v, int indent)
+{
+	char *text = json_dumps(v, JSON_INDENT(2) | JSON_REAL_PRECISION(17) | JSON_ENCODE_ANY);
+	if (!text)
+		return HB_ERR_NOMEM;
+	int rc = HB_OK;
+	for (const char *p = text; *p && rc == HB_OK; p++) {
+		if (fputc(*p, out) == EOF)
+			rc = HB_ERR_IO;
+		if (*p == '\n' && fprintf(out, "%*s", indent, "") < 0)
+			rc = HB_ERR_IO;
+	}
+	free(text);
+	return rc;
+}
+
+static int put_member(FILE *out, const char *key, json_t *v, bool last)
+{
+	if (!v)
+		return HB_ERR_NOMEM;
+	int rc = fprintf(out, "  \"%s\": ", key) < 0 ? HB_ERR_IO : put_value(out, v, 2);
+	json_decref(v);
+	if (rc == HB_OK && fputs(last ? "\n" : ",\n", out) == EOF)
+		rc = HB_ERR_IO;
+	return rc;
+}
+
+/*
+ * The document is written as it is read: one sweep (with its points) in
+ * memory at a time, so a part of a million points exports at the memory of
+ * its largest sweep. The parts the sweeps belong to come after them, each
+ * once.
+ */
 int hb_export_json(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err, size_t errlen)
 {
-	json_t *root = json_object(), *parts = json_array(), *sweeps = json_array();
 	int64_t *part_ids = calloc(n ? n : 1, sizeof *part_ids);
 	size_t nparts = 0;
 	int rc = HB_OK;
-	if (!root || !parts || !sweeps || !part_ids) {
+	hb_c_numeric loc;
+	hb_c_numeric_enter(&loc);
+	if (!part_ids) {
 		hb_set_err(err, errlen, "out of memory");
 		rc = HB_ERR_NOMEM;
 		goto out;
+	}
+	/* every sweep is found before a byte is written: a bad id fails the export whole */
+	for (size_t i = 0; i < n; i++) {
+		hb_db_sweep s;
+		if ((rc = hb_db_sweep_get(db, ids[i], &s)) != HB_OK) {
+			hb_set_err(err, errlen, "sweep %lld: %s", (long long)ids[i], hb_db_errmsg(db));
+			goto out;
+		}
+		bool seen = s.part_id <= 0;
+		for (size_t k = 0; k < nparts && !seen; k++)
+			seen = part_ids[k] == s.part_id;
+		if (!seen)
+			part_ids[nparts++] = s.part_id;
 	}
 	char now[32];
 	time_t t = time(NULL);
 	struct tm tm;
 	gmtime_r(&t, &tm);
 	strftime(now, sizeof now, "%Y-%m-%dT%H:%M:%SZ", &tm);
-	json_object_set_new(root, "format", json_string("henrybench-export"));
-	json_object_set_new(root, "format_version", json_integer(2));
-	json_object_set_new(root, "exported", json_string(now));
-	json_object_set_new(root, "henrybench", json_string(HB_VERSION));
-	json_object_set_new(root, "units", json_string("SI: A, V, Hz, H, ohm, F, s, m, m2, T; fractions not percent"));
+	if (fputs("{\n", out) == EOF ||
+	    (rc = put_member(out, "format", json_string("henrybench-export"), false)) != HB_OK ||
+	    (rc = put_member(out, "format_version", json_integer(2), false)) != HB_OK ||
+	    (rc = put_member(out, "exported", json_string(now), false)) != HB_OK ||
+	    (rc = put_member(out, "henrybench", json_string(HB_VERSION), false)) != HB_OK ||
+	    (rc = put_member(out, "units", json_string("SI: A, V, Hz, H, ohm, F, s, m, m2, T; fractions not percent"),
+			      false)) != HB_OK || fputs("  \"sweeps\": [", out) == EOF) {
+		rc = rc != HB_OK ? rc : HB_ERR_IO;
+		goto write_failed;
+	}
 	for (size_t i = 0; i < n; i++) {
 		hb_db_sweep s;
 		if ((rc = hb_db_sweep_get(db, ids[i], &s)) != HB_OK) {
@@ -119,26 +181,35 @@ int hb_export_json(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err
 			rc = HB_ERR_DB;
 			goto out;
 		}
-		json_array_append_new(sweeps, o);
-		bool seen = s.part_id <= 0;
-		for (size_t k = 0; k < nparts && !seen; k++)
-			seen = part_ids[k] == s.part_id;
-		hb_db_part p;
-		if (!seen && hb_db_part_get_id(db, s.part_id, &p) == HB_OK) {
-			part_ids[nparts++] = s.part_id;
-			json_array_append_new(parts, hb_json_part(&p));
-		}
+		rc = fputs(i ? ",\n    " : "\n    ", out) == EOF ? HB_ERR_IO : put_value(out, o, 4);
+		json_decref(o);
+		if (rc != HB_OK)
+			goto write_failed;
 	}
-	json_object_set(root, "parts", parts);
-	json_object_set(root, "sweeps", sweeps);
-	if (hb_json_write(root, out) != HB_OK) {
-		hb_set_err(err, errlen, "write failed");
+	if (fputs(n ? "\n  ],\n  \"parts\": [" : "],\n  \"parts\": [", out) == EOF) {
 		rc = HB_ERR_IO;
+		goto write_failed;
 	}
+	size_t written = 0;
+	for (size_t k = 0; k < nparts; k++) {
+		hb_db_part p;
+		if (hb_db_part_get_id(db, part_ids[k], &p) != HB_OK)
+			continue;
+		json_t *o = hb_json_part(&p);
+		rc = fputs(written++ ? ",\n    " : "\n    ", out) == EOF ? HB_ERR_IO : put_value(out, o, 4);
+		json_decref(o);
+		if (rc != HB_OK)
+			goto write_failed;
+	}
+	if (fputs(written ? "\n  ]\n}\n" : "]\n}\n", out) == EOF) {
+		rc = HB_ERR_IO;
+		goto write_failed;
+	}
+	goto out;
+write_failed:
+	hb_set_err(err, errlen, rc == HB_ERR_NOMEM ? "out of memory" : "write failed");
 out:
-	json_decref(parts);
-	json_decref(sweeps);
-	json_decref(root);
+	hb_c_numeric_leave(&loc);
 	free(part_ids);
 	return rc;
 }
