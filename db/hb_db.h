@@ -423,4 +423,20 @@ void hb_db_history_filter_init(hb_db_history_filter *filter);
 int hb_db_history(hb_db *db, const hb_db_history_filter *filter, hb_db_history_row **out, size_t *count);
 void hb_db_history_free(hb_db_history_row *rows);
 
+/* ---------------- the core set of a part (db_part_core.c, schema step 7) ---------------- */
+
+/* The IEC 60205 shape a part's Ae, le and window came from, its
+ * dimensions as "A=42.15mm,B=21mm,..." and where its gap is. */
+typedef struct hb_db_part_core {
+	char shape[8];      /* "etd", "e", ...; "" = none (toroid or Ae/le typed by hand) */
+	char dims[256];
+	char gap_at[8];     /* "centre" or "spacer" */
+} hb_db_part_core;
+
+void hb_db_part_core_init(hb_db_part_core *c);
+/* HB_ERR_NOTFOUND when the part does not exist; a store older than step 7 gives none. */
+int hb_db_part_core_get(hb_db *db, const char *part_number, hb_db_part_core *out);
+/* The part must exist (store it with hb_db_part_put first). */
+int hb_db_part_core_put(hb_db *db, const char *part_number, const hb_db_part_core *in);
+
 #endif

@@ -246,3 +246,8 @@ DROP TABLE verdicts;
 ALTER TABLE verdicts_new RENAME TO verdicts;
 -- a lot's sample record: the unit's outcome was conditional (counted by the plan's stated policy)
 ALTER TABLE inspections ADD COLUMN conditional INTEGER NOT NULL DEFAULT 0;
+
+-- step 7: the core set of a part (IEC 60205 shape and its dimensions, "" = none) and where its gap is
+ALTER TABLE parts ADD COLUMN core_shape TEXT NOT NULL DEFAULT '';
+ALTER TABLE parts ADD COLUMN core_dims TEXT NOT NULL DEFAULT '';
+ALTER TABLE parts ADD COLUMN gap_at TEXT NOT NULL DEFAULT 'centre' CHECK (gap_at IN ('centre', 'spacer'));

@@ -574,6 +574,11 @@ typedef struct hb_core_shape_result {
 
 /* HB_OK or HB_ERR_ARG with a one-line reason in err. */
 int hb_core_shape_eval(hb_core_shape s, const hb_core_dims *d, hb_core_shape_result *out, char *err, size_t errlen);
+/* "A=42.15mm,B=21mm,..." (SI prefixes, a bare number in metres; "type=3"
+ * for the RM outline) and back (lengths in mm). HB_ERR_ARG with a
+ * one-line reason naming the value and the accepted range. */
+int hb_core_dims_parse(const char *text, hb_core_dims *d, char *err, size_t errlen);
+int hb_core_dims_format(const hb_core_dims *d, char *buf, size_t cap);
 /* A result for a core known only by Ae, le and window (a centre gap only). */
 void hb_core_shape_from_effective(double Ae, double le, double window_height, hb_core_shape_result *out);
 

@@ -8,6 +8,7 @@
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_roots.h>
 
+#include "../common/hb_text.h"
 #include "fit_internal.h"
 
 /*
@@ -585,4 +586,65 @@ int hb_core_gap_physical(const hb_core_shape_result *r, hb_gap_place place, doub
 out:
 	gsl_root_fsolver_free(s);
 	return rc;
+}
+
+/* ---------------- the dimensions as text ---------------- */
+
+/* "A=42.15mm,B=21mm,..." (SI prefixes; a bare number is metres), "type=3" */
+int hb_core_dims_parse(const char *text, hb_core_dims *d, char *err, size_t cap)
+{
+	if (!text || !d)
+		return fail(err, cap, "no dimensions");
+	hb_core_dims_init(d);
+	char buf[512];
+	if (strlen(text) >= sizeof buf)
+		return fail(err, cap, "dimensions '%.40s...' too long (at most %zu characters)", text, sizeof buf - 1);
+	snprintf(buf, sizeof buf, "%s", text);
+	char *save = NULL;
+	int n = 0;
+	for (char *t = strtok_r(buf, ",", &save); t; t = strtok_r(NULL, ",", &save)) {
+		char *eq = strchr(t, '=');
+		if (!eq)
+			return fail(err, cap, "dimension '%s': expected LETTER=VALUE, e.g. A=42.15mm", t);
+		*eq = 0;
+		int i = hb_core_dim_index(t);
+		if (i < 0)
+			return fail(err, cap, "dimension letter '%s' unknown (accepted A B B2 C D E F F2 G H J K L q type)", t);
+		if (isfinite(d->v[i]))
+			return fail(err, cap, "dimension %s given twice", t);
+		double v;
+		char perr[160];
+		if (i == HB_DIM_TYPE) {
+			if (hb_parse_value(eq + 1, "", &v, perr, sizeof perr) != HB_OK || v != floor(v) || v < 1 || v > 4)
+				return fail(err, cap, "type '%s': accepted 1, 2, 3 or 4 (the RM outline)", eq + 1);
+		} else if (hb_parse_value(eq + 1, "m", &v, perr, sizeof perr) != HB_OK || !isfinite(v) ||
+			   (i != HB_DIM_K && !(v >= 0)) || fabs(v) > 1) {
+			return fail(err, cap, "dimension %s '%s': accepted a length up to 1 m, e.g. 12.5mm%s", t, eq + 1,
+				    i == HB_DIM_K ? " (K may be negative)" : "");
+		}
+		d->v[i] = v;
+		n++;
+	}
+	if (n == 0)
+		return fail(err, cap, "no dimensions: expected LETTER=VALUE,..., e.g. A=42.15mm,B=21mm");
+	return HB_OK;
+}
+
+int hb_core_dims_format(const hb_core_dims *d, char *buf, size_t cap)
+{
+	if (!d || !buf || cap == 0)
+		return HB_ERR_ARG;
+	size_t len = 0;
+	buf[0] = 0;
+	for (int i = 0; i < HB_DIM_N; i++) {
+		if (!isfinite(d->v[i]))
+			continue;
+		int w = i == HB_DIM_TYPE ? snprintf(buf + len, cap - len, "%stype=%d", len ? "," : "", (int)d->v[i])
+					 : snprintf(buf + len, cap - len, "%s%s=%.6gmm", len ? "," : "", dim_names[i],
+						    d->v[i] * 1e3);
+		if (w < 0 || (size_t)w >= cap - len)
+			return HB_ERR_ARG;
+		len += (size_t)w;
+	}
+	return HB_OK;
 }
