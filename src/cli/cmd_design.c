@@ -60,7 +60,7 @@ const hb_cmd_opts hb_opts_design = {
 		 "or Ae, le and window), the gap that gives the target incremental inductance at the current\n"
 		 "with the turns held (--turns, default the part's), or the turns with the gap held (--gap).\n"
 		 "Of the two solutions the saturating core allows, the one below the knee is given (the\n"
-		 "largest gap, the fewest turns). U (k from Student's t at the fit's degrees of freedom, 95 %)\n"
+		 "largest gap, the fewest turns). U (k from Student's t at the fit's degrees of freedom, 95.45 %)\n"
 		 "propagates the fit's mu_i and Js (GUM, their covariance); the geometry is taken as exact.\n",
 	.opts = design_table,
 	.max_operands = 0,
@@ -232,7 +232,7 @@ static void print_text(const design_args *a, const hb_db_part *p, const fitted *
 	       ft->r_known ? "" : " (their correlation not stored: taken as 0)");
 	if (o->solved_gap) {
 		printf("  turns       %g (held)\n", o->turns);
-		printf("  gap         %s at %s, U = %s (k = %.2f, 95 %%)\n", hb_format_si(b1, sizeof b1, o->gap_phys, "m", 4),
+		printf("  gap         %s at %s, U = %s (k = %.2f, 95.45 %%)\n", hb_format_si(b1, sizeof b1, o->gap_phys, "m", 4),
 		       hb_gap_place_name(in->place), hb_format_si(b2, sizeof b2, o->U, "m", 2), o->k);
 		printf("              effective %s referred to Ae (McLyman fringing, window %s)\n",
 		       hb_format_si(b3, sizeof b3, o->gap_eff, "m", 4),
@@ -240,7 +240,7 @@ static void print_text(const design_args *a, const hb_db_part *p, const fitted *
 	} else {
 		printf("  gap         %s at %s (held; effective %s)\n", hb_format_si(b1, sizeof b1, o->gap_phys, "m", 4),
 		       hb_gap_place_name(in->place), hb_format_si(b2, sizeof b2, o->gap_eff, "m", 4));
-		printf("  turns       %.4g, U = %.2g (k = %.2f, 95 %%); wound as %.0f turns\n", o->turns, o->U, o->k,
+		printf("  turns       %.4g, U = %.2g (k = %.2f, 95.45 %%); wound as %.0f turns\n", o->turns, o->U, o->k,
 		       ceil(o->turns));
 	}
 	printf("  the design  L0 %s at zero bias, L %s and B %s at %s\n", hb_format_si(b1, sizeof b1, o->L0, "H", 4),
