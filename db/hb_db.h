@@ -438,4 +438,20 @@ int hb_db_plan_watch(hb_db *db, bool on);
 const char *hb_db_plan_findings(const hb_db *db); /* "" = none */
 size_t hb_db_plan_checked(const hb_db *db);       /* statements checked since the watch began */
 
+/* ---------------- the core set of a part (db_part_core.c, schema step 8) ---------------- */
+
+/* The IEC 60205 shape a part's Ae, le and window came from, its
+ * dimensions as "A=42.15mm,B=21mm,..." and where its gap is. */
+typedef struct hb_db_part_core {
+	char shape[8];      /* "etd", "e", ...; "" = none (toroid or Ae/le typed by hand) */
+	char dims[256];
+	char gap_at[8];     /* "centre" or "spacer" */
+} hb_db_part_core;
+
+void hb_db_part_core_init(hb_db_part_core *c);
+/* HB_ERR_NOTFOUND when the part does not exist; a store older than step 8 gives none. */
+int hb_db_part_core_get(hb_db *db, const char *part_number, hb_db_part_core *out);
+/* The part must exist (store it with hb_db_part_put first). */
+int hb_db_part_core_put(hb_db *db, const char *part_number, const hb_db_part_core *in);
+
 #endif

@@ -249,3 +249,7 @@ ALTER TABLE inspections ADD COLUMN conditional INTEGER NOT NULL DEFAULT 0;
 
 -- step 7: an index for the queries of a large store: a sweep's newest fit, found without sorting its fits (history, fit, show)
 CREATE INDEX fits_sweep_newest ON fits(sweep_id, id);
+-- step 8: the core set of a part (IEC 60205 shape and its dimensions, "" = none) and where its gap is
+ALTER TABLE parts ADD COLUMN core_shape TEXT NOT NULL DEFAULT '';
+ALTER TABLE parts ADD COLUMN core_dims TEXT NOT NULL DEFAULT '';
+ALTER TABLE parts ADD COLUMN gap_at TEXT NOT NULL DEFAULT 'centre' CHECK (gap_at IN ('centre', 'spacer'));

@@ -528,4 +528,103 @@ typedef struct hb_unc_dcr {
  * and the referral model, and evaluates it: out->y is R at T_ref. */
 int hb_unc_dcr_budget(hb_unc_budget *b, const hb_unc_dcr *in, double p, hb_unc_result *out);
 
+/* ------------------------------------------------------------------ */
+/* 8. Core shapes (IEC 60205) and gap placement: fit/shapes.c, fit/design.c */
+/* ------------------------------------------------------------------ */
+
+/* Mated core sets; dimensions by the letters of the IEC dimension
+ * standards (IEC 61246, IEC 62317 and IEC 63093 families): A overall
+ * width or outer diameter, B height of one half, C depth, D window height
+ * of one half, E window width or diameter, F centre leg width or diameter,
+ * F2 centre leg depth (EFD), G opening or slot width, H centre hole, J and
+ * L the PQ/RM outline, K centre leg offset, q chamfer, B2 thickness of an I. */
+typedef enum hb_core_shape {
+	HB_SHAPE_E = 0, HB_SHAPE_EI, HB_SHAPE_ETD, HB_SHAPE_EFD, HB_SHAPE_EP, HB_SHAPE_PQ, HB_SHAPE_RM, HB_SHAPE_P,
+	HB_SHAPE_U, HB_SHAPE_UI, HB_SHAPE_N
+} hb_core_shape;
+
+enum {
+	HB_DIM_A = 0, HB_DIM_B, HB_DIM_B2, HB_DIM_C, HB_DIM_D, HB_DIM_E, HB_DIM_F, HB_DIM_F2, HB_DIM_G, HB_DIM_H,
+	HB_DIM_J, HB_DIM_K, HB_DIM_L, HB_DIM_q, HB_DIM_TYPE, HB_DIM_N
+};
+
+typedef struct hb_core_dims {
+	double v[HB_DIM_N]; /* m (HB_DIM_TYPE: the RM outline 1..4); NAN = not given */
+} hb_core_dims;
+
+void hb_core_dims_init(hb_core_dims *d);
+const char *hb_core_dim_name(int i);     /* "A", "F2", "q", "type"; NULL past the end */
+int hb_core_dim_index(const char *name); /* -1 if unknown (case matters: q is not Q) */
+/* "e", "ei", "etd" (also "er"), "efd", "ep", "pq", "rm", "p" (also "pot"), "u", "ui"; any case */
+int hb_core_shape_parse(const char *name, hb_core_shape *out);
+const char *hb_core_shape_name(hb_core_shape s);
+const char *hb_core_shape_letters(hb_core_shape s);  /* required letters, space separated */
+const char *hb_core_shape_optional(hb_core_shape s); /* optional letters */
+const char *hb_core_shape_about(hb_core_shape s);
+
+typedef struct hb_core_shape_result {
+	hb_core_shape shape;    /* HB_SHAPE_N: from Ae/le typed by hand */
+	hb_core_effective eff;  /* C1, C2, le, Ae, Ve of the set */
+	double Amin;            /* smallest section of the set, m^2 */
+	double window_height;   /* the set's full window height (G of the fringing correction), m */
+	double A_centre;        /* section of the leg a ground gap is cut in (one leg of a U), m^2 */
+	double A_outer;         /* the return legs together, m^2; NAN when unknown */
+	int n_outer;            /* return legs the flux splits into (fringing per leg) */
+} hb_core_shape_result;
+
+/* HB_OK or HB_ERR_ARG with a one-line reason in err. */
+int hb_core_shape_eval(hb_core_shape s, const hb_core_dims *d, hb_core_shape_result *out, char *err, size_t errlen);
+/* "A=42.15mm,B=21mm,..." (SI prefixes, a bare number in metres; "type=3"
+ * for the RM outline) and back (lengths in mm). HB_ERR_ARG with a
+ * one-line reason naming the value and the accepted range. */
+int hb_core_dims_parse(const char *text, hb_core_dims *d, char *err, size_t errlen);
+int hb_core_dims_format(const hb_core_dims *d, char *buf, size_t cap);
+/* A result for a core known only by Ae, le and window (a centre gap only). */
+void hb_core_shape_from_effective(double Ae, double le, double window_height, hb_core_shape_result *out);
+
+/* Ground gap in the centre leg, or a spacer of thickness t under every
+ * leg (an E pair's flux then crosses t twice: centre leg and outer legs
+ * in series). */
+typedef enum hb_gap_place { HB_GAP_CENTRE = 0, HB_GAP_SPACER = 1 } hb_gap_place;
+const char *hb_gap_place_name(hb_gap_place p); /* "centre", "spacer" */
+int hb_gap_place_parse(const char *text, hb_gap_place *out); /* "centre" ("center"), "spacer" */
+
+/* The effective gap g of the core model (a gap of section Ae with the
+ * reluctance of the physical one(s), fringing by McLyman per leg with the
+ * window height) of a physical gap t; NAN on bad input. */
+double hb_core_gap_effective(const hb_core_shape_result *r, hb_gap_place place, double t);
+/* Its inverse: the physical t whose effective gap is g_eff. */
+int hb_core_gap_physical(const hb_core_shape_result *r, hb_gap_place place, double g_eff, double *t);
+
+/* The design inverse (fit/design.c): with turns > 0 fixed, the physical
+ * gap at `place` that gives target_L at `current`; with turns <= 0, the
+ * turns for the physical gap `gap`. Of the two roots the core's L(I)
+ * allows it takes the one below the knee (largest gap, fewest turns).
+ * u_c, U, k: GUM propagation of the fit's mu_i and Js (standard errors
+ * and correlation) through the solution; the geometry is taken as exact. */
+typedef struct hb_design_in {
+	hb_core_law law;
+	double mu_i, Js;            /* fitted */
+	double u_mu_i, u_Js, r_mu_js; /* their standard uncertainties and correlation */
+	double dof;                 /* degrees of freedom of the fit; <= 0: infinite */
+	hb_core_shape_result core;  /* Ae, le, window, leg sections */
+	hb_gap_place place;
+	double target_L, current;   /* H, A */
+	double turns;               /* > 0: fixed, solve the gap */
+	double gap;                 /* physical, m: fixed when turns <= 0, solve the turns */
+} hb_design_in;
+
+typedef struct hb_design_out {
+	bool solved_gap;            /* true: the gap was solved; false: the turns */
+	double gap_eff, gap_phys;   /* m */
+	double turns;
+	double u_c, U, k, dof_eff;  /* of the solved quantity (gap_phys in m, or turns) */
+	double L0, L_at, B_at;      /* the design's zero-bias L, L and B at the current */
+	char why[160];              /* why there is no solution */
+} hb_design_out;
+
+/* HB_OK, HB_ERR_ARG (bad input), HB_ERR_DATA (the target cannot be
+ * reached: why says how close it gets), HB_ERR_FIT. */
+int hb_design_solve(const hb_design_in *in, hb_design_out *out);
+
 #endif

@@ -203,4 +203,8 @@ extern const hb_cmd_opts hb_opts_export;
 extern const hb_cmd_opts hb_opts_import;
 extern const hb_cmd_opts hb_opts_completion;
 
+/* ---------------- design (cmd_design.c) ---------------- */
+int hb_cmd_design(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_design;
+
 #endif

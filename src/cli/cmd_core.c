@@ -1,4 +1,4 @@
-/* src/cli/cmd_core.c - the `core` command: effective core parameters (IEC 60205) and expected inductance */
+/* src/cli/cmd_core.c - the `core` command: effective core parameters (IEC 60205) of toroids, sections and core sets, gaps, expected inductance */
 #include <math.h>
 #include <stddef.h>
 #include <stdio.h>
@@ -20,6 +20,9 @@ typedef struct winding {
 typedef struct core_args {
 	double od, id, height, diameter, length;
 	bool have_od, have_id, have_height, have_diameter, have_length, json;
+	bool have_dims, have_place;
+	hb_core_dims dims;
+	hb_gap_place place;
 	double sec_len[MAX_SECTIONS], sec_area[MAX_SECTIONS];
 	size_t n_sections;
 	winding w;
@@ -48,6 +51,34 @@ static int take_section(const hb_opt *o, const char *text, void *field)
 	return HB_OK;
 }
 
+/* LETTER=VALUE,... of an IEC core set (fit/shapes.c parses them). */
+static int take_dims(const hb_opt *o, const char *text, void *field)
+{
+	core_args *a = field;
+	char err[200];
+	(void)o;
+	if (hb_core_dims_parse(text, &a->dims, err, sizeof err) != HB_OK) {
+		hb_cli_error("--dims: %s", err);
+		return HB_ERR_ARG;
+	}
+	a->have_dims = true;
+	return HB_OK;
+}
+
+static const char *const place_words[] = { "centre", "spacer", NULL };
+
+static int take_place(const hb_opt *o, const char *text, void *field)
+{
+	core_args *a = field;
+	if (hb_gap_place_parse(text, &a->place) != HB_OK) {
+		hb_cli_error("--%s '%s' unknown: accepted centre (ground in the centre leg) or spacer (under every leg)",
+			     o->name, text);
+		return HB_ERR_ARG;
+	}
+	a->have_place = true;
+	return HB_OK;
+}
+
 #define CORE_LENGTH(n, field_, hi, text)                                                                          \
 	{ .name = n, .kind = HB_OPT_VALUE, .arg = "D", .unit = "m", .min = 1e-5, .max = hi,                        \
 	  .off = offsetof(core_args, field_), .given = HB_OPT_GIVEN(core_args, have_##field_), .help = text }
@@ -70,6 +101,10 @@ static const hb_opt core_table[] = {
 	{ .name = "gap", .kind = HB_OPT_VALUE, .arg = "G", .unit = "m", .min = 0, .max = 0.1,
 	  .off = offsetof(core_args, w.gap), .given = HB_OPT_GIVEN(core_args, w.have_gap),
 	  .help = "air gap, with --mu" },
+	{ .name = "dims", .kind = HB_OPT_CUSTOM, .arg = "L=V,...", .parse = take_dims, .off = 0,
+	  .help = "core set: its dimensions by letter, e.g. A=34.2mm,B=17.3mm,C=10.8mm,D=12.1mm,E=26.3mm,F=10.8mm" },
+	{ .name = "gap-at", .kind = HB_OPT_CUSTOM, .arg = "centre|spacer", .words = place_words, .parse = take_place,
+	  .off = 0, .help = "core set: --gap ground in the centre leg (default) or a spacer under every leg" },
 	CORE_LENGTH("diameter", diameter, 10, "solenoid: diameter"),
 	CORE_LENGTH("length", length, 100, "solenoid: length"),
 	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(core_args, json), .help = "one JSON object on stdout" },
@@ -79,16 +114,34 @@ static const hb_opt core_table[] = {
 const hb_cmd_opts hb_opts_core = {
 	.name = "core",
 	.usage = "toroid --od D --id D --height H [WINDING] [--json]\n"
+		 "       henrybench core SHAPE --dims A=..,B=..,... [--gap G [--gap-at centre|spacer]] [WINDING] [--json]\n"
 		 "       henrybench core sections --section LEN:AREA [--section ...] [WINDING] [--json]\n"
 		 "       henrybench core solenoid --diameter D --length L --turns N [--json]\n"
 		 "  WINDING: --turns N with --mu MU [--gap G] or --al AL  (expected inductance)",
 	.about = "Effective parameters per IEC 60205: C1 = sum l/A, C2 = sum l/A^2, le = C1^2/C2,\n"
 		 "Ae = C1/C2, Ve = le Ae; gapped: mu_e = mu/(1 + mu g/le); L = mu0 mu_e N^2 Ae/le = AL N^2.\n"
 		 "Solenoid: single-layer air core, exact current-sheet value (Nagaoka) and Wheeler 1928.\n"
-		 "Values take SI prefixes and units: 25mm, 50mm2, 250nH, 0.3mm.\n",
+		 "Values take SI prefixes and units: 25mm, 50mm2, 250nH, 0.3mm.\n"
+		 "Core sets (a mated pair, or an E or U with its I), dimensions by the letters of the IEC\n"
+		 "dimension standards (IEC 61246, IEC 62317, IEC 63093 families; docs/cores.md), each the\n"
+		 "mean of its drawing limits:\n"
+		 "  e    A B C D E F           E pair: A width, B half height, C depth, D half window height,\n"
+		 "                             E window width, F centre leg width\n"
+		 "  ei   A B C D E F B2        E with an I: D the E's window height, B2 the I's thickness\n"
+		 "  etd  A B C D E F           ETD or ER pair: F centre leg diameter, E window circle\n"
+		 "  efd  A B C D E F F2 [K q]  EFD pair: F x F2 centre leg, K its offset, q its chamfer\n"
+		 "  ep   A B C D E F [K]       EP pair: K depth of the centre leg's axis (F/2)\n"
+		 "  pq   A B C D E F G J L     PQ pair: G outer-leg opening, J and L the centre block\n"
+		 "  rm   A B C D E F G J [H type]  RM pair: H centre hole, type 1..4 the outline (3)\n"
+		 "  p    A B D E F [H G]       pot core pair: A, E ring diameters, F post, H hole, G slot width\n"
+		 "  u    A B C D E             U pair: legs (A - E)/2 wide\n"
+		 "  ui   A B C D E B2          U with an I of thickness B2\n"
+		 "A gap G at --gap-at centre is ground into the centre leg; a spacer of thickness G lies under\n"
+		 "every leg, so the flux crosses it in the centre and in the outer legs. Fringing: McLyman\n"
+		 "F = 1 + (G/sqrt(A)) ln(2 W/G) per gapped leg, W the set's window height.\n",
 	.opts = core_table,
 	.max_operands = 0,
-	.operands = "toroid sections solenoid",
+	.operands = "toroid sections solenoid e ei etd efd ep pq rm p u ui",
 };
 
 /* argv[0] is the shape. */
@@ -165,6 +218,116 @@ static void print_effective(const char *shape, const hb_core_effective *e, const
 	if (isfinite(L))
 		printf("  L    %10s         (N = %g; at zero bias, small signal)\n", hb_format_si(buf, sizeof buf, L, "H", 4),
 		       w->turns);
+}
+
+static void print_shape(const hb_core_shape_result *r, const core_args *a)
+{
+	const winding *w = &a->w;
+	double g_eff = NAN, mu_e = NAN, al = NAN, L = NAN, rel = NAN;
+	if (w->have_gap) {
+		g_eff = hb_core_gap_effective(r, a->place, w->gap);
+		rel = g_eff / (HB_FIT_MU0 * r->eff.Ae);
+	}
+	if (w->have_mu) {
+		mu_e = w->have_gap ? hb_fit_mu_gapped(w->mu, g_eff, r->eff.le) : w->mu;
+		al = HB_FIT_MU0 * mu_e * r->eff.Ae / r->eff.le;
+	} else if (w->have_al) {
+		al = w->al;
+		mu_e = al * r->eff.le / (HB_FIT_MU0 * r->eff.Ae);
+	}
+	if (w->have_turns && isfinite(al))
+		L = hb_fit_expected_L_al(al, w->turns);
+	char dims[512];
+	hb_core_dims_format(&a->dims, dims, sizeof dims);
+	const char *name = hb_core_shape_name(r->shape);
+	if (a->json) {
+		json_t *j = json_object();
+		json_object_set_new(j, "shape", json_string(name));
+		json_object_set_new(j, "dims", json_string(dims));
+		json_object_set_new(j, "method", json_string("IEC 60205"));
+		json_object_set_new(j, "C1_per_m", json_real(r->eff.C1));
+		json_object_set_new(j, "C2_per_m3", json_real(r->eff.C2));
+		json_object_set_new(j, "le_m", json_real(r->eff.le));
+		json_object_set_new(j, "Ae_m2", json_real(r->eff.Ae));
+		json_object_set_new(j, "Ve_m3", json_real(r->eff.Ve));
+		json_object_set_new(j, "Amin_m2", json_real(r->Amin));
+		json_object_set_new(j, "window_height_m", json_real(r->window_height));
+		json_object_set_new(j, "A_centre_m2", json_real(r->A_centre));
+		json_object_set_new(j, "A_outer_m2", json_real(r->A_outer));
+		if (w->have_gap) {
+			json_object_set_new(j, "gap_m", json_real(w->gap));
+			json_object_set_new(j, "gap_at", json_string(hb_gap_place_name(a->place)));
+			json_object_set_new(j, "gap_effective_m", json_real(g_eff));
+			json_object_set_new(j, "gap_reluctance_per_H", json_real(rel));
+		}
+		if (isfinite(mu_e)) {
+			json_object_set_new(j, "mu_e", json_real(mu_e));
+			json_object_set_new(j, "AL_H", json_real(al));
+		}
+		if (w->have_turns)
+			json_object_set_new(j, "turns", json_real(w->turns));
+		if (isfinite(L))
+			json_object_set_new(j, "L_H", json_real(L));
+		(void)hb_print_json(j);
+		return;
+	}
+	char buf[40];
+	printf("%s core set, effective parameters (IEC 60205)\n", name);
+	printf("  dimensions %s\n", dims);
+	printf("  C1   %10.5g mm^-1   (sum l/A)\n", r->eff.C1 * 1e-3);
+	printf("  C2   %10.5g mm^-3   (sum l/A^2)\n", r->eff.C2 * 1e-9);
+	printf("  le   %10.4f mm      (C1^2/C2)\n", r->eff.le * 1e3);
+	printf("  Ae   %10.4f mm^2    (C1/C2)\n", r->eff.Ae * 1e6);
+	printf("  Ve   %10.4g mm^3    (le Ae)\n", r->eff.Ve * 1e9);
+	printf("  Amin %10.4f mm^2    (smallest section)\n", r->Amin * 1e6);
+	printf("  window height %.4f mm; centre leg %.4f mm^2", r->window_height * 1e3, r->A_centre * 1e6);
+	if (isfinite(r->A_outer))
+		printf(", return legs %.4f mm^2", r->A_outer * 1e6);
+	printf("\n");
+	if (w->have_gap) {
+		printf("  gap  %s at %s: effective %s referred to Ae (McLyman fringing per leg), reluctance %.4g 1/H\n",
+		       hb_format_si(buf, sizeof buf, w->gap, "m", 4), hb_gap_place_name(a->place),
+		       hb_format_si((char[40]){ 0 }, 40, g_eff, "m", 4), rel);
+	}
+	if (isfinite(mu_e)) {
+		printf("  mu_e %10.5g         (%s)\n", mu_e,
+		       w->have_gap ? "mu/(1 + mu g_eff/le)" : w->have_al ? "from AL" : "ungapped: mu");
+		printf("  AL   %10s\n", hb_format_si(buf, sizeof buf, al, "H", 4));
+	}
+	if (isfinite(L))
+		printf("  L    %10s         (N = %g; at zero bias, small signal)\n", hb_format_si(buf, sizeof buf, L, "H", 4),
+		       w->turns);
+}
+
+static int run_shape(hb_core_shape shape, core_args *a)
+{
+	if (!a->have_dims) {
+		hb_cli_error("core %s needs --dims with the letters %s (optional: %s)", hb_core_shape_name(shape),
+			     hb_core_shape_letters(shape),
+			     hb_core_shape_optional(shape)[0] ? hb_core_shape_optional(shape) : "none");
+		return HB_EXIT_USAGE;
+	}
+	if (a->have_place && !a->w.have_gap) {
+		hb_cli_error("--gap-at says where --gap is: give --gap too");
+		return HB_EXIT_USAGE;
+	}
+	/* a gap alone is fine here: the set gives its reluctance */
+	if ((a->w.have_mu || a->w.have_al || a->w.have_turns || !a->w.have_gap) && check_winding(&a->w))
+		return HB_EXIT_USAGE;
+	hb_core_shape_result r;
+	char err[200];
+	if (hb_core_shape_eval(shape, &a->dims, &r, err, sizeof err) != HB_OK) {
+		hb_cli_error("%s", err);
+		return HB_EXIT_USAGE;
+	}
+	if (a->w.have_gap && !(a->w.gap < r.window_height)) {
+		char g[32], wh[32];
+		hb_cli_error("--gap %s must be shorter than the window height %s", hb_format_si(g, sizeof g, a->w.gap, "m", 4),
+			     hb_format_si(wh, sizeof wh, r.window_height, "m", 4));
+		return HB_EXIT_USAGE;
+	}
+	print_shape(&r, a);
+	return HB_EXIT_OK;
 }
 
 static int run_toroid(core_args *a)
@@ -264,6 +427,11 @@ int hb_cmd_core(int argc, char **argv)
 		return run_sections(&a);
 	if (strcmp(shape, "solenoid") == 0)
 		return run_solenoid(&a);
-	hb_cli_error("core: unknown shape '%s' (accepted: toroid, sections, solenoid)", shape);
+	hb_core_shape cs;
+	if (hb_core_shape_parse(shape, &cs) == HB_OK)
+		return run_shape(cs, &a);
+	hb_cli_error("core: unknown shape '%s' (accepted: toroid, sections, solenoid, e, ei, etd, er, efd, ep, pq, rm, "
+		     "p, u, ui)",
+		     shape);
 	return HB_EXIT_USAGE;
 }

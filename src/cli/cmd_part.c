@@ -20,6 +20,11 @@ typedef struct part_edit {
 	bool desc, maker, nominal, tol, freq, level, sat_current, sat_drop, rated, dcr, turns, core, ae, le,
 		window, mu_i, bsat, rule, guard_r;
 	bool json;
+	/* --core SHAPE:dims (an IEC 60205 set) and --gap-at */
+	bool core_set, gap_at;
+	hb_core_shape shape;
+	hb_core_dims dims;
+	hb_gap_place place;
 } part_edit;
 
 /* The spec's test level: a voltage (0.1V) or a current (10mA). */
@@ -46,15 +51,31 @@ static int take_level(const hb_opt *o, const char *text, void *field)
 	return HB_OK;
 }
 
-/* "toroid:OD/ID/H", each a length. */
+/* "toroid:OD/ID/H", each a length, or "SHAPE:A=..,B=..,..." of an IEC
+ * core set (fit/shapes.c: e, ei, etd, efd, ep, pq, rm, p, u, ui). */
 static int take_core(const hb_opt *o, const char *text, void *field)
 {
-	hb_db_part *p = field;
+	part_edit *e = field;
+	hb_db_part *p = &e->p;
 	(void)o;
 	static const char prefix[] = "toroid:";
+	const char *colon = strchr(text, ':');
 	if (strncmp(text, prefix, sizeof prefix - 1) != 0) {
-		hb_cli_error("--core '%s' unknown: accepted toroid:OD/ID/H, e.g. toroid:25mm/15mm/10mm "
-			     "(other shapes: give --ae and --le)",
+		char name[8];
+		if (colon && (size_t)(colon - text) < sizeof name) {
+			snprintf(name, sizeof name, "%.*s", (int)(colon - text), text);
+			if (hb_core_shape_parse(name, &e->shape) == HB_OK) {
+				char err[200];
+				if (hb_core_dims_parse(colon + 1, &e->dims, err, sizeof err) != HB_OK) {
+					hb_cli_error("--core %s: %s", name, err);
+					return HB_ERR_ARG;
+				}
+				e->core_set = true;
+				return HB_OK;
+			}
+		}
+		hb_cli_error("--core '%s' unknown: accepted toroid:OD/ID/H (e.g. toroid:25mm/15mm/10mm) or "
+			     "SHAPE:A=..,B=..,... with SHAPE e, ei, etd, efd, ep, pq, rm, p, u or ui (see 'henrybench core --help')",
 			     text);
 		return HB_ERR_ARG;
 	}
@@ -84,6 +105,19 @@ static int take_core(const hb_opt *o, const char *text, void *field)
 	p->toroid_od_m = d[0];
 	p->toroid_id_m = d[1];
 	p->toroid_h_m = d[2];
+	return HB_OK;
+}
+
+static const char *const place_words[] = { "centre", "spacer", NULL };
+
+static int take_gap_at(const hb_opt *o, const char *text, void *field)
+{
+	part_edit *e = field;
+	if (hb_gap_place_parse(text, &e->place) != HB_OK) {
+		hb_cli_error("--%s '%s' unknown: accepted centre (ground in the centre leg) or spacer (under every leg)",
+			     o->name, text);
+		return HB_ERR_ARG;
+	}
 	return HB_OK;
 }
 
@@ -159,9 +193,13 @@ static const hb_opt part_table[] = {
 	PART_NUMBER("dcr-max", "R", "ohm", 1e-6, 1e6, dcr_max_ohm, dcr, "maximum DC resistance, e.g. 25mOhm"),
 	{ .name = "turns", .kind = HB_OPT_INT, .arg = "N", .min = 1, .max = 100000, .off = offsetof(part_edit, p.turns),
 	  .given = HB_OPT_GIVEN(part_edit, turns), .help = "number of turns" },
-	{ .name = "core", .kind = HB_OPT_CUSTOM, .arg = "toroid:OD/ID/H", .parse = take_core,
-	  .off = offsetof(part_edit, p), .given = HB_OPT_GIVEN(part_edit, core),
-	  .help = "toroid dimensions, e.g. toroid:25mm/15mm/10mm (Ae, le per IEC 60205)" },
+	{ .name = "core", .kind = HB_OPT_CUSTOM, .arg = "toroid:OD/ID/H|SHAPE:L=V,...", .parse = take_core, .off = 0,
+	  .given = HB_OPT_GIVEN(part_edit, core),
+	  .help = "core: toroid:25mm/15mm/10mm, or a set such as etd:A=34.2mm,B=17.3mm,C=10.8mm,D=12.1mm,E=26.3mm,"
+		  "F=10.8mm (Ae, le and window per IEC 60205; letters in 'henrybench core --help')" },
+	{ .name = "gap-at", .kind = HB_OPT_CUSTOM, .arg = "centre|spacer", .words = place_words, .parse = take_gap_at,
+	  .off = 0, .given = HB_OPT_GIVEN(part_edit, gap_at),
+	  .help = "where the core set's gap is: ground in the centre leg (default) or a spacer under every leg" },
 	PART_NUMBER("ae", "A", "m2", 1e-10, 1e-1, ae_m2, ae, "effective area, e.g. 48.9mm2"),
 	PART_NUMBER("le", "L", "m", 1e-5, 10, le_m, le, "effective path length, e.g. 60.2mm"),
 	PART_NUMBER("window", "H", "m", 1e-5, 1, window_m, window, "winding window height, e.g. 9mm"),
@@ -205,7 +243,7 @@ static int parse_spec_options(int argc, char **argv, part_edit *e, bool allow_js
 		return HB_EXIT_USAGE;
 	}
 	if (e->core && (e->ae || e->le)) {
-		hb_cli_error("part: give either --core toroid:OD/ID/H or --ae/--le, not both");
+		hb_cli_error("part: give either --core or --ae/--le, not both");
 		return HB_EXIT_USAGE;
 	}
 	return HB_EXIT_OK;
@@ -221,6 +259,26 @@ static int toroid_effective(hb_db_part *p)
 	}
 	p->ae_m2 = eff.Ae;
 	p->le_m = eff.le;
+	return HB_OK;
+}
+
+/* Ae, le and (unless --window says otherwise) the window height of an
+ * IEC core set (fit/shapes.c). */
+static int set_effective(part_edit *e)
+{
+	hb_core_shape_result r;
+	char err[200];
+	if (hb_core_shape_eval(e->shape, &e->dims, &r, err, sizeof err) != HB_OK) {
+		hb_cli_error("--core: %s", err);
+		return HB_ERR_ARG;
+	}
+	e->p.ae_m2 = r.eff.Ae;
+	e->p.le_m = r.eff.le;
+	e->p.toroid_od_m = e->p.toroid_id_m = e->p.toroid_h_m = NAN;
+	if (!e->window) {
+		e->p.window_m = r.window_height;
+		e->window = true;
+	}
 	return HB_OK;
 }
 
@@ -261,6 +319,30 @@ static void merge(hb_db_part *dst, const part_edit *e)
 		dst->toroid_od_m = dst->toroid_id_m = dst->toroid_h_m = NAN;
 }
 
+/* The stored core set follows --core and --ae/--le: a set records its
+ * shape and dimensions, a toroid or a typed Ae/le clears it. */
+static int core_set_put(hb_db *db, const char *pn, const part_edit *e, bool add)
+{
+	if (!e->core && !e->ae && !e->le && !e->gap_at)
+		return HB_OK;
+	hb_db_part_core c;
+	if (add)
+		hb_db_part_core_init(&c);
+	else if (hb_db_part_core_get(db, pn, &c) != HB_OK)
+		return HB_ERR_DB;
+	if (e->core_set) {
+		snprintf(c.shape, sizeof c.shape, "%s", hb_core_shape_name(e->shape));
+		if (hb_core_dims_format(&e->dims, c.dims, sizeof c.dims) != HB_OK)
+			return HB_ERR_ARG;
+	} else if (e->core || e->ae || e->le) {
+		c.shape[0] = 0;
+		c.dims[0] = 0;
+	}
+	if (e->gap_at)
+		snprintf(c.gap_at, sizeof c.gap_at, "%s", hb_gap_place_name(e->place));
+	return hb_db_part_core_put(db, pn, &c);
+}
+
 static int part_write(int argc, char **argv, bool add)
 {
 	part_edit e;
@@ -289,7 +371,7 @@ static int part_write(int argc, char **argv, bool add)
 			return HB_EXIT_USAGE;
 		}
 	}
-	if (e.core && toroid_effective(&e.p) != HB_OK)
+	if (e.core && (e.core_set ? set_effective(&e) : toroid_effective(&e.p)) != HB_OK)
 		return HB_EXIT_USAGE;
 
 	hb_db *db = hb_cli_open_store();
@@ -314,7 +396,17 @@ static int part_write(int argc, char **argv, bool add)
 		snprintf(stored.part_number, sizeof stored.part_number, "%s", pn);
 	}
 	merge(&stored, &e);
-	if (hb_db_part_put(db, &stored) != HB_OK) {
+	/* the part and its core set in one transaction */
+	if (hb_db_batch_begin(db) != HB_OK) {
+		hb_cli_error("%s", hb_db_errmsg(db));
+		goto out;
+	}
+	if (hb_db_part_put(db, &stored) != HB_OK || core_set_put(db, pn, &e, add) != HB_OK) {
+		hb_cli_error("%s", hb_db_errmsg(db));
+		hb_db_batch_rollback(db);
+		goto out;
+	}
+	if (hb_db_batch_commit(db) != HB_OK) {
 		hb_cli_error("%s", hb_db_errmsg(db));
 		goto out;
 	}
@@ -400,15 +492,25 @@ static int part_show(int argc, char **argv)
 	if (!db)
 		return HB_EXIT_RUNTIME;
 	hb_db_part p;
+	hb_db_part_core cs;
 	int status = hb_db_part_get(db, argv[first], &p);
+	if (status == HB_OK)
+		status = hb_db_part_core_get(db, argv[first], &cs);
 	if (status != HB_OK) {
 		hb_cli_error("%s", hb_db_errmsg(db));
 		hb_db_close(db);
 		return status == HB_ERR_NOTFOUND ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
 	}
 	hb_db_close(db);
-	if (e.json)
-		return hb_print_json(hb_json_part(&p)) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
+	if (e.json) {
+		json_t *j = hb_json_part(&p);
+		if (j) {
+			json_object_set_new(j, "core_shape", json_string(cs.shape));
+			json_object_set_new(j, "core_dims", json_string(cs.dims));
+			json_object_set_new(j, "gap_at", json_string(cs.gap_at));
+		}
+		return hb_print_json(j) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
+	}
 	char a[64], b[64], c[160];
 	printf("part %s\n", p.part_number);
 	show_line("description", p.description[0] ? p.description : "-");
@@ -434,6 +536,11 @@ static int part_show(int argc, char **argv)
 			 p.toroid_h_m * 1e3);
 		show_line("toroid", c);
 	}
+	if (cs.shape[0]) {
+		snprintf(c, sizeof c, "%s %s (Ae, le, window per IEC 60205)", cs.shape, cs.dims);
+		show_line("core set", c);
+	}
+	show_line("gap placement", cs.gap_at);
 	if (isnan(p.ae_m2))
 		show_line("Ae", "-");
 	else {

@@ -7,6 +7,7 @@ const hb_command hb_commands[] = {
 	{ "sim", hb_cmd_sim, "serve the simulated bench over TCP or a pseudo-terminal", &hb_opts_sim },
 	{ "demo", hb_cmd_demo, "run the main job on the simulated bench", &hb_opts_demo },
 	{ "core", hb_cmd_core, "core geometry: effective parameters, expected inductance", &hb_opts_core },
+	{ "design", hb_cmd_design, "the gap or turns that give a target L at a current, from a part's core fit", &hb_opts_design },
 	{ "sweep", hb_cmd_sweep, "measure L against DC bias, store every point, fit and judge", &hb_opts_sweep },
 	{ "fsweep", hb_cmd_fsweep, "measure L and R against frequency (optionally under bias)", &hb_opts_fsweep },
 	{ "fit", hb_cmd_fit, "fit a stored sweep again and store the fit", &hb_opts_fit },
