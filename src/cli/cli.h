@@ -203,4 +203,13 @@ extern const hb_cmd_opts hb_opts_export;
 extern const hb_cmd_opts hb_opts_import;
 extern const hb_cmd_opts hb_opts_completion;
 
+/* ---------------- record handles (cli_ids.c) ---------------- */
+/* A record handle as typed: a positive integer (the local id) or a global
+ * identity, looked up in the store of --db. Prints the one-line error;
+ * HB_ERR_ARG for a malformed or unknown handle. kind is an hb_db_record. */
+int hb_cli_resolve_id(int kind, const char *text, long long *id);
+/* A part's global identity typed where a part number is asked: its part
+ * number (in buf); anything else is returned as it is. */
+const char *hb_cli_part_number(const char *text, char *buf, size_t cap);
+
 #endif

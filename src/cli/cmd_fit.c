@@ -54,14 +54,7 @@ static int take_fix(const hb_opt *o, const char *text, void *field)
 
 int hb_cli_parse_sweep_id(const char *text, long long *id)
 {
-	char *end = NULL;
-	long long v = strtoll(text, &end, 10);
-	if (!end || *end || v <= 0) {
-		hb_cli_error("sweep id '%s' is not a positive integer", text);
-		return HB_ERR_ARG;
-	}
-	*id = v;
-	return HB_OK;
+	return hb_cli_resolve_id(HB_DB_REC_SWEEP, text, id);
 }
 
 /* knee, core or all: which models are fitted. */
