@@ -212,4 +212,8 @@ int hb_cli_resolve_id(int kind, const char *text, long long *id);
  * number (in buf); anything else is returned as it is. */
 const char *hb_cli_part_number(const char *text, char *buf, size_t cap);
 
+/* ---------------- verify (cmd_verify.c) ---------------- */
+int hb_cmd_verify(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_verify;
+
 #endif

@@ -69,48 +69,21 @@ int hb_cmd_report(int argc, char **argv)
 		hb_db_close(db);
 		return HB_EXIT_RUNTIME;
 	}
-	/* Written beside the target and renamed, so a failed run never leaves
-	 * half a record where a complete one is expected. */
-	bool to_stdout = strcmp(out_path, "-") == 0;
-	char tmp[4096];
-	snprintf(tmp, sizeof tmp, "%s.tmp%ld", out_path, (long)getpid());
-	FILE *out = to_stdout ? stdout : fopen(tmp, "w");
-	if (!out) {
-		hb_cli_error("cannot write %s: %s", tmp, strerror(errno));
-		hb_db_close(db);
-		return HB_EXIT_RUNTIME;
-	}
-	char err[300] = "";
-	int rc;
-	if (sweep_id > 0)
-		rc = hb_report_sweep(db, (int64_t)sweep_id, out, err, sizeof err);
-	else if (lot)
-		rc = hb_report_lot(db, part, lot, out, err, sizeof err);
-	else
-		rc = hb_report_part(db, part, out, err, sizeof err);
+	char part_buf[HB_DB_ID_LEN];
+	hb_report_request rq = { .kind = sweep_id > 0 ? HB_REPORT_SWEEP : lot ? HB_REPORT_LOT : HB_REPORT_PART,
+				 .sweep_id = (int64_t)sweep_id,
+				 .part_number = part ? hb_cli_part_number(part, part_buf, sizeof part_buf) : NULL,
+				 .lot_code = lot, .path = out_path };
+	char err[300] = "", number[HB_DB_UID_LEN] = "";
+	/* written beside the target and renamed, hashed and filed in the store (report_file.c) */
+	int rc = hb_report_file(db, &rq, number, err, sizeof err);
 	hb_db_close(db);
-	if (to_stdout) {
-		if (fflush(stdout) != 0 && rc == HB_OK) {
-			rc = HB_ERR_IO;
-			snprintf(err, sizeof err, "write to standard output failed");
-		}
-	} else {
-		if (fclose(out) != 0 && rc == HB_OK) {
-			rc = HB_ERR_IO;
-			snprintf(err, sizeof err, "cannot write %s: %s", tmp, strerror(errno));
-		}
-		if (rc == HB_OK && rename(tmp, out_path) != 0) {
-			rc = HB_ERR_IO;
-			snprintf(err, sizeof err, "cannot rename %s to %s: %s", tmp, out_path, strerror(errno));
-		}
-		if (rc != HB_OK)
-			unlink(tmp);
-	}
+	bool to_stdout = strcmp(out_path, "-") == 0;
 	if (rc != HB_OK) {
 		hb_cli_error("report: %s", err[0] ? err : hb_status_name(rc));
 		return rc == HB_ERR_ARG || rc == HB_ERR_NOTFOUND ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
 	}
 	if (!to_stdout)
-		printf("report written: %s\n", out_path);
+		printf("report %s written: %s\n", number, out_path);
 	return HB_EXIT_OK;
 }
