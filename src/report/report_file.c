@@ -399,8 +399,21 @@ void rpt_trace_identities(hb_html *h, hb_db *db)
 			if (strcmp(st->kind, "sweep") == 0)
 				kv_uid(h, db, "Unit", HB_DB_REC_UNIT, s.unit_id);
 			hb_db_unit u;
-			if (s.unit_id > 0 && hb_db_unit_get(db, s.unit_id, &u) == HB_OK && strcmp(st->kind, "part") != 0)
+			if (s.unit_id > 0 && hb_db_unit_get(db, s.unit_id, &u) == HB_OK && strcmp(st->kind, "part") != 0) {
 				kv_uid(h, db, "Lot", HB_DB_REC_LOT, u.lot_id);
+				hb_db_lot_decision_rec *ld = NULL;
+				size_t nld = 0;
+				if (strcmp(st->kind, "lot") == 0 && u.lot_id > 0 &&
+				    hb_db_lot_decision_list(db, u.lot_id, &ld, &nld) == HB_OK) {
+					for (size_t i = 0; i < nld; i++) {
+						char line[160];
+						snprintf(line, sizeof line, "%s at %s: %s",
+							 hb_db_lot_decision_name(ld[i].decision), ld[i].decided, ld[i].uid);
+						hb_html_kv_row(h, "Lot decision", line);
+					}
+				}
+				hb_db_lot_decisions_free(ld);
+			}
 		}
 	}
 	hb_html_kv_row(h, "Data SHA-256", st->data_sha256);
