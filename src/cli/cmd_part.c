@@ -276,7 +276,8 @@ static int part_write(int argc, char **argv, bool add)
 		hb_cli_error("part %s needs exactly one PARTNO (try 'henrybench part --help')", argv[0]);
 		return HB_EXIT_USAGE;
 	}
-	const char *pn = argv[first];
+	char pnbuf[HB_DB_ID_LEN];
+	const char *pn = add ? argv[first] : hb_cli_part_number(argv[first], pnbuf, sizeof pnbuf);
 	if (!*pn || strlen(pn) >= HB_DB_ID_LEN) {
 		hb_cli_error("part number '%s': accepted 1 to %d characters", pn, HB_DB_ID_LEN - 1);
 		return HB_EXIT_USAGE;
@@ -400,17 +401,36 @@ static int part_show(int argc, char **argv)
 	if (!db)
 		return HB_EXIT_RUNTIME;
 	hb_db_part p;
-	int status = hb_db_part_get(db, argv[first], &p);
+	char pnbuf[HB_DB_ID_LEN];
+	int status = hb_db_part_get(db, hb_cli_part_number(argv[first], pnbuf, sizeof pnbuf), &p);
 	if (status != HB_OK) {
 		hb_cli_error("%s", hb_db_errmsg(db));
 		hb_db_close(db);
 		return status == HB_ERR_NOTFOUND ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
 	}
+	/* its global identity and the spec revision in force (a store before step 7 has neither) */
+	char uid[HB_DB_UID_LEN] = "";
+	hb_db_spec_revision rev;
+	bool have_rev = hb_db_spec_revision_get(db, p.id, 0, &rev) == HB_OK;
+	hb_db_uid_of(db, HB_DB_REC_PART, p.id, uid);
 	hb_db_close(db);
-	if (e.json)
-		return hb_print_json(hb_json_part(&p)) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
+	if (e.json) {
+		json_t *o = hb_json_part(&p);
+		if (o) {
+			json_object_set_new(o, "uid", uid[0] ? json_string(uid) : json_null());
+			json_object_set_new(o, "spec_revision", have_rev ? json_integer(rev.revision) : json_null());
+			json_object_set_new(o, "spec_revision_uid", have_rev ? json_string(rev.uid) : json_null());
+		}
+		return hb_print_json(o) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
+	}
 	char a[64], b[64], c[160];
 	printf("part %s\n", p.part_number);
+	if (uid[0])
+		show_line("identity", uid);
+	if (have_rev) {
+		snprintf(c, sizeof c, "%d of %s (%s)", rev.revision, rev.created, rev.uid);
+		show_line("spec revision", c);
+	}
 	show_line("description", p.description[0] ? p.description : "-");
 	show_line("maker", p.maker[0] ? p.maker : "-");
 	show_line("nominal", hb_si_or_dash(a, sizeof a, p.nominal_h, "H"));
