@@ -226,6 +226,32 @@ static void test_verify_command(void **state)
 	run_free(&r);
 }
 
+/* A sweep is found by its global identity as by its local number; an identity
+ * the store does not hold is a usage error of one line. */
+static void test_show_by_identity(void **state)
+{
+	(void)state;
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open(db_path, &db), HB_OK);
+	char uid[HB_DB_UID_LEN];
+	assert_int_equal(hb_db_uid_of(db, HB_DB_REC_SWEEP, sweep_id, uid), HB_OK);
+	hb_db_close(db);
+	run r;
+	hb_run(&r, station_bare, "--db", db_path, "show", uid, "--csv", NULL);
+	assert_int_equal(r.status, 0);
+	run by_number;
+	hb_run(&by_number, station_bare, "--db", db_path, "show", "1", "--csv", NULL);
+	assert_int_equal(by_number.status, 0);
+	assert_string_equal(r.out, by_number.out);
+	run_free(&r);
+	run_free(&by_number);
+	/* RFC 9562's example identity: well formed, in no store of ours */
+	hb_run(&r, station_bare, "--db", db_path, "show", "017f22e2-79b0-7cc3-98c4-dc0c0c07398f", NULL);
+	assert_int_equal(r.status, 2);
+	assert_int_equal(count_lines(r.err), 1);
+	run_free(&r);
+}
+
 static int group_setup(void **state)
 {
 	(void)state;
@@ -239,6 +265,7 @@ int main(void)
 		cmocka_unit_test_setup(test_stored_point_changed, store_setup),
 		cmocka_unit_test_setup(test_canonical_form_as_documented, store_setup),
 		cmocka_unit_test_setup(test_verify_command, store_setup),
+		cmocka_unit_test_setup(test_show_by_identity, store_setup),
 	};
 	return cmocka_run_group_tests(tests, group_setup, cli_fixture_teardown);
 }

@@ -192,6 +192,13 @@ int hb_cmd_fit(int argc, char **argv)
 	if (json) {
 		json_t *j = hb_analysis_summary_json(an);
 		json_object_set_new(j, "sweep_id", json_integer(id));
+		/* the global identities of the sweep and of the fit just stored */
+		char uid[HB_DB_UID_LEN] = "";
+		if (j && hb_db_uid_of(db, HB_DB_REC_SWEEP, (int64_t)id, uid) == HB_OK && uid[0])
+			json_object_set_new(j, "sweep_uid", json_string(uid));
+		uid[0] = '\0';
+		if (j && an->fit_id > 0 && hb_db_uid_of(db, HB_DB_REC_FIT, an->fit_id, uid) == HB_OK && uid[0])
+			json_object_set_new(j, "fit_uid", json_string(uid));
 		(void)hb_print_json(j); /* through the io room's writer, as every JSON document */
 	} else {
 		hb_analysis_print(stdout, an);

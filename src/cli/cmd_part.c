@@ -358,14 +358,20 @@ static int part_list(int argc, char **argv)
 		hb_db_close(db);
 		return HB_EXIT_RUNTIME;
 	}
-	hb_db_close(db);
 	if (e.json) {
 		json_t *arr = json_array();
-		for (size_t i = 0; i < n; i++)
-			json_array_append_new(arr, hb_json_part(&parts[i]));
+		for (size_t i = 0; i < n; i++) {
+			json_t *o = hb_json_part(&parts[i]);
+			char uid[HB_DB_UID_LEN] = "";
+			if (o && hb_db_uid_of(db, HB_DB_REC_PART, parts[i].id, uid) == HB_OK && uid[0])
+				json_object_set_new(o, "uid", json_string(uid));
+			json_array_append_new(arr, o);
+		}
+		hb_db_close(db);
 		hb_db_parts_free(parts);
 		return hb_print_json(arr) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	}
+	hb_db_close(db);
 	printf("%-24s %-12s %-8s %-12s %-16s %s\n", "part", "nominal", "tol", "test freq", "maker", "description");
 	for (size_t i = 0; i < n; i++) {
 		const hb_db_part *p = &parts[i];

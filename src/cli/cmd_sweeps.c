@@ -121,14 +121,20 @@ int hb_cmd_sweeps(int argc, char **argv)
 		hb_db_close(db);
 		return HB_EXIT_RUNTIME;
 	}
-	hb_db_close(db);
 	if (json) {
 		json_t *arr = json_array();
-		for (size_t i = 0; i < n; i++)
-			json_array_append_new(arr, hb_json_sweep_summary(&list[i]));
+		for (size_t i = 0; i < n; i++) {
+			json_t *o = hb_json_sweep_summary(&list[i]);
+			char uid[HB_DB_UID_LEN] = "";
+			if (o && hb_db_uid_of(db, HB_DB_REC_SWEEP, list[i].id, uid) == HB_OK && uid[0])
+				json_object_set_new(o, "uid", json_string(uid));
+			json_array_append_new(arr, o);
+		}
+		hb_db_close(db);
 		hb_db_sweeps_free(list);
 		return hb_print_json(arr) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	}
+	hb_db_close(db);
 	printf("%8s  %-20s  %-20s  %-14s  %-9s  %-11s  %6s  %s\n", "id", "started (UTC)", "part", "unit", "kind",
 	       "status", "points", "station");
 	for (size_t i = 0; i < n; i++) {
