@@ -91,6 +91,10 @@ int db_read_all(hb_db *db, sqlite3_stmt *st, db_row_reader *read, const void *ct
 
 int db_recover_running(hb_db *db);
 
+/* The schema step that brought identities, spec revisions and append-only verdicts
+ * (db/schema.sql); a store opened at an older step keeps the older statements. */
+enum { DB_STEP_TRACE = 7 };
+
 /* Traceability (db_trace.c): the SQL functions hb_uid() and hb_uid_at(ms), registered before the
  * migration runs; then, on a store at step 7 or later, this connection's triggers that give every
  * new record its identity. */

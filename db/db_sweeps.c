@@ -719,7 +719,7 @@ int hb_db_verdict_put(hb_db *db, hb_db_verdict *v)
 		return db_error(db, HB_ERR_ARG,
 				"verdict %s: outcome must be pass, conditional-pass, conditional-fail, fail or not-tested",
 				v->check_name);
-	if (!db->old_version || db->old_version >= 7)
+	if (!db->old_version || db->old_version >= DB_STEP_TRACE)
 		return db_verdict_append(db, v);
 	/* an older store (the migration tests) takes the columns it has; the
 	 * rule's columns then keep their defaults */
@@ -808,7 +808,7 @@ int hb_db_verdict_list(hb_db *db, int64_t sweep_id, hb_db_verdict **out, size_t 
 		return HB_ERR_ARG;
 	*out = NULL;
 	*count = 0;
-	if (!db->old_version || db->old_version >= 7)
+	if (!db->old_version || db->old_version >= DB_STEP_TRACE)
 		return db_verdict_list_v7(db, sweep_id, false, out, count);
 	sqlite3_stmt *st = db_stmt(db, ST_VERDICT_LIST,
 		"SELECT id, check_name, measured, limit_low, limit_high, margin, outcome, note, decision_rule, guard_r,"

@@ -71,7 +71,7 @@ int db_trace_attach(hb_db *db)
 {
 	int version = 0;
 	int status = hb_db_schema_version(db, &version);
-	if (status < 0 || version < 7)
+	if (status < 0 || version < DB_STEP_TRACE)
 		return status;
 	/* TEMP triggers live in this connection only: a new record gets its identity
 	 * in the statement that makes it, from hb_uid() of this process. */
@@ -333,7 +333,7 @@ int hb_db_verdict_list_all(hb_db *db, int64_t sweep_id, hb_db_verdict **out, siz
 		return HB_ERR_ARG;
 	*out = NULL;
 	*count = 0;
-	if (db->old_version && db->old_version < 7)
+	if (db->old_version && db->old_version < DB_STEP_TRACE)
 		return hb_db_verdict_list(db, sweep_id, out, count);
 	return db_verdict_list_v7(db, sweep_id, true, out, count);
 }

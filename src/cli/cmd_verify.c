@@ -84,8 +84,12 @@ int hb_cmd_verify(int argc, char **argv)
 	int exit_code = c.file_intact && c.data_intact ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	if (exit_code == HB_EXIT_OK)
 		printf("verify: intact - the report file and the stored points are as filed\n");
+	else if (!c.filed.file_sha256[0] && c.data_intact)
+		printf("verify: NOT verifiable - the page went to standard output when filed, so no file hash was stored; "
+		       "the points are intact\n");
 	else
-		printf("verify: NOT intact - %s%s%s\n", c.file_intact ? "" : "the report file differs from the one filed",
+		printf("verify: NOT intact - %s%s%s\n", c.file_intact ? "" :
+		       c.filed.file_sha256[0] ? "the report file differs from the one filed" : "no file hash was stored",
 		       !c.file_intact && !c.data_intact ? "; " : "",
 		       c.data_intact ? "" : "the stored points differ from those the report rests on");
 	hb_report_check_clear(&c);
