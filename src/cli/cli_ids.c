@@ -55,3 +55,29 @@ const char *hb_cli_part_number(const char *text, char *buf, size_t cap)
 	hb_db_close(db);
 	return text;
 }
+
+const char *hb_cli_lot_code(const char *text, char *code, size_t code_cap, char *part, size_t part_cap,
+			    const char **part_number)
+{
+	uint8_t b[16];
+	if (hb_uid_parse(text, b) != HB_OK)
+		return text;
+	hb_db *db = NULL;
+	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
+		hb_db_close(db);
+		return text;
+	}
+	int64_t id = 0;
+	hb_db_lot lot;
+	hb_db_part p;
+	/* the lot's own code and its part, so that a code two parts share is no longer ambiguous */
+	if (hb_db_uid_find(db, HB_DB_REC_LOT, text, &id) == HB_OK && hb_db_lot_get(db, id, &lot) == HB_OK &&
+	    hb_db_part_get_id(db, lot.part_id, &p) == HB_OK) {
+		snprintf(code, code_cap, "%s", lot.lot_code);
+		snprintf(part, part_cap, "%s", p.part_number);
+		*part_number = part;
+		text = code;
+	}
+	hb_db_close(db);
+	return text;
+}

@@ -31,7 +31,10 @@ const hb_cmd_opts hb_opts_report = {
 	.about = "\nWrites one self-contained HTML page (figures inline, nothing fetched) that prints\n"
 		 "as an engineering record: a sweep with its settings, instruments, verdicts, fit\n"
 		 "values and plots; an inspected lot with its plan, units, decision and statistics;\n"
-		 "or a part's history with per-lot statistics and the L0 trend.\n",
+		 "or a part's history with per-lot statistics and the L0 trend. SWEEP_ID, LOT and P\n"
+		 "may also be the record's global identity. Every page is filed: it gets a report\n"
+		 "number, and the store keeps the SHA-256 of the page and of the points it rests on\n"
+		 "('henrybench verify FILE.html' checks both).\n",
 	.opts = report_table,
 	.max_operands = -1,
 };
@@ -69,7 +72,9 @@ int hb_cmd_report(int argc, char **argv)
 		hb_db_close(db);
 		return HB_EXIT_RUNTIME;
 	}
-	char part_buf[HB_DB_ID_LEN];
+	char part_buf[HB_DB_ID_LEN], lot_buf[HB_DB_ID_LEN], lot_part[HB_DB_ID_LEN];
+	if (lot)
+		lot = hb_cli_lot_code(lot, lot_buf, sizeof lot_buf, lot_part, sizeof lot_part, &part);
 	hb_report_request rq = { .kind = sweep_id > 0 ? HB_REPORT_SWEEP : lot ? HB_REPORT_LOT : HB_REPORT_PART,
 				 .sweep_id = (int64_t)sweep_id,
 				 .part_number = part ? hb_cli_part_number(part, part_buf, sizeof part_buf) : NULL,
