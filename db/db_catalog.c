@@ -27,7 +27,7 @@ void hb_db_part_init(hb_db_part *p)
 	p->guard_r = NAN;
 }
 
-static void read_part(sqlite3_stmt *st, void *row, const void *ctx)
+void db_read_part_row(sqlite3_stmt *st, void *row, const void *ctx)
 {
 	(void)ctx;
 	hb_db_part *p = row;
@@ -153,7 +153,7 @@ int hb_db_part_get(hb_db *db, const char *part_number, hb_db_part *out)
 	if (!st)
 		return HB_ERR_DB;
 	db_bind_text(st, 1, part_number);
-	return db_read_one(db, st, read_part, out, NULL, "part", part_number, "reading a part");
+	return db_read_one(db, st, db_read_part_row, out, NULL, "part", part_number, "reading a part");
 }
 
 int hb_db_part_get_id(hb_db *db, int64_t id, hb_db_part *out)
@@ -166,7 +166,7 @@ int hb_db_part_get_id(hb_db *db, int64_t id, hb_db_part *out)
 	sqlite3_bind_int64(st, 1, id);
 	char what[32];
 	snprintf(what, sizeof what, "id %lld", (long long)id);
-	return db_read_one(db, st, read_part, out, NULL, "part", what, "reading a part");
+	return db_read_one(db, st, db_read_part_row, out, NULL, "part", what, "reading a part");
 }
 
 int hb_db_part_list(hb_db *db, hb_db_part **out, size_t *count)
@@ -178,7 +178,7 @@ int hb_db_part_list(hb_db *db, hb_db_part **out, size_t *count)
 	sqlite3_stmt *st = db_stmt(db, ST_PART_LIST, "SELECT " PART_COLUMNS " FROM parts ORDER BY part_number");
 	if (!st)
 		return HB_ERR_DB;
-	return db_read_all(db, st, read_part, NULL, sizeof **out, "listing parts", (void **)out, count);
+	return db_read_all(db, st, db_read_part_row, NULL, sizeof **out, "listing parts", (void **)out, count);
 }
 
 void hb_db_parts_free(hb_db_part *parts)

@@ -567,7 +567,13 @@ static int open_at(const char *path, int target, hb_db **out)
 	rc = sqlite3_exec(db->conn, "PRAGMA synchronous = FULL; PRAGMA foreign_keys = ON", NULL, NULL, NULL);
 	if (rc != SQLITE_OK)
 		return db_fail(db, rc, "configuring the store");
+	status = db_trace_register(db);
+	if (status < 0)
+		return status;
 	status = migrate(db, target);
+	if (status < 0)
+		return status;
+	status = db_trace_attach(db);
 	if (status < 0)
 		return status;
 	if (target <= 0 || target >= hb_db_latest_version())

@@ -20,6 +20,9 @@ enum db_stmt_slot {
 	ST_INSP_UPSERT, ST_INSP_LIST, ST_INSP_PROGRESS,
 	ST_HISTORY,
 	ST_FIT_UNC_PUT, ST_FIT_UNC_LIST, ST_SWEEP_ACCURACY, ST_VERDICT_UPSERT_V5, ST_PART_UPSERT_V5,
+	/* traceability (db_trace.c) */
+	ST_VERDICT_APPEND, ST_VERDICT_INFORCE, ST_VERDICT_ALL, ST_SPEC_REV_LATEST, ST_SPEC_REV_GET,
+	ST_REPORT_PUT, ST_REPORT_SWEEP_PUT, ST_REPORT_GET, ST_REPORT_SWEEPS, ST_LOT_DECISIONS,
 	ST_COUNT
 };
 
@@ -93,5 +96,20 @@ int db_read_all(hb_db *db, sqlite3_stmt *st, db_row_reader *read, const void *ct
 		void **out, size_t *count);
 
 int db_recover_running(hb_db *db);
+
+/* The schema step that brought identities, spec revisions and append-only verdicts
+ * (db/schema.sql); a store opened at an older step keeps the older statements. */
+enum { DB_STEP_TRACE = 9 };
+
+/* Traceability (db_trace.c): the SQL functions hb_uid() and hb_uid_at(ms), registered before the
+ * migration runs; then, on a store at step 9 or later, this connection's triggers that give every
+ * new record its identity. */
+int db_trace_register(hb_db *db);
+int db_trace_attach(hb_db *db);
+/* One row of PART_COLUMNS' shape into an hb_db_part (db_catalog.c). */
+void db_read_part_row(sqlite3_stmt *st, void *row, const void *ctx);
+/* Step-7 forms of hb_db_verdict_put / hb_db_verdict_list. */
+int db_verdict_append(hb_db *db, hb_db_verdict *v);
+int db_verdict_list_v7(hb_db *db, int64_t sweep_id, bool all, hb_db_verdict **out, size_t *count);
 
 #endif

@@ -771,6 +771,8 @@ int hb_db_verdict_put(hb_db *db, hb_db_verdict *v)
 		return db_error(db, HB_ERR_ARG,
 				"verdict %s: outcome must be pass, conditional-pass, conditional-fail, fail or not-tested",
 				v->check_name);
+	if (!db->old_version || db->old_version >= DB_STEP_TRACE)
+		return db_verdict_append(db, v);
 	/* an older store (the migration tests) takes the columns it has; the
 	 * rule's columns then keep their defaults */
 	bool old = db->old_version && db->old_version < 6;
@@ -858,6 +860,8 @@ int hb_db_verdict_list(hb_db *db, int64_t sweep_id, hb_db_verdict **out, size_t 
 		return HB_ERR_ARG;
 	*out = NULL;
 	*count = 0;
+	if (!db->old_version || db->old_version >= DB_STEP_TRACE)
+		return db_verdict_list_v7(db, sweep_id, false, out, count);
 	sqlite3_stmt *st = db_stmt(db, ST_VERDICT_LIST,
 		"SELECT id, check_name, measured, limit_low, limit_high, margin, outcome, note, decision_rule, guard_r,"
 		" expanded_u, coverage_k, accept_low, accept_high, p_false_accept FROM verdicts"
@@ -932,7 +936,7 @@ int hb_db_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **
 		FIT_VALUE("?9") "," FIT_VALUE("?10") ","
 		" (SELECT CASE WHEN sum(outcome IN ('fail', 'conditional-fail')) > 0 THEN 2"
 		"  WHEN count(*) > 0 AND sum(outcome IN ('pass', 'conditional-pass')) = count(*) THEN 1"
-		"  ELSE 0 END FROM verdicts WHERE verdicts.sweep_id = s.id)"
+		"  ELSE 0 END FROM verdicts WHERE verdicts.sweep_id = s.id AND verdicts.superseded_by IS NULL)"
 		" FROM units u LEFT JOIN lots l ON l.id = u.lot_id"
 		" JOIN sweeps s ON s.id = (SELECT s2.id FROM sweeps s2 WHERE s2.unit_id = u.id"
 		"  AND s2.kind = 'bias' AND s2.status = 'complete'"

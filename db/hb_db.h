@@ -28,6 +28,8 @@
 typedef struct hb_db hb_db;
 
 enum { HB_DB_ID_LEN = 64, HB_DB_TEXT_LEN = 256, HB_DB_NOTE_LEN = 512, HB_DB_TIME_LEN = 32 };
+/* A global identity: UUID version 7 text (common/hb_uid.h), 36 characters and the NUL. */
+enum { HB_DB_UID_LEN = 37 };
 
 /* ---------------- connection ---------------- */
 
@@ -363,12 +365,20 @@ typedef struct hb_db_verdict {
 	double expanded_u, coverage_k; /* U and k of the measured value; NAN = not known */
 	double accept_low, accept_high; /* acceptance limits the rule produced; NAN = none that side */
 	double p_false_accept;     /* guarded rule: probability of false accept at the measured value */
+	/* Traceability (step 9), filled on read; operator_name is also written. */
+	char uid[HB_DB_UID_LEN];
+	char created[HB_DB_TIME_LEN];
+	char operator_name[HB_DB_ID_LEN]; /* who judged; "" at put = $USER */
+	int64_t spec_rev_id;       /* the part's spec revision it was judged against; 0 = no part */
+	int spec_revision;         /* its number (1, 2, ...) */
+	int64_t superseded_by;     /* the verdict that replaced it; 0 = in force */
 } hb_db_verdict;
 
 void hb_db_verdict_init(hb_db_verdict *verdict);
-/* Stores the verdict, replacing one of the same check on the same sweep. */
+/* Stores the verdict. From step 9 on it is appended: an earlier verdict of the same check on
+ * the same sweep stays, marked superseded by this one. */
 int hb_db_verdict_put(hb_db *db, hb_db_verdict *verdict);
-/* In check-name order. */
+/* The verdicts in force, in check-name order. */
 int hb_db_verdict_list(hb_db *db, int64_t sweep_id, hb_db_verdict **out, size_t *count);
 void hb_db_verdicts_free(hb_db_verdict *verdicts);
 
@@ -453,5 +463,85 @@ void hb_db_part_core_init(hb_db_part_core *c);
 int hb_db_part_core_get(hb_db *db, const char *part_number, hb_db_part_core *out);
 /* The part must exist (store it with hb_db_part_put first). */
 int hb_db_part_core_put(hb_db *db, const char *part_number, const hb_db_part_core *in);
+/* ---------------- traceability: identities, spec revisions, supersession, filed reports (step 9) ---------------- */
+
+/* The kinds of record that carry a global identity. HB_DB_REC_POINTS is a
+ * sweep's set of points (its id is the sweep's). */
+typedef enum {
+	HB_DB_REC_PART = 0,
+	HB_DB_REC_SPEC_REVISION,
+	HB_DB_REC_UNIT,
+	HB_DB_REC_LOT,
+	HB_DB_REC_LOT_DECISION,
+	HB_DB_REC_SWEEP,
+	HB_DB_REC_POINTS,
+	HB_DB_REC_FIT,
+	HB_DB_REC_VERDICT,
+	HB_DB_REC_INSPECTION,
+	HB_DB_REC_REPORT,
+	HB_DB_REC_COUNT
+} hb_db_record;
+
+/* "part", "spec-revision", "unit", "lot", "lot-decision", "sweep", "points", "fit", "verdict",
+ * "inspection", "report". */
+const char *hb_db_record_name(hb_db_record kind);
+/* The identity of record id; HB_ERR_NOTFOUND if there is no such record. */
+int hb_db_uid_of(hb_db *db, hb_db_record kind, int64_t id, char uid[HB_DB_UID_LEN]);
+/* The local id of the record with that identity (any case); HB_ERR_NOTFOUND if none. */
+int hb_db_uid_find(hb_db *db, hb_db_record kind, const char *uid, int64_t *id);
+/* A handle as typed: a positive integer (the local id, not checked) or a global
+ * identity (looked up). HB_ERR_ARG for neither, HB_ERR_NOTFOUND for an unknown identity. */
+int hb_db_resolve_id(hb_db *db, hb_db_record kind, const char *text, int64_t *id);
+
+typedef struct hb_db_spec_revision {
+	int64_t id, part_id;
+	int revision;              /* 1, 2, ... */
+	char uid[HB_DB_UID_LEN];
+	char created[HB_DB_TIME_LEN];
+	hb_db_part spec;           /* the spec fields as they were (id = part id) */
+} hb_db_spec_revision;
+
+/* The part's spec revision in force (the highest); revision 0 asks for that,
+ * another number for that revision. HB_ERR_NOTFOUND if none. */
+int hb_db_spec_revision_get(hb_db *db, int64_t part_id, int revision, hb_db_spec_revision *out);
+int hb_db_spec_revision_get_id(hb_db *db, int64_t spec_rev_id, hb_db_spec_revision *out);
+
+/* Every verdict of the sweep, superseded ones included, by check name then in
+ * the order judged. */
+int hb_db_verdict_list_all(hb_db *db, int64_t sweep_id, hb_db_verdict **out, size_t *count);
+
+/* Every decision made on a lot, oldest first. */
+typedef struct hb_db_lot_decision_rec {
+	int64_t id, lot_id;
+	char uid[HB_DB_UID_LEN];
+	hb_db_lot_decision decision;
+	char decided[HB_DB_TIME_LEN];
+	long sample_size, accept_number, reject_number;
+} hb_db_lot_decision_rec;
+int hb_db_lot_decision_list(hb_db *db, int64_t lot_id, hb_db_lot_decision_rec **out, size_t *count);
+void hb_db_lot_decisions_free(hb_db_lot_decision_rec *recs);
+
+/* A filed report: its number, what it shows, the file, the SHA-256 of the file
+ * as written ("" when it went to standard output) and of the canonical export
+ * of the points of its sweeps (docs/store.md). */
+typedef struct hb_db_report {
+	int64_t id;
+	char uid[HB_DB_UID_LEN];
+	char kind[8];              /* "sweep", "lot", "part" */
+	char subject[HB_DB_TEXT_LEN];
+	char path[4096];
+	char file_sha256[65], data_sha256[65];
+	char software_version[32];
+	char created[HB_DB_TIME_LEN];
+	int64_t *sweep_ids;        /* ascending; malloc'd on get, the caller's on put */
+	size_t n_sweeps;
+} hb_db_report;
+
+/* Stores the report row and its sweeps in one transaction; sets id and created. */
+int hb_db_report_put(hb_db *db, hb_db_report *r);
+/* By report number; HB_ERR_NOTFOUND if the store has no such report. */
+int hb_db_report_get(hb_db *db, const char *uid, hb_db_report *out);
+/* Frees sweep_ids; the struct itself is the caller's. */
+void hb_db_report_clear(hb_db_report *r);
 
 #endif

@@ -253,3 +253,191 @@ CREATE INDEX fits_sweep_newest ON fits(sweep_id, id);
 ALTER TABLE parts ADD COLUMN core_shape TEXT NOT NULL DEFAULT '';
 ALTER TABLE parts ADD COLUMN core_dims TEXT NOT NULL DEFAULT '';
 ALTER TABLE parts ADD COLUMN gap_at TEXT NOT NULL DEFAULT 'centre' CHECK (gap_at IN ('centre', 'spacer'));
+-- step 9: traceability: a global identity (UUID version 7, docs/store.md) on every record, spec revisions, append-only verdicts and lot decisions, filed reports with their hashes
+-- hb_uid_at(ms) is the store's own SQL function (db/db_trace.c): identities for records made before this step, stamped with their own time
+ALTER TABLE parts ADD COLUMN uid TEXT;
+ALTER TABLE lots ADD COLUMN uid TEXT;
+ALTER TABLE units ADD COLUMN uid TEXT;
+ALTER TABLE sweeps ADD COLUMN uid TEXT;
+-- the identity of a sweep's set of points (what a report's data hash rests on)
+ALTER TABLE sweeps ADD COLUMN points_uid TEXT;
+ALTER TABLE fits ADD COLUMN uid TEXT;
+ALTER TABLE inspections ADD COLUMN uid TEXT;
+UPDATE parts SET uid = hb_uid_at(CAST((julianday(created) - 2440587.5) * 86400000 AS INTEGER));
+UPDATE lots SET uid = hb_uid_at(CAST((julianday(created) - 2440587.5) * 86400000 AS INTEGER));
+UPDATE units SET uid = hb_uid_at(CAST((julianday(created) - 2440587.5) * 86400000 AS INTEGER));
+UPDATE sweeps SET uid = hb_uid_at(CAST(started_unix * 1000 AS INTEGER)),
+	points_uid = hb_uid_at(CAST(started_unix * 1000 AS INTEGER));
+UPDATE fits SET uid = hb_uid_at(CAST((julianday(created) - 2440587.5) * 86400000 AS INTEGER));
+UPDATE inspections SET uid = hb_uid_at(CAST(at_unix * 1000 AS INTEGER));
+CREATE UNIQUE INDEX parts_uid ON parts(uid);
+CREATE UNIQUE INDEX lots_uid ON lots(uid);
+CREATE UNIQUE INDEX units_uid ON units(uid);
+CREATE UNIQUE INDEX sweeps_uid ON sweeps(uid);
+CREATE UNIQUE INDEX sweeps_points_uid ON sweeps(points_uid);
+CREATE UNIQUE INDEX fits_uid ON fits(uid);
+CREATE UNIQUE INDEX inspections_uid ON inspections(uid);
+
+-- every version of a part's specification; a change of any spec field makes the next revision, the old ones stay
+CREATE TABLE spec_revisions (
+	id INTEGER PRIMARY KEY,
+	uid TEXT UNIQUE,
+	part_id INTEGER NOT NULL REFERENCES parts(id),
+	revision INTEGER NOT NULL CHECK (revision >= 1),
+	created TEXT NOT NULL,
+	description TEXT NOT NULL DEFAULT '',
+	maker TEXT NOT NULL DEFAULT '',
+	nominal_h REAL, tolerance REAL, test_freq_hz REAL, test_level REAL,
+	test_level_kind TEXT NOT NULL DEFAULT 'V',
+	sat_current_a REAL, sat_drop REAL, rated_current_a REAL, dcr_max_ohm REAL, turns INTEGER,
+	ae_m2 REAL, le_m REAL, window_m REAL, toroid_od_m REAL, toroid_id_m REAL, toroid_h_m REAL,
+	mu_i REAL, bsat_t REAL,
+	decision_rule TEXT NOT NULL DEFAULT '',
+	guard_r REAL,
+	UNIQUE (part_id, revision)
+);
+INSERT INTO spec_revisions (uid, part_id, revision, created, description, maker, nominal_h, tolerance, test_freq_hz,
+	test_level, test_level_kind, sat_current_a, sat_drop, rated_current_a, dcr_max_ohm, turns, ae_m2, le_m, window_m,
+	toroid_od_m, toroid_id_m, toroid_h_m, mu_i, bsat_t, decision_rule, guard_r)
+	SELECT hb_uid_at(CAST((julianday(updated) - 2440587.5) * 86400000 AS INTEGER)), id, 1, updated, description, maker,
+	nominal_h, tolerance, test_freq_hz, test_level, test_level_kind, sat_current_a, sat_drop, rated_current_a,
+	dcr_max_ohm, turns, ae_m2, le_m, window_m, toroid_od_m, toroid_id_m, toroid_h_m, mu_i, bsat_t, decision_rule, guard_r
+	FROM parts;
+CREATE TRIGGER parts_first_revision AFTER INSERT ON parts BEGIN
+	INSERT INTO spec_revisions (part_id, revision, created, description, maker, nominal_h, tolerance, test_freq_hz,
+		test_level, test_level_kind, sat_current_a, sat_drop, rated_current_a, dcr_max_ohm, turns, ae_m2, le_m,
+		window_m, toroid_od_m, toroid_id_m, toroid_h_m, mu_i, bsat_t, decision_rule, guard_r)
+	VALUES (NEW.id, 1, NEW.updated, NEW.description, NEW.maker, NEW.nominal_h, NEW.tolerance, NEW.test_freq_hz,
+		NEW.test_level, NEW.test_level_kind, NEW.sat_current_a, NEW.sat_drop, NEW.rated_current_a, NEW.dcr_max_ohm,
+		NEW.turns, NEW.ae_m2, NEW.le_m, NEW.window_m, NEW.toroid_od_m, NEW.toroid_id_m, NEW.toroid_h_m, NEW.mu_i,
+		NEW.bsat_t, NEW.decision_rule, NEW.guard_r);
+END;
+CREATE TRIGGER parts_next_revision AFTER UPDATE ON parts
+	WHEN NEW.description IS NOT OLD.description OR NEW.maker IS NOT OLD.maker OR NEW.nominal_h IS NOT OLD.nominal_h
+	OR NEW.tolerance IS NOT OLD.tolerance OR NEW.test_freq_hz IS NOT OLD.test_freq_hz
+	OR NEW.test_level IS NOT OLD.test_level OR NEW.test_level_kind IS NOT OLD.test_level_kind
+	OR NEW.sat_current_a IS NOT OLD.sat_current_a OR NEW.sat_drop IS NOT OLD.sat_drop
+	OR NEW.rated_current_a IS NOT OLD.rated_current_a OR NEW.dcr_max_ohm IS NOT OLD.dcr_max_ohm
+	OR NEW.turns IS NOT OLD.turns OR NEW.ae_m2 IS NOT OLD.ae_m2 OR NEW.le_m IS NOT OLD.le_m
+	OR NEW.window_m IS NOT OLD.window_m OR NEW.toroid_od_m IS NOT OLD.toroid_od_m
+	OR NEW.toroid_id_m IS NOT OLD.toroid_id_m OR NEW.toroid_h_m IS NOT OLD.toroid_h_m OR NEW.mu_i IS NOT OLD.mu_i
+	OR NEW.bsat_t IS NOT OLD.bsat_t OR NEW.decision_rule IS NOT OLD.decision_rule OR NEW.guard_r IS NOT OLD.guard_r
+BEGIN
+	INSERT INTO spec_revisions (part_id, revision, created, description, maker, nominal_h, tolerance, test_freq_hz,
+		test_level, test_level_kind, sat_current_a, sat_drop, rated_current_a, dcr_max_ohm, turns, ae_m2, le_m,
+		window_m, toroid_od_m, toroid_id_m, toroid_h_m, mu_i, bsat_t, decision_rule, guard_r)
+	VALUES (NEW.id, (SELECT coalesce(max(revision), 0) + 1 FROM spec_revisions WHERE part_id = NEW.id), NEW.updated,
+		NEW.description, NEW.maker, NEW.nominal_h, NEW.tolerance, NEW.test_freq_hz, NEW.test_level,
+		NEW.test_level_kind, NEW.sat_current_a, NEW.sat_drop, NEW.rated_current_a, NEW.dcr_max_ohm, NEW.turns,
+		NEW.ae_m2, NEW.le_m, NEW.window_m, NEW.toroid_od_m, NEW.toroid_id_m, NEW.toroid_h_m, NEW.mu_i, NEW.bsat_t,
+		NEW.decision_rule, NEW.guard_r);
+END;
+
+-- verdicts are appended, never replaced: a later judgement of the same check supersedes the earlier one, which stays.
+-- Each keeps its time, operator, decision rule and the spec revision it was judged against. The table is rebuilt
+-- because SQLite cannot drop the old UNIQUE (sweep_id, check_name) in place.
+CREATE TABLE verdicts_new (
+	id INTEGER PRIMARY KEY,
+	sweep_id INTEGER NOT NULL REFERENCES sweeps(id) ON DELETE CASCADE,
+	check_name TEXT NOT NULL,
+	measured REAL,
+	limit_low REAL,
+	limit_high REAL,
+	margin REAL,
+	outcome TEXT NOT NULL CHECK (outcome IN ('not-tested', 'pass', 'fail', 'conditional-pass', 'conditional-fail')),
+	note TEXT NOT NULL DEFAULT '',
+	created TEXT NOT NULL,
+	decision_rule TEXT NOT NULL DEFAULT 'simple',
+	guard_r REAL,
+	expanded_u REAL,
+	coverage_k REAL,
+	accept_low REAL,
+	accept_high REAL,
+	p_false_accept REAL,
+	uid TEXT UNIQUE,
+	spec_rev_id INTEGER REFERENCES spec_revisions(id),
+	operator TEXT NOT NULL DEFAULT '',
+	superseded_by INTEGER
+);
+INSERT INTO verdicts_new (id, sweep_id, check_name, measured, limit_low, limit_high, margin, outcome, note, created,
+	decision_rule, guard_r, expanded_u, coverage_k, accept_low, accept_high, p_false_accept, uid, spec_rev_id)
+	SELECT v.id, v.sweep_id, v.check_name, v.measured, v.limit_low, v.limit_high, v.margin, v.outcome, v.note, v.created,
+	v.decision_rule, v.guard_r, v.expanded_u, v.coverage_k, v.accept_low, v.accept_high, v.p_false_accept,
+	hb_uid_at(CAST((julianday(v.created) - 2440587.5) * 86400000 AS INTEGER)),
+	(SELECT r.id FROM sweeps s JOIN units u ON u.id = s.unit_id JOIN spec_revisions r ON r.part_id = u.part_id
+	 WHERE s.id = v.sweep_id AND r.revision = 1)
+	FROM verdicts v;
+DROP TABLE verdicts;
+ALTER TABLE verdicts_new RENAME TO verdicts;
+CREATE INDEX verdicts_sweep ON verdicts(sweep_id, check_name, superseded_by);
+CREATE TRIGGER verdicts_append AFTER INSERT ON verdicts BEGIN
+	UPDATE verdicts SET superseded_by = NEW.id
+		WHERE sweep_id = NEW.sweep_id AND check_name = NEW.check_name AND id <> NEW.id AND superseded_by IS NULL;
+	UPDATE verdicts SET spec_rev_id = (SELECT r.id FROM sweeps s JOIN units u ON u.id = s.unit_id
+		JOIN spec_revisions r ON r.part_id = u.part_id WHERE s.id = NEW.sweep_id ORDER BY r.revision DESC LIMIT 1)
+		WHERE id = NEW.id AND NEW.spec_rev_id IS NULL;
+END;
+CREATE TRIGGER verdicts_keep BEFORE UPDATE OF sweep_id, check_name, measured, limit_low, limit_high, margin, outcome,
+	note, created, decision_rule, guard_r, expanded_u, coverage_k, accept_low, accept_high, p_false_accept,
+	operator ON verdicts
+BEGIN
+	SELECT RAISE(ABORT, 'verdicts are append-only: judge again to supersede one');
+END;
+CREATE TRIGGER verdicts_keep_revision BEFORE UPDATE OF spec_rev_id ON verdicts WHEN OLD.spec_rev_id IS NOT NULL BEGIN
+	SELECT RAISE(ABORT, 'a verdict keeps the spec revision it was judged against');
+END;
+CREATE TRIGGER fits_keep BEFORE UPDATE OF sweep_id, model, law, code_version, created, rss, dof, aic, covariance,
+	flags ON fits
+BEGIN
+	SELECT RAISE(ABORT, 'fits are append-only: fit again to add one');
+END;
+
+-- every lot decision made, in order; the lot row holds the latest
+CREATE TABLE lot_decisions (
+	id INTEGER PRIMARY KEY,
+	uid TEXT UNIQUE,
+	lot_id INTEGER NOT NULL REFERENCES lots(id) ON DELETE CASCADE,
+	decision TEXT NOT NULL CHECK (decision IN ('accept', 'reject')),
+	decided_at TEXT NOT NULL,
+	code_letter TEXT NOT NULL DEFAULT '',
+	sample_size INTEGER NOT NULL DEFAULT 0,
+	accept_number INTEGER NOT NULL DEFAULT 0,
+	reject_number INTEGER NOT NULL DEFAULT 0,
+	aql REAL,
+	severity TEXT NOT NULL DEFAULT ''
+);
+INSERT INTO lot_decisions (uid, lot_id, decision, decided_at, code_letter, sample_size, accept_number, reject_number,
+	aql, severity)
+	SELECT hb_uid_at(CAST((julianday(coalesce(nullif(decided_at, ''), created)) - 2440587.5) * 86400000 AS INTEGER)),
+	id, decision, coalesce(nullif(decided_at, ''), created), code_letter, sample_size, accept_number, reject_number, aql,
+	severity FROM lots WHERE decision <> 'open';
+CREATE TRIGGER lots_decided AFTER UPDATE OF decision ON lots
+	WHEN NEW.decision <> 'open' AND NEW.decision IS NOT OLD.decision
+BEGIN
+	INSERT INTO lot_decisions (lot_id, decision, decided_at, code_letter, sample_size, accept_number, reject_number,
+		aql, severity)
+	VALUES (NEW.id, NEW.decision, NEW.decided_at, NEW.code_letter, NEW.sample_size, NEW.accept_number,
+		NEW.reject_number, NEW.aql, NEW.severity);
+END;
+CREATE TRIGGER lot_decisions_keep BEFORE UPDATE OF lot_id, decision, decided_at ON lot_decisions BEGIN
+	SELECT RAISE(ABORT, 'lot decisions are append-only');
+END;
+
+-- a filed report: its number, what it shows, where it was written, the SHA-256 of the file as written and of the
+-- canonical export of the points it rests on (docs/store.md), and the sweeps those points belong to
+CREATE TABLE reports (
+	id INTEGER PRIMARY KEY,
+	uid TEXT NOT NULL UNIQUE,
+	kind TEXT NOT NULL CHECK (kind IN ('sweep', 'lot', 'part')),
+	subject TEXT NOT NULL,
+	path TEXT NOT NULL,
+	file_sha256 TEXT NOT NULL DEFAULT '',
+	data_sha256 TEXT NOT NULL,
+	software_version TEXT NOT NULL,
+	created TEXT NOT NULL
+);
+CREATE TABLE report_sweeps (
+	report_id INTEGER NOT NULL REFERENCES reports(id) ON DELETE CASCADE,
+	sweep_id INTEGER NOT NULL REFERENCES sweeps(id),
+	PRIMARY KEY (report_id, sweep_id)
+) WITHOUT ROWID;

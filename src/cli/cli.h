@@ -206,5 +206,22 @@ extern const hb_cmd_opts hb_opts_completion;
 /* ---------------- design (cmd_design.c) ---------------- */
 int hb_cmd_design(int argc, char **argv);
 extern const hb_cmd_opts hb_opts_design;
+/* ---------------- record handles (cli_ids.c) ---------------- */
+/* A record handle as typed: a positive integer (the local id) or a global
+ * identity, looked up in the store of --db. Prints the one-line error;
+ * HB_ERR_ARG for a malformed or unknown handle. kind is an hb_db_record. */
+int hb_cli_resolve_id(int kind, const char *text, long long *id);
+/* A part's global identity typed where a part number is asked: its part
+ * number (in buf); anything else is returned as it is. */
+const char *hb_cli_part_number(const char *text, char *buf, size_t cap);
+/* A lot's global identity typed where a lot code is asked: its code (in
+ * code), and *part_number set to its part's number (in part); anything else
+ * is returned as it is and *part_number left alone. */
+const char *hb_cli_lot_code(const char *text, char *code, size_t code_cap, char *part, size_t part_cap,
+			    const char **part_number);
+
+/* ---------------- verify (cmd_verify.c) ---------------- */
+int hb_cmd_verify(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_verify;
 
 #endif

@@ -54,14 +54,7 @@ static int take_fix(const hb_opt *o, const char *text, void *field)
 
 int hb_cli_parse_sweep_id(const char *text, long long *id)
 {
-	char *end = NULL;
-	long long v = strtoll(text, &end, 10);
-	if (!end || *end || v <= 0) {
-		hb_cli_error("sweep id '%s' is not a positive integer", text);
-		return HB_ERR_ARG;
-	}
-	*id = v;
-	return HB_OK;
+	return hb_cli_resolve_id(HB_DB_REC_SWEEP, text, id);
 }
 
 /* knee, core or all: which models are fitted. */
@@ -195,6 +188,13 @@ int hb_cmd_fit(int argc, char **argv)
 	if (json) {
 		json_t *j = hb_analysis_summary_json(an);
 		json_object_set_new(j, "sweep_id", json_integer(id));
+		/* the global identities of the sweep and of the fit just stored */
+		char uid[HB_DB_UID_LEN] = "";
+		if (j && hb_db_uid_of(db, HB_DB_REC_SWEEP, (int64_t)id, uid) == HB_OK && uid[0])
+			json_object_set_new(j, "sweep_uid", json_string(uid));
+		uid[0] = '\0';
+		if (j && an->fit_id > 0 && hb_db_uid_of(db, HB_DB_REC_FIT, an->fit_id, uid) == HB_OK && uid[0])
+			json_object_set_new(j, "fit_uid", json_string(uid));
 		(void)hb_print_json(j); /* through the io room's writer, as every JSON document */
 	} else {
 		hb_analysis_print(stdout, an);

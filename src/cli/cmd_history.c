@@ -278,7 +278,8 @@ int hb_cmd_history(int argc, char **argv)
 		hb_cli_error("history: give --json or --csv, not both");
 		return HB_EXIT_USAGE;
 	}
-	f.part_number = argv[r.first];
+	char pnbuf[HB_DB_ID_LEN];
+	f.part_number = hb_cli_part_number(argv[r.first], pnbuf, sizeof pnbuf);
 
 	int exit_code = HB_EXIT_RUNTIME;
 	hb_db *db = NULL;

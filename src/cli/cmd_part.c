@@ -358,7 +358,8 @@ static int part_write(int argc, char **argv, bool add)
 		hb_cli_error("part %s needs exactly one PARTNO (try 'henrybench part --help')", argv[0]);
 		return HB_EXIT_USAGE;
 	}
-	const char *pn = argv[first];
+	char pnbuf[HB_DB_ID_LEN];
+	const char *pn = add ? argv[first] : hb_cli_part_number(argv[first], pnbuf, sizeof pnbuf);
 	if (!*pn || strlen(pn) >= HB_DB_ID_LEN) {
 		hb_cli_error("part number '%s': accepted 1 to %d characters", pn, HB_DB_ID_LEN - 1);
 		return HB_EXIT_USAGE;
@@ -449,14 +450,20 @@ static int part_list(int argc, char **argv)
 		hb_db_close(db);
 		return HB_EXIT_RUNTIME;
 	}
-	hb_db_close(db);
 	if (e.json) {
 		json_t *arr = json_array();
-		for (size_t i = 0; i < n; i++)
-			json_array_append_new(arr, hb_json_part(&parts[i]));
+		for (size_t i = 0; i < n; i++) {
+			json_t *o = hb_json_part(&parts[i]);
+			char uid[HB_DB_UID_LEN] = "";
+			if (o && hb_db_uid_of(db, HB_DB_REC_PART, parts[i].id, uid) == HB_OK && uid[0])
+				json_object_set_new(o, "uid", json_string(uid));
+			json_array_append_new(arr, o);
+		}
+		hb_db_close(db);
 		hb_db_parts_free(parts);
 		return hb_print_json(arr) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	}
+	hb_db_close(db);
 	printf("%-24s %-12s %-8s %-12s %-16s %s\n", "part", "nominal", "tol", "test freq", "maker", "description");
 	for (size_t i = 0; i < n; i++) {
 		const hb_db_part *p = &parts[i];
@@ -493,26 +500,42 @@ static int part_show(int argc, char **argv)
 		return HB_EXIT_RUNTIME;
 	hb_db_part p;
 	hb_db_part_core cs;
-	int status = hb_db_part_get(db, argv[first], &p);
+	char pnbuf[HB_DB_ID_LEN];
+	const char *pn = hb_cli_part_number(argv[first], pnbuf, sizeof pnbuf);
+	int status = hb_db_part_get(db, pn, &p);
 	if (status == HB_OK)
-		status = hb_db_part_core_get(db, argv[first], &cs);
+		status = hb_db_part_core_get(db, pn, &cs);
 	if (status != HB_OK) {
 		hb_cli_error("%s", hb_db_errmsg(db));
 		hb_db_close(db);
 		return status == HB_ERR_NOTFOUND ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
 	}
+	/* its global identity and the spec revision in force (a store before step 9 has neither) */
+	char uid[HB_DB_UID_LEN] = "";
+	hb_db_spec_revision rev;
+	bool have_rev = hb_db_spec_revision_get(db, p.id, 0, &rev) == HB_OK;
+	hb_db_uid_of(db, HB_DB_REC_PART, p.id, uid);
 	hb_db_close(db);
 	if (e.json) {
-		json_t *j = hb_json_part(&p);
-		if (j) {
-			json_object_set_new(j, "core_shape", json_string(cs.shape));
-			json_object_set_new(j, "core_dims", json_string(cs.dims));
-			json_object_set_new(j, "gap_at", json_string(cs.gap_at));
+		json_t *o = hb_json_part(&p);
+		if (o) {
+			json_object_set_new(o, "core_shape", json_string(cs.shape));
+			json_object_set_new(o, "core_dims", json_string(cs.dims));
+			json_object_set_new(o, "gap_at", json_string(cs.gap_at));
+			json_object_set_new(o, "uid", uid[0] ? json_string(uid) : json_null());
+			json_object_set_new(o, "spec_revision", have_rev ? json_integer(rev.revision) : json_null());
+			json_object_set_new(o, "spec_revision_uid", have_rev ? json_string(rev.uid) : json_null());
 		}
-		return hb_print_json(j) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
+		return hb_print_json(o) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	}
 	char a[64], b[64], c[160];
 	printf("part %s\n", p.part_number);
+	if (uid[0])
+		show_line("identity", uid);
+	if (have_rev) {
+		snprintf(c, sizeof c, "%d of %s (%s)", rev.revision, rev.created, rev.uid);
+		show_line("spec revision", c);
+	}
 	show_line("description", p.description[0] ? p.description : "-");
 	show_line("maker", p.maker[0] ? p.maker : "-");
 	show_line("nominal", hb_si_or_dash(a, sizeof a, p.nominal_h, "H"));

@@ -31,7 +31,10 @@ const hb_cmd_opts hb_opts_report = {
 	.about = "\nWrites one self-contained HTML page (figures inline, nothing fetched) that prints\n"
 		 "as an engineering record: a sweep with its settings, instruments, verdicts, fit\n"
 		 "values and plots; an inspected lot with its plan, units, decision and statistics;\n"
-		 "or a part's history with per-lot statistics and the L0 trend.\n",
+		 "or a part's history with per-lot statistics and the L0 trend. SWEEP_ID, LOT and P\n"
+		 "may also be the record's global identity. Every page is filed: it gets a report\n"
+		 "number, and the store keeps the SHA-256 of the page and of the points it rests on\n"
+		 "('henrybench verify FILE.html' checks both).\n",
 	.opts = report_table,
 	.max_operands = -1,
 };
@@ -69,48 +72,23 @@ int hb_cmd_report(int argc, char **argv)
 		hb_db_close(db);
 		return HB_EXIT_RUNTIME;
 	}
-	/* Written beside the target and renamed, so a failed run never leaves
-	 * half a record where a complete one is expected. */
-	bool to_stdout = strcmp(out_path, "-") == 0;
-	char tmp[4096];
-	snprintf(tmp, sizeof tmp, "%s.tmp%ld", out_path, (long)getpid());
-	FILE *out = to_stdout ? stdout : fopen(tmp, "w");
-	if (!out) {
-		hb_cli_error("cannot write %s: %s", tmp, strerror(errno));
-		hb_db_close(db);
-		return HB_EXIT_RUNTIME;
-	}
-	char err[300] = "";
-	int rc;
-	if (sweep_id > 0)
-		rc = hb_report_sweep(db, (int64_t)sweep_id, out, err, sizeof err);
-	else if (lot)
-		rc = hb_report_lot(db, part, lot, out, err, sizeof err);
-	else
-		rc = hb_report_part(db, part, out, err, sizeof err);
+	char part_buf[HB_DB_ID_LEN], lot_buf[HB_DB_ID_LEN], lot_part[HB_DB_ID_LEN];
+	if (lot)
+		lot = hb_cli_lot_code(lot, lot_buf, sizeof lot_buf, lot_part, sizeof lot_part, &part);
+	hb_report_request rq = { .kind = sweep_id > 0 ? HB_REPORT_SWEEP : lot ? HB_REPORT_LOT : HB_REPORT_PART,
+				 .sweep_id = (int64_t)sweep_id,
+				 .part_number = part ? hb_cli_part_number(part, part_buf, sizeof part_buf) : NULL,
+				 .lot_code = lot, .path = out_path };
+	char err[300] = "", number[HB_DB_UID_LEN] = "";
+	/* written beside the target and renamed, hashed and filed in the store (report_file.c) */
+	int rc = hb_report_file(db, &rq, number, err, sizeof err);
 	hb_db_close(db);
-	if (to_stdout) {
-		if (fflush(stdout) != 0 && rc == HB_OK) {
-			rc = HB_ERR_IO;
-			snprintf(err, sizeof err, "write to standard output failed");
-		}
-	} else {
-		if (fclose(out) != 0 && rc == HB_OK) {
-			rc = HB_ERR_IO;
-			snprintf(err, sizeof err, "cannot write %s: %s", tmp, strerror(errno));
-		}
-		if (rc == HB_OK && rename(tmp, out_path) != 0) {
-			rc = HB_ERR_IO;
-			snprintf(err, sizeof err, "cannot rename %s to %s: %s", tmp, out_path, strerror(errno));
-		}
-		if (rc != HB_OK)
-			unlink(tmp);
-	}
+	bool to_stdout = strcmp(out_path, "-") == 0;
 	if (rc != HB_OK) {
 		hb_cli_error("report: %s", err[0] ? err : hb_status_name(rc));
 		return rc == HB_ERR_ARG || rc == HB_ERR_NOTFOUND ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
 	}
 	if (!to_stdout)
-		printf("report written: %s\n", out_path);
+		printf("report %s written: %s\n", number, out_path);
 	return HB_EXIT_OK;
 }

@@ -137,17 +137,23 @@ int hb_cmd_sweeps(int argc, char **argv)
 		hb_db_close(db);
 		return HB_EXIT_RUNTIME;
 	}
-	hb_db_close(db);
 	if ((size_t)matched > n)
 		fprintf(stderr, "sweeps: the newest %zu of %lld matching sweeps shown; --limit N or --all for more\n", n,
 			(long long)matched);
 	if (json) {
 		json_t *arr = json_array();
-		for (size_t i = 0; i < n; i++)
-			json_array_append_new(arr, hb_json_sweep_summary(&list[i]));
+		for (size_t i = 0; i < n; i++) {
+			json_t *o = hb_json_sweep_summary(&list[i]);
+			char uid[HB_DB_UID_LEN] = "";
+			if (o && hb_db_uid_of(db, HB_DB_REC_SWEEP, list[i].id, uid) == HB_OK && uid[0])
+				json_object_set_new(o, "uid", json_string(uid));
+			json_array_append_new(arr, o);
+		}
+		hb_db_close(db);
 		hb_db_sweeps_free(list);
 		return hb_print_json(arr) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	}
+	hb_db_close(db);
 	printf("%8s  %-20s  %-20s  %-14s  %-9s  %-11s  %6s  %s\n", "id", "started (UTC)", "part", "unit", "kind",
 	       "status", "points", "station");
 	for (size_t i = 0; i < n; i++) {
@@ -164,20 +170,24 @@ int hb_cmd_sweeps(int argc, char **argv)
 /* ---------------- show ---------------- */
 
 typedef struct show_args {
-	bool json, csv;
+	bool json, csv, all_verdicts;
 } show_args;
 
 static const hb_opt show_table[] = {
 	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(show_args, json), .help = "one JSON document" },
 	{ .name = "csv", .kind = HB_OPT_FLAG, .off = offsetof(show_args, csv),
 	  .help = "the points only, SI units named in the header" },
+	{ .name = "all-verdicts", .kind = HB_OPT_FLAG, .off = offsetof(show_args, all_verdicts),
+	  .help = "also the verdicts superseded by a later judgement (text and JSON)" },
 	{ .name = NULL },
 };
 
 const hb_cmd_opts hb_opts_show = {
 	.name = "show",
-	.usage = "SWEEP_ID [--json | --csv]",
-	.about = "\nPrints one stored sweep: its settings, instruments, verdicts and every point.\n",
+	.usage = "SWEEP_ID [--json | --csv] [--all-verdicts]",
+	.about = "\nPrints one stored sweep: its settings, instruments, verdicts and every point.\n"
+		 "SWEEP_ID is the local number or the sweep's global identity. The verdicts shown\n"
+		 "are those in force; --all-verdicts adds the ones a later judgement superseded.\n",
 	.opts = show_table,
 	.max_operands = -1,
 };
@@ -187,11 +197,16 @@ static const char *si(char *buf, size_t cap, double v, const char *unit)
 	return isnan(v) ? "-" : hb_format_si(buf, cap, v, unit, 4);
 }
 
-static void print_text(const hb_db_sweep *s, const hb_db_point *pts, size_t n, const hb_db_verdict *v, size_t nv)
+static void print_text(hb_db *db, const hb_db_sweep *s, const hb_db_point *pts, size_t n, const hb_db_verdict *v,
+		       size_t nv)
 {
 	char a[48], b[48], c[48];
 	printf("sweep %lld: %s, %s%s%s\n", (long long)s->id, hb_db_sweep_kind_name(s->kind),
 	       hb_db_sweep_status_name(s->status), s->status_reason[0] ? " - " : "", s->status_reason);
+	char uid[HB_DB_UID_LEN] = "", puid[HB_DB_UID_LEN] = "";
+	if (hb_db_uid_of(db, HB_DB_REC_SWEEP, s->id, uid) == HB_OK && uid[0] &&
+	    hb_db_uid_of(db, HB_DB_REC_POINTS, s->id, puid) == HB_OK)
+		printf("  identity            %s (points %s)\n", uid, puid[0] ? puid : "-");
 	printf("  part / unit / lot   %s / %s / %s\n", s->part_number[0] ? s->part_number : "-",
 	       s->serial[0] ? s->serial : "-", s->lot_code[0] ? s->lot_code : "-");
 	printf("  started / ended     %s / %s (UTC)\n", s->started_iso, s->ended_iso[0] ? s->ended_iso : "-");
@@ -226,8 +241,23 @@ static void print_text(const hb_db_sweep *s, const hb_db_point *pts, size_t n, c
 	printf("  supply accuracy     %s\n", s->supply_accuracy[0] ? s->supply_accuracy : "not stated");
 	if (nv)
 		printf("  verdicts\n");
-	for (size_t i = 0; i < nv; i++)
+	for (size_t i = 0; i < nv; i++) {
 		hb_analysis_print_stored_verdict(stdout, &v[i], hb_analysis_check_unit(v[i].check_name));
+		if (!v[i].uid[0])
+			continue;
+		char rev[32] = "no part spec";
+		if (v[i].spec_revision > 0)
+			snprintf(rev, sizeof rev, "spec revision %d", v[i].spec_revision);
+		printf("      judged %s by %s against %s, verdict %s%s", v[i].created,
+		       v[i].operator_name[0] ? v[i].operator_name : "-", rev, v[i].uid,
+		       v[i].superseded_by ? ", SUPERSEDED" : "");
+		if (v[i].superseded_by) {
+			char by[HB_DB_UID_LEN] = "";
+			hb_db_uid_of(db, HB_DB_REC_VERDICT, v[i].superseded_by, by);
+			printf(" by %s", by[0] ? by : "-");
+		}
+		putchar('\n');
+	}
 	printf("\n%5s %-4s %12s %12s %12s %14s %14s %9s %6s\n", "seq", "dir", "bias_set_A", "bias_A", "freq_Hz",
 	       hb_io_reading_column(s->measured_pair, 0), hb_io_reading_column(s->measured_pair, 1), "t_s", "status");
 	for (size_t i = 0; i < n; i++) {
@@ -255,14 +285,9 @@ int hb_cmd_show(int argc, char **argv)
 		hb_cli_error("show needs one SWEEP_ID (try 'henrybench sweeps' to list them)");
 		return HB_EXIT_USAGE;
 	}
-	const char *text = argv[r.first];
-	char *end = NULL;
-	errno = 0;
-	long long id = strtoll(text, &end, 10);
-	if (errno || end == text || *end || id <= 0) {
-		hb_cli_error("sweep id '%s' is not a positive integer", text);
+	long long id = 0;
+	if (hb_cli_parse_sweep_id(argv[r.first], &id) != HB_OK)
 		return HB_EXIT_USAGE;
-	}
 
 	hb_db *db = hb_cli_open_store();
 	if (!db)
@@ -276,7 +301,8 @@ int hb_cmd_show(int argc, char **argv)
 	if (status == HB_OK)
 		status = hb_db_points_get(db, id, &pts, &n);
 	if (status == HB_OK)
-		status = hb_db_verdict_list(db, id, &verdicts, &nv);
+		status = a.all_verdicts ? hb_db_verdict_list_all(db, id, &verdicts, &nv) :
+					  hb_db_verdict_list(db, id, &verdicts, &nv);
 	if (status != HB_OK) {
 		hb_cli_error("%s", hb_db_errmsg(db));
 		if (status == HB_ERR_NOTFOUND)
@@ -291,6 +317,14 @@ int hb_cmd_show(int argc, char **argv)
 			hb_cli_error("show: %s", err);
 			goto out;
 		}
+		if (a.all_verdicts) {
+			/* the judgements a later one replaced, kept beside those in force */
+			json_t *old = json_array();
+			for (size_t i = 0; i < nv; i++)
+				if (verdicts[i].superseded_by)
+					json_array_append_new(old, hb_json_verdict(&verdicts[i]));
+			json_object_set_new(root, "superseded_verdicts", old);
+		}
 		exit_code = hb_print_json(root) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	} else if (csv) {
 		/* the export's table of this one sweep, so it imports back */
@@ -301,7 +335,7 @@ int hb_cmd_show(int argc, char **argv)
 		}
 		exit_code = HB_EXIT_OK;
 	} else {
-		print_text(&s, pts, n, verdicts, nv);
+		print_text(db, &s, pts, n, verdicts, nv);
 		exit_code = HB_EXIT_OK;
 	}
 out:

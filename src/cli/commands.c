@@ -19,6 +19,7 @@ const hb_command hb_commands[] = {
 	{ "history", hb_cmd_history, "a part's measured units, lot statistics with Cpk, trend across lots", &hb_opts_history },
 	{ "compare", hb_cmd_compare, "stored bias sweeps side by side: L0, drop currents, mu_e, gap, verdict", &hb_opts_compare },
 	{ "report", hb_cmd_report, "write an HTML record of a sweep, a lot or a part (inline plots)", &hb_opts_report },
+	{ "verify", hb_cmd_verify, "check a filed report against the store: report file and the points it rests on intact", &hb_opts_verify },
 	{ "export", hb_cmd_export, "stored sweeps as CSV or JSON, SI units in every column", &hb_opts_export },
 	{ "import", hb_cmd_import, "store a sweep a meter logged on its own (CSV), then fit it", &hb_opts_import },
 	{ "completion", hb_cmd_completion, "print a bash completion script generated from the option tables", &hb_opts_completion },

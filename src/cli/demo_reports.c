@@ -13,28 +13,15 @@ typedef enum demo_page { PAGE_SWEEP, PAGE_LOT, PAGE_PART } demo_page;
 static int write_page(hb_db *db, demo_page page, int64_t sweep_id, const hb_db_part *part, const char *lot_code,
 		      const char *path)
 {
-	char tmp[1200], err[300] = "";
-	snprintf(tmp, sizeof tmp, "%s.tmp", path);
-	FILE *f = fopen(tmp, "w");
-	if (!f) {
-		hb_cli_error("cannot write %s: %s", tmp, strerror(errno));
-		return HB_ERR_IO;
-	}
-	int rc = page == PAGE_SWEEP ? hb_report_sweep(db, sweep_id, f, err, sizeof err) :
-		 page == PAGE_LOT   ? hb_report_lot(db, part->part_number, lot_code, f, err, sizeof err) :
-				      hb_report_part(db, part->part_number, f, err, sizeof err);
-	if (fclose(f) != 0 && rc == HB_OK) {
-		rc = HB_ERR_IO;
-		snprintf(err, sizeof err, "%s", strerror(errno));
-	}
-	if (rc == HB_OK && rename(tmp, path) != 0) {
-		rc = HB_ERR_IO;
-		snprintf(err, sizeof err, "%s", strerror(errno));
-	}
-	if (rc != HB_OK) {
-		unlink(tmp);
+	char err[300] = "";
+	hb_report_request rq = { .kind = page == PAGE_SWEEP ? HB_REPORT_SWEEP : page == PAGE_LOT ? HB_REPORT_LOT :
+											       HB_REPORT_PART,
+				 .sweep_id = sweep_id, .part_number = part->part_number, .lot_code = lot_code,
+				 .path = path };
+	/* filed like any report: numbered, hashed, recorded in the demo's store */
+	int rc = hb_report_file(db, &rq, NULL, err, sizeof err);
+	if (rc != HB_OK)
 		hb_cli_error("report %s: %s", path, err[0] ? err : hb_status_name(rc));
-	}
 	return rc;
 }
 

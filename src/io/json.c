@@ -245,7 +245,26 @@ json_t *hb_json_verdict(const hb_db_verdict *v)
 {
 	/* the analysis's own shape of a stored verdict, so that fit --json, show
 	 * and export state the rule, U and the acceptance limits alike */
-	return hb_analysis_stored_verdict_json(v, hb_analysis_check_unit(v->check_name));
+	json_t *o = hb_analysis_stored_verdict_json(v, hb_analysis_check_unit(v->check_name));
+	/* traceability (step 9): which judgement this is, when, by whom, against which spec revision */
+	if (o && v->uid[0]) {
+		json_object_set_new(o, "uid", json_string(v->uid));
+		json_object_set_new(o, "judged_at", json_string(v->created));
+		json_object_set_new(o, "operator", json_string(v->operator_name));
+		json_object_set_new(o, "spec_revision", v->spec_revision > 0 ? json_integer(v->spec_revision) : json_null());
+		json_object_set_new(o, "superseded_by", v->superseded_by > 0 ? json_integer(v->superseded_by) : json_null());
+	}
+	return o;
+}
+
+/* "uid" and friends of a stored record: its global identity, null where the store has none. */
+static void set_uid(json_t *o, const char *key, hb_db *db, hb_db_record kind, int64_t id)
+{
+	char uid[HB_DB_UID_LEN] = "";
+	if (id > 0 && hb_db_uid_of(db, kind, id, uid) == HB_OK && uid[0])
+		json_object_set_new(o, key, json_string(uid));
+	else
+		json_object_set_new(o, key, json_null());
 }
 
 json_t *hb_json_sweep_record(hb_db *db, const hb_db_sweep *s, char *err, size_t errlen)
@@ -265,6 +284,10 @@ json_t *hb_json_sweep_record(hb_db *db, const hb_db_sweep *s, char *err, size_t 
 		return NULL;
 	}
 	json_t *o = hb_json_sweep(s);
+	set_uid(o, "uid", db, HB_DB_REC_SWEEP, s->id);
+	set_uid(o, "points_uid", db, HB_DB_REC_POINTS, s->id);
+	set_uid(o, "unit_uid", db, HB_DB_REC_UNIT, s->unit_id);
+	set_uid(o, "part_uid", db, HB_DB_REC_PART, s->part_id);
 	json_t *arr = json_array();
 	for (size_t i = 0; i < np; i++)
 		json_array_append_new(arr, hb_json_point(s, &pts[i]));
@@ -285,6 +308,8 @@ json_t *hb_json_sweep_record(hb_db *db, const hb_db_sweep *s, char *err, size_t 
 		}
 		jf = hb_json_fit(fit, unc, nu);
 		hb_db_fit_uncs_free(unc);
+		if (jf)
+			set_uid(jf, "uid", db, HB_DB_REC_FIT, fit->id);
 	}
 	json_object_set_new(o, "fit", jf ? jf : json_null());
 	arr = json_array();

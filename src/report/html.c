@@ -131,6 +131,11 @@ char *hb_html_escape_dup(const char *s)
 
 hb_html *hb_html_open(FILE *out, const char *title, const char *subtitle)
 {
+	return hb_html_open_meta(out, title, subtitle, NULL, 0);
+}
+
+hb_html *hb_html_open_meta(FILE *out, const char *title, const char *subtitle, const char *const *meta, size_t nmeta)
+{
 	if (!out)
 		return NULL;
 	hb_html *h = calloc(1, sizeof *h);
@@ -138,7 +143,15 @@ hb_html *hb_html_open(FILE *out, const char *title, const char *subtitle)
 		return NULL;
 	h->out = out;
 	put(h, "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
-	       "<meta name=\"generator\" content=\"henrybench\">\n<title>");
+	       "<meta name=\"generator\" content=\"henrybench\">\n");
+	for (size_t i = 0; meta && i < nmeta; i++) {
+		put(h, "<meta name=\"");
+		text(h, meta[2 * i]);
+		put(h, "\" content=\"");
+		text(h, meta[2 * i + 1]);
+		put(h, "\">\n");
+	}
+	put(h, "<title>");
 	text(h, title);
 	put(h, "</title>\n<style>\n");
 	put(h, page_css);

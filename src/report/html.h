@@ -24,6 +24,9 @@ typedef struct hb_html hb_html;
 /* Writes the head (title, inline CSS for screen and print) and the page
  * heading. subtitle may be NULL. */
 hb_html *hb_html_open(FILE *out, const char *title, const char *subtitle);
+/* The same with machine-readable <meta name content> pairs in the head:
+ * meta[2i] the name, meta[2i+1] the content, nmeta pairs. */
+hb_html *hb_html_open_meta(FILE *out, const char *title, const char *subtitle, const char *const *meta, size_t nmeta);
 /* Closes open elements, ends the page, frees h; returns the sticky status.
  * Does not close the FILE. hb_html_close(NULL) returns HB_OK. */
 int hb_html_close(hb_html *h);

@@ -578,6 +578,7 @@ void rpt_trace_paragraph(hb_html *h, hb_db *db, const char *what)
 		 "the store; re-run 'henrybench show SWEEP_ID' to see the same records.",
 		 what, rpt_or_dash(hb_db_path(db)), now, HB_VERSION, HB_FIT_CODE_VERSION);
 	hb_html_paragraph(h, line);
+	rpt_trace_identities(h, db);
 }
 
 void rpt_budget_section(hb_html *h, const sweep_data *d)

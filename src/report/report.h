@@ -58,4 +58,59 @@ int hb_report_part(hb_db *db, const char *part_number, FILE *out, char *err, siz
 int hb_report_find_lot(hb_db *db, const char *part_number, const char *lot_code, hb_db_lot *lot, char *err,
 		       size_t errlen);
 
+/* ---------------- filed reports and their integrity (report_file.c) ---------------- */
+
+typedef enum { HB_REPORT_SWEEP = 0, HB_REPORT_LOT, HB_REPORT_PART } hb_report_kind;
+
+typedef struct hb_report_request {
+	hb_report_kind kind;
+	int64_t sweep_id;          /* HB_REPORT_SWEEP */
+	const char *part_number;   /* HB_REPORT_LOT (NULL: the lot code is unique) and HB_REPORT_PART */
+	const char *lot_code;      /* HB_REPORT_LOT */
+	const char *path;          /* the page; "-" = standard output (then no file hash is stored) */
+} hb_report_request;
+
+/*
+ * Writes a filed report: gives it a report number (a global identity), embeds
+ * the number, the software version and the SHA-256 of the canonical export of
+ * its points in the page's head and its traceability section, writes the page
+ * beside path and renames it into place, and stores in the reports table the
+ * number, kind, subject, path, the SHA-256 of the file as written and the data
+ * hash. number (may be NULL) gets the report number.
+ */
+int hb_report_file(hb_db *db, const hb_report_request *rq, char number[HB_DB_UID_LEN], char *err, size_t errlen);
+
+/*
+ * The canonical export of the raw points of sweeps (docs/store.md): a first
+ * line "henrybench-points 1", then per sweep in ascending local id a line
+ * "sweep SWEEP_UID POINTS_UID N" and its N points in sequence order, one line
+ * each, fields separated by one space: seq, direction (up/down), bias_set_a,
+ * bias_meas_a, supply_v, freq_hz, primary, secondary, reading_status, t_s,
+ * settle_readings, settle_s, bias_spread_a, settled (0/1); reals as "%.17g" in
+ * the C locale, a value not known as "null"; every line ends in "\n".
+ * Written to out when out is not NULL; its SHA-256 into hex; *points (may be
+ * NULL) gets the number of points.
+ */
+int hb_report_points_canonical(hb_db *db, const int64_t *sweep_ids, size_t n, FILE *out, char hex[65], size_t *points,
+			       char *err, size_t errlen);
+
+/* The report number in the head of a filed page (meta hb-report): HB_ERR_IO if
+ * the file cannot be read, HB_ERR_DATA if it carries none. */
+int hb_report_read_number(const char *path, char number[HB_DB_UID_LEN], char *err, size_t errlen);
+
+typedef struct hb_report_check {
+	char number[HB_DB_UID_LEN];
+	hb_db_report filed;        /* the store's record of it */
+	char file_sha256[65];      /* recomputed over the file given */
+	char data_sha256[65];      /* recomputed from the stored points */
+	size_t n_points;
+	bool file_intact, data_intact;
+} hb_report_check;
+
+/* Recomputes both hashes of the filed page at path and compares them with the
+ * store's record. HB_OK when the comparison could be made (see file_intact and
+ * data_intact); HB_ERR_NOTFOUND when the store has no such report. */
+int hb_report_verify(hb_db *db, const char *path, hb_report_check *out, char *err, size_t errlen);
+void hb_report_check_clear(hb_report_check *c);
+
 #endif

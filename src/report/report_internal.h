@@ -5,6 +5,7 @@
 #include <stdbool.h>
 #include <stddef.h>
 #include <stdint.h>
+#include <stdio.h>
 
 #include "../../db/hb_db.h"
 #include "html.h"
@@ -46,5 +47,22 @@ void rpt_stats_row(hb_html *h, const char *name, const double *vals, size_t n, d
 
 /* Column heads of the statistics tables of the lot and part reports. */
 extern const char *const rpt_stats_head[9];
+
+/* ---------------- filed reports (report_file.c) ---------------- */
+/* While hb_report_file writes a page: its report number, data hash and the
+ * sweeps the page rests on; NULL otherwise (a page not filed). */
+typedef struct rpt_stamp {
+	const char *number;     /* report number, a global identity */
+	const char *kind;       /* "sweep", "lot", "part" */
+	const char *data_sha256;
+	const int64_t *sweeps;  /* ascending */
+	size_t n_sweeps;
+} rpt_stamp;
+const rpt_stamp *rpt_current_stamp(void);
+/* hb_html_open with the stamp's machine-readable head (meta hb-report, hb-data-sha256, hb-software). */
+hb_html *rpt_html_open(FILE *out, const char *title, const char *subtitle);
+/* The traceability table of a filed page: report number, software, the global
+ * identities of part, spec revision, unit, lot, sweeps, point sets and fits, the hashes. */
+void rpt_trace_identities(hb_html *h, hb_db *db);
 
 #endif

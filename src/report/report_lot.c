@@ -134,7 +134,7 @@ int hb_report_lot(hb_db *db, const char *part_number, const char *lot_code, FILE
 	snprintf(title, sizeof title, "Lot inspection record: lot %s of %s", lot.lot_code, part.part_number);
 	snprintf(subtitle, sizeof subtitle, "Single sampling by ISO 2859-1; decision: %s%s%s",
 		 hb_db_lot_decision_name(lot.decision), lot.decided[0] ? ", " : "", lot.decided);
-	h = hb_html_open(out, title, subtitle);
+	h = rpt_html_open(out, title, subtitle);
 	if (!h) {
 		rc = HB_ERR_NOMEM;
 		goto out;

@@ -46,7 +46,7 @@ int hb_report_part(hb_db *db, const char *part_number, FILE *out, char *err, siz
 	char title[200], line[400], a[48];
 	snprintf(title, sizeof title, "Part history: %s", part.part_number);
 	snprintf(line, sizeof line, "%zu units, each by its latest complete bias sweep", n);
-	h = hb_html_open(out, title, line);
+	h = rpt_html_open(out, title, line);
 	if (!h) {
 		rc = HB_ERR_NOMEM;
 		goto out;

@@ -29,7 +29,7 @@ int hb_report_sweep(hb_db *db, int64_t sweep_id, FILE *out, char *err, size_t er
 	snprintf(subtitle, sizeof subtitle, "Inductance against %s, %s, started %s UTC at station %s",
 		 d.sweep.kind == HB_DB_SWEEP_BIAS ? "DC bias" : "frequency", hb_db_sweep_status_name(d.sweep.status),
 		 rpt_or_dash(d.sweep.started_iso), rpt_or_dash(d.sweep.station));
-	hb_html *h = hb_html_open(out, title, subtitle);
+	hb_html *h = rpt_html_open(out, title, subtitle);
 	if (!h) {
 		rpt_sweep_data_free(&d);
 		hb_set_err(err, errlen, "out of memory");
