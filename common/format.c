@@ -98,7 +98,8 @@ static char *write_scaled(char *buf, size_t cap, double r, int q, const char *un
 	if (strcmp(unit, "m2") == 0) {
 		steps = steps_area;
 		n = sizeof steps_area / sizeof steps_area[0];
-	} else if (no_prefix_unit(unit)) {
+	} else if (!*unit || no_prefix_unit(unit)) {
+		/* a pure number reads better without a prefix (2300, not 2.3 k) */
 		steps = steps_none;
 		n = 1;
 	}

@@ -26,7 +26,9 @@ static void test_prefixes(void **state)
 	assert_string_equal(hb_format_si(b, sizeof b, 999.96e-6, "H", 4), "1 mH");
 	/* Large and small values keep the plain digits: no "e+06" anywhere. */
 	assert_string_equal(hb_format_si(b, sizeof b, 123456789.0, "Hz", 3), "123 MHz");
-	assert_string_equal(hb_format_si(b, sizeof b, 1234.0, "", 6), "1.234 k");
+	/* A pure number takes no prefix: mu_i 2300, not 2.3 k (common practice). */
+	assert_string_equal(hb_format_si(b, sizeof b, 1234.0, "", 6), "1234");
+	assert_string_equal(hb_format_unc(b, sizeof b, 2300.1934, 0.353, "", 6), "2300.19 +- 0.35");
 	assert_null(strchr(hb_format_si(b, sizeof b, 3.2e-20, "F", 3), 'e'));
 }
 
