@@ -262,3 +262,22 @@ char *hb_text_pad(char *buf, size_t cap, const char *s, size_t width, bool left)
 	buf[len + pad] = '\0';
 	return buf;
 }
+
+int hb_fput_cell(FILE *out, const char *s, size_t width, bool left)
+{
+	if (!s || !*s)
+		s = HB_TEXT_ABSENT;
+	size_t w = hb_text_width(s);
+	size_t pad = w < width ? width - w : 0;
+	if (!left)
+		for (size_t i = 0; i < pad; i++)
+			if (fputc(' ', out) == EOF)
+				return EOF;
+	if (fputs(s, out) == EOF)
+		return EOF;
+	if (left)
+		for (size_t i = 0; i < pad; i++)
+			if (fputc(' ', out) == EOF)
+				return EOF;
+	return 0;
+}

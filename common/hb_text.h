@@ -79,4 +79,9 @@ size_t hb_text_width(const char *s);
  * for text tables whose cells hold user text; s whole when it is wider. */
 char *hb_text_pad(char *buf, size_t cap, const char *s, size_t width, bool left);
 
+/* Writes s (empty or NULL: HB_TEXT_ABSENT) padded to width display columns
+ * on out; 0, or EOF when the write failed. */
+#include <stdio.h>
+int hb_fput_cell(FILE *out, const char *s, size_t width, bool left);
+
 #endif

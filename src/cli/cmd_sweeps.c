@@ -133,9 +133,12 @@ int hb_cmd_sweeps(int argc, char **argv)
 	       "status", "points", "station");
 	for (size_t i = 0; i < n; i++) {
 		const hb_db_sweep *s = &list[i];
-		printf("%8lld  %-20s  %-20s  %-14s  %-9s  %-11s  %6ld  %s\n", (long long)s->id, s->started_iso,
-		       s->part_number[0] ? s->part_number : "-", s->serial[0] ? s->serial : "-",
-		       hb_db_sweep_kind_name(s->kind), hb_db_sweep_status_name(s->status), s->n_points,
+		/* user text padded by display width, so non-ASCII part numbers keep the columns */
+		printf("%8lld  %-20s  ", (long long)s->id, s->started_iso);
+		hb_fput_cell(stdout, s->part_number, 20, true);
+		printf("  ");
+		hb_fput_cell(stdout, s->serial, 14, true);
+		printf("  %-9s  %-11s  %6ld  %s\n", hb_db_sweep_kind_name(s->kind), hb_db_sweep_status_name(s->status), s->n_points,
 		       s->station[0] ? s->station : "-");
 	}
 	hb_db_sweeps_free(list);
