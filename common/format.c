@@ -23,8 +23,8 @@ static const si_step steps_si[] = {
 	{ 0, "" }, { -3, "m" }, { -6, "u" }, { -9, "n" }, { -12, "p" }, { -15, "f" }, { -18, "a" },
 	{ -21, "z" }, { -24, "y" },
 };
-/* A squared unit squares its prefix: 1 mm2 = 1e-6 m2. */
-static const si_step steps_area[] = { { 0, "" }, { -6, "m" }, { -12, "u" } };
+/* A squared unit squares its prefix: 1 mm2 = 1e-6 m2, 1 nH2 = 1e-18 H2. */
+static const si_step steps_area[] = { { 6, "k" }, { 0, "" }, { -6, "m" }, { -12, "u" }, { -18, "n" }, { -24, "p" } };
 /* Units that take no prefix. */
 static const si_step steps_none[] = { { 0, "" } };
 
@@ -95,7 +95,8 @@ static char *write_scaled(char *buf, size_t cap, double r, int q, const char *un
 {
 	const si_step *steps = steps_si;
 	size_t n = sizeof steps_si / sizeof steps_si[0];
-	if (strcmp(unit, "m2") == 0) {
+	size_t ul = strlen(unit);
+	if (ul >= 2 && unit[ul - 1] == '2' && unit[ul - 2] != '^') {
 		steps = steps_area;
 		n = sizeof steps_area / sizeof steps_area[0];
 	} else if (!*unit || no_prefix_unit(unit)) {
@@ -280,4 +281,18 @@ int hb_fput_cell(FILE *out, const char *s, size_t width, bool left)
 			if (fputc(' ', out) == EOF)
 				return EOF;
 	return 0;
+}
+
+char *hb_format_u(char *buf, size_t cap, double u, const char *unit)
+{
+	if (!unit)
+		unit = "";
+	if (!isfinite(u)) {
+		snprintf(buf, cap, "%s", HB_TEXT_ABSENT);
+		return buf;
+	}
+	/* GUM 7.2.6: two significant digits, a trailing zero kept ("3.0 mA") */
+	int q;
+	double r = hb_round_sig(u, 2, &q);
+	return write_scaled(buf, cap, r, u == 0 ? 0 : q, unit, u == 0);
 }

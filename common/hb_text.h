@@ -67,6 +67,10 @@ int hb_gum_round(double value, double u, double *value_r, double *u_r);
  * digits. */
 char *hb_format_unc(char *buf, size_t cap, double value, double u, const char *unit, int digits);
 
+/* An uncertainty alone to two significant digits, zeros kept: "3.0 mA",
+ * "680 uA" (GUM 7.2.6); HB_TEXT_ABSENT when not a number. */
+char *hb_format_u(char *buf, size_t cap, double u, const char *unit);
+
 /* A tolerance interval as words: "97.2 uH to 118.8 uH", "<= 40 mohm",
  * ">= 72.05 uH" or "none" (an open side is never printed as a number). */
 char *hb_format_limits(char *buf, size_t cap, double low, double high, const char *unit, int digits);

@@ -61,6 +61,9 @@ static void test_gum_digits(void **state)
 	assert_string_equal(hb_format_unc(b, sizeof b, 3.381283, 0.000683, "A", 5), "3.38128 A +- 680 uA");
 	/* The uncertainty's rounding carries: 0.996 mA to two digits is 1.0 mA, the value to 0.1 mA. */
 	assert_string_equal(hb_format_unc(b, sizeof b, 1.23456, 0.000996, "A", 5), "1.2346 A +- 1.0 mA");
+	/* An uncertainty alone keeps its two digits, a zero included (GUM 7.2.6: 2.97 mA is 3.0 mA). */
+	assert_string_equal(hb_format_u(b, sizeof b, 2.97e-3, "A"), "3.0 mA");
+	assert_string_equal(hb_format_u(b, sizeof b, 683e-6, "A"), "680 uA");
 	/* Without a usable uncertainty the digit count stands in. */
 	assert_string_equal(hb_format_unc(b, sizeof b, 1.23456, NAN, "A", 3), "1.23 A");
 }

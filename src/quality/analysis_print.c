@@ -28,7 +28,7 @@ static void print_unc(FILE *out, const hb_analysis_summary *s, const char *name)
 		return;
 	char a[40];
 	/* an expanded uncertainty to two significant digits (GUM 7.2.6) */
-	hb_format_si(a, sizeof a, bg->U, bg->unit, 2);
+	hb_format_u(a, sizeof a, bg->U, bg->unit);
 	fprintf(out, "  %-28s U = %s (k = %.2f, 95.45 %%)%s%s\n", "", a, bg->k, bg->note[0] ? "; " : "", bg->note);
 }
 
@@ -117,7 +117,7 @@ void hb_analysis_print_check(FILE *out, const hb_analysis_check *k, bool with_st
 	fprintf(out, "  %-5s %-16s measured %-14s", k->name, hb_decision_outcome_name(d->outcome),
 		verdict_measured(mv, sizeof mv, k->check.measured, d->U, k->unit));
 	if (isfinite(d->U))
-		fprintf(out, " U %s (k = %.2f)", hb_format_si(u, sizeof u, d->U, k->unit, 2), d->k);
+		fprintf(out, " U %s (k = %.2f)", hb_format_u(u, sizeof u, d->U, k->unit), d->k);
 	else
 		fprintf(out, " U %s", HB_TEXT_ABSENT);
 	fprintf(out, " limits %s", hb_format_limits(lim, sizeof lim, k->check.low, k->check.high, k->unit, 5));
@@ -450,27 +450,47 @@ json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 	return j;
 }
 
-/* The unit of a budget's result: that of an input entering with c = 1
- * (same dimension), else the verdict check's. */
-static const char *budget_y_unit(const char *name, json_t *inputs)
+const char *hb_analysis_budget_unit(const char *name, json_t *inputs, char *buf, size_t cap)
 {
+	/* that of an input entering with c = 1 (same dimension), else the verdict check's */
+	const char *unit = NULL;
 	size_t m = json_is_array(inputs) ? json_array_size(inputs) : 0;
-	for (size_t i = 0; i < m; i++) {
+	for (size_t i = 0; i < m && !unit; i++) {
 		json_t *o = json_array_get(inputs, i);
 		json_t *c = json_object_get(o, "c");
-		const char *unit = json_string_value(json_object_get(o, "unit"));
-		if (unit && json_is_number(c) && json_number_value(c) == 1)
-			return unit;
+		const char *u = json_string_value(json_object_get(o, "unit"));
+		if (u && json_is_number(c) && json_number_value(c) == 1)
+			unit = u;
 	}
-	if (strncmp(name, "mu", 2) == 0)
-		return "";
-	return hb_analysis_check_unit(name);
+	if (!unit)
+		unit = strncmp(name, "mu", 2) == 0 ? "" : hb_analysis_check_unit(name);
+	snprintf(buf, cap, "%s", unit);
+	return buf;
 }
 
 static double jnum_or_nan(json_t *o, const char *key)
 {
 	json_t *v = json_object_get(o, key);
 	return json_is_number(v) ? json_number_value(v) : NAN;
+}
+
+void hb_analysis_budget_cells(json_t *input, const char *y_unit, char cells[4][48])
+{
+	const char *xu = json_string_value(json_object_get(input, "unit"));
+	if (!xu)
+		xu = "";
+	/* c carries y's unit per x's unit; a shared unit cancels */
+	char cu[40];
+	if (strcmp(xu, y_unit) == 0)
+		cu[0] = '\0';
+	else if (!*xu)
+		snprintf(cu, sizeof cu, "%s", y_unit);
+	else
+		snprintf(cu, sizeof cu, "%s/%s", *y_unit ? y_unit : "1", xu);
+	hb_format_si(cells[0], 48, jnum_or_nan(input, "value"), xu, 6);
+	hb_format_u(cells[1], 48, jnum_or_nan(input, "u"), xu);
+	hb_format_si(cells[2], 48, jnum_or_nan(input, "c"), cu, 4);
+	hb_format_u(cells[3], 48, jnum_or_nan(input, "contribution"), y_unit);
 }
 
 void hb_analysis_print_budget(FILE *out, const hb_db_fit_unc *list, size_t n)
@@ -484,7 +504,7 @@ void hb_analysis_print_budget(FILE *out, const hb_db_fit_unc *list, size_t n)
 		json_error_t err;
 		json_t *a = json_loads(u->budget, 0, &err);
 		char yu[24]; /* copied: the name lives in a, dropped before the footer */
-		snprintf(yu, sizeof yu, "%s", budget_y_unit(u->name, a));
+		hb_analysis_budget_unit(u->name, a, yu, sizeof yu);
 		char head[96];
 		fprintf(out, "%s%s = %s\n", q ? "\n" : "", u->name, hb_format_unc(head, sizeof head, u->value, u->u_c, yu, 7));
 		fprintf(out, "  %-24s %-4s %-13s %-11s %-12s %-11s %s\n", "input", "type", "value", "u(x)", "c", "u_i(y)",
@@ -495,23 +515,10 @@ void hb_analysis_print_budget(FILE *out, const hb_db_fit_unc *list, size_t n)
 			const char *name = json_string_value(json_object_get(o, "input"));
 			const char *type = json_string_value(json_object_get(o, "type"));
 			const char *src = json_string_value(json_object_get(o, "source"));
-			const char *xu = json_string_value(json_object_get(o, "unit"));
-			if (!xu)
-				xu = "";
-			/* c carries y's unit per x's unit; a shared unit cancels */
-			char cu[40];
-			if (strcmp(xu, yu) == 0)
-				cu[0] = '\0';
-			else if (!*xu)
-				snprintf(cu, sizeof cu, "%s", yu);
-			else
-				snprintf(cu, sizeof cu, "%s/%s", *yu ? yu : "1", xu);
-			char v[40], ux[40], c[40], ui[40];
-			fprintf(out, "  %-24s %-4s %-13s %-11s %-12s %-11s %s\n", name ? name : "?", type ? type : "?",
-				hb_format_si(v, sizeof v, jnum_or_nan(o, "value"), xu, 6),
-				hb_format_si(ux, sizeof ux, jnum_or_nan(o, "u"), xu, 2),
-				hb_format_si(c, sizeof c, jnum_or_nan(o, "c"), cu, 4),
-				hb_format_si(ui, sizeof ui, jnum_or_nan(o, "contribution"), yu, 2), src ? src : "");
+			char c[4][48];
+			hb_analysis_budget_cells(o, yu, c);
+			fprintf(out, "  %-24s %-4s %-13s %-11s %-12s %-11s %s\n", name ? name : "?", type ? type : "?", c[0], c[1],
+				c[2], c[3], src ? src : "");
 		}
 		json_decref(a);
 		char dof[24], uc[40], U[40];
@@ -519,8 +526,8 @@ void hb_analysis_print_budget(FILE *out, const hb_db_fit_unc *list, size_t n)
 			snprintf(dof, sizeof dof, "%.1f", u->dof);
 		else
 			snprintf(dof, sizeof dof, "infinite");
-		fprintf(out, "  u_c = %s   nu_eff = %s   k = %.3f (95.45 %%)   U = %s", hb_format_si(uc, sizeof uc, u->u_c, yu, 2),
-			dof, u->k, hb_format_si(U, sizeof U, u->U, yu, 2));
+		fprintf(out, "  u_c = %s   nu_eff = %s   k = %.3f (95.45 %%)   U = %s", hb_format_u(uc, sizeof uc, u->u_c, yu),
+			dof, u->k, hb_format_u(U, sizeof U, u->U, yu));
 		if (isfinite(u->value) && u->value != 0 && isfinite(u->U))
 			fprintf(out, "   (%.2g %% of the value)", 100 * u->U / fabs(u->value));
 		fprintf(out, "\n");
@@ -544,7 +551,7 @@ void hb_analysis_print_stored_verdict(FILE *out, const hb_db_verdict *v, const c
 	fprintf(out, "  %-5s %-16s measured %-14s", v->check_name, hb_db_outcome_name(v->outcome),
 		verdict_measured(mv, sizeof mv, v->measured, v->expanded_u, unit));
 	if (isfinite(v->expanded_u))
-		fprintf(out, " U %s (k = %.2f)", hb_format_si(u, sizeof u, v->expanded_u, unit, 2), v->coverage_k);
+		fprintf(out, " U %s (k = %.2f)", hb_format_u(u, sizeof u, v->expanded_u, unit), v->coverage_k);
 	else
 		fprintf(out, " U %s", HB_TEXT_ABSENT);
 	fprintf(out, " limits %s", hb_format_limits(lim, sizeof lim, v->limit_low, v->limit_high, unit, 5));
