@@ -8,6 +8,7 @@
 #   make demo       run the main job on the simulated bench
 #   make bench      benchmarks (ratios measured in one run; not tests)
 #   make install    PREFIX=/usr/local DESTDIR=
+#   make man        regenerate henrybench.1 from the option tables (commit it)
 #
 # Missing Debian packages are installed by scripts/ensure-deps (as root) or
 # named in one apt-get line (otherwise) before anything is compiled.
@@ -16,6 +17,7 @@ PREFIX     ?= /usr/local
 DESTDIR    ?=
 BINDIR      = $(PREFIX)/bin
 DATADIR     = $(PREFIX)/share/henrybench
+MANDIR      = $(PREFIX)/share/man/man1
 VERSION    := 0.1.0
 
 CC         ?= cc
@@ -82,7 +84,7 @@ Q := @
 say = @echo "  $(1) $(2)"
 endif
 
-.PHONY: all deps check memcheck demo bench install uninstall clean
+.PHONY: all deps check memcheck demo bench install uninstall clean man
 # Keep test objects between runs.
 .SECONDARY: $(TEST_SRCS:tests/%.c=$(BUILD)/tests/%.o)
 .DEFAULT_GOAL := all
@@ -144,7 +146,7 @@ HENRYBENCH_BIN ?= $(abspath $(BUILD)/henrybench)
 RUN_TESTS   = HENRYBENCH_BIN="$(HENRYBENCH_BIN)" sh tests/run-tests $(BUILD) $(TEST_BINS)
 
 check: deps
-	@HB_EXTRA_TOOLS="chromium:chromium" sh scripts/ensure-deps
+	@HB_EXTRA_TOOLS="chromium:chromium pdftotext:poppler-utils groff:groff-base zsh:zsh" sh scripts/ensure-deps
 	@$(MAKE) --no-print-directory henrybench $(BUILD)/henrybench $(TEST_BINS)
 	@$(RUN_TESTS)
 
@@ -164,13 +166,24 @@ bench: deps
 	@$(MAKE) --no-print-directory henrybench $(BENCH_BINS)
 	@for b in $(BENCH_BINS); do echo "== $$b"; $$b || exit 1; done
 
+# The man page is generated from the option tables and committed, so that
+# `man ./henrybench.1` works in a fresh clone; test_manpage says when it is stale.
+man: henrybench
+	$(BUILD)/henrybench manpage > henrybench.1.tmp && mv henrybench.1.tmp henrybench.1
+
 install: henrybench
-	install -d $(DESTDIR)$(BINDIR) $(DESTDIR)$(DATADIR)/profiles
+	install -d $(DESTDIR)$(BINDIR) $(DESTDIR)$(DATADIR)/profiles $(DESTDIR)$(MANDIR) \
+		$(DESTDIR)$(PREFIX)/share/bash-completion/completions $(DESTDIR)$(PREFIX)/share/zsh/vendor-completions
 	install -m 755 $(BUILD)/henrybench $(DESTDIR)$(BINDIR)/henrybench
 	install -m 644 drivers/profiles/*.ini $(DESTDIR)$(DATADIR)/profiles/
+	install -m 644 henrybench.1 $(DESTDIR)$(MANDIR)/henrybench.1
+	$(BUILD)/henrybench completion bash > $(DESTDIR)$(PREFIX)/share/bash-completion/completions/henrybench
+	$(BUILD)/henrybench completion zsh > $(DESTDIR)$(PREFIX)/share/zsh/vendor-completions/_henrybench
 
 uninstall:
-	rm -f $(DESTDIR)$(BINDIR)/henrybench
+	rm -f $(DESTDIR)$(BINDIR)/henrybench $(DESTDIR)$(MANDIR)/henrybench.1
+	rm -f $(DESTDIR)$(PREFIX)/share/bash-completion/completions/henrybench
+	rm -f $(DESTDIR)$(PREFIX)/share/zsh/vendor-completions/_henrybench
 	rm -rf $(DESTDIR)$(DATADIR)
 
 clean:

@@ -238,30 +238,3 @@ int hb_parse_value(const char *text, const char *unit, double *value, char *err,
 			       text, suffix, unit);
 	return hb_set_err(err, errlen, "'%s': unknown suffix '%s' (a plain number or an SI prefix such as m, u, k, M)", text, suffix);
 }
-
-char *hb_format_si(char *buf, size_t cap, double value, const char *unit, int digits)
-{
-	static const struct { double f; const char *p; } steps[] = {
-		{ 1e12, "T" }, { 1e9, "G" }, { 1e6, "M" }, { 1e3, "k" }, { 1, "" },
-		{ 1e-3, "m" }, { 1e-6, "u" }, { 1e-9, "n" }, { 1e-12, "p" }, { 1e-15, "f" },
-	};
-	if (!unit)
-		unit = "";
-	if (digits < 1)
-		digits = 3;
-	if (!isfinite(value) || value == 0) {
-		snprintf(buf, cap, "%g %s", value, unit);
-		return buf;
-	}
-	double mag = fabs(value);
-	size_t i = 0;
-	while (i + 1 < sizeof steps / sizeof steps[0] && mag < steps[i].f * 0.9995)
-		i++;
-	/* A squared unit squares the prefix; keep those in plain scientific form. */
-	if (strcmp(unit, "m2") == 0 || strcmp(unit, "%") == 0) {
-		snprintf(buf, cap, "%.*g %s", digits, value, unit);
-		return buf;
-	}
-	snprintf(buf, cap, "%.*g %s%s", digits, value / steps[i].f, steps[i].p, unit);
-	return buf;
-}

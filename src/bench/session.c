@@ -61,14 +61,25 @@ static void show_progress(void *ctx, const hb_sweep_point *p, int index, int tot
 			amps = 0;
 		snprintf(x_text, sizeof x_text, "%8.4f A", amps);
 	}
+	/* the change from the first point, or a dash when there is none to compare (never "nan %") */
+	char ch_text[24];
+	if (isfinite(change))
+		snprintf(ch_text, sizeof ch_text, "%+6.2f %%", change);
+	else
+		snprintf(ch_text, sizeof ch_text, "%8s", HB_TEXT_ABSENT);
 	if (c->s->progress_tty) {
-		fprintf(out, "\r\033[K  point %d/%d  %s  %s %s  %+6.2f %%  %s  ~%.0f s left", index + 1, total,
-			x_text, name, l_text, change, p->settled ? "" : "(not settled)", left);
+		fprintf(out, "\r\033[K  point %d/%d  %s  %s %s  %s  %s  ~%.0f s left", index + 1, total,
+			x_text, name, l_text, ch_text, p->settled ? "" : "(not settled)", left);
 		if (index + 1 == total)
 			fputc('\n', out);
 	} else {
-		fprintf(out, "point %d/%d %s %s %s change %+.2f%%%s left %.0fs\n", index + 1, total, x_text, name, l_text,
-			change, p->settled ? "" : " not-settled", left);
+		char ch_line[24];
+		if (isfinite(change))
+			snprintf(ch_line, sizeof ch_line, "%+.2f%%", change);
+		else
+			snprintf(ch_line, sizeof ch_line, "%s", HB_TEXT_ABSENT);
+		fprintf(out, "point %d/%d %s %s %s change %s%s left %.0fs\n", index + 1, total, x_text, name, l_text,
+			ch_line, p->settled ? "" : " not-settled", left);
 	}
 	fflush(out);
 }

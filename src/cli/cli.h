@@ -223,5 +223,21 @@ const char *hb_cli_lot_code(const char *text, char *code, size_t code_cap, char 
 /* ---------------- verify (cmd_verify.c) ---------------- */
 int hb_cmd_verify(int argc, char **argv);
 extern const hb_cmd_opts hb_opts_verify;
+/* ---------------- the man page and zsh completion from the option tables (opt_docs.c) ---------------- */
+
+/* head: "-j, --json" or "--steps N" as --help shows it; range: the accepted
+ * values in words ("2 to 10000", "bias or frequency"), or "". */
+void hb_opt_describe(const hb_opt *o, char *head, size_t hcap, char *range, size_t rcap);
+/* The words an option offers (its own or known at run time), or NULL. */
+const char *const *hb_opt_words(const hb_opt *o);
+/* --help / -h, which every command takes without listing it in its table. */
+const hb_opt *hb_opt_help_entry(void);
+/* The zsh completion function for every command of hb_commands. */
+void hb_opts_completion_zsh(FILE *out);
+/* The man page henrybench(1) in roff (man(7) macros): every command and
+ * option, exit statuses, files and environment. */
+void hb_opts_manpage(FILE *out);
+int hb_cmd_manpage(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_manpage_cmd;
 
 #endif

@@ -1,4 +1,4 @@
-/* src/cli/cmd_completion.c - the `completion` command: the bash completion script, generated from the option tables */
+/* src/cli/cmd_completion.c - the `completion` command: the bash and zsh completion scripts, generated from the option tables */
 #include <string.h>
 
 #include "cli.h"
@@ -13,13 +13,14 @@ static const hb_opt completion_table[] = {
 
 const hb_cmd_opts hb_opts_completion = {
 	.name = "completion",
-	.usage = "bash",
-	.about = "Prints a bash completion script for every command, option and accepted word, generated\n"
-		 "from the same option tables that parse the command lines, e.g.\n"
-		 "  eval \"$(henrybench completion bash)\"\n",
+	.usage = "bash|zsh",
+	.about = "Prints a bash or zsh completion script for every command, option and accepted word,\n"
+		 "generated from the same option tables that parse the command lines, e.g.\n"
+		 "  eval \"$(henrybench completion bash)\"\n"
+		 "  henrybench completion zsh > ~/.zfunc/_henrybench   (a directory in $fpath)\n",
 	.opts = completion_table,
 	.max_operands = 1,
-	.operands = "bash",
+	.operands = "bash zsh",
 };
 
 int hb_cmd_completion(int argc, char **argv)
@@ -31,13 +32,16 @@ int hb_cmd_completion(int argc, char **argv)
 	if (r.done)
 		return HB_EXIT_OK;
 	if (r.first >= argc) {
-		hb_cli_error("completion needs a SHELL: accepted bash");
+		hb_cli_error("completion needs a SHELL: accepted bash or zsh");
 		return HB_EXIT_USAGE;
 	}
-	if (strcmp(argv[r.first], "bash") != 0) {
-		hb_cli_error("completion: shell '%s' not supported: accepted bash", argv[r.first]);
+	if (strcmp(argv[r.first], "bash") == 0) {
+		hb_opts_completion_bash(stdout);
+	} else if (strcmp(argv[r.first], "zsh") == 0) {
+		hb_opts_completion_zsh(stdout);
+	} else {
+		hb_cli_error("completion: shell '%s' not supported: accepted bash or zsh", argv[r.first]);
 		return HB_EXIT_USAGE;
 	}
-	hb_opts_completion_bash(stdout);
 	return fflush(stdout) == 0 ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 }

@@ -205,13 +205,15 @@ static void print_effective(const char *shape, const hb_core_effective *e, const
 	}
 	char buf[40];
 	printf("%s, effective parameters (IEC 60205)\n", shape);
-	printf("  C1   %10.5g mm^-1   (sum l/A)\n", e->C1 * 1e-3);
-	printf("  C2   %10.5g mm^-3   (sum l/A^2)\n", e->C2 * 1e-9);
+	/* plain digits in the units a core data sheet uses: never an exponent */
+	char n1[40], n2[40], n3[40];
+	printf("  C1   %10s mm^-1   (sum l/A)\n", hb_format_si(n1, sizeof n1, e->C1 * 1e-3, "", 5));
+	printf("  C2   %10s mm^-3   (sum l/A^2)\n", hb_format_si(n2, sizeof n2, e->C2 * 1e-9, "", 5));
 	printf("  le   %10.4f mm      (C1^2/C2)\n", e->le * 1e3);
 	printf("  Ae   %10.4f mm^2    (C1/C2)\n", e->Ae * 1e6);
-	printf("  Ve   %10.4g mm^3    (le Ae)\n", e->Ve * 1e9);
+	printf("  Ve   %10s mm^3    (le Ae)\n", hb_format_si(n3, sizeof n3, e->Ve * 1e9, "", 4));
 	if (isfinite(mu_e)) {
-		printf("  mu_e %10.5g         (%s)\n", mu_e,
+		printf("  mu_e %10s         (%s)\n", hb_format_si(n1, sizeof n1, mu_e, "", 5),
 		       w->have_gap ? "mu/(1 + mu g/le)" : w->have_al ? "from AL" : "ungapped: mu");
 		printf("  AL   %10s\n", hb_format_si(buf, sizeof buf, al, "H", 4));
 	}

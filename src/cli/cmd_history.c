@@ -54,8 +54,14 @@ static void print_history_text(const hb_db_part *part, const hb_db_history_row *
 	printf(" %-8s %-10s %s\n", "mu_e", "gap", "verdict");
 	for (size_t i = 0; i < n; i++) {
 		const hb_db_history_row *r = &rows[i];
-		printf("%-20s %-12s %-12s %-14s %6lld %-11s", r->started_iso, r->station, r->lot_code[0] ? r->lot_code : "-",
-		       r->serial, (long long)r->sweep_id, hb_si_or_dash(a, sizeof a, r->l0_h, "H"));
+		/* user text padded by display width: a serial in CJK or with a micro sign stays in its column */
+		printf("%-20s ", r->started_iso);
+		hb_fput_cell(stdout, r->station, 12, true);
+		putchar(' ');
+		hb_fput_cell(stdout, r->lot_code, 12, true);
+		putchar(' ');
+		hb_fput_cell(stdout, r->serial, 14, true);
+		printf(" %6lld %-11s", (long long)r->sweep_id, hb_si_or_dash(a, sizeof a, r->l0_h, "H"));
 		for (int k = 0; k < HB_DB_HISTORY_DROPS; k++)
 			printf(" %-9s", hb_si_or_dash(b, sizeof b, r->i_drop_a[k], "A"));
 		if (isfinite(r->mu_e))
@@ -532,13 +538,22 @@ static void print_compare_text(const hb_compare_table *t)
 		printf(" %13lld", (long long)t->cols[i].sweep_id);
 	printf("\n%-18s", "part");
 	for (size_t i = 0; i < t->n; i++)
-		printf(" %13.13s", t->cols[i].part_number);
+	{
+			putchar(' ');
+			hb_fput_cell(stdout, t->cols[i].part_number, 13, false);
+		}
 	printf("\n%-18s", "serial");
 	for (size_t i = 0; i < t->n; i++)
-		printf(" %13.13s", t->cols[i].serial[0] ? t->cols[i].serial : "-");
+	{
+			putchar(' ');
+			hb_fput_cell(stdout, t->cols[i].serial, 13, false);
+		}
 	printf("\n%-18s", "lot");
 	for (size_t i = 0; i < t->n; i++)
-		printf(" %13.13s", t->cols[i].lot_code[0] ? t->cols[i].lot_code : "-");
+	{
+			putchar(' ');
+			hb_fput_cell(stdout, t->cols[i].lot_code, 13, false);
+		}
 	printf("\n%-18s", "date");
 	for (size_t i = 0; i < t->n; i++)
 		printf(" %13.10s", t->cols[i].started_iso);

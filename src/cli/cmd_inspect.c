@@ -451,8 +451,12 @@ int hb_cmd_inspect(int argc, char **argv)
 		exit_code = HB_EXIT_USAGE;
 		goto out;
 	}
-	fprintf(info, "part %s, lot %s: each unit swept 0 to %.4g A in %d points at %s\n", part.part_number, a.lot,
-		a.plan.to, a.plan.steps, hb_format_si(err, sizeof err, a.plan.frequency, "Hz", 4));
+	{
+		char top[48];
+		fprintf(info, "part %s, lot %s: each unit swept 0 to %s in %d points at %s\n", part.part_number, a.lot,
+			hb_format_si(top, sizeof top, a.plan.to, "A", 4), a.plan.steps,
+			hb_format_si(err, sizeof err, a.plan.frequency, "Hz", 4));
+	}
 	/* Once for the whole lot: the same current flows through every unit. */
 	hb_sweep_print_cautions(info, isfinite(part.nominal_h) ? part.nominal_h : 0, a.plan.to, a.plan.limits.max_voltage);
 

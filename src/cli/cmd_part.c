@@ -468,9 +468,12 @@ static int part_list(int argc, char **argv)
 	for (size_t i = 0; i < n; i++) {
 		const hb_db_part *p = &parts[i];
 		char a[32], b[32], c[32];
-		printf("%-24s %-12s %-8s %-12s %-16s %s\n", p->part_number, hb_si_or_dash(a, sizeof a, p->nominal_h, "H"),
-		       pct(b, sizeof b, p->tolerance), hb_si_or_dash(c, sizeof c, p->test_freq_hz, "Hz"), p->maker,
-		       p->description);
+		/* user text padded by display width: non-ASCII part numbers and makers keep the columns */
+		hb_fput_cell(stdout, p->part_number, 24, true);
+		printf(" %-12s %-8s %-12s ", hb_si_or_dash(a, sizeof a, p->nominal_h, "H"), pct(b, sizeof b, p->tolerance),
+		       hb_si_or_dash(c, sizeof c, p->test_freq_hz, "Hz"));
+		hb_fput_cell(stdout, p->maker, 16, true);
+		printf(" %s\n", p->description);
 	}
 	hb_db_parts_free(parts);
 	return HB_EXIT_OK;

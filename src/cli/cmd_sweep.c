@@ -217,9 +217,9 @@ static void print_plan(FILE *out, const sweep_args *a, const hb_db_part *part, c
 				p->spacing == HB_SPACING_LOG ? "log" : "linear", p->return_down ? ", up and back down" : "",
 				hb_format_si(buf, sizeof buf, p->frequency, "Hz", 4),
 				hb_format_si(level, sizeof level, p->level, p->level_kind == HB_LEVEL_CURRENT ? "A" : "V", 3));
-			fprintf(out, "setpoints (A):");
+			fprintf(out, "setpoints:");
 			for (int i = 0; i < n; i++)
-				fprintf(out, "%s%.4g", i % 10 ? " " : "\n  ", v[i]);
+				fprintf(out, "%s%s", i % 8 ? ", " : "\n  ", hb_format_si(buf, sizeof buf, v[i], "A", 4));
 			fputc('\n', out);
 			free(v);
 		}
@@ -227,10 +227,10 @@ static void print_plan(FILE *out, const sweep_args *a, const hb_db_part *part, c
 		double *v = NULL;
 		int n = 0;
 		if (hb_sweep_frequencies(p, &v, &n) == HB_OK) {
-			fprintf(out, "plan: %d frequencies, %s spacing, bias %.4g A\nfrequencies (Hz):", n,
-				p->f_spacing == HB_SPACING_LOG ? "log" : "linear", p->bias);
+			fprintf(out, "plan: %d frequencies, %s spacing, bias %s\nfrequencies:", n,
+				p->f_spacing == HB_SPACING_LOG ? "log" : "linear", hb_format_si(level, sizeof level, p->bias, "A", 4));
 			for (int i = 0; i < n; i++)
-				fprintf(out, "%s%.4g", i % 8 ? " " : "\n  ", v[i]);
+				fprintf(out, "%s%s", i % 8 ? ", " : "\n  ", hb_format_si(buf, sizeof buf, v[i], "Hz", 4));
 			fputc('\n', out);
 			free(v);
 		}
@@ -240,9 +240,14 @@ static void print_plan(FILE *out, const sweep_args *a, const hb_db_part *part, c
 	fprintf(out, "station file: %s%s\n", st->path[0] ? st->path : "none",
 		st->lock_limits ? " (lock_limits = yes: the command line may not change the limits)" : "");
 	if (isfinite(part->nominal_h) && top > 0)
-		fprintf(out, "stored energy at %.4g A: about %.3g J (1/2 L I^2 with the nominal %s)\n", top,
-			0.5 * part->nominal_h * top * top, hb_format_si(buf, sizeof buf, part->nominal_h, "H", 4));
-	fprintf(out, "estimated time: %.0f s\n", hb_sweep_estimate_seconds(p));
+	{
+		char i_text[48], e_text[48];
+		fprintf(out, "stored energy at %s: about %s (1/2 L I^2 with the nominal %s)\n",
+			hb_format_si(i_text, sizeof i_text, top, "A", 4),
+			hb_format_si(e_text, sizeof e_text, 0.5 * part->nominal_h * top * top, "J", 3),
+			hb_format_si(buf, sizeof buf, part->nominal_h, "H", 4));
+	}
+	fprintf(out, "estimated time: %s\n", hb_format_si(buf, sizeof buf, round(hb_sweep_estimate_seconds(p)), "s", 6));
 }
 
 static int confirm(const sweep_args *a, const hb_station *st)

@@ -158,9 +158,12 @@ int hb_cmd_sweeps(int argc, char **argv)
 	       "status", "points", "station");
 	for (size_t i = 0; i < n; i++) {
 		const hb_db_sweep *s = &list[i];
-		printf("%8lld  %-20s  %-20s  %-14s  %-9s  %-11s  %6ld  %s\n", (long long)s->id, s->started_iso,
-		       s->part_number[0] ? s->part_number : "-", s->serial[0] ? s->serial : "-",
-		       hb_db_sweep_kind_name(s->kind), hb_db_sweep_status_name(s->status), s->n_points,
+		/* user text padded by display width, so non-ASCII part numbers keep the columns */
+		printf("%8lld  %-20s  ", (long long)s->id, s->started_iso);
+		hb_fput_cell(stdout, s->part_number, 20, true);
+		printf("  ");
+		hb_fput_cell(stdout, s->serial, 14, true);
+		printf("  %-9s  %-11s  %6ld  %s\n", hb_db_sweep_kind_name(s->kind), hb_db_sweep_status_name(s->status), s->n_points,
 		       s->station[0] ? s->station : "-");
 	}
 	hb_db_sweeps_free(list);
@@ -197,6 +200,30 @@ static const char *si(char *buf, size_t cap, double v, const char *unit)
 	return isnan(v) ? "-" : hb_format_si(buf, cap, v, unit, 4);
 }
 
+static const char *si6(char *buf, size_t cap, double v, const char *unit, int digits)
+{
+	return hb_format_si(buf, cap, v, unit, digits);
+}
+
+/* seconds since the sweep began, to the millisecond the store keeps */
+static const char *time_text(char *buf, size_t cap, double t)
+{
+	if (!isfinite(t))
+		return HB_TEXT_ABSENT;
+	snprintf(buf, cap, "%.3f s", t);
+	return buf;
+}
+
+/* "L_H" -> "L" and "H"; "theta_deg" -> "theta" and "deg". */
+static void reading_name(const char *pair, int which, char *name, size_t ncap, char *unit, size_t ucap)
+{
+	const char *col = hb_io_reading_column(pair[0] ? pair : "Ls-Rs", which);
+	const char *us = strrchr(col, '_');
+	size_t len = us ? (size_t)(us - col) : strlen(col);
+	snprintf(name, ncap, "%.*s", (int)len, col);
+	snprintf(unit, ucap, "%s", us ? us + 1 : "");
+}
+
 static void print_text(hb_db *db, const hb_db_sweep *s, const hb_db_point *pts, size_t n, const hb_db_verdict *v,
 		       size_t nv)
 {
@@ -224,15 +251,20 @@ static void print_text(hb_db *db, const hb_db_sweep *s, const hb_db_point *pts, 
 	if (s->kind == HB_DB_SWEEP_FREQUENCY)
 		printf(", bias %s", si(c, sizeof c, s->bias_a, "A"));
 	putchar('\n');
-	char tol[32] = "-";
-	if (!isnan(s->settle_tolerance))
-		snprintf(tol, sizeof tol, "%g", s->settle_tolerance);
-	printf("  settle              %s, delay %s, tolerance %s, max %d readings / %s\n",
-	       s->settle_mode[0] ? s->settle_mode : "-", si(a, sizeof a, s->settle_delay_s, "s"), tol,
-	       s->settle_max_readings, si(b, sizeof b, s->settle_max_s, "s"));
+	/* what the settling rule was, in words: an unrecorded part is left out, never shown as 0 */
+	printf("  settle              %s", s->settle_mode[0] ? s->settle_mode : "-");
+	if (isfinite(s->settle_delay_s))
+		printf(", delay %s", si(a, sizeof a, s->settle_delay_s, "s"));
+	if (isfinite(s->settle_tolerance))
+		printf(", successive readings within %.3g x the noise", s->settle_tolerance);
+	if (s->settle_max_readings > 0)
+		printf(", at most %d readings", s->settle_max_readings);
+	if (isfinite(s->settle_max_s))
+		printf(", at most %s", si(b, sizeof b, s->settle_max_s, "s"));
+	putchar('\n');
 	printf("  limits              %s, %s\n", si(a, sizeof a, s->limit_current_a, "A"),
 	       si(b, sizeof b, s->limit_voltage_v, "V"));
-	if (!isnan(s->ambient_c))
+	if (isfinite(s->ambient_c))
 		printf("  ambient             %.1f degC\n", s->ambient_c);
 	if (s->note[0])
 		printf("  note                %s\n", s->note);
@@ -258,13 +290,20 @@ static void print_text(hb_db *db, const hb_db_sweep *s, const hb_db_point *pts, 
 		}
 		putchar('\n');
 	}
-	printf("\n%5s %-4s %12s %12s %12s %14s %14s %9s %6s\n", "seq", "dir", "bias_set_A", "bias_A", "freq_Hz",
-	       hb_io_reading_column(s->measured_pair, 0), hb_io_reading_column(s->measured_pair, 1), "t_s", "status");
+	/* the two readings' names and units as the meter's measured pair gives them ("L_H", "Z_ohm") */
+	char name0[24], unit0[16], name1[24], unit1[16];
+	reading_name(s->measured_pair, 0, name0, sizeof name0, unit0, sizeof unit0);
+	reading_name(s->measured_pair, 1, name1, sizeof name1, unit1, sizeof unit1);
+	printf("\n%5s %-4s %13s %13s %13s %15s %15s %10s  %s\n", "seq", "dir", "bias set", "bias", "frequency", name0, name1,
+	       "t", "status");
 	for (size_t i = 0; i < n; i++) {
 		const hb_db_point *p = &pts[i];
-		printf("%5d %-4s %12.6g %12.6g %12.6g %14.7g %14.7g %9.3f %6s\n", p->seq,
-		       p->direction == HB_DB_DIR_DOWN ? "down" : "up", p->bias_set_a, p->bias_meas_a, p->freq_hz,
-		       p->primary, p->secondary, p->t_s, p->reading_status == 0 ? "ok" : hb_status_name(p->reading_status));
+		char f[48], r0[48], r1[48], t[48];
+		printf("%5d %-4s %13s %13s %13s %15s %15s %10s  %s\n", p->seq, p->direction == HB_DB_DIR_DOWN ? "down" : "up",
+		       si6(a, sizeof a, p->bias_set_a, "A", 6), si6(b, sizeof b, p->bias_meas_a, "A", 6),
+		       si6(f, sizeof f, p->freq_hz, "Hz", 6), si6(r0, sizeof r0, p->primary, unit0, 7),
+		       si6(r1, sizeof r1, p->secondary, unit1, 7), time_text(t, sizeof t, p->t_s),
+		       p->reading_status == 0 ? "ok" : hb_status_name(p->reading_status));
 	}
 }
 

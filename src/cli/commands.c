@@ -22,6 +22,7 @@ const hb_command hb_commands[] = {
 	{ "verify", hb_cmd_verify, "check a filed report against the store: report file and the points it rests on intact", &hb_opts_verify },
 	{ "export", hb_cmd_export, "stored sweeps as CSV or JSON, SI units in every column", &hb_opts_export },
 	{ "import", hb_cmd_import, "store a sweep a meter logged on its own (CSV), then fit it", &hb_opts_import },
-	{ "completion", hb_cmd_completion, "print a bash completion script generated from the option tables", &hb_opts_completion },
+	{ "completion", hb_cmd_completion, "print a bash or zsh completion script generated from the option tables", &hb_opts_completion },
+	{ "manpage", hb_cmd_manpage, "print the manual page henrybench(1) (roff) generated from the option tables", &hb_opts_manpage_cmd },
 	{ NULL, NULL, NULL, NULL },
 };

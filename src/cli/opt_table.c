@@ -439,3 +439,40 @@ void hb_opts_completion_bash(FILE *out)
 		"}\n"
 		"complete -F _henrybench henrybench\n");
 }
+
+/* ---------------- an option described for the man page and zsh (opt_docs.c) ---------------- */
+
+void hb_opt_describe(const hb_opt *o, char *head, size_t hcap, char *range, size_t rcap)
+{
+	char r[160] = "";
+	option_head(head, hcap, o);
+	switch (o->kind) {
+	case HB_OPT_VALUE: {
+		char t[100];
+		snprintf(r, sizeof r, "%s", hb_opt_range_text(t, sizeof t, o->unit, o->min, o->max));
+		break;
+	}
+	case HB_OPT_INT:
+	case HB_OPT_LONG:
+		snprintf(r, sizeof r, "%ld to %ld", (long)o->min, (long)o->max);
+		break;
+	default:
+		if (words_of(o)) {
+			char list[140];
+			words_text(list, sizeof list, words_of(o), ", ", " or ");
+			snprintf(r, sizeof r, "%s", list);
+		}
+		break;
+	}
+	snprintf(range, rcap, "%s", r);
+}
+
+const char *const *hb_opt_words(const hb_opt *o)
+{
+	return words_of(o);
+}
+
+const hb_opt *hb_opt_help_entry(void)
+{
+	return &help_opt;
+}

@@ -142,4 +142,14 @@ json_t *hb_analysis_value_json(const hb_fit_value *v);
 int hb_analysis_bias_arrays(const hb_db_point *points, size_t n, double **current, double **inductance,
 			    size_t *count);
 
+/* ---------------- a stored budget in SI units (analysis_print.c; fit --budget and the report's appendix) ---------------- */
+
+/* The unit of a budget's result into buf: that of an input entering with
+ * c = 1, else the verdict check's (DCR ohm, I_ A, L H), "" for mu. */
+const char *hb_analysis_budget_unit(const char *name, json_t *inputs, char *buf, size_t cap);
+/* One input's value, u(x), c and contribution as text with SI prefixes:
+ * value and u(x) in the input's unit, c in y's unit per x's, the
+ * contribution in y's. */
+void hb_analysis_budget_cells(json_t *input, const char *y_unit, char cells[4][48]);
+
 #endif

@@ -11,23 +11,13 @@ static json_t *num(double v);
 
 static void print_value(FILE *out, const char *label, double v, double se, const char *unit)
 {
-	char a[40], b[40];
+	char a[96];
 	if (!isfinite(v)) {
-		fprintf(out, "  %-28s -\n", label);
+		fprintf(out, "  %-28s %s\n", label, HB_TEXT_ABSENT);
 		return;
 	}
-	/* A pure number reads better without an SI prefix (2300, not 2.3 k). */
-	if (!*unit) {
-		snprintf(a, sizeof a, "%.6g", v);
-		snprintf(b, sizeof b, "%.2g", se);
-	} else {
-		hb_format_si(a, sizeof a, v, unit, 5);
-		hb_format_si(b, sizeof b, se, unit, 2);
-	}
-	if (isfinite(se) && se > 0)
-		fprintf(out, "  %-28s %s  +- %s\n", label, a, b);
-	else
-		fprintf(out, "  %-28s %s\n", label, a);
+	/* value and standard error by GUM 7.2.6: the digits the uncertainty supports */
+	fprintf(out, "  %-28s %s\n", label, hb_format_unc(a, sizeof a, v, se, unit, 5));
 }
 
 /* The expanded uncertainty under a value that has a budget. */
@@ -37,10 +27,8 @@ static void print_unc(FILE *out, const hb_analysis_summary *s, const char *name)
 	if (!bg || !isfinite(bg->U))
 		return;
 	char a[40];
-	if (!*bg->unit)
-		snprintf(a, sizeof a, "%.3g", bg->U);
-	else
-		hb_format_si(a, sizeof a, bg->U, bg->unit, 3);
+	/* an expanded uncertainty to two significant digits (GUM 7.2.6) */
+	hb_format_u(a, sizeof a, bg->U, bg->unit);
 	fprintf(out, "  %-28s U = %s (k = %.2f, 95.45 %%)%s%s\n", "", a, bg->k, bg->note[0] ? "; " : "", bg->note);
 }
 
@@ -87,6 +75,24 @@ static void print_misfit(FILE *out, const char *model, const hb_misfit_diag *d)
 		fprintf(out, "  %s%s\n", i ? "  " : "", lines[i]);
 }
 
+/* A verdict's measured value to the digits its expanded uncertainty
+ * supports (GUM 7.2.6), or five without one. */
+static const char *verdict_measured(char *buf, size_t cap, double v, double U, const char *unit)
+{
+	double vr, ur;
+	if (!isfinite(v))
+		return HB_TEXT_ABSENT;
+	if (hb_gum_round(v, U, &vr, &ur) == HB_ERR_ARG)
+		return hb_format_si(buf, cap, v, unit, 5);
+	char both[96];
+	hb_format_unc(both, sizeof both, v, U, unit, 5);
+	char *sep = strstr(both, " +- ");
+	if (sep)
+		*sep = '\0';
+	snprintf(buf, cap, "%s", both);
+	return buf;
+}
+
 /* A value shown without a standard error, with the reason there is none. */
 static void print_reason(FILE *out, const char *label, double v, const char *unit, const char *reason)
 {
@@ -95,34 +101,28 @@ static void print_reason(FILE *out, const char *label, double v, const char *uni
 		fprintf(out, "  %-28s %s\n", label, reason);
 		return;
 	}
-	if (!*unit)
-		snprintf(a, sizeof a, "%.6g", v);
-	else
-		hb_format_si(a, sizeof a, v, unit, 5);
+	hb_format_si(a, sizeof a, v, unit, 5);
 	fprintf(out, "  %-28s %s  (%s)\n", label, a, reason);
 }
 
 void hb_analysis_print_check(FILE *out, const hb_analysis_check *k, bool with_statement)
 {
-	char mv[40], lo[40], hi[40], u[40], al[40], ah[40];
+	char mv[64], u[40], al[140];
 	const hb_decision *d = &k->decision;
 	if (with_statement) {
 		char rule[400];
 		fprintf(out, "  decision rule: %s\n", hb_analysis_rule_text(k, rule, sizeof rule));
 	}
-	hb_format_si(mv, sizeof mv, k->check.measured, k->unit, 5);
-	hb_format_si(lo, sizeof lo, k->check.low, k->unit, 5);
-	hb_format_si(hi, sizeof hi, k->check.high, k->unit, 5);
+	char lim[140];
 	fprintf(out, "  %-5s %-16s measured %-14s", k->name, hb_decision_outcome_name(d->outcome),
-		isfinite(k->check.measured) ? mv : "-");
+		verdict_measured(mv, sizeof mv, k->check.measured, d->U, k->unit));
 	if (isfinite(d->U))
-		fprintf(out, " U %s (k = %.2f)", hb_format_si(u, sizeof u, d->U, k->unit, 3), d->k);
+		fprintf(out, " U %s (k = %.2f)", hb_format_u(u, sizeof u, d->U, k->unit), d->k);
 	else
-		fprintf(out, " U -");
-	fprintf(out, " limits [%s, %s]", isfinite(k->check.low) ? lo : "-", isfinite(k->check.high) ? hi : "-");
+		fprintf(out, " U %s", HB_TEXT_ABSENT);
+	fprintf(out, " limits %s", hb_format_limits(lim, sizeof lim, k->check.low, k->check.high, k->unit, 5));
 	if (d->rule != HB_DECISION_SIMPLE && (isfinite(d->al_low) || isfinite(d->al_high)))
-		fprintf(out, " acceptance [%s, %s]", isfinite(d->al_low) ? hb_format_si(al, sizeof al, d->al_low, k->unit, 5) : "-",
-			isfinite(d->al_high) ? hb_format_si(ah, sizeof ah, d->al_high, k->unit, 5) : "-");
+		fprintf(out, " acceptance %s", hb_format_limits(al, sizeof al, d->al_low, d->al_high, k->unit, 5));
 	if (isfinite(k->check.margin_frac))
 		fprintf(out, " margin %+.1f %%", k->check.margin_frac * 100);
 	if (d->rule == HB_DECISION_GUARDED && isfinite(d->p_false_accept))
@@ -478,6 +478,49 @@ json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 	return j;
 }
 
+const char *hb_analysis_budget_unit(const char *name, json_t *inputs, char *buf, size_t cap)
+{
+	/* that of an input entering with c = 1 (same dimension), else the verdict check's */
+	const char *unit = NULL;
+	size_t m = json_is_array(inputs) ? json_array_size(inputs) : 0;
+	for (size_t i = 0; i < m && !unit; i++) {
+		json_t *o = json_array_get(inputs, i);
+		json_t *c = json_object_get(o, "c");
+		const char *u = json_string_value(json_object_get(o, "unit"));
+		if (u && json_is_number(c) && json_number_value(c) == 1)
+			unit = u;
+	}
+	if (!unit)
+		unit = strncmp(name, "mu", 2) == 0 ? "" : hb_analysis_check_unit(name);
+	snprintf(buf, cap, "%s", unit);
+	return buf;
+}
+
+static double jnum_or_nan(json_t *o, const char *key)
+{
+	json_t *v = json_object_get(o, key);
+	return json_is_number(v) ? json_number_value(v) : NAN;
+}
+
+void hb_analysis_budget_cells(json_t *input, const char *y_unit, char cells[4][48])
+{
+	const char *xu = json_string_value(json_object_get(input, "unit"));
+	if (!xu)
+		xu = "";
+	/* c carries y's unit per x's unit; a shared unit cancels */
+	char cu[40];
+	if (strcmp(xu, y_unit) == 0)
+		cu[0] = '\0';
+	else if (!*xu)
+		snprintf(cu, sizeof cu, "%s", y_unit);
+	else
+		snprintf(cu, sizeof cu, "%s/%s", *y_unit ? y_unit : "1", xu);
+	hb_format_si(cells[0], 48, jnum_or_nan(input, "value"), xu, 6);
+	hb_format_u(cells[1], 48, jnum_or_nan(input, "u"), xu);
+	hb_format_si(cells[2], 48, jnum_or_nan(input, "c"), cu, 4);
+	hb_format_u(cells[3], 48, jnum_or_nan(input, "contribution"), y_unit);
+}
+
 void hb_analysis_print_budget(FILE *out, const hb_db_fit_unc *list, size_t n)
 {
 	if (n == 0) {
@@ -488,7 +531,10 @@ void hb_analysis_print_budget(FILE *out, const hb_db_fit_unc *list, size_t n)
 		const hb_db_fit_unc *u = &list[q];
 		json_error_t err;
 		json_t *a = json_loads(u->budget, 0, &err);
-		fprintf(out, "%s%s = %.7g\n", q ? "\n" : "", u->name, u->value);
+		char yu[24]; /* copied: the name lives in a, dropped before the footer */
+		hb_analysis_budget_unit(u->name, a, yu, sizeof yu);
+		char head[96];
+		fprintf(out, "%s%s = %s\n", q ? "\n" : "", u->name, hb_format_unc(head, sizeof head, u->value, u->u_c, yu, 7));
 		fprintf(out, "  %-24s %-4s %-13s %-11s %-12s %-11s %s\n", "input", "type", "value", "u(x)", "c", "u_i(y)",
 			"source");
 		size_t m = json_is_array(a) ? json_array_size(a) : 0;
@@ -497,22 +543,21 @@ void hb_analysis_print_budget(FILE *out, const hb_db_fit_unc *list, size_t n)
 			const char *name = json_string_value(json_object_get(o, "input"));
 			const char *type = json_string_value(json_object_get(o, "type"));
 			const char *src = json_string_value(json_object_get(o, "source"));
-			json_t *jv = json_object_get(o, "value"), *ju = json_object_get(o, "u"), *jc = json_object_get(o, "c"),
-			       *jk = json_object_get(o, "contribution");
-			fprintf(out, "  %-24s %-4s %-13.6g %-11.3g %-12.4g %-11.3g %s\n", name ? name : "?", type ? type : "?",
-				json_is_number(jv) ? json_number_value(jv) : NAN, json_is_number(ju) ? json_number_value(ju) : NAN,
-				json_is_number(jc) ? json_number_value(jc) : NAN, json_is_number(jk) ? json_number_value(jk) : NAN,
-				src ? src : "");
+			char c[4][48];
+			hb_analysis_budget_cells(o, yu, c);
+			fprintf(out, "  %-24s %-4s %-13s %-11s %-12s %-11s %s\n", name ? name : "?", type ? type : "?", c[0], c[1],
+				c[2], c[3], src ? src : "");
 		}
 		json_decref(a);
-		char dof[24];
+		char dof[24], uc[40], U[40];
 		if (isfinite(u->dof))
 			snprintf(dof, sizeof dof, "%.1f", u->dof);
 		else
-			snprintf(dof, sizeof dof, "inf");
-		fprintf(out, "  u_c = %.3g   nu_eff = %s   k = %.3f (95.45 %%)   U = %.3g", u->u_c, dof, u->k, u->U);
-		if (isfinite(u->value) && u->value != 0)
-			fprintf(out, "   (%.3g %% of the value)", 100 * u->U / fabs(u->value));
+			snprintf(dof, sizeof dof, "infinite");
+		fprintf(out, "  u_c = %s   nu_eff = %s   k = %.3f (95.45 %%)   U = %s", hb_format_u(uc, sizeof uc, u->u_c, yu),
+			dof, u->k, hb_format_u(U, sizeof U, u->U, yu));
+		if (isfinite(u->value) && u->value != 0 && isfinite(u->U))
+			fprintf(out, "   (%.2g %% of the value)", 100 * u->U / fabs(u->value));
 		fprintf(out, "\n");
 		if (u->note[0])
 			fprintf(out, "  %s\n", u->note);
@@ -530,22 +575,19 @@ const char *hb_analysis_check_unit(const char *check)
 
 void hb_analysis_print_stored_verdict(FILE *out, const hb_db_verdict *v, const char *unit)
 {
-	char mv[40], lo[40], hi[40], u[40], al[40], ah[40];
+	char mv[64], u[40], lim[140], al[140];
 	fprintf(out, "  %-5s %-16s measured %-14s", v->check_name, hb_db_outcome_name(v->outcome),
-		isfinite(v->measured) ? hb_format_si(mv, sizeof mv, v->measured, unit, 5) : "-");
+		verdict_measured(mv, sizeof mv, v->measured, v->expanded_u, unit));
 	if (isfinite(v->expanded_u))
-		fprintf(out, " U %s (k = %.2f)", hb_format_si(u, sizeof u, v->expanded_u, unit, 3), v->coverage_k);
+		fprintf(out, " U %s (k = %.2f)", hb_format_u(u, sizeof u, v->expanded_u, unit), v->coverage_k);
 	else
-		fprintf(out, " U -");
-	fprintf(out, " limits [%s, %s]", isfinite(v->limit_low) ? hb_format_si(lo, sizeof lo, v->limit_low, unit, 5) : "-",
-		isfinite(v->limit_high) ? hb_format_si(hi, sizeof hi, v->limit_high, unit, 5) : "-");
+		fprintf(out, " U %s", HB_TEXT_ABSENT);
+	fprintf(out, " limits %s", hb_format_limits(lim, sizeof lim, v->limit_low, v->limit_high, unit, 5));
 	fprintf(out, " rule %s", v->decision_rule[0] ? v->decision_rule : "simple");
 	if (isfinite(v->guard_r))
 		fprintf(out, " (r = %g)", v->guard_r);
 	if (strcmp(v->decision_rule, "simple") != 0 && (isfinite(v->accept_low) || isfinite(v->accept_high)))
-		fprintf(out, " acceptance [%s, %s]",
-			isfinite(v->accept_low) ? hb_format_si(al, sizeof al, v->accept_low, unit, 5) : "-",
-			isfinite(v->accept_high) ? hb_format_si(ah, sizeof ah, v->accept_high, unit, 5) : "-");
+		fprintf(out, " acceptance %s", hb_format_limits(al, sizeof al, v->accept_low, v->accept_high, unit, 5));
 	if (strcmp(v->decision_rule, "guarded") == 0 && isfinite(v->p_false_accept))
 		fprintf(out, " P(false accept) %.2g %%", v->p_false_accept * 100);
 	fprintf(out, "\n");

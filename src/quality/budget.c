@@ -339,6 +339,7 @@ size_t hb_budget_bias(const hb_fit_bias_result *b, const double *I, const double
 					  .u_alpha = hb_unc_rectangular(HB_BUDGET_ALPHA_HALF_WIDTH) };
 			hb_unc_result r;
 			if (hb_unc_dcr_budget(ub, &in, 0, &r) == HB_OK) {
+				char measured[40];
 				budget_start(bg, "DCR", "ohm", r.y, NAN);
 				bg->u_c = r.u_c;
 				bg->dof = r.dof_eff;
@@ -362,8 +363,8 @@ size_t hb_budget_bias(const hb_fit_bias_result *b, const double *I, const double
 					snprintf(o->source, sizeof o->source, "%s", i < 3 && srcs[i] ? srcs[i] : rs);
 				}
 				snprintf(bg->note, sizeof bg->note,
-					 "referred to %.0f C from %.1f C with copper's 0.00393/K: %.6g ohm as measured",
-					 ctx->t_ref_c, ctx->temperature_c, dcr_ohm);
+					 "referred to %.0f C from %.1f C with copper's 0.00393/K: %s as measured",
+					 ctx->t_ref_c, ctx->temperature_c, hb_format_si(measured, sizeof measured, dcr_ohm, "ohm", 6));
 			}
 		} else {
 			budget_start(bg, "DCR", "ohm", dcr_ohm, NAN);

@@ -221,8 +221,10 @@ static int record(run_state *st, hb_inspect_unit *u)
 			hb_format_si(l0, sizeof l0, u->l0_h, "H", 4);
 		const char *word = u->outcome == HB_DB_PASS ? (u->conditional ? "conforming(c)" : "conforming") :
 				   u->outcome == HB_DB_FAIL ? (u->conditional ? "NONCONFORM(c)" : "NONCONFORMING") : "skipped";
-		fprintf(cfg->out, "  #%-3d %-18s L0 %-11s %-13s tested %d/%ld, nonconforming %d (Ac %d, Re %d)%s%s\n",
-			u->sequence, u->serial[0] ? u->serial : "-", l0, word, t->tested, st->out->plan.sample_size,
+		/* the serial padded by display width (a non-ASCII serial keeps the columns) */
+		fprintf(cfg->out, "  #%-3d ", u->sequence);
+		hb_fput_cell(cfg->out, u->serial, 18, true);
+		fprintf(cfg->out, " L0 %-11s %-13s tested %d/%ld, nonconforming %d (Ac %d, Re %d)%s%s\n", l0, word, t->tested, st->out->plan.sample_size,
 			t->nonconforming, st->out->plan.ac, st->out->plan.re, u->note[0] ? "  " : "", u->note);
 		fflush(cfg->out);
 	}
@@ -362,8 +364,10 @@ static unit_end measure_unit(run_state *st, int sequence, const char *serial, hb
 		if (cause == HB_CAUSE_BENCH) {
 			out->bench_failures = ++st->bench_in_row;
 			if (cfg->out) {
-				fprintf(cfg->out, "  #%-3d %-18s bench fault, not judged (%d of %d in a row pauses): sweep %lld: %s\n",
-					sequence, serial, st->bench_in_row, st->bench_limit, (long long)sweep_id, res.reason);
+				fprintf(cfg->out, "  #%-3d ", sequence);
+				hb_fput_cell(cfg->out, serial, 18, true);
+				fprintf(cfg->out, " bench fault, not judged (%d of %d in a row pauses): sweep %lld: %s\n",
+					st->bench_in_row, st->bench_limit, (long long)sweep_id, res.reason);
 				fflush(cfg->out);
 			}
 			if (st->bench_in_row >= st->bench_limit)

@@ -184,8 +184,9 @@ int hb_report_bias_svg(hb_db *db, int64_t sweep_id, char **svg, char *err, size_
 	}
 	double l0 = fit_get(&d, HB_DB_FV_L0);
 	if (d.have_part && isfinite(d.part.sat_current_a) && isfinite(d.part.sat_drop) && isfinite(l0)) {
-		char label[64];
-		snprintf(label, sizeof label, "min. L at %g A (-%g %%)", d.part.sat_current_a, d.part.sat_drop * 100);
+		char label[96], at[40];
+		snprintf(label, sizeof label, "min. L at %s (-%g %%)", hb_format_si(at, sizeof at, d.part.sat_current_a, "A", 4),
+			 d.part.sat_drop * 100);
 		hb_plot_add_marker(plot, HB_AXIS_Y, d.part.sat_current_a, (1 - d.part.sat_drop) * l0, label);
 	}
 	rc = rpt_render(plot, svg, err, errlen);

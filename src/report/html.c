@@ -23,8 +23,11 @@ struct hb_html {
 };
 
 /* Plain engineering record: black on white, ruled tables, no web fonts.
- * Print: no backgrounds needed, figures and tables kept whole, sections
- * may start a page. */
+ * Print: no backgrounds needed; figures, rows and the short key/value
+ * tables kept whole, while a long data table breaks between rows with its
+ * header repeated on every page (kept whole it would leave a blank page
+ * before it); sections may start a page. Identifiers and timestamps
+ * (cells without a space) never wrap. */
 static const char page_css[] =
 	"body{font-family:'DejaVu Sans',Arial,Helvetica,sans-serif;font-size:10.5pt;color:#111;"
 	"background:#fff;max-width:60em;margin:1.5em auto;padding:0 1em;line-height:1.35}\n"
@@ -44,9 +47,11 @@ static const char page_css[] =
 	"figure{margin:1em 0}figure svg{width:100%;height:auto;max-width:50em;display:block}"
 	"figcaption{font-size:9.5pt;color:#333}\n"
 	".page-break{break-before:page;page-break-before:always}\n"
+	"td.nw{white-space:nowrap}\n"
 	"@media print{body{margin:0;max-width:none;font-size:9.5pt}"
-	"th,table.kv th{background:none}h2,h3{break-after:avoid;page-break-after:avoid}"
-	"figure,table,tr{break-inside:avoid;page-break-inside:avoid}"
+	"th,table.kv th{background:none}h2,h3,caption{break-after:avoid;page-break-after:avoid}"
+	"thead{display:table-header-group}tfoot{display:table-footer-group}"
+	"figure,tr,table.kv{break-inside:avoid;page-break-inside:avoid}"
 	".verdict.fail,.verdict.pass{color:#000}@page{margin:15mm}}\n";
 
 static void fail_io(hb_html *h)
@@ -299,6 +304,15 @@ int hb_html_kv_begin(hb_html *h, const char *cap)
 	return h->status;
 }
 
+/* A serial, part number, lot code or timestamp: one word (no space) of a
+ * length a table cell holds; a browser would otherwise break it at a
+ * hyphen ("A2611-" / "0001"). */
+static bool is_token(const char *s)
+{
+	size_t n = s ? strlen(s) : 0;
+	return n > 0 && n <= 40 && !strpbrk(s, " \t\n");
+}
+
 int hb_html_kv_row(hb_html *h, const char *key, const char *value)
 {
 	if (!h)
@@ -307,7 +321,7 @@ int hb_html_kv_row(hb_html *h, const char *key, const char *value)
 		return misuse(h, "key/value row outside a key/value table");
 	put(h, "<tr><th scope=\"row\">");
 	text(h, key);
-	put(h, "</th><td>");
+	put(h, is_token(value) ? "</th><td class=\"nw\">" : "</th><td>");
 	text(h, value);
 	put(h, "</td></tr>\n");
 	return h->status;
@@ -378,7 +392,7 @@ int hb_html_table_row_class(hb_html *h, const char *verdict, const char *const *
 		put(h, "<tr>");
 	}
 	for (size_t i = 0; i < ncol; i++) {
-		put(h, looks_numeric(cells[i]) ? "<td class=\"num\">" : "<td>");
+		put(h, looks_numeric(cells[i]) ? "<td class=\"num\">" : is_token(cells[i]) ? "<td class=\"nw\">" : "<td>");
 		text(h, cells[i]);
 		put(h, "</td>");
 	}

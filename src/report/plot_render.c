@@ -214,10 +214,22 @@ static void draw_points(const scale *sx, const scale *sy, const plot_series *s, 
 	}
 }
 
+/* The narrowest bar drawn, as a fraction of the x axis (1.5 %: a few
+ * millimetres on a printed page). */
+#define HB_BAR_MIN_WIDTH 0.015
+
 static void draw_bars(const scale *sx, const scale *sy, const plot_series *s, int colour)
 {
 	for (size_t b = 0; b < s->n; b++) {
 		PLFLT x0 = to_plot(sx, s->x[b]), x1 = to_plot(sx, s->x[b + 1]);
+		/* A tight lot on a wide tolerance axis would draw hairlines: a bar is
+		 * at least HB_BAR_MIN_WIDTH of the axis wide, about its bin's centre. */
+		PLFLT min_w = HB_BAR_MIN_WIDTH * (sx->hi - sx->lo);
+		if (fabs(x1 - x0) < min_w) {
+			PLFLT mid = (x0 + x1) / 2;
+			x0 = mid - min_w / 2;
+			x1 = mid + min_w / 2;
+		}
 		PLFLT y0 = sy->log ? sy->lo : 0, y1 = to_plot(sy, s->y[b]);
 		PLFLT xs[4] = { x0, x0, x1, x1 }, ys[4] = { y0, y1, y1, y0 };
 		if (s->y[b] <= 0)
@@ -310,14 +322,35 @@ static void draw_decorations(const hb_plot *p, const scale *sx, const scale *sy,
 	plschr(0, 1.0);
 }
 
-static void draw_legend(const hb_plot *p)
+/* Entries in the legend: the labelled series. */
+static PLINT legend_entries(const hb_plot *p)
 {
 	PLINT n = 0;
 	for (size_t i = 0; i < p->n_series; i++)
 		if (p->series[i].label[0])
 			n++;
+	return n;
+}
+
+/* The legend's columns and rows: one entry a row (labels are long). */
+static void legend_grid(PLINT n, PLINT *rows, PLINT *cols)
+{
+	*cols = n ? 1 : 0;
+	*rows = n;
+}
+
+/* The legend sits below the x-axis label, outside the data: it can cover
+ * no point, limit line, band or label, wherever the data lie. */
+/* Height of a legend row as a fraction of the page. */
+#define LEGEND_ROW 0.042
+
+static void draw_legend(const hb_plot *p, PLFLT below)
+{
+	PLINT n = legend_entries(p);
 	if (n == 0)
 		return;
+	PLINT rows, cols;
+	legend_grid(n, &rows, &cols);
 	PLINT *opt = calloc((size_t)n, sizeof *opt), *colours = calloc((size_t)n, sizeof *colours);
 	PLINT *styles = calloc((size_t)n, sizeof *styles), *numbers = calloc((size_t)n, sizeof *numbers);
 	PLINT *patterns = calloc((size_t)n, sizeof *patterns), *text_colours = calloc((size_t)n, sizeof *text_colours);
@@ -356,7 +389,7 @@ static void draw_legend(const hb_plot *p)
 	PLFLT w, h;
 	plschr(0, 0.8);
 	pllegend(&w, &h, PL_LEGEND_BACKGROUND | PL_LEGEND_BOUNDING_BOX,
-		 PL_POSITION_TOP | PL_POSITION_RIGHT | PL_POSITION_INSIDE, 0.02, 0.02, 0.08, COL_BG, COL_GRID, 1, 0, 0,
+		 PL_POSITION_BOTTOM | PL_POSITION_OUTSIDE, 0, below, 0.08, COL_BG, COL_GRID, 1, rows, cols,
 		 n, opt, 0.8, 0.9, 1.8, 0.0, text_colours, text, colours, patterns, box_scales, box_widths, colours,
 		 styles, widths, colours, scales, numbers, symbols);
 	plschr(0, 1.0);
@@ -448,11 +481,15 @@ int hb_plot_render_svg(hb_plot *p, char **svg, size_t *len)
 	span sp[3];
 	scale sx, sy, sy2;
 	data_spans(p, sp);
-	/* Room above the data for band labels and the legend. */
-	double headroom = p->n_series > 1 ? 0.10 : 0;
-	for (size_t i = 0; i < p->n_deco; i++)
+	/* Room above the data for band labels (the legend goes below the plot). */
+	double headroom = 0;
+	for (size_t i = 0; i < p->n_deco; i++) {
 		if (p->deco[i].kind == DECO_BAND)
 			headroom = 0.14;
+		/* a limit line's label sits above it: room so that a top one is not cut by the frame */
+		else if (p->deco[i].kind == DECO_HLINE && headroom < 0.06)
+			headroom = 0.06;
+	}
 	int rc = make_scale(p, HB_AXIS_X, sp[HB_AXIS_X], &sx, 0);
 	if (rc == HB_OK)
 		rc = make_scale(p, HB_AXIS_Y, sp[HB_AXIS_Y], &sy, headroom);
@@ -491,7 +528,11 @@ int hb_plot_render_svg(hb_plot *p, char **svg, size_t *len)
 	plinit();
 	pladv(0);
 	plschr(0, 0.9);
-	plvpor(0.11, right ? 0.88 : 0.95, 0.13, 0.90);
+	/* the legend's rows below the x-axis label take from the plot's height */
+	PLINT lrows, lcols;
+	legend_grid(legend_entries(p), &lrows, &lcols);
+	PLFLT vp_bottom = 0.13 + (lrows ? 0.035 + (PLFLT)lrows * LEGEND_ROW : 0);
+	plvpor(0.11, right ? 0.88 : 0.95, vp_bottom, 0.90);
 	plwind(sx.lo, sx.hi, sy.lo, sy.hi);
 
 	draw_decorations(p, &sx, &sy, &sy2, true);
@@ -511,7 +552,8 @@ int hb_plot_render_svg(hb_plot *p, char **svg, size_t *len)
 		plbox("", 0, 0, sy2.log ? "cmstvl" : "cmstv", 0, 0);
 		plmtex("r", 4.5, 0.5, 0.5, sy2.label);
 	}
-	draw_legend(p);
+	/* from the viewport's bottom edge past the tick labels and the axis label, in viewport heights */
+	draw_legend(p, 0.125 / (0.90 - vp_bottom));
 	plend1();
 	plsstrm(previous);
 

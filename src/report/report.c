@@ -88,15 +88,7 @@ int rpt_render(hb_plot *plot, char **svg, char *err, size_t errlen)
 
 const char *rpt_si(char *buf, size_t cap, double v, const char *unit, int digits)
 {
-	if (!isfinite(v)) {
-		snprintf(buf, cap, "-");
-		return buf;
-	}
-	/* Squared units would square the prefix too, dimensionless ones need none. */
-	if (!unit || !*unit || strcmp(unit, "H2") == 0 || strcmp(unit, "m2") == 0) {
-		snprintf(buf, cap, "%.*g%s%s", digits, v, unit && *unit ? " " : "", unit ? unit : "");
-		return buf;
-	}
+	/* the one formatter of every text output: prefixes (squared for m2, H2), no exponent, "-" when unknown */
 	return hb_format_si(buf, cap, v, unit, digits);
 }
 
@@ -220,7 +212,7 @@ void rpt_verdict_section(hb_html *h, const sweep_data *d)
 		const char *u = hb_analysis_check_unit(v->check_name);
 		char m[40], lo[40], hi[40], mg[24], uu[40], uk[64], al[40], ah[40], acc[96], pfa[24];
 		if (isfinite(v->expanded_u))
-			snprintf(uk, sizeof uk, "%s (k = %.2f)", rpt_si(uu, sizeof uu, v->expanded_u, u, 3), v->coverage_k);
+			snprintf(uk, sizeof uk, "%s (k = %.2f)", hb_format_u(uu, sizeof uu, v->expanded_u, u), v->coverage_k);
 		else
 			snprintf(uk, sizeof uk, "-");
 		if (isfinite(v->accept_low) || isfinite(v->accept_high))
@@ -415,7 +407,7 @@ void rpt_fit_section(hb_html *h, const sweep_data *d)
 			snprintf(val, sizeof val, "%s%s", num, misfit ? " (misfit)" : "");
 		}
 		if (isfinite(v->std_error))
-			rpt_si(se, sizeof se, v->std_error, v->unit, 3);
+			hb_format_u(se, sizeof se, v->std_error, v->unit);
 		else if (reason && isfinite(v->value))
 			snprintf(se, sizeof se, "none (%s)", reason);
 		else
@@ -430,7 +422,7 @@ void rpt_fit_section(hb_html *h, const sweep_data *d)
 		for (size_t q = 0; q < d->nunc; q++)
 			if (strcmp(d->unc[q].name, v->name) == 0 && isfinite(d->unc[q].U)) {
 				char uu[40];
-				snprintf(ub, sizeof ub, "%s (k = %.2f)", rpt_si(uu, sizeof uu, d->unc[q].U, v->unit, 3), d->unc[q].k);
+				snprintf(ub, sizeof ub, "%s (k = %.2f)", hb_format_u(uu, sizeof uu, d->unc[q].U, v->unit), d->unc[q].k);
 			}
 		const char *cells[6] = { v->name, mean, val, se, rel, ub };
 		hb_html_table_row(h, cells, 6);
@@ -598,22 +590,18 @@ void rpt_budget_section(hb_html *h, const sweep_data *d)
 			snprintf(dof, sizeof dof, "%.1f", u->dof);
 		else
 			snprintf(dof, sizeof dof, "infinite");
-		snprintf(cap, sizeof cap, "%s = %.7g: u_c = %.3g, nu_eff = %s, k = %.3f, U = %.3g%s%s", u->name, u->value,
-			 u->u_c, dof, u->k, u->U, u->note[0] ? "; " : "", u->note);
-		hb_html_table_begin(h, cap, head, 7);
 		json_error_t err;
 		json_t *a = json_loads(u->budget, 0, &err);
+		char yu[24], vt[96], uct[40], Ut[40];
+		hb_analysis_budget_unit(u->name, a, yu, sizeof yu);
+		snprintf(cap, sizeof cap, "%s = %s: u_c = %s, nu_eff = %s, k = %.3f, U = %s%s%s", u->name,
+			 hb_format_unc(vt, sizeof vt, u->value, u->u_c, yu, 7), hb_format_u(uct, sizeof uct, u->u_c, yu), dof,
+			 u->k, hb_format_u(Ut, sizeof Ut, u->U, yu), u->note[0] ? "; " : "", u->note);
+		hb_html_table_begin(h, cap, head, 7);
 		for (size_t i = 0; json_is_array(a) && i < json_array_size(a); i++) {
 			json_t *o = json_array_get(a, i);
-			char c[4][32];
-			const char *keys[4] = { "value", "u", "c", "contribution" };
-			for (int k = 0; k < 4; k++) {
-				json_t *x = json_object_get(o, keys[k]);
-				if (json_is_number(x))
-					snprintf(c[k], sizeof c[k], "%.4g", json_number_value(x));
-				else
-					snprintf(c[k], sizeof c[k], "-");
-			}
+			char c[4][48];
+			hb_analysis_budget_cells(o, yu, c);
 			const char *name = json_string_value(json_object_get(o, "input"));
 			const char *type = json_string_value(json_object_get(o, "type"));
 			const char *src = json_string_value(json_object_get(o, "source"));
