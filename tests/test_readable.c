@@ -32,12 +32,33 @@ static int group_setup(void **state)
 	return st == 0 ? 0 : -1;
 }
 
+/* Inside a global identity (RFC 9562 text: 8-4-4-4-12 hex digits), where
+ * "5e-71" is hex, not a number. */
+static bool in_uuid(const char *s, const char *p)
+{
+	const char *a = p, *b = p;
+	while (a > s && (isxdigit((unsigned char)a[-1]) || a[-1] == '-'))
+		a--;
+	while (isxdigit((unsigned char)*b) || *b == '-')
+		b++;
+	if (b - a < 36)
+		return false;
+	for (const char *q = a; q + 36 <= b; q++) {
+		bool ok = true;
+		for (int i = 0; i < 36 && ok; i++)
+			ok = (i == 8 || i == 13 || i == 18 || i == 23) ? q[i] == '-' : isxdigit((unsigned char)q[i]) != 0;
+		if (ok && p >= q && p < q + 36)
+			return true;
+	}
+	return false;
+}
+
 /* A number written with an exponent ("6.8e+02", "1e-05") anywhere in text. */
 static const char *find_exponent(const char *s)
 {
 	for (const char *p = s; *p; p++)
 		if (isdigit((unsigned char)p[0]) && (p[1] == 'e' || p[1] == 'E') && (p[2] == '+' || p[2] == '-') &&
-		    isdigit((unsigned char)p[3]))
+		    isdigit((unsigned char)p[3]) && !in_uuid(s, p))
 			return p;
 	return NULL;
 }

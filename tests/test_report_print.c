@@ -96,7 +96,11 @@ static bool has_point_row(const char *page)
 		if (isdigit((unsigned char)*p)) {
 			while (isdigit((unsigned char)*p))
 				p++;
-			if (strncmp(p, "   up ", 6) == 0 || strncmp(p, "  up ", 5) == 0 || strncmp(p, " up ", 4) == 0)
+			/* the sequence number, then the direction after any run of spaces */
+			const char *q = p;
+			while (*q == ' ')
+				q++;
+			if (q > p && strncmp(q, "up ", 3) == 0)
 				return true;
 		}
 		const char *nl = strchr(line, '\n');
