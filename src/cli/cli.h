@@ -203,4 +203,8 @@ extern const hb_cmd_opts hb_opts_export;
 extern const hb_cmd_opts hb_opts_import;
 extern const hb_cmd_opts hb_opts_completion;
 
+/* ---------------- lot streams (switching rules) ---------------- */
+int hb_cmd_stream(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_stream;
+
 #endif
