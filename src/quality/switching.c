@@ -59,7 +59,7 @@ const char *hb_switch_rule_clause(hb_switch_rule rule)
 	case HB_SWITCH_STAY: return "ISO 2859-1:1999 9.2; MIL-STD-105E 8.2";
 	case HB_SWITCH_TO_TIGHTENED: return "ISO 2859-1:1999 9.3.1; MIL-STD-105E 8.3.1";
 	case HB_SWITCH_TIGHTENED_TO_NORMAL: return "ISO 2859-1:1999 9.3.2; MIL-STD-105E 8.3.2";
-	case HB_SWITCH_TO_REDUCED: return "ISO 2859-1:1999 9.3.3 (switching score)";
+	case HB_SWITCH_TO_REDUCED: return "ISO 2859-1:1999 9.3.3, switching score";
 	case HB_SWITCH_REDUCED_REJECT: return "ISO 2859-1:1999 9.3.4 a); MIL-STD-105E 8.3.4";
 	case HB_SWITCH_REDUCED_REINSTATE: return "MIL-STD-105E 8.3.4 and Table II-C; ANSI/ASQ Z1.4 10.1.4";
 	case HB_SWITCH_REDUCED_IRREGULAR: return "ISO 2859-1:1999 9.3.4 b); MIL-STD-105E 8.3.4";
@@ -267,8 +267,8 @@ void hb_switch_next_of(const hb_switch_state *s, bool reduced_approved, bool ste
 			 "switching score %d of %d (reduced inspection %s%s); %s", s->score,
 			 HB_SWITCH_SCORE_TO_REDUCED, reduced_approved ? "approved" : "not approved",
 			 steady ? "" : ", production irregular",
-			 (s->recent_bad & 0xFu) ? "one more lot not accepted within the 5-lot window tightens" :
-						  "no lot not accepted within the last 4");
+			 (s->recent_bad & 0xFu) ? "2-of-5 rule: one more lot rejected within the window tightens" :
+						  "2-of-5 rule: no lot rejected among the last 4 on normal");
 		for (int i = 0; i < HB_SWITCH_WINDOW - 1; i++)
 			if (s->recent_bad & (1u << i)) {
 				size_t len = strlen(out->progress);
