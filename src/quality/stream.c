@@ -137,10 +137,11 @@ void hb_stream_print_state(FILE *out, const hb_stream *s, const hb_switch_next *
 	for (size_t i = 0; i < s->n; i++)
 		lots += s->entries[i].is_lot;
 	if (next->discontinued)
-		fprintf(out, "lot stream of %s, %s (%zu decided lots): DISCONTINUED\n", s->part_number, who, lots);
+		fprintf(out, "lot stream of %s, %s (%zu decided lot%s): DISCONTINUED\n", s->part_number, who, lots,
+			lots == 1 ? "" : "s");
 	else
-		fprintf(out, "lot stream of %s, %s (%zu decided lots): next lot on %s inspection\n", s->part_number, who,
-			lots, hb_iso2859_severity_name(next->severity));
+		fprintf(out, "lot stream of %s, %s (%zu decided lot%s): next lot on %s inspection\n", s->part_number, who,
+			lots, lots == 1 ? "" : "s", hb_iso2859_severity_name(next->severity));
 	fprintf(out, "  why: %s\n", next->why);
 	fprintf(out, "  now: %s\n", next->progress);
 }
