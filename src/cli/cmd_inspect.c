@@ -564,7 +564,16 @@ int hb_cmd_inspect(int argc, char **argv)
 	}
 	if (a.json) {
 		/* The exit code is the lot's, not the printout's. */
-		(void)hb_print_json(hb_inspect_lot_json(db, res.lot_id, &res));
+		json_t *lj = hb_inspect_lot_json(db, res.lot_id, &res);
+		/* The stream after this lot: the severity the next lot gets, and why. */
+		hb_stream s;
+		if (lj && hb_stream_load(db, &part, cfg.supplier, &s) == HB_OK) {
+			hb_switch_next next;
+			hb_stream_next(&s, false, &next);
+			json_object_set_new(lj, "lot_stream", hb_stream_json(&s, &next));
+			hb_stream_free(&s);
+		}
+		(void)hb_print_json(lj);
 	}
 	if (res.end == HB_INSPECT_PAUSED) {
 		/* The pause line went to the output; a sick bench or a limit also
