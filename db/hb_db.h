@@ -543,5 +543,45 @@ int hb_db_report_put(hb_db *db, hb_db_report *r);
 int hb_db_report_get(hb_db *db, const char *uid, hb_db_report *out);
 /* Frees sweep_ids; the struct itself is the caller's. */
 void hb_db_report_clear(hb_db_report *r);
+/* ---------------- lot streams (switching rules; db/db_streams.c) ---------------- */
+
+/* A decided lot of a stream, with what the switching rules need. */
+typedef struct hb_db_stream_lot {
+	hb_db_lot lot;
+	char supplier[HB_DB_ID_LEN];
+	bool irregular;                /* production irregular or delayed, as stated at inspection */
+	long nonconforming;            /* 'fail' records in its sample */
+	double decided_unix;           /* the stream's order; from decided_at for lots decided before this field */
+} hb_db_stream_lot;
+
+typedef enum { HB_DB_STREAM_APPROVE_REDUCED, HB_DB_STREAM_WITHDRAW_REDUCED, HB_DB_STREAM_RESUME } hb_db_stream_kind;
+
+typedef struct hb_db_stream_event {
+	int64_t id;
+	hb_db_stream_kind kind;
+	char note[HB_DB_TEXT_LEN];
+	char at_iso[HB_DB_TIME_LEN];
+	double at;                     /* unix s */
+} hb_db_stream_event;
+
+/* "approve-reduced", "withdraw-reduced", "resume". */
+const char *hb_db_stream_kind_name(hb_db_stream_kind kind);
+
+/* Names the supplier of lot_id and whether its production was irregular. */
+int hb_db_lot_set_stream(hb_db *db, int64_t lot_id, const char *supplier, bool irregular);
+/* Reads them back. */
+int hb_db_lot_get_stream(hb_db *db, int64_t lot_id, char *supplier, size_t cap, bool *irregular);
+/* Stamps the moment the decision of lot_id was recorded (the stream's order). */
+int hb_db_lot_stamp_decided(hb_db *db, int64_t lot_id);
+/* The decided lots of (part, supplier) in the order they were decided. */
+int hb_db_stream_lots(hb_db *db, int64_t part_id, const char *supplier, hb_db_stream_lot **out, size_t *count);
+void hb_db_stream_lots_free(hb_db_stream_lot *lots);
+/* The suppliers of a part's lots ('' included when a lot names none), sorted;
+ * *out is count rows of HB_DB_ID_LEN characters. */
+int hb_db_stream_suppliers(hb_db *db, int64_t part_id, char (**out)[HB_DB_ID_LEN], size_t *count);
+int hb_db_stream_event_add(hb_db *db, int64_t part_id, const char *supplier, hb_db_stream_kind kind, const char *note);
+/* Oldest first. */
+int hb_db_stream_events(hb_db *db, int64_t part_id, const char *supplier, hb_db_stream_event **out, size_t *count);
+void hb_db_stream_events_free(hb_db_stream_event *events);
 
 #endif

@@ -441,3 +441,22 @@ CREATE TABLE report_sweeps (
 	sweep_id INTEGER NOT NULL REFERENCES sweeps(id),
 	PRIMARY KEY (report_id, sweep_id)
 ) WITHOUT ROWID;
+-- step 10: the lot stream of a part from one supplier, for the switching rules of ISO 2859-1 clause 9 (normal, tightened, reduced, discontinued)
+-- who delivered the lot ('' = not named); lots of one part and supplier form one stream
+ALTER TABLE lots ADD COLUMN supplier TEXT NOT NULL DEFAULT '';
+-- production of this lot was irregular or delayed (ISO 2859-1:1999 9.3.4 b), as the inspector stated it
+ALTER TABLE lots ADD COLUMN production_irregular INTEGER NOT NULL DEFAULT 0;
+-- when the decision was recorded, to the microsecond: the order of the stream (decided_at has whole seconds)
+ALTER TABLE lots ADD COLUMN decided_unix REAL;
+CREATE INDEX lots_stream ON lots(part_id, supplier);
+-- what the responsible authority or the supplier did to the stream: approve or withdraw reduced inspection, resume after discontinuation
+CREATE TABLE stream_events (
+	id INTEGER PRIMARY KEY,
+	part_id INTEGER NOT NULL REFERENCES parts(id),
+	supplier TEXT NOT NULL DEFAULT '',
+	kind TEXT NOT NULL CHECK (kind IN ('approve-reduced', 'withdraw-reduced', 'resume')),
+	note TEXT NOT NULL DEFAULT '',
+	at TEXT NOT NULL,
+	at_unix REAL NOT NULL
+);
+CREATE INDEX stream_events_stream ON stream_events(part_id, supplier);

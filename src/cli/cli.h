@@ -239,5 +239,8 @@ void hb_opts_completion_zsh(FILE *out);
 void hb_opts_manpage(FILE *out);
 int hb_cmd_manpage(int argc, char **argv);
 extern const hb_cmd_opts hb_opts_manpage_cmd;
+/* ---------------- lot streams (switching rules) ---------------- */
+int hb_cmd_stream(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_stream;
 
 #endif

@@ -315,7 +315,16 @@ int hb_cmd_history(int argc, char **argv)
 		goto out;
 	}
 	if (json) {
-		if (hb_print_json(history_json(&part, rows, n, &f, &sum)) != HB_OK) {
+		json_t *j = history_json(&part, rows, n, &f, &sum);
+		/* The lots as the switching rules saw them, per supplier. */
+		json_t *streams = hb_stream_all_json(db, &part);
+		if (!streams) {
+			json_decref(j);
+			hb_cli_error("store: %s", hb_db_errmsg(db));
+			goto out;
+		}
+		json_object_set_new(j, "lot_streams", streams);
+		if (hb_print_json(j) != HB_OK) {
 			hb_cli_error("history: cannot write the JSON output");
 			goto out;
 		}
@@ -326,6 +335,10 @@ int hb_cmd_history(int argc, char **argv)
 		}
 	} else {
 		print_history_text(&part, rows, n, &f, &sum);
+		if (hb_stream_print_all(stdout, db, &part) != HB_OK) {
+			hb_cli_error("store: %s", hb_db_errmsg(db));
+			goto out;
+		}
 	}
 	if (fflush(stdout) != 0) {
 		hb_cli_error("history: cannot write to standard output");

@@ -15,7 +15,8 @@
 #include "sweep_opts.h"
 
 typedef struct inspect_args {
-	const char *part, *lot, *lcr, *supply, *serials_file, *first_serial;
+	const char *part, *lot, *lcr, *supply, *serials_file, *first_serial, *supplier;
+	bool severity_given, irregular;
 	long lot_size;
 	double aql;
 	hb_insp_level level;
@@ -103,7 +104,12 @@ static const hb_opt inspect_table[] = {
 	{ .name = "level", .kind = HB_OPT_ENUM, .words = hb_opt_level_words, .match = hb_opt_match_level,
 	  .off = offsetof(inspect_args, level), .help = "inspection level (default II)" },
 	{ .name = "severity", .kind = HB_OPT_ENUM, .words = hb_opt_severity_words, .match = hb_opt_match_severity,
-	  .off = offsetof(inspect_args, severity), .help = "inspection severity (default normal)" },
+	  .off = offsetof(inspect_args, severity), .given = HB_OPT_GIVEN(inspect_args, severity_given),
+	  .help = "inspection severity (default: the switching rules' for this lot stream; given, it overrides them)" },
+	{ .name = "supplier", .kind = HB_OPT_TEXT, .arg = "S", .off = offsetof(inspect_args, supplier),
+	  .help = "who delivered the lot: its stream of lots is switched on its own (default: none named)" },
+	{ .name = "irregular", .kind = HB_OPT_FLAG, .off = offsetof(inspect_args, irregular),
+	  .help = "production of this lot was irregular or delayed (ends reduced inspection, ISO 2859-1:1999 9.3.4)" },
 	{ .name = "serials", .kind = HB_OPT_PATH, .arg = "FILE", .off = offsetof(inspect_args, serials_file),
 	  .help = "serial numbers in draw order, one per line" },
 	{ .name = "first-serial", .kind = HB_OPT_TEXT, .arg = "S", .off = offsetof(inspect_args, first_serial),
@@ -156,6 +162,9 @@ const hb_cmd_opts hb_opts_inspect = {
 		  "A unit whose verdict is incomplete counts as nonconforming. A bench fault (lost link,\n"
 		  "instrument error, time-out) judges nothing and uses no sample position; 2 in a row pause\n"
 		  "the inspection with the lot open (docs/inspection.md).\n"
+		  "Switching (ISO 2859-1 clause 9, docs/sampling.md): lots of one part and supplier form a stream;\n"
+		  "the rules choose normal, tightened or reduced inspection from the lots decided before, and a\n"
+		  "discontinued stream refuses new lots until 'henrybench stream P --resume-sampling NOTE'.\n"
 		  "Exit status: 0 lot decided (accept or reject: see the output), 1 lot still open (paused:\n"
 		  "bench fault, safety limit, 'q', end of the serial list), 2 usage, 130 stopped by Ctrl-C\n"
 		  "(lot still open).\n",
@@ -367,6 +376,52 @@ static int confirm(const inspect_args *a, const hb_station *st, const unit_sourc
 				     src->prompt, question);
 }
 
+/*
+ * The severity of this lot from its stream (part and supplier): a begun lot
+ * keeps the severity it was begun with; a new lot gets the switching
+ * rules', or --severity, which overrides them and says so. A discontinued
+ * stream takes no new lot (exit 1).
+ */
+static int choose_severity(hb_db *db, const hb_db_part *part, inspect_args *a)
+{
+	const char *supplier = a->supplier ? a->supplier : "";
+	hb_db_lot lot;
+	int rc = hb_db_lot_find(db, part->id, a->lot, &lot);
+	if (rc == HB_OK && lot.sample_size > 0 && lot.decision == HB_DB_LOT_OPEN) {
+		hb_severity begun;
+		if (!a->severity_given && hb_iso2859_parse_severity(lot.severity, &begun) == HB_OK)
+			a->severity = begun;
+		return HB_EXIT_OK;
+	}
+	if (rc == HB_OK && lot.decision != HB_DB_LOT_OPEN)
+		return HB_EXIT_OK; /* decided: the run says so and measures nothing */
+	hb_stream s;
+	if (hb_stream_load(db, part, supplier, &s) != HB_OK) {
+		hb_cli_error("store: %s", hb_db_errmsg(db));
+		return HB_EXIT_RUNTIME;
+	}
+	hb_switch_next next;
+	hb_stream_next(&s, a->irregular, &next);
+	FILE *info = a->json ? stderr : stdout;
+	if (next.discontinued) {
+		hb_stream_print_state(stderr, &s, &next);
+		hb_cli_error("inspect: lot %s refused: the lot stream of %s (%s) is discontinued (ISO 2859-1:1999 9.4); record "
+			     "the supplier's corrective action with 'henrybench stream %s%s%s --resume-sampling NOTE'",
+			     a->lot, part->part_number, *supplier ? supplier : "no supplier named", part->part_number,
+			     *supplier ? " --supplier " : "", supplier);
+		hb_stream_free(&s);
+		return HB_EXIT_RUNTIME;
+	}
+	hb_stream_print_state(info, &s, &next);
+	if (a->severity_given && a->severity != next.severity)
+		fprintf(info, "  --severity %s overrides the switching rules' %s for lot %s; the lot records it\n",
+			hb_iso2859_severity_name(a->severity), hb_iso2859_severity_name(next.severity), a->lot);
+	if (!a->severity_given)
+		a->severity = next.severity;
+	hb_stream_free(&s);
+	return HB_EXIT_OK;
+}
+
 int hb_cmd_inspect(int argc, char **argv)
 {
 	inspect_args a;
@@ -400,6 +455,11 @@ int hb_cmd_inspect(int argc, char **argv)
 	}
 	hb_db_part part;
 	rc = hb_sweep_opts_open_part(a.part, &db, &part);
+	if (rc != HB_EXIT_OK) {
+		exit_code = rc;
+		goto out;
+	}
+	rc = choose_severity(db, &part, &a);
 	if (rc != HB_EXIT_OK) {
 		exit_code = rc;
 		goto out;
@@ -481,6 +541,8 @@ int hb_cmd_inspect(int argc, char **argv)
 	cfg.part_fault = a.part_fault;
 	cfg.conditional_policy = a.conditional_policy;
 	cfg.resume_only = a.resume;
+	cfg.supplier = a.supplier ? a.supplier : "";
+	cfg.irregular = a.irregular;
 	hb_inspect_callbacks cb = { .ctx = &src, .next_unit = next_unit, .sweep_failed = sweep_failed };
 	hb_inspect_result res;
 	rc = hb_inspect_run(&cfg, &cb, &res);
@@ -493,9 +555,29 @@ int hb_cmd_inspect(int argc, char **argv)
 	}
 	if (res.end == HB_INSPECT_ALREADY_DECIDED)
 		fprintf(info, "%s; nothing measured\n", res.message);
+	if (res.end == HB_INSPECT_DECIDED) {
+		/* What the decision did to the stream: the next lot's severity. */
+		hb_stream s;
+		if (hb_stream_load(db, &part, cfg.supplier, &s) == HB_OK) {
+			hb_switch_next next;
+			hb_stream_next(&s, false, &next);
+			fputs("after this lot, ", info);
+			hb_stream_print_state(info, &s, &next);
+			hb_stream_free(&s);
+		}
+	}
 	if (a.json) {
 		/* The exit code is the lot's, not the printout's. */
-		(void)hb_print_json(hb_inspect_lot_json(db, res.lot_id, &res));
+		json_t *lj = hb_inspect_lot_json(db, res.lot_id, &res);
+		/* The stream after this lot: the severity the next lot gets, and why. */
+		hb_stream s;
+		if (lj && hb_stream_load(db, &part, cfg.supplier, &s) == HB_OK) {
+			hb_switch_next next;
+			hb_stream_next(&s, false, &next);
+			json_object_set_new(lj, "lot_stream", hb_stream_json(&s, &next));
+			hb_stream_free(&s);
+		}
+		(void)hb_print_json(lj);
 	}
 	if (res.end == HB_INSPECT_PAUSED) {
 		/* The pause line went to the output; a sick bench or a limit also

@@ -16,6 +16,7 @@ const hb_command hb_commands[] = {
 	{ "show", hb_cmd_show, "one stored sweep: settings and points (text, JSON, CSV)", &hb_opts_show },
 	{ "part", hb_cmd_part, "part specs: add, list, show, edit", &hb_opts_part },
 	{ "inspect", hb_cmd_inspect, "inspect a lot by ISO 2859-1 sampling: sweep, judge, tally, decide (resumable)", &hb_opts_inspect },
+	{ "stream", hb_cmd_stream, "a part's lot stream from one supplier: switching rules, approval, resumption", &hb_opts_stream },
 	{ "history", hb_cmd_history, "a part's measured units, lot statistics with Cpk, trend across lots", &hb_opts_history },
 	{ "compare", hb_cmd_compare, "stored bias sweeps side by side: L0, drop currents, mu_e, gap, verdict", &hb_opts_compare },
 	{ "report", hb_cmd_report, "write an HTML record of a sweep, a lot or a part (inline plots)", &hb_opts_report },

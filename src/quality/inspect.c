@@ -8,6 +8,7 @@
 
 #include "../../common/hb_text.h"
 #include "inspect.h"
+#include "stream.h"
 #include "../bench/bench.h"
 
 void hb_inspect_config_init(hb_inspect_config *cfg)
@@ -100,6 +101,12 @@ void hb_inspect_print_plan(FILE *out, const hb_sampling_plan *p)
 		fprintf(out, "  sample size %ld\n", p->sample_size);
 	fprintf(out, "  accept with at most Ac = %d nonconforming, reject at Re = %d (inspection stops there)\n", p->ac,
 		p->re);
+	if (p->re > p->ac + 1) {
+		fputs("  ", out);
+		hb_stream_print_reinstate_rule(out, p);
+	}
+	if (p->uncertain)
+		fprintf(out, "  UNCERTAIN table cell: %s\n", p->uncertain_note);
 }
 
 void hb_inspect_print_rules(FILE *out, const hb_inspect_config *cfg)
@@ -433,6 +440,11 @@ static void print_decision(const run_state *st)
 		fprintf(o, "lot %s: REJECT - %d nonconforming in %d tested reaches Re = %d%s\n", st->cfg->lot_code,
 			t->nonconforming, t->tested, r->plan.re,
 			t->tested < r->plan.sample_size ? " (inspection stopped early)" : "");
+	else if (r->decision == HB_LOT_ACCEPT_REINSTATE)
+		fprintf(o, "lot %s: ACCEPT, REINSTATE NORMAL - %d nonconforming in the sample of %d, above Ac = %d and below "
+			   "Re = %d: the lot is accepted and normal inspection is reinstated from the next lot "
+			   "(MIL-STD-105E Table II-C)\n",
+			st->cfg->lot_code, t->nonconforming, t->tested, r->plan.ac, r->plan.re);
 	else
 		fprintf(o, "lot %s: ACCEPT - %d nonconforming in the sample of %d, at most Ac = %d\n", st->cfg->lot_code,
 			t->nonconforming, t->tested, r->plan.ac);
@@ -501,6 +513,9 @@ int hb_inspect_run(const hb_inspect_config *cfg, const hb_inspect_callbacks *cb,
 	if (st.lot.decision != HB_DB_LOT_OPEN) {
 		out->end = HB_INSPECT_ALREADY_DECIDED;
 		out->decision = st.lot.decision == HB_DB_LOT_ACCEPT ? HB_LOT_ACCEPT : HB_LOT_REJECT;
+		if (out->decision == HB_LOT_ACCEPT && strcmp(st.lot.severity, "reduced") == 0 &&
+		    out->tally.nonconforming > st.lot.accept_number)
+			out->decision = HB_LOT_ACCEPT_REINSTATE;
 		snprintf(out->message, sizeof out->message, "lot %s was decided on %s: %s", cfg->lot_code, st.lot.decided,
 			 hb_db_lot_decision_name(st.lot.decision));
 		goto done;
@@ -531,6 +546,23 @@ int hb_inspect_run(const hb_inspect_config *cfg, const hb_inspect_callbacks *cb,
 	if (rc != HB_OK) {
 		snprintf(out->message, sizeof out->message, "store: %s", hb_db_errmsg(cfg->db));
 		goto done;
+	}
+	if (cfg->supplier) {
+		/* One lot, one supplier: a begun lot keeps the supplier it was begun with. */
+		char had[HB_DB_ID_LEN] = "";
+		rc = hb_db_lot_get_stream(cfg->db, lot_id, had, sizeof had, NULL);
+		if (rc == HB_OK && nrecs > 0 && had[0] && strcmp(had, cfg->supplier) != 0) {
+			snprintf(out->message, sizeof out->message, "lot %s was begun for supplier %s, not %s", cfg->lot_code,
+				 had, cfg->supplier);
+			rc = HB_ERR_ARG;
+			goto done;
+		}
+		if (rc == HB_OK)
+			rc = hb_db_lot_set_stream(cfg->db, lot_id, cfg->supplier, cfg->irregular);
+		if (rc != HB_OK) {
+			snprintf(out->message, sizeof out->message, "store: %s", hb_db_errmsg(cfg->db));
+			goto done;
+		}
 	}
 	out->resumed = nrecs > 0;
 	out->resumed_at = out->tally.next_sequence;
@@ -636,8 +668,12 @@ int hb_inspect_run(const hb_inspect_config *cfg, const hb_inspect_callbacks *cb,
 			goto done;
 		}
 	}
-	st.lot.decision = out->decision == HB_LOT_ACCEPT ? HB_DB_LOT_ACCEPT : HB_DB_LOT_REJECT;
+	/* Accept-and-reinstate is an acceptance; the stream tells it apart
+	 * from d, Ac and the severity stored with the lot. */
+	st.lot.decision = out->decision == HB_LOT_REJECT ? HB_DB_LOT_REJECT : HB_DB_LOT_ACCEPT;
 	rc = hb_db_lot_update(cfg->db, &st.lot);
+	if (rc == HB_OK)
+		rc = hb_db_lot_stamp_decided(cfg->db, st.lot.id);
 	if (rc != HB_OK) {
 		snprintf(out->message, sizeof out->message, "store: could not record the decision: %s",
 			 hb_db_errmsg(cfg->db));
@@ -692,6 +728,11 @@ json_t *hb_sampling_plan_json(const hb_sampling_plan *p)
 	json_object_set_new(o, "full_inspection", json_boolean(p->full_inspection));
 	json_object_set_new(o, "ac", json_integer(p->ac));
 	json_object_set_new(o, "re", json_integer(p->re));
+	json_object_set_new(o, "accept_reinstate_normal", p->re > p->ac + 1 ? json_pack("[ii]", p->ac + 1, p->re - 1) : json_null());
+	json_object_set_new(o, "tables", json_string("MIL-STD-105E Tables I, II-A/B/C (= ISO 2859-1:1989)"));
+	json_object_set_new(o, "uncertain", json_boolean(p->uncertain));
+	if (p->uncertain)
+		json_object_set_new(o, "uncertain_note", json_string(p->uncertain_note));
 	return o;
 }
 
@@ -708,6 +749,13 @@ json_t *hb_inspect_lot_json(hb_db *db, int64_t lot_id, const hb_inspect_result *
 	json_t *plan = hb_sampling_plan_json(&r->plan);
 	json_object_set_new(j, "plan", plan);
 	json_object_set_new(j, "decision", json_string(hb_db_lot_decision_name(lot.decision)));
+	json_object_set_new(j, "reinstate_normal", json_boolean(r->decision == HB_LOT_ACCEPT_REINSTATE));
+	char supplier[HB_DB_ID_LEN] = "";
+	bool irregular = false;
+	if (hb_db_lot_get_stream(db, lot_id, supplier, sizeof supplier, &irregular) == HB_OK) {
+		json_object_set_new(j, "supplier", json_string(supplier));
+		json_object_set_new(j, "production_irregular", json_boolean(irregular));
+	}
 	if (lot.decided[0])
 		json_object_set_new(j, "decided", json_string(lot.decided));
 	json_object_set_new(j, "tested", json_integer(r->tally.tested));

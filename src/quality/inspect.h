@@ -57,6 +57,12 @@ typedef struct hb_inspect_config {
 	/* How a unit with a conditional outcome (the non-binary decision rule)
 	 * counts; the plan printout states it. Default: nonconforming. */
 	hb_conditional_policy conditional_policy;
+	/* The lot stream (switching rules, stream.h): the supplier recorded on
+	 * the lot (NULL = leave what a begun lot has, '' on a new one), and
+	 * production stated irregular or delayed for this lot. The caller
+	 * chooses severity from the stream. */
+	const char *supplier;
+	bool irregular;
 } hb_inspect_config;
 
 /* One sample position as it was recorded (or would have been). */

@@ -10,5 +10,7 @@
 #include "analysis.h" /* a stored sweep fitted, the fit stored, the unit judged (db + fit) */
 #include "history.h"  /* a part's lots summarised: statistics, capability, trend */
 #include "inspect.h"  /* a lot inspected at the bench (measures through bench/) */
+#include "switching.h" /* ISO 2859-1 clause 9 switching rules over a stream of lots (pure) */
+#include "stream.h"   /* a part's lot stream from one supplier, replayed from the store */
 
 #endif

@@ -10,13 +10,14 @@
 #include <gsl/gsl_statistics_double.h>
 
 #include "../../common/hb_text.h"
+#include "iso2859_tables.h"
 #include "rules.h"
 
 /*
- * ISO 2859-1:1999 Table 1, sample size code letters (identical to ANSI/ASQ
- * Z1.4 Table I and MIL-STD-105E Table I). Entered from memory and checked
- * against the MIL-STD-105E copy transcribed at nibs.org (AC-TABLE.ASC,
- * level II column) and the issue's checks (2000 at II -> K, 40 at II -> D).
+ * Table I, sample size code letters: MIL-STD-105E Table I as given in the
+ * project's verified reference data (sampling-tables-mil-std-105e.md,
+ * section 3.1: four sources and a scan of the standard agree on every cell;
+ * ISO 2859-1 Table 1 and ANSI/ASQ Z1.4 Table I are the same).
  * Columns: S-1 S-2 S-3 S-4 I II III.
  */
 static const struct {
@@ -40,120 +41,14 @@ static const struct {
 	{ -1, { 'D', 'E', 'H', 'K', 'N', 'Q', 'R' } }, /* 500 001 and over */
 };
 
-/* Row order of Tables 2-A/B/C; S (3150) exists in the tightened table only. */
+/* Row order of Tables II-A/B/C; S (3150) exists in the tightened table only. */
 static const char letters[] = "ABCDEFGHJKLMNPQRS";
-enum { N_ROWS = 16, N_ROWS_TIGHT = 17, N_AQL = 26 };
-
-static const long size_normal[N_ROWS_TIGHT] = { 2, 3, 5, 8, 13, 20, 32, 50, 80, 125,
-						200, 315, 500, 800, 1250, 2000, 0 };
-static const long size_tightened[N_ROWS_TIGHT] = { 2, 3, 5, 8, 13, 20, 32, 50, 80, 125,
-						   200, 315, 500, 800, 1250, 2000, 3150 };
-/* Table 2-C sample sizes, from memory (same as Z1.4 Table II-C): two
- * letters behind normal, never below 2. */
-static const long size_reduced[N_ROWS_TIGHT] = { 2, 2, 2, 3, 5, 8, 13, 20, 32, 50,
-						 80, 125, 200, 315, 500, 800, 0 };
+enum { N_ROWS = ISO2859_N_ROWS, N_ROWS_TIGHT = ISO2859_N_ROWS_TIGHT, N_AQL = ISO2859_N_AQL };
 
 static const double aql_series[N_AQL] = {
 	0.010, 0.015, 0.025, 0.040, 0.065, 0.10, 0.15, 0.25, 0.40, 0.65, 1.0, 1.5, 2.5,
 	4.0, 6.5, 10, 15, 25, 40, 65, 100, 150, 250, 400, 650, 1000,
 };
-
-/*
- * Cells of Tables 2-A/B/C: the acceptance number Ac, or an arrow. Every
- * single-sampling plan in these tables has Re = Ac + 1, so Re is not stored.
- * DN: use the first plan below the arrow; UP: the first plan above. The
- * sample size then comes from the row where that plan stands.
- */
-enum { DN = -1, UP = -2 };
-
-/*
- * Table 2-A, normal inspection. Entered from memory and checked cell by
- * cell for AQL 0.65 ... 15 against the MIL-STD-105E Table II-A copy
- * transcribed at nibs.org (AC-TABLE.ASC), and for the Ac/Re series per row
- * against a scanned MIL-STD-105E Table II-A (rows A-E reach 30/31, B-E
- * 44/45; R starts at 1/2). Two cells are our reading, not a copy:
- *  - A at AQL 10: the copy prints an up arrow, but row A has nothing above
- *    it; the only plan the column offers is below (C, 1/2), so DN.
- *  - R at AQL 0.015: the diagonal pattern would put a down arrow there, with
- *    no row below R; the first plan in the column is above (P, 0/1), so UP.
- */
-static const signed char table_normal[N_ROWS][N_AQL] = {
-	/* A */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, DN, DN,  1,  2,  3,  5,  7, 10, 14, 21, 30 },
-	/* B */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  2,  3,  5,  7, 10, 14, 21, 30, 44 },
-	/* C */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  2,  3,  5,  7, 10, 14, 21, 30, 44, UP },
-	/* D */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  2,  3,  5,  7, 10, 14, 21, 30, 44, UP, UP },
-	/* E */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  2,  3,  5,  7, 10, 14, 21, 30, 44, UP, UP, UP },
-	/* F */ { DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  2,  3,  5,  7, 10, 14, 21, UP, UP, UP, UP, UP, UP },
-	/* G */ { DN, DN, DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  2,  3,  5,  7, 10, 14, 21, UP, UP, UP, UP, UP, UP, UP },
-	/* H */ { DN, DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  2,  3,  5,  7, 10, 14, 21, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* J */ { DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  2,  3,  5,  7, 10, 14, 21, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* K */ { DN, DN, DN, DN, DN,  0, UP, DN,  1,  2,  3,  5,  7, 10, 14, 21, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* L */ { DN, DN, DN, DN,  0, UP, DN,  1,  2,  3,  5,  7, 10, 14, 21, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* M */ { DN, DN, DN,  0, UP, DN,  1,  2,  3,  5,  7, 10, 14, 21, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* N */ { DN, DN,  0, UP, DN,  1,  2,  3,  5,  7, 10, 14, 21, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* P */ { DN,  0, UP, DN,  1,  2,  3,  5,  7, 10, 14, 21, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* Q */ {  0, UP, DN,  1,  2,  3,  5,  7, 10, 14, 21, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* R */ { UP, UP,  1,  2,  3,  5,  7, 10, 14, 21, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-};
-
-/*
- * Table 2-B, tightened inspection. Entered from memory; AQL 0.65 ... 15 of
- * rows A-K checked against the MIL-STD-105E Table II-B copy at nibs.org
- * (AC-TABLE.ASC, table 1-B). The series 0/1, 1/2, 2/3, 3/4, 5/6, 8/9,
- * 12/13, 18/19 is from memory; 27/28 and 41/42 in rows A-E (AQL >= 150 only,
- * as 30/31 and 44/45 in Table 2-A) are from memory by analogy with Table
- * 2-A. Row S (3150) holds one plan, 1/2 at AQL 0.025 (from memory); R at
- * 0.015 points up for the same reason as in Table 2-A.
- */
-static const signed char table_tightened[N_ROWS_TIGHT][N_AQL] = {
-	/* A */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  1,  2,  3,  5,  8, 12, 18, 27 },
-	/* B */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, DN, DN,  1,  2,  3,  5,  8, 12, 18, 27, 41 },
-	/* C */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, DN, DN,  1,  2,  3,  5,  8, 12, 18, 27, 41, UP },
-	/* D */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, DN, DN,  1,  2,  3,  5,  8, 12, 18, 27, 41, UP, UP },
-	/* E */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, DN, DN,  1,  2,  3,  5,  8, 12, 18, 27, 41, UP, UP, UP },
-	/* F */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, DN, DN,  1,  2,  3,  5,  8, 12, 18, UP, UP, UP, UP, UP, UP },
-	/* G */ { DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, DN, DN,  1,  2,  3,  5,  8, 12, 18, UP, UP, UP, UP, UP, UP, UP },
-	/* H */ { DN, DN, DN, DN, DN, DN, DN, DN,  0, DN, DN,  1,  2,  3,  5,  8, 12, 18, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* J */ { DN, DN, DN, DN, DN, DN, DN,  0, DN, DN,  1,  2,  3,  5,  8, 12, 18, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* K */ { DN, DN, DN, DN, DN, DN,  0, DN, DN,  1,  2,  3,  5,  8, 12, 18, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* L */ { DN, DN, DN, DN, DN,  0, DN, DN,  1,  2,  3,  5,  8, 12, 18, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* M */ { DN, DN, DN, DN,  0, DN, DN,  1,  2,  3,  5,  8, 12, 18, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* N */ { DN, DN, DN,  0, DN, DN,  1,  2,  3,  5,  8, 12, 18, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* P */ { DN, DN,  0, DN, DN,  1,  2,  3,  5,  8, 12, 18, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* Q */ { DN,  0, DN, DN,  1,  2,  3,  5,  8, 12, 18, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* R */ {  0, UP, DN,  1,  2,  3,  5,  8, 12, 18, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* S */ { UP, UP,  1, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-};
-
-/*
- * Table 2-C, reduced inspection, ISO 2859-1:1999. From memory, LOW
- * CONFIDENCE: the 1999 edition dropped the "accept but revert to normal"
- * zone of MIL-STD-105E Table II-C (0/2, 1/3, 1/4, 2/5, 3/6, 5/8, 7/10,
- * 10/13), so every cell has Re = Ac + 1; we recall the series per row as
- * 0/1, up, down, 1/2, 1/2, 2/3, 3/4, 5/6, 6/7, 8/9, 10/11 (14/15, 21/22 in
- * rows A-E at AQL >= 150) with the same arrow positions as Table 2-A. Check
- * against the purchased standard before judging real lots under reduced
- * inspection (docs/sampling.md).
- */
-static const signed char table_reduced[N_ROWS][N_AQL] = {
-	/* A */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, DN, DN,  1,  1,  2,  3,  5,  6,  8, 10, 14 },
-	/* B */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  1,  2,  3,  5,  6,  8, 10, 14, 21 },
-	/* C */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  1,  2,  3,  5,  6,  8, 10, 14, 21, UP },
-	/* D */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  1,  2,  3,  5,  6,  8, 10, 14, 21, UP, UP },
-	/* E */ { DN, DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  1,  2,  3,  5,  6,  8, 10, 14, 21, UP, UP, UP },
-	/* F */ { DN, DN, DN, DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  1,  2,  3,  5,  6,  8, 10, UP, UP, UP, UP, UP, UP },
-	/* G */ { DN, DN, DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  1,  2,  3,  5,  6,  8, 10, UP, UP, UP, UP, UP, UP, UP },
-	/* H */ { DN, DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  1,  2,  3,  5,  6,  8, 10, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* J */ { DN, DN, DN, DN, DN, DN,  0, UP, DN,  1,  1,  2,  3,  5,  6,  8, 10, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* K */ { DN, DN, DN, DN, DN,  0, UP, DN,  1,  1,  2,  3,  5,  6,  8, 10, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* L */ { DN, DN, DN, DN,  0, UP, DN,  1,  1,  2,  3,  5,  6,  8, 10, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* M */ { DN, DN, DN,  0, UP, DN,  1,  1,  2,  3,  5,  6,  8, 10, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* N */ { DN, DN,  0, UP, DN,  1,  1,  2,  3,  5,  6,  8, 10, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* P */ { DN,  0, UP, DN,  1,  1,  2,  3,  5,  6,  8, 10, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* Q */ {  0, UP, DN,  1,  1,  2,  3,  5,  6,  8, 10, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-	/* R */ { UP, UP,  1,  1,  2,  3,  5,  6,  8, 10, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP, UP },
-};
-
 
 size_t hb_iso2859_aql_series(const double **series)
 {
@@ -272,17 +167,17 @@ static int table_rows(hb_severity severity)
 	return severity == HB_SEVERITY_TIGHTENED ? N_ROWS_TIGHT : N_ROWS;
 }
 
-static int cell(hb_severity severity, int row, int col)
+static const iso2859_cell *cell(hb_severity severity, int row, int col)
 {
 	switch (severity) {
 	case HB_SEVERITY_NORMAL:
-		return table_normal[row][col];
+		return &iso2859_normal[row][col];
 	case HB_SEVERITY_TIGHTENED:
-		return table_tightened[row][col];
+		return &iso2859_tightened[row][col];
 	case HB_SEVERITY_REDUCED:
-		return table_reduced[row][col];
+		return &iso2859_reduced[row][col];
 	}
-	return DN;
+	return &iso2859_normal[row][col];
 }
 
 long hb_iso2859_sample_size(char letter, hb_severity severity)
@@ -292,13 +187,36 @@ long hb_iso2859_sample_size(char letter, hb_severity severity)
 		return 0;
 	switch (severity) {
 	case HB_SEVERITY_NORMAL:
-		return size_normal[row];
+		return iso2859_size_normal[row];
 	case HB_SEVERITY_TIGHTENED:
-		return size_tightened[row];
+		return iso2859_size_tightened[row];
 	case HB_SEVERITY_REDUCED:
-		return size_reduced[row];
+		return iso2859_size_reduced[row];
 	}
 	return 0;
+}
+
+/* What `plan` says about a cell the reference leaves unsettled. */
+static const char *uncertain_note(unsigned mark)
+{
+	if (mark & ISO2859_M_EDGE)
+		return "the table's arrows run off its edge at this cell; the sources disagree on the plan "
+		       "(MIL-STD-105E reference, cells A at AQL 10 and R at AQL 0.015)";
+	if (mark & ISO2859_M_SROW)
+		return "one source gives 0/1 here, three give the row-S plan 1/2 at n 3150 (kept)";
+	if (mark & ISO2859_M_RE)
+		return "Re of this reduced plan rests on one source and the table's pattern; another gives a larger Re";
+	return NULL;
+}
+
+int hb_iso2859_tighter_ac(char letter, double aql)
+{
+	int row = letter_row(letter);
+	int col = hb_iso2859_aql_index(aql);
+	if (row < 0 || row >= N_ROWS || col <= 0)
+		return -1;
+	const iso2859_cell *c = &iso2859_normal[row][col - 1];
+	return c->ac >= 0 ? c->ac : -1;
 }
 
 int hb_iso2859_plan(long lot_size, double aql, hb_insp_level level, hb_severity severity,
@@ -323,19 +241,24 @@ int hb_iso2859_plan(long lot_size, double aql, hb_insp_level level, hb_severity 
 
 	char initial = hb_iso2859_code_letter(lot_size, level);
 	int row = letter_row(initial);
-	int ac = cell(severity, row, col);
+	const iso2859_cell *c = cell(severity, row, col);
+	unsigned mark = c->mark;
 	int arrow = 0;
-	if (ac < 0) {
-		arrow = ac == DN ? +1 : -1;
+	if (c->ac == ISO2859_DN || c->ac == ISO2859_UP) {
+		arrow = c->ac == ISO2859_DN ? +1 : -1;
 		int r = row + arrow;
-		while (r >= 0 && r < table_rows(severity) && cell(severity, r, col) < 0)
+		while (r >= 0 && r < table_rows(severity) && cell(severity, r, col)->ac < 0)
 			r += arrow;
-		if (r < 0 || r >= table_rows(severity))
+		if (r < 0 || r >= table_rows(severity) || cell(severity, r, col)->ac == ISO2859_NO)
 			return hb_set_err(err, errlen, "no plan in the %s table for AQL %g, letter %c",
 				       hb_iso2859_severity_name(severity), aql, initial);
 		row = r;
-		ac = cell(severity, row, col);
+		c = cell(severity, row, col);
+		mark |= c->mark;
 	}
+	if (c->ac < 0 || c->re <= c->ac)
+		return hb_set_err(err, errlen, "no plan in the %s table for AQL %g, letter %c",
+			       hb_iso2859_severity_name(severity), aql, initial);
 
 	out->lot_size = lot_size;
 	out->aql = aql_series[col];
@@ -345,10 +268,12 @@ int hb_iso2859_plan(long lot_size, double aql, hb_insp_level level, hb_severity 
 	out->letter = letters[row];
 	out->arrow = arrow;
 	out->table_sample_size = hb_iso2859_sample_size(letters[row], severity);
-	out->ac = ac;
-	out->re = ac + 1;
-	/* The footnote of Tables 2-A/B/C: when the sample size equals or exceeds
-	 * the lot, inspect the whole lot (with the same Ac/Re). */
+	out->ac = c->ac;
+	out->re = c->re;
+	out->uncertain = (mark & ISO2859_M_UNCERTAIN) != 0;
+	out->uncertain_note = out->uncertain ? uncertain_note(mark) : NULL;
+	/* The footnote of Tables II-A/B/C: when the sample size equals or
+	 * exceeds the lot, inspect the whole lot (with the same Ac/Re). */
 	out->full_inspection = out->table_sample_size >= lot_size;
 	out->sample_size = out->full_inspection ? lot_size : out->table_sample_size;
 	return HB_OK;
@@ -362,10 +287,15 @@ int hb_lot_decide(const hb_sampling_plan *plan, long units_tested, long nonconfo
 		return HB_ERR_ARG;
 	if (nonconforming >= plan->re)
 		*decision = HB_LOT_REJECT;
-	else if (units_tested >= plan->sample_size)
-		*decision = nonconforming <= plan->ac ? HB_LOT_ACCEPT : HB_LOT_REJECT;
-	else
+	else if (units_tested < plan->sample_size)
 		*decision = HB_LOT_CONTINUE;
+	else if (nonconforming <= plan->ac)
+		*decision = HB_LOT_ACCEPT;
+	else
+		/* Ac < d < Re, only in a reduced plan with Re - Ac > 1: the lot is
+		 * accepted, and normal inspection is reinstated from the next lot
+		 * (MIL-STD-105E Table II-C note; ANSI/ASQ Z1.4 10.1.4). */
+		*decision = HB_LOT_ACCEPT_REINSTATE;
 	return HB_OK;
 }
 
@@ -378,6 +308,8 @@ const char *hb_lot_decision_name(hb_lot_decision decision)
 		return "accept";
 	case HB_LOT_REJECT:
 		return "reject";
+	case HB_LOT_ACCEPT_REINSTATE:
+		return "accept-reinstate-normal";
 	}
 	return "?";
 }

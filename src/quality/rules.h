@@ -37,12 +37,17 @@ typedef struct hb_sampling_plan {
 	long sample_size;        /* units to inspect: table size, or the lot under 100 % */
 	bool full_inspection;    /* table size reached or exceeded the lot: inspect every unit */
 	int ac;                  /* accept the lot with <= ac nonconforming units in the sample */
-	int re;                  /* reject the lot with >= re nonconforming units */
+	int re;                  /* reject the lot with >= re nonconforming units; a reduced plan may
+				  * have re > ac + 1: ac < d < re accepts and reinstates normal */
+	bool uncertain;          /* the cell (or the plan its arrow leads to) is one the verified
+				  * reference leaves unsettled; uncertain_note says why */
+	const char *uncertain_note; /* static text, NULL when certain */
 } hb_sampling_plan;
 
 /*
- * Chooses the single sampling plan of ISO 2859-1 (same values as
- * ANSI/ASQ Z1.4) for a lot. aql must be one of the standard series
+ * Chooses the single sampling plan of MIL-STD-105E Tables I, II-A, II-B and
+ * II-C (the same as ISO 2859-1:1989 and ANSI/ASQ Z1.4 for these tables; the
+ * reduced table is 105E's, with Re - Ac up to 3) for a lot. aql must be one of the standard series
  * (hb_iso2859_aql_series); anything else, or lot_size < 2, gives HB_ERR_ARG
  * with a message in err naming the value and the accepted range.
  */
@@ -53,6 +58,11 @@ int hb_iso2859_plan(long lot_size, double aql, hb_insp_level level, hb_severity 
 char hb_iso2859_code_letter(long lot_size, hb_insp_level level);
 /* Sample size printed against a code letter in Table 2-A/B/C; 0 if none. */
 long hb_iso2859_sample_size(char letter, hb_severity severity);
+
+/* Ac of the normal plan one AQL step tighter in the same code letter row
+ * (the switching score of ISO 2859-1:1999 9.3.3 asks whether the lot would
+ * have been accepted there); -1 when that cell is an arrow or none. */
+int hb_iso2859_tighter_ac(char letter, double aql);
 
 /* The standard AQL series 0.010 ... 1000, ascending; returns its length. */
 size_t hb_iso2859_aql_series(const double **series);
@@ -74,6 +84,7 @@ typedef enum hb_lot_decision {
 	HB_LOT_CONTINUE, /* keep inspecting */
 	HB_LOT_ACCEPT,
 	HB_LOT_REJECT,
+	HB_LOT_ACCEPT_REINSTATE, /* reduced plan, ac < d < re: lot accepted, normal inspection reinstated */
 } hb_lot_decision;
 
 /*
@@ -81,7 +92,9 @@ typedef enum hb_lot_decision {
  * them nonconforming. Rejects as soon as nonconforming >= re (the lot can no
  * longer be accepted, and further testing adds only cost); accepts only once
  * the whole sample is inspected with nonconforming <= ac, as single
- * sampling prescribes (no curtailment on the acceptance side).
+ * sampling prescribes (no curtailment on the acceptance side); a whole
+ * sample with ac < nonconforming < re (reduced plans only) gives
+ * HB_LOT_ACCEPT_REINSTATE.
  * HB_ERR_ARG for impossible counts.
  */
 int hb_lot_decide(const hb_sampling_plan *plan, long units_tested, long nonconforming,

@@ -158,6 +158,24 @@ int hb_report_lot(hb_db *db, const char *part_number, const char *lot_code, FILE
 	else
 		snprintf(line, sizeof line, "no plan recorded");
 	hb_html_kv_row(h, "Sampling plan", line);
+	{
+		/* The lot stream's part of the record: who delivered the lot, and
+		 * a reduced lot accepted inside Ac < d < Re (normal reinstated). */
+		char supplier[HB_DB_ID_LEN] = "";
+		bool irregular = false;
+		if (hb_db_lot_get_stream(db, lot.id, supplier, sizeof supplier, &irregular) == HB_OK) {
+			hb_html_kv_row(h, "Supplier", supplier[0] ? supplier : "not named");
+			if (irregular)
+				hb_html_kv_row(h, "Production", "irregular or delayed (stated at inspection)");
+		}
+		long d = 0;
+		for (size_t i = 0; i < nr; i++)
+			d += recs[i].outcome == HB_DB_FAIL;
+		if (lot.decision == HB_DB_LOT_ACCEPT && strcmp(lot.severity, "reduced") == 0 && d > lot.accept_number &&
+		    d < lot.reject_number)
+			hb_html_kv_row(h, "Switching", "accepted with Ac < d < Re on reduced inspection: normal inspection is "
+						     "reinstated from the next lot (MIL-STD-105E Table II-C)");
+	}
 	hb_html_kv_row(h, "Opened", rpt_or_dash(lot.created));
 	hb_html_kv_row(h, "Decided", rpt_or_dash(lot.decided));
 	int passed = 0, failed = 0, skipped = 0, cond = 0, cond_nc = 0;
