@@ -246,3 +246,15 @@ DROP TABLE verdicts;
 ALTER TABLE verdicts_new RENAME TO verdicts;
 -- a lot's sample record: the unit's outcome was conditional (counted by the plan's stated policy)
 ALTER TABLE inspections ADD COLUMN conditional INTEGER NOT NULL DEFAULT 0;
+
+-- step 7: a log of deletions: what was deleted, when, by whom, why, and whether records that depended on it were overridden
+CREATE TABLE deletions (
+	id INTEGER PRIMARY KEY,
+	at_unix REAL NOT NULL,
+	at TEXT NOT NULL,
+	operator TEXT NOT NULL DEFAULT '',
+	host TEXT NOT NULL DEFAULT '',
+	what TEXT NOT NULL,
+	reason TEXT NOT NULL DEFAULT '',
+	forced INTEGER NOT NULL DEFAULT 0
+);

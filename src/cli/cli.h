@@ -203,4 +203,24 @@ extern const hb_cmd_opts hb_opts_export;
 extern const hb_cmd_opts hb_opts_import;
 extern const hb_cmd_opts hb_opts_completion;
 
+/* ================ store hygiene, deletions, watch (issue 15; cli_store.c, cmd_delete.c, cmd_watch.c) ================ */
+
+/* Opens the store named by --db in mode (hb_db_open_mode); NULL after the
+ * one-line error, *exit_code 2 when no store is at the path (read
+ * commands never create one), else 1. */
+struct hb_db *hb_cli_open_store_as(int mode, int *exit_code);
+/* The mode of read commands and dry runs: an existing store only. */
+struct hb_db *hb_cli_open_store_read(int *exit_code);
+/* HB_EXIT_OK, or HB_EXIT_RUNTIME after naming a store that cannot be written. */
+int hb_cli_check_writable(struct hb_db *db);
+
+/* `sweep delete ID` and `part delete PARTNO`. */
+int hb_cmd_sweep_delete(int argc, char **argv);
+int hb_cmd_part_delete(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_sweep_delete;
+extern const hb_cmd_opts hb_opts_part_delete;
+
+int hb_cmd_watch(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_watch;
+
 #endif

@@ -89,10 +89,8 @@ int hb_cmd_export(int argc, char **argv)
 	hb_db *db = NULL;
 	int exit_code = HB_EXIT_RUNTIME;
 	FILE *out = NULL;
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
-		hb_cli_error("%s", db ? hb_db_errmsg(db) : "out of memory");
+	if (!(db = hb_cli_open_store_read(&exit_code)))
 		goto done;
-	}
 	if (!ids) {
 		hb_db_sweep_filter f;
 		hb_db_sweep_filter_init(&f);

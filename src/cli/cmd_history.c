@@ -286,10 +286,8 @@ int hb_cmd_history(int argc, char **argv)
 	size_t n = 0;
 	hb_history_summary sum;
 	memset(&sum, 0, sizeof sum);
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
-		hb_cli_error("store: %s", db ? hb_db_errmsg(db) : "out of memory");
+	if (!(db = hb_cli_open_store_read(&exit_code)))
 		goto out;
-	}
 	hb_db_part part;
 	int rc = hb_db_part_get(db, f.part_number, &part);
 	if (rc == HB_ERR_NOTFOUND) {
@@ -651,10 +649,8 @@ int hb_cmd_compare(int argc, char **argv)
 	hb_compare_table t;
 	memset(&t, 0, sizeof t);
 	char err[320];
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
-		hb_cli_error("store: %s", db ? hb_db_errmsg(db) : "out of memory");
+	if (!(db = hb_cli_open_store_read(&exit_code)))
 		goto out;
-	}
 	int rc = hb_compare_load(db, ids, n, (size_t)n_currents, &t, err, sizeof err);
 	if (rc != HB_OK) {
 		hb_cli_error("compare: %s", err);

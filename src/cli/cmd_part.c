@@ -183,11 +183,12 @@ const hb_cmd_opts hb_opts_part = {
 	.usage = "add PARTNO --nominal L --tol T --freq F --level V|A [SPEC...]\n"
 		 "       henrybench part edit PARTNO [SPEC...]     (only the given fields change)\n"
 		 "       henrybench part list [--json]\n"
-		 "       henrybench part show PARTNO [--json]",
+		 "       henrybench part show PARTNO [--json]\n"
+		 "       henrybench part delete PARTNO [--reason TEXT] [--force]",
 	.about = "\nSpecs are entered as the datasheet states them; engineering notation is accepted.\n",
 	.opts = part_table,
 	.max_operands = -1,
-	.operands = "add list show edit",
+	.operands = "add list show edit delete",
 };
 
 /* argv[0] is the subcommand; *first is set to the first operand. Returns
@@ -347,9 +348,10 @@ static int part_list(int argc, char **argv)
 		hb_cli_error("part list takes no PARTNO (use 'henrybench part show PARTNO')");
 		return HB_EXIT_USAGE;
 	}
-	hb_db *db = hb_cli_open_store();
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = hb_cli_open_store_read(&open_exit);
 	if (!db)
-		return HB_EXIT_RUNTIME;
+		return open_exit;
 	hb_db_part *parts = NULL;
 	size_t n = 0;
 	if (hb_db_part_list(db, &parts, &n) != HB_OK) {
@@ -396,9 +398,10 @@ static int part_show(int argc, char **argv)
 		hb_cli_error("part show needs exactly one PARTNO");
 		return HB_EXIT_USAGE;
 	}
-	hb_db *db = hb_cli_open_store();
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = hb_cli_open_store_read(&open_exit);
 	if (!db)
-		return HB_EXIT_RUNTIME;
+		return open_exit;
 	hb_db_part p;
 	int status = hb_db_part_get(db, argv[first], &p);
 	if (status != HB_OK) {
@@ -481,6 +484,8 @@ int hb_cmd_part(int argc, char **argv)
 		return part_list(argc - 1, argv + 1);
 	if (strcmp(sub, "show") == 0)
 		return part_show(argc - 1, argv + 1);
-	hb_cli_error("part: unknown subcommand '%s' (accepted: add, list, show, edit)", sub);
+	if (strcmp(sub, "delete") == 0)
+		return hb_cmd_part_delete(argc - 1, argv + 1);
+	hb_cli_error("part: unknown subcommand '%s' (accepted: add, list, show, edit, delete)", sub);
 	return HB_EXIT_USAGE;
 }

@@ -63,12 +63,10 @@ int hb_cmd_report(int argc, char **argv)
 		return HB_EXIT_USAGE;
 	}
 
-	hb_db *db = NULL;
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
-		hb_cli_error("%s", db ? hb_db_errmsg(db) : "out of memory");
-		hb_db_close(db);
-		return HB_EXIT_RUNTIME;
-	}
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = hb_cli_open_store_read(&open_exit);
+	if (!db)
+		return open_exit;
 	/* Written beside the target and renamed, so a failed run never leaves
 	 * half a record where a complete one is expected. */
 	bool to_stdout = strcmp(out_path, "-") == 0;

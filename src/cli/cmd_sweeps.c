@@ -111,9 +111,10 @@ int hb_cmd_sweeps(int argc, char **argv)
 		return HB_EXIT_OK;
 	hb_db_sweep_filter f = a.f;
 	bool json = a.json;
-	hb_db *db = hb_cli_open_store();
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = hb_cli_open_store_read(&open_exit);
 	if (!db)
-		return HB_EXIT_RUNTIME;
+		return open_exit;
 	hb_db_sweep *list = NULL;
 	size_t n = 0;
 	if (hb_db_sweep_list(db, &f, &list, &n) != HB_OK) {
@@ -245,9 +246,10 @@ int hb_cmd_show(int argc, char **argv)
 		return HB_EXIT_USAGE;
 	}
 
-	hb_db *db = hb_cli_open_store();
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = hb_cli_open_store_read(&open_exit);
 	if (!db)
-		return HB_EXIT_RUNTIME;
+		return open_exit;
 	int exit_code = HB_EXIT_RUNTIME;
 	hb_db_sweep s;
 	hb_db_point *pts = NULL;
