@@ -220,6 +220,12 @@ int hb_cmd_part_delete(int argc, char **argv);
 extern const hb_cmd_opts hb_opts_sweep_delete;
 extern const hb_cmd_opts hb_opts_part_delete;
 
+/* --csv of `sweeps` and `compare` (cli_csv.c), through the one CSV writer. */
+struct hb_db_sweep;
+struct hb_compare_table;
+int hb_cli_sweeps_csv(const struct hb_db_sweep *list, size_t n, FILE *out);
+int hb_cli_compare_csv(const struct hb_compare_table *t, FILE *out);
+
 int hb_cmd_watch(int argc, char **argv);
 extern const hb_cmd_opts hb_opts_watch;
 

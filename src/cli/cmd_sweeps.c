@@ -71,7 +71,7 @@ static const char *const status_words[] = { "running", "complete", "aborted", "f
 
 typedef struct sweeps_args {
 	hb_db_sweep_filter f;
-	bool json;
+	bool json, csv;
 } sweeps_args;
 
 static const hb_opt sweeps_table[] = {
@@ -88,13 +88,15 @@ static const hb_opt sweeps_table[] = {
 	{ .name = "limit", .kind = HB_OPT_LONG, .arg = "N", .min = 1, .max = 100000000L,
 	  .off = offsetof(sweeps_args, f.limit), .help = "at most N sweeps" },
 	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(sweeps_args, json), .help = "machine-readable output" },
+	{ .name = "csv", .kind = HB_OPT_FLAG, .off = offsetof(sweeps_args, csv),
+	  .help = "one CSV row per sweep (RFC 4180, the dialect of export --csv)" },
 	{ .name = NULL },
 };
 
 const hb_cmd_opts hb_opts_sweeps = {
 	.name = "sweeps",
 	.usage = "[--part P] [--unit SERIAL] [--lot L] [--status S]\n"
-		 "                         [--kind bias|frequency] [--since DATE] [--limit N] [--json]",
+		 "                         [--kind bias|frequency] [--since DATE] [--limit N] [--json|--csv]",
 	.about = "\nLists stored sweeps, newest first.\n",
 	.opts = sweeps_table,
 	.max_operands = 0,
@@ -111,6 +113,10 @@ int hb_cmd_sweeps(int argc, char **argv)
 		return HB_EXIT_OK;
 	hb_db_sweep_filter f = a.f;
 	bool json = a.json;
+	if (a.json && a.csv) {
+		hb_cli_error("sweeps: give --json or --csv, not both");
+		return HB_EXIT_USAGE;
+	}
 	int open_exit = HB_EXIT_RUNTIME;
 	hb_db *db = hb_cli_open_store_read(&open_exit);
 	if (!db)
@@ -129,6 +135,15 @@ int hb_cmd_sweeps(int argc, char **argv)
 			json_array_append_new(arr, hb_json_sweep_summary(&list[i]));
 		hb_db_sweeps_free(list);
 		return hb_print_json(arr) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
+	}
+	if (a.csv) {
+		int crc = hb_cli_sweeps_csv(list, n, stdout);
+		hb_db_sweeps_free(list);
+		if (crc != HB_OK || fflush(stdout) != 0) {
+			hb_cli_error("sweeps: cannot write the CSV output");
+			return HB_EXIT_RUNTIME;
+		}
+		return HB_EXIT_OK;
 	}
 	printf("%8s  %-20s  %-20s  %-14s  %-9s  %-11s  %6s  %s\n", "id", "started (UTC)", "part", "unit", "kind",
 	       "status", "points", "station");
