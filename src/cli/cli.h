@@ -229,4 +229,8 @@ int hb_cli_compare_csv(const struct hb_compare_table *t, FILE *out);
 int hb_cmd_watch(int argc, char **argv);
 extern const hb_cmd_opts hb_opts_watch;
 
+/* `profile check` and `profile new` (cmd_profile.c): bring-up of a new instrument. */
+int hb_cmd_profile(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_profile;
+
 #endif

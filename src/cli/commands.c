@@ -20,6 +20,7 @@ const hb_command hb_commands[] = {
 	{ "report", hb_cmd_report, "write an HTML record of a sweep, a lot or a part (inline plots)", &hb_opts_report },
 	{ "export", hb_cmd_export, "stored sweeps as CSV or JSON, SI units in every column", &hb_opts_export },
 	{ "import", hb_cmd_import, "store a sweep a meter logged on its own (CSV), then fit it", &hb_opts_import },
+	{ "profile", hb_cmd_profile, "bring-up: check a profile against its instrument, start a new profile", &hb_opts_profile },
 	{ "watch", hb_cmd_watch, "follow a running sweep from another terminal (read-only) until it ends", &hb_opts_watch },
 	{ "completion", hb_cmd_completion, "print a bash completion script generated from the option tables", &hb_opts_completion },
 	{ NULL, NULL, NULL, NULL },
