@@ -92,6 +92,8 @@ static void test_reads_and_dry_runs_create_no_store(void **state)
 		{ "watch", "1", NULL },
 		{ "sweep", "delete", "1", NULL },
 		{ "part", "delete", "P", NULL },
+		{ "part", "edit", "P", "--tol", "5%", NULL },
+		{ "import", "/dev/null", "--part", "P", "--unit", "U", NULL },
 		{ "sweep", "--part", "P", "--unit", "U", "--lcr", "sim:lcr", "--supply", "sim:supply", "--to", "1",
 		  "--dry-run" },
 		{ "fsweep", "--part", "P", "--unit", "U", "--lcr", "sim:lcr", "--from", "1k", "--to", "1M", "--dry-run" },

@@ -211,12 +211,12 @@ int hb_cmd_import(int argc, char **argv)
 		return HB_EXIT_USAGE;
 	}
 	const char *path = argv[r.first];
-	hb_db *db = NULL;
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
-		hb_cli_error("%s", db ? hb_db_errmsg(db) : "out of memory");
-		hb_db_close(db);
-		return HB_EXIT_RUNTIME;
-	}
+	/* The part must be stored already: a store that is not there is a
+	 * mistyped --db, not a new empty one. */
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = hb_cli_open_store_read(&open_exit);
+	if (!db)
+		return open_exit;
 	hb_import_result res;
 	char err[600] = "";
 	int rc = hb_import_csv(db, path, &opt, &res, err, sizeof err);

@@ -293,9 +293,12 @@ static int part_write(int argc, char **argv, bool add)
 	if (e.core && toroid_effective(&e.p) != HB_OK)
 		return HB_EXIT_USAGE;
 
-	hb_db *db = hb_cli_open_store();
+	/* add may start a store; edit needs the part, so a store that is not
+	 * there is a mistyped --db */
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = add ? hb_cli_open_store() : hb_cli_open_store_read(&open_exit);
 	if (!db)
-		return HB_EXIT_RUNTIME;
+		return open_exit;
 	hb_db_part stored;
 	int status = hb_db_part_get(db, pn, &stored);
 	int exit_code = HB_EXIT_RUNTIME;
