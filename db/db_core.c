@@ -523,7 +523,23 @@ static void read_identity(hb_db *db)
 	}
 }
 
-static int open_at(const char *path, int target, hb_db **out)
+/* A read-only handle cannot migrate nor recover: it reads the store as it
+ * is, which must be the schema this program knows. */
+static int open_readonly_check(hb_db *db)
+{
+	int version = 0;
+	int status = read_user_version(db, &version);
+	if (status < 0)
+		return status;
+	int latest = hb_db_latest_version();
+	if (version != latest)
+		return db_error(db, HB_ERR_DB,
+				"%s has schema version %d, this henrybench reads %d: %s", db->path, version, latest,
+				version < latest ? "open it once with a writing command to migrate it" : "update henrybench");
+	return HB_OK;
+}
+
+static int open_at(const char *path, int target, hb_db_open_mode mode, hb_db **out)
 {
 	if (!out)
 		return HB_ERR_ARG;
@@ -550,7 +566,16 @@ static int open_at(const char *path, int target, hb_db **out)
 		return db_error(db, HB_ERR_NOMEM, "out of memory opening the store");
 	read_identity(db);
 
-	int rc = sqlite3_open_v2(path, &db->conn, SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE, NULL);
+	/* A read command, a dry run or a watcher never creates a store: a
+	 * mistyped path is an error, not a new empty file. */
+	struct stat sb;
+	if (mode != HB_DB_OPEN_CREATE && stat(path, &sb) != 0)
+		return db_error(db, errno == ENOENT ? HB_ERR_NOTFOUND : HB_ERR_IO,
+				"no store at %s (%s); this command creates none: check --db or HENRYBENCH_DB", path,
+				strerror(errno));
+	int flags = mode == HB_DB_OPEN_READONLY ? SQLITE_OPEN_READONLY :
+		    mode == HB_DB_OPEN_EXISTING ? SQLITE_OPEN_READWRITE : SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE;
+	int rc = sqlite3_open_v2(path, &db->conn, flags, NULL);
 	if (rc != SQLITE_OK) {
 		db_error(db, HB_ERR_DB, "cannot open store %s: %s", path,
 			 db->conn ? sqlite3_errmsg(db->conn) : sqlite3_errstr(rc));
@@ -558,6 +583,8 @@ static int open_at(const char *path, int target, hb_db **out)
 	}
 	sqlite3_extended_result_codes(db->conn, 1);
 	sqlite3_busy_timeout(db->conn, DB_BUSY_TIMEOUT_MS);
+	if (mode == HB_DB_OPEN_READONLY)
+		return open_readonly_check(db);
 
 	int status = set_wal(db);
 	if (status < 0)
@@ -583,14 +610,38 @@ static int open_at(const char *path, int target, hb_db **out)
 
 int hb_db_open(const char *path, hb_db **out)
 {
-	return open_at(path, 0, out);
+	return open_at(path, 0, HB_DB_OPEN_CREATE, out);
+}
+
+int hb_db_open_as(const char *path, hb_db_open_mode mode, hb_db **out)
+{
+	return open_at(path, 0, mode, out);
+}
+
+int hb_db_check_writable(hb_db *db)
+{
+	if (!db || !db->conn)
+		return HB_ERR_ARG;
+	if (sqlite3_db_readonly(db->conn, "main") == 1)
+		return db_error(db, HB_ERR_IO, "store %s is read-only: nothing could be stored", db->path);
+	/* Taking the write lock is what a point's commit will do first. */
+	int rc = sqlite3_exec(db->conn, "BEGIN IMMEDIATE", NULL, NULL, NULL);
+	if (rc != SQLITE_OK) {
+		int status = db_fail(db, rc, "checking the store can be written");
+		if ((rc & 0xff) == SQLITE_READONLY || (rc & 0xff) == SQLITE_CANTOPEN || (rc & 0xff) == SQLITE_PERM)
+			status = db_error(db, HB_ERR_IO, "store %s cannot be written (%s): nothing could be stored",
+					  db->path, sqlite3_errmsg(db->conn));
+		return status;
+	}
+	sqlite3_exec(db->conn, "ROLLBACK", NULL, NULL, NULL);
+	return HB_OK;
 }
 
 int hb_db_open_version(const char *path, int version, hb_db **out)
 {
 	if (version <= 0)
 		return out ? (*out = NULL, HB_ERR_ARG) : HB_ERR_ARG;
-	int rc = open_at(path, version, out);
+	int rc = open_at(path, version, HB_DB_OPEN_CREATE, out);
 	if (*out && version < hb_db_latest_version())
 		(*out)->old_version = version;
 	return rc;

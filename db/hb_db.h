@@ -583,5 +583,53 @@ int hb_db_stream_event_add(hb_db *db, int64_t part_id, const char *supplier, hb_
 /* Oldest first. */
 int hb_db_stream_events(hb_db *db, int64_t part_id, const char *supplier, hb_db_stream_event **out, size_t *count);
 void hb_db_stream_events_free(hb_db_stream_event *events);
+/* ================ store hygiene: open modes, writability, deletions (issue 15) ================ */
+
+/* CREATE: as hb_db_open. EXISTING: read and write, never creates (a missing
+ * file is HB_ERR_NOTFOUND naming the path). READONLY: never writes: no
+ * migration, no recovery (a store at another schema is HB_ERR_DB). */
+typedef enum { HB_DB_OPEN_CREATE = 0, HB_DB_OPEN_EXISTING, HB_DB_OPEN_READONLY } hb_db_open_mode;
+int hb_db_open_as(const char *path, hb_db_open_mode mode, hb_db **out);
+/* HB_OK if a write transaction can be begun now (checked before any
+ * instrument is opened); HB_ERR_IO naming the store if it is read-only. */
+int hb_db_check_writable(hb_db *db);
+
+/* What depends on a sweep: its points, fits, verdicts, and lot inspection
+ * records (sample positions of a lot) that name it. */
+typedef struct hb_db_sweep_deps {
+	long points, fits, verdicts, inspections;
+} hb_db_sweep_deps;
+int hb_db_sweep_dependents(hb_db *db, int64_t sweep_id, hb_db_sweep_deps *out);
+
+/* What depends on a part: its units, lots (decided ones among them), the
+ * sweeps of its units, their verdicts and its lots' inspection records. */
+typedef struct hb_db_part_deps {
+	long units, lots, decided_lots, sweeps, verdicts, inspections;
+} hb_db_part_deps;
+int hb_db_part_dependents(hb_db *db, int64_t part_id, hb_db_part_deps *out);
+
+/* One entry of the deletions log. */
+typedef struct hb_db_deletion {
+	int64_t id;
+	double at;
+	char at_iso[HB_DB_TIME_LEN];
+	char operator_name[HB_DB_ID_LEN];
+	char host[HB_DB_ID_LEN];
+	char what[HB_DB_TEXT_LEN];
+	char reason[HB_DB_NOTE_LEN];
+	bool forced;
+} hb_db_deletion;
+
+/* Deletes the sweep with its points, fits and verdicts in one transaction;
+ * inspection records naming it keep their outcome and lose the link (their
+ * note says so). Writes the log entry (operator, reason, forced; what and
+ * time are filled by the store). HB_ERR_NOTFOUND for an unknown id. */
+int hb_db_sweep_delete(hb_db *db, int64_t sweep_id, const hb_db_deletion *log);
+/* Deletes the part with its lots, units, their sweeps and inspection
+ * records in one transaction, and writes the log entry. */
+int hb_db_part_delete(hb_db *db, int64_t part_id, const hb_db_deletion *log);
+/* Oldest first. */
+int hb_db_deletion_list(hb_db *db, hb_db_deletion **out, size_t *count);
+void hb_db_deletions_free(hb_db_deletion *list);
 
 #endif

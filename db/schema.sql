@@ -460,3 +460,14 @@ CREATE TABLE stream_events (
 	at_unix REAL NOT NULL
 );
 CREATE INDEX stream_events_stream ON stream_events(part_id, supplier);
+-- step 11: a log of deletions: what was deleted, when, by whom, why, and whether records that depended on it were overridden
+CREATE TABLE deletions (
+	id INTEGER PRIMARY KEY,
+	at_unix REAL NOT NULL,
+	at TEXT NOT NULL,
+	operator TEXT NOT NULL DEFAULT '',
+	host TEXT NOT NULL DEFAULT '',
+	what TEXT NOT NULL,
+	reason TEXT NOT NULL DEFAULT '',
+	forced INTEGER NOT NULL DEFAULT 0
+);

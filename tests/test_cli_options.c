@@ -341,7 +341,7 @@ static void test_completion_lists_every_command_and_option(void **state)
 		{ "henrybench sweep --aper", 2, "--aperture" },
 		{ "henrybench sweep --aperture ''", 3, "short medium long" },
 		{ "henrybench --db x.db inspect --severity t", 5, "tightened" },
-		{ "henrybench part ''", 2, "add list show edit" },
+		{ "henrybench part ''", 2, "add list show edit delete" },
 		{ "henrybench compl", 1, "completion" },
 	};
 	for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {

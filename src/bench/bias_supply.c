@@ -340,3 +340,29 @@ int hb_bias_shutdown(hb_bias *b, hb_bias_shutdown_report *r)
 	b->state = HB_BIAS_OFF;
 	return HB_OK;
 }
+
+int hb_bias_reset_when_off(hb_bias *b)
+{
+	if (!b)
+		return HB_ERR_ARG;
+	if (b->state != HB_BIAS_OFF)
+		return fail(b, HB_ERR_ARG, "reset only with the output off (state %s)", hb_bias_state_name(b->state));
+	double amps = NAN;
+	int rc = hb_supply_measure_current(b->supply, &amps);
+	if (rc != HB_OK)
+		return fail(b, rc, "current read-back before reset: %s", hb_supply_errmsg(b->supply));
+	if (!(fabs(amps) < b->cfg.off_threshold))
+		return fail(b, HB_ERR_INSTRUMENT, "%.4g A still flows with the output off: no reset", amps);
+	rc = hb_supply_reset(b->supply);
+	if (rc != HB_OK)
+		return fail(b, rc, "reset: %s", hb_supply_errmsg(b->supply));
+	b->setpoint = NAN;
+	b->setpoint_known = false;
+	bool on = false;
+	if (hb_supply_output_state(b->supply, &on) == HB_OK && on) {
+		/* Whatever the reset did, the shut-down must run again. */
+		b->state = HB_BIAS_IDLE;
+		return fail(b, HB_ERR_INSTRUMENT, "the supply's reset left its output on");
+	}
+	return HB_OK;
+}

@@ -81,4 +81,10 @@ typedef struct hb_bias_shutdown_report {
  * off, else the link status (current may then still flow). */
 int hb_bias_shutdown(hb_bias *bias, hb_bias_shutdown_report *report);
 
+/* Sends the supply's reset (profile 'reset', else *RST), only in state OFF
+ * and only once the read-back shows no current (below off_threshold): a
+ * reset switches the output as the instrument likes. Afterwards the
+ * output must read back off, else HB_ERR_INSTRUMENT. */
+int hb_bias_reset_when_off(hb_bias *bias);
+
 #endif

@@ -242,5 +242,34 @@ extern const hb_cmd_opts hb_opts_manpage_cmd;
 /* ---------------- lot streams (switching rules) ---------------- */
 int hb_cmd_stream(int argc, char **argv);
 extern const hb_cmd_opts hb_opts_stream;
+/* ================ store hygiene, deletions, watch (issue 15; cli_store.c, cmd_delete.c, cmd_watch.c) ================ */
+
+/* Opens the store named by --db in mode (hb_db_open_mode); NULL after the
+ * one-line error, *exit_code 2 when no store is at the path (read
+ * commands never create one), else 1. */
+struct hb_db *hb_cli_open_store_as(int mode, int *exit_code);
+/* The mode of read commands and dry runs: an existing store only. */
+struct hb_db *hb_cli_open_store_read(int *exit_code);
+/* HB_EXIT_OK, or HB_EXIT_RUNTIME after naming a store that cannot be written. */
+int hb_cli_check_writable(struct hb_db *db);
+
+/* `sweep delete ID` and `part delete PARTNO`. */
+int hb_cmd_sweep_delete(int argc, char **argv);
+int hb_cmd_part_delete(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_sweep_delete;
+extern const hb_cmd_opts hb_opts_part_delete;
+
+/* --csv of `sweeps` and `compare` (cli_csv.c), through the one CSV writer. */
+struct hb_db_sweep;
+struct hb_compare_table;
+int hb_cli_sweeps_csv(const struct hb_db_sweep *list, size_t n, FILE *out);
+int hb_cli_compare_csv(const struct hb_compare_table *t, FILE *out);
+
+int hb_cmd_watch(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_watch;
+
+/* `profile check` and `profile new` (cmd_profile.c): bring-up of a new instrument. */
+int hb_cmd_profile(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_profile;
 
 #endif

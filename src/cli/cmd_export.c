@@ -89,10 +89,8 @@ int hb_cmd_export(int argc, char **argv)
 	hb_db *db = NULL;
 	int exit_code = HB_EXIT_RUNTIME;
 	FILE *out = NULL;
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
-		hb_cli_error("%s", db ? hb_db_errmsg(db) : "out of memory");
+	if (!(db = hb_cli_open_store_read(&exit_code)))
 		goto done;
-	}
 	if (!ids) {
 		hb_db_sweep_filter f;
 		hb_db_sweep_filter_init(&f);
@@ -169,19 +167,24 @@ static const hb_opt import_table[] = {
 	{ .name = "note", .kind = HB_OPT_TEXT, .arg = "TEXT", .off = offsetof(import_args, opt.note),
 	  .help = "added to the sweep's note" },
 	{ .name = "no-fit", .kind = HB_OPT_FLAG, .off = offsetof(import_args, no_fit), .help = "store only" },
+	{ .name = "skip", .kind = HB_OPT_INT, .arg = "N", .min = 0, .max = 1000000, .off = offsetof(import_args, opt.skip_lines),
+	  .help = "lines above the header (default: the first line that reads as a header)" },
 	{ .name = NULL },
 };
 
 const hb_cmd_opts hb_opts_import = {
 	.name = "import",
 	.usage = "FILE.csv --part P --unit SERIAL [--lot L] [--kind bias|frequency]\n"
-		 "                         [--columns ROLE=COLUMN,...] [--freq F] [--note TEXT] [--no-fit]",
+		 "                         [--columns ROLE=COLUMN,...] [--freq F] [--skip N] [--note TEXT] [--no-fit]",
 	.about = "\nStores a sweep a meter logged on its own as one complete sweep (station \"import\"),\n"
 		 "then fits and judges it. Comma, semicolon or tab delimited (detected), one header row.\n"
 		 "Columns are found by header name (current/bias/I, inductance/L/Ls, frequency/f,\n"
 		 "resistance/R/Rs/ESR, supply/voltage/V, bias_measured, direction); a unit in the header,\n"
 		 "\"L (uH)\" or \"I[mA]\", scales bare numbers; cells may carry their own unit (\"2.5A\",\n"
-		 "\"100uH\"). A malformed row is reported by line and column and nothing is stored.\n",
+		 "\"100uH\"). A malformed row is reported by line and column and nothing is stored.\n"
+		 "Metadata lines above the header are skipped (said on stderr); UTF-8 with or without a\n"
+		 "BOM and UTF-16 are read. A bias sweep of a part with a spec frequency needs a frequency\n"
+		 "column or --freq: the L0 check holds only at that frequency.\n",
 	.opts = import_table,
 	.max_operands = -1,
 };
@@ -208,12 +211,12 @@ int hb_cmd_import(int argc, char **argv)
 		return HB_EXIT_USAGE;
 	}
 	const char *path = argv[r.first];
-	hb_db *db = NULL;
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
-		hb_cli_error("%s", db ? hb_db_errmsg(db) : "out of memory");
-		hb_db_close(db);
-		return HB_EXIT_RUNTIME;
-	}
+	/* The part must be stored already: a store that is not there is a
+	 * mistyped --db, not a new empty one. */
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = hb_cli_open_store_read(&open_exit);
+	if (!db)
+		return open_exit;
 	hb_import_result res;
 	char err[600] = "";
 	int rc = hb_import_csv(db, path, &opt, &res, err, sizeof err);
@@ -223,6 +226,11 @@ int hb_cmd_import(int argc, char **argv)
 		exit_code = rc == HB_ERR_ARG || rc == HB_ERR_DATA || rc == HB_ERR_NOTFOUND ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
 		goto out;
 	}
+	if (res.header_line > 1)
+		fprintf(stderr, "henrybench: import: header on line %d of %s; the %d line%s above it skipped\n", res.header_line,
+			path, res.header_line - 1, res.header_line == 2 ? "" : "s");
+	if (res.encoding && strncmp(res.encoding, "UTF-16", 6) == 0)
+		fprintf(stderr, "henrybench: import: %s read as %s, converted to UTF-8\n", path, res.encoding);
 	printf("imported %s: %zu points as %s sweep %lld of %s unit %s (delimiter '%s')\n", path, res.n_points,
 	       hb_db_sweep_kind_name(res.kind), (long long)res.sweep_id, opt.part_number, opt.serial,
 	       res.delimiter == '\t' ? "\\t" : res.delimiter == ';' ? ";" : ",");

@@ -175,9 +175,22 @@ int hb_cmd_fit(int argc, char **argv)
 		hb_cli_error("out of memory");
 		return HB_EXIT_RUNTIME;
 	}
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
-		hb_cli_error("store: %s", db ? hb_db_errmsg(db) : "out of memory");
+	/* Fitting needs a stored sweep: a missing store is a mistyped --db. */
+	if (!(db = hb_cli_open_store_read(&exit_code)))
 		goto out;
+	exit_code = HB_EXIT_RUNTIME;
+	if (!isnan(opt.fix_mu_i) || !isnan(opt.fix_gap) || !isnan(opt.fix_bsat)) {
+		hb_db_sweep *sw = calloc(1, sizeof *sw);
+		bool freq = sw && hb_db_sweep_get(db, (int64_t)id, sw) == HB_OK && sw->kind == HB_DB_SWEEP_FREQUENCY;
+		free(sw);
+		if (freq) {
+			/* Said, not ignored: the frequency model has no core parameters to hold. */
+			hb_cli_error("fit: --fix holds a core parameter of the bias-sweep model; it does not apply to "
+				     "frequency sweep %lld",
+				     id);
+			exit_code = HB_EXIT_USAGE;
+			goto out;
+		}
 	}
 	int rc = hb_analysis_sweep(db, (int64_t)id, &opt, an);
 	if (rc == HB_ERR_NOTFOUND) {

@@ -293,10 +293,8 @@ int hb_cmd_history(int argc, char **argv)
 	size_t n = 0;
 	hb_history_summary sum;
 	memset(&sum, 0, sizeof sum);
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
-		hb_cli_error("store: %s", db ? hb_db_errmsg(db) : "out of memory");
+	if (!(db = hb_cli_open_store_read(&exit_code)))
 		goto out;
-	}
 	hb_db_part part;
 	int rc = hb_db_part_get(db, f.part_number, &part);
 	if (rc == HB_ERR_NOTFOUND) {
@@ -628,13 +626,15 @@ static int write_overlay(hb_db *db, const int64_t *ids, size_t n, const char *pa
 }
 
 typedef struct compare_args {
-	bool json;
+	bool json, csv;
 	const char *plot_path;
 	long n_currents;
 } compare_args;
 
 static const hb_opt compare_table[] = {
 	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(compare_args, json), .help = "one JSON object on stdout" },
+	{ .name = "csv", .kind = HB_OPT_FLAG, .off = offsetof(compare_args, csv),
+	  .help = "one CSV row per sweep, SI units named in the header" },
 	{ .name = "currents", .kind = HB_OPT_LONG, .arg = "N", .min = 2, .max = HB_COMPARE_MAX_CURRENTS,
 	  .off = offsetof(compare_args, n_currents), .help = "common currents L is read at (default 6)" },
 	{ .name = "plot", .kind = HB_OPT_PATH, .arg = "FILE.svg", .off = offsetof(compare_args, plot_path),
@@ -644,7 +644,7 @@ static const hb_opt compare_table[] = {
 
 const hb_cmd_opts hb_opts_compare = {
 	.name = "compare",
-	.usage = "SWEEP_ID SWEEP_ID... [--currents N] [--plot FILE.svg] [--json]",
+	.usage = "SWEEP_ID SWEEP_ID... [--currents N] [--plot FILE.svg] [--json|--csv]",
 	.about = "Bias sweeps side by side: L0, currents at -10/-20/-30 % L, mu_e, gap and verdict from the\n"
 		 "newest fit, and L read at N common currents spread over the range every sweep covers.\n",
 	.opts = compare_table,
@@ -653,12 +653,16 @@ const hb_cmd_opts hb_opts_compare = {
 
 int hb_cmd_compare(int argc, char **argv)
 {
-	compare_args a = { .json = false, .plot_path = NULL, .n_currents = 6 };
+	compare_args a = { .json = false, .csv = false, .plot_path = NULL, .n_currents = 6 };
 	hb_opts_result r;
 	if (hb_opts_parse(&hb_opts_compare, argc, argv, &a, &r) != HB_OK)
 		return HB_EXIT_USAGE;
 	if (r.done)
 		return HB_EXIT_OK;
+	if (a.json && a.csv) {
+		hb_cli_error("compare: give --json or --csv, not both");
+		return HB_EXIT_USAGE;
+	}
 	bool json = a.json;
 	const char *plot_path = a.plot_path;
 	long n_currents = a.n_currents;
@@ -680,10 +684,8 @@ int hb_cmd_compare(int argc, char **argv)
 	hb_compare_table t;
 	memset(&t, 0, sizeof t);
 	char err[320];
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
-		hb_cli_error("store: %s", db ? hb_db_errmsg(db) : "out of memory");
+	if (!(db = hb_cli_open_store_read(&exit_code)))
 		goto out;
-	}
 	int rc = hb_compare_load(db, ids, n, (size_t)n_currents, &t, err, sizeof err);
 	if (rc != HB_OK) {
 		hb_cli_error("compare: %s", err);
@@ -693,6 +695,11 @@ int hb_cmd_compare(int argc, char **argv)
 	if (json) {
 		if (hb_print_json(hb_compare_json(&t)) != HB_OK) {
 			hb_cli_error("compare: cannot write the JSON output");
+			goto out;
+		}
+	} else if (a.csv) {
+		if (hb_cli_compare_csv(&t, stdout) != HB_OK) {
+			hb_cli_error("compare: cannot write the CSV output");
 			goto out;
 		}
 	} else {

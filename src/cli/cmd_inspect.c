@@ -459,6 +459,20 @@ int hb_cmd_inspect(int argc, char **argv)
 		exit_code = rc;
 		goto out;
 	}
+	/* Before the question, the cautions and the links. */
+	if (hb_cli_check_writable(db) != HB_EXIT_OK)
+		goto out;
+	/* A decided lot's size is part of its decision: a different --lot-size
+	 * is a mistake to name, not a value to ignore. */
+	hb_db_lot decided;
+	if (hb_db_lot_find(db, part.id, a.lot, &decided) == HB_OK && decided.decision != HB_DB_LOT_OPEN &&
+	    decided.lot_size > 0 && decided.lot_size != a.lot_size) {
+		hb_cli_error("inspect: lot %s was decided (%s on %s) with lot size %ld; --lot-size %ld would change a "
+			     "decided lot: refused",
+			     a.lot, hb_db_lot_decision_name(decided.decision), decided.decided, decided.lot_size, a.lot_size);
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	}
 	rc = choose_severity(db, &part, &a);
 	if (rc != HB_EXIT_OK) {
 		exit_code = rc;

@@ -221,11 +221,12 @@ const hb_cmd_opts hb_opts_part = {
 	.usage = "add PARTNO --nominal L --tol T --freq F --level V|A [SPEC...]\n"
 		 "       henrybench part edit PARTNO [SPEC...]     (only the given fields change)\n"
 		 "       henrybench part list [--json]\n"
-		 "       henrybench part show PARTNO [--json]",
+		 "       henrybench part show PARTNO [--json]\n"
+		 "       henrybench part delete PARTNO [--reason TEXT] [--force]",
 	.about = "\nSpecs are entered as the datasheet states them; engineering notation is accepted.\n",
 	.opts = part_table,
 	.max_operands = -1,
-	.operands = "add list show edit",
+	.operands = "add list show edit delete",
 };
 
 /* argv[0] is the subcommand; *first is set to the first operand. Returns
@@ -375,9 +376,12 @@ static int part_write(int argc, char **argv, bool add)
 	if (e.core && (e.core_set ? set_effective(&e) : toroid_effective(&e.p)) != HB_OK)
 		return HB_EXIT_USAGE;
 
-	hb_db *db = hb_cli_open_store();
+	/* add may start a store; edit needs the part, so a store that is not
+	 * there is a mistyped --db */
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = add ? hb_cli_open_store() : hb_cli_open_store_read(&open_exit);
 	if (!db)
-		return HB_EXIT_RUNTIME;
+		return open_exit;
 	hb_db_part stored;
 	int status = hb_db_part_get(db, pn, &stored);
 	int exit_code = HB_EXIT_RUNTIME;
@@ -440,9 +444,10 @@ static int part_list(int argc, char **argv)
 		hb_cli_error("part list takes no PARTNO (use 'henrybench part show PARTNO')");
 		return HB_EXIT_USAGE;
 	}
-	hb_db *db = hb_cli_open_store();
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = hb_cli_open_store_read(&open_exit);
 	if (!db)
-		return HB_EXIT_RUNTIME;
+		return open_exit;
 	hb_db_part *parts = NULL;
 	size_t n = 0;
 	if (hb_db_part_list(db, &parts, &n) != HB_OK) {
@@ -498,9 +503,10 @@ static int part_show(int argc, char **argv)
 		hb_cli_error("part show needs exactly one PARTNO");
 		return HB_EXIT_USAGE;
 	}
-	hb_db *db = hb_cli_open_store();
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = hb_cli_open_store_read(&open_exit);
 	if (!db)
-		return HB_EXIT_RUNTIME;
+		return open_exit;
 	hb_db_part p;
 	hb_db_part_core cs;
 	char pnbuf[HB_DB_ID_LEN];
@@ -614,6 +620,8 @@ int hb_cmd_part(int argc, char **argv)
 		return part_list(argc - 1, argv + 1);
 	if (strcmp(sub, "show") == 0)
 		return part_show(argc - 1, argv + 1);
-	hb_cli_error("part: unknown subcommand '%s' (accepted: add, list, show, edit)", sub);
+	if (strcmp(sub, "delete") == 0)
+		return hb_cmd_part_delete(argc - 1, argv + 1);
+	hb_cli_error("part: unknown subcommand '%s' (accepted: add, list, show, edit, delete)", sub);
 	return HB_EXIT_USAGE;
 }

@@ -66,12 +66,10 @@ int hb_cmd_report(int argc, char **argv)
 		return HB_EXIT_USAGE;
 	}
 
-	hb_db *db = NULL;
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
-		hb_cli_error("%s", db ? hb_db_errmsg(db) : "out of memory");
-		hb_db_close(db);
-		return HB_EXIT_RUNTIME;
-	}
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = hb_cli_open_store_read(&open_exit);
+	if (!db)
+		return open_exit;
 	char part_buf[HB_DB_ID_LEN], lot_buf[HB_DB_ID_LEN], lot_part[HB_DB_ID_LEN];
 	if (lot)
 		lot = hb_cli_lot_code(lot, lot_buf, sizeof lot_buf, lot_part, sizeof lot_part, &part);

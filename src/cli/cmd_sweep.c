@@ -138,7 +138,8 @@ static const hb_opt fsweep_table[] = {
 
 const hb_cmd_opts hb_opts_sweep = {
 	.name = "sweep",
-	.usage = "--part P --unit SERIAL --lcr RES --supply RES --to CURRENT [options]",
+	.usage = "--part P --unit SERIAL --lcr RES --supply RES --to CURRENT [options]\n"
+		 "       henrybench sweep delete ID [--reason TEXT] [--force]   (see 'sweep delete --help')",
 	.about = "Steps the DC bias through the part and reads its incremental inductance at each step.\n",
 	.opts = sweep_table,
 	.max_operands = 0,
@@ -327,6 +328,11 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 		exit_code = HB_EXIT_OK;
 		goto out;
 	}
+	/* Before the question, the cautions and the links: a store that cannot
+	 * take the points must stop the sweep before anything is energised. */
+	if ((exit_code = hb_cli_check_writable(db)) != HB_EXIT_OK)
+		goto out;
+	exit_code = HB_EXIT_RUNTIME;
 	if (confirm(&a, &station) != HB_OK) {
 		exit_code = HB_EXIT_USAGE;
 		goto out;
@@ -394,6 +400,8 @@ out:
 
 int hb_cmd_sweep(int argc, char **argv)
 {
+	if (argc >= 2 && strcmp(argv[1], "delete") == 0)
+		return hb_cmd_sweep_delete(argc - 1, argv + 1);
 	return run_sweep_command(argc, argv, false);
 }
 

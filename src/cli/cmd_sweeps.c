@@ -71,7 +71,7 @@ static const char *const status_words[] = { "running", "complete", "aborted", "f
 
 typedef struct sweeps_args {
 	hb_db_sweep_filter f;
-	bool json, all;
+	bool json, csv, all;
 } sweeps_args;
 
 /* Without --limit or --all: the newest this many (a store of tens of
@@ -93,13 +93,15 @@ static const hb_opt sweeps_table[] = {
 	  .off = offsetof(sweeps_args, f.limit), .help = "at most N sweeps (default 50)" },
 	{ .name = "all", .kind = HB_OPT_FLAG, .off = offsetof(sweeps_args, all), .help = "every matching sweep, no limit" },
 	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(sweeps_args, json), .help = "machine-readable output" },
+	{ .name = "csv", .kind = HB_OPT_FLAG, .off = offsetof(sweeps_args, csv),
+	  .help = "one CSV row per sweep (RFC 4180, the dialect of export --csv)" },
 	{ .name = NULL },
 };
 
 const hb_cmd_opts hb_opts_sweeps = {
 	.name = "sweeps",
 	.usage = "[--part P] [--unit SERIAL] [--lot L] [--status S]\n"
-		 "                         [--kind bias|frequency] [--since DATE] [--limit N | --all] [--json]",
+		 "                         [--kind bias|frequency] [--since DATE] [--limit N | --all] [--json|--csv]",
 	.about = "\nLists stored sweeps, newest first: the newest 50 unless --limit or --all says otherwise\n"
 		 "(a note on stderr says how many matched).\n",
 	.opts = sweeps_table,
@@ -117,9 +119,14 @@ int hb_cmd_sweeps(int argc, char **argv)
 		return HB_EXIT_OK;
 	hb_db_sweep_filter f = a.f;
 	bool json = a.json;
-	hb_db *db = hb_cli_open_store();
+	if (a.json && a.csv) {
+		hb_cli_error("sweeps: give --json or --csv, not both");
+		return HB_EXIT_USAGE;
+	}
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = hb_cli_open_store_read(&open_exit);
 	if (!db)
-		return HB_EXIT_RUNTIME;
+		return open_exit;
 	if (a.all && f.limit > 0) {
 		hb_db_close(db);
 		hb_cli_error("sweeps: --all and --limit %ld contradict each other; give one", f.limit);
@@ -154,6 +161,15 @@ int hb_cmd_sweeps(int argc, char **argv)
 		return hb_print_json(arr) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	}
 	hb_db_close(db);
+	if (a.csv) {
+		int crc = hb_cli_sweeps_csv(list, n, stdout);
+		hb_db_sweeps_free(list);
+		if (crc != HB_OK || fflush(stdout) != 0) {
+			hb_cli_error("sweeps: cannot write the CSV output");
+			return HB_EXIT_RUNTIME;
+		}
+		return HB_EXIT_OK;
+	}
 	printf("%8s  %-20s  %-20s  %-14s  %-9s  %-11s  %6s  %s\n", "id", "started (UTC)", "part", "unit", "kind",
 	       "status", "points", "station");
 	for (size_t i = 0; i < n; i++) {
@@ -328,9 +344,10 @@ int hb_cmd_show(int argc, char **argv)
 	if (hb_cli_parse_sweep_id(argv[r.first], &id) != HB_OK)
 		return HB_EXIT_USAGE;
 
-	hb_db *db = hb_cli_open_store();
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = hb_cli_open_store_read(&open_exit);
 	if (!db)
-		return HB_EXIT_RUNTIME;
+		return open_exit;
 	int exit_code = HB_EXIT_RUNTIME;
 	hb_db_sweep s;
 	hb_db_point *pts = NULL;

@@ -49,10 +49,12 @@ int hb_sweep_opts_take_spacing(const hb_opt *o, const char *text, void *field)
 
 int hb_sweep_opts_open_part(const char *part_number, hb_db **db, hb_db_part *part)
 {
-	int rc = hb_db_open(hb_global.db_path, db);
+	/* A sweep needs a stored part, so a store that is not there is a
+	 * mistyped --db: named, and no empty store left behind (dry runs too). */
+	int rc = hb_db_open_as(hb_global.db_path, HB_DB_OPEN_EXISTING, db);
 	if (rc != HB_OK) {
 		hb_cli_error("store: %s", *db ? hb_db_errmsg(*db) : "out of memory");
-		return HB_EXIT_RUNTIME;
+		return rc == HB_ERR_NOTFOUND ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
 	}
 	rc = hb_db_part_get(*db, part_number, part);
 	if (rc == HB_ERR_NOTFOUND) {

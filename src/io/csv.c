@@ -150,11 +150,6 @@ int csv_parse(const char *s, size_t len, char delim, csv_table *t, char *err, si
 			t->rec[t->n++] = (csv_record){ .line = rec_line, .nf = nf, .field = fields };
 			fields = NULL;
 			fcap = 0;
-			if (t->n > MAX_IMPORT_ROWS) {
-				hb_set_err(err, errlen, "line %d: more than %d rows; not one sweep", rec_line, MAX_IMPORT_ROWS);
-				rc = HB_ERR_ARG;
-				goto out;
-			}
 		} else {
 			for (size_t k = 0; k < nf; k++)
 				free(fields[k]);

@@ -44,6 +44,7 @@ void hb_import_options_init(hb_import_options *opt)
 	opt->kind = -1;
 	opt->test_freq_hz = NAN;
 	opt->analyse = true;
+	opt->skip_lines = -1;
 }
 
 const char *hb_import_role_name(hb_import_role role)
@@ -166,6 +167,11 @@ static int parse_cell(const char *cell, hb_import_role role, double scale, char 
 	}
 	/* A unit in the header scales bare numbers only: "100" under "L (uH)". */
 	*out = plain_number(text) ? v * scale : v;
+	/* Checked again after scaling: "1e300" under "(TH)" is no number. */
+	if (!isfinite(*out)) {
+		snprintf(why, whylen, "'%s' scaled by the header's unit is not a finite number", text);
+		return HB_ERR_ARG;
+	}
 	return HB_OK;
 }
 
@@ -275,11 +281,6 @@ static int read_file(const char *path, char **data, size_t *len, char *err, size
 	int rc = HB_OK;
 	while (buf) {
 		if (n + 1 >= cap) {
-			if (cap >= MAX_IMPORT_BYTES) {
-				hb_set_err(err, errlen, "%s is larger than %d MiB: not one sweep", path, MAX_IMPORT_BYTES >> 20);
-				rc = HB_ERR_ARG;
-				break;
-			}
 			char *b = realloc(buf, cap * 2);
 			if (!b)
 				break;
@@ -410,6 +411,93 @@ db_error:
 	return rc;
 }
 
+/* Lines looked at for a header below metadata; a logger's preamble is a
+ * few dozen lines at most. */
+enum { HEADER_SEARCH_LINES = 200 };
+
+static bool blank_line(const char *p, const char *end)
+{
+	for (; p < end && *p != '\n'; p++)
+		if (!isspace((unsigned char)*p))
+			return false;
+	return true;
+}
+
+/* Whether the record at p reads as the header: a name gives an inductance
+ * column (or --columns maps one), and the next record has as many fields
+ * with a value in that column. */
+static bool header_at(const char *p, const char *end, const hb_import_options *opt)
+{
+	const char *w = p;
+	for (int k = 0; k < 3 && w < end; k++) {
+		const char *nl = memchr(w, '\n', (size_t)(end - w));
+		w = nl ? nl + 1 : end;
+	}
+	char delim = csv_detect_delimiter(p, (size_t)(end - p));
+	csv_table t = { 0 };
+	char e[200];
+	bool ok = false;
+	column_info *cols = NULL;
+	if (csv_parse(p, (size_t)(w - p), delim, &t, e, sizeof e) != HB_OK || t.n < 2 || t.rec[0].nf < 2 ||
+	    t.rec[1].nf != t.rec[0].nf)
+		goto out;
+	cols = calloc(t.rec[0].nf, sizeof *cols);
+	if (!cols)
+		goto out;
+	for (size_t c = 0; c < t.rec[0].nf; c++)
+		split_header(t.rec[0].field[c], cols[c].name, sizeof cols[c].name, cols[c].unit, sizeof cols[c].unit);
+	int col[HB_IMPORT_NROLES];
+	if (map_columns(&t.rec[0], cols, opt->columns, col, e, sizeof e) != HB_OK || col[HB_IMPORT_INDUCTANCE] < 0)
+		goto out;
+	char cell[128];
+	double v;
+	snprintf(cell, sizeof cell, "%s", t.rec[1].field[col[HB_IMPORT_INDUCTANCE]]);
+	trim(cell);
+	if (delim == ';')
+		for (char *q = cell; *q; q++)
+			if (*q == ',')
+				*q = '.';
+	hb_c_numeric loc;
+	hb_c_numeric_enter(&loc);
+	ok = cell[0] && hb_parse_value(cell, "H", &v, e, sizeof e) == HB_OK;
+	hb_c_numeric_leave(&loc);
+out:
+	free(cols);
+	csv_table_free(&t);
+	return ok;
+}
+
+/* The 1-based line of the header: after opt->skip_lines lines (and blank
+ * ones), or the first that reads as a header, else the first non-blank. */
+static int find_header(const char *text, size_t len, const hb_import_options *opt)
+{
+	const char *end = text + len;
+	int line = 1;
+	const char *p = text;
+	if (opt->skip_lines >= 0) {
+		p = csv_line_at(text, len, opt->skip_lines + 1);
+		line = opt->skip_lines + 1;
+		while (p < end && blank_line(p, end)) {
+			const char *nl = memchr(p, '\n', (size_t)(end - p));
+			p = nl ? nl + 1 : end;
+			line++;
+		}
+		return line;
+	}
+	int first_text = 0;
+	for (; p < end && line <= HEADER_SEARCH_LINES; line++) {
+		const char *nl = memchr(p, '\n', (size_t)(end - p));
+		if (!blank_line(p, end)) {
+			if (!first_text)
+				first_text = line;
+			if (header_at(p, end, opt))
+				return line;
+		}
+		p = nl ? nl + 1 : end;
+	}
+	return first_text ? first_text : 1;
+}
+
 int hb_import_csv(hb_db *db, const char *path, const hb_import_options *opt, hb_import_result *res, char *err,
 		  size_t errlen)
 {
@@ -429,14 +517,27 @@ int hb_import_csv(hb_db *db, const char *path, const hb_import_options *opt, hb_
 	column_info *cols = NULL;
 	double *vals[HB_IMPORT_NROLES] = { NULL };
 	int *dir = NULL;
-	const char *text = data;
-	if (len >= 3 && memcmp(text, "\xEF\xBB\xBF", 3) == 0) {
-		text += 3;
-		len -= 3;
-	}
-	res->delimiter = csv_detect_delimiter(text, len);
-	if ((rc = csv_parse(text, len, res->delimiter, &t, err, errlen)) != HB_OK)
+	if ((rc = csv_decode_text(&data, &len, &res->encoding, err, errlen)) != HB_OK) {
+		char why[300];
+		snprintf(why, sizeof why, "%s", err);
+		hb_set_err(err, errlen, "%s: %s (nothing was stored)", path, why);
 		goto out;
+	}
+	/* Metadata a logger writes above its header is skipped (the CLI says so). */
+	res->header_line = find_header(data, len, opt);
+	const char *text = csv_line_at(data, len, res->header_line);
+	size_t tlen = len - (size_t)(text - data);
+	res->delimiter = csv_detect_delimiter(text, tlen);
+	if ((rc = csv_parse(text, tlen, res->delimiter, &t, err, errlen)) != HB_OK) {
+		/* The reader counts from the header: name the file's own line. */
+		int l = 0;
+		char rest[400];
+		if (sscanf(err, "line %d%399[^\n]", &l, rest) == 2)
+			hb_set_err(err, errlen, "line %d%s", l + res->header_line - 1, rest);
+		goto out;
+	}
+	for (size_t i = 0; i < t.n; i++)
+		t.rec[i].line += res->header_line - 1;
 	if (t.n == 0) {
 		hb_set_err(err, errlen, "%s is empty: no header row", path);
 		rc = HB_ERR_DATA;
@@ -556,6 +657,16 @@ int hb_import_csv(hb_db *db, const char *path, const hb_import_options *opt, hb_
 				res->line = row->line;
 				res->field = c + 1;
 				rc = HB_ERR_ARG;
+			} else if ((r == HB_IMPORT_INDUCTANCE && vals[r][i] < 0) || (r == HB_IMPORT_FREQUENCY && vals[r][i] <= 0)) {
+				/* A negative L is a capacitive reading or a sign lost in a
+				 * spreadsheet, never the part's inductance. */
+				hb_set_err(err, errlen, "line %d, column %d ('%s'): %s '%s' is %s; accepted %s (nothing was stored)",
+					row->line, c + 1, hdr->field[c], role_names[r], cell,
+					vals[r][i] < 0 ? "negative" : "zero",
+					r == HB_IMPORT_INDUCTANCE ? "0 H or more" : "above 0 Hz");
+				res->line = row->line;
+				res->field = c + 1;
+				rc = HB_ERR_ARG;
 			}
 		}
 	}
@@ -578,6 +689,20 @@ int hb_import_csv(hb_db *db, const char *path, const hb_import_options *opt, hb_
 			path, hb_db_sweep_kind_name(res->kind), role_names[need], list, role_names[need]);
 		rc = HB_ERR_ARG;
 		goto out;
+	}
+	/* The part's L0 check holds at its spec frequency: a bias sweep whose
+	 * frequency nobody knows cannot be judged, so it is asked for here
+	 * rather than stored as "not tested". */
+	if (res->kind == HB_DB_SWEEP_BIAS && !vals[HB_IMPORT_FREQUENCY] && !isfinite(opt->test_freq_hz)) {
+		hb_db_part part;
+		if (hb_db_part_get(db, opt->part_number, &part) == HB_OK && isfinite(part.test_freq_hz)) {
+			char f[48];
+			hb_set_err(err, errlen, "%s has no frequency column and part %s states L at %s: give --freq F, the "
+				"frequency the meter measured at (nothing was stored)", path, opt->part_number,
+				hb_format_si(f, sizeof f, part.test_freq_hz, "Hz", 4));
+			rc = HB_ERR_ARG;
+			goto out;
+		}
 	}
 	size_t usable = 0;
 	for (size_t i = 0; i < nrow; i++)

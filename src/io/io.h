@@ -48,6 +48,7 @@ typedef struct hb_import_options {
 	 * 1-based column numbers; NULL = found by header name. */
 	const char *columns;
 	bool analyse;               /* fit and judge after the import (default true) */
+	int skip_lines;             /* lines above the header; -1 (default) = the first line that reads as a header */
 } hb_import_options;
 
 typedef struct hb_import_result {
@@ -58,13 +59,17 @@ typedef struct hb_import_result {
 	int column[HB_IMPORT_NROLES]; /* 0-based column used, -1 none */
 	int line;                   /* line of the first error, 0 = none */
 	int field;                  /* its 1-based column, 0 = whole row */
+	int header_line;            /* 1-based line of the header row */
+	const char *encoding;       /* "UTF-8", "UTF-16LE with BOM", ... */
 } hb_import_result;
 
 void hb_import_options_init(hb_import_options *opt);
 const char *hb_import_role_name(hb_import_role role); /* "current", "inductance", ... */
 /*
  * Reads a CSV file (comma, semicolon or tab, detected from the header; a
- * UTF-8 byte-order mark is skipped; RFC 4180 quoting) and stores it as one
+ * UTF-8 byte-order mark is skipped, UTF-16 converted; RFC 4180 quoting;
+ * metadata lines above the header skipped, see skip_lines; no row limit
+ * but memory) and stores it as one
  * complete sweep at station "import". Every row is checked before the first
  * write: a malformed row leaves the store untouched and err names its line
  * (and column). Fitted with hb_analysis_sweep when opt->analyse.

@@ -187,7 +187,9 @@ static void judge_bias(hb_analysis_summary *s, const hb_db_part *part, const hb_
 				  "zero-bias inductance within the nominal tolerance");
 		else
 			add_check(s, "L0", "H", untested(),
-				  at_spec_freq ? "no zero-bias value" : "sweep not at the spec's test frequency");
+				  at_spec_freq ? "no zero-bias value" :
+				  !isfinite(sw->test_freq_hz) ? "no test frequency stored with the sweep" :
+								"sweep not at the spec's test frequency");
 	}
 	if (isfinite(part->sat_current_a) && isfinite(part->sat_drop) && s->fit_status == HB_OK) {
 		double l_at = interp_at(I, L, n, part->sat_current_a);

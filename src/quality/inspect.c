@@ -510,6 +510,13 @@ int hb_inspect_run(const hb_inspect_config *cfg, const hb_inspect_callbacks *cb,
 	}
 	out->lot_id = lot_id;
 	tally_from_records(recs, nrecs, &out->tally);
+	if (st.lot.decision != HB_DB_LOT_OPEN && st.lot.lot_size > 0 && st.lot.lot_size != cfg->lot_size) {
+		snprintf(out->message, sizeof out->message,
+			 "lot %s was decided (%s) with lot size %ld; lot size %ld would change a decided lot: refused",
+			 cfg->lot_code, hb_db_lot_decision_name(st.lot.decision), st.lot.lot_size, cfg->lot_size);
+		rc = HB_ERR_ARG;
+		goto done;
+	}
 	if (st.lot.decision != HB_DB_LOT_OPEN) {
 		out->end = HB_INSPECT_ALREADY_DECIDED;
 		out->decision = st.lot.decision == HB_DB_LOT_ACCEPT ? HB_LOT_ACCEPT : HB_LOT_REJECT;
