@@ -134,6 +134,10 @@ int hb_db_sweep_delete(hb_db *db, int64_t sweep_id, const hb_db_deletion *log)
 		     "UPDATE inspections SET sweep_id = NULL, note = trim(note || '; sweep ' || ?1 || ' deleted', '; ')"
 		     " WHERE sweep_id = ?1",
 		     sweep_id, "unlinking inspection records");
+	/* A filed report keeps its record (number, hashes); its link to the deleted
+	 * sweep goes, so verify says the data it rests on are no longer there. */
+	if (rc == HB_OK)
+		rc = exec_id(db, "DELETE FROM report_sweeps WHERE sweep_id = ?1", sweep_id, "unlinking filed reports");
 	/* Points, fits (their values and uncertainties) and verdicts go by ON DELETE CASCADE. */
 	if (rc == HB_OK)
 		rc = exec_id(db, "DELETE FROM sweeps WHERE id = ?1", sweep_id, "deleting a sweep");
@@ -166,9 +170,13 @@ int hb_db_part_delete(hb_db *db, int64_t part_id, const hb_db_deletion *log)
 		"DELETE FROM inspections WHERE lot_id IN (SELECT id FROM lots WHERE part_id = ?1)"
 		" OR unit_id IN (SELECT id FROM units WHERE part_id = ?1)"
 		" OR sweep_id IN (SELECT s.id FROM sweeps s JOIN units u ON u.id = s.unit_id WHERE u.part_id = ?1)",
+		"DELETE FROM report_sweeps WHERE sweep_id IN (SELECT s.id FROM sweeps s JOIN units u ON u.id = s.unit_id"
+		" WHERE u.part_id = ?1)",
 		"DELETE FROM sweeps WHERE unit_id IN (SELECT id FROM units WHERE part_id = ?1)",
 		"DELETE FROM units WHERE part_id = ?1",
 		"DELETE FROM lots WHERE part_id = ?1",
+		"DELETE FROM stream_events WHERE part_id = ?1",
+		"DELETE FROM spec_revisions WHERE part_id = ?1",
 		"DELETE FROM parts WHERE id = ?1",
 	};
 	for (size_t i = 0; rc == HB_OK && i < sizeof steps / sizeof steps[0]; i++)
