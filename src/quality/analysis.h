@@ -12,6 +12,7 @@
 #include "../../fit/hb_fit.h"
 #include "budget.h"
 #include "decision.h"
+#include "mask.h"
 #include "rules.h"
 
 typedef struct hb_analysis_options {
@@ -28,7 +29,7 @@ typedef struct hb_analysis_options {
 } hb_analysis_options;
 
 
-enum { HB_ANALYSIS_MAX_CHECKS = 4 };
+enum { HB_ANALYSIS_MAX_CHECKS = 8 };
 
 typedef struct hb_analysis_check {
 	char name[16];             /* "L0", "Lsat", "DCR" */
@@ -71,6 +72,13 @@ typedef struct hb_analysis_summary {
 	/* GUM budgets of the reported quantities (budget.h), bias sweeps */
 	size_t n_budgets;
 	hb_budget budgets[HB_BUDGET_MAX];
+	/* issue 13: the data sheet's curve mask (check "mask": its worst point)
+	 * and the gap against the drawing (check "gap") */
+	bool have_mask;
+	hb_mask_result mask;
+	bool have_gap_drawn;
+	hb_gap_drawn gap_drawn;
+	char gap_sentence[400];
 } hb_analysis_summary;
 
 void hb_analysis_options_init(hb_analysis_options *opt);

@@ -47,4 +47,8 @@ void rpt_stats_row(hb_html *h, const char *name, const double *vals, size_t n, d
 /* Column heads of the statistics tables of the lot and part reports. */
 extern const char *const rpt_stats_head[9];
 
+/* issue 13: the part's drawn gap and data-sheet curve mask against this sweep
+ * (report_mask.c); nothing when the part has neither. */
+void rpt_drawing_section(hb_html *h, hb_db *db, const sweep_data *d);
+
 #endif
