@@ -200,7 +200,8 @@ static void beside(char *buf, size_t cap, double fit, double stated, const char 
 		hb_format_si(b, sizeof b, stated, unit, 3);
 	else
 		snprintf(b, sizeof b, "%.4g", stated);
-	snprintf(buf, cap, "%s %s (the part states %s: %+.1f %%)", label, a, b, (fit / stated - 1) * 100);
+	double pct = (fit / stated - 1) * 100;
+	snprintf(buf, cap, "%s %s (the part states %s: %+.1f %%)", label, a, b, fabs(pct) < 0.05 ? 0.0 : pct);
 }
 
 const char *hb_gap_drawn_sentence(const hb_gap_drawn *g, char *buf, size_t cap)
@@ -228,7 +229,7 @@ const char *hb_gap_drawn_sentence(const hb_gap_drawn *g, char *buf, size_t cap)
 		snprintf(buf, cap, "measured gap %s%s, exactly as drawn (%s +- %s); fitted %s, %s", m, Utext, d, t, mu, js);
 	else
 		snprintf(buf, cap, "measured gap %s%s is %s (%+.1f %%) %s drawn (%s +- %s)%s; fitted %s, %s", m, Utext,
-			 diff, delta / g->drawn * 100, way, d, t, vs_u, mu, js);
+			 diff, fabs(delta / g->drawn) < 5e-4 ? 0.0 : delta / g->drawn * 100, way, d, t, vs_u, mu, js);
 	return buf;
 }
 
