@@ -651,31 +651,6 @@ static void show_line(const char *label, const char *value)
 	printf("  %-22s %s\n", label, value);
 }
 
-static json_t *jnum(double v)
-{
-	return isfinite(v) ? json_real(v) : json_null();
-}
-
-/* {"gap_m","gap_tol_m","curve_tol","curve_source","curve":[{"current_A","inductance_H","tol"}]} */
-static json_t *drawing_json(const hb_db_part_drawing *d)
-{
-	json_t *o = json_object();
-	json_object_set_new(o, "gap_m", jnum(d->gap_m));
-	json_object_set_new(o, "gap_tol_m", jnum(d->gap_tol_m));
-	json_object_set_new(o, "curve_tol", jnum(d->curve_tol));
-	json_object_set_new(o, "curve_source", json_string(d->curve_source));
-	json_t *a = json_array();
-	for (size_t i = 0; i < d->n_curve; i++) {
-		json_t *q = json_object();
-		json_object_set_new(q, "current_A", jnum(d->curve[i].current_a));
-		json_object_set_new(q, "inductance_H", jnum(d->curve[i].inductance_h));
-		json_object_set_new(q, "tol", jnum(hb_db_curve_point_tol(d, i)));
-		json_array_append_new(a, q);
-	}
-	json_object_set_new(o, "curve", a);
-	return o;
-}
-
 static void show_drawing(const hb_db_part_drawing *d)
 {
 	char a[64], b[64], c[200];
@@ -734,7 +709,7 @@ static int part_show(int argc, char **argv)
 	hb_db_close(db);
 	if (e.json) {
 		json_t *j = hb_json_part(&p);
-		json_object_set_new(j, "drawing", drawing_json(&dr));
+		json_object_set_new(j, "drawing", hb_json_part_drawing(&dr));
 		return hb_print_json(j) == HB_OK ? HB_EXIT_OK : HB_EXIT_RUNTIME;
 	}
 	char a[64], b[64], c[160];

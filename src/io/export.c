@@ -126,7 +126,12 @@ int hb_export_json(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err
 		hb_db_part p;
 		if (!seen && hb_db_part_get_id(db, s.part_id, &p) == HB_OK) {
 			part_ids[nparts++] = s.part_id;
-			json_array_append_new(parts, hb_json_part(&p));
+			json_t *pj = hb_json_part(&p);
+			/* the drawn gap and the data-sheet curve go with the part (empty when none) */
+			hb_db_part_drawing dr;
+			if (hb_db_part_drawing_get(db, p.id, &dr) == HB_OK)
+				json_object_set_new(pj, "drawing", hb_json_part_drawing(&dr));
+			json_array_append_new(parts, pj);
 		}
 	}
 	json_object_set(root, "parts", parts);

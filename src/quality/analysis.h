@@ -146,4 +146,14 @@ json_t *hb_analysis_value_json(const hb_fit_value *v);
 int hb_analysis_bias_arrays(const hb_db_point *points, size_t n, double **current, double **inductance,
 			    size_t *count);
 
+/* ---------------- issue 13: against the drawing and the data sheet ---------------- */
+
+/* Adds check "mask" (the curve mask's worst point; its budget as "mask")
+ * and check "gap" (the physical gap against the drawn one, U from
+ * "core.gap_physical") for the part's drawing, judged later by apply's
+ * rule (rule, r: the one in force). I, L: the rising points the fit used. */
+void hb_analysis_judge_drawing(hb_analysis_summary *s, const hb_db_part *part, hb_decision_rule rule, double r,
+			       const hb_db_part_drawing *drw, const double *I, const double *L, size_t n, double noise_rel,
+			       const hb_budget_context *bc);
+
 #endif
