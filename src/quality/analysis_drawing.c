@@ -84,8 +84,9 @@ void hb_analysis_judge_drawing(hb_analysis_summary *s, const hb_db_part *part, h
 			g->measured = s->bias.core.gap_physical;
 			g->U = bg->U;
 			g->k = bg->k;
-			snprintf(note, sizeof note, "physical gap from the core fit against the drawn %s +- %s",
-				 hb_format_si(a, sizeof a, g->drawn, "m", 3), hb_format_si(b, sizeof b, g->tol, "m", 3));
+			snprintf(note, sizeof note, "physical gap from the core fit against the drawn %s +- %s%s",
+				 hb_format_si(a, sizeof a, g->drawn, "m", 3), hb_format_si(b, sizeof b, g->tol, "m", 3),
+				 (s->bias.core.flags & HB_CORE_NO_LAW_FITS) ? "; the core model MISFITS this part" : "");
 			add_check(s, "gap", "m", hb_verdict_limits(g->measured, g->drawn - g->tol, g->drawn + g->tol), note);
 		}
 		s->have_gap_drawn = true;
