@@ -631,5 +631,35 @@ int hb_db_part_delete(hb_db *db, int64_t part_id, const hb_db_deletion *log);
 /* Oldest first. */
 int hb_db_deletion_list(hb_db *db, hb_db_deletion **out, size_t *count);
 void hb_db_deletions_free(hb_db_deletion *list);
+/* ---------------- a part's drawing and data-sheet curve (schema step 12) ---------------- */
+
+/* The drawn gap with its tolerance, and the data sheet's L-against-current
+ * curve as a mask: each point's band is nominal (1 -+ tol), tol the
+ * point's own or else curve_tol. Points strictly increasing in current. */
+enum { HB_DB_MASK_MAX = 32 };
+
+typedef struct hb_db_curve_point {
+	double current_a;          /* >= 0 */
+	double inductance_h;       /* > 0 */
+	double tol;                /* fraction; NAN = the mask's curve_tol */
+} hb_db_curve_point;
+
+typedef struct hb_db_part_drawing {
+	int64_t part_id;
+	double gap_m, gap_tol_m;   /* drawn physical gap and +- tolerance; NAN = none drawn */
+	double curve_tol;          /* default band of the mask, fraction; NAN = none */
+	char curve_source[HB_DB_TEXT_LEN]; /* where the curve came from ("--curve", a CSV file's name) */
+	size_t n_curve;            /* 0 = no mask */
+	hb_db_curve_point curve[HB_DB_MASK_MAX];
+} hb_db_part_drawing;
+
+void hb_db_part_drawing_init(hb_db_part_drawing *d);
+/* The part's drawing; an empty one (init) when none is stored, also in a
+ * store older than step 12. */
+int hb_db_part_drawing_get(hb_db *db, int64_t part_id, hb_db_part_drawing *out);
+/* Replaces the part's drawing and every mask point in one transaction. */
+int hb_db_part_drawing_put(hb_db *db, const hb_db_part_drawing *d);
+/* The band tolerance of mask point i: its own, else the mask's. */
+double hb_db_curve_point_tol(const hb_db_part_drawing *d, size_t i);
 
 #endif

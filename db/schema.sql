@@ -471,3 +471,19 @@ CREATE TABLE deletions (
 	reason TEXT NOT NULL DEFAULT '',
 	forced INTEGER NOT NULL DEFAULT 0
 );
+-- step 12: the drawing and the data sheet beside a part: its drawn gap with the drawing's tolerance, and its data sheet's L-against-current curve as a tolerance mask (points in current order)
+CREATE TABLE part_drawing (
+	part_id INTEGER PRIMARY KEY REFERENCES parts(id) ON DELETE CASCADE,
+	gap_m REAL,
+	gap_tol_m REAL,
+	curve_tol REAL,
+	curve_source TEXT NOT NULL DEFAULT ''
+);
+CREATE TABLE part_curve_mask (
+	part_id INTEGER NOT NULL REFERENCES parts(id) ON DELETE CASCADE,
+	ord INTEGER NOT NULL,
+	current_a REAL NOT NULL,
+	inductance_h REAL NOT NULL,
+	tol REAL,
+	PRIMARY KEY (part_id, ord)
+) WITHOUT ROWID;

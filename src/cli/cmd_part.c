@@ -25,7 +25,248 @@ typedef struct part_edit {
 	hb_core_shape shape;
 	hb_core_dims dims;
 	hb_gap_place place;
+	/* issue 13: the drawing and the data sheet's curve (part_drawing, schema step 12) */
+	hb_db_part_drawing dr;
+	bool gap, gap_tol, curve, curve_tol;
+	bool gap_none, curve_none;
 } part_edit;
+
+/* ---------------- issue 13: drawn gap and curve mask options ---------------- */
+
+/* "--gap 0.5mm" or "none" (removes the drawn gap and its tolerance). */
+static int take_gap(const hb_opt *o, const char *text, void *field)
+{
+	part_edit *e = field;
+	(void)o;
+	if (strcmp(text, "none") == 0) {
+		e->gap_none = true;
+		return HB_OK;
+	}
+	return hb_opt_value("--gap", text, "m", 1e-7, 0.1, &e->dr.gap_m);
+}
+
+static int take_gap_tol(const hb_opt *o, const char *text, void *field)
+{
+	part_edit *e = field;
+	(void)o;
+	return hb_opt_value("--gap-tol", text, "m", 1e-9, 0.1, &e->dr.gap_tol_m);
+}
+
+static int take_curve_tol(const hb_opt *o, const char *text, void *field)
+{
+	part_edit *e = field;
+	(void)o;
+	return hb_opt_value("--curve-tol", text, "%", 1e-4, 0.99, &e->dr.curve_tol);
+}
+
+/* One mask point from its current, inductance and optional tolerance text;
+ * where names the source ("--curve point 2", "FILE line 3"). */
+static int curve_point(part_edit *e, const char *where, const char *ia, const char *lh, const char *tol)
+{
+	if (e->dr.n_curve >= HB_DB_MASK_MAX) {
+		hb_cli_error("%s: a curve mask holds at most %d points", where, HB_DB_MASK_MAX);
+		return HB_ERR_ARG;
+	}
+	hb_db_curve_point *p = &e->dr.curve[e->dr.n_curve];
+	char opt[160];
+	snprintf(opt, sizeof opt, "%s current", where);
+	if (hb_opt_value(opt, ia, "A", 0, 1e4, &p->current_a) != HB_OK)
+		return HB_ERR_ARG;
+	snprintf(opt, sizeof opt, "%s inductance", where);
+	if (hb_opt_value(opt, lh, "H", 1e-12, 100, &p->inductance_h) != HB_OK)
+		return HB_ERR_ARG;
+	p->tol = NAN;
+	if (tol && *tol) {
+		snprintf(opt, sizeof opt, "%s tolerance", where);
+		if (hb_opt_value(opt, tol, "%", 1e-4, 0.99, &p->tol) != HB_OK)
+			return HB_ERR_ARG;
+	}
+	if (e->dr.n_curve > 0 && !(p->current_a > e->dr.curve[e->dr.n_curve - 1].current_a)) {
+		hb_cli_error("%s: current %s is not above the previous point's: give the points in rising current", where,
+			     ia);
+		return HB_ERR_ARG;
+	}
+	e->dr.n_curve++;
+	return HB_OK;
+}
+
+static char *trim(char *t)
+{
+	while (*t == ' ' || *t == '\t')
+		t++;
+	size_t n = strlen(t);
+	while (n > 0 && (t[n - 1] == ' ' || t[n - 1] == '\t' || t[n - 1] == '\r' || t[n - 1] == '\n'))
+		t[--n] = 0;
+	return t;
+}
+
+/* "0A:108uH,2A:100uH:5%,3.2A:75.6uH" (each point I:L, optionally :TOL), or "none". */
+static int take_curve(const hb_opt *o, const char *text, void *field)
+{
+	part_edit *e = field;
+	(void)o;
+	if (e->curve) {
+		hb_cli_error("--curve and --curve-csv: give the data sheet's curve once");
+		return HB_ERR_ARG;
+	}
+	if (strcmp(text, "none") == 0) {
+		e->curve_none = true;
+		return HB_OK;
+	}
+	char buf[2048];
+	if (strlen(text) >= sizeof buf) {
+		hb_cli_error("--curve: %zu characters, accepted up to %zu", strlen(text), sizeof buf - 1);
+		return HB_ERR_ARG;
+	}
+	snprintf(buf, sizeof buf, "%s", text);
+	char *save = NULL;
+	int k = 0;
+	for (char *pt = strtok_r(buf, ",", &save); pt; pt = strtok_r(NULL, ",", &save)) {
+		char where[48];
+		snprintf(where, sizeof where, "--curve point %d", ++k);
+		char *f[4] = { NULL, NULL, NULL, NULL };
+		int nf = 0;
+		char *s2 = NULL;
+		for (char *t = strtok_r(pt, ":", &s2); t; t = strtok_r(NULL, ":", &s2))
+			if (nf < 4)
+				f[nf++] = trim(t);
+			else
+				nf++;
+		if (nf < 2 || nf > 3) {
+			hb_cli_error("%s '%s': accepted CURRENT:INDUCTANCE[:TOL], e.g. 2A:100uH or 2A:100uH:5%%", where, pt);
+			return HB_ERR_ARG;
+		}
+		if (curve_point(e, where, f[0], f[1], nf == 3 ? f[2] : NULL) != HB_OK)
+			return HB_ERR_ARG;
+	}
+	if (e->dr.n_curve == 0) {
+		hb_cli_error("--curve '%s': no points (accepted CURRENT:INDUCTANCE,..., e.g. 0A:108uH,2A:100uH)", text);
+		return HB_ERR_ARG;
+	}
+	e->curve = true;
+	snprintf(e->dr.curve_source, sizeof e->dr.curve_source, "--curve");
+	return HB_OK;
+}
+
+/* A CSV of current, inductance and an optional tolerance per line (comma,
+ * semicolon or tab); a first line that is not numbers is a header; lines
+ * starting with # are comments. */
+static int take_curve_csv(const hb_opt *o, const char *path, void *field)
+{
+	part_edit *e = field;
+	(void)o;
+	if (e->curve) {
+		hb_cli_error("--curve and --curve-csv: give the data sheet's curve once");
+		return HB_ERR_ARG;
+	}
+	FILE *f = fopen(path, "r");
+	if (!f) {
+		hb_cli_error("--curve-csv %s: cannot open it", path);
+		return HB_ERR_ARG;
+	}
+	char line[512];
+	int ln = 0, rc = HB_OK;
+	bool first = true;
+	while (rc == HB_OK && fgets(line, sizeof line, f)) {
+		ln++;
+		if (!strchr(line, '\n') && !feof(f)) {
+			hb_cli_error("--curve-csv %s line %d: longer than %zu characters", path, ln, sizeof line - 2);
+			rc = HB_ERR_ARG;
+			break;
+		}
+		char *t = trim(line);
+		if (!*t || *t == '#')
+			continue;
+		char *fld[4] = { NULL, NULL, NULL, NULL };
+		int nf = 0;
+		for (char *c = t;; c++) {
+			if (nf < 4)
+				fld[nf] = c;
+			nf++;
+			c += strcspn(c, ",;\t");
+			if (!*c)
+				break;
+			*c = 0;
+		}
+		for (int i = 0; i < nf && i < 4; i++)
+			fld[i] = trim(fld[i]);
+		double probe;
+		char err[128];
+		if (first && hb_parse_value(fld[0], "A", &probe, err, sizeof err) != HB_OK) {
+			first = false; /* the header */
+			continue;
+		}
+		first = false;
+		char where[320];
+		snprintf(where, sizeof where, "--curve-csv %s line %d", path, ln);
+		if (nf < 2 || nf > 3 || (nf == 3 && !*fld[2])) {
+			if (nf == 3 && !*fld[2])
+				nf = 2;
+			else {
+				hb_cli_error("%s: accepted 2 or 3 columns (current, inductance[, tolerance]), found %d", where, nf);
+				rc = HB_ERR_ARG;
+				break;
+			}
+		}
+		rc = curve_point(e, where, fld[0], fld[1], nf == 3 ? fld[2] : NULL);
+	}
+	fclose(f);
+	if (rc != HB_OK)
+		return rc;
+	if (e->dr.n_curve == 0) {
+		hb_cli_error("--curve-csv %s: no points in it", path);
+		return HB_ERR_ARG;
+	}
+	e->curve = true;
+	const char *base = strrchr(path, '/');
+	snprintf(e->dr.curve_source, sizeof e->dr.curve_source, "CSV file %s", base ? base + 1 : path);
+	return HB_OK;
+}
+
+/* Applies the given drawing fields onto the stored drawing; checks that
+ * the result is complete (a gap with its tolerance, every mask point with
+ * a band). Returns HB_OK, or HB_ERR_ARG after the one-line error. */
+static int merge_drawing(hb_db_part_drawing *dst, const part_edit *e)
+{
+	if (e->gap_none)
+		dst->gap_m = dst->gap_tol_m = NAN;
+	if (e->gap && !e->gap_none)
+		dst->gap_m = e->dr.gap_m;
+	if (e->gap_tol)
+		dst->gap_tol_m = e->dr.gap_tol_m;
+	if (e->curve_none) {
+		dst->n_curve = 0;
+		dst->curve_tol = NAN;
+		dst->curve_source[0] = 0;
+	}
+	if (e->curve) {
+		dst->n_curve = e->dr.n_curve;
+		memcpy(dst->curve, e->dr.curve, sizeof dst->curve);
+		memcpy(dst->curve_source, e->dr.curve_source, sizeof dst->curve_source);
+	}
+	if (e->curve_tol)
+		dst->curve_tol = e->dr.curve_tol;
+	if (isfinite(dst->gap_m) && !isfinite(dst->gap_tol_m)) {
+		hb_cli_error("part: --gap needs the drawing's tolerance, --gap-tol (e.g. --gap-tol 0.02mm)");
+		return HB_ERR_ARG;
+	}
+	if (!isfinite(dst->gap_m) && isfinite(dst->gap_tol_m) && e->gap_tol) {
+		hb_cli_error("part: --gap-tol needs the drawn gap, --gap");
+		return HB_ERR_ARG;
+	}
+	if (isfinite(dst->gap_m) && dst->gap_tol_m >= dst->gap_m) {
+		hb_cli_error("part: --gap-tol %g mm is not below the drawn gap %g mm", dst->gap_tol_m * 1e3, dst->gap_m * 1e3);
+		return HB_ERR_ARG;
+	}
+	for (size_t i = 0; i < dst->n_curve; i++)
+		if (!isfinite(hb_db_curve_point_tol(dst, i))) {
+			hb_cli_error("part: curve point %zu (%g A) has no band: give --curve-tol (e.g. 10%%) or a tolerance "
+				     "per point",
+				     i + 1, dst->curve[i].current_a);
+			return HB_ERR_ARG;
+		}
+	return HB_OK;
+}
 
 /* The spec's test level: a voltage (0.1V) or a current (10mA). */
 static int take_level(const hb_opt *o, const char *text, void *field)
@@ -211,6 +452,16 @@ static const hb_opt part_table[] = {
 	{ .name = "guard-r", .kind = HB_OPT_CUSTOM, .arg = "R", .parse = take_guard_r, .off = offsetof(part_edit, p),
 	  .given = HB_OPT_GIVEN(part_edit, guard_r),
 	  .help = "guard band w = R U of the guarded and non-binary rules, above 0 up to 3 (default 1)" },
+	{ .name = "gap", .kind = HB_OPT_CUSTOM, .arg = "G|none", .parse = take_gap, .off = 0,
+	  .given = HB_OPT_GIVEN(part_edit, gap), .help = "drawn physical gap, e.g. 0.5mm (judged against the core fit); 100 nm to 100 mm, none removes it" },
+	{ .name = "gap-tol", .kind = HB_OPT_CUSTOM, .arg = "T", .parse = take_gap_tol, .off = 0,
+	  .given = HB_OPT_GIVEN(part_edit, gap_tol), .help = "the drawing's +- tolerance of the gap, e.g. 0.02mm; 1 nm up to below the gap" },
+	{ .name = "curve", .kind = HB_OPT_CUSTOM, .arg = "I:L,...|none", .parse = take_curve, .off = 0,
+	  .help = "data sheet's L against current as a mask, rising current, up to 32 points, e.g. 0A:108uH,2A:100uH,3.2A:75.6uH (I:L:TOL per point); none removes it" },
+	{ .name = "curve-csv", .kind = HB_OPT_CUSTOM, .arg = "FILE", .parse = take_curve_csv, .off = 0,
+	  .help = "the same from a CSV: current, inductance[, tolerance] per line" },
+	{ .name = "curve-tol", .kind = HB_OPT_CUSTOM, .arg = "T", .parse = take_curve_tol, .off = 0,
+	  .given = HB_OPT_GIVEN(part_edit, curve_tol), .help = "the mask's band +-T of each point, e.g. 10%; 0.01 % to 99 %" },
 	{ .name = "json", .kind = HB_OPT_FLAG, .off = offsetof(part_edit, json),
 	  .help = "machine-readable output (list, show)" },
 	{ .name = NULL },
@@ -349,6 +600,7 @@ static int part_write(int argc, char **argv, bool add)
 	part_edit e;
 	memset(&e, 0, sizeof e);
 	hb_db_part_init(&e.p);
+	hb_db_part_drawing_init(&e.dr);
 	int first = 0;
 	int rc = parse_spec_options(argc, argv, &e, false, &first);
 	if (rc < 0)
@@ -401,13 +653,30 @@ static int part_write(int argc, char **argv, bool add)
 		snprintf(stored.part_number, sizeof stored.part_number, "%s", pn);
 	}
 	merge(&stored, &e);
-	/* the part and its core set in one transaction */
+	bool drawing = e.gap || e.gap_tol || e.curve || e.curve_none || e.curve_tol;
+	hb_db_part_drawing dr;
+	hb_db_part_drawing_init(&dr);
+	if (drawing && !add && hb_db_part_drawing_get(db, stored.id, &dr) != HB_OK) {
+		hb_cli_error("%s", hb_db_errmsg(db));
+		goto out;
+	}
+	if (drawing && merge_drawing(&dr, &e) != HB_OK) {
+		exit_code = HB_EXIT_USAGE;
+		goto out;
+	}
+	/* the part, its core set and its drawing in one transaction */
 	if (hb_db_batch_begin(db) != HB_OK) {
 		hb_cli_error("%s", hb_db_errmsg(db));
 		goto out;
 	}
 	if (hb_db_part_put(db, &stored) != HB_OK || core_set_put(db, pn, &e, add) != HB_OK) {
 		hb_cli_error("%s", hb_db_errmsg(db));
+		hb_db_batch_rollback(db);
+		goto out;
+	}
+	dr.part_id = stored.id;
+	if (drawing && hb_db_part_drawing_put(db, &dr) != HB_OK) {
+		hb_cli_error("part %s: its drawing and curve mask could not be stored (nothing was): %s", pn, hb_db_errmsg(db));
 		hb_db_batch_rollback(db);
 		goto out;
 	}
@@ -434,6 +703,7 @@ static int part_list(int argc, char **argv)
 {
 	part_edit e;
 	memset(&e, 0, sizeof e);
+	hb_db_part_drawing_init(&e.dr);
 	int first = 0;
 	int rc = parse_spec_options(argc, argv, &e, true, &first);
 	if (rc < 0)
@@ -489,10 +759,34 @@ static void show_line(const char *label, const char *value)
 	printf("  %-22s %s\n", label, value);
 }
 
+static void show_drawing(const hb_db_part_drawing *d)
+{
+	char a[64], b[64], c[200];
+	if (isfinite(d->gap_m)) {
+		snprintf(c, sizeof c, "%s +- %s", hb_si_or_dash(a, sizeof a, d->gap_m, "m"),
+			 hb_si_or_dash(b, sizeof b, d->gap_tol_m, "m"));
+		show_line("gap as drawn", c);
+	} else {
+		show_line("gap as drawn", "-");
+	}
+	if (d->n_curve == 0) {
+		show_line("curve mask", "-");
+		return;
+	}
+	snprintf(c, sizeof c, "%zu points from %s", d->n_curve, d->curve_source[0] ? d->curve_source : "-");
+	show_line("curve mask", c);
+	for (size_t i = 0; i < d->n_curve; i++) {
+		snprintf(c, sizeof c, "%s +- %g %%", hb_si_or_dash(a, sizeof a, d->curve[i].inductance_h, "H"),
+			 hb_db_curve_point_tol(d, i) * 100);
+		printf("  %-22s %s\n", hb_si_or_dash(b, sizeof b, d->curve[i].current_a, "A"), c);
+	}
+}
+
 static int part_show(int argc, char **argv)
 {
 	part_edit e;
 	memset(&e, 0, sizeof e);
+	hb_db_part_drawing_init(&e.dr);
 	int first = 0;
 	int rc = parse_spec_options(argc, argv, &e, true, &first);
 	if (rc < 0)
@@ -519,6 +813,13 @@ static int part_show(int argc, char **argv)
 		hb_db_close(db);
 		return status == HB_ERR_NOTFOUND ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
 	}
+	hb_db_part_drawing dr;
+	status = hb_db_part_drawing_get(db, p.id, &dr);
+	if (status != HB_OK) {
+		hb_cli_error("%s", hb_db_errmsg(db));
+		hb_db_close(db);
+		return HB_EXIT_RUNTIME;
+	}
 	/* its global identity and the spec revision in force (a store before step 9 has neither) */
 	char uid[HB_DB_UID_LEN] = "";
 	hb_db_spec_revision rev;
@@ -528,6 +829,7 @@ static int part_show(int argc, char **argv)
 	if (e.json) {
 		json_t *o = hb_json_part(&p);
 		if (o) {
+			json_object_set_new(o, "drawing", hb_json_part_drawing(&dr));
 			json_object_set_new(o, "core_shape", json_string(cs.shape));
 			json_object_set_new(o, "core_dims", json_string(cs.dims));
 			json_object_set_new(o, "gap_at", json_string(cs.gap_at));
@@ -596,6 +898,7 @@ static int part_show(int argc, char **argv)
 	else
 		snprintf(c, sizeof c, "the station's default, else simple (r = %s)", b);
 	show_line("decision rule", c);
+	show_drawing(&dr);
 	show_line("created", p.created);
 	show_line("updated", p.updated);
 	return HB_EXIT_OK;

@@ -10,6 +10,8 @@
  * scaled (0.01 = a hundred times faster than real) and the given gap. */
 int hb_demo_configure_sim(double time_scale, unsigned seed, double gap_m);
 void hb_demo_part(hb_db_part *part);
+/* The demo part's drawn gap and data-sheet curve mask (issue 13). */
+void hb_demo_drawing(hb_db_part_drawing *drawing, int64_t part_id);
 void hb_demo_station(hb_station *station);
 void hb_demo_bias_plan(hb_sweep_plan *plan, const hb_station *station);
 /* Lot inspection and reports of the demo (after the sweeps). */

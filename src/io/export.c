@@ -196,6 +196,10 @@ int hb_export_json(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err
 		if (hb_db_part_get_id(db, part_ids[k], &p) != HB_OK)
 			continue;
 		json_t *o = hb_json_part(&p);
+		/* the drawn gap and the data-sheet curve go with the part (empty when none) */
+		hb_db_part_drawing dr;
+		if (o && hb_db_part_drawing_get(db, p.id, &dr) == HB_OK)
+			json_object_set_new(o, "drawing", hb_json_part_drawing(&dr));
 		rc = fputs(written++ ? ",\n    " : "\n    ", out) == EOF ? HB_ERR_IO : put_value(out, o, 4);
 		json_decref(o);
 		if (rc != HB_OK)

@@ -154,4 +154,11 @@ json_t *hb_json_unit_result(const hb_db_history_row *r, const int drop_percent[H
  * digits (every double reads back exactly). HB_OK or HB_ERR_IO. */
 int hb_json_write(const json_t *root, FILE *out);
 
+/* ---------------- issue 13: a part's drawing and data-sheet curve ---------------- */
+
+/* {"gap_m","gap_tol_m","curve_tol","curve_source","curve":[{"current_A","inductance_H","tol"}]}
+ * (each point's tol the band in force: its own, else the mask's); `part show --json`
+ * and export put it under "drawing". */
+json_t *hb_json_part_drawing(const hb_db_part_drawing *d);
+
 #endif

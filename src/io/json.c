@@ -358,3 +358,24 @@ int hb_json_write(const json_t *root, FILE *out)
 	hb_c_numeric_leave(&loc);
 	return rc;
 }
+
+/* ---------------- issue 13: a part's drawing and data-sheet curve ---------------- */
+
+json_t *hb_json_part_drawing(const hb_db_part_drawing *d)
+{
+	json_t *o = json_object();
+	json_object_set_new(o, "gap_m", hb_json_num(d->gap_m));
+	json_object_set_new(o, "gap_tol_m", hb_json_num(d->gap_tol_m));
+	json_object_set_new(o, "curve_tol", hb_json_num(d->curve_tol));
+	json_object_set_new(o, "curve_source", json_string(d->curve_source));
+	json_t *a = json_array();
+	for (size_t i = 0; i < d->n_curve; i++) {
+		json_t *q = json_object();
+		json_object_set_new(q, "current_A", hb_json_num(d->curve[i].current_a));
+		json_object_set_new(q, "inductance_H", hb_json_num(d->curve[i].inductance_h));
+		json_object_set_new(q, "tol", hb_json_num(hb_db_curve_point_tol(d, i)));
+		json_array_append_new(a, q);
+	}
+	json_object_set_new(o, "curve", a);
+	return o;
+}

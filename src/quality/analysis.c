@@ -677,6 +677,13 @@ static void resolve_rule(const hb_db_part *part, const hb_db_sweep *sw, const hb
 	}
 }
 
+/* The budget a check's U comes from: its own name, except the gap against
+ * the drawing, which is the core fit's physical gap. */
+static const char *check_budget_name(const char *check)
+{
+	return strcmp(check, "gap") == 0 ? "core.gap_physical" : check;
+}
+
 /* Each check judged by the rule with its value's U; the overall verdict
  * from the rule's outcomes. */
 static void apply_rules(hb_analysis_summary *s, const hb_db_part *part, const hb_db_sweep *sw,
@@ -688,7 +695,7 @@ static void apply_rules(hb_analysis_summary *s, const hb_db_part *part, const hb
 	bool failed = false, untested = s->n_checks == 0, conditional = false;
 	for (size_t i = 0; i < s->n_checks; i++) {
 		hb_analysis_check *k = &s->checks[i];
-		const hb_budget *bg = hb_analysis_budget(s, k->name);
+		const hb_budget *bg = hb_analysis_budget(s, check_budget_name(k->name));
 		double U = bg ? bg->U : NAN, kf = bg ? bg->k : NAN;
 		k->guard_r = r;
 		k->rule_note[0] = 0;
@@ -847,6 +854,14 @@ int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *op
 		}
 	}
 	judge_bias(s, &part, &sw, I, L, m, &bc);
+	if (part.id > 0) {
+		hb_db_part_drawing drw;
+		hb_decision_rule rule;
+		double r;
+		resolve_rule(&part, &sw, opt, &rule, &r);
+		if (hb_db_part_drawing_get(db, part.id, &drw) == HB_OK)
+			hb_analysis_judge_drawing(s, &part, rule, r, &drw, I, L, m, noise_rel, &bc);
+	}
 	apply_rules(s, &part, &sw, opt);
 store:
 	rc = HB_OK;

@@ -12,6 +12,7 @@
 #include "../../fit/hb_fit.h"
 #include "budget.h"
 #include "decision.h"
+#include "mask.h"
 #include "rules.h"
 
 typedef struct hb_analysis_options {
@@ -28,7 +29,7 @@ typedef struct hb_analysis_options {
 } hb_analysis_options;
 
 
-enum { HB_ANALYSIS_MAX_CHECKS = 4 };
+enum { HB_ANALYSIS_MAX_CHECKS = 8 };
 
 typedef struct hb_analysis_check {
 	char name[16];             /* "L0", "Lsat", "DCR" */
@@ -72,6 +73,13 @@ typedef struct hb_analysis_summary {
 	/* GUM budgets of the reported quantities (budget.h), bias sweeps */
 	size_t n_budgets;
 	hb_budget budgets[HB_BUDGET_MAX];
+	/* issue 13: the data sheet's curve mask (check "mask": its worst point)
+	 * and the gap against the drawing (check "gap") */
+	bool have_mask;
+	hb_mask_result mask;
+	bool have_gap_drawn;
+	hb_gap_drawn gap_drawn;
+	char gap_sentence[400];
 } hb_analysis_summary;
 
 void hb_analysis_options_init(hb_analysis_options *opt);
@@ -151,5 +159,14 @@ const char *hb_analysis_budget_unit(const char *name, json_t *inputs, char *buf,
  * value and u(x) in the input's unit, c in y's unit per x's, the
  * contribution in y's. */
 void hb_analysis_budget_cells(json_t *input, const char *y_unit, char cells[4][48]);
+/* ---------------- issue 13: against the drawing and the data sheet ---------------- */
+
+/* Adds check "mask" (the curve mask's worst point; its budget as "mask")
+ * and check "gap" (the physical gap against the drawn one, U from
+ * "core.gap_physical") for the part's drawing, judged later by apply's
+ * rule (rule, r: the one in force). I, L: the rising points the fit used. */
+void hb_analysis_judge_drawing(hb_analysis_summary *s, const hb_db_part *part, hb_decision_rule rule, double r,
+			       const hb_db_part_drawing *drw, const double *I, const double *L, size_t n, double noise_rel,
+			       const hb_budget_context *bc);
 
 #endif

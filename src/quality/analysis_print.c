@@ -346,6 +346,10 @@ void hb_analysis_print(FILE *out, const hb_analysis_summary *s)
 			hb_analysis_print_check(out, &s->checks[i], i == 0 || s->checks[i].decision.rule != s->checks[i - 1].decision.rule);
 		fprintf(out, "  overall: %s\n", hb_overall_name(s->overall));
 	}
+	if (s->have_mask)
+		hb_mask_print(out, &s->mask);
+	if (s->have_gap_drawn)
+		fprintf(out, "gap as drawn: %s\n", s->gap_sentence);
 }
 
 static json_t *num(double v)
@@ -475,6 +479,10 @@ json_t *hb_analysis_summary_json(const hb_analysis_summary *s)
 	json_object_set_new(j, "verdicts", checks);
 	if (s->n_checks)
 		json_object_set_new(j, "overall", json_string(hb_overall_name(s->overall)));
+	if (s->have_mask)
+		json_object_set_new(j, "curve_mask", hb_mask_json(&s->mask));
+	if (s->have_gap_drawn)
+		json_object_set_new(j, "gap_as_drawn", hb_gap_drawn_json(&s->gap_drawn, s->gap_sentence));
 	return j;
 }
 
@@ -568,6 +576,8 @@ const char *hb_analysis_check_unit(const char *check)
 {
 	if (strcmp(check, "DCR") == 0)
 		return "ohm";
+	if (strcmp(check, "gap") == 0)
+		return "m";
 	if (strncmp(check, "I", 1) == 0)
 		return "A";
 	return "H";

@@ -501,3 +501,39 @@ void hb_budget__meter_source(const hb_budget_context *c, char *buf, size_t cap)
 {
 	meter_source(c, buf, cap);
 }
+
+/* ---------------- curve masks (issue 13) ---------------- */
+
+double hb_budget_noise_dof(const hb_fit_modelfree_result *mf)
+{
+	return mf ? l0_dof(mf) : INFINITY;
+}
+
+void hb_budget_mask_point(const char *name, double i_mask, double l_at, double t, double dl_di, double interp_hw,
+			  double noise_sigma, double noise_dof, const hb_budget_context *c, hb_budget *bg)
+{
+	budget_start(bg, name, "H", l_at, NAN);
+	hb_unc_budget *ub = hb_unc_new();
+	if (!ub)
+		return;
+	/* the interpolated value is (1 - t) L_a + t L_b: independent readings add in quadrature */
+	double w = sqrt((1 - t) * (1 - t) + t * t);
+	pending in[4] = {
+		{ "reading noise", "H", HB_UNC_TYPE_A, l_at, noise_sigma * w, 1, noise_dof, "" },
+		{ "meter gain", "", HB_UNC_TYPE_B, 1, hb_unc_rectangular(c->meter_rel), l_at, INFINITY, "" },
+		{ "bias current", "A", HB_UNC_TYPE_B, i_mask, hb_unc_rectangular(supply_half_width(c, i_mask)), dl_di,
+		  INFINITY, "" },
+		{ "linear interpolation", "H", HB_UNC_TYPE_B, l_at, hb_unc_rectangular(interp_hw), 1, INFINITY,
+		  "t (1 - t) h^2 |L''| / 2 with L'' from the neighbouring points' second differences, rectangular "
+		  "(the remainder of linear interpolation, common practice)" },
+	};
+	snprintf(in[0].source, sizeof in[0].source,
+		 "one reading's scatter (the sweep's noise) x sqrt((1 - t)^2 + t^2), t = %.3f between the bracketing points",
+		 t);
+	char ms[140];
+	meter_source(c, ms, sizeof ms);
+	snprintf(in[1].source, sizeof in[1].source, "c = L: the data sheet's band stays where it is; %s", ms);
+	supply_source(c, " at the mask current; c = dL/dI of the segment", in[2].source, sizeof in[2].source);
+	evaluate(ub, bg, in, 4);
+	hb_unc_free(ub);
+}

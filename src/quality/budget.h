@@ -116,4 +116,22 @@ json_t *hb_budget_add_stored_json(json_t *value_obj, const hb_db_fit_unc *u);
 /* The same from a budget just computed. */
 json_t *hb_budget_add_json(json_t *value_obj, const hb_budget *bg);
 
+/* ---------------- curve masks (issue 13): L of the measured curve at a mask point ---------------- */
+
+/*
+ * L at a data-sheet mask point's current i_mask, linear between the two
+ * measured points that bracket it, at fraction t of the way (0 = on the
+ * lower point). Inputs: the reading noise of both points (one reading's
+ * sd noise_sigma, weights 1 - t and t, dof noise_dof), the meter's gain
+ * (c = L: the band is the data sheet's and does not move with the
+ * meter), the bias current's read-back accuracy through the segment's
+ * dL/dI, and the interpolation's own error: half-width interp_hw
+ * (t (1 - t) h^2 |L''| / 2), rectangular. The budget is named name.
+ */
+void hb_budget_mask_point(const char *name, double i_mask, double l_at, double t, double dl_di, double interp_hw,
+			  double noise_sigma, double noise_dof, const hb_budget_context *ctx, hb_budget *out);
+/* The degrees of freedom of the bias fit's reading noise as the L0 and Lsat
+ * budgets take it (its L0 polynomial's points less its terms). */
+double hb_budget_noise_dof(const hb_fit_modelfree_result *mf);
+
 #endif

@@ -101,6 +101,36 @@ static void add_bias_models(hb_plot *plot, const sweep_data *d, double i_max)
 	}
 }
 
+/* issue 13: the data sheet's curve as points and its tolerance band as two
+ * lines through the band limits at the mask points. */
+static void add_curve_mask(hb_plot *plot, hb_db *db, const sweep_data *d)
+{
+	hb_db_part_drawing dr;
+	if (hb_db_part_drawing_get(db, d->part.id, &dr) != HB_OK || dr.n_curve == 0)
+		return;
+	double x[HB_DB_MASK_MAX], y[HB_DB_MASK_MAX], lo[HB_DB_MASK_MAX], hi[HB_DB_MASK_MAX];
+	bool one_tol = true;
+	for (size_t i = 0; i < dr.n_curve; i++) {
+		double t = hb_db_curve_point_tol(&dr, i);
+		x[i] = dr.curve[i].current_a;
+		y[i] = dr.curve[i].inductance_h;
+		lo[i] = y[i] * (1 - t);
+		hi[i] = y[i] * (1 + t);
+		one_tol &= fabs(t - hb_db_curve_point_tol(&dr, 0)) < 1e-12;
+	}
+	char up[48], dn[48];
+	if (one_tol) {
+		snprintf(up, sizeof up, "mask +%g %%", hb_db_curve_point_tol(&dr, 0) * 100);
+		snprintf(dn, sizeof dn, "mask -%g %%", hb_db_curve_point_tol(&dr, 0) * 100);
+	} else {
+		snprintf(up, sizeof up, "mask upper limit");
+		snprintf(dn, sizeof dn, "mask lower limit");
+	}
+	hb_plot_add_series(plot, HB_AXIS_Y, x, y, dr.n_curve, "data sheet curve (mask points)", HB_PLOT_POINTS);
+	hb_plot_add_series(plot, HB_AXIS_Y, x, hi, dr.n_curve, up, HB_PLOT_LINE_POINTS);
+	hb_plot_add_series(plot, HB_AXIS_Y, x, lo, dr.n_curve, dn, HB_PLOT_LINE_POINTS);
+}
+
 /* Every per-sweep plot starts the same way: refuse an empty sweep, then a
  * titled plot naming sweep, part and unit so a printed page stays traceable. */
 static int sweep_plot_open(const sweep_data *d, int64_t sweep_id, size_t points, const char *what, hb_plot **plot,
@@ -189,6 +219,8 @@ int hb_report_bias_svg(hb_db *db, int64_t sweep_id, char **svg, char *err, size_
 			 d.part.sat_drop * 100);
 		hb_plot_add_marker(plot, HB_AXIS_Y, d.part.sat_current_a, (1 - d.part.sat_drop) * l0, label);
 	}
+	if (d.have_part)
+		add_curve_mask(plot, db, &d);
 	rc = rpt_render(plot, svg, err, errlen);
 	plot = NULL;
 out:

@@ -64,5 +64,8 @@ hb_html *rpt_html_open(FILE *out, const char *title, const char *subtitle);
 /* The traceability table of a filed page: report number, software, the global
  * identities of part, spec revision, unit, lot, sweeps, point sets and fits, the hashes. */
 void rpt_trace_identities(hb_html *h, hb_db *db);
+/* issue 13: the part's drawn gap and data-sheet curve mask against this sweep
+ * (report_mask.c); nothing when the part has neither. */
+void rpt_drawing_section(hb_html *h, hb_db *db, const sweep_data *d);
 
 #endif

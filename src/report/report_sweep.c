@@ -41,6 +41,7 @@ int hb_report_sweep(hb_db *db, int64_t sweep_id, FILE *out, char *err, size_t er
 		hb_html_paragraph(h, "This sweep belongs to no stored part: no specification applies.");
 	rpt_measurement_section(h, &d.sweep);
 	rpt_verdict_section(h, &d);
+	rpt_drawing_section(h, db, &d);
 	rpt_fit_section(h, &d);
 
 	hb_html_section_begin(h, "Figures");
