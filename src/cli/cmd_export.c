@@ -88,7 +88,7 @@ int hb_cmd_export(int argc, char **argv)
 	}
 	hb_db *db = NULL;
 	int exit_code = HB_EXIT_RUNTIME;
-	FILE *out = NULL;
+	hb_out *out = NULL;
 	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
 		hb_cli_error("%s", db ? hb_db_errmsg(db) : "out of memory");
 		goto done;
@@ -117,22 +117,22 @@ int hb_cmd_export(int argc, char **argv)
 			goto done;
 		qsort(ids, n, sizeof *ids, cmp_id);
 	}
-	out = out_path ? fopen(out_path, "w") : stdout;
-	if (!out) {
-		hb_cli_error("cannot write %s: %s", out_path, strerror(errno));
+	char err[300] = "";
+	int rc = hb_out_open(out_path ? out_path : "-", &out, err, sizeof err);
+	if (rc != HB_OK) {
+		hb_cli_error("export --out: %s", err);
+		if (rc == HB_ERR_ARG)
+			exit_code = HB_EXIT_USAGE;
 		goto done;
 	}
-	char err[300] = "";
-	int rc = csv ? hb_export_csv(db, ids, n, out, err, sizeof err) : hb_export_json(db, ids, n, out, err, sizeof err);
-	if (out_path) {
-		if (fclose(out) != 0 && rc == HB_OK) {
-			rc = HB_ERR_IO;
-			snprintf(err, sizeof err, "cannot write %s: %s", out_path, strerror(errno));
-		}
-	} else if (fflush(stdout) != 0 && rc == HB_OK) {
-		rc = HB_ERR_IO;
-		snprintf(err, sizeof err, "write to standard output failed");
-	}
+	FILE *f = hb_out_stream(out);
+	rc = csv ? hb_export_csv(db, ids, n, f, err, sizeof err) : hb_export_json(db, ids, n, f, err, sizeof err);
+	hb_out *o = out;
+	out = NULL;
+	if (rc == HB_OK)
+		rc = hb_out_commit(o, err, sizeof err);
+	else
+		hb_out_abort(o);
 	if (rc != HB_OK) {
 		hb_cli_error("export: %s", err[0] ? err : hb_status_name(rc));
 		if (rc == HB_ERR_NOTFOUND)
@@ -143,6 +143,7 @@ int hb_cmd_export(int argc, char **argv)
 		fprintf(stderr, "exported %zu sweep%s to %s\n", n, n == 1 ? "" : "s", out_path);
 	exit_code = HB_EXIT_OK;
 done:
+	hb_out_abort(out);
 	free(ids);
 	hb_db_close(db);
 	return exit_code;

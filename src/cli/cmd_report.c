@@ -1,12 +1,11 @@
 /* src/cli/cmd_report.c - command `report`: a filed HTML record of one sweep, one lot or one part */
-#include <errno.h>
 #include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <unistd.h>
 
 #include "../../db/hb_db.h"
+#include "../io/io.h"
 #include "cli.h"
 #include "../report/report.h"
 
@@ -63,25 +62,25 @@ int hb_cmd_report(int argc, char **argv)
 		return HB_EXIT_USAGE;
 	}
 
+	/* Written beside the target and renamed over a regular file only, so a
+	 * failed run never leaves half a record and a FIFO, device or link at
+	 * the path is never replaced. */
+	bool to_stdout = strcmp(out_path, "-") == 0;
+	char err[300] = "";
+	hb_out *o = NULL;
+	int rc = hb_out_open(out_path, &o, err, sizeof err);
+	if (rc != HB_OK) {
+		hb_cli_error("report --out: %s", err);
+		return rc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
+	}
 	hb_db *db = NULL;
 	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
 		hb_cli_error("%s", db ? hb_db_errmsg(db) : "out of memory");
 		hb_db_close(db);
+		hb_out_abort(o);
 		return HB_EXIT_RUNTIME;
 	}
-	/* Written beside the target and renamed, so a failed run never leaves
-	 * half a record where a complete one is expected. */
-	bool to_stdout = strcmp(out_path, "-") == 0;
-	char tmp[4096];
-	snprintf(tmp, sizeof tmp, "%s.tmp%ld", out_path, (long)getpid());
-	FILE *out = to_stdout ? stdout : fopen(tmp, "w");
-	if (!out) {
-		hb_cli_error("cannot write %s: %s", tmp, strerror(errno));
-		hb_db_close(db);
-		return HB_EXIT_RUNTIME;
-	}
-	char err[300] = "";
-	int rc;
+	FILE *out = hb_out_stream(o);
 	if (sweep_id > 0)
 		rc = hb_report_sweep(db, (int64_t)sweep_id, out, err, sizeof err);
 	else if (lot)
@@ -89,23 +88,10 @@ int hb_cmd_report(int argc, char **argv)
 	else
 		rc = hb_report_part(db, part, out, err, sizeof err);
 	hb_db_close(db);
-	if (to_stdout) {
-		if (fflush(stdout) != 0 && rc == HB_OK) {
-			rc = HB_ERR_IO;
-			snprintf(err, sizeof err, "write to standard output failed");
-		}
-	} else {
-		if (fclose(out) != 0 && rc == HB_OK) {
-			rc = HB_ERR_IO;
-			snprintf(err, sizeof err, "cannot write %s: %s", tmp, strerror(errno));
-		}
-		if (rc == HB_OK && rename(tmp, out_path) != 0) {
-			rc = HB_ERR_IO;
-			snprintf(err, sizeof err, "cannot rename %s to %s: %s", tmp, out_path, strerror(errno));
-		}
-		if (rc != HB_OK)
-			unlink(tmp);
-	}
+	if (rc == HB_OK)
+		rc = hb_out_commit(o, err, sizeof err);
+	else
+		hb_out_abort(o);
 	if (rc != HB_OK) {
 		hb_cli_error("report: %s", err[0] ? err : hb_status_name(rc));
 		return rc == HB_ERR_ARG || rc == HB_ERR_NOTFOUND ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;

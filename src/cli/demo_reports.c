@@ -1,9 +1,8 @@
 /* src/cli/demo_reports.c - the demo's filed reports: first prototype's sweep, the inspected lot, the part's history */
-#include <errno.h>
 #include <stdio.h>
 #include <string.h>
-#include <unistd.h>
 
+#include "../io/io.h"
 #include "cli.h"
 #include "demo.h"
 #include "../report/report.h"
@@ -13,28 +12,23 @@ typedef enum demo_page { PAGE_SWEEP, PAGE_LOT, PAGE_PART } demo_page;
 static int write_page(hb_db *db, demo_page page, int64_t sweep_id, const hb_db_part *part, const char *lot_code,
 		      const char *path)
 {
-	char tmp[1200], err[300] = "";
-	snprintf(tmp, sizeof tmp, "%s.tmp", path);
-	FILE *f = fopen(tmp, "w");
-	if (!f) {
-		hb_cli_error("cannot write %s: %s", tmp, strerror(errno));
-		return HB_ERR_IO;
-	}
-	int rc = page == PAGE_SWEEP ? hb_report_sweep(db, sweep_id, f, err, sizeof err) :
-		 page == PAGE_LOT   ? hb_report_lot(db, part->part_number, lot_code, f, err, sizeof err) :
-				      hb_report_part(db, part->part_number, f, err, sizeof err);
-	if (fclose(f) != 0 && rc == HB_OK) {
-		rc = HB_ERR_IO;
-		snprintf(err, sizeof err, "%s", strerror(errno));
-	}
-	if (rc == HB_OK && rename(tmp, path) != 0) {
-		rc = HB_ERR_IO;
-		snprintf(err, sizeof err, "%s", strerror(errno));
-	}
+	char err[300] = "";
+	hb_out *o = NULL;
+	int rc = hb_out_open(path, &o, err, sizeof err);
 	if (rc != HB_OK) {
-		unlink(tmp);
-		hb_cli_error("report %s: %s", path, err[0] ? err : hb_status_name(rc));
+		hb_cli_error("report: %s", err);
+		return rc;
 	}
+	FILE *f = hb_out_stream(o);
+	rc = page == PAGE_SWEEP ? hb_report_sweep(db, sweep_id, f, err, sizeof err) :
+	     page == PAGE_LOT   ? hb_report_lot(db, part->part_number, lot_code, f, err, sizeof err) :
+				  hb_report_part(db, part->part_number, f, err, sizeof err);
+	if (rc == HB_OK)
+		rc = hb_out_commit(o, err, sizeof err);
+	else
+		hb_out_abort(o);
+	if (rc != HB_OK)
+		hb_cli_error("report %s: %s", path, err[0] ? err : hb_status_name(rc));
 	return rc;
 }
 

@@ -149,4 +149,30 @@ json_t *hb_json_unit_result(const hb_db_history_row *r, const int drop_percent[H
  * digits (every double reads back exactly). HB_OK or HB_ERR_IO. */
 int hb_json_write(const json_t *root, FILE *out);
 
+/* ---------------- output files: written beside, renamed over (out_file.c) ---------------- */
+
+/*
+ * Every file henrybench writes on request (report --out, export --out,
+ * compare --plot, ...) goes through these: the data go to a temporary file
+ * in the target's directory, renamed over the target at commit, so a failed
+ * run never leaves half a file. Only a regular file (or nothing) is
+ * replaced: a FIFO, a device (/dev/full), a directory or a symbolic link at
+ * the path is refused before anything is written. "-" is standard output,
+ * written in place and flushed at commit.
+ */
+typedef struct hb_out hb_out;
+
+/* HB_ERR_ARG when the path names something other than a regular file (err
+ * says what it is: exit 2, a bad value given), HB_ERR_IO when the temporary
+ * file cannot be made (exit 1). */
+int hb_out_open(const char *path, hb_out **out, char *err, size_t errlen);
+FILE *hb_out_stream(hb_out *o);
+/* The path as given ("-" for standard output). */
+const char *hb_out_path(const hb_out *o);
+/* Flushes, closes and renames; HB_ERR_IO with err on any failure (the
+ * temporary file is removed and the target left as it was). Frees o. */
+int hb_out_commit(hb_out *o, char *err, size_t errlen);
+/* Drops the temporary file; the target is untouched. Frees o; NULL no-op. */
+void hb_out_abort(hb_out *o);
+
 #endif
