@@ -136,6 +136,7 @@ const keydef hb_profile_keys[HB_PK_COUNT] = {
 	{ HB_PK_LCR_ACCURACY_SOURCE, SEC_LCR, "accuracy.source", VT_TEXT, false, 0, 0, NULL },
 	{ HB_PK_SUP_ACCURACY_CURRENT, SEC_SUPPLY, "accuracy.current", VT_TEXT, false, 0, 0, NULL },
 	{ HB_PK_SUP_ACCURACY_SOURCE, SEC_SUPPLY, "accuracy.source", VT_TEXT, false, 0, 0, NULL },
+	{ HB_PK_LINK_ECHO, SEC_PROFILE, "link.echo", VT_BOOL, false, 0, 0, NULL },
 };
 
 

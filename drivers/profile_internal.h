@@ -110,6 +110,8 @@ typedef enum hb_pkey {
 	HB_PK_LCR_ACCURACY_SOURCE,
 	HB_PK_SUP_ACCURACY_CURRENT,
 	HB_PK_SUP_ACCURACY_SOURCE,
+	/* [profile] link.echo: the instrument echoes every command line */
+	HB_PK_LINK_ECHO,
 	HB_PK_COUNT
 } hb_pkey;
 

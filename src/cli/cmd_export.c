@@ -209,6 +209,23 @@ int hb_cmd_import(int argc, char **argv)
 		return HB_EXIT_USAGE;
 	}
 	const char *path = argv[r.first];
+	{
+		/* the stored note is "imported from FILE; NOTE": checked whole
+		 * against its limit here rather than cut in the store */
+		const char *base = strrchr(path, '/');
+		base = base ? base + 1 : path;
+		size_t len = strlen("imported from ") + strlen(base) + (opt.note && *opt.note ? 2 + strlen(opt.note) : 0);
+		char why[200];
+		if (len > HB_TEXT_NOTE_MAX) {
+			hb_cli_error("note: %zu bytes with 'imported from' and the file name, limit %d", len,
+				     HB_TEXT_NOTE_MAX);
+			return HB_EXIT_USAGE;
+		}
+		if (hb_text_check("file name", base, 0, why, sizeof why) != HB_OK) {
+			hb_cli_error("import: %s (it goes into the sweep's note)", why);
+			return HB_EXIT_USAGE;
+		}
+	}
 	hb_db *db = NULL;
 	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
 		hb_cli_error("%s", db ? hb_db_errmsg(db) : "out of memory");

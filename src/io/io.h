@@ -90,7 +90,11 @@ typedef struct hb_csv_writer {
 } hb_csv_writer;
 
 void hb_csv_begin(hb_csv_writer *w, FILE *out);
-void hb_csv_text(hb_csv_writer *w, const char *s); /* NULL = empty cell */
+/* NULL = empty cell; text starting with '=', '+', '-', '@', tab or CR gets
+ * a leading single quote so that no spreadsheet runs it as a formula. */
+void hb_csv_text(hb_csv_writer *w, const char *s);
+/* Whether text starts like a spreadsheet formula (the cells hb_csv_text neutralises). */
+bool hb_csv_formula_like(const char *s);
 void hb_csv_num(hb_csv_writer *w, double v);       /* NaN, infinity = empty cell */
 void hb_csv_int(hb_csv_writer *w, long long v);
 void hb_csv_row_end(hb_csv_writer *w);
