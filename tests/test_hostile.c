@@ -307,6 +307,28 @@ static void test_text_corpus(void **state)
 	assert_int_equal(accepted, 5);
 }
 
+/* A serials file for inspect is held to the same rules, line by line,
+ * before anything is measured or stored. */
+static void test_serials_file_checked(void **state)
+{
+	(void)state;
+	char path[420], want[600];
+	snprintf(path, sizeof path, "%s/serials.txt", tmpdir);
+	write_file(path, "S-1\nS-\0332\n");
+	run r;
+	hb_run(&r, station_bare, "--db", db_path, "inspect", "--part", "HBX-108G", "--lot", "L-HOSTILE", "--lot-size",
+	       "50", "--aql", "1", "--serials", path, "--lcr", "sim:lcr", "--supply", "sim:supply", NULL);
+	assert_int_equal(r.status, 2);
+	assert_one_error_line(&r);
+	snprintf(want, sizeof want, "henrybench: %s:2: serial: control character 0x1b at byte 3", path);
+	assert_true(starts_with(r.err, want));
+	run_free(&r);
+	hb_run(&r, station_bare, "--db", db_path, "sweeps", "--lot", "L-HOSTILE", "--json", NULL);
+	assert_int_equal(r.status, 0);
+	assert_string_equal(r.out, "[]\n");
+	run_free(&r);
+}
+
 /* A note over its stated limit is refused, not cut (it used to be cut at
  * 511 bytes without a word). */
 static void test_note_limit(void **state)
@@ -615,6 +637,7 @@ int main(void)
 		cmocka_unit_test(test_text_check_messages),
 		cmocka_unit_test(test_text_corpus),
 		cmocka_unit_test(test_note_limit),
+		cmocka_unit_test(test_serials_file_checked),
 		cmocka_unit_test(test_output_refuses_non_regular),
 		cmocka_unit_test(test_output_replaces_regular_file),
 		cmocka_unit_test(test_stdout_full),
