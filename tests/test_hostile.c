@@ -18,6 +18,7 @@
 
 #include "cli_fixture.h"
 #include "common/hb_text.h"
+#include "db/hb_db.h"
 #include "drivers/hb_drivers.h"
 #include "drivers/profile_internal.h"
 #include "src/io/io.h"
@@ -329,6 +330,30 @@ static void test_serials_file_checked(void **state)
 	run_free(&r);
 }
 
+/* The store itself refuses a serial or lot code longer than the field it is
+ * read back into, whoever calls it (a value cut on the way back is how
+ * `sweeps --unit` once found nothing). */
+static void test_store_refuses_long_ids(void **state)
+{
+	(void)state;
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open(db_path, &db), HB_OK);
+	hb_db_part part;
+	assert_int_equal(hb_db_part_get(db, "HBX-108G", &part), HB_OK);
+	char id[HB_DB_ID_LEN + 1];
+	memset(id, 'L', HB_DB_ID_LEN);
+	id[HB_DB_ID_LEN] = '\0';
+	int64_t got = 0;
+	assert_int_equal(hb_db_unit_ensure(db, part.id, id, 0, &got), HB_ERR_ARG);
+	assert_string_equal(hb_db_errmsg(db), "serial: 64 bytes, limit 63");
+	assert_int_equal(hb_db_lot_ensure(db, part.id, id, &got), HB_ERR_ARG);
+	assert_string_equal(hb_db_errmsg(db), "lot code: 64 bytes, limit 63");
+	id[HB_DB_ID_LEN - 1] = '\0';
+	assert_int_equal(hb_db_unit_ensure(db, part.id, id, 0, &got), HB_OK);
+	assert_true(got > 0);
+	hb_db_close(db);
+}
+
 /* A note over its stated limit is refused, not cut (it used to be cut at
  * 511 bytes without a word). */
 static void test_note_limit(void **state)
@@ -638,6 +663,7 @@ int main(void)
 		cmocka_unit_test(test_text_corpus),
 		cmocka_unit_test(test_note_limit),
 		cmocka_unit_test(test_serials_file_checked),
+		cmocka_unit_test(test_store_refuses_long_ids),
 		cmocka_unit_test(test_output_refuses_non_regular),
 		cmocka_unit_test(test_output_replaces_regular_file),
 		cmocka_unit_test(test_stdout_full),
