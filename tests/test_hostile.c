@@ -13,7 +13,10 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <signal.h>
+#include <sys/resource.h>
 #include <sys/stat.h>
+#include <sys/wait.h>
 #include <unistd.h>
 
 #include "cli_fixture.h"
@@ -442,6 +445,120 @@ static void test_output_refuses_non_regular(void **state)
 	run_free(&r);
 }
 
+/* Runs henrybench with files limited to fsize bytes (RLIMIT_FSIZE; SIGXFSZ
+ * ignored, which exec keeps, so a write past it fails with EFBIG): a write
+ * or close of an output file that fails part-way. stdout is a pipe, read
+ * to its end. */
+static void run_fsize_limited(run *r, rlim_t fsize, char **argv)
+{
+	char err_path[400];
+	snprintf(err_path, sizeof err_path, "%s/stderr-fsize", tmpdir);
+	int fds[2];
+	assert_int_equal(pipe(fds), 0);
+	fflush(NULL);
+	pid_t pid = fork();
+	assert_true(pid >= 0);
+	if (pid == 0) {
+		setenv("HENRYBENCH_STATION", station_bare, 1);
+		unsetenv("HENRYBENCH_DB");
+		unsetenv("HENRYBENCH_PROFILE_PATH");
+		int err = open(err_path, O_WRONLY | O_CREAT | O_TRUNC, 0600);
+		int in = open("/dev/null", O_RDONLY);
+		if (err < 0 || in < 0)
+			_exit(127);
+		dup2(in, STDIN_FILENO);
+		dup2(fds[1], STDOUT_FILENO);
+		dup2(err, STDERR_FILENO);
+		close(fds[0]);
+		close(fds[1]);
+		signal(SIGXFSZ, SIG_IGN);
+		struct rlimit rl = { fsize, fsize };
+		if (setrlimit(RLIMIT_FSIZE, &rl) != 0)
+			_exit(126);
+		argv[0] = (char *)hb_bin;
+		execv(hb_bin, argv);
+		_exit(127);
+	}
+	close(fds[1]);
+	live_add(pid);
+	text out = { 0 };
+	read_until(fds[0], &out, NULL, 0);
+	close(fds[0]);
+	r->status = exit_of(wait_exit(pid));
+	r->out = out.s;
+	r->err = slurp(err_path);
+}
+
+/* A plot or report whose write fails part-way (the file system refuses
+ * more bytes): exit 1 with one line, the stream closed once (compare
+ * --plot closed it twice and aborted with "double free"), no target and
+ * no temporary left. The plots (drawn through temporary files), the page
+ * and the JSON export are larger than 36 kB; the store's own files
+ * stay below it. */
+static void test_output_write_failure(void **state)
+{
+	(void)state;
+	char dir[500], plot[560], page[560], data[560];
+	snprintf(dir, sizeof dir, "%s/efbig", tmpdir);
+	snprintf(data, sizeof data, "%s/all.json", dir);
+	assert_int_equal(mkdir(dir, 0700), 0);
+	snprintf(plot, sizeof plot, "%s/overlay.svg", dir);
+	snprintf(page, sizeof page, "%s/report.html", dir);
+	char *a1[] = { NULL, "--db", db_path, "compare", "2", "3", "--plot", plot, NULL };
+	char *a2[] = { NULL, "--db", db_path, "report", "2", "--out", page, NULL };
+	char *a3[] = { NULL, "--db", db_path, "export", "--json", "--part", "HBX-108G", "--out", data, NULL };
+	char **cmds[] = { a1, a2, a3 };
+	for (int i = 0; i < 3; i++) {
+		run r;
+		run_fsize_limited(&r, 36000, cmds[i]);
+		if (r.status != 1)
+			fail_msg("%s with a failing write: exit %d, stderr %s", cmds[i][3], r.status, r.err);
+		assert_one_error_line(&r);
+		run_free(&r);
+	}
+	assert_int_equal(entries_in(dir), 0);
+}
+
+/* hb_out_commit when the bytes are refused only at the flush (all of them
+ * waited in the stream's buffer): HB_ERR_IO naming the path and EFBIG, the
+ * stream closed exactly once (a second fclose aborts: "double free"), the
+ * temporary removed. In a child, whose file-size limit it sets. */
+static void test_out_commit_failure(void **state)
+{
+	(void)state;
+	char dir[500], path[560];
+	snprintf(dir, sizeof dir, "%s/commit", tmpdir);
+	assert_int_equal(mkdir(dir, 0700), 0);
+	snprintf(path, sizeof path, "%s/out.txt", dir);
+	fflush(NULL);
+	pid_t pid = fork();
+	assert_true(pid >= 0);
+	if (pid == 0) {
+		signal(SIGXFSZ, SIG_IGN);
+		struct rlimit rl = { 1000, 1000 };
+		if (setrlimit(RLIMIT_FSIZE, &rl) != 0)
+			_exit(10);
+		char err[300];
+		hb_out *o = NULL;
+		if (hb_out_open(path, &o, err, sizeof err) != HB_OK)
+			_exit(11);
+		static char buf[65536];
+		if (setvbuf(hb_out_stream(o), buf, _IOFBF, sizeof buf) != 0)
+			_exit(12);
+		for (int i = 0; i < 200; i++)
+			if (fputs("0123456789", hb_out_stream(o)) == EOF)
+				_exit(13); /* must wait in the buffer */
+		int rc = hb_out_commit(o, err, sizeof err);
+		char want[700];
+		snprintf(want, sizeof want, "cannot write %s: File too large", path);
+		_exit(rc == HB_ERR_IO && strcmp(err, want) == 0 ? 0 : 14);
+	}
+	int status = 0;
+	assert_int_equal(waitpid(pid, &status, 0), pid);
+	assert_int_equal(exit_of(status), 0);
+	assert_int_equal(entries_in(dir), 0);
+}
+
 /* A regular file is replaced whole through a temporary beside it, with its
  * permissions kept, and no temporary left. */
 static void test_output_replaces_regular_file(void **state)
@@ -666,6 +783,8 @@ int main(void)
 		cmocka_unit_test(test_store_refuses_long_ids),
 		cmocka_unit_test(test_output_refuses_non_regular),
 		cmocka_unit_test(test_output_replaces_regular_file),
+		cmocka_unit_test(test_output_write_failure),
+		cmocka_unit_test(test_out_commit_failure),
 		cmocka_unit_test(test_stdout_full),
 		cmocka_unit_test(test_stdout_closed_pipe),
 		cmocka_unit_test(test_sweep_output_lost_is_said),
