@@ -507,6 +507,12 @@ int hb_scpi_idn(hb_scpi *scpi, hb_idn *idn)
 		const char *comma = i < 3 ? strchr(p, ',') : NULL;
 		size_t len = comma ? (size_t)(comma - p) : strlen(p);
 		copy_trimmed(fields[i], HB_IDN_FIELD_MAX, p, len);
+		/* The fields are printed, stored and matched: a control
+		 * character (an escape sequence from a confused or hostile
+		 * peer) becomes '?', so no reply can drive the terminal. */
+		for (char *c = fields[i]; *c; c++)
+			if ((unsigned char)*c < 0x20 || *c == 0x7F)
+				*c = '?';
 		p = comma ? comma + 1 : NULL;
 	}
 	if (!idn->maker[0] && !idn->model[0])

@@ -20,6 +20,7 @@
 #include <unistd.h>
 
 #include "cli_fixture.h"
+#include "scripted_peer.h"
 #include "common/hb_text.h"
 #include "db/hb_db.h"
 #include "drivers/hb_drivers.h"
@@ -721,6 +722,32 @@ static void test_echoing_instrument(void **state)
 	hb_lcr_close(lcr);
 }
 
+/* An *IDN? reply carrying escape sequences and a bell (a confused or
+ * hostile peer): the fields printed, stored and matched hold '?' in their
+ * place, so no reply can drive the operator's terminal. */
+static void test_idn_control_characters(void **state)
+{
+	(void)state;
+	static const peer_step steps[] = {
+		{ "*IDN?", PEER_REPLY, "Evil\x1b[2J Co,Model\x07" "X,SN\x7f" "1,fw\x1b]0;t\x07\n", 0, 0 },
+	};
+	peer p;
+	assert_int_equal(peer_start_tcp(&p, steps, sizeof steps / sizeof steps[0]), 0);
+	char res[160];
+	snprintf(res, sizeof res, "tcp://127.0.0.1:%d?timeout=2000", p.port);
+	hb_scpi *s = NULL;
+	assert_int_equal(hb_scpi_open(res, &s), HB_OK);
+	hb_idn idn;
+	assert_int_equal(hb_scpi_idn(s, &idn), HB_OK);
+	assert_string_equal(idn.maker, "Evil?[2J Co");
+	assert_string_equal(idn.model, "Model?X");
+	assert_string_equal(idn.serial, "SN?1");
+	assert_string_equal(idn.firmware, "fw?]0;t?");
+	hb_scpi_close(s);
+	peer_finish(&p);
+	assert_int_equal(p.mismatches, 0);
+}
+
 /* identify says the instrument echoes and names the option. */
 static void test_identify_names_echo(void **state)
 {
@@ -790,6 +817,7 @@ int main(void)
 		cmocka_unit_test(test_sweep_output_lost_is_said),
 		cmocka_unit_test(test_echoing_instrument),
 		cmocka_unit_test(test_identify_names_echo),
+		cmocka_unit_test(test_idn_control_characters),
 	};
 	return cmocka_run_group_tests(tests, group_setup, cli_fixture_teardown);
 }
