@@ -22,7 +22,7 @@ VERSION    := 0.1.0
 
 CC         ?= cc
 
-PKGS       := libserialport gsl sqlite3 inih plplot jansson libcrypto
+PKGS       := libserialport gsl sqlite3 inih plplot jansson libcrypto libpcre2-8
 TEST_PKGS  := cmocka
 
 # The compiler decides the warning flags and has its own build folder, so

@@ -87,5 +87,21 @@ char *hb_text_pad(char *buf, size_t cap, const char *s, size_t width, bool left)
  * on out; 0, or EOF when the write failed. */
 #include <stdio.h>
 int hb_fput_cell(FILE *out, const char *s, size_t width, bool left);
+/* ---- text fields typed by a user: checked, never cut (text.c) ---- */
+
+/* Stated limits, in bytes of UTF-8, of the text fields a user types; each
+ * fits its store buffer (db/hb_db.h) with the terminating NUL. */
+enum { HB_TEXT_ID_MAX = 63, HB_TEXT_DESC_MAX = 255, HB_TEXT_NOTE_MAX = 511 };
+
+/*
+ * HB_OK when s is well-formed UTF-8 (no overlong forms, no surrogates,
+ * nothing above U+10FFFF) without control characters (C0 including tab and
+ * newline, DEL, C1) and holds at most limit bytes (0 = no limit). Otherwise
+ * HB_ERR_ARG with one line in err naming field and the reason: "serial:
+ * 70 bytes, limit 63", "part number: control character 0x1b at byte 4",
+ * "note: not valid UTF-8 at byte 9". The value itself is never echoed:
+ * it may hold terminal escapes.
+ */
+int hb_text_check(const char *field, const char *s, size_t limit, char *err, size_t errlen);
 
 #endif

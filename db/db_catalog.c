@@ -231,6 +231,9 @@ int hb_db_lot_ensure(hb_db *db, int64_t part_id, const char *lot_code, int64_t *
 		return HB_ERR_ARG;
 	if (!*lot_code)
 		return db_error(db, HB_ERR_ARG, "a lot needs a lot code");
+	/* never stored longer than the field it is read back into */
+	if (strlen(lot_code) >= HB_DB_ID_LEN)
+		return db_error(db, HB_ERR_ARG, "lot code: %zu bytes, limit %d", strlen(lot_code), HB_DB_ID_LEN - 1);
 	/* The no-op update makes RETURNING give the id of an existing lot too. */
 	sqlite3_stmt *st = db_stmt(db, ST_LOT_INSERT,
 		"INSERT INTO lots (part_id, lot_code, created) VALUES (?1, ?2, ?3)"
@@ -316,6 +319,8 @@ int hb_db_unit_ensure(hb_db *db, int64_t part_id, const char *serial, int64_t lo
 		return HB_ERR_ARG;
 	if (!*serial)
 		return db_error(db, HB_ERR_ARG, "a unit needs a serial number");
+	if (strlen(serial) >= HB_DB_ID_LEN)
+		return db_error(db, HB_ERR_ARG, "serial: %zu bytes, limit %d", strlen(serial), HB_DB_ID_LEN - 1);
 	sqlite3_stmt *st = db_stmt(db, ST_UNIT_INSERT,
 		"INSERT INTO units (part_id, serial, lot_id, created) VALUES (?1, ?2, ?3, ?4)"
 		" ON CONFLICT (part_id, serial) DO UPDATE SET lot_id = coalesce(excluded.lot_id, lot_id)"

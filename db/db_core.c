@@ -179,8 +179,27 @@ double db_col_real(sqlite3_stmt *st, int col)
 
 void db_col_text(sqlite3_stmt *st, int col, char *buf, size_t cap)
 {
-	const unsigned char *t = sqlite3_column_text(st, col);
-	snprintf(buf, cap, "%s", t ? (const char *)t : "");
+	const char *t = (const char *)sqlite3_column_text(st, col);
+	if (!t)
+		t = "";
+	size_t n = strlen(t);
+	if (cap == 0)
+		return;
+	if (n < cap) {
+		memcpy(buf, t, n + 1);
+		return;
+	}
+	/* Longer than its field (stored before the input limits): shown cut,
+	 * but visibly, "..." at a UTF-8 character boundary, never silently. */
+	if (cap < 4) {
+		buf[0] = '\0';
+		return;
+	}
+	size_t keep = cap - 4;
+	while (keep > 0 && ((unsigned char)t[keep] & 0xC0) == 0x80)
+		keep--;
+	memcpy(buf, t, keep);
+	memcpy(buf + keep, "...", 4);
 }
 
 double db_now(void)

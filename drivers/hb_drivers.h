@@ -44,6 +44,7 @@ typedef struct hb_resource {
 	int timeout_ms;                /* per operation; default 2000, accepted 1..600000 */
 	hb_eol eol;                    /* line ending we send; default lf */
 	char profile[HB_RES_TEXT_MAX]; /* forced profile name or path; empty = match on *IDN? */
+	bool echo;                     /* echo=yes: the instrument echoes every command line */
 } hb_resource;
 
 /* Parse a resource string. On failure returns HB_ERR_ARG and writes a
@@ -384,4 +385,15 @@ typedef struct hb_clock_ops {
 	void *ctx;
 } hb_clock_ops;
 void hb_clock_install(const hb_clock_ops *ops);
+/* ---- instruments that echo commands (scpi.c) ---- */
+
+/* With echo on, the line the instrument sends back after each command is
+ * read and checked to be that command, then dropped; a reply follows for a
+ * query. Set at open by the resource's echo=yes, or by a profile's
+ * link.echo = yes once the profile is chosen. */
+void hb_scpi_set_echo(hb_scpi *scpi, bool echo);
+/* True when *IDN? was answered first by "*IDN?" itself while echo was off:
+ * the instrument echoes, and hb_scpi_idn read the reply that followed. */
+bool hb_scpi_echo_seen(const hb_scpi *scpi);
+
 #endif

@@ -53,6 +53,16 @@ int hb_instrument_open(hb_instrument *in, const char *label, const char *tag, hb
 	rc = hb_profile_choose(res, kind, &in->idn, &in->profile, err, sizeof err);
 	if (rc < 0)
 		return hb_instrument_fail(in, rc, "%s %s: %s", label, resource, err);
+	/* An echoing instrument: handled when the profile says so, otherwise
+	 * named with the two ways to say so (the *IDN? itself was read past
+	 * its echo by hb_scpi_idn). */
+	if (hb_profile_number(in->profile, HB_PK_LINK_ECHO, 0) != 0)
+		hb_scpi_set_echo(in->scpi, true);
+	else if (hb_scpi_echo_seen(in->scpi))
+		return hb_instrument_fail(in, HB_ERR_PROTOCOL,
+					  "%s %s: the instrument echoes each command ('*IDN?' came back before its "
+					  "reply): set link.echo = yes in [profile] of %s, or add ?echo=yes to the resource",
+					  label, resource, hb_profile_path(in->profile));
 	in->kind_confirmed = true;
 	if (!res->profile[0] && !hb_profile_matches(in->profile, &in->idn)) {
 		/* Fallen back to the generic profile: the kind is in doubt only

@@ -136,6 +136,7 @@ const keydef hb_profile_keys[HB_PK_COUNT] = {
 	{ HB_PK_LCR_ACCURACY_SOURCE, SEC_LCR, "accuracy.source", VT_TEXT, false, 0, 0, NULL },
 	{ HB_PK_SUP_ACCURACY_CURRENT, SEC_SUPPLY, "accuracy.current", VT_TEXT, false, 0, 0, NULL },
 	{ HB_PK_SUP_ACCURACY_SOURCE, SEC_SUPPLY, "accuracy.source", VT_TEXT, false, 0, 0, NULL },
+	{ HB_PK_LINK_ECHO, SEC_PROFILE, "link.echo", VT_BOOL, false, 0, 0, NULL },
 };
 
 
@@ -335,17 +336,15 @@ static int store_value(load_ctx *c, const keydef *kd, const char *value)
 		}
 		break;
 	case VT_REGEX: {
-		regex_t *re = kd->id == HB_PK_MATCH_MAKER ? &p->maker_re : &p->model_re;
-		int rc = regcomp(re, value, REG_EXTENDED | REG_ICASE | REG_NOSUB);
-		if (rc != 0) {
-			regerror(rc, re, why, sizeof why);
+		pcre2_code *re = hb_profile_regex_compile(value, why, sizeof why);
+		if (!re) {
 			ctx_err(c, c->line, "key '%s': bad regular expression '%s': %s", kd->name, value, why);
 			return 0;
 		}
 		if (kd->id == HB_PK_MATCH_MAKER)
-			p->has_maker_re = true;
+			p->maker_re = re;
 		else
-			p->has_model_re = true;
+			p->model_re = re;
 		break;
 	}
 	case VT_TEXT: {
@@ -729,10 +728,8 @@ void hb_profile_free(hb_profile *p)
 {
 	if (!p)
 		return;
-	if (p->has_maker_re)
-		regfree(&p->maker_re);
-	if (p->has_model_re)
-		regfree(&p->model_re);
+	pcre2_code_free(p->maker_re);
+	pcre2_code_free(p->model_re);
 	for (size_t i = 0; i < HB_PK_COUNT; i++)
 		free(p->v[i].text);
 	free(p->path);
@@ -831,17 +828,6 @@ void hb_profile_operations(const hb_profile *p, char *provided, size_t pcap, cha
 		if (cap > used)
 			snprintf(buf + used, cap - used, "%s%s", used ? " " : "", word);
 	}
-}
-
-bool hb_profile_matches(const hb_profile *p, const hb_idn *idn)
-{
-	if (!p || !idn || (!p->has_maker_re && !p->has_model_re))
-		return false;
-	if (p->has_maker_re && regexec(&p->maker_re, idn->maker, 0, NULL, 0) != 0)
-		return false;
-	if (p->has_model_re && regexec(&p->model_re, idn->model, 0, NULL, 0) != 0)
-		return false;
-	return true;
 }
 
 int hb_profile_parse_long(const char *text, long *value)

@@ -2,12 +2,18 @@
 #ifndef HB_PROFILE_INTERNAL_H
 #define HB_PROFILE_INTERNAL_H
 
-#include <regex.h>
 #include <stdbool.h>
 #include <stddef.h>
 #include <stdio.h>
 
 #include "hb_drivers.h"
+
+/* PCRE2 with a bounded cost: a pathological match.* pattern fails at load
+ * or gives up at a match limit instead of taking the machine's memory. */
+#ifndef PCRE2_CODE_UNIT_WIDTH
+#define PCRE2_CODE_UNIT_WIDTH 8
+#endif
+#include <pcre2.h>
 
 /*
  * Every key a profile may carry, in one list. The table in profile.c gives
@@ -104,6 +110,8 @@ typedef enum hb_pkey {
 	HB_PK_LCR_ACCURACY_SOURCE,
 	HB_PK_SUP_ACCURACY_CURRENT,
 	HB_PK_SUP_ACCURACY_SOURCE,
+	/* [profile] link.echo: the instrument echoes every command line */
+	HB_PK_LINK_ECHO,
 	HB_PK_COUNT
 } hb_pkey;
 
@@ -121,8 +129,7 @@ struct hb_profile {
 	hb_instrument_kind kind;
 	int priority;
 	bool check_errors;
-	bool has_maker_re, has_model_re;
-	regex_t maker_re, model_re;
+	pcre2_code *maker_re, *model_re; /* NULL = key absent */
 	hb_pvalue v[HB_PK_COUNT];
 };
 
@@ -268,5 +275,22 @@ int hb_instrument_command_opc(hb_instrument *in, const char *command, const char
 int hb_instrument_settle_check(hb_instrument *in, int settle_ms, const char *what, const char *command);
 /* hb_scpi_errors with the failure recorded on the handle. */
 int hb_instrument_errors(hb_instrument *in, hb_scpi_error *list, size_t cap, size_t *count, bool *lost);
+
+/* ---- bounded pattern matching (profile.c) ---- */
+
+/* What one PCRE2 match may spend: backtracking steps, nesting depth and
+ * heap (KiB). An IDN field is at most HB_IDN_FIELD_MAX bytes, so a sane
+ * pattern stays far below them; (a+)+$ on a long 'aaa...b' hits them. */
+enum { HB_PROFILE_MATCH_LIMIT = 100000, HB_PROFILE_DEPTH_LIMIT = 1000, HB_PROFILE_HEAP_LIMIT_KIB = 1024 };
+
+/* Compiles a match.* pattern (case-insensitive) with a nesting cap;
+ * NULL with why filled when PCRE2 refuses it. */
+pcre2_code *hb_profile_regex_compile(const char *pattern, char *why, size_t whylen);
+/* 1 when pattern matches subject anywhere, 0 when not, HB_ERR_LIMIT when the
+ * match, depth or heap limit stopped it (why says which), HB_ERR_NOMEM. */
+int hb_profile_regex_match(const pcre2_code *re, const char *subject, char *why, size_t whylen);
+/* hb_profile_matches with the reason: 1 match, 0 none, HB_ERR_LIMIT with
+ * why = "PATH:LINE: key 'match.model': ..." when a pattern gave up. */
+int hb_profile_match_check(const hb_profile *p, const hb_idn *idn, char *why, size_t whylen);
 
 #endif

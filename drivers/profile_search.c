@@ -263,12 +263,27 @@ int hb_profile_match(hb_instrument_kind kind, const hb_idn *idn, hb_profile **ou
 			char path[PATH_MAX + 300];
 			snprintf(path, sizeof path, "%s/%s", d.dirs[i], names[j]);
 			hb_profile *p;
-			/* A broken profile on the path is reported, not skipped:
-			 * silently falling back would hide the user's mistake. */
-			rc = hb_profile_load(path, &p, err, errlen);
-			if (rc < 0)
+			/* A broken profile on the path is skipped with a warning
+			 * naming file:line: one bad file must not block every
+			 * instrument, and saying so keeps the mistake visible. */
+			char why[512];
+			rc = hb_profile_load(path, &p, why, sizeof why);
+			if (rc == HB_ERR_NOMEM)
 				break;
-			if (p->kind == kind && hb_profile_matches(p, idn) && (!best || p->priority > best->priority)) {
+			if (rc < 0) {
+				fprintf(stderr, "henrybench: warning: profile skipped: %s\n", why);
+				rc = HB_OK;
+				continue;
+			}
+			int m = p->kind == kind ? hb_profile_match_check(p, idn, why, sizeof why) : 0;
+			if (m == HB_ERR_NOMEM) {
+				hb_profile_free(p);
+				rc = m;
+				break;
+			}
+			if (m < 0)
+				fprintf(stderr, "henrybench: warning: profile skipped: %s\n", why);
+			if (m == 1 && (!best || p->priority > best->priority)) {
 				hb_profile_free(best);
 				best = p;
 			} else {

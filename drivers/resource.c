@@ -122,7 +122,7 @@ static int parse_tcp_address(const char *text, const char *addr, size_t len, hb_
 
 static int parse_option(const char *text, char *opt, hb_resource *r, unsigned *seen, char *err, size_t errlen)
 {
-	static const char *const names[] = { "timeout", "eol", "profile", "baud", "data", "parity", "stop", "flow" };
+	static const char *const names[] = { "timeout", "eol", "profile", "baud", "data", "parity", "stop", "flow", "echo" };
 	char *eq = strchr(opt, '=');
 	if (!*opt)
 		return fail(err, errlen, text, "empty option (stray '&' or '?')");
@@ -135,7 +135,7 @@ static int parse_option(const char *text, char *opt, hb_resource *r, unsigned *s
 		which++;
 	if (which == sizeof names / sizeof names[0])
 		return fail(err, errlen, text,
-			    "unknown option '%s'; accepted: timeout, eol, profile (all), baud, data, parity, stop, flow "
+			    "unknown option '%s'; accepted: timeout, eol, profile, echo (all), baud, data, parity, stop, flow "
 			    "(serial:, tty:)",
 			    opt);
 	if (!value || !*value)
@@ -143,7 +143,7 @@ static int parse_option(const char *text, char *opt, hb_resource *r, unsigned *s
 	if (*seen & (1u << which))
 		return fail(err, errlen, text, "option '%s' given twice", opt);
 	*seen |= 1u << which;
-	bool line_option = which >= 3;
+	bool line_option = which >= 3 && which <= 7;
 	if (line_option && r->kind != HB_RES_SERIAL && r->kind != HB_RES_TTY)
 		return fail(err, errlen, text, "option '%s' applies to serial: and tty: only", opt);
 
@@ -198,6 +198,15 @@ static int parse_option(const char *text, char *opt, hb_resource *r, unsigned *s
 			r->flow = HB_FLOW_XONXOFF;
 		else
 			return fail(err, errlen, text, "flow '%s' unknown; accepted: none, rtscts, xonxoff", value);
+		break;
+	case 8:
+		/* an instrument that echoes each command line before its reply */
+		if (strcmp(value, "yes") == 0)
+			r->echo = true;
+		else if (strcmp(value, "no") == 0)
+			r->echo = false;
+		else
+			return fail(err, errlen, text, "echo '%s' unknown; accepted: yes, no", value);
 		break;
 	}
 	return HB_OK;

@@ -33,6 +33,8 @@ struct hb_scpi {
 	/* A previous exchange failed or timed out: its reply may still be on
 	 * the way, so the next command waits for a quiet line first. */
 	bool unsettled;
+	bool echo;      /* each command comes back as a line first: read and dropped */
+	bool echo_seen; /* *IDN? was echoed while echo was off */
 	char errmsg[SCPI_ERRMSG_MAX];
 };
 
@@ -215,6 +217,7 @@ int hb_scpi_open(const char *resource, hb_scpi **out)
 		return scpi_fail(s, HB_ERR_NOMEM, "out of memory opening %s", resource);
 	snprintf(s->tag, sizeof s->tag, "%.60s", s->link->name);
 	snprintf(s->name, sizeof s->name, "%s", s->link->name);
+	s->echo = s->res.echo;
 	if (rc < 0) {
 		snprintf(s->errmsg, sizeof s->errmsg, "%s", hb_link_errmsg(s->link));
 		hb_link_close(s->link);
@@ -293,6 +296,49 @@ static int settle(hb_scpi *s, bool before_query)
 	return HB_OK;
 }
 
+/* Whether line is command sent back, blanks at the ends aside (a CR of a
+ * CRLF ending may come back as a blank). */
+static bool is_echo(const char *line, const char *command)
+{
+	while (isspace((unsigned char)*line))
+		line++;
+	size_t n = strlen(line);
+	while (n > 0 && isspace((unsigned char)line[n - 1]))
+		n--;
+	return n == strlen(command) && strncmp(line, command, n) == 0;
+}
+
+/* Reads the echo of command and drops it; anything else in its place is a
+ * protocol error (the line is settled before the next command). */
+static int read_echo(hb_scpi *s, const char *command)
+{
+	char line[SCPI_COMMAND_MAX + 8];
+	int rc = hb_link_read_line(s->link, line, sizeof line, s->res.timeout_ms);
+	if (rc < 0) {
+		s->unsettled = true;
+		return scpi_fail(s, rc, "%s, waiting for the echo of '%.60s' (echo is on: the instrument should send "
+				    "each command back)", hb_link_errmsg(s->link), command);
+	}
+	trace_event(s, '<', line, (size_t)rc, "echo");
+	if ((size_t)rc != strlen(line) || !is_echo(line, command)) {
+		s->unsettled = true;
+		return scpi_fail(s, HB_ERR_PROTOCOL, "%s: expected the echo of '%.60s', got '%.60s' (is echo on for an "
+				    "instrument that does not echo?)", s->name, command, line);
+	}
+	return HB_OK;
+}
+
+void hb_scpi_set_echo(hb_scpi *scpi, bool echo)
+{
+	if (scpi)
+		scpi->echo = echo;
+}
+
+bool hb_scpi_echo_seen(const hb_scpi *scpi)
+{
+	return scpi && scpi->echo_seen;
+}
+
 static int send_command(hb_scpi *s, const char *command)
 {
 	size_t len = command ? strlen(command) : 0;
@@ -315,7 +361,7 @@ static int send_command(hb_scpi *s, const char *command)
 		s->unsettled = true;
 		return scpi_fail(s, rc, "%s, sending '%.60s'", hb_link_errmsg(s->link), command);
 	}
-	return HB_OK;
+	return s->echo ? read_echo(s, command) : HB_OK;
 }
 
 int hb_scpi_write(hb_scpi *scpi, const char *command)
@@ -441,6 +487,15 @@ int hb_scpi_idn(hb_scpi *scpi, hb_idn *idn)
 	int rc = hb_scpi_query(scpi, "*IDN?", reply, sizeof reply);
 	if (rc < 0)
 		return rc;
+	if (!scpi->echo && is_echo(reply, "*IDN?")) {
+		/* The instrument sent the command back: it echoes. The reply
+		 * follows; the caller decides whether echo handling is set up
+		 * (a profile's link.echo) or the user must be told. */
+		scpi->echo_seen = true;
+		rc = hb_scpi_read_line(scpi, reply, sizeof reply);
+		if (rc < 0)
+			return rc;
+	}
 	snprintf(idn->raw, sizeof idn->raw, "%s", reply);
 	/* IEEE 488.2 10.14: four comma-separated fields; some instruments
 	 * leave the last ones out, so only the first comma is required. */
@@ -452,6 +507,12 @@ int hb_scpi_idn(hb_scpi *scpi, hb_idn *idn)
 		const char *comma = i < 3 ? strchr(p, ',') : NULL;
 		size_t len = comma ? (size_t)(comma - p) : strlen(p);
 		copy_trimmed(fields[i], HB_IDN_FIELD_MAX, p, len);
+		/* The fields are printed, stored and matched: a control
+		 * character (an escape sequence from a confused or hostile
+		 * peer) becomes '?', so no reply can drive the terminal. */
+		for (char *c = fields[i]; *c; c++)
+			if ((unsigned char)*c < 0x20 || *c == 0x7F)
+				*c = '?';
 		p = comma ? comma + 1 : NULL;
 	}
 	if (!idn->maker[0] && !idn->model[0])

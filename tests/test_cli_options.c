@@ -442,13 +442,15 @@ static void test_parser_rules(void **state)
 	assert_string_equal(a1[10], "op1");
 	assert_string_equal(a1[11], "op2");
 
-	/* "--" ends the options; what follows is an operand even if it looks like one */
+	/* "--" ends the options; what follows is an operand even if it looks like
+	 * one. The "--" stays among the options, so the operands run from first
+	 * to argc: a command counting argc - first sees exactly one. */
 	char *a2[] = { "probe", "--flag", "--", "--value", NULL };
 	assert_int_equal(probe_parse(&p, &res, a2, 4, err, sizeof err), HB_OK);
 	assert_true(p.flag);
 	assert_false(p.value_given);
-	assert_int_equal(res.first, 2);
-	assert_string_equal(a2[2], "--value");
+	assert_int_equal(res.first, 3);
+	assert_string_equal(a2[3], "--value");
 
 	/* an ambiguous prefix, a flag given a value, a bad id, too many operands */
 	char *a3[] = { "probe", "--va", "1", NULL };

@@ -34,9 +34,10 @@ static int store_point(void *ctx, const hb_sweep_point *p, int total)
 	pt.bias_spread_a = p->bias_readbacks > 0 ? p->bias_spread : NAN;
 	pt.settled = p->settled;
 	int rc = hb_db_point_add(c->s->db, &pt);
-	if (rc != HB_OK && c->s->progress)
-		fprintf(c->s->progress, "%shenrybench: store: %s\n", c->s->progress_tty ? "\n" : "",
-			hb_db_errmsg(c->s->db));
+	/* an error goes to stderr (the progress may be a pipe being read);
+	 * on a terminal the live line is ended first */
+	if (rc != HB_OK)
+		fprintf(stderr, "%shenrybench: store: %s\n", c->s->progress_tty ? "\n" : "", hb_db_errmsg(c->s->db));
 	return rc;
 }
 
@@ -239,8 +240,8 @@ int hb_session_measure(hb_session *s, const hb_db_part *part, const char *serial
 	/* Recording the end is attempted whatever happened; if even that fails
 	 * the next open marks the sweep interrupted, its points kept. */
 	int end_rc = hb_db_sweep_end(s->db, sw.id, end_status(result), result->reason);
-	if (end_rc != HB_OK && s->progress)
-		fprintf(s->progress, "henrybench: could not record the end of sweep %lld: %s\n", (long long)sw.id,
+	if (end_rc != HB_OK)
+		fprintf(stderr, "henrybench: could not record the end of sweep %lld: %s\n", (long long)sw.id,
 			hb_db_errmsg(s->db));
 	return rc;
 }

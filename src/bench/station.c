@@ -73,10 +73,24 @@ static int on_entry(void *user, const char *section, const char *name, const cha
 		return 0;
 	if (strcmp(section, "station") == 0) {
 		if (strcmp(name, "name") == 0) {
+			/* stored with every sweep: one line of UTF-8, never cut */
+			char why[160];
+			if (hb_text_check("station name", value, sizeof s->name - 1, why, sizeof why) != HB_OK) {
+				snprintf(c->err, c->errlen, "%s:%d: key 'name': %s", s->path, line, why);
+				c->failed = 1;
+				return 0;
+			}
 			snprintf(s->name, sizeof s->name, "%s", value);
 			return 1;
 		}
 		if (strcmp(name, "operator") == 0) {
+			/* stored with every sweep: one line of UTF-8, never cut */
+			char why[160];
+			if (hb_text_check("operator", value, sizeof s->operator_name - 1, why, sizeof why) != HB_OK) {
+				snprintf(c->err, c->errlen, "%s:%d: key 'operator': %s", s->path, line, why);
+				c->failed = 1;
+				return 0;
+			}
 			snprintf(s->operator_name, sizeof s->operator_name, "%s", value);
 			return 1;
 		}

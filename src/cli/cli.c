@@ -57,3 +57,36 @@ void hb_cli_global_cleanup(void)
 	trace_file_owned = NULL;
 	hb_global.trace = NULL;
 }
+
+/* Set once standard output's failure has been reported, so main's final
+ * check does not say it twice. */
+static bool stdout_reported;
+
+void hb_cli_stdout_error(const char *cmd)
+{
+	int e = errno;
+	if (stdout_reported)
+		return;
+	stdout_reported = true;
+	hb_cli_error("%s%scannot write to standard output: %s", cmd ? cmd : "", cmd ? ": " : "",
+		     e ? strerror(e) : "write error");
+}
+
+int hb_cli_finish_stdout(int status)
+{
+	errno = 0;
+	bool failed = fflush(stdout) != 0 || ferror(stdout);
+	int e = errno;
+	/* fclose reports what a deferred write (NFS, a pipe) kept back */
+	if (fclose(stdout) != 0 && !failed) {
+		failed = true;
+		e = errno;
+	}
+	if (!failed)
+		return status;
+	if (!stdout_reported && status == HB_EXIT_OK) {
+		stdout_reported = true;
+		hb_cli_error("standard output lost: %s (what was stored is kept)", e ? strerror(e) : "write error");
+	}
+	return status == HB_EXIT_OK ? HB_EXIT_RUNTIME : status;
+}

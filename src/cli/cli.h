@@ -271,5 +271,15 @@ extern const hb_cmd_opts hb_opts_watch;
 /* `profile check` and `profile new` (cmd_profile.c): bring-up of a new instrument. */
 int hb_cmd_profile(int argc, char **argv);
 extern const hb_cmd_opts hb_opts_profile;
+/* ---- output checked to the end (cli.c) ---- */
+
+/* Reports once, on stderr, that standard output could not be written
+ * ("CMD: cannot write to standard output: REASON"); cmd may be NULL. */
+void hb_cli_stdout_error(const char *cmd);
+/* Run by main after the command: flushes and closes standard output and,
+ * when any write to it failed (a full disk, a closed pipe: EPIPE, since
+ * SIGPIPE is ignored), says the output was lost and turns a 0 status into
+ * HB_EXIT_RUNTIME. Anything already stored stays stored. */
+int hb_cli_finish_stdout(int status);
 
 #endif

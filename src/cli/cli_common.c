@@ -17,6 +17,10 @@ int hb_print_json(json_t *root)
 		return HB_ERR_NOMEM;
 	/* the io room's writer: every JSON document in one number format */
 	int rc = hb_json_write(root, stdout);
+	if (rc == HB_OK && fflush(stdout) != 0)
+		rc = HB_ERR_IO;
+	if (rc == HB_ERR_IO)
+		hb_cli_stdout_error(NULL);
 	json_decref(root);
 	return rc;
 }

@@ -88,7 +88,7 @@ int hb_cmd_export(int argc, char **argv)
 	}
 	hb_db *db = NULL;
 	int exit_code = HB_EXIT_RUNTIME;
-	FILE *out = NULL;
+	hb_out *out = NULL;
 	if (!(db = hb_cli_open_store_read(&exit_code)))
 		goto done;
 	if (!ids) {
@@ -115,22 +115,22 @@ int hb_cmd_export(int argc, char **argv)
 			goto done;
 		qsort(ids, n, sizeof *ids, cmp_id);
 	}
-	out = out_path ? fopen(out_path, "w") : stdout;
-	if (!out) {
-		hb_cli_error("cannot write %s: %s", out_path, strerror(errno));
+	char err[300] = "";
+	int rc = hb_out_open(out_path ? out_path : "-", &out, err, sizeof err);
+	if (rc != HB_OK) {
+		hb_cli_error("export --out: %s", err);
+		if (rc == HB_ERR_ARG)
+			exit_code = HB_EXIT_USAGE;
 		goto done;
 	}
-	char err[300] = "";
-	int rc = csv ? hb_export_csv(db, ids, n, out, err, sizeof err) : hb_export_json(db, ids, n, out, err, sizeof err);
-	if (out_path) {
-		if (fclose(out) != 0 && rc == HB_OK) {
-			rc = HB_ERR_IO;
-			snprintf(err, sizeof err, "cannot write %s: %s", out_path, strerror(errno));
-		}
-	} else if (fflush(stdout) != 0 && rc == HB_OK) {
-		rc = HB_ERR_IO;
-		snprintf(err, sizeof err, "write to standard output failed");
-	}
+	FILE *f = hb_out_stream(out);
+	rc = csv ? hb_export_csv(db, ids, n, f, err, sizeof err) : hb_export_json(db, ids, n, f, err, sizeof err);
+	hb_out *o = out;
+	out = NULL;
+	if (rc == HB_OK)
+		rc = hb_out_commit(o, err, sizeof err);
+	else
+		hb_out_abort(o);
 	if (rc != HB_OK) {
 		hb_cli_error("export: %s", err[0] ? err : hb_status_name(rc));
 		if (rc == HB_ERR_NOTFOUND)
@@ -141,6 +141,7 @@ int hb_cmd_export(int argc, char **argv)
 		fprintf(stderr, "exported %zu sweep%s to %s\n", n, n == 1 ? "" : "s", out_path);
 	exit_code = HB_EXIT_OK;
 done:
+	hb_out_abort(out);
 	free(ids);
 	hb_db_close(db);
 	return exit_code;
@@ -211,6 +212,23 @@ int hb_cmd_import(int argc, char **argv)
 		return HB_EXIT_USAGE;
 	}
 	const char *path = argv[r.first];
+	{
+		/* the stored note is "imported from FILE; NOTE": checked whole
+		 * against its limit here rather than cut in the store */
+		const char *base = strrchr(path, '/');
+		base = base ? base + 1 : path;
+		size_t len = strlen("imported from ") + strlen(base) + (opt.note && *opt.note ? 2 + strlen(opt.note) : 0);
+		char why[200];
+		if (len > HB_TEXT_NOTE_MAX) {
+			hb_cli_error("note: %zu bytes with 'imported from' and the file name, limit %d", len,
+				     HB_TEXT_NOTE_MAX);
+			return HB_EXIT_USAGE;
+		}
+		if (hb_text_check("file name", base, 0, why, sizeof why) != HB_OK) {
+			hb_cli_error("import: %s (it goes into the sweep's note)", why);
+			return HB_EXIT_USAGE;
+		}
+	}
 	/* The part must be stored already: a store that is not there is a
 	 * mistyped --db, not a new empty one. */
 	int open_exit = HB_EXIT_RUNTIME;

@@ -339,7 +339,7 @@ int hb_cmd_history(int argc, char **argv)
 		}
 	}
 	if (fflush(stdout) != 0) {
-		hb_cli_error("history: cannot write to standard output");
+		hb_cli_stdout_error("history");
 		goto out;
 	}
 	exit_code = HB_EXIT_OK;
@@ -613,13 +613,24 @@ static int write_overlay(hb_db *db, const int64_t *ids, size_t n, const char *pa
 		hb_cli_error("compare --plot: %s", hb_status_name(rc));
 		return rc;
 	}
-	FILE *f = fopen(path, "w");
-	if (!f || fputs(svg, f) == EOF || fclose(f) != 0) {
-		hb_cli_error("compare --plot %s: cannot write: %s", path, strerror(errno));
-		if (f)
-			fclose(f);
+	/* through the one output-file path: a failed close is reported once and
+	 * the stream is never closed twice; a FIFO or device is refused */
+	char err[300] = "";
+	hb_out *o = NULL;
+	rc = hb_out_open(path, &o, err, sizeof err);
+	if (rc == HB_OK) {
+		if (fputs(svg, hb_out_stream(o)) == EOF) {
+			snprintf(err, sizeof err, "cannot write %s: %s", path, strerror(errno));
+			hb_out_abort(o);
+			rc = HB_ERR_IO;
+		} else {
+			rc = hb_out_commit(o, err, sizeof err);
+		}
+	}
+	if (rc != HB_OK) {
+		hb_cli_error("compare --plot: %s", err);
 		free(svg);
-		return HB_ERR_IO;
+		return rc;
 	}
 	free(svg);
 	return HB_OK;
@@ -705,10 +716,16 @@ int hb_cmd_compare(int argc, char **argv)
 	} else {
 		print_compare_text(&t);
 	}
-	if (plot_path && write_overlay(db, ids, n, plot_path) != HB_OK)
-		goto out;
+	if (plot_path) {
+		int prc = write_overlay(db, ids, n, plot_path);
+		if (prc != HB_OK) {
+			/* a FIFO, device or directory given as the path is a bad value */
+			exit_code = prc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
+			goto out;
+		}
+	}
 	if (fflush(stdout) != 0) {
-		hb_cli_error("compare: cannot write to standard output");
+		hb_cli_stdout_error("compare");
 		goto out;
 	}
 	exit_code = HB_EXIT_OK;

@@ -56,6 +56,7 @@ typedef struct identity {
 	size_t nerrors;
 	bool lost;
 	bool errors_read;
+	bool echoes;                /* *IDN? came back before its reply */
 } identity;
 
 static const char *kind_name(hb_instrument_kind kind)
@@ -124,6 +125,10 @@ static int identify_one(identity *id)
 	rc = choose_profile(id, hb_scpi_resource(scpi));
 	if (rc < 0)
 		goto out;
+	/* read the error queue past the echoes too */
+	id->echoes = hb_scpi_echo_seen(scpi);
+	if (id->echoes)
+		hb_scpi_set_echo(scpi, true);
 	rc = hb_scpi_errors(scpi, id->errors, IDENTIFY_ERRORS_MAX, &id->nerrors, &id->lost);
 	if (rc < 0) {
 		snprintf(id->error, sizeof id->error, "error queue: %s", hb_scpi_errmsg(scpi));
@@ -161,6 +166,9 @@ static void print_text(const identity *id)
 		       hb_profile_path(id->fallback[0]), hb_profile_name(id->fallback[1]),
 		       hb_profile_path(id->fallback[1]));
 	}
+	if (id->echoes)
+		printf("  echo:        the instrument sends each command back before its reply: set link.echo = yes\n"
+		       "               in the profile's [profile] section, or add ?echo=yes to the resource\n");
 	if (id->errors_read) {
 		if (id->nerrors == 0 && !id->lost)
 			printf("  error queue: empty\n");
@@ -216,6 +224,7 @@ static json_t *to_json(const identity *id)
 		json_object_set_new(o, "serial", json_string(id->idn.serial));
 		json_object_set_new(o, "firmware", json_string(id->idn.firmware));
 	}
+	json_object_set_new(o, "echoes_commands", json_boolean(id->echoes));
 	if (id->profile) {
 		json_object_set_new(o, "kind", json_string(id->kind));
 		json_object_set_new(o, "forced", json_boolean(id->forced));

@@ -237,11 +237,16 @@ static int load_serials(const char *path, unit_source *src)
 	unsigned lineno = 0;
 	while (fgets(line, sizeof line, f)) {
 		lineno++;
+		bool whole = strchr(line, '\n') || feof(f);
 		char *s = trim(line);
 		if (!*s || *s == '#')
 			continue;
-		if (strlen(s) >= HB_DB_ID_LEN) {
-			hb_cli_error("%s:%u: serial '%s' is longer than %d characters", path, lineno, s, HB_DB_ID_LEN - 1);
+		/* a line longer than the buffer arrives in pieces: refused whole */
+		char why[200];
+		if (!whole)
+			snprintf(why, sizeof why, "serial: longer than %d bytes, limit %d", (int)sizeof line - 2, HB_TEXT_ID_MAX);
+		if (!whole || hb_text_check("serial", s, HB_TEXT_ID_MAX, why, sizeof why) != HB_OK) {
+			hb_cli_error("%s:%u: %s", path, lineno, why);
 			rc = HB_ERR_ARG;
 			break;
 		}
@@ -319,6 +324,7 @@ static hb_inspect_action next_unit(void *ctx, int sequence, const char *complain
 	/* Answers from a pipe are not echoed: keep the log readable. */
 	if (!isatty(fileno(src->in)))
 		fputc('\n', src->prompt);
+	bool whole = strchr(line, '\n') || feof(src->in);
 	char *s = trim(line);
 	if (strcasecmp(s, "q") == 0)
 		return HB_INSPECT_PAUSE;
@@ -326,9 +332,21 @@ static hb_inspect_action next_unit(void *ctx, int sequence, const char *complain
 		snprintf(serial, cap, "%s", proposal);
 		return HB_INSPECT_SKIP;
 	}
-	if (strlen(s) >= cap) {
+	/* A serial is one whole line of UTF-8 within its limit: an over-long
+	 * line is read to its end (its rest must not become the next answer)
+	 * and refused, as is a control character from a confused scanner. */
+	char why[200];
+	if (!whole) {
+		int ch;
+		while ((ch = fgetc(src->in)) != EOF && ch != '\n')
+			;
 		snprintf(serial, cap, "%s", "");
-		return next_unit(ctx, sequence, "that serial is too long", serial, cap);
+		snprintf(why, sizeof why, "serial: longer than %d bytes, limit %d", (int)sizeof line - 2, HB_TEXT_ID_MAX);
+		return next_unit(ctx, sequence, why, serial, cap);
+	}
+	if (hb_text_check("serial", s, cap - 1 < HB_TEXT_ID_MAX ? cap - 1 : HB_TEXT_ID_MAX, why, sizeof why) != HB_OK) {
+		snprintf(serial, cap, "%s", "");
+		return next_unit(ctx, sequence, why, serial, cap);
 	}
 	snprintf(serial, cap, "%s", *s ? s : proposal);
 	return HB_INSPECT_MEASURE;

@@ -366,6 +366,11 @@ static int take_desc(const hb_opt *o, const char *text, void *field)
 {
 	hb_db_part *p = field;
 	(void)o;
+	char err[200];
+	if (hb_text_check("description (--desc)", text, HB_TEXT_DESC_MAX, err, sizeof err) != HB_OK) {
+		hb_cli_error("%s", err);
+		return HB_ERR_ARG;
+	}
 	snprintf(p->description, sizeof p->description, "%s", text);
 	return HB_OK;
 }
@@ -374,6 +379,11 @@ static int take_maker(const hb_opt *o, const char *text, void *field)
 {
 	hb_db_part *p = field;
 	(void)o;
+	char err[200];
+	if (hb_text_check("maker (--maker)", text, HB_TEXT_ID_MAX, err, sizeof err) != HB_OK) {
+		hb_cli_error("%s", err);
+		return HB_ERR_ARG;
+	}
 	snprintf(p->maker, sizeof p->maker, "%s", text);
 	return HB_OK;
 }
@@ -613,8 +623,13 @@ static int part_write(int argc, char **argv, bool add)
 	}
 	char pnbuf[HB_DB_ID_LEN];
 	const char *pn = add ? argv[first] : hb_cli_part_number(argv[first], pnbuf, sizeof pnbuf);
-	if (!*pn || strlen(pn) >= HB_DB_ID_LEN) {
-		hb_cli_error("part number '%s': accepted 1 to %d characters", pn, HB_DB_ID_LEN - 1);
+	char why[200];
+	if (!*pn) {
+		hb_cli_error("part number: empty; accepted 1 to %d bytes", HB_TEXT_ID_MAX);
+		return HB_EXIT_USAGE;
+	}
+	if (hb_text_check("part number", pn, HB_TEXT_ID_MAX, why, sizeof why) != HB_OK) {
+		hb_cli_error("%s", why);
 		return HB_EXIT_USAGE;
 	}
 	if (add) {

@@ -195,7 +195,7 @@ int hb_cmd_plan(int argc, char **argv)
 		print_text(&p);
 	}
 	if (fflush(stdout) != 0) {
-		hb_cli_error("plan: cannot write to standard output");
+		hb_cli_stdout_error("plan");
 		return HB_EXIT_RUNTIME;
 	}
 	return HB_EXIT_OK;

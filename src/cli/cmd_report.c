@@ -1,12 +1,11 @@
 /* src/cli/cmd_report.c - command `report`: a filed HTML record of one sweep, one lot or one part */
-#include <errno.h>
 #include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <unistd.h>
 
 #include "../../db/hb_db.h"
+#include "../io/io.h"
 #include "cli.h"
 #include "../report/report.h"
 

@@ -369,8 +369,11 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 	if (result.current_may_flow)
 		hb_session_warn_current_may_flow(stderr);
 	static const char *ends[] = { "complete", "aborted", "failed" };
-	fprintf(info, "sweep %lld %s: %d points%s%s\n", (long long)sweep_id, ends[result.end], result.points,
-		result.reason[0] ? "; " : "", result.reason);
+	/* an aborted or failed sweep is an error: its line goes to stderr,
+	 * with what was stored of it */
+	bool ended_well = result.end == HB_SWEEP_COMPLETE;
+	fprintf(ended_well ? info : stderr, "%ssweep %lld %s: %d points%s%s\n", ended_well ? "" : "henrybench: ",
+		(long long)sweep_id, ends[result.end], result.points, result.reason[0] ? "; " : "", result.reason);
 
 	hb_analysis_summary an;
 	memset(&an, 0, sizeof an);

@@ -385,8 +385,14 @@ int hb_cmd_show(int argc, char **argv)
 	} else if (csv) {
 		/* the export's table of this one sweep, so it imports back */
 		char err[300] = "";
-		if (hb_export_csv(db, &s.id, 1, stdout, err, sizeof err) != HB_OK || fflush(stdout) != 0) {
-			hb_cli_error("show: %s", err[0] ? err : "cannot write to standard output");
+		int xrc = hb_export_csv(db, &s.id, 1, stdout, err, sizeof err);
+		if (xrc == HB_OK && fflush(stdout) != 0)
+			xrc = HB_ERR_IO;
+		if (xrc != HB_OK) {
+			if (ferror(stdout))
+				hb_cli_stdout_error("show");
+			else
+				hb_cli_error("show: %s", err[0] ? err : hb_status_name(xrc));
 			goto out;
 		}
 		exit_code = HB_EXIT_OK;

@@ -1,9 +1,8 @@
 /* src/cli/demo_reports.c - the demo's filed reports: first prototype's sweep, the inspected lot, the part's history */
-#include <errno.h>
 #include <stdio.h>
 #include <string.h>
-#include <unistd.h>
 
+#include "../io/io.h"
 #include "cli.h"
 #include "demo.h"
 #include "../report/report.h"

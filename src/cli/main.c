@@ -83,17 +83,17 @@ int main(int argc, char **argv)
 	if (argc < 2 || strcmp(argv[1], "--help") == 0 || strcmp(argv[1], "-h") == 0 ||
 	    strcmp(argv[1], "help") == 0) {
 		usage(argc < 2 ? stderr : stdout);
-		return argc < 2 ? HB_EXIT_USAGE : HB_EXIT_OK;
+		return hb_cli_finish_stdout(argc < 2 ? HB_EXIT_USAGE : HB_EXIT_OK);
 	}
 	if (strcmp(argv[1], "--version") == 0 || strcmp(argv[1], "version") == 0) {
 		printf("henrybench %s\n", HB_VERSION);
-		return HB_EXIT_OK;
+		return hb_cli_finish_stdout(HB_EXIT_OK);
 	}
 	for (const hb_command *c = hb_commands; c->name; c++) {
 		if (strcmp(argv[1], c->name) == 0) {
 			int rc = c->run(argc - 1, argv + 1);
 			hb_cli_global_cleanup();
-			return rc;
+			return hb_cli_finish_stdout(rc);
 		}
 	}
 	hb_cli_error("unknown command '%s' (try 'henrybench --help')", argv[1]);

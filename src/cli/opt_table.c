@@ -77,6 +77,42 @@ static int parse_id(const hb_opt *o, const char *text, void *field)
 	return HB_OK;
 }
 
+/* The text options that name a stored field: their name in messages and
+ * their stated limit (docs/hostile-input.md). Every other text option is
+ * still checked as one line of UTF-8 without control characters. */
+static const struct {
+	const char *option, *field;
+	size_t limit;
+} text_fields[] = {
+	{ "part", "part number", HB_TEXT_ID_MAX },
+	{ "unit", "serial", HB_TEXT_ID_MAX },
+	{ "first-serial", "serial", HB_TEXT_ID_MAX },
+	{ "lot", "lot code", HB_TEXT_ID_MAX },
+	{ "note", "note", HB_TEXT_NOTE_MAX },
+};
+
+static int check_text(const hb_opt *o, const char *option, const char *text)
+{
+	const char *field = option;
+	size_t limit = 0;
+	for (size_t i = 0; i < sizeof text_fields / sizeof text_fields[0]; i++) {
+		if (strcmp(o->name, text_fields[i].option) == 0) {
+			field = text_fields[i].field;
+			limit = text_fields[i].limit;
+		}
+	}
+	char label[120], err[240];
+	if (field == option)
+		snprintf(label, sizeof label, "%s", option);
+	else
+		snprintf(label, sizeof label, "%s (%s)", field, option);
+	if (hb_text_check(label, text, limit, err, sizeof err) != HB_OK) {
+		hb_cli_error("%s", err);
+		return HB_ERR_ARG;
+	}
+	return HB_OK;
+}
+
 /* Parses one option's argument into out. */
 static int take(const hb_opt *o, const char *text, void *out)
 {
@@ -90,6 +126,10 @@ static int take(const hb_opt *o, const char *text, void *out)
 		*(bool *)field = true;
 		break;
 	case HB_OPT_TEXT:
+		rc = check_text(o, option, text);
+		if (rc == HB_OK)
+			*(const char **)field = text;
+		break;
 	case HB_OPT_PATH:
 		*(const char **)field = text;
 		break;
@@ -198,6 +238,9 @@ int hb_opts_parse(const hb_cmd_opts *cmd, int argc, char **argv, void *out, hb_o
 	for (; i < argc && !res->done; i++) {
 		char *a = argv[i];
 		if (strcmp(a, "--") == 0) {
+			/* kept among the options, so that the operands still end
+			 * at argc for the command counting them */
+			argv[n_opts++] = a;
 			for (i++; i < argc; i++)
 				operands[n_ops++] = argv[i];
 			break;

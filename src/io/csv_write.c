@@ -20,20 +20,34 @@ static void separate(hb_csv_writer *w)
 		fputc(',', w->out);
 }
 
+bool hb_csv_formula_like(const char *s)
+{
+	/* A spreadsheet takes a cell starting with one of these as a formula
+	 * (or, for tab and CR, strips them and looks again): OWASP's CSV
+	 * injection guidance, common practice. */
+	return s && *s && strchr("=+-@\t\r", *s) != NULL;
+}
+
 void hb_csv_text(hb_csv_writer *w, const char *s)
 {
 	separate(w);
 	if (!s)
 		return;
+	/* Text that a spreadsheet would run as a formula is made inert with a
+	 * leading single quote. Only text cells: numbers go through
+	 * hb_csv_num, so a negative number stays a number. */
+	const char *prefix = hb_csv_formula_like(s) ? "'" : "";
 	/* RFC 4180 quotes a field holding the delimiter, a quote, CR or LF; a
 	 * leading or trailing space is quoted too, since many readers (ours for
 	 * unquoted cells among them) trim it away. */
 	size_t len = strlen(s);
 	if (!strpbrk(s, ",\"\r\n") && !(len && (s[0] == ' ' || s[len - 1] == ' '))) {
+		fputs(prefix, w->out);
 		fputs(s, w->out);
 		return;
 	}
 	fputc('"', w->out);
+	fputs(prefix, w->out);
 	for (; *s; s++) {
 		if (*s == '"')
 			fputc('"', w->out);

@@ -95,7 +95,11 @@ typedef struct hb_csv_writer {
 } hb_csv_writer;
 
 void hb_csv_begin(hb_csv_writer *w, FILE *out);
-void hb_csv_text(hb_csv_writer *w, const char *s); /* NULL = empty cell */
+/* NULL = empty cell; text starting with '=', '+', '-', '@', tab or CR gets
+ * a leading single quote so that no spreadsheet runs it as a formula. */
+void hb_csv_text(hb_csv_writer *w, const char *s);
+/* Whether text starts like a spreadsheet formula (the cells hb_csv_text neutralises). */
+bool hb_csv_formula_like(const char *s);
 void hb_csv_num(hb_csv_writer *w, double v);       /* NaN, infinity = empty cell */
 void hb_csv_int(hb_csv_writer *w, long long v);
 void hb_csv_row_end(hb_csv_writer *w);
@@ -160,5 +164,36 @@ int hb_json_write(const json_t *root, FILE *out);
  * (each point's tol the band in force: its own, else the mask's); `part show --json`
  * and export put it under "drawing". */
 json_t *hb_json_part_drawing(const hb_db_part_drawing *d);
+/* ---------------- output files: written beside, renamed over (out_file.c) ---------------- */
+
+/*
+ * Every file henrybench writes on request (report --out, export --out,
+ * compare --plot, ...) goes through these: the data go to a temporary file
+ * in the target's directory, renamed over the target at commit, so a failed
+ * run never leaves half a file. Only a regular file (or nothing) is
+ * replaced: a FIFO, a device (/dev/full), a directory or a symbolic link at
+ * the path is refused before anything is written. "-" is standard output,
+ * written in place and flushed at commit.
+ */
+typedef struct hb_out hb_out;
+
+/* HB_ERR_ARG when the path names something other than a regular file (err
+ * says what it is: exit 2, a bad value given), HB_ERR_IO when the temporary
+ * file cannot be made (exit 1). */
+int hb_out_open(const char *path, hb_out **out, char *err, size_t errlen);
+FILE *hb_out_stream(hb_out *o);
+/* The path as given ("-" for standard output). */
+const char *hb_out_path(const hb_out *o);
+/* Flushes, closes and renames; HB_ERR_IO with err on any failure (the
+ * temporary file is removed and the target left as it was). Frees o. */
+int hb_out_commit(hb_out *o, char *err, size_t errlen);
+/* Flushes and closes the data before the commit, so that they can be read
+ * back (a filed report hashes the bytes it will rename); the commit then
+ * only renames. hb_out_data_path: where they are until then (NULL for
+ * standard output). */
+int hb_out_close_data(hb_out *o, char *err, size_t errlen);
+const char *hb_out_data_path(const hb_out *o);
+/* Drops the temporary file; the target is untouched. Frees o; NULL no-op. */
+void hb_out_abort(hb_out *o);
 
 #endif

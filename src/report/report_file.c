@@ -12,6 +12,7 @@
 #include "html.h"
 #include "report.h"
 #include "report_internal.h"
+#include "../io/io.h"
 
 /* The page being filed; PLplot already makes report writing one thread at a time. */
 static const rpt_stamp *current;
@@ -243,43 +244,33 @@ int hb_report_file(hb_db *db, const hb_report_request *rq, char number[HB_DB_UID
 	}
 	rpt_stamp stamp = { .number = rec.uid, .kind = rec.kind, .data_sha256 = rec.data_sha256,
 			    .sweeps = rec.sweep_ids, .n_sweeps = rec.n_sweeps };
-	/* Written beside the target and renamed, so a failed run never leaves
-	 * half a record where a complete one is expected. */
-	char tmp[4200];
-	snprintf(tmp, sizeof tmp, "%s.tmp%ld", rq->path, (long)getpid());
-	FILE *out = to_stdout ? stdout : fopen(tmp, "w");
-	if (!out) {
-		hb_set_err(err, errlen, "cannot write %s: %s", tmp, strerror(errno));
+	/* Written beside the target and renamed over a regular file only
+	 * (src/io/out_file.c), so a failed run never leaves half a record and a
+	 * FIFO, device or link at the path is never replaced. */
+	hb_out *o = NULL;
+	rc = hb_out_open(rq->path, &o, err, errlen);
+	if (rc != HB_OK) {
 		hb_db_report_clear(&rec);
-		return HB_ERR_IO;
+		return rc;
 	}
 	current = &stamp;
-	rc = write_page(db, rq, out, err, errlen);
+	rc = write_page(db, rq, hb_out_stream(o), err, errlen);
 	current = NULL;
-	if (to_stdout) {
-		if (fflush(stdout) != 0 && rc == HB_OK) {
-			rc = HB_ERR_IO;
-			hb_set_err(err, errlen, "write to standard output failed");
-		}
-	} else if (fclose(out) != 0 && rc == HB_OK) {
-		rc = HB_ERR_IO;
-		hb_set_err(err, errlen, "cannot write %s: %s", tmp, strerror(errno));
-	}
+	if (rc == HB_OK)
+		rc = hb_out_close_data(o, err, errlen);
 	/* the file hash is over the bytes as written, before the rename makes them the record */
-	if (rc == HB_OK && !to_stdout && hb_sha256_file(tmp, rec.file_sha256) != HB_OK) {
+	if (rc == HB_OK && !to_stdout && hb_sha256_file(hb_out_data_path(o), rec.file_sha256) != HB_OK) {
 		rc = HB_ERR_IO;
-		hb_set_err(err, errlen, "cannot read back %s to hash it", tmp);
+		hb_set_err(err, errlen, "cannot read back %s to hash it", hb_out_data_path(o));
 	}
 	if (rc == HB_OK && hb_db_report_put(db, &rec) != HB_OK) {
 		rc = HB_ERR_DB;
 		hb_set_err(err, errlen, "filing the report: %s", hb_db_errmsg(db));
 	}
-	if (rc == HB_OK && !to_stdout && rename(tmp, rq->path) != 0) {
-		rc = HB_ERR_IO;
-		hb_set_err(err, errlen, "cannot rename %s to %s: %s", tmp, rq->path, strerror(errno));
-	}
-	if (rc != HB_OK && !to_stdout)
-		unlink(tmp);
+	if (rc == HB_OK)
+		rc = hb_out_commit(o, err, errlen);
+	else
+		hb_out_abort(o);
 	if (rc == HB_OK && number)
 		snprintf(number, HB_DB_UID_LEN, "%s", rec.uid);
 	hb_db_report_clear(&rec);
