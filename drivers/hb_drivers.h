@@ -384,4 +384,16 @@ typedef struct hb_clock_ops {
 	void *ctx;
 } hb_clock_ops;
 void hb_clock_install(const hb_clock_ops *ops);
+
+/* ------------------------------------------------------------------ */
+/* Settings read back (drivers/settings.c, docs/profiles.md "Queries") */
+/* ------------------------------------------------------------------ */
+
+/* The reply of the profile's query.<name> operation, trimmed, as text.
+ * Meter names: frequency, level.voltage, level.current, function,
+ * averaging, aperture; supply names: voltage (the voltage limit) and
+ * output.state. HB_ERR_UNSUPPORTED when the profile has no such query. */
+int hb_lcr_query_setting(hb_lcr *lcr, const char *name, char *reply, size_t cap);
+int hb_supply_query_setting(hb_supply *supply, const char *name, char *reply, size_t cap);
+
 #endif

@@ -10,5 +10,6 @@
 #include "station.h" /* who and where measures; the bench's hard limits */
 #include "sweep.h"   /* plans, stepping, settling, the one safe shut-down path */
 #include "session.h" /* one measured sweep from start to store */
+#include "traceability.h" /* instrument register, calibration status, fixture compensation */
 
 #endif

@@ -203,4 +203,10 @@ extern const hb_cmd_opts hb_opts_export;
 extern const hb_cmd_opts hb_opts_import;
 extern const hb_cmd_opts hb_opts_completion;
 
+/* ---------------- traceability commands (cmd_instrument.c, cmd_fixture.c) ---------------- */
+int hb_cmd_instrument(int argc, char **argv);
+int hb_cmd_fixture(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_instrument;
+extern const hb_cmd_opts hb_opts_fixture;
+
 #endif

@@ -351,15 +351,19 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 		goto out;
 	}
 	hb_session s = { .db = db, .lcr = lcr, .supply = supply, .station = &station, .progress = info,
-			 .progress_tty = isatty(fileno(info)), .ambient_c = a.opts.ambient_c, .dcr_from_meter = a.dcr_meter };
+			 .progress_tty = isatty(fileno(info)), .ambient_c = a.opts.ambient_c, .dcr_from_meter = a.dcr_meter,
+			 .allow_overdue = a.opts.allow_overdue, .fixture = a.opts.fixture };
 	int64_t sweep_id = 0;
 	hb_sweep_result result;
 	hb_session_measure(&s, &part, a.unit, lot_id, &a.plan, a.note, &sweep_id, &result);
 	if (result.current_may_flow)
 		hb_session_warn_current_may_flow(stderr);
 	static const char *ends[] = { "complete", "aborted", "failed" };
-	fprintf(info, "sweep %lld %s: %d points%s%s\n", (long long)sweep_id, ends[result.end], result.points,
-		result.reason[0] ? "; " : "", result.reason);
+	if (sweep_id == 0)
+		hb_cli_error("sweep not started: %s", result.reason);
+	else
+		fprintf(info, "sweep %lld %s: %d points%s%s\n", (long long)sweep_id, ends[result.end], result.points,
+			result.reason[0] ? "; " : "", result.reason);
 
 	hb_analysis_summary an;
 	memset(&an, 0, sizeof an);

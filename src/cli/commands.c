@@ -20,6 +20,8 @@ const hb_command hb_commands[] = {
 	{ "report", hb_cmd_report, "write an HTML record of a sweep, a lot or a part (inline plots)", &hb_opts_report },
 	{ "export", hb_cmd_export, "stored sweeps as CSV or JSON, SI units in every column", &hb_opts_export },
 	{ "import", hb_cmd_import, "store a sweep a meter logged on its own (CSV), then fit it", &hb_opts_import },
+	{ "instrument", hb_cmd_instrument, "the instrument register: list, show, edit calibration; affected records", &hb_opts_instrument },
+	{ "fixture", hb_cmd_fixture, "open/short compensation of a test fixture, recorded for the sweeps", &hb_opts_fixture },
 	{ "completion", hb_cmd_completion, "print a bash completion script generated from the option tables", &hb_opts_completion },
 	{ NULL, NULL, NULL, NULL },
 };

@@ -57,6 +57,9 @@ typedef struct hb_inspect_config {
 	/* How a unit with a conditional outcome (the non-binary decision rule)
 	 * counts; the plan printout states it. Default: nonconforming. */
 	hb_conditional_policy conditional_policy;
+	/* traceability: passed to every sample's session */
+	bool allow_overdue;
+	const char *fixture;           /* NULL = "default" */
 } hb_inspect_config;
 
 /* One sample position as it was recorded (or would have been). */
