@@ -47,4 +47,10 @@ void rpt_stats_row(hb_html *h, const char *name, const double *vals, size_t n, d
 /* Column heads of the statistics tables of the lot and part reports. */
 extern const char *const rpt_stats_head[9];
 
+/* ---- what the sweep ran with (report_instruments.c) ---- */
+/* Instruments with their calibration status, the fixture compensation in
+ * force and the settings read back at start and end, flagged when they
+ * differ. Nothing when the store holds no record of it (older sweeps). */
+void rpt_instruments_section(hb_html *h, hb_db *db, int64_t sweep_id);
+
 #endif
