@@ -51,7 +51,9 @@ static void find_fixture(hb_session *s, hb_session_trace *tr)
 	tr->t.open_comp_id = have_open ? open.id : 0;
 	tr->t.short_comp_id = have_short ? shrt.id : 0;
 	double max_h = isfinite(s->station->fixture_max_age_h) ? s->station->fixture_max_age_h : HB_FIXTURE_MAX_AGE_HOURS;
-	double now = (double)time(NULL);
+	struct timespec ts;
+	clock_gettime(CLOCK_REALTIME, &ts);
+	double now = (double)ts.tv_sec + ts.tv_nsec * 1e-9;
 	char status[HB_DB_TEXT_LEN] = "";
 	if (!have_open && !have_short) {
 		snprintf(status, sizeof status, "missing: no open or short compensation of fixture '%s' recorded", fixture);
