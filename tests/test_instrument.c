@@ -360,6 +360,79 @@ static void test_register_accuracy_wins(void **state)
 	hb_db_close(db);
 }
 
+/* The demo registers its simulated meter, and the reverse query on it
+ * lists every sweep the demo stored (as `sweeps` lists them) and the lot
+ * it rejected (the demo's scenario, src/cli/demo_extras.c: one unit of
+ * the sample far above tolerance reaches Re). */
+static void test_demo_meter_affected(void **state)
+{
+	(void)state;
+	char out_dir[600], demo_db[700];
+	snprintf(out_dir, sizeof out_dir, "%s/demo", tmpdir);
+	snprintf(demo_db, sizeof demo_db, "%s/bench.db", out_dir);
+	run r;
+	hb_run(&r, station_warn, "demo", "--out", out_dir, NULL);
+	assert_int_equal(r.status, 0);
+	run_free(&r);
+	hb_run(&r, station_warn, "--db", demo_db, "sweeps", "--json", NULL);
+	assert_int_equal(r.status, 0);
+	json_error_t je;
+	json_t *list = json_loads(r.out, 0, &je);
+	assert_non_null(list);
+	size_t stored = json_array_size(json_is_array(list) ? list : json_object_get(list, "sweeps"));
+	json_decref(list);
+	run_free(&r);
+	assert_true(stored >= 4);
+	hb_run(&r, station_warn, "--db", demo_db, "instrument", "affected", "SL0001", "--since", "2000-01-01", "--json",
+	       NULL);
+	assert_int_equal(r.status, 0);
+	json_t *root = json_loads(r.out, 0, &je);
+	assert_non_null(root);
+	assert_int_equal(json_array_size(json_object_get(root, "sweeps")), stored);
+	json_t *lots = json_object_get(root, "lots");
+	assert_int_equal(json_array_size(lots), 1);
+	assert_string_equal(json_string_value(json_object_get(json_array_get(lots, 0), "decision")), "reject");
+	/* the demo gave its meter an invented calibration, in force today */
+	assert_string_equal(json_string_value(json_object_get(json_object_get(root, "instrument"), "calibration")),
+			    "in-calibration");
+	json_decref(root);
+	run_free(&r);
+}
+
+/* `fixture open` end to end against a simulated fixture holding nothing
+ * but 20 pF of stray capacitance: the stored residual is that C (open:
+ * Y = jwC, so C = B / w); a frequency out of range is a usage error. */
+static void test_fixture_command(void **state)
+{
+	(void)state;
+	sim_server sim;
+	sim_start(&sim, "--param", "fixture_state=1", "--param", "cfix=20pF", "--param", "noise=1e-7", NULL);
+	run r;
+	hb_run(&r, station_warn, "--db", db_path, "fixture", "open", "--lcr", sim.lcr, "--fixture", "jig-7", "--freq",
+	       "10kHz,100kHz", "--measure-only", "--json", NULL);
+	if (r.status != 0)
+		print_error("%s\n", r.err);
+	assert_int_equal(r.status, 0);
+	json_error_t je;
+	json_t *o = json_loads(r.out, 0, &je);
+	assert_non_null(o);
+	assert_string_equal(json_string_value(json_object_get(o, "method")), "henrybench");
+	assert_string_equal(json_string_value(json_object_get(o, "fixture")), "jig-7");
+	json_t *res = json_object_get(o, "residuals");
+	assert_int_equal(json_array_size(res), 2);
+	for (size_t i = 0; i < 2; i++)
+		assert_true(fabs(json_number_value(json_object_get(json_array_get(res, i), "c_f")) / 20e-12 - 1) < 1e-4);
+	json_decref(o);
+	run_free(&r);
+	hb_run(&r, station_warn, "--db", db_path, "fixture", "open", "--lcr", sim.lcr, "--freq", "5Hz", NULL);
+	assert_int_equal(r.status, 2);
+	run_free(&r);
+	hb_run(&r, station_warn, "--db", db_path, "fixture", "sideways", "--lcr", sim.lcr, NULL);
+	assert_int_equal(r.status, 2);
+	run_free(&r);
+	sim_free(&sim);
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -368,6 +441,8 @@ int main(void)
 		cmocka_unit_test(test_cal_state_dates),
 		cmocka_unit_test_setup(test_affected_lists_what_an_instrument_made, store_setup),
 		cmocka_unit_test_setup(test_register_accuracy_wins, store_setup),
+		cmocka_unit_test(test_demo_meter_affected),
+		cmocka_unit_test_setup(test_fixture_command, store_setup),
 	};
 	return cmocka_run_group_tests(tests, group_setup, cli_fixture_teardown);
 }

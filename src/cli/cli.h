@@ -208,5 +208,8 @@ int hb_cmd_instrument(int argc, char **argv);
 int hb_cmd_fixture(int argc, char **argv);
 extern const hb_cmd_opts hb_opts_instrument;
 extern const hb_cmd_opts hb_opts_fixture;
+/* The lines `show` prints on what the sweep ran with (nothing for a sweep
+ * without a record of it). */
+void hb_show_trace(FILE *out, struct hb_db *db, long long sweep_id);
 
 #endif
