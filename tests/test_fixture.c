@@ -231,6 +231,17 @@ static void test_meter_correction_removes_the_leads(void **state)
 		assert_true(fabs(a[i].primary / b[i].primary - 1) < 2e-5);
 	hb_db_points_free(a);
 	hb_db_points_free(b);
+	/* Compensating again with the correction in force: the open reads
+	 * beyond the meter's range, is recorded so, and the correction runs. */
+	hb_db_fixture_comp again;
+	set_param("fixture_state", 1);
+	run_comp(lcr, "jig-B", HB_CORRECTION_OPEN, false, &again);
+	set_param("fixture_state", 0);
+	json_error_t je;
+	json_t *list = json_loads(again.residuals, 0, &je);
+	assert_int_equal(json_array_size(list), 2);
+	assert_true(json_is_true(json_object_get(json_array_get(list, 0), "overload")));
+	json_decref(list);
 	hb_lcr_close(lcr);
 }
 

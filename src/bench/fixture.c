@@ -100,6 +100,9 @@ static int load_list(const char *text, bool open, double *f, double *a, double *
 	{
 		if (*n >= HB_FIXTURE_MAX_FREQS)
 			break;
+		/* an overload entry: the meter's correction already removed it all */
+		if (json_is_true(json_object_get(item, "overload")))
+			continue;
 		double fv = json_number_value(json_object_get(item, "freq_hz"));
 		double av = json_number_value(json_object_get(item, open ? "g_s" : "r_ohm"));
 		double bv = json_number_value(json_object_get(item, open ? "c_f" : "l_h"));
@@ -192,13 +195,25 @@ int hb_fixture_run(hb_db *db, hb_lcr *lcr, const hb_fixture_request *req, hb_db_
 	for (int i = 0; i < n; i++) {
 		double complex z;
 		rc = read_residual(lcr, fs[i], &z, err, errlen);
+		json_t *o = json_object();
+		json_object_set_new(o, "freq_hz", json_real(fs[i]));
+		if (rc == HB_ERR_OVERLOAD && by_meter) {
+			/* A meter that already holds a correction may read the open
+			 * fixture as infinite or the short as nothing: recorded as
+			 * such, and the correction runs again. */
+			json_object_set_new(o, "overload", json_true());
+			json_array_append_new(list, o);
+			if (req->out)
+				fprintf(req->out, "%-5s %10.4g Hz: beyond the meter's range (a correction already in force?)\n",
+					rec->kind, fs[i]);
+			continue;
+		}
 		if (rc != HB_OK) {
+			json_decref(o);
 			json_decref(list);
 			return rc;
 		}
 		double w = 2.0 * M_PI * fs[i];
-		json_t *o = json_object();
-		json_object_set_new(o, "freq_hz", json_real(fs[i]));
 		if (open) {
 			double complex y = 1.0 / z;
 			json_object_set_new(o, "g_s", json_real(creal(y)));
