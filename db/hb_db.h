@@ -661,5 +661,95 @@ int hb_db_part_drawing_get(hb_db *db, int64_t part_id, hb_db_part_drawing *out);
 int hb_db_part_drawing_put(hb_db *db, const hb_db_part_drawing *d);
 /* The band tolerance of mask point i: its own, else the mask's. */
 double hb_db_curve_point_tol(const hb_db_part_drawing *d, size_t i);
+/* ================================================================== */
+/* traceability: instrument register, fixture compensations, what each */
+/* sweep ran with (db_instruments.c)                                  */
+/* ================================================================== */
+
+enum { HB_DB_JSON_LEN = 4096 };
+
+/* One instrument as its *IDN? named it, with its calibration status.
+ * Dates are "YYYY-MM-DD" ("" = not recorded). */
+typedef struct hb_db_instrument {
+	int64_t id;
+	char kind[8];                        /* "lcr" or "supply" */
+	char maker[HB_DB_ID_LEN], model[HB_DB_ID_LEN], serial[HB_DB_ID_LEN], firmware[HB_DB_ID_LEN];
+	char first_seen[HB_DB_TIME_LEN], last_seen[HB_DB_TIME_LEN];
+	char accuracy[HB_DB_ID_LEN];         /* override: "0.1%" (meter) or "0.05% + 1mA" (supply); "" = none */
+	char accuracy_freq_above[HB_DB_ID_LEN]; /* meter: "100kHz:0.05%"; "" = none */
+	char cal_date[16], due_date[16];
+	char certificate[HB_DB_TEXT_LEN];
+} hb_db_instrument;
+
+/* Finds the instrument by maker, model and serial, or records it (first
+ * and last seen now); last_seen and firmware are brought up to date.
+ * *created (may be NULL) tells whether it was new. */
+int hb_db_instrument_ensure(hb_db *db, const char *kind, const char *maker, const char *model, const char *serial,
+			    const char *firmware, hb_db_instrument *out, bool *created);
+int hb_db_instrument_get(hb_db *db, int64_t id, hb_db_instrument *out);
+/* By serial (case as recorded); HB_ERR_NOTFOUND, or HB_ERR_ARG when two
+ * makers' instruments share the serial (the message names them). */
+int hb_db_instrument_find(hb_db *db, const char *serial, hb_db_instrument *out);
+/* All, by kind then serial; free() the array. */
+int hb_db_instrument_list(hb_db *db, hb_db_instrument **out, size_t *count);
+/* Writes accuracy, accuracy_freq_above, cal_date, due_date and certificate of in->id. */
+int hb_db_instrument_update(hb_db *db, const hb_db_instrument *in);
+
+/* An open or short compensation of a fixture. */
+typedef struct hb_db_fixture_comp {
+	int64_t id;
+	char fixture[HB_DB_ID_LEN];
+	char kind[8];                 /* "open" or "short" */
+	char method[16];              /* "meter" or "henrybench" */
+	int64_t instrument_id;        /* the meter; 0 = unknown */
+	char at[HB_DB_TIME_LEN];      /* set by the store */
+	double at_unix;
+	char residuals[HB_DB_JSON_LEN]; /* JSON list, see schema step 13 */
+	char operator_name[HB_DB_ID_LEN];
+	char note[HB_DB_TEXT_LEN];
+} hb_db_fixture_comp;
+
+/* Stores it with the time now; sets id, at and at_unix. */
+int hb_db_fixture_comp_add(hb_db *db, hb_db_fixture_comp *c);
+int hb_db_fixture_comp_get(hb_db *db, int64_t id, hb_db_fixture_comp *out);
+/* The most recent of this fixture and kind; HB_ERR_NOTFOUND when none. */
+int hb_db_fixture_comp_latest(hb_db *db, const char *fixture, const char *kind, hb_db_fixture_comp *out);
+
+/* What one sweep ran with. */
+typedef struct hb_db_sweep_trace {
+	int64_t sweep_id;
+	int64_t lcr_instrument_id, supply_instrument_id; /* 0 = none */
+	char cal_status[HB_DB_NOTE_LEN];
+	bool overdue_allowed;
+	char fixture[HB_DB_ID_LEN];
+	int64_t open_comp_id, short_comp_id;             /* 0 = none */
+	char fixture_status[HB_DB_TEXT_LEN];             /* "" = in force; else the warning */
+	bool fixture_applied;                            /* residuals subtracted from the stored readings */
+	char settings_start[HB_DB_JSON_LEN], settings_end[HB_DB_JSON_LEN]; /* JSON objects */
+	char settings_changed[HB_DB_NOTE_LEN];           /* "" = the same; else what changed */
+} hb_db_sweep_trace;
+
+void hb_db_sweep_trace_init(hb_db_sweep_trace *t);
+/* Inserts or replaces the sweep's row. */
+int hb_db_sweep_trace_put(hb_db *db, const hb_db_sweep_trace *t);
+/* HB_ERR_NOTFOUND for a sweep without one (older stores, imports). */
+int hb_db_sweep_trace_get(hb_db *db, int64_t sweep_id, hb_db_sweep_trace *out);
+
+/* One record made with an instrument (reverse traceability). */
+typedef struct hb_db_affected {
+	char what[8];                 /* "sweep", "verdict", "lot" */
+	int64_t id;                   /* sweep, verdict or lot id */
+	int64_t sweep_id;             /* the sweep it rests on (lot: 0) */
+	char at[HB_DB_TIME_LEN];      /* sweep start; verdict created; lot decided */
+	char role[8];                 /* "lcr" or "supply" */
+	char part_number[HB_DB_ID_LEN], serial[HB_DB_ID_LEN], lot_code[HB_DB_ID_LEN];
+	char detail[HB_DB_TEXT_LEN];  /* sweep status; "check: outcome"; lot decision */
+} hb_db_affected;
+
+/* Every sweep that used the instrument and started at or after since_unix,
+ * each followed by its verdicts, then every lot with a sample swept on it
+ * (with its decision). Oldest first; free() the array. */
+int hb_db_instrument_affected(hb_db *db, int64_t instrument_id, double since_unix, hb_db_affected **out,
+			      size_t *count);
 
 #endif

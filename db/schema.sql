@@ -487,3 +487,58 @@ CREATE TABLE part_curve_mask (
 	tol REAL,
 	PRIMARY KEY (part_id, ord)
 ) WITHOUT ROWID;
+-- step 13: traceability: the instrument register (from *IDN?, with calibration status and an accuracy override), fixture compensations, and per sweep the instruments, compensation and settings read back
+CREATE TABLE instruments (
+	id INTEGER PRIMARY KEY,
+	kind TEXT NOT NULL CHECK (kind IN ('lcr', 'supply')),
+	maker TEXT NOT NULL,
+	model TEXT NOT NULL,
+	serial TEXT NOT NULL,
+	firmware TEXT NOT NULL DEFAULT '',
+	first_seen TEXT NOT NULL,
+	last_seen TEXT NOT NULL,
+	-- overrides the profile's and the station file's accuracy: '' = none (meter: "0.1%", supply: "0.05% + 1mA")
+	accuracy TEXT NOT NULL DEFAULT '',
+	accuracy_freq_above TEXT NOT NULL DEFAULT '',
+	cal_date TEXT NOT NULL DEFAULT '',
+	due_date TEXT NOT NULL DEFAULT '',
+	certificate TEXT NOT NULL DEFAULT '',
+	UNIQUE (maker, model, serial)
+);
+CREATE INDEX instruments_serial ON instruments(serial);
+
+CREATE TABLE fixture_compensations (
+	id INTEGER PRIMARY KEY,
+	fixture TEXT NOT NULL,
+	kind TEXT NOT NULL CHECK (kind IN ('open', 'short')),
+	-- 'meter': the meter's own correction ran (residuals as read before it); 'henrybench': measured here, applied to the readings
+	method TEXT NOT NULL CHECK (method IN ('meter', 'henrybench')),
+	instrument_id INTEGER REFERENCES instruments(id),
+	at TEXT NOT NULL,
+	at_unix REAL NOT NULL,
+	-- JSON list: [{"freq_hz":..,"re":..,"im":..,"g_s":..,"c_f":..}] (open: admittance G + jB) or [{"freq_hz":..,"r_ohm":..,"l_h":..}] (short: R + jX)
+	residuals TEXT NOT NULL DEFAULT '[]',
+	operator TEXT NOT NULL DEFAULT '',
+	note TEXT NOT NULL DEFAULT ''
+);
+CREATE INDEX fixture_comp_fixture ON fixture_compensations(fixture, at_unix);
+
+CREATE TABLE sweep_trace (
+	sweep_id INTEGER PRIMARY KEY REFERENCES sweeps(id) ON DELETE CASCADE,
+	lcr_instrument_id INTEGER REFERENCES instruments(id),
+	supply_instrument_id INTEGER REFERENCES instruments(id),
+	-- the calibration status seen at start, e.g. "SL0001 due 2026-01-01: overdue"
+	cal_status TEXT NOT NULL DEFAULT '',
+	overdue_allowed INTEGER NOT NULL DEFAULT 0,
+	fixture TEXT NOT NULL DEFAULT '',
+	open_comp_id INTEGER REFERENCES fixture_compensations(id),
+	short_comp_id INTEGER REFERENCES fixture_compensations(id),
+	-- '' = compensation in force; otherwise the warning given ("missing", "stale: 30.0 h old")
+	fixture_status TEXT NOT NULL DEFAULT '',
+	fixture_applied INTEGER NOT NULL DEFAULT 0,
+	settings_start TEXT NOT NULL DEFAULT '{}',
+	settings_end TEXT NOT NULL DEFAULT '{}',
+	settings_changed TEXT NOT NULL DEFAULT ''
+) WITHOUT ROWID;
+CREATE INDEX sweep_trace_lcr ON sweep_trace(lcr_instrument_id);
+CREATE INDEX sweep_trace_supply ON sweep_trace(supply_instrument_id);

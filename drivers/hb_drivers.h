@@ -396,4 +396,15 @@ void hb_scpi_set_echo(hb_scpi *scpi, bool echo);
  * the instrument echoes, and hb_scpi_idn read the reply that followed. */
 bool hb_scpi_echo_seen(const hb_scpi *scpi);
 
+/* ------------------------------------------------------------------ */
+/* Settings read back (drivers/settings.c, docs/profiles.md "Queries") */
+/* ------------------------------------------------------------------ */
+
+/* The reply of the profile's query.<name> operation, trimmed, as text.
+ * Meter names: frequency, level.voltage, level.current, function,
+ * averaging, aperture; supply names: voltage (the voltage limit) and
+ * output.state. HB_ERR_UNSUPPORTED when the profile has no such query. */
+int hb_lcr_query_setting(hb_lcr *lcr, const char *name, char *reply, size_t cap);
+int hb_supply_query_setting(hb_supply *supply, const char *name, char *reply, size_t cap);
+
 #endif

@@ -505,3 +505,11 @@ void hb_lcr_accuracy(const hb_lcr *lcr, hb_accuracy *out)
 {
 	hb_profile_lcr_accuracy(lcr ? lcr->in.profile : NULL, out);
 }
+
+int hb_lcr_query_setting(hb_lcr *lcr, const char *name, char *reply, size_t cap)
+{
+	int rc = usable(lcr);
+	if (rc < 0)
+		return rc;
+	return hb_instrument_query_setting(&lcr->in, name, reply, cap);
+}

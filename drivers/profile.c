@@ -137,6 +137,13 @@ const keydef hb_profile_keys[HB_PK_COUNT] = {
 	{ HB_PK_SUP_ACCURACY_CURRENT, SEC_SUPPLY, "accuracy.current", VT_TEXT, false, 0, 0, NULL },
 	{ HB_PK_SUP_ACCURACY_SOURCE, SEC_SUPPLY, "accuracy.source", VT_TEXT, false, 0, 0, NULL },
 	{ HB_PK_LINK_ECHO, SEC_PROFILE, "link.echo", VT_BOOL, false, 0, 0, NULL },
+	{ HB_PK_LCR_QUERY_FREQUENCY, SEC_LCR, "query.frequency", VT_QUERY, false, 0, 0, NULL },
+	{ HB_PK_LCR_QUERY_LEVEL_VOLTAGE, SEC_LCR, "query.level.voltage", VT_QUERY, false, 0, 0, NULL },
+	{ HB_PK_LCR_QUERY_LEVEL_CURRENT, SEC_LCR, "query.level.current", VT_QUERY, false, 0, 0, NULL },
+	{ HB_PK_LCR_QUERY_FUNCTION, SEC_LCR, "query.function", VT_QUERY, false, 0, 0, NULL },
+	{ HB_PK_LCR_QUERY_AVERAGING, SEC_LCR, "query.averaging", VT_QUERY, false, 0, 0, NULL },
+	{ HB_PK_LCR_QUERY_APERTURE, SEC_LCR, "query.aperture", VT_QUERY, false, 0, 0, NULL },
+	{ HB_PK_SUP_QUERY_VOLTAGE, SEC_SUPPLY, "query.voltage", VT_QUERY, false, 0, 0, NULL },
 };
 
 

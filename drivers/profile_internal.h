@@ -112,6 +112,14 @@ typedef enum hb_pkey {
 	HB_PK_SUP_ACCURACY_SOURCE,
 	/* [profile] link.echo: the instrument echoes every command line */
 	HB_PK_LINK_ECHO,
+	/* settings read back at the start and end of a sweep (settings.c) */
+	HB_PK_LCR_QUERY_FREQUENCY,
+	HB_PK_LCR_QUERY_LEVEL_VOLTAGE,
+	HB_PK_LCR_QUERY_LEVEL_CURRENT,
+	HB_PK_LCR_QUERY_FUNCTION,
+	HB_PK_LCR_QUERY_AVERAGING,
+	HB_PK_LCR_QUERY_APERTURE,
+	HB_PK_SUP_QUERY_VOLTAGE,
 	HB_PK_COUNT
 } hb_pkey;
 
@@ -275,6 +283,9 @@ int hb_instrument_command_opc(hb_instrument *in, const char *command, const char
 int hb_instrument_settle_check(hb_instrument *in, int settle_ms, const char *what, const char *command);
 /* hb_scpi_errors with the failure recorded on the handle. */
 int hb_instrument_errors(hb_instrument *in, hb_scpi_error *list, size_t cap, size_t *count, bool *lost);
+/* The reply of a setting's query operation (settings.c), trimmed:
+ * HB_ERR_UNSUPPORTED when the profile has no such query. */
+int hb_instrument_query_setting(hb_instrument *in, const char *name, char *reply, size_t cap);
 
 /* ---- bounded pattern matching (profile.c) ---- */
 

@@ -388,3 +388,11 @@ void hb_supply_accuracy(const hb_supply *s, hb_accuracy *out)
 {
 	hb_profile_supply_accuracy(s ? s->in.profile : NULL, out);
 }
+
+int hb_supply_query_setting(hb_supply *s, const char *name, char *reply, size_t cap)
+{
+	int rc = usable(s);
+	if (rc < 0)
+		return rc;
+	return hb_instrument_query_setting(&s->in, name, reply, cap);
+}

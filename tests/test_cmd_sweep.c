@@ -450,12 +450,12 @@ static void test_meter_timeout_mid_sweep(void **state)
 {
 	(void)state;
 	sim_server sim;
-	/* Every 35th meter reply is lost, and every 36th garbled: the first
-	 * lost one is a reading a few points into the sweep (after the noise
-	 * has been learnt from 24 readings at the first point), and the reading
-	 * asked for again after the drain is the garbled one. Two failures in
-	 * a row end it. */
-	sim_start(&sim, "--fault-lcr", "drop=35,garble=36", NULL);
+	/* Every 40th meter reply is lost, and every 41st garbled: the first
+	 * lost one is a reading a few points into the sweep (after the five
+	 * settings read back at the start and the noise learnt from 24
+	 * readings at the first point), and the reading asked for again after
+	 * the drain is the garbled one. Two failures in a row end it. */
+	sim_start(&sim, "--fault-lcr", "drop=40,garble=41", NULL);
 	char lcr[200];
 	snprintf(lcr, sizeof lcr, "%s?timeout=300", sim.lcr);
 	run r;

@@ -173,7 +173,7 @@ static int sweep_with(const hb_sweep_plan *plan, sink *s, hb_sweep_result *res)
 	hb_supply *supply = NULL;
 	assert_int_equal(hb_lcr_open("sim:lcr?timeout=300", NULL, &lcr), HB_OK);
 	assert_int_equal(hb_supply_open("sim:supply?timeout=200", NULL, &supply), HB_OK);
-	hb_sweep_callbacks cb = { s, on_point, NULL, on_notice };
+	hb_sweep_callbacks cb = { s, on_point, NULL, on_notice, NULL };
 	int rc = hb_sweep_run(lcr, supply, plan, &cb, res);
 	hb_supply_close(supply);
 	hb_lcr_close(lcr);

@@ -170,7 +170,7 @@ static int record_point(void *ctx, const hb_sweep_point *p, int total)
 static int run_recorded(hb_lcr *lcr, hb_supply *supply, const hb_sweep_plan *plan, recorder *rec,
 			hb_sweep_result *res)
 {
-	hb_sweep_callbacks cb = { rec, record_point, NULL, NULL };
+	hb_sweep_callbacks cb = { rec, record_point, NULL, NULL, NULL };
 	return hb_sweep_run(lcr, supply, plan, &cb, res);
 }
 

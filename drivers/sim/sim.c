@@ -396,7 +396,7 @@ static int fault_one(hb_sim *sim, hb_sim_role role, const char *spec)
 		{ "delay", &f->delay_ms, 0, 600000 },	  { "drop", &f->drop, 0, 1000000 },
 		{ "garble", &f->garble, 0, 1000000 },	  { "disconnect", &f->disconnect, 0, 1000000 },
 		{ "late", &f->late_ms, 0, 600000 },	  { "deaf", &f->deaf_ms, 0, 600000 },
-		{ "error", &f->error_code, -999, 999 },
+		{ "error", &f->error_code, -999, 999 },	  { "relevel", &f->relevel, 0, 1000000 },
 	};
 	for (size_t i = 0; i < sizeof counts / sizeof counts[0]; i++) {
 		if (strcmp(name, counts[i].name) != 0)
@@ -407,6 +407,8 @@ static int fault_one(hb_sim *sim, hb_sim_role role, const char *spec)
 		*counts[i].field = (int)v;
 		if (strcmp(name, "late") == 0)
 			f->late_armed = v > 0;
+		if (strcmp(name, "relevel") == 0)
+			f->relevel_reads = 0;
 		if (strcmp(name, "error") == 0 && v != 0)
 			sim_errq_push(sim, role, (int)v, "injected");
 		return HB_OK;
@@ -430,7 +432,7 @@ static int fault_one(hb_sim *sim, hb_sim_role role, const char *spec)
 bad:
 	return set_error(sim, HB_ERR_ARG,
 			 "fault '%s' unknown; accepted: delay=MS drop=N garble=N disconnect=N error=CODE late=MS "
-			 "deaf=MS mute=COMMAND crlf split echo trip none (comma-separated)",
+			 "deaf=MS mute=COMMAND relevel=N crlf split echo trip none (comma-separated)",
 			 spec);
 }
 

@@ -32,6 +32,9 @@ typedef struct sim_params {
 	double rb_noise, rb_noise_abs, status_subsystem, virtual_time;
 	/* the meter's gain error: every impedance it reports is (1 + gain) times the true one */
 	double gain;
+	/* the fixture: lead inductance in series with rlead; what sits in it
+	 * (0 the part, 1 nothing: open, 2 a shorting bar: short) */
+	double llead, fixture_state;
 } sim_params;
 
 typedef struct sim_param_info {
@@ -151,6 +154,8 @@ typedef struct sim_faults {
 	bool crlf, split, echo, trip;
 	bool late_armed;
 	char mute[32]; /* replies to a command containing this text are lost (empty: none) */
+	int relevel;       /* after this many readings the meter's test level halves (front panel touched); 0 = never */
+	int relevel_reads; /* readings counted towards it */
 } sim_faults;
 
 typedef struct sim_meter {

@@ -49,6 +49,8 @@ const sim_param_info sim_param_table[] = {
 	{ "status_subsystem", P(status_subsystem), "", 0, 1, false, true, "1: supply has STATus and protection queries; 0: plain supply, -113" },
 	{ "virtual_time", P(virtual_time), "", 0, 1, false, true, "1: the bench runs on a virtual clock (in-process bench: bit-repeatable)" },
 	{ "gain", P(gain), "", -0.1, 0.1, false, false, "meter's relative gain error on the impedance (0: exact)" },
+	{ "llead", P(llead), "H", 0, 1e-3, false, false, "fixture lead inductance in series with rlead (removed by short correction)" },
+	{ "fixture_state", P(fixture_state), "", 0, 2, false, true, "what the fixture holds: 0 the part, 1 nothing (open), 2 a shorting bar (short)" },
 };
 const size_t sim_param_count = sizeof sim_param_table / sizeof sim_param_table[0];
 
@@ -554,13 +556,22 @@ double complex sim_impedance(const sim_params *p, const sim_state *s, double her
 			     bool short_corrected, bool open_corrected)
 {
 	double w = 2.0 * M_PI * hertz;
-	double l = sim_inductance(p, bias_amps);
-	double complex zl = sim_winding_r(p, s->temp_c) + p->tan_delta * w * l + I * w * l;
-	/* The winding capacitance parallels the coil: the series resonance
-	 * that raises apparent L towards the self-resonant frequency. */
-	double complex z = zl / (1.0 + I * w * p->cp * zl);
+	/* An open fixture: only the stray capacitance between the terminals
+	 * (and nothing at all once the meter's open correction removed it). */
+	if (p->fixture_state == 1)
+		return open_corrected || p->cfix <= 0 ? 1e12 : 1.0 / (I * w * p->cfix);
+	double complex z = 0;
+	if (p->fixture_state != 2) {
+		double l = sim_inductance(p, bias_amps);
+		double complex zl = sim_winding_r(p, s->temp_c) + p->tan_delta * w * l + I * w * l;
+		/* The winding capacitance parallels the coil: the series resonance
+		 * that raises apparent L towards the self-resonant frequency. */
+		z = zl / (1.0 + I * w * p->cp * zl);
+	}
+	/* The leads in series, the fixture's stray capacitance across the
+	 * meter's terminals: the model the open/short correction undoes. */
 	if (!short_corrected)
-		z += p->rlead;
+		z += p->rlead + I * w * p->llead;
 	if (!open_corrected)
 		z = z / (1.0 + I * w * p->cfix * z);
 	return z;

@@ -466,7 +466,12 @@ static void instrument_reset(hb_sim *sim, sim_conn *conn, double now)
 {
 	sim_advance(sim, now);
 	if (conn->role == HB_SIM_LCR) {
+		/* Correction data survive *RST, as a meter keeps its open/short
+		 * data until the next correction or power-down (common practice). */
+		bool open_corr = sim->meter.open_corr, short_corr = sim->meter.short_corr;
 		sim_meter_reset(&sim->meter);
+		sim->meter.open_corr = open_corr;
+		sim->meter.short_corr = short_corr;
 		return;
 	}
 	supply_set_output(sim, false);
@@ -699,6 +704,14 @@ static int run_command(hb_sim *sim, sim_conn *conn, cmd_id id, bool query, char 
 		if (!query)
 			return -113;
 		sim_advance(sim, now);
+		if (id == C_READ && sim->faults[conn->role].relevel > 0 &&
+		    ++sim->faults[conn->role].relevel_reads == sim->faults[conn->role].relevel) {
+			/* Someone at the front panel: the level the sweep set is gone. */
+			m->level_v *= 0.5;
+			m->level_a *= 0.5;
+			sim_log(sim, "lcr fault relevel: test level halved after %d readings",
+				sim->faults[conn->role].relevel);
+		}
 		if (id == C_READ) {
 			/* The window in model time; sim_advance samples it. */
 			conn->pend_t0 = sim->s.t;

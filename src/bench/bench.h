@@ -11,5 +11,6 @@
 #include "sweep.h"   /* plans, stepping, settling, the one safe shut-down path */
 #include "session.h" /* one measured sweep from start to store */
 #include "profile_check.h" /* a profile tried against its instrument (bring-up) */
+#include "traceability.h" /* instrument register, calibration status, fixture compensation */
 
 #endif

@@ -1,21 +1,38 @@
 /* src/bench/session.c - runs the sweep engine with the store as the sink of every point */
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "../../common/hb_text.h"
 #include "session.h"
+#include "session_trace.h"
 
 typedef struct sink_ctx {
 	hb_session *s;
 	int64_t sweep_id;
 	hb_pair pair; /* what the primary reading is: L (H) or |Z| (ohm) */
+	hb_equiv equiv;
+	const hb_sweep_plan *plan;
+	hb_session_trace *trace;
 } sink_ctx;
 
-static int store_point(void *ctx, const hb_sweep_point *p, int total)
+static void take_settings(void *ctx, int when)
+{
+	sink_ctx *c = ctx;
+	hb_session_trace_snapshot(c->s, c->plan, c->trace, when);
+}
+
+static int store_point(void *ctx, const hb_sweep_point *p_in, int total)
 {
 	(void)total;
 	sink_ctx *c = ctx;
+	hb_sweep_point comp = *p_in;
+	const hb_sweep_point *p = &comp;
+	/* Residuals henrybench measured itself come off here, so every stored
+	 * reading and everything fitted from it is the part's alone. */
+	if (c->trace->t.fixture_applied && p_in->status == 0)
+		hb_fixture_compensate(&c->trace->model, comp.frequency, c->equiv, c->pair, &comp.primary, &comp.secondary);
 	hb_db_point pt;
 	hb_db_point_init(&pt);
 	pt.sweep_id = c->sweep_id;
@@ -107,10 +124,15 @@ static const char *aperture_name(hb_aperture a)
 /* The accuracy in force: the station file's, where it states one, else the
  * profile's; recorded with the sweep so that a later analysis uses what
  * was true when the points were taken. */
-static void record_accuracy(const hb_session *s, const hb_sweep_plan *plan, hb_db_sweep *sw)
+static void record_accuracy(hb_session *s, const hb_sweep_plan *plan, const hb_session_trace *tr, hb_db_sweep *sw)
 {
-	hb_accuracy m, a;
-	if (isfinite(s->station->meter_accuracy.rel))
+	hb_accuracy m, a, reg_m, reg_a;
+	/* The instrument register's entry wins over the station file, which
+	 * wins over the profile (docs/traceability.md). */
+	hb_session_trace_accuracy(s, tr, &reg_m, &reg_a);
+	if (isfinite(reg_m.rel))
+		m = reg_m;
+	else if (isfinite(s->station->meter_accuracy.rel))
 		m = s->station->meter_accuracy;
 	else
 		hb_lcr_accuracy(s->lcr, &m);
@@ -124,7 +146,9 @@ static void record_accuracy(const hb_session *s, const hb_sweep_plan *plan, hb_d
 			 m.source);
 	}
 	if (s->supply) {
-		if (isfinite(s->station->supply_accuracy.rel))
+		if (isfinite(reg_a.rel))
+			a = reg_a;
+		else if (isfinite(s->station->supply_accuracy.rel))
 			a = s->station->supply_accuracy;
 		else
 			hb_supply_accuracy(s->supply, &a);
@@ -154,12 +178,27 @@ int hb_session_measure(hb_session *s, const hb_db_part *part, const char *serial
 {
 	*sweep_id = 0;
 	memset(result, 0, sizeof *result);
+	/* Instruments, calibration and fixture first: a refusal comes before
+	 * anything is stored or switched on. */
+	hb_session_trace *tr = calloc(1, sizeof *tr);
+	if (!tr) {
+		result->end = HB_SWEEP_FAILED;
+		result->status = HB_ERR_NOMEM;
+		snprintf(result->reason, sizeof result->reason, "out of memory");
+		return HB_ERR_NOMEM;
+	}
+	int rc = hb_session_trace_begin(s, plan, tr, result);
+	if (rc != HB_OK) {
+		free(tr);
+		return rc;
+	}
 	int64_t unit_id = 0;
-	int rc = hb_db_unit_ensure(s->db, part->id, serial, lot_id, &unit_id);
+	rc = hb_db_unit_ensure(s->db, part->id, serial, lot_id, &unit_id);
 	if (rc != HB_OK) {
 		result->end = HB_SWEEP_FAILED;
 		result->status = rc;
 		snprintf(result->reason, sizeof result->reason, "store: %s", hb_db_errmsg(s->db));
+		free(tr);
 		return rc;
 	}
 	hb_db_sweep sw;
@@ -203,16 +242,21 @@ int hb_session_measure(hb_session *s, const hb_db_part *part, const char *serial
 	sw.limit_current_a = plan->limits.max_current;
 	sw.limit_voltage_v = plan->limits.max_voltage;
 	sw.ambient_c = s->ambient_c;
-	record_accuracy(s, plan, &sw);
+	record_accuracy(s, plan, tr, &sw);
 	snprintf(sw.note, sizeof sw.note, "%s", note ? note : "");
 	rc = hb_db_sweep_begin(s->db, &sw);
 	if (rc != HB_OK) {
 		result->end = HB_SWEEP_FAILED;
 		result->status = rc;
 		snprintf(result->reason, sizeof result->reason, "store: %s", hb_db_errmsg(s->db));
+		free(tr);
 		return rc;
 	}
 	*sweep_id = sw.id;
+	tr->t.sweep_id = sw.id;
+	/* Recorded at once, so even a sweep that dies names its instruments. */
+	if (hb_db_sweep_trace_put(s->db, &tr->t) != HB_OK && s->progress)
+		fprintf(s->progress, "henrybench: store: %s\n", hb_db_errmsg(s->db));
 	if (s->dcr_from_meter && plan->kind == HB_SWEEP_BIAS) {
 		double ohms = NAN;
 		/* Before any bias flows: the meter's DC test current is the only one. */
@@ -224,8 +268,8 @@ int hb_session_measure(hb_session *s, const hb_db_part *part, const char *serial
 				drc == HB_ERR_UNSUPPORTED ? "the meter's profile has no dcr operation" : hb_lcr_errmsg(s->lcr));
 	}
 
-	sink_ctx ctx = { s, sw.id, plan->pair };
-	hb_sweep_callbacks cb = { &ctx, store_point, show_progress, show_notice };
+	sink_ctx ctx = { s, sw.id, plan->pair, plan->equiv, plan, tr };
+	hb_sweep_callbacks cb = { &ctx, store_point, show_progress, show_notice, take_settings };
 	rc = hb_sweep_run(s->lcr, s->supply, plan, &cb, result);
 	if (s->progress && s->progress_tty && result->points > 0 && rc != HB_OK)
 		fputc('\n', s->progress);
@@ -239,6 +283,9 @@ int hb_session_measure(hb_session *s, const hb_db_part *part, const char *serial
 			plan->limits.off_threshold, result->decay_seconds);
 	/* Recording the end is attempted whatever happened; if even that fails
 	 * the next open marks the sweep interrupted, its points kept. */
+	if (hb_session_trace_finish(s, tr) != HB_OK && s->progress)
+		fprintf(s->progress, "henrybench: store: %s\n", hb_db_errmsg(s->db));
+	free(tr);
 	int end_rc = hb_db_sweep_end(s->db, sw.id, end_status(result), result->reason);
 	if (end_rc != HB_OK)
 		fprintf(stderr, "henrybench: could not record the end of sweep %lld: %s\n", (long long)sw.id,

@@ -21,6 +21,9 @@ typedef struct hb_session {
 	double ambient_c;         /* NAN = not given */
 	bool dcr_from_meter;      /* read the winding's DC resistance with the meter before the sweep
 	                           * (only where the fixture passes DC to the meter) */
+	/* traceability (docs/traceability.md) */
+	bool allow_overdue;       /* --allow-overdue: go ahead with an instrument past its due date, recorded */
+	const char *fixture;      /* the fixture whose compensation is in force; NULL = "default" */
 } hb_session;
 
 /* Measures one unit of the part: records the unit (and lot), begins the

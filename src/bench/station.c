@@ -30,6 +30,8 @@ void hb_station_defaults(hb_station *s)
 	hb_accuracy_init(&s->meter_accuracy);
 	hb_accuracy_init(&s->supply_accuracy);
 	s->guard_r = NAN;
+	s->refuse_overdue = false;
+	s->fixture_max_age_h = NAN;
 }
 
 typedef struct parse_ctx {
@@ -125,6 +127,20 @@ static int on_entry(void *user, const char *section, const char *name, const cha
 		}
 		snprintf(a->source, sizeof a->source, "station file %s", s->path);
 		return 1;
+	} else if (strcmp(section, "calibration") == 0) {
+		if (strcmp(name, "overdue") == 0) {
+			if (strcmp(value, "warn") && strcmp(value, "refuse")) {
+				snprintf(c->err, c->errlen, "%s:%d: key 'overdue': '%s' is not warn or refuse", s->path, line,
+					 value);
+				c->failed = 1;
+				return 0;
+			}
+			s->refuse_overdue = strcmp(value, "refuse") == 0;
+			return 1;
+		}
+	} else if (strcmp(section, "fixture") == 0) {
+		if (strcmp(name, "max_age_hours") == 0)
+			return set_limit(c, value, "", &s->fixture_max_age_h, line, name);
 	} else if (strcmp(section, "limits") == 0) {
 		if (strcmp(name, "max_current") == 0)
 			return set_limit(c, value, "A", &s->max_current, line, name);
@@ -158,7 +174,7 @@ static int on_entry(void *user, const char *section, const char *name, const cha
 		}
 	}
 unknown:
-	snprintf(c->err, c->errlen, "%s:%d: unknown key '%s' in section [%s] (known: [station] name, operator, decision_rule, guard_r; [limits] max_current, max_voltage, max_power, confirm_above, ramp_rate, off_threshold, part_overdrive, lock_limits; [accuracy] meter, meter.freq_above, supply.current)",
+	snprintf(c->err, c->errlen, "%s:%d: unknown key '%s' in section [%s] (known: [station] name, operator, decision_rule, guard_r; [limits] max_current, max_voltage, max_power, confirm_above, ramp_rate, off_threshold, part_overdrive, lock_limits; [accuracy] meter, meter.freq_above, supply.current; [calibration] overdue; [fixture] max_age_hours)",
 		 s->path, line, name, section);
 	c->failed = 1;
 	return 0;

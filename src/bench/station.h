@@ -36,6 +36,10 @@ typedef struct hb_station {
 	char decision_rule[16];
 	double guard_r;         /* NAN = 1 */
 	char path[512];         /* the file read, empty if none */
+	/* traceability (docs/traceability.md) */
+	bool refuse_overdue;    /* [calibration] overdue = refuse: no sweep with an instrument past its due date
+	                         * unless --allow-overdue; default warn */
+	double fixture_max_age_h; /* [fixture] max_age_hours: older compensations are stale; NAN = HB_FIXTURE_MAX_AGE_HOURS */
 } hb_station;
 
 /* Reads $HENRYBENCH_STATION or ${XDG_CONFIG_HOME:-~/.config}/henrybench/station.ini;

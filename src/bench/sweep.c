@@ -505,6 +505,12 @@ static int deliver(engine *e, hb_sweep_point *p, int index, int total, double se
 	return HB_OK;
 }
 
+static void settings_snapshot(engine *e, int when)
+{
+	if (e->cb && e->cb->settings)
+		e->cb->settings(e->cb->ctx, when);
+}
+
 static int configure_meter(engine *e, double frequency)
 {
 	const hb_sweep_plan *plan = e->plan;
@@ -586,6 +592,7 @@ static int run_bias(engine *e)
 	rc = start_supply(e);
 	if (rc != HB_OK)
 		goto out;
+	settings_snapshot(e, 0);
 	double t_points = now_seconds();
 	for (int i = 0; i < total; i++) {
 		rc = hb_bias_ramp_to(e->bias, setpoints[i]);
@@ -683,6 +690,7 @@ static int run_frequency(engine *e)
 			goto out;
 		}
 	}
+	settings_snapshot(e, 0);
 	rc = learn_noise(e);
 	if (rc != HB_OK)
 		goto out;
@@ -755,6 +763,8 @@ int hb_sweep_run(hb_lcr *lcr, hb_supply *supply, const hb_sweep_plan *plan, cons
 		rc = run_bias(&e);
 	else
 		rc = run_frequency(&e);
+	if (rc == HB_OK && result->points > 0)
+		settings_snapshot(&e, 1);
 
 	/* The one way out: whatever happened above, the state machine ramps
 	 * the current down, waits for the decay and only then switches off. */

@@ -111,6 +111,11 @@ typedef struct hb_sweep_callbacks {
 	/* Optional: something the operator should know (current found flowing
 	 * at start, a slow decay); one line, no newline. */
 	void (*notice)(void *ctx, const char *text);
+	/* Optional: read back the instruments' settings; when 0 once the
+	 * instruments are set up (supply on) and before the first reading, when
+	 * 1 after the last point of a sweep that ran to its end, before the
+	 * shut-down. Only queries: nothing may be changed from here. */
+	void (*settings)(void *ctx, int when);
 } hb_sweep_callbacks;
 
 typedef struct hb_sweep_result {

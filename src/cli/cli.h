@@ -281,5 +281,13 @@ void hb_cli_stdout_error(const char *cmd);
  * SIGPIPE is ignored), says the output was lost and turns a 0 status into
  * HB_EXIT_RUNTIME. Anything already stored stays stored. */
 int hb_cli_finish_stdout(int status);
+/* ---------------- traceability commands (cmd_instrument.c, cmd_fixture.c) ---------------- */
+int hb_cmd_instrument(int argc, char **argv);
+int hb_cmd_fixture(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_instrument;
+extern const hb_cmd_opts hb_opts_fixture;
+/* The lines `show` prints on what the sweep ran with (nothing for a sweep
+ * without a record of it). */
+void hb_show_trace(FILE *out, struct hb_db *db, long long sweep_id);
 
 #endif

@@ -224,6 +224,8 @@ int hb_cmd_demo(int argc, char **argv)
 	}
 	printf("meter:  %s (profile %s)\n", hb_lcr_idn(lcr)->raw, hb_lcr_profile_name(lcr));
 	printf("supply: %s (profile %s)\n\n", hb_supply_idn(supply)->raw, hb_supply_profile_name(supply));
+	if (hb_demo_traceability(db, lcr, supply, &st) != HB_OK)
+		goto out;
 
 	hb_sweep_plan plan;
 	hb_demo_bias_plan(&plan, &st);

@@ -3,11 +3,13 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 #include <jansson.h>
 
 #include "cli.h"
 #include "../../drivers/hb_drivers.h"
+#include "../../db/hb_db.h"
 
 #define IDENTIFY_ERRORS_MAX 32
 
@@ -248,6 +250,29 @@ static json_t *to_json(const identity *id)
 	return o;
 }
 
+/* Records each instrument that answered in the register of the store
+ * named by --db ($HENRYBENCH_DB), or of the default store when it exists
+ * already: identify creates no store of its own accord. */
+static void register_seen(const identity *ids, int n)
+{
+	char path[1024];
+	const char *p = hb_global.db_path;
+	if (!p) {
+		if (hb_db_default_path(path, sizeof path) != HB_OK || access(path, F_OK) != 0)
+			return;
+		p = path;
+	}
+	hb_db *db = NULL;
+	if (hb_db_open(p, &db) == HB_OK) {
+		for (int i = 0; i < n; i++)
+			if (ids[i].kind && ids[i].idn.raw[0] &&
+			    hb_db_instrument_ensure(db, ids[i].kind, ids[i].idn.maker, ids[i].idn.model, ids[i].idn.serial,
+						    ids[i].idn.firmware, &(hb_db_instrument){ 0 }, NULL) != HB_OK)
+				hb_cli_error("identify: instrument register: %s", hb_db_errmsg(db));
+	}
+	hb_db_close(db);
+}
+
 int hb_cmd_identify(int argc, char **argv)
 {
 	identify_args a = { .json = false };
@@ -306,6 +331,7 @@ int hb_cmd_identify(int argc, char **argv)
 		putchar('\n');
 		json_decref(all);
 	}
+	register_seen(ids, n);
 	for (int i = 0; i < n; i++) {
 		hb_profile_free(ids[i].profile);
 		hb_profile_free(ids[i].fallback[0]);

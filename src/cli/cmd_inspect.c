@@ -566,6 +566,8 @@ int hb_cmd_inspect(int argc, char **argv)
 	cfg.severity = a.severity;
 	cfg.plan = a.plan;
 	cfg.ambient_c = a.opts.ambient_c;
+	cfg.allow_overdue = a.opts.allow_overdue;
+	cfg.fixture = a.opts.fixture;
 	cfg.out = info;
 	cfg.progress = info;
 	cfg.progress_tty = isatty(fileno(info));

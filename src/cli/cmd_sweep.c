@@ -261,7 +261,8 @@ static int confirm(const sweep_args *a, const hb_station *st)
 	return hb_sweep_opts_confirm(st, top, a->yes, isatty(STDIN_FILENO), stdin, stderr, question);
 }
 
-static json_t *result_json(const sweep_args *a, int64_t sweep_id, const hb_sweep_result *r, const hb_analysis_summary *an)
+static json_t *result_json(const sweep_args *a, int64_t sweep_id, const hb_sweep_result *r, const hb_analysis_summary *an,
+			   const hb_db_sweep_trace *trace)
 {
 	static const char *ends[] = { "complete", "aborted", "failed" };
 	json_t *j = json_object();
@@ -278,6 +279,13 @@ static json_t *result_json(const sweep_args *a, int64_t sweep_id, const hb_sweep
 	json_object_set_new(j, "current_may_flow", json_boolean(r->current_may_flow));
 	if (an && an->ran)
 		json_object_set_new(j, "analysis", hb_analysis_summary_json(an));
+	if (trace) {
+		json_object_set_new(j, "calibration", json_string(trace->cal_status));
+		json_object_set_new(j, "overdue_allowed", json_boolean(trace->overdue_allowed));
+		json_object_set_new(j, "fixture", json_string(trace->fixture));
+		json_object_set_new(j, "fixture_status", json_string(trace->fixture_status));
+		json_object_set_new(j, "settings_changed", json_string(trace->settings_changed));
+	}
 	return j;
 }
 
@@ -362,18 +370,23 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 		goto out;
 	}
 	hb_session s = { .db = db, .lcr = lcr, .supply = supply, .station = &station, .progress = info,
-			 .progress_tty = isatty(fileno(info)), .ambient_c = a.opts.ambient_c, .dcr_from_meter = a.dcr_meter };
+			 .progress_tty = isatty(fileno(info)), .ambient_c = a.opts.ambient_c, .dcr_from_meter = a.dcr_meter,
+			 .allow_overdue = a.opts.allow_overdue, .fixture = a.opts.fixture };
 	int64_t sweep_id = 0;
 	hb_sweep_result result;
 	hb_session_measure(&s, &part, a.unit, lot_id, &a.plan, a.note, &sweep_id, &result);
 	if (result.current_may_flow)
 		hb_session_warn_current_may_flow(stderr);
 	static const char *ends[] = { "complete", "aborted", "failed" };
-	/* an aborted or failed sweep is an error: its line goes to stderr,
-	 * with what was stored of it */
-	bool ended_well = result.end == HB_SWEEP_COMPLETE;
-	fprintf(ended_well ? info : stderr, "%ssweep %lld %s: %d points%s%s\n", ended_well ? "" : "henrybench: ",
-		(long long)sweep_id, ends[result.end], result.points, result.reason[0] ? "; " : "", result.reason);
+	if (sweep_id == 0) {
+		hb_cli_error("sweep not started: %s", result.reason);
+	} else {
+		/* an aborted or failed sweep is an error: its line goes to stderr,
+		 * with what was stored of it */
+		bool ended_well = result.end == HB_SWEEP_COMPLETE;
+		fprintf(ended_well ? info : stderr, "%ssweep %lld %s: %d points%s%s\n", ended_well ? "" : "henrybench: ",
+			(long long)sweep_id, ends[result.end], result.points, result.reason[0] ? "; " : "", result.reason);
+	}
 
 	hb_analysis_summary an;
 	memset(&an, 0, sizeof an);
@@ -388,7 +401,10 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 	}
 	if (a.json) {
 		/* The exit code is the sweep's, not the printout's. */
-		(void)hb_print_json(result_json(&a, sweep_id, &result, &an));
+		hb_db_sweep_trace *trace = malloc(sizeof *trace);
+		bool have = trace && sweep_id > 0 && hb_db_sweep_trace_get(db, sweep_id, trace) == HB_OK;
+		(void)hb_print_json(result_json(&a, sweep_id, &result, &an, have ? trace : NULL));
+		free(trace);
 	}
 	exit_code = hb_session_exit_code(&result);
 out:

@@ -398,6 +398,7 @@ int hb_cmd_show(int argc, char **argv)
 		exit_code = HB_EXIT_OK;
 	} else {
 		print_text(db, &s, pts, n, verdicts, nv);
+		hb_show_trace(stdout, db, s.id);
 		exit_code = HB_EXIT_OK;
 	}
 out:

@@ -34,4 +34,8 @@ int hb_demo_lot_before_unit(void *ctx, int sequence, const char *serial);
 /* Reports of the inspected demo lot (demo_reports.c). */
 int hb_demo_reports(hb_db *db, const hb_db_part *part, int64_t lot_id, const char *lot_code, const char *out_dir);
 
+/* The simulated instruments in the register with invented calibration
+ * dates, and an open/short compensation of the demo fixture (demo_trace.c). */
+int hb_demo_traceability(hb_db *db, hb_lcr *lcr, hb_supply *supply, const hb_station *st);
+
 #endif

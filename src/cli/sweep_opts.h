@@ -50,7 +50,11 @@ extern const char *const hb_sweep_settle_words[];
 	  .off = offsetof(T, opts.ambient_c), .help = "ambient temperature to record, degC" },                     \
 	{ .name = "off-threshold", .kind = HB_OPT_VALUE, .arg = "A", .unit = "A", .min = 1e-6, .max = 10,          \
 	  .off = offsetof(T, opts.off_threshold),                                                                    \
-	  .help = "the output goes off only below this current (default 20 mA)" }
+	  .help = "the output goes off only below this current (default 20 mA)" },                                 \
+	{ .name = "fixture", .kind = HB_OPT_TEXT, .arg = "ID", .off = offsetof(T, opts.fixture),                 \
+	  .help = "the fixture whose open/short compensation is in force (default: default)" },                   \
+	{ .name = "allow-overdue", .kind = HB_OPT_FLAG, .off = offsetof(T, opts.allow_overdue),                   \
+	  .help = "go ahead with an instrument past its calibration due date (recorded with the sweep)" }
 
 /* What the command line said beyond the plan: which plan fields it set
  * (the part's spec fills the others) and the limits it asked for. */
@@ -59,6 +63,8 @@ typedef struct hb_sweep_opts {
 	double max_current, max_voltage, max_power, ramp; /* NAN = not given */
 	double off_threshold;                              /* A; NAN = not given */
 	double ambient_c;                                  /* NAN = not given */
+	const char *fixture;                               /* --fixture; NULL = "default" */
+	bool allow_overdue;                                /* --allow-overdue */
 } hb_sweep_opts;
 
 void hb_sweep_opts_init(hb_sweep_opts *o);

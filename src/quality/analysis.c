@@ -845,6 +845,7 @@ int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *op
 	hb_budget_context bc;
 	{
 		hb_budget_context_from_sweep(&bc, &sw);
+		hb_budget_context_fixture(&bc, db, sweep_id);
 		s->n_budgets = hb_budget_bias(&s->bias, I, L, sigma, m, &fo, s->dcr_ohm, &bc,
 					      s->budgets, HB_BUDGET_MAX);
 		const hb_budget *dcr = hb_analysis_budget(s, "DCR");

@@ -7,6 +7,7 @@
 #include "budget.h"
 #include "budget_internal.h"
 #include "../../common/hb_text.h"
+#include "../bench/bench.h" /* hb_fixture_lead_inductance */
 
 void hb_budget_context_init(hb_budget_context *c)
 {
@@ -17,6 +18,7 @@ void hb_budget_context_init(hb_budget_context *c)
 	c->temperature_c = NAN;
 	c->t_ref_c = HB_BUDGET_T_REF;
 	c->fringing_spread = HB_BUDGET_FRINGING_SPREAD;
+	c->fixture_l_half = NAN;
 }
 
 void hb_budget_context_from_sweep(hb_budget_context *c, const hb_db_sweep *sw)
@@ -176,15 +178,18 @@ static void budget_l0(hb_unc_budget *ub, const hb_fit_bias_result *b, const hb_b
 {
 	const hb_fit_modelfree_result *mf = &b->modelfree;
 	budget_start(bg, "L0", "H", mf->L0, mf->L0_std_err);
-	pending in[2] = {
+	pending in[3] = {
 		{ "L0 fit (Type A)", "H", HB_UNC_TYPE_A, mf->L0, mf->L0_std_err, 1, l0_dof(mf), "" },
 		{ "meter gain", "", HB_UNC_TYPE_B, 1, hb_unc_rectangular(c->meter_rel), mf->L0, INFINITY, "" },
+		/* a series inductance left by the compensation adds to Ls one for one */
+		{ "fixture residual", "H", HB_UNC_TYPE_B, 0, hb_unc_rectangular(c->fixture_l_half), 1, INFINITY, "" },
 	};
 	snprintf(in[0].source, sizeof in[0].source, "fit: polynomial %s through %zu points at zero bias", mf->L0_basis,
 		 mf->L0_points);
 	/* L0 is a reading: a gain error of the meter scales it one for one */
 	meter_source(c, in[1].source, sizeof in[1].source);
-	evaluate(ub, bg, in, 2);
+	snprintf(in[2].source, sizeof in[2].source, "%s", c->fixture_source);
+	evaluate(ub, bg, in, isfinite(c->fixture_l_half) ? 3 : 2);
 }
 
 static void budget_drop(hb_unc_budget *ub, const hb_fit_bias_result *b, const hb_fit_drop *d,
@@ -536,4 +541,22 @@ void hb_budget_mask_point(const char *name, double i_mask, double l_at, double t
 	supply_source(c, " at the mask current; c = dL/dI of the segment", in[2].source, sizeof in[2].source);
 	evaluate(ub, bg, in, 4);
 	hb_unc_free(ub);
+}
+
+void hb_budget_context_fixture(hb_budget_context *c, hb_db *db, int64_t sweep_id)
+{
+	hb_db_sweep_trace t;
+	hb_db_fixture_comp shrt;
+	c->fixture_l_half = NAN;
+	c->fixture_source[0] = '\0';
+	if (hb_db_sweep_trace_get(db, sweep_id, &t) != HB_OK || t.short_comp_id <= 0 ||
+	    hb_db_fixture_comp_get(db, t.short_comp_id, &shrt) != HB_OK)
+		return;
+	double l = hb_fixture_lead_inductance(&shrt);
+	if (!isfinite(l))
+		return;
+	c->fixture_l_half = l;
+	snprintf(c->fixture_source, sizeof c->fixture_source,
+		 "+-%.3g nH, rectangular: the lead L of short compensation %lld (%s), taken whole as the bound of what is left",
+		 l * 1e9, (long long)shrt.id, shrt.method);
 }

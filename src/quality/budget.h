@@ -62,7 +62,19 @@ typedef struct hb_budget_context {
 	double t_ref_c;          /* HB_BUDGET_T_REF */
 	bool dcr_from_meter;     /* the meter's DC-resistance reading, else the supply's V/I */
 	double fringing_spread;  /* HB_BUDGET_FRINGING_SPREAD */
+	/* the fixture's residual series inductance after compensation: +- this
+	 * half-width, rectangular (NAN = no compensation recorded) */
+	double fixture_l_half;
+	char fixture_source[160];
 } hb_budget_context;
+
+/* The fixture term of L0 (docs/uncertainty.md "Fixture residual"): the
+ * short compensation in force for the sweep states the leads' series
+ * inductance; what the compensation leaves of it is bounded by the whole
+ * of it (an assumption: the leads as the part is seated are not the leads
+ * as the short was, the geometry changes, and no better bound is
+ * recorded). Sets fixture_l_half when the sweep names a short compensation. */
+void hb_budget_context_fixture(hb_budget_context *ctx, hb_db *db, int64_t sweep_id);
 
 void hb_budget_context_init(hb_budget_context *ctx);
 /* From the sweep's stored accuracy and ambient. */

@@ -336,7 +336,8 @@ static unit_end measure_unit(run_state *st, int sequence, const char *serial, hb
 		if (st->cb->before_unit && st->cb->before_unit(st->cb->ctx, sequence, serial) != HB_OK)
 			return pause_with(st, HB_CAUSE_NONE, serial, "the set-up of unit %s failed", serial);
 		hb_session s = { .db = cfg->db, .lcr = cfg->lcr, .supply = cfg->supply, .station = cfg->station,
-				 .progress = cfg->progress, .progress_tty = cfg->progress_tty, .ambient_c = cfg->ambient_c };
+				 .progress = cfg->progress, .progress_tty = cfg->progress_tty, .ambient_c = cfg->ambient_c,
+				 .allow_overdue = cfg->allow_overdue, .fixture = cfg->fixture };
 		char note[160];
 		snprintf(note, sizeof note, "lot %s, sample position %d (n = %ld)", cfg->lot_code, sequence,
 			 out->plan.sample_size);

@@ -63,6 +63,9 @@ typedef struct hb_inspect_config {
 	 * chooses severity from the stream. */
 	const char *supplier;
 	bool irregular;
+	/* traceability: passed to every sample's session */
+	bool allow_overdue;
+	const char *fixture;           /* NULL = "default" */
 } hb_inspect_config;
 
 /* One sample position as it was recorded (or would have been). */

@@ -67,5 +67,10 @@ void rpt_trace_identities(hb_html *h, hb_db *db);
 /* issue 13: the part's drawn gap and data-sheet curve mask against this sweep
  * (report_mask.c); nothing when the part has neither. */
 void rpt_drawing_section(hb_html *h, hb_db *db, const sweep_data *d);
+/* ---- what the sweep ran with (report_instruments.c) ---- */
+/* Instruments with their calibration status, the fixture compensation in
+ * force and the settings read back at start and end, flagged when they
+ * differ. Nothing when the store holds no record of it (older sweeps). */
+void rpt_instruments_section(hb_html *h, hb_db *db, int64_t sweep_id);
 
 #endif

@@ -74,6 +74,7 @@ int hb_report_sweep(hb_db *db, int64_t sweep_id, FILE *out, char *err, size_t er
 	hb_html_section_end(h);
 	rpt_points_section(h, &d);
 	rpt_budget_section(h, &d);
+	rpt_instruments_section(h, db, sweep_id);
 
 	hb_html_section_begin(h, "Traceability");
 	char what[300];
