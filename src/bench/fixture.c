@@ -7,6 +7,8 @@
 
 #include <jansson.h>
 
+#include "../../common/hb_text.h"
+
 #include "traceability.h"
 
 /* A reading as an impedance, and back (the definitions of the pairs:
@@ -218,15 +220,21 @@ int hb_fixture_run(hb_db *db, hb_lcr *lcr, const hb_fixture_request *req, hb_db_
 			double complex y = 1.0 / z;
 			json_object_set_new(o, "g_s", json_real(creal(y)));
 			json_object_set_new(o, "c_f", json_real(cimag(y) / w));
-			if (req->out)
-				fprintf(req->out, "open  %10.4g Hz: G %.4g S, stray C %.4g pF\n", fs[i], creal(y),
-					cimag(y) / w * 1e12);
+			if (req->out) {
+				char f_txt[32], g_txt[32], c_txt[32];
+				fprintf(req->out, "open  %10s: G %s, stray C %s\n", hb_format_si(f_txt, sizeof f_txt, fs[i], "Hz", 4),
+					hb_format_si(g_txt, sizeof g_txt, creal(y), "S", 4),
+					hb_format_si(c_txt, sizeof c_txt, cimag(y) / w, "F", 4));
+			}
 		} else {
 			json_object_set_new(o, "r_ohm", json_real(creal(z)));
 			json_object_set_new(o, "l_h", json_real(cimag(z) / w));
-			if (req->out)
-				fprintf(req->out, "short %10.4g Hz: lead R %.4g mOhm, lead L %.4g nH\n", fs[i], creal(z) * 1e3,
-					cimag(z) / w * 1e9);
+			if (req->out) {
+				char f_txt[32], r_txt[32], l_txt[32];
+				fprintf(req->out, "short %10s: lead R %s, lead L %s\n", hb_format_si(f_txt, sizeof f_txt, fs[i], "Hz", 4),
+					hb_format_si(r_txt, sizeof r_txt, creal(z), "ohm", 4),
+					hb_format_si(l_txt, sizeof l_txt, cimag(z) / w, "H", 4));
+			}
 		}
 		json_array_append_new(list, o);
 	}

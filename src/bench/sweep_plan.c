@@ -4,6 +4,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "../../common/hb_text.h"
 #include "sweep.h"
 
 /* ------------------------------------------------------------------ */
@@ -186,14 +187,16 @@ double hb_sweep_estimate_seconds(const hb_sweep_plan *plan)
 void hb_sweep_print_cautions(FILE *out, double inductance, double top_current, double max_voltage)
 {
 	double energy = 0.5 * inductance * top_current * top_current;
+	char i_txt[32], v_txt[32], e_txt[32], l_txt[32];
 	fprintf(out,
-		"CAUTION: this sweep drives up to %.4g A DC through the part (supply limit %.4g V).\n"
-		"  - Stored energy at the top current is about %.3g J (1/2 L I^2 with L = %.4g H at zero bias;\n"
+		"CAUTION: this sweep drives up to %s DC through the part (supply limit %s).\n"
+		"  - Stored energy at the top current is about %s (1/2 L I^2 with L = %s at zero bias;\n"
 		"    less once the core saturates). Opening the circuit while current flows gives an inductive kick:\n"
 		"    do not disconnect leads or the fixture until the output is off.\n"
 		"  - Windings and the fixture get hot at high current; let them cool before handling.\n"
 		"  - Stay within the supply's, the leads' and the fixture's ratings.\n"
 		"  - Ctrl-C stops the sweep: the current is ramped down and the output switched off first.\n"
 		"  - Follow your lab's own safety practice and local electrical codes; they take precedence.\n",
-		top_current, max_voltage, energy, inductance);
+		hb_format_si(i_txt, sizeof i_txt, top_current, "A", 4), hb_format_si(v_txt, sizeof v_txt, max_voltage, "V", 4),
+		hb_format_si(e_txt, sizeof e_txt, energy, "J", 3), hb_format_si(l_txt, sizeof l_txt, inductance, "H", 4));
 }
