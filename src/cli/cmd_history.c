@@ -285,6 +285,8 @@ int hb_cmd_history(int argc, char **argv)
 		return HB_EXIT_USAGE;
 	}
 	char pnbuf[HB_DB_ID_LEN];
+	if (hb_cli_text_arg("part number", argv[r.first], HB_TEXT_ID_MAX) != HB_OK)
+		return HB_EXIT_USAGE;
 	f.part_number = hb_cli_part_number(argv[r.first], pnbuf, sizeof pnbuf);
 
 	int exit_code = HB_EXIT_RUNTIME;
