@@ -80,4 +80,11 @@ void rpt_instruments_section(hb_html *h, hb_db *db, int64_t sweep_id);
  * HB_OK, or the store's error. */
 int rpt_stream_section(hb_html *h, hb_db *db, const hb_db_part *part);
 
+/* ---- the part's design lines (report_design.c) ---- */
+/* When the part has a rated current: the gap (its turns held) and the
+ * turns (its drawn gap held) that give the nominal L at that current, from
+ * its latest core fit, with U and k and what they rest on; why not, when
+ * there is no core fit. */
+void rpt_design_section(hb_html *h, hb_db *db, const hb_db_part *part);
+
 #endif
