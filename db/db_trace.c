@@ -6,6 +6,7 @@
 #include <pwd.h>
 #include <unistd.h>
 
+#include "../common/hb_text.h"
 #include "../common/hb_uid.h"
 #include "db_internal.h"
 
@@ -242,13 +243,18 @@ int db_verdict_append(hb_db *db, hb_db_verdict *v)
 		return HB_ERR_DB;
 	db_iso_time(db_now(), v->created, sizeof v->created);
 	if (!v->operator_name[0]) {
-		/* who ran the judgement: the login name the shell gives, else the account's */
-		const char *user = getenv("USER");
-		if (!user || !*user)
-			user = getenv("LOGNAME");
-		if (!user || !*user) {
-			struct passwd *pw = getpwuid(getuid());
-			user = pw ? pw->pw_name : "";
+		/* who ran the judgement: the login name the shell gives, else the
+		 * account's, else "-"; each only when it is one line of UTF-8 that
+		 * fits (a $USER with terminal escapes is never stored, nor cut) */
+		struct passwd *pw = getpwuid(getuid());
+		const char *cand[] = { getenv("USER"), getenv("LOGNAME"), pw ? pw->pw_name : NULL };
+		const char *user = "-";
+		for (size_t i = 0; i < sizeof cand / sizeof cand[0]; i++) {
+			if (cand[i] && *cand[i] &&
+			    hb_text_check("operator", cand[i], sizeof v->operator_name - 1, NULL, 0) == HB_OK) {
+				user = cand[i];
+				break;
+			}
 		}
 		snprintf(v->operator_name, sizeof v->operator_name, "%s", user);
 	}

@@ -86,13 +86,39 @@ static void test_sim_lcr_every_operation_works(void **state)
 	assert_true(fabs(shown * 1e-6 - henry) <= 5e-5 * henry);
 	run_free(&r);
 
-	/* Without --corrections both are held back and nothing else changes. */
+	/* Plain `profile check sim:lcr` (issue 15, done when): the built-in
+	 * simulator keeps no stored correction to lose, so every operation is
+	 * sent and works, and the report says why the corrections went out. */
 	hb_run(&r, station_bare, "profile", "check", "sim:lcr", NULL);
-	assert_int_equal(r.status, 0);
+	if (r.status != 0)
+		fail_msg("profile check sim:lcr exited %d: %s", r.status, r.err);
+	for (int i = 0; lcr_ops[i]; i++)
+		expect_op(r.out, lcr_ops[i], "works");
+	assert_non_null(strstr(r.out, "\n14 work, 0 fail, 0 not in profile, 0 held back\n"));
+	assert_non_null(strstr(r.out, "\n    sent without --corrections: the built-in simulator keeps no stored open "
+				       "correction to lose"));
+	run_free(&r);
+}
+
+/* A meter reached over the wire is a real one as far as the check knows:
+ * without --corrections its stored corrections are held back and no
+ * correction command goes out (the simulator's own log is the witness). */
+static void test_real_meter_corrections_held_back(void **state)
+{
+	(void)state;
+	sim_server sim;
+	sim_start(&sim, NULL);
+	run r;
+	hb_run(&r, station_bare, "profile", "check", sim.lcr, NULL);
+	if (r.status != 0)
+		fail_msg("profile check %s exited %d: %s", sim.lcr, r.status, r.err);
 	expect_op(r.out, "correct.open", "held back");
 	expect_op(r.out, "correct.short", "held back");
-	assert_null(strstr(r.out, "CORR"));
+	expect_op(r.out, "measure", "works");
+	assert_null(strstr(r.out, "> IMP:CORR:"));
 	run_free(&r);
+	sim_stop(&sim);
+	sim_free(&sim);
 }
 
 /* The supply is only read unless --energise; energised, every operation
@@ -203,7 +229,8 @@ static void test_profile_new(void **state)
 	if (r.status != 0)
 		fail_msg("checking the new profile exited %d: %s", r.status, r.err);
 	assert_non_null(strstr(r.out, "profile henrybench-sim-lcr1 ("));
-	assert_non_null(strstr(r.out, " 0 fail, 0 not in profile, 2 held back\n"));
+	/* the simulator: the corrections are sent too (no stored correction to lose) */
+	assert_non_null(strstr(r.out, " 0 fail, 0 not in profile, 0 held back\n"));
 	run_free(&r);
 }
 
@@ -211,6 +238,7 @@ int main(void)
 {
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(test_sim_lcr_every_operation_works),
+		cmocka_unit_test(test_real_meter_corrections_held_back),
 		cmocka_unit_test(test_sim_supply_stays_off_unless_energised),
 		cmocka_unit_test(test_energise_limits),
 		cmocka_unit_test(test_profile_new),

@@ -290,11 +290,16 @@ static void check_lcr(const hb_pcheck_options *opt, hb_lcr *lcr, capture *c, hb_
 		hb_correction which;
 		const char *fixture;
 	} corr[] = { { "correct.open", HB_CORRECTION_OPEN, "open" }, { "correct.short", HB_CORRECTION_SHORT, "short" } };
+	/* The built-in simulator keeps no stored correction to lose: its
+	 * corrections are always sent, so a check of it covers every operation. */
+	hb_resource res;
+	char perr[256];
+	bool simulated = hb_resource_parse(opt->resource, &res, perr, sizeof perr) == HB_OK && res.kind == HB_RES_SIM;
 	for (size_t i = 0; i < 2; i++) {
 		it = item(r, corr[i].op);
 		if (!hb_lcr_supports(lcr, corr[i].op)) {
 			it->result = HB_PCHECK_ABSENT;
-		} else if (!opt->corrections) {
+		} else if (!opt->corrections && !simulated) {
 			it->result = HB_PCHECK_HELD;
 			set_note(it, "not sent: it replaces the meter's stored %s correction; with the fixture %s, add "
 				     "--corrections",
@@ -304,6 +309,10 @@ static void check_lcr(const hb_pcheck_options *opt, hb_lcr *lcr, capture *c, hb_
 			rc = hb_lcr_correct(lcr, corr[i].which);
 			cap_end(c, it->exchange, sizeof it->exchange);
 			lcr_result(it, lcr, rc);
+			if (rc == HB_OK && !opt->corrections)
+				set_note(it, "sent without --corrections: the built-in simulator keeps no stored %s "
+					     "correction to lose (a real meter's is held back)",
+					 corr[i].fixture);
 		}
 	}
 

@@ -57,7 +57,8 @@ int hb_pcheck_kind(const char *resource, hb_instrument_kind *kind, hb_idn *idn, 
 
 /* Opens the instrument with its profile and tries every operation:
  * meter settings, a measurement, DC resistance, the internal bias switched
- * off, corrections only when opt->corrections; supply read-backs only,
+ * off, corrections only when opt->corrections or the resource is the
+ * built-in simulator (sim:, no stored correction to lose); supply read-backs only,
  * unless opt->energise, when the set-point, output and reset go through
  * the bias state machine (ramped up to opt->current_a, down, off).
  * HB_OK when the check ran (failures are in the items); an error with

@@ -4,6 +4,8 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <pwd.h>
+#include <stdbool.h>
 #include <unistd.h>
 
 #include <ini.h>
@@ -11,13 +13,35 @@
 #include "../../common/hb_text.h"
 #include "station.h"
 
+/* The operator recorded with every sweep when the station file names
+ * none: $USER when it is one line of UTF-8 within the limit, else the
+ * account name, else "-". An unusable $USER is said (never echoed: it may
+ * hold terminal escapes) in operator_warning. */
+static void default_operator(hb_station *s)
+{
+	const char *user = getenv("USER");
+	char why[160];
+	size_t limit = sizeof s->operator_name - 1;
+	if (user && *user && hb_text_check("$USER", user, limit, why, sizeof why) == HB_OK) {
+		snprintf(s->operator_name, sizeof s->operator_name, "%s", user);
+		return;
+	}
+	const struct passwd *pw = getpwuid(geteuid());
+	bool account = pw && pw->pw_name && *pw->pw_name &&
+		       hb_text_check("account name", pw->pw_name, limit, NULL, 0) == HB_OK;
+	snprintf(s->operator_name, sizeof s->operator_name, "%s", account ? pw->pw_name : "-");
+	if (user && *user)
+		snprintf(s->operator_warning, sizeof s->operator_warning,
+			 "%s; the operator is recorded as %s (set [station] operator in the station file)", why,
+			 account ? "the account name" : "'-'");
+}
+
 void hb_station_defaults(hb_station *s)
 {
 	memset(s, 0, sizeof *s);
 	if (gethostname(s->name, sizeof s->name - 1) != 0)
 		snprintf(s->name, sizeof s->name, "bench");
-	const char *user = getenv("USER");
-	snprintf(s->operator_name, sizeof s->operator_name, "%s", user && *user ? user : "operator");
+	default_operator(s);
 	s->max_current = NAN;
 	s->max_voltage = NAN;
 	s->max_power = NAN;
@@ -94,6 +118,7 @@ static int on_entry(void *user, const char *section, const char *name, const cha
 				return 0;
 			}
 			snprintf(s->operator_name, sizeof s->operator_name, "%s", value);
+			s->operator_warning[0] = '\0'; /* $USER is not used */
 			return 1;
 		}
 		if (strcmp(name, "decision_rule") == 0) {
@@ -180,7 +205,17 @@ unknown:
 	return 0;
 }
 
+static int load(hb_station *s, char *err, size_t errlen);
+
 int hb_station_load(hb_station *s, char *err, size_t errlen)
+{
+	int rc = load(s, err, errlen);
+	if (rc == HB_OK && s->operator_warning[0])
+		fprintf(stderr, "henrybench: warning: %s\n", s->operator_warning);
+	return rc;
+}
+
+static int load(hb_station *s, char *err, size_t errlen)
 {
 	hb_station_defaults(s);
 	const char *env = getenv("HENRYBENCH_STATION");

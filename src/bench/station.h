@@ -16,7 +16,7 @@
 
 typedef struct hb_station {
 	char name[64];          /* [station] name; default: host name */
-	char operator_name[64]; /* [station] operator; default: $USER */
+	char operator_name[64]; /* [station] operator; default: $USER, else the account name, else "-" */
 	double max_current;     /* [limits] max_current, A; NAN = not set */
 	double max_voltage;     /* [limits] max_voltage, V */
 	double max_power;       /* [limits] max_power, W */
@@ -40,6 +40,10 @@ typedef struct hb_station {
 	bool refuse_overdue;    /* [calibration] overdue = refuse: no sweep with an instrument past its due date
 	                         * unless --allow-overdue; default warn */
 	double fixture_max_age_h; /* [fixture] max_age_hours: older compensations are stale; NAN = HB_FIXTURE_MAX_AGE_HOURS */
+	/* $USER unusable as the default operator (control characters, not
+	 * UTF-8, too long): why, and what was recorded instead; "" = none.
+	 * hb_station_load says it on stderr. */
+	char operator_warning[256];
 } hb_station;
 
 /* Reads $HENRYBENCH_STATION or ${XDG_CONFIG_HOME:-~/.config}/henrybench/station.ini;

@@ -290,4 +290,11 @@ extern const hb_cmd_opts hb_opts_fixture;
  * without a record of it). */
 void hb_show_trace(FILE *out, struct hb_db *db, long long sweep_id);
 
+/* ---------------- text operands (cli_ids.c) ---------------- */
+/* A part number, serial or id typed as an operand, checked as the writing
+ * commands check theirs (hb_text_check: UTF-8, no control characters, at
+ * most limit bytes) before any message can echo it. Prints the one-line
+ * error naming field and limit; HB_ERR_ARG (exit 2) when it fails. */
+int hb_cli_text_arg(const char *field, const char *text, size_t limit);
+
 #endif

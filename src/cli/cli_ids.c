@@ -3,13 +3,29 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "../../common/hb_text.h"
 #include "../../common/hb_uid.h"
 #include "../../db/hb_db.h"
 #include "cli.h"
 
+int hb_cli_text_arg(const char *field, const char *text, size_t limit)
+{
+	char why[240];
+	if (hb_text_check(field, text, limit, why, sizeof why) != HB_OK) {
+		hb_cli_error("%s", why);
+		return HB_ERR_ARG;
+	}
+	return HB_OK;
+}
+
 int hb_cli_resolve_id(int kind_code, const char *text, long long *id)
 {
 	hb_db_record kind = (hb_db_record)kind_code;
+	/* checked before it is echoed in any message below */
+	char field[64];
+	snprintf(field, sizeof field, "%s id", hb_db_record_name(kind));
+	if (hb_cli_text_arg(field, text, HB_TEXT_ID_MAX) != HB_OK)
+		return HB_ERR_ARG;
 	char *end = NULL;
 	long long v = strtoll(text, &end, 10);
 	if (*text && end && !*end && v > 0) {

@@ -62,6 +62,9 @@ static int parse(const hb_cmd_opts *cmd, int argc, char **argv, delete_args *a, 
 		return HB_EXIT_USAGE;
 	}
 	*operand = argv[r.first];
+	if (strcmp(cmd->name, "part delete") == 0 &&
+	    hb_cli_text_arg("part number", *operand, HB_TEXT_ID_MAX) != HB_OK)
+		return HB_EXIT_USAGE;
 	return HB_EXIT_OK;
 }
 

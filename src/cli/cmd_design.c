@@ -9,6 +9,7 @@
 
 #include "../../db/hb_db.h"
 #include "../../fit/hb_fit.h"
+#include "../quality/design_store.h"
 #include "cli.h"
 
 typedef struct design_args {
@@ -66,160 +67,7 @@ const hb_cmd_opts hb_opts_design = {
 	.max_operands = 0,
 };
 
-/* The fitted core parameters of the newest fit of the part's newest
- * complete bias sweep, and the highest bias that sweep reached. */
-typedef struct fitted {
-	int64_t fit_id, sweep_id;
-	hb_core_law law;
-	double mu_i, u_mu_i, Js, u_Js, r, dof, i_max;
-	bool r_known;
-} fitted;
-
-static const hb_db_fit_value *fit_value(const hb_db_fit *f, const char *name)
-{
-	for (size_t i = 0; i < f->n_values; i++)
-		if (strcmp(f->values[i].name, name) == 0)
-			return &f->values[i];
-	return NULL;
-}
-
-/* Correlation of mu_i and Js from the stored covariance of the free
- * parameters (mu_i, gap, Js in that order, fixed ones left out). */
-static bool correlation(const hb_db_fit *f, const bool free_[3], double *r)
-{
-	json_error_t jerr;
-	json_t *m = json_loads(f->covariance_json, 0, &jerr);
-	if (!m || !json_is_array(m))
-		goto no;
-	int at[3], p = 0;
-	for (int j = 0; j < 3; j++)
-		at[j] = free_[j] ? p++ : -1;
-	if ((int)json_array_size(m) != p || at[0] < 0 || at[2] < 0)
-		goto no;
-	double c[3] = { json_number_value(json_array_get(json_array_get(m, (size_t)at[0]), (size_t)at[0])),
-			json_number_value(json_array_get(json_array_get(m, (size_t)at[2]), (size_t)at[2])),
-			json_number_value(json_array_get(json_array_get(m, (size_t)at[0]), (size_t)at[2])) };
-	json_decref(m);
-	if (!(c[0] > 0) || !(c[1] > 0) || !isfinite(c[2]))
-		return false;
-	*r = c[2] / sqrt(c[0] * c[1]);
-	return fabs(*r) <= 1;
-no:
-	json_decref(m);
-	return false;
-}
-
-static int load_fit(hb_db *db, const char *pn, fitted *out)
-{
-	hb_db_sweep_filter flt;
-	hb_db_sweep_filter_init(&flt);
-	flt.part_number = pn;
-	flt.kind = HB_DB_SWEEP_BIAS;
-	flt.status = HB_DB_COMPLETE;
-	flt.limit = 1;
-	hb_db_sweep *sw = NULL;
-	size_t n = 0;
-	if (hb_db_sweep_list(db, &flt, &sw, &n) != HB_OK) {
-		hb_cli_error("%s", hb_db_errmsg(db));
-		return HB_EXIT_RUNTIME;
-	}
-	if (n == 0) {
-		hb_db_sweeps_free(sw);
-		hb_cli_error("part %s has no complete bias sweep: measure it first (henrybench sweep)", pn);
-		return HB_EXIT_RUNTIME;
-	}
-	out->sweep_id = sw[0].id;
-	hb_db_sweeps_free(sw);
-	hb_db_fit *f = calloc(1, sizeof *f);
-	if (!f)
-		return HB_EXIT_RUNTIME;
-	int exit_code = HB_EXIT_RUNTIME;
-	if (hb_db_fit_get_latest(db, out->sweep_id, NULL, f) != HB_OK) {
-		hb_cli_error("sweep #%lld of part %s has no fit: %s", (long long)out->sweep_id, pn, hb_db_errmsg(db));
-		goto done;
-	}
-	out->fit_id = f->id;
-	const hb_db_fit_value *mu = fit_value(f, "core.mu_i"), *js = fit_value(f, "core.Js"), *g = fit_value(f, "core.gap");
-	hb_core_law law = HB_CORE_NLAWS;
-	for (int l = 0; l < HB_CORE_NLAWS; l++)
-		if (strcmp(f->law, hb_core_law_name((hb_core_law)l)) == 0)
-			law = (hb_core_law)l;
-	if (!mu || !js || law == HB_CORE_NLAWS || !isfinite(mu->value) || !isfinite(js->value)) {
-		hb_cli_error("fit #%lld of sweep #%lld has no core-law fit (the part needs turns, Ae and le, e.g. "
-			     "--core SHAPE:dims, and 'henrybench fit' again)",
-			     (long long)f->id, (long long)out->sweep_id);
-		goto done;
-	}
-	if (!isfinite(mu->std_error) || !isfinite(js->std_error)) {
-		hb_cli_error("fit #%lld did not determine %s: no design with an uncertainty can rest on it",
-			     (long long)f->id, !isfinite(mu->std_error) ? "mu_i" : "Js");
-		goto done;
-	}
-	out->law = law;
-	out->mu_i = mu->value;
-	out->u_mu_i = mu->std_error;
-	out->Js = js->value;
-	out->u_Js = js->std_error;
-	out->dof = f->dof;
-	/* a parameter held at a datasheet value (or the gap held at 0) has a
-	 * standard error of 0 and no row in the covariance */
-	bool free_[3] = { mu->std_error > 0, !g || g->std_error != 0, js->std_error > 0 };
-	out->r = 0;
-	out->r_known = correlation(f, free_, &out->r);
-	if (!out->r_known)
-		out->r = 0;
-	hb_db_point *pts = NULL;
-	size_t np = 0;
-	out->i_max = NAN;
-	if (hb_db_points_get(db, out->sweep_id, &pts, &np) == HB_OK) {
-		for (size_t i = 0; i < np; i++) {
-			double a = isfinite(pts[i].bias_meas_a) ? pts[i].bias_meas_a : pts[i].bias_set_a;
-			if (isfinite(a) && !(fabs(a) <= out->i_max))
-				out->i_max = fabs(a);
-		}
-		hb_db_points_free(pts);
-	}
-	exit_code = HB_EXIT_OK;
-done:
-	free(f);
-	return exit_code;
-}
-
-/* The part's core: its IEC set when it has one, else Ae, le and window. */
-static int load_core(hb_db *db, const hb_db_part *p, hb_core_shape_result *r, hb_gap_place *place, char *shape_text,
-		     size_t cap)
-{
-	hb_db_part_core cs;
-	if (hb_db_part_core_get(db, p->part_number, &cs) != HB_OK) {
-		hb_cli_error("%s", hb_db_errmsg(db));
-		return HB_EXIT_RUNTIME;
-	}
-	hb_gap_place_parse(cs.gap_at, place);
-	if (cs.shape[0]) {
-		hb_core_shape s;
-		hb_core_dims d;
-		char err[200];
-		if (hb_core_shape_parse(cs.shape, &s) != HB_OK || hb_core_dims_parse(cs.dims, &d, err, sizeof err) != HB_OK ||
-		    hb_core_shape_eval(s, &d, r, err, sizeof err) != HB_OK) {
-			hb_cli_error("part %s: stored core set '%s %s' does not evaluate", p->part_number, cs.shape, cs.dims);
-			return HB_EXIT_RUNTIME;
-		}
-		/* the fit used the part's stored window; keep the design on the same one */
-		if (isfinite(p->window_m) && p->window_m > 0)
-			r->window_height = p->window_m;
-		snprintf(shape_text, cap, "%s %s", cs.shape, cs.dims);
-		return HB_EXIT_OK;
-	}
-	if (!(p->ae_m2 > 0) || !(p->le_m > 0)) {
-		hb_cli_error("part %s has no core geometry: give it --core SHAPE:dims (or --ae and --le)", p->part_number);
-		return HB_EXIT_USAGE;
-	}
-	hb_core_shape_from_effective(p->ae_m2, p->le_m, isfinite(p->window_m) ? p->window_m : 0, r);
-	snprintf(shape_text, cap, "Ae %.4g mm2, le %.4g mm", p->ae_m2 * 1e6, p->le_m * 1e3);
-	return HB_EXIT_OK;
-}
-
-static void print_text(const design_args *a, const hb_db_part *p, const fitted *ft, const char *core,
+static void print_text(const design_args *a, const hb_db_part *p, const hb_design_fit *ft, const char *core,
 		       const hb_design_in *in, const hb_design_out *o)
 {
 	char b1[40], b2[40], b3[40];
@@ -252,7 +100,7 @@ static void print_text(const design_args *a, const hb_db_part *p, const fitted *
 		       hb_format_si(b1, sizeof b1, a->at, "A", 4), hb_format_si(b2, sizeof b2, ft->i_max, "A", 4));
 }
 
-static int print_json(const design_args *a, const hb_db_part *p, const fitted *ft, const char *core,
+static int print_json(const design_args *a, const hb_db_part *p, const hb_design_fit *ft, const char *core,
 		      const hb_design_in *in, const hb_design_out *o)
 {
 	json_t *j = json_object();
@@ -319,9 +167,13 @@ int hb_cmd_design(int argc, char **argv)
 	memset(&in, 0, sizeof in);
 	char core[300];
 	hb_gap_place stored_place = HB_GAP_CENTRE;
-	exit_code = load_core(db, &part, &in.core, &stored_place, core, sizeof core);
-	if (exit_code != HB_EXIT_OK)
+	char why[400];
+	int lc = hb_design_load_core(db, &part, &in.core, &stored_place, core, sizeof core, why, sizeof why);
+	if (lc != HB_OK) {
+		hb_cli_error("%s", why);
+		exit_code = lc == HB_ERR_ARG ? HB_EXIT_USAGE : HB_EXIT_RUNTIME;
 		goto out;
+	}
 	in.place = a.have_place ? a.place : stored_place;
 	if (in.place == HB_GAP_SPACER && !(in.core.A_outer > 0)) {
 		hb_cli_error("part %s: a spacer gap needs the core set (--core SHAPE:dims) to know the outer legs",
@@ -335,10 +187,12 @@ int hb_cmd_design(int argc, char **argv)
 		exit_code = HB_EXIT_USAGE;
 		goto out;
 	}
-	fitted ft;
-	exit_code = load_fit(db, part.part_number, &ft);
-	if (exit_code != HB_EXIT_OK)
+	hb_design_fit ft;
+	if (hb_design_load_fit(db, part.part_number, &ft, why, sizeof why) != HB_OK) {
+		hb_cli_error("%s", why);
+		exit_code = HB_EXIT_RUNTIME;
 		goto out;
+	}
 	in.law = ft.law;
 	in.mu_i = ft.mu_i;
 	in.Js = ft.Js;

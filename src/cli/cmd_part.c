@@ -812,6 +812,8 @@ static int part_show(int argc, char **argv)
 		hb_cli_error("part show needs exactly one PARTNO");
 		return HB_EXIT_USAGE;
 	}
+	if (hb_cli_text_arg("part number", argv[first], HB_TEXT_ID_MAX) != HB_OK)
+		return HB_EXIT_USAGE;
 	int open_exit = HB_EXIT_RUNTIME;
 	hb_db *db = hb_cli_open_store_read(&open_exit);
 	if (!db)

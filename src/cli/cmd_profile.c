@@ -63,7 +63,8 @@ const hb_cmd_opts hb_opts_profile = {
 		 "per operation, whether it works, fails or is not in the profile, what went out, what came\n"
 		 "back and how the profile read it. A supply is only read unless --energise: then the\n"
 		 "set-point, output and reset go through the ramp state machine, at most 10 mA, and the\n"
-		 "output ends off. A meter's corrections are held back unless --corrections.\n"
+		 "output ends off. A meter's corrections are held back unless --corrections (the built-in\n"
+		 "simulator sim:lcr has no stored correction to lose: they are always sent).\n"
 		 "'new' writes a starting profile: match keys from the *IDN? reply, every operation from the\n"
 		 "generic profile of its kind, to be edited and checked (docs/profiles.md, 'Bring-up').\n",
 	.opts = profile_table,

@@ -63,6 +63,8 @@ int hb_cmd_stream(int argc, char **argv)
 		return HB_EXIT_USAGE;
 	}
 	const char *part_number = argv[r.first];
+	if (hb_cli_text_arg("part number", part_number, HB_TEXT_ID_MAX) != HB_OK)
+		return HB_EXIT_USAGE;
 	const char *supplier = a.supplier ? a.supplier : "";
 	int exit_code = HB_EXIT_RUNTIME;
 	hb_db *db = NULL;

@@ -9,7 +9,8 @@
 #include "../bench/bench.h"
 
 /*
- * The scenario (invented): the supplier delivers lot LOT-2611-A, 40 chokes
+ * The scenario (invented): the supplier, Brackenfold Windings (an invented
+ * name), delivers lot LOT-2611-A, 40 chokes
  * HBX-108G. Incoming inspection is ISO 2859-1 single sampling, level II,
  * normal, AQL 1.0. Table 1 gives code letter D; at AQL 1.0 row D carries an
  * arrow down to E, so the plan is n = 13, Ac 0, Re 1. The sixth unit drawn
@@ -18,6 +19,7 @@
  * and the lot is rejected without sweeping the other seven.
  */
 #define DEMO_LOT_CODE "LOT-2611-A"
+#define DEMO_SUPPLIER "Brackenfold Windings" /* invented; the lot stream is kept per part and supplier */
 #define DEMO_FIRST_SERIAL "A2611-0001"
 enum { DEMO_LOT_SIZE = 40, DEMO_BAD_SEQUENCE = 6 };
 static const double demo_lot_aql = 1.0;
@@ -64,8 +66,8 @@ static hb_inspect_action demo_next_unit(void *ctx, int sequence, const char *com
 int hb_demo_extras(hb_db *db, hb_lcr *lcr, hb_supply *supply, const hb_station *station,
 		   const hb_db_part *part, const char *out_dir, double time_scale)
 {
-	printf("incoming inspection of lot %s: %d units of %s from the supplier\n", DEMO_LOT_CODE, DEMO_LOT_SIZE,
-	       part->part_number);
+	printf("incoming inspection of lot %s: %d units of %s from the supplier %s\n", DEMO_LOT_CODE, DEMO_LOT_SIZE,
+	       part->part_number, DEMO_SUPPLIER);
 	hb_inspect_config cfg;
 	hb_inspect_config_init(&cfg);
 	cfg.db = db;
@@ -74,6 +76,7 @@ int hb_demo_extras(hb_db *db, hb_lcr *lcr, hb_supply *supply, const hb_station *
 	cfg.station = station;
 	cfg.part = part;
 	cfg.lot_code = DEMO_LOT_CODE;
+	cfg.supplier = DEMO_SUPPLIER;
 	cfg.lot_size = DEMO_LOT_SIZE;
 	cfg.aql = demo_lot_aql;
 	cfg.level = HB_LEVEL_II;

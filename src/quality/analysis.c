@@ -745,6 +745,17 @@ static void apply_rules(hb_analysis_summary *s, const hb_db_part *part, const hb
 												 : HB_OVERALL_PASS;
 }
 
+/* Nothing to fit: no fit is stored and no value printed (an empty fit
+ * would show L0 0 H, a number from no data). */
+static int no_points(hb_analysis_summary *s, size_t n)
+{
+	snprintf(s->message, sizeof s->message, n == 0 ? "no points to fit: the sweep has none" :
+			 "no points to fit: none of its %zu points is a usable reading (overload, not finite, "
+			 "or not positive)", n);
+	s->fit_status = HB_ERR_DATA;
+	return HB_ERR_DATA;
+}
+
 int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *opt, hb_analysis_summary *s)
 {
 	memset(s, 0, sizeof *s);
@@ -775,12 +786,21 @@ int hb_analysis_sweep(hb_db *db, int64_t sweep_id, const hb_analysis_options *op
 		return rc;
 	}
 	if (sw.kind == HB_DB_SWEEP_FREQUENCY) {
+		size_t usable = 0;
+		for (size_t i = 0; i < n; i++)
+			usable += isfinite(pts[i].primary) && isfinite(pts[i].secondary) && pts[i].freq_hz > 0;
+		if (usable == 0) {
+			rc = no_points(s, n);
+			goto out;
+		}
 		s->fit_status = analyse_frequency(s, &sw, pts, n);
 		s->ran = true;
 		goto store;
 	}
 	size_t m = 0;
 	rc = bias_arrays_spread(pts, n, &I, &L, &spread, &m);
+	if (rc == HB_OK && m == 0)
+		rc = no_points(s, n);
 	if (rc != HB_OK)
 		goto out;
 	/* The noise the sweep learnt weighs a refit the way the sweep did. */

@@ -12,5 +12,6 @@
 #include "inspect.h"  /* a lot inspected at the bench (measures through bench/) */
 #include "switching.h" /* ISO 2859-1 clause 9 switching rules over a stream of lots (pure) */
 #include "stream.h"   /* a part's lot stream from one supplier, replayed from the store */
+#include "design_store.h" /* the design inverse's inputs from the store: core fit and core */
 
 #endif

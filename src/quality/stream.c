@@ -151,6 +151,11 @@ static const char *decision_text(hb_lot_decision d)
 	return d == HB_LOT_ACCEPT_REINSTATE ? "accept, reinstate normal" : d == HB_LOT_REJECT ? "REJECT" : "accept";
 }
 
+const char *hb_stream_decision_text(hb_lot_decision d)
+{
+	return decision_text(d);
+}
+
 void hb_stream_print_lots(FILE *out, const hb_stream *s)
 {
 	char who[HB_DB_ID_LEN + 20];

@@ -64,4 +64,8 @@ json_t *hb_stream_all_json(hb_db *db, const hb_db_part *part);
 /* Explains the reduced table's accept-and-reinstate rule for a plan with re > ac + 1 (nothing otherwise). */
 void hb_stream_print_reinstate_rule(FILE *out, const hb_sampling_plan *plan);
 
+/* ---- for the reports (report_stream.c) ---- */
+/* A lot's decision in words: "accept", "accept, reinstate normal", "REJECT". */
+const char *hb_stream_decision_text(hb_lot_decision d);
+
 #endif

@@ -73,4 +73,18 @@ void rpt_drawing_section(hb_html *h, hb_db *db, const sweep_data *d);
  * differ. Nothing when the store holds no record of it (older sweeps). */
 void rpt_instruments_section(hb_html *h, hb_db *db, int64_t sweep_id);
 
+/* ---- the part's lot streams (report_stream.c) ---- */
+/* One table per supplier: every decided lot in order with its severity,
+ * decision, switching score and the severity after it (ISO 2859-1 clause
+ * 9), then the next lot's severity and why. Nothing when no lot is decided.
+ * HB_OK, or the store's error. */
+int rpt_stream_section(hb_html *h, hb_db *db, const hb_db_part *part);
+
+/* ---- the part's design lines (report_design.c) ---- */
+/* When the part has a rated current: the gap (its turns held) and the
+ * turns (its drawn gap held) that give the nominal L at that current, from
+ * its latest core fit, with U and k and what they rest on; why not, when
+ * there is no core fit. */
+void rpt_design_section(hb_html *h, hb_db *db, const hb_db_part *part);
+
 #endif

@@ -140,6 +140,16 @@ int hb_report_part(hb_db *db, const char *part_number, FILE *out, char *err, siz
 	}
 	hb_html_section_end(h);
 
+	/* issue 13: what gap or turns would give the nominal L at the rated current */
+	rpt_design_section(h, db, &part);
+
+	/* issue 13: the lots as the switching rules saw them, per supplier */
+	rc = rpt_stream_section(h, db, &part);
+	if (rc != HB_OK) {
+		hb_set_err(err, errlen, "lot streams of %s: %s", part_number, hb_db_errmsg(db));
+		goto out;
+	}
+
 	hb_html_section_begin(h, "Traceability");
 	rpt_trace_paragraph(h, db, "Each row: the unit's latest complete bias sweep (id in the first column) and its "
 			       "latest fit.");
