@@ -48,7 +48,6 @@ void hb_db_sweep_filter_init(hb_db_sweep_filter *f)
 
 static void read_sweep(sqlite3_stmt *st, void *row, const void *ctx)
 {
-	(void)ctx;
 	hb_db_sweep *s = row;
 	hb_db_sweep_init(s);
 	s->id = sqlite3_column_int64(st, 0);
@@ -107,6 +106,7 @@ static void read_sweep(sqlite3_stmt *st, void *row, const void *ctx)
 	db_col_text(st, 52, s->supply_accuracy, sizeof s->supply_accuracy);
 	db_col_text(st, 53, s->station_decision_rule, sizeof s->station_decision_rule);
 	s->station_guard_r = db_col_real(st, 54);
+	db_view_sweep(ctx, s);
 }
 
 int hb_db_sweep_begin(hb_db *db, hb_db_sweep *s)
@@ -309,7 +309,7 @@ int hb_db_sweep_get(hb_db *db, int64_t sweep_id, hb_db_sweep *out)
 	sqlite3_bind_int64(st, 1, sweep_id);
 	char what[32];
 	snprintf(what, sizeof what, "%lld", (long long)sweep_id);
-	return db_read_one(db, st, read_sweep, out, NULL, "sweep", what, "reading a sweep");
+	return db_read_one(db, st, read_sweep, out, db, "sweep", what, "reading a sweep");
 }
 
 enum { F_PART = 1, F_SERIAL = 2, F_LOT = 4, F_STATUS = 8, F_KIND = 16, F_SINCE = 32 };
@@ -411,7 +411,7 @@ int hb_db_sweep_list(hb_db *db, const hb_db_sweep_filter *f, hb_db_sweep **out, 
 		return HB_ERR_DB;
 	sweep_filter_bind(st, mask, f);
 	sqlite3_bind_int64(st, 7, f->limit > 0 ? f->limit : -1);
-	return db_read_all(db, st, read_sweep, NULL, sizeof **out, "listing sweeps", (void **)out, count);
+	return db_read_all(db, st, read_sweep, db, sizeof **out, "listing sweeps", (void **)out, count);
 }
 
 static void read_count(sqlite3_stmt *st, void *row, const void *ctx)

@@ -588,7 +588,7 @@ void hb_db_stream_events_free(hb_db_stream_event *events);
 /* CREATE: as hb_db_open. EXISTING: read and write, never creates (a missing
  * file is HB_ERR_NOTFOUND naming the path). READONLY: never writes: no
  * migration, no recovery (a store at another schema is HB_ERR_DB). */
-typedef enum { HB_DB_OPEN_CREATE = 0, HB_DB_OPEN_EXISTING, HB_DB_OPEN_READONLY } hb_db_open_mode;
+typedef enum { HB_DB_OPEN_CREATE = 0, HB_DB_OPEN_EXISTING, HB_DB_OPEN_READONLY, HB_DB_OPEN_READ } hb_db_open_mode;
 int hb_db_open_as(const char *path, hb_db_open_mode mode, hb_db **out);
 /* HB_OK if a write transaction can be begun now (checked before any
  * instrument is opened); HB_ERR_IO naming the store if it is read-only. */
@@ -751,5 +751,18 @@ typedef struct hb_db_affected {
  * (with its decision). Oldest first; free() the array. */
 int hb_db_instrument_affected(hb_db *db, int64_t instrument_id, double since_unix, hb_db_affected **out,
 			      size_t *count);
+
+/* ================ read-only stores (issue 12 item 4) ================ */
+
+/* HB_DB_OPEN_READ (read commands): as EXISTING where the store, its directory
+ * and its file system can be written, else as READONLY. A READONLY open uses
+ * SQLite's mode=ro, or immutable=1 where a WAL store's -shm cannot be made
+ * (read-only directory or file system, no journal left beside the store);
+ * running sweeps of this host whose process is gone then read as interrupted
+ * with the reason "owner process gone; not yet recorded", nothing written. */
+/* false when path exists and it, its directory or its file system is read-only */
+bool hb_db_store_writable(const char *path);
+bool hb_db_is_readonly(const hb_db *db);
+bool hb_db_is_immutable(const hb_db *db);
 
 #endif
