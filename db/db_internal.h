@@ -23,6 +23,8 @@ enum db_stmt_slot {
 	/* traceability (db_trace.c) */
 	ST_VERDICT_APPEND, ST_VERDICT_INFORCE, ST_VERDICT_ALL, ST_SPEC_REV_LATEST, ST_SPEC_REV_GET,
 	ST_REPORT_PUT, ST_REPORT_SWEEP_PUT, ST_REPORT_GET, ST_REPORT_SWEEPS, ST_LOT_DECISIONS,
+	/* append-only inspection records (db_catalog.c) */
+	ST_INSP_LIST_ALL, ST_INSP_APPEND,
 	ST_COUNT
 };
 
@@ -128,5 +130,10 @@ int db_note_dead_sweeps(hb_db *db);
 void db_view_sweep(const hb_db *db, hb_db_sweep *s);
 /* The owner of a running sweep of this host is gone (db_core.c). */
 int db_owner_dead(const hb_db *db, long pid, const char *boot_id);
+
+/* The schema step that made inspection records append-only. */
+enum { DB_STEP_INSP_APPEND = 14 };
+/* The login name the shell gives, else the account's (who recorded a record). */
+void db_login_name(char *buf, size_t cap);
 
 #endif

@@ -96,6 +96,18 @@ int db_trace_attach(hb_db *db)
 	return rc == SQLITE_OK ? HB_OK : db_fail(db, rc, "preparing record identities");
 }
 
+void db_login_name(char *buf, size_t cap)
+{
+	const char *user = getenv("USER");
+	if (!user || !*user)
+		user = getenv("LOGNAME");
+	if (!user || !*user) {
+		struct passwd *pw = getpwuid(getuid());
+		user = pw ? pw->pw_name : "";
+	}
+	snprintf(buf, cap, "%s", user);
+}
+
 static sqlite3_stmt *prepare_once(hb_db *db, const char *sql)
 {
 	sqlite3_stmt *st = NULL;
@@ -241,17 +253,9 @@ int db_verdict_append(hb_db *db, hb_db_verdict *v)
 	if (!st)
 		return HB_ERR_DB;
 	db_iso_time(db_now(), v->created, sizeof v->created);
-	if (!v->operator_name[0]) {
-		/* who ran the judgement: the login name the shell gives, else the account's */
-		const char *user = getenv("USER");
-		if (!user || !*user)
-			user = getenv("LOGNAME");
-		if (!user || !*user) {
-			struct passwd *pw = getpwuid(getuid());
-			user = pw ? pw->pw_name : "";
-		}
-		snprintf(v->operator_name, sizeof v->operator_name, "%s", user);
-	}
+	/* who ran the judgement */
+	if (!v->operator_name[0])
+		db_login_name(v->operator_name, sizeof v->operator_name);
 	sqlite3_bind_int64(st, 1, v->sweep_id);
 	db_bind_text(st, 2, v->check_name);
 	db_bind_real(st, 3, v->measured);

@@ -393,16 +393,20 @@ typedef struct hb_db_inspection {
 	char serial[HB_DB_ID_LEN]; /* filled on read */
 	char note[HB_DB_TEXT_LEN];
 	bool conditional;          /* the unit's outcome was conditional; outcome is how the plan's policy counted it */
+	char operator_name[HB_DB_ID_LEN]; /* who recorded it; "" at put = the login name */
+	int64_t superseded_by;     /* the record that replaced it in force; 0 = in force */
 } hb_db_inspection;
 
 void hb_db_inspection_init(hb_db_inspection *rec);
-/* Records the sample at (lot_id, sequence), replacing an earlier record. */
+/* Records the sample at (lot_id, sequence). Append-only: an earlier record
+ * of the same position is kept, superseded by this one (schema step 14). */
 int hb_db_inspection_put(hb_db *db, hb_db_inspection *rec);
-/* In sequence order. */
+/* The records in force, in sequence order (hb_db_inspection_list_all: every
+ * record, superseded ones too, by sequence then as recorded). */
 int hb_db_inspection_list(hb_db *db, int64_t lot_id, hb_db_inspection **out, size_t *count);
 void hb_db_inspections_free(hb_db_inspection *recs);
 /* Where an interrupted inspection resumes: 1 + the highest sequence
- * recorded, counts of pass/fail so far (any may be NULL). */
+ * recorded, counts of pass/fail so far in force (any may be NULL). */
 int hb_db_inspection_progress(hb_db *db, int64_t lot_id, int *next_sequence, int *passed, int *failed);
 
 /* ---------------- history ---------------- */
@@ -764,5 +768,9 @@ int hb_db_instrument_affected(hb_db *db, int64_t instrument_id, double since_uni
 bool hb_db_store_writable(const char *path);
 bool hb_db_is_readonly(const hb_db *db);
 bool hb_db_is_immutable(const hb_db *db);
+
+/* ================ append-only inspection records (issue 11) ================ */
+
+int hb_db_inspection_list_all(hb_db *db, int64_t lot_id, hb_db_inspection **out, size_t *count);
 
 #endif
