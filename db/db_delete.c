@@ -167,11 +167,11 @@ int hb_db_part_delete(hb_db *db, int64_t part_id, const hb_db_deletion *log)
 	if ((rc = db_write_begin(db, "deleting a part")) != HB_OK)
 		return rc;
 	static const char *const steps[] = {
-		"DELETE FROM inspections WHERE lot_id IN (SELECT id FROM lots WHERE part_id = ?1)"
-		" OR unit_id IN (SELECT id FROM units WHERE part_id = ?1)"
-		" OR sweep_id IN (SELECT s.id FROM sweeps s JOIN units u ON u.id = s.unit_id WHERE u.part_id = ?1)",
-		"DELETE FROM report_sweeps WHERE sweep_id IN (SELECT s.id FROM sweeps s JOIN units u ON u.id = s.unit_id"
-		" WHERE u.part_id = ?1)",
+		("DELETE FROM inspections WHERE lot_id IN (SELECT id FROM lots WHERE part_id = ?1)"
+		 " OR unit_id IN (SELECT id FROM units WHERE part_id = ?1)"
+		 " OR sweep_id IN (SELECT s.id FROM sweeps s JOIN units u ON u.id = s.unit_id WHERE u.part_id = ?1)"),
+		("DELETE FROM report_sweeps WHERE sweep_id IN (SELECT s.id FROM sweeps s JOIN units u ON u.id = s.unit_id"
+		 " WHERE u.part_id = ?1)"),
 		"DELETE FROM sweeps WHERE unit_id IN (SELECT id FROM units WHERE part_id = ?1)",
 		"DELETE FROM units WHERE part_id = ?1",
 		"DELETE FROM lots WHERE part_id = ?1",
