@@ -151,6 +151,22 @@ static void test_dead_sweep_shown_not_written(void **state)
 		}
 	assert_int_equal(seen, 1);
 	hb_db_sweeps_free(list);
+	/* a status filter matches the status shown: the demo stored no other
+	 * running or interrupted sweep */
+	hb_db_sweep_filter f;
+	hb_db_sweep_filter_init(&f);
+	f.status = HB_DB_RUNNING;
+	assert_int_equal(hb_db_sweep_list(db, &f, &list, &n), HB_OK);
+	assert_int_equal(n, 0);
+	hb_db_sweeps_free(list);
+	f.status = HB_DB_INTERRUPTED;
+	assert_int_equal(hb_db_sweep_list(db, &f, &list, &n), HB_OK);
+	assert_int_equal(n, 1);
+	assert_int_equal(list[0].id, id);
+	hb_db_sweeps_free(list);
+	int64_t matched = 0;
+	assert_int_equal(hb_db_sweep_count(db, &f, &matched), HB_OK);
+	assert_int_equal(matched, 1);
 	assert_int_equal(hb_db_recovered_count(db), 0);
 	hb_db_close(db);
 	assert_int_equal(stat(path, &after), 0);
