@@ -181,6 +181,21 @@ static void test_lot_report_instruments(void **state)
 	assert_int_equal(rows_with(t, ">op-again</td>"), 0);
 	free(t);
 	free(page);
+
+	/* the part report: the same instruments, once each, over each unit's latest sweep */
+	page = NULL;
+	f = open_memstream(&page, &len);
+	assert_non_null(f);
+	assert_int_equal(hb_report_part(db, "P-LI", f, err, sizeof err), HB_OK);
+	fclose(f);
+	t = table_of(page, "Every instrument that measured a unit");
+	if (!t)
+		fail_msg("the part report has no instrument table");
+	assert_int_equal(rows_with(t, "serial M-100,"), 1);
+	assert_int_equal(rows_with(t, "serial S-201,"), 1);
+	assert_int_equal(rows_with(t, "serial S-202,"), 1);
+	free(t);
+	free(page);
 }
 
 int main(void)

@@ -1,4 +1,4 @@
-/* src/report/report_instruments.c - what the sweeps ran with: the sweep report's instruments, calibration, fixture compensation and settings read back; the lot report's instruments, once each */
+/* src/report/report_instruments.c - what the sweeps ran with: the sweep report's instruments, calibration, fixture compensation and settings read back; the lot and part reports' instruments, once each */
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -97,7 +97,7 @@ void rpt_instruments_section(hb_html *h, hb_db *db, int64_t sweep_id)
 	hb_html_section_end(h);
 }
 
-/* ---- the lot report: every instrument that measured the sample, once ---- */
+/* ---- the lot and part reports: every instrument that measured their sweeps, once ---- */
 
 enum { LOT_INSTR_MAX = 32, LOT_STATES_MAX = 4, LOT_IDS_TEXT = 400 };
 
@@ -169,7 +169,7 @@ static void note_use(hb_db *db, lot_instr *list, size_t *n, int64_t id, const ch
 		x->more_states = true;
 }
 
-void rpt_lot_instruments_section(hb_html *h, hb_db *db, const int64_t *sweep_ids, size_t n)
+void rpt_sweeps_instruments_section(hb_html *h, hb_db *db, const int64_t *sweep_ids, size_t n, const char *caption)
 {
 	hb_db_sweep_trace *t = malloc(sizeof *t);
 	lot_instr *list = calloc(LOT_INSTR_MAX, sizeof *list);
@@ -188,13 +188,13 @@ void rpt_lot_instruments_section(hb_html *h, hb_db *db, const int64_t *sweep_ids
 	}
 	hb_html_section_begin(h, "Instruments");
 	if (ni == 0) {
-		hb_html_paragraph(h, traced ? "The sample's sweeps name no instrument of the register."
-					    : "No instrument is recorded for the sample's sweeps (sweeps stored before the "
+		hb_html_paragraph(h, traced ? "The sweeps name no instrument of the register."
+					    : "No instrument is recorded for these sweeps (sweeps stored before the "
 					      "instrument register, or imported).");
 	} else {
-		static const char *const head[] = { "Role", "Instrument (*IDN?)", "Sample sweeps",
+		static const char *const head[] = { "Role", "Instrument (*IDN?)", "Sweeps",
 						    "Calibration at the sweeps' start (as recorded)", "Calibration as of this page" };
-		hb_html_table_begin(h, "Every instrument that measured a sample unit of this lot, once each", head, 5);
+		hb_html_table_begin(h, caption, head, 5);
 		for (size_t i = 0; i < ni; i++) {
 			hb_db_instrument in;
 			if (hb_db_instrument_get(db, list[i].id, &in) != HB_OK)

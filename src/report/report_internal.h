@@ -73,9 +73,10 @@ void rpt_drawing_section(hb_html *h, hb_db *db, const sweep_data *d);
  * differ. Nothing when the store holds no record of it (older sweeps). */
 void rpt_instruments_section(hb_html *h, hb_db *db, int64_t sweep_id);
 
-/* ---- the lot report's instruments (report_instruments.c) ---- */
+/* ---- the lot and part reports' instruments (report_instruments.c) ---- */
 /* Every instrument that measured one of the sweeps, once, with the sweeps,
- * the calibration status recorded at their start and the status now. */
-void rpt_lot_instruments_section(hb_html *h, hb_db *db, const int64_t *sweep_ids, size_t n);
+ * the calibration status recorded at their start and the status now;
+ * caption names the table. */
+void rpt_sweeps_instruments_section(hb_html *h, hb_db *db, const int64_t *sweep_ids, size_t n, const char *caption);
 
 #endif

@@ -309,7 +309,8 @@ int hb_report_lot(hb_db *db, const char *part_number, const char *lot_code, FILE
 			if (recs[i].sweep_id > 0)
 				ids[ns++] = recs[i].sweep_id;
 		if (ids)
-			rpt_lot_instruments_section(h, db, ids, ns);
+			rpt_sweeps_instruments_section(h, db, ids, ns,
+						       "Every instrument that measured a sample unit of this lot, once each");
 		free(ids);
 	}
 
