@@ -376,16 +376,20 @@ int hb_db_inspection_put(hb_db *db, hb_db_inspection *rec)
 		return db_error(db, HB_ERR_ARG, "inspection sequence %d: must be 1 or more", rec->sequence);
 	if (rec->outcome != HB_DB_PASS && rec->outcome != HB_DB_FAIL && rec->outcome != HB_DB_SKIPPED)
 		return db_error(db, HB_ERR_ARG, "inspection outcome must be pass, fail or skipped");
-	sqlite3_stmt *st = db_stmt(db, ST_INSP_UPSERT,
+	/* a store held at an older schema on purpose (migration tests) has no operator column */
+	bool old = db->old_version && db->old_version < DB_STEP_INSP_APPEND;
+	sqlite3_stmt *st = old ? db_stmt(db, ST_INSP_UPSERT,
 		"INSERT INTO inspections (lot_id, sequence, unit_id, sweep_id, outcome, note, at, at_unix, conditional)"
-		" VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9)"
-		" ON CONFLICT (lot_id, sequence) DO UPDATE SET unit_id = excluded.unit_id,"
-		" sweep_id = excluded.sweep_id, outcome = excluded.outcome, note = excluded.note,"
-		" at = excluded.at, at_unix = excluded.at_unix, conditional = excluded.conditional RETURNING id");
+		" VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9) RETURNING id") : db_stmt(db, ST_INSP_APPEND,
+		"INSERT INTO inspections (lot_id, sequence, unit_id, sweep_id, outcome, note, at, at_unix, conditional,"
+		" operator) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10) RETURNING id");
 	if (!st)
 		return HB_ERR_DB;
 	if (rec->at <= 0)
 		rec->at = db_now();
+	if (!rec->operator_name[0])
+		db_login_name(rec->operator_name, sizeof rec->operator_name);
+	rec->superseded_by = 0;
 	db_iso_time(rec->at, rec->at_iso, sizeof rec->at_iso);
 	sqlite3_bind_int64(st, 1, rec->lot_id);
 	sqlite3_bind_int(st, 2, rec->sequence);
@@ -396,8 +400,14 @@ int hb_db_inspection_put(hb_db *db, hb_db_inspection *rec)
 	db_bind_text(st, 7, rec->at_iso);
 	sqlite3_bind_double(st, 8, rec->at);
 	sqlite3_bind_int(st, 9, rec->conditional ? 1 : 0);
+	if (!old)
+		db_bind_text(st, 10, rec->operator_name);
 	return db_write_one(db, st, "storing an inspection record", &rec->id, NULL);
 }
+
+#define INSPECTION_COLUMNS                                                                          \
+	"i.id, i.lot_id, i.unit_id, i.sweep_id, i.sequence, i.outcome, i.at_unix, i.at, coalesce(u.serial, ''),"  \
+	" i.note, i.conditional, i.operator, i.superseded_by"
 
 static void read_inspection(sqlite3_stmt *st, void *row, const void *ctx)
 {
@@ -419,6 +429,8 @@ static void read_inspection(sqlite3_stmt *st, void *row, const void *ctx)
 	db_col_text(st, 8, r->serial, sizeof r->serial);
 	db_col_text(st, 9, r->note, sizeof r->note);
 	r->conditional = sqlite3_column_int(st, 10) != 0;
+	db_col_text(st, 11, r->operator_name, sizeof r->operator_name);
+	r->superseded_by = sqlite3_column_int64(st, 12);
 }
 
 int hb_db_inspection_list(hb_db *db, int64_t lot_id, hb_db_inspection **out, size_t *count)
@@ -428,9 +440,24 @@ int hb_db_inspection_list(hb_db *db, int64_t lot_id, hb_db_inspection **out, siz
 	*out = NULL;
 	*count = 0;
 	sqlite3_stmt *st = db_stmt(db, ST_INSP_LIST,
-		"SELECT i.id, i.lot_id, i.unit_id, i.sweep_id, i.sequence, i.outcome, i.at_unix, i.at,"
-		" coalesce(u.serial, ''), i.note, i.conditional FROM inspections i LEFT JOIN units u ON u.id = i.unit_id"
-		" WHERE i.lot_id = ?1 ORDER BY i.sequence");
+		"SELECT " INSPECTION_COLUMNS " FROM inspections i LEFT JOIN units u ON u.id = i.unit_id"
+		" WHERE i.lot_id = ?1 AND i.superseded_by IS NULL ORDER BY i.sequence");
+	if (!st)
+		return HB_ERR_DB;
+	sqlite3_bind_int64(st, 1, lot_id);
+	return db_read_all(db, st, read_inspection, NULL, sizeof **out, "listing inspection records", (void **)out,
+			   count);
+}
+
+int hb_db_inspection_list_all(hb_db *db, int64_t lot_id, hb_db_inspection **out, size_t *count)
+{
+	if (!db || !out || !count)
+		return HB_ERR_ARG;
+	*out = NULL;
+	*count = 0;
+	sqlite3_stmt *st = db_stmt(db, ST_INSP_LIST_ALL,
+		"SELECT " INSPECTION_COLUMNS " FROM inspections i LEFT JOIN units u ON u.id = i.unit_id"
+		" WHERE i.lot_id = ?1 ORDER BY i.sequence, i.id");
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, lot_id);
@@ -449,7 +476,7 @@ int hb_db_inspection_progress(hb_db *db, int64_t lot_id, int *next_sequence, int
 		return HB_ERR_ARG;
 	sqlite3_stmt *st = db_stmt(db, ST_INSP_PROGRESS,
 		"SELECT coalesce(max(sequence), 0) + 1, coalesce(sum(outcome = 'pass'), 0),"
-		" coalesce(sum(outcome = 'fail'), 0) FROM inspections WHERE lot_id = ?1");
+		" coalesce(sum(outcome = 'fail'), 0) FROM inspections WHERE lot_id = ?1 AND superseded_by IS NULL");
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, lot_id);

@@ -18,7 +18,6 @@ extern const char hb_db_schema_sql[];
 
 /* Long enough that a sweep committing points, a second station and a
  * reader never give up on each other; a point transaction lasts milliseconds. */
-enum { DB_BUSY_TIMEOUT_MS = 10000 };
 
 /* ---------------- helpers shared by the store's files ---------------- */
 
@@ -592,8 +591,18 @@ static int open_at(const char *path, int target, hb_db_open_mode mode, hb_db **o
 		return db_error(db, errno == ENOENT ? HB_ERR_NOTFOUND : HB_ERR_IO,
 				"no store at %s (%s); this command creates none: check --db or HENRYBENCH_DB", path,
 				strerror(errno));
-	int flags = mode == HB_DB_OPEN_READONLY ? SQLITE_OPEN_READONLY :
-		    mode == HB_DB_OPEN_EXISTING ? SQLITE_OPEN_READWRITE : SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE;
+	/* A read command writes (migration, recovery) only where it can. */
+	if (mode == HB_DB_OPEN_READ)
+		mode = hb_db_store_writable(path) ? HB_DB_OPEN_EXISTING : HB_DB_OPEN_READONLY;
+	if (mode == HB_DB_OPEN_READONLY) {
+		int status = db_open_readonly_conn(db, path);
+		if (status == HB_OK)
+			status = open_readonly_check(db);
+		if (status == HB_OK)
+			status = db_note_dead_sweeps(db);
+		return status;
+	}
+	int flags = mode == HB_DB_OPEN_EXISTING ? SQLITE_OPEN_READWRITE : SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE;
 	int rc = sqlite3_open_v2(path, &db->conn, flags, NULL);
 	if (rc != SQLITE_OK) {
 		db_error(db, HB_ERR_DB, "cannot open store %s: %s", path,
@@ -602,8 +611,6 @@ static int open_at(const char *path, int target, hb_db_open_mode mode, hb_db **o
 	}
 	sqlite3_extended_result_codes(db->conn, 1);
 	sqlite3_busy_timeout(db->conn, DB_BUSY_TIMEOUT_MS);
-	if (mode == HB_DB_OPEN_READONLY)
-		return open_readonly_check(db);
 
 	int status = set_wal(db);
 	if (status < 0)
@@ -680,6 +687,7 @@ void hb_db_close(hb_db *db)
 		sqlite3_exec(db->conn, "ROLLBACK", NULL, NULL, NULL);
 	sqlite3_close(db->conn);
 	free(db->plan_findings);
+	free(db->dead);
 	free(db->path);
 	free(db);
 }
@@ -749,7 +757,7 @@ int hb_db_batch_rollback(hb_db *db)
 /* Another station's host cannot be checked from here, so its sweeps stay
  * running; on this host a sweep is dead when its boot is over or its
  * process is gone. */
-static int owner_dead(const hb_db *db, long pid, const char *boot_id)
+int db_owner_dead(const hb_db *db, long pid, const char *boot_id)
 {
 	if (db->boot_id[0] && boot_id[0] && strcmp(db->boot_id, boot_id) != 0)
 		return 1;
@@ -774,7 +782,7 @@ int db_recover_running(hb_db *db)
 		long pid = (long)sqlite3_column_int64(st, 1);
 		char boot[64];
 		db_col_text(st, 2, boot, sizeof boot);
-		if (!owner_dead(db, pid, boot))
+		if (!db_owner_dead(db, pid, boot))
 			continue;
 		if (db_grow(db, (void **)&dead, &cap, n, sizeof *dead) < 0 ||
 		    db_grow(db, (void **)&pids, &pcap, n, sizeof *pids) < 0) {

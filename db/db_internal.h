@@ -23,6 +23,8 @@ enum db_stmt_slot {
 	/* traceability (db_trace.c) */
 	ST_VERDICT_APPEND, ST_VERDICT_INFORCE, ST_VERDICT_ALL, ST_SPEC_REV_LATEST, ST_SPEC_REV_GET,
 	ST_REPORT_PUT, ST_REPORT_SWEEP_PUT, ST_REPORT_GET, ST_REPORT_SWEEPS, ST_LOT_DECISIONS,
+	/* append-only inspection records (db_catalog.c) */
+	ST_INSP_LIST_ALL, ST_INSP_APPEND,
 	ST_COUNT
 };
 
@@ -44,6 +46,11 @@ struct hb_db {
 	bool plan_watch;     /* hb_db_plan_watch: each newly prepared statement's plan is checked */
 	char *plan_findings; /* full scans of growing tables found, one line each */
 	size_t plan_checked;
+	/* read-only opens (db_readonly.c) */
+	int readonly;        /* opened read-only: nothing is written, not even recovery */
+	int immutable;       /* opened with immutable=1: no -shm could be had */
+	int64_t *dead;       /* running sweeps whose owner is gone, shown interrupted */
+	size_t n_dead;
 };
 
 /* Prepared statement of slot, preparing sql on first use; NULL on error
@@ -111,5 +118,22 @@ void db_read_part_row(sqlite3_stmt *st, void *row, const void *ctx);
 /* Step-7 forms of hb_db_verdict_put / hb_db_verdict_list. */
 int db_verdict_append(hb_db *db, hb_db_verdict *v);
 int db_verdict_list_v7(hb_db *db, int64_t sweep_id, bool all, hb_db_verdict **out, size_t *count);
+
+/* ---------------- read-only opens (db_readonly.c) ---------------- */
+
+enum { DB_BUSY_TIMEOUT_MS = 10000 };
+/* Opens db->conn read-only (mode=ro, else immutable=1 where no -shm can be made). */
+int db_open_readonly_conn(hb_db *db, const char *path);
+/* Notes the running sweeps of this host whose owner is gone, without writing. */
+int db_note_dead_sweeps(hb_db *db);
+/* On a read-only handle, a noted dead sweep reads as interrupted. */
+void db_view_sweep(const hb_db *db, hb_db_sweep *s);
+/* The owner of a running sweep of this host is gone (db_core.c). */
+int db_owner_dead(const hb_db *db, long pid, const char *boot_id);
+
+/* The schema step that made inspection records append-only. */
+enum { DB_STEP_INSP_APPEND = 14 };
+/* The login name the shell gives, else the account's (who recorded a record). */
+void db_login_name(char *buf, size_t cap);
 
 #endif

@@ -134,7 +134,8 @@ int hb_db_stream_lots(hb_db *db, int64_t part_id, const char *supplier, hb_db_st
 	sqlite3_stmt *st = prepare(db,
 		"SELECT id, part_id, lot_code, lot_size, aql, inspection_level, severity, code_letter, sample_size,"
 		" accept_number, reject_number, decision, created, decided_at, supplier, production_irregular,"
-		" (SELECT count(*) FROM inspections i WHERE i.lot_id = lots.id AND i.outcome = 'fail'),"
+		" (SELECT count(*) FROM inspections i WHERE i.lot_id = lots.id AND i.outcome = 'fail'"
+		" AND i.superseded_by IS NULL),"
 		" coalesce(decided_unix, CAST(strftime('%s', decided_at) AS REAL)) AS t"
 		" FROM lots WHERE part_id = ?1 AND supplier = ?2 AND decision IN ('accept', 'reject')"
 		" ORDER BY t, id");

@@ -48,7 +48,6 @@ void hb_db_sweep_filter_init(hb_db_sweep_filter *f)
 
 static void read_sweep(sqlite3_stmt *st, void *row, const void *ctx)
 {
-	(void)ctx;
 	hb_db_sweep *s = row;
 	hb_db_sweep_init(s);
 	s->id = sqlite3_column_int64(st, 0);
@@ -107,6 +106,7 @@ static void read_sweep(sqlite3_stmt *st, void *row, const void *ctx)
 	db_col_text(st, 52, s->supply_accuracy, sizeof s->supply_accuracy);
 	db_col_text(st, 53, s->station_decision_rule, sizeof s->station_decision_rule);
 	s->station_guard_r = db_col_real(st, 54);
+	db_view_sweep(ctx, s);
 }
 
 int hb_db_sweep_begin(hb_db *db, hb_db_sweep *s)
@@ -309,7 +309,7 @@ int hb_db_sweep_get(hb_db *db, int64_t sweep_id, hb_db_sweep *out)
 	sqlite3_bind_int64(st, 1, sweep_id);
 	char what[32];
 	snprintf(what, sizeof what, "%lld", (long long)sweep_id);
-	return db_read_one(db, st, read_sweep, out, NULL, "sweep", what, "reading a sweep");
+	return db_read_one(db, st, read_sweep, out, db, "sweep", what, "reading a sweep");
 }
 
 enum { F_PART = 1, F_SERIAL = 2, F_LOT = 4, F_STATUS = 8, F_KIND = 16, F_SINCE = 32 };
@@ -392,6 +392,34 @@ static void sweep_filter_bind(sqlite3_stmt *st, unsigned mask, const hb_db_sweep
 		sqlite3_bind_double(st, 6, f->since);
 }
 
+/* A read-only handle shows dead running sweeps as interrupted (db_readonly.c):
+ * a filter on running or interrupted then matches what is shown, not what is
+ * stored, so those rows are filtered after reading. */
+static bool status_shown_differs(const hb_db *db, const hb_db_sweep_filter *f)
+{
+	return db->readonly && db->n_dead > 0 && (f->status == HB_DB_RUNNING || f->status == HB_DB_INTERRUPTED);
+}
+
+static int sweep_list_shown(hb_db *db, const hb_db_sweep_filter *f, hb_db_sweep **out, size_t *count)
+{
+	hb_db_sweep_filter g = *f;
+	g.status = -1;
+	g.limit = 0;
+	int rc = hb_db_sweep_list(db, &g, out, count);
+	if (rc != HB_OK)
+		return rc;
+	size_t k = 0;
+	for (size_t i = 0; i < *count; i++) {
+		if ((int)(*out)[i].status != f->status || (f->limit > 0 && k >= (size_t)f->limit))
+			continue;
+		if (k != i)
+			(*out)[k] = (*out)[i];
+		k++;
+	}
+	*count = k;
+	return HB_OK;
+}
+
 int hb_db_sweep_list(hb_db *db, const hb_db_sweep_filter *f, hb_db_sweep **out, size_t *count)
 {
 	if (!db || !out || !count)
@@ -403,6 +431,8 @@ int hb_db_sweep_list(hb_db *db, const hb_db_sweep_filter *f, hb_db_sweep **out, 
 		hb_db_sweep_filter_init(&any);
 		f = &any;
 	}
+	if (status_shown_differs(db, f))
+		return sweep_list_shown(db, f, out, count);
 	unsigned mask;
 	if (sweep_filter_mask(db, f, &mask) != HB_OK)
 		return HB_ERR_ARG;
@@ -411,7 +441,7 @@ int hb_db_sweep_list(hb_db *db, const hb_db_sweep_filter *f, hb_db_sweep **out, 
 		return HB_ERR_DB;
 	sweep_filter_bind(st, mask, f);
 	sqlite3_bind_int64(st, 7, f->limit > 0 ? f->limit : -1);
-	return db_read_all(db, st, read_sweep, NULL, sizeof **out, "listing sweeps", (void **)out, count);
+	return db_read_all(db, st, read_sweep, db, sizeof **out, "listing sweeps", (void **)out, count);
 }
 
 static void read_count(sqlite3_stmt *st, void *row, const void *ctx)
@@ -424,6 +454,16 @@ int hb_db_sweep_count(hb_db *db, const hb_db_sweep_filter *f, int64_t *count)
 {
 	if (!db || !f || !count)
 		return HB_ERR_ARG;
+	if (status_shown_differs(db, f)) {
+		hb_db_sweep_filter g = *f;
+		g.limit = 0;
+		hb_db_sweep *rows = NULL;
+		size_t n = 0;
+		int rc = sweep_list_shown(db, &g, &rows, &n);
+		free(rows);
+		*count = (int64_t)n;
+		return rc;
+	}
 	unsigned mask;
 	if (sweep_filter_mask(db, f, &mask) != HB_OK)
 		return HB_ERR_ARG;

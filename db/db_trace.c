@@ -97,6 +97,23 @@ int db_trace_attach(hb_db *db)
 	return rc == SQLITE_OK ? HB_OK : db_fail(db, rc, "preparing record identities");
 }
 
+void db_login_name(char *buf, size_t cap)
+{
+	/* the login name the shell gives, else the account's, else "-"; each
+	 * only when it is one line of UTF-8 that fits (a $USER with terminal
+	 * escapes is never stored, nor cut) */
+	struct passwd *pw = getpwuid(getuid());
+	const char *cand[] = { getenv("USER"), getenv("LOGNAME"), pw ? pw->pw_name : NULL };
+	const char *user = "-";
+	for (size_t i = 0; i < sizeof cand / sizeof cand[0]; i++) {
+		if (cand[i] && *cand[i] && hb_text_check("operator", cand[i], cap - 1, NULL, 0) == HB_OK) {
+			user = cand[i];
+			break;
+		}
+	}
+	snprintf(buf, cap, "%s", user);
+}
+
 static sqlite3_stmt *prepare_once(hb_db *db, const char *sql)
 {
 	sqlite3_stmt *st = NULL;
@@ -242,22 +259,9 @@ int db_verdict_append(hb_db *db, hb_db_verdict *v)
 	if (!st)
 		return HB_ERR_DB;
 	db_iso_time(db_now(), v->created, sizeof v->created);
-	if (!v->operator_name[0]) {
-		/* who ran the judgement: the login name the shell gives, else the
-		 * account's, else "-"; each only when it is one line of UTF-8 that
-		 * fits (a $USER with terminal escapes is never stored, nor cut) */
-		struct passwd *pw = getpwuid(getuid());
-		const char *cand[] = { getenv("USER"), getenv("LOGNAME"), pw ? pw->pw_name : NULL };
-		const char *user = "-";
-		for (size_t i = 0; i < sizeof cand / sizeof cand[0]; i++) {
-			if (cand[i] && *cand[i] &&
-			    hb_text_check("operator", cand[i], sizeof v->operator_name - 1, NULL, 0) == HB_OK) {
-				user = cand[i];
-				break;
-			}
-		}
-		snprintf(v->operator_name, sizeof v->operator_name, "%s", user);
-	}
+	/* who ran the judgement */
+	if (!v->operator_name[0])
+		db_login_name(v->operator_name, sizeof v->operator_name);
 	sqlite3_bind_int64(st, 1, v->sweep_id);
 	db_bind_text(st, 2, v->check_name);
 	db_bind_real(st, 3, v->measured);

@@ -393,16 +393,20 @@ typedef struct hb_db_inspection {
 	char serial[HB_DB_ID_LEN]; /* filled on read */
 	char note[HB_DB_TEXT_LEN];
 	bool conditional;          /* the unit's outcome was conditional; outcome is how the plan's policy counted it */
+	char operator_name[HB_DB_ID_LEN]; /* who recorded it; "" at put = the login name */
+	int64_t superseded_by;     /* the record that replaced it in force; 0 = in force */
 } hb_db_inspection;
 
 void hb_db_inspection_init(hb_db_inspection *rec);
-/* Records the sample at (lot_id, sequence), replacing an earlier record. */
+/* Records the sample at (lot_id, sequence). Append-only: an earlier record
+ * of the same position is kept, superseded by this one (schema step 14). */
 int hb_db_inspection_put(hb_db *db, hb_db_inspection *rec);
-/* In sequence order. */
+/* The records in force, in sequence order (hb_db_inspection_list_all: every
+ * record, superseded ones too, by sequence then as recorded). */
 int hb_db_inspection_list(hb_db *db, int64_t lot_id, hb_db_inspection **out, size_t *count);
 void hb_db_inspections_free(hb_db_inspection *recs);
 /* Where an interrupted inspection resumes: 1 + the highest sequence
- * recorded, counts of pass/fail so far (any may be NULL). */
+ * recorded, counts of pass/fail so far in force (any may be NULL). */
 int hb_db_inspection_progress(hb_db *db, int64_t lot_id, int *next_sequence, int *passed, int *failed);
 
 /* ---------------- history ---------------- */
@@ -588,7 +592,7 @@ void hb_db_stream_events_free(hb_db_stream_event *events);
 /* CREATE: as hb_db_open. EXISTING: read and write, never creates (a missing
  * file is HB_ERR_NOTFOUND naming the path). READONLY: never writes: no
  * migration, no recovery (a store at another schema is HB_ERR_DB). */
-typedef enum { HB_DB_OPEN_CREATE = 0, HB_DB_OPEN_EXISTING, HB_DB_OPEN_READONLY } hb_db_open_mode;
+typedef enum { HB_DB_OPEN_CREATE = 0, HB_DB_OPEN_EXISTING, HB_DB_OPEN_READONLY, HB_DB_OPEN_READ } hb_db_open_mode;
 int hb_db_open_as(const char *path, hb_db_open_mode mode, hb_db **out);
 /* HB_OK if a write transaction can be begun now (checked before any
  * instrument is opened); HB_ERR_IO naming the store if it is read-only. */
@@ -751,5 +755,22 @@ typedef struct hb_db_affected {
  * (with its decision). Oldest first; free() the array. */
 int hb_db_instrument_affected(hb_db *db, int64_t instrument_id, double since_unix, hb_db_affected **out,
 			      size_t *count);
+
+/* ================ read-only stores (issue 12 item 4) ================ */
+
+/* HB_DB_OPEN_READ (read commands): as EXISTING where the store, its directory
+ * and its file system can be written, else as READONLY. A READONLY open uses
+ * SQLite's mode=ro, or immutable=1 where a WAL store's -shm cannot be made
+ * (read-only directory or file system, no journal left beside the store);
+ * running sweeps of this host whose process is gone then read as interrupted
+ * with the reason "owner process gone; not yet recorded", nothing written. */
+/* false when path exists and it, its directory or its file system is read-only */
+bool hb_db_store_writable(const char *path);
+bool hb_db_is_readonly(const hb_db *db);
+bool hb_db_is_immutable(const hb_db *db);
+
+/* ================ append-only inspection records (issue 11) ================ */
+
+int hb_db_inspection_list_all(hb_db *db, int64_t lot_id, hb_db_inspection **out, size_t *count);
 
 #endif

@@ -542,3 +542,38 @@ CREATE TABLE sweep_trace (
 ) WITHOUT ROWID;
 CREATE INDEX sweep_trace_lcr ON sweep_trace(lcr_instrument_id);
 CREATE INDEX sweep_trace_supply ON sweep_trace(supply_instrument_id);
+
+-- step 14: inspection records are appended, never replaced: a sample recorded again supersedes its earlier record, which stays with its time and operator; the lot's tally counts the records in force
+-- The table is rebuilt because SQLite cannot drop the old UNIQUE (lot_id, sequence) in place.
+CREATE TABLE inspections_new (
+	id INTEGER PRIMARY KEY,
+	lot_id INTEGER NOT NULL REFERENCES lots(id) ON DELETE CASCADE,
+	sequence INTEGER NOT NULL CHECK (sequence >= 1),
+	unit_id INTEGER REFERENCES units(id),
+	sweep_id INTEGER REFERENCES sweeps(id),
+	outcome TEXT NOT NULL CHECK (outcome IN ('pass', 'fail', 'skipped')),
+	note TEXT NOT NULL DEFAULT '',
+	at TEXT NOT NULL,
+	at_unix REAL NOT NULL,
+	conditional INTEGER NOT NULL DEFAULT 0,
+	uid TEXT,
+	operator TEXT NOT NULL DEFAULT '',
+	superseded_by INTEGER
+);
+INSERT INTO inspections_new (id, lot_id, sequence, unit_id, sweep_id, outcome, note, at, at_unix, conditional, uid)
+	SELECT id, lot_id, sequence, unit_id, sweep_id, outcome, note, at, at_unix, conditional, uid FROM inspections;
+DROP TABLE inspections;
+ALTER TABLE inspections_new RENAME TO inspections;
+CREATE UNIQUE INDEX inspections_uid ON inspections(uid);
+CREATE INDEX inspections_lot ON inspections(lot_id, superseded_by, sequence);
+CREATE INDEX inspections_sweep ON inspections(sweep_id);
+CREATE TRIGGER inspections_append AFTER INSERT ON inspections BEGIN
+	UPDATE inspections SET superseded_by = NEW.id
+		WHERE lot_id = NEW.lot_id AND sequence = NEW.sequence AND id <> NEW.id AND superseded_by IS NULL;
+END;
+-- the unlink of a deleted sweep (sweep_id, note) stays possible; the record itself does not change
+CREATE TRIGGER inspections_keep BEFORE UPDATE OF lot_id, sequence, unit_id, outcome, at, at_unix, conditional,
+	operator ON inspections
+BEGIN
+	SELECT RAISE(ABORT, 'inspection records are append-only: record the sample again to supersede one');
+END;

@@ -801,6 +801,9 @@ bool hb_profile_supports(const hb_profile *p, hb_instrument_kind kind, const cha
 	return strcmp(operation, "reset") == 0;
 }
 
+static void hb_profile_operations_list(const hb_profile *p, const char *const *ops, char *provided, size_t pcap,
+				       char *absent, size_t acap);
+
 void hb_profile_operations(const hb_profile *p, char *provided, size_t pcap, char *absent, size_t acap)
 {
 	static const char *const lcr_ops[] = { "reset", "frequency", "level.voltage", "level.current", "function",
@@ -816,6 +819,23 @@ void hb_profile_operations(const hb_profile *p, char *provided, size_t pcap, cha
 	if (!p)
 		return;
 	const char *const *ops = p->kind == HB_KIND_LCR ? lcr_ops : supply_ops;
+	hb_profile_operations_list(p, ops, provided, pcap, absent, acap);
+	/* The read-back queries (settings snapshots at a sweep's start and end)
+	 * are named where the profile has them; without them the settings in
+	 * force are recorded as requested, which is not a missing operation. */
+	for (size_t i = 0; i < HB_PK_COUNT; i++) {
+		if (strncmp(hb_profile_keys[i].name, "query.", 6) != 0 || !p->v[i].set ||
+		    hb_profile_keys[i].section != (p->kind == HB_KIND_LCR ? SEC_LCR : SEC_SUPPLY))
+			continue;
+		size_t used = strlen(provided);
+		if (pcap > used)
+			snprintf(provided + used, pcap - used, "%s%s", used ? " " : "", hb_profile_keys[i].name);
+	}
+}
+
+static void hb_profile_operations_list(const hb_profile *p, const char *const *ops, char *provided, size_t pcap,
+				       char *absent, size_t acap)
+{
 	for (int i = 0; ops[i]; i++) {
 		int key = hb_profile_key_of(p->kind, ops[i]);
 		bool has = strcmp(ops[i], "reset") == 0 || (key >= 0 && p->v[key].set);

@@ -39,7 +39,7 @@ int hb_cli_resolve_id(int kind_code, const char *text, long long *id)
 		return HB_ERR_ARG;
 	}
 	/* a global identity means nothing without the store it is kept in */
-	hb_db *db = hb_cli_open_store();
+	hb_db *db = hb_cli_open_store_read(NULL);
 	if (!db)
 		return HB_ERR_DB;
 	int64_t local = 0;
@@ -58,7 +58,7 @@ const char *hb_cli_part_number(const char *text, char *buf, size_t cap)
 	if (hb_uid_parse(text, b) != HB_OK)
 		return text;
 	hb_db *db = NULL;
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
+	if (hb_db_open_as(hb_global.db_path, HB_DB_OPEN_READ, &db) != HB_OK) {
 		hb_db_close(db);
 		return text;
 	}
@@ -79,7 +79,7 @@ const char *hb_cli_lot_code(const char *text, char *code, size_t code_cap, char 
 	if (hb_uid_parse(text, b) != HB_OK)
 		return text;
 	hb_db *db = NULL;
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
+	if (hb_db_open_as(hb_global.db_path, HB_DB_OPEN_READ, &db) != HB_OK) {
 		hb_db_close(db);
 		return text;
 	}

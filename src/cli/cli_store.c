@@ -21,7 +21,8 @@ struct hb_db *hb_cli_open_store_as(int mode, int *exit_code)
 
 struct hb_db *hb_cli_open_store_read(int *exit_code)
 {
-	return hb_cli_open_store_as(HB_DB_OPEN_EXISTING, exit_code);
+	/* read-only store, directory or file system: read without writing (docs/store.md) */
+	return hb_cli_open_store_as(HB_DB_OPEN_READ, exit_code);
 }
 
 int hb_cli_check_writable(struct hb_db *db)

@@ -315,9 +315,11 @@ int hb_cmd_instrument(int argc, char **argv)
 		hb_cli_error("instrument %s %s", sub, list ? "takes no operand" : "needs exactly one SERIAL");
 		return HB_EXIT_USAGE;
 	}
-	hb_db *db = hb_cli_open_store();
+	/* only edit writes: the others read a read-only store too */
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = strcmp(sub, "edit") == 0 ? hb_cli_open_store() : hb_cli_open_store_read(&open_exit);
 	if (!db)
-		return HB_EXIT_RUNTIME;
+		return open_exit;
 	int rc;
 	if (list)
 		rc = do_list(db, &a);

@@ -98,7 +98,7 @@ static int stream_state(const plan_args *a, hb_stream *s, hb_switch_next *next)
 {
 	hb_db *db = NULL;
 	hb_db_part part;
-	int rc = hb_db_open(hb_global.db_path, &db);
+	int rc = hb_db_open_as(hb_global.db_path, HB_DB_OPEN_READ, &db);
 	if (rc != HB_OK) {
 		hb_cli_error("store: %s", db ? hb_db_errmsg(db) : "out of memory");
 		hb_db_close(db);

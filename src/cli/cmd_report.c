@@ -69,6 +69,15 @@ int hb_cmd_report(int argc, char **argv)
 	hb_db *db = hb_cli_open_store_read(&open_exit);
 	if (!db)
 		return open_exit;
+	/* A report is filed with its number and hashes (verify reads them back):
+	 * a page that could not be filed would carry a number that leads nowhere,
+	 * so on a read-only store none is written (docs/store.md). */
+	if (hb_db_is_readonly(db)) {
+		hb_cli_error("report: store %s is read-only, so the report could not be filed; nothing was written "
+			     "(copy the store to a writable place and report from there)", hb_db_path(db));
+		hb_db_close(db);
+		return HB_EXIT_RUNTIME;
+	}
 	char part_buf[HB_DB_ID_LEN], lot_buf[HB_DB_ID_LEN], lot_part[HB_DB_ID_LEN];
 	if (lot)
 		lot = hb_cli_lot_code(lot, lot_buf, sizeof lot_buf, lot_part, sizeof lot_part, &part);

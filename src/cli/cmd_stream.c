@@ -70,12 +70,17 @@ int hb_cmd_stream(int argc, char **argv)
 	hb_db *db = NULL;
 	hb_stream s;
 	memset(&s, 0, sizeof s);
-	if (hb_db_open(hb_global.db_path, &db) != HB_OK) {
+	/* only a change of the stream writes; showing it reads a read-only store too */
+	bool change = a.approve || a.withdraw || a.resume;
+	int rc = hb_db_open_as(hb_global.db_path, change ? HB_DB_OPEN_CREATE : HB_DB_OPEN_READ, &db);
+	if (rc != HB_OK) {
 		hb_cli_error("store: %s", db ? hb_db_errmsg(db) : "out of memory");
+		if (rc == HB_ERR_NOTFOUND)
+			exit_code = HB_EXIT_USAGE;
 		goto out;
 	}
 	hb_db_part part;
-	int rc = hb_db_part_get(db, part_number, &part);
+	rc = hb_db_part_get(db, part_number, &part);
 	if (rc == HB_ERR_NOTFOUND) {
 		hb_cli_error("stream: no part '%s' in %s (see 'henrybench part list')", part_number, hb_db_path(db));
 		exit_code = HB_EXIT_USAGE;

@@ -58,9 +58,10 @@ int hb_cmd_verify(int argc, char **argv)
 			printf("store: %s (beside the report; no --db given)\n", beside);
 		}
 	}
-	hb_db *db = hb_cli_open_store();
+	int open_exit = HB_EXIT_RUNTIME;
+	hb_db *db = hb_cli_open_store_read(&open_exit);
 	if (!db)
-		return HB_EXIT_RUNTIME;
+		return open_exit;
 	hb_report_check c;
 	rc = hb_report_verify(db, path, &c, err, sizeof err);
 	hb_db_close(db);

@@ -86,5 +86,10 @@ int rpt_stream_section(hb_html *h, hb_db *db, const hb_db_part *part);
  * its latest core fit, with U and k and what they rest on; why not, when
  * there is no core fit. */
 void rpt_design_section(hb_html *h, hb_db *db, const hb_db_part *part);
+/* ---- the lot and part reports' instruments (report_instruments.c) ---- */
+/* Every instrument that measured one of the sweeps, once, with the sweeps,
+ * the calibration status recorded at their start and the status now;
+ * caption names the table. */
+void rpt_sweeps_instruments_section(hb_html *h, hb_db *db, const int64_t *sweep_ids, size_t n, const char *caption);
 
 #endif

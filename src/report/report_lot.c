@@ -103,6 +103,38 @@ const char *const rpt_stats_head[] = { "Quantity", "n", "Mean", "Std. deviation 
 					  "Cpk (95 % interval)",
 					  "Limits" };
 
+/* Sample records recorded again are kept (append-only, docs/store.md): the
+ * earlier ones are listed under the records in force. */
+static void superseded_table(hb_html *h, hb_db *db, int64_t lot_id)
+{
+	hb_db_inspection *all = NULL;
+	size_t n = 0, old = 0;
+	if (hb_db_inspection_list_all(db, lot_id, &all, &n) != HB_OK)
+		return;
+	for (size_t i = 0; i < n; i++)
+		old += all[i].superseded_by != 0;
+	if (old > 0) {
+		static const char *const head[] = { "#", "Serial", "Sweep", "Result", "Recorded", "Operator",
+						    "Superseded by record", "Note" };
+		hb_html_table_begin(h, "Superseded records: sample positions recorded again; kept as recorded, "
+				    "not counted in the tally", head, 8);
+		for (size_t i = 0; i < n; i++) {
+			const hb_db_inspection *r = &all[i];
+			if (!r->superseded_by)
+				continue;
+			char seq[16], sw[24], by[24];
+			snprintf(seq, sizeof seq, "%d", r->sequence);
+			snprintf(sw, sizeof sw, r->sweep_id > 0 ? "%lld" : "-", (long long)r->sweep_id);
+			snprintf(by, sizeof by, "%lld", (long long)r->superseded_by);
+			const char *cells[8] = { seq, rpt_or_dash(r->serial), sw, hb_db_outcome_name(r->outcome),
+						 rpt_or_dash(r->at_iso), rpt_or_dash(r->operator_name), by, rpt_or_dash(r->note) };
+			hb_html_table_row(h, cells, 8);
+		}
+		hb_html_table_end(h);
+	}
+	hb_db_inspections_free(all);
+}
+
 int hb_report_lot(hb_db *db, const char *part_number, const char *lot_code, FILE *out, char *err, size_t errlen)
 {
 	hb_db_lot lot;
@@ -249,6 +281,7 @@ int hb_report_lot(hb_db *db, const char *part_number, const char *lot_code, FILE
 		hb_db_verdicts_free(v);
 	}
 	hb_html_table_end(h);
+	superseded_table(h, db, lot.id);
 	hb_html_section_end(h);
 
 	hb_html_section_begin(h, "Statistics of the sample");
@@ -268,6 +301,18 @@ int hb_report_lot(hb_db *db, const char *part_number, const char *lot_code, FILE
 		 lot.lot_code, nl, rpt_si(a, sizeof a, part.nominal_h, "H", 4), part.tolerance * 100);
 	rpt_figure(h, rc, svg, line, e);
 	hb_html_section_end(h);
+
+	{
+		int64_t *ids = calloc(nr ? nr : 1, sizeof *ids);
+		size_t ns = 0;
+		for (size_t i = 0; ids && i < nr; i++)
+			if (recs[i].sweep_id > 0)
+				ids[ns++] = recs[i].sweep_id;
+		if (ids)
+			rpt_sweeps_instruments_section(h, db, ids, ns,
+						       "Every instrument that measured a sample unit of this lot, once each");
+		free(ids);
+	}
 
 	hb_html_section_begin(h, "Traceability");
 	snprintf(line, sizeof line, "Plan and decision: lot record %lld. Unit figures: the sweep and fit ids in the "

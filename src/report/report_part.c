@@ -149,6 +149,15 @@ int hb_report_part(hb_db *db, const char *part_number, FILE *out, char *err, siz
 		hb_set_err(err, errlen, "lot streams of %s: %s", part_number, hb_db_errmsg(db));
 		goto out;
 	}
+	{
+		int64_t *ids = calloc(n ? n : 1, sizeof *ids);
+		for (size_t i = 0; ids && i < n; i++)
+			ids[i] = rows[i].sweep_id;
+		if (ids)
+			rpt_sweeps_instruments_section(h, db, ids, n,
+						       "Every instrument that measured a unit's sweep above, once each");
+		free(ids);
+	}
 
 	hb_html_section_begin(h, "Traceability");
 	rpt_trace_paragraph(h, db, "Each row: the unit's latest complete bias sweep (id in the first column) and its "
