@@ -542,3 +542,11 @@ CREATE TABLE sweep_trace (
 ) WITHOUT ROWID;
 CREATE INDEX sweep_trace_lcr ON sweep_trace(lcr_instrument_id);
 CREATE INDEX sweep_trace_supply ON sweep_trace(supply_instrument_id);
+-- step 14: many stations: what this store has pushed to which shared server (by the server's own identity), so that a sync sends only what the server lacks
+CREATE TABLE sync_pushed (
+	server TEXT NOT NULL,
+	-- the server's table, and the record's identity (instruments and compensations: their natural key)
+	tbl TEXT NOT NULL,
+	uid TEXT NOT NULL,
+	PRIMARY KEY (server, tbl, uid)
+) WITHOUT ROWID;

@@ -290,4 +290,8 @@ extern const hb_cmd_opts hb_opts_fixture;
  * without a record of it). */
 void hb_show_trace(FILE *out, struct hb_db *db, long long sweep_id);
 
+/* ---------------- many stations: sync with the shared server (cmd_sync.c) ---------------- */
+int hb_cmd_sync(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_sync;
+
 #endif
