@@ -309,8 +309,8 @@ static const push_table tables[] = {
 	  " WHERE s.id > ?3 AND s.status <> 'running' AND" NOT_PUSHED("sweeps", "s.uid") " ORDER BY s.id LIMIT ?2",
 	  "INSERT INTO sweeps (uid, points_uid, unit_uid, " SWEEP_COLS ") VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10,"
 	  " $11, $12, $13, $14, $15, $16, $17, $18, $19, $20, $21, $22, $23, $24, $25, $26, $27, $28, $29, $30, $31, $32,"
-	  " $33, $34, $35, $36, $37, $38, $39, $40, $41, $42, $43, $44, $45, $46, $47, $48, $49, $50, $51, $52)"
-	  " ON CONFLICT (uid) DO NOTHING",
+	  " $33, $34, $35, $36, $37, $38, $39, $40, $41, $42, $43, $44, $45, $46, $47, $48, $49, $50, $51,"
+	  " $52) ON CONFLICT (uid) DO NOTHING",
 	  "SELECT count(*) FROM sweeps s WHERE s.status <> 'running' AND" NOT_PUSHED("sweeps", "s.uid"),
 	  { { "SELECT " POINT_COLS " FROM points WHERE sweep_id = ?1 ORDER BY seq",
 	      "INSERT INTO points (sweep_id, " POINT_COLS ") SELECT s.id, p.* FROM sweeps s, unnest($2::bigint[],"

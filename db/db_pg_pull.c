@@ -212,10 +212,12 @@ static int pull_part(pull_ctx *c, PGconn *conn, const PGresult *parts, int row)
 		args r = { { PQgetvalue(revs, i, 0), PQgetvalue(revs, i, 2), NULL, NULL }, { part_id, 0 } };
 		status = run_local(c->db, "SELECT 1 FROM spec_revisions WHERE uid = ?1 AND ?2 IS NOT NULL", bind_args, &r,
 				   &have);
-		/* only what is newer than this store's current spec: the newest edit wins */
-		if (status == HB_OK && !have)
+		/* a part new here takes every revision; a known one only what is not older than its current
+		 * spec (times have whole seconds: the same second counts as newer): the newest edit wins */
+		newer = first;
+		if (status == HB_OK && !have && !first)
 			status = run_local(c->db,
-					   "SELECT count(*) = 0 FROM spec_revisions WHERE part_id = ?5 AND created >= ?2"
+					   "SELECT count(*) = 0 FROM spec_revisions WHERE part_id = ?5 AND created > ?2"
 					   " AND ?1 IS NOT NULL",
 					   bind_args, &r, &newer);
 		if (status == HB_OK && !have && newer)
