@@ -44,6 +44,8 @@ struct hb_db {
 	bool plan_watch;     /* hb_db_plan_watch: each newly prepared statement's plan is checked */
 	char *plan_findings; /* full scans of growing tables found, one line each */
 	size_t plan_checked;
+	/* --db postgresql://...: the server's connection (PGconn), reads dispatched to db_pg_read.c */
+	void *pg;
 };
 
 /* Prepared statement of slot, preparing sql on first use; NULL on error
@@ -111,5 +113,16 @@ void db_read_part_row(sqlite3_stmt *st, void *row, const void *ctx);
 /* Step-7 forms of hb_db_verdict_put / hb_db_verdict_list. */
 int db_verdict_append(hb_db *db, hb_db_verdict *v);
 int db_verdict_list_v7(hb_db *db, int64_t sweep_id, bool all, hb_db_verdict **out, size_t *count);
+
+/* Many stations (db_pg_read.c): whether path is a server URL (postgresql:// or postgres://); connecting
+ * an open handle to it, and letting it go; a few words naming what a statement reads, for the message of
+ * a function not implemented against a server. */
+bool db_pg_is_url(const char *path);
+int db_pg_attach(hb_db *db, const char *url);
+void db_pg_detach(hb_db *db);
+const char *db_pg_what(const char *sql);
+/* The reads a server answers (db->pg set): hb_db_part_get and hb_db_history. */
+int db_pg_part_get(hb_db *db, const char *part_number, hb_db_part *out);
+int db_pg_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **out, size_t *count);
 
 #endif
