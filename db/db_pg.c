@@ -155,7 +155,7 @@ int db_pg_connect(hb_db *db, const char *url, char server_uid[HB_DB_UID_LEN], PG
 		PQfinish(conn);
 		return db_error(db, HB_ERR_IO, "cannot reach the server %s: %s", url, one);
 	}
-	PQclear(PQexec(conn, "SET client_min_messages = warning"));
+	PQclear(PQexec(conn, "SET client_min_messages = error"));
 	PGresult *res = NULL;
 	int status = pg_migrate(db, conn);
 	if (status == HB_OK)
@@ -446,15 +446,46 @@ static int sb_element(sbuf *b, sqlite3_stmt *st, int col)
 	return status == HB_OK ? sb_put(b, "\"", 1) : status;
 }
 
-/* Sends the child rows of one record: each local column as one array. */
-static int push_child_rows(hb_db *db, PGconn *conn, const push_child *c, const char *name, long long local_id,
-			   const char *uid, long long *rows_sent)
+/* Queues a prepared statement in the batch's pipeline (pipeline mode: the batch costs one round trip). */
+static int pipe_send(hb_db *db, PGconn *conn, const char *name, int n, const char *const *params, int *sent)
 {
-	sqlite3_stmt *st = NULL;
-	int rc = sqlite3_prepare_v2(db->conn, c->local_sql, -1, &st, NULL);
-	if (rc != SQLITE_OK)
-		return db_fail(db, rc, "reading records to push");
+	if (!PQsendQueryPrepared(conn, name, n, params, NULL, NULL, 0))
+		return pg_error(db, conn, NULL, "sending a batch");
+	(*sent)++;
+	return HB_OK;
+}
+
+/* Ends the batch's pipeline: a sync point, then the result of each of the sent statements; the first
+ * failure is the one reported (the statements after it are skipped by the server). */
+static int pipe_finish(hb_db *db, PGconn *conn, int sent, int status)
+{
+	if (!PQpipelineSync(conn))
+		return pg_error(db, conn, NULL, "sending a batch");
+	for (int i = 0; i < sent; i++) {
+		PGresult *r;
+		while ((r = PQgetResult(conn)) != NULL) {
+			ExecStatusType st = PQresultStatus(r);
+			if (status == HB_OK && st != PGRES_COMMAND_OK && st != PGRES_TUPLES_OK)
+				status = pg_error(db, conn, r, "storing a batch");
+			PQclear(r);
+		}
+	}
+	PGresult *r = PQgetResult(conn);
+	if (status == HB_OK && PQresultStatus(r) != PGRES_PIPELINE_SYNC)
+		status = pg_error(db, conn, r, "ending a batch");
+	PQclear(r);
+	if (!PQexitPipelineMode(conn) && status == HB_OK)
+		status = pg_error(db, conn, NULL, "ending a batch");
+	return status;
+}
+
+/* Queues the child rows of one record: each local column as one array. */
+static int push_child_rows(hb_db *db, PGconn *conn, sqlite3_stmt *st, const char *name, long long local_id,
+			   const char *uid, long long *rows_sent, int *sent)
+{
+	sqlite3_reset(st);
 	sqlite3_bind_int64(st, 1, local_id);
+	int rc = SQLITE_OK;
 	int ncol = sqlite3_column_count(st);
 	sbuf *arr = calloc((size_t)ncol, sizeof *arr);
 	const char **params = calloc((size_t)ncol + 1, sizeof *params);
@@ -477,14 +508,14 @@ static int push_child_rows(hb_db *db, PGconn *conn, const push_child *c, const c
 		params[0] = uid;
 		for (int k = 0; k < ncol; k++)
 			params[k + 1] = arr[k].s;
-		status = db_pg_exec(db, conn, name, ncol + 1, params, "sending rows", NULL);
+		status = pipe_send(db, conn, name, ncol + 1, params, sent);
 		*rows_sent += n;
 	}
 	for (int k = 0; arr && k < ncol; k++)
 		free(arr[k].s);
 	free(arr);
 	free(params);
-	sqlite3_finalize(st);
+	sqlite3_reset(st);
 	return status;
 }
 
@@ -530,32 +561,41 @@ static int push_table_rows(hb_db *db, PGconn *conn, int ti, const char *server, 
 	const push_table *t = &tables[ti];
 	char name[32];
 	snprintf(name, sizeof name, "t%d", ti);
-	sqlite3_stmt *st = NULL;
+	sqlite3_stmt *st = NULL, *child[2] = { NULL, NULL };
 	int rc = sqlite3_prepare_v2(db->conn, t->local_sql, -1, &st, NULL);
-	if (rc != SQLITE_OK)
-		return db_fail(db, rc, "reading records to push");
-	int ncol = sqlite3_column_count(st);
-	char **vals = calloc((size_t)ncol, sizeof *vals);
+	for (int c = 0; rc == SQLITE_OK && c < 2 && t->children[c].local_sql; c++)
+		rc = sqlite3_prepare_v2(db->conn, t->children[c].local_sql, -1, &child[c], NULL);
+	int status = rc == SQLITE_OK ? HB_OK : db_fail(db, rc, "reading records to push");
+	int ncol = st ? sqlite3_column_count(st) : 0;
+	char **vals = calloc((size_t)ncol + 1, sizeof *vals);
 	char **keys = calloc(PUSH_BATCH, sizeof *keys);
-	int status = vals && keys ? HB_OK : db_error(db, HB_ERR_NOMEM, "out of memory pushing records");
+	if (status == HB_OK && (!vals || !keys))
+		status = db_error(db, HB_ERR_NOMEM, "out of memory pushing records");
 	long long after = 0;
 	while (status == HB_OK) {
 		sqlite3_reset(st);
 		sqlite3_bind_text(st, 1, server, -1, SQLITE_STATIC);
 		sqlite3_bind_int(st, 2, PUSH_BATCH);
 		sqlite3_bind_int64(st, 3, after);
-		int n = 0;
-		status = db_pg_simple(db, conn, "BEGIN", "starting a batch");
+		int n = 0, sent = 0;
+		/* one server transaction per batch, sent in one pipeline */
+		if (!PQenterPipelineMode(conn) || !PQsendQueryParams(conn, "BEGIN", 0, NULL, NULL, NULL, NULL, 0)) {
+			status = pg_error(db, conn, NULL, "starting a batch");
+			break;
+		}
+		sent++;
 		while (status == HB_OK && (rc = sqlite3_step(st)) == SQLITE_ROW) {
 			after = sqlite3_column_int64(st, 0);
 			for (int k = 1; k < ncol; k++)
 				vals[k - 1] = col_text(st, k);
-			status = db_pg_exec(db, conn, name, ncol - 1, (const char *const *)vals, "sending a record", NULL);
-			for (int c = 0; status == HB_OK && c < 2 && t->children[c].local_sql; c++) {
+			status = pipe_send(db, conn, name, ncol - 1, (const char *const *)vals, &sent);
+			for (int c = 0; status == HB_OK && c < 2 && child[c]; c++) {
 				char cname[32];
 				snprintf(cname, sizeof cname, "t%dc%d", ti, c);
-				status = push_child_rows(db, conn, &t->children[c], cname, after, vals[0],
-							 c == 0 && strcmp(t->name, "sweeps") == 0 ? &stats->points : &(long long){ 0 });
+				long long ignored = 0;
+				status = push_child_rows(db, conn, child[c], cname, after, vals[0],
+							 c == 0 && strcmp(t->name, "sweeps") == 0 ? &stats->points : &ignored,
+							 &sent);
 			}
 			if (t->flags & PUSH_MARK) {
 				keys[n] = vals[0];
@@ -570,9 +610,12 @@ static int push_table_rows(hb_db *db, PGconn *conn, int ti, const char *server, 
 		if (status == HB_OK && rc != SQLITE_DONE)
 			status = db_fail(db, rc, "reading records to push");
 		sqlite3_reset(st);
-		if (status == HB_OK)
-			status = db_pg_simple(db, conn, "COMMIT", "committing a batch");
-		else
+		int local = status;
+		if (PQsendQueryParams(conn, local == HB_OK ? "COMMIT" : "ROLLBACK", 0, NULL, NULL, NULL, NULL, 0))
+			sent++;
+		status = pipe_finish(db, conn, sent, status);
+		if (status != HB_OK && local == HB_OK)
+			/* the server refused part of the batch: its transaction is left aborted */
 			PQclear(PQexec(conn, "ROLLBACK"));
 		if (status == HB_OK && n > 0) {
 			stats->batches++;
@@ -593,6 +636,8 @@ static int push_table_rows(hb_db *db, PGconn *conn, int ti, const char *server, 
 	free(vals);
 	free(keys);
 	sqlite3_finalize(st);
+	sqlite3_finalize(child[0]);
+	sqlite3_finalize(child[1]);
 	return status;
 }
 

@@ -148,9 +148,10 @@ CREATE TABLE sweeps (
 CREATE INDEX sweeps_unit ON sweeps(unit_uid, kind, status, started_unix);
 CREATE INDEX sweeps_started ON sweeps(started_unix);
 
--- points by the server's sweep id: ten million rows do not carry a 36-character identity each
+-- points by the server's sweep id: ten million rows do not carry a 36-character identity each. No foreign
+-- key: a per-row check would cost more than the insert, and the only insert joins the sweep it names.
 CREATE TABLE points (
-	sweep_id BIGINT NOT NULL REFERENCES sweeps(id),
+	sweep_id BIGINT NOT NULL,
 	seq BIGINT NOT NULL,
 	bias_set_a DOUBLE PRECISION, bias_meas_a DOUBLE PRECISION, supply_v DOUBLE PRECISION,
 	freq_hz DOUBLE PRECISION, primary_value DOUBLE PRECISION, secondary_value DOUBLE PRECISION,
@@ -183,15 +184,16 @@ CREATE TABLE fits (
 );
 CREATE INDEX fits_sweep ON fits(sweep_uid, model, id);
 
+-- no foreign key, as for points: sent in the same transaction as their fit, which has one (to its sweep)
 CREATE TABLE fit_values (
-	fit_uid TEXT NOT NULL REFERENCES fits(uid),
+	fit_uid TEXT NOT NULL,
 	ord BIGINT NOT NULL, name TEXT NOT NULL, value DOUBLE PRECISION, std_error DOUBLE PRECISION,
 	unit TEXT NOT NULL DEFAULT '',
 	PRIMARY KEY (fit_uid, name)
 );
 
 CREATE TABLE fit_uncertainty (
-	fit_uid TEXT NOT NULL REFERENCES fits(uid),
+	fit_uid TEXT NOT NULL,
 	name TEXT NOT NULL, value DOUBLE PRECISION, u_c DOUBLE PRECISION, dof DOUBLE PRECISION,
 	k DOUBLE PRECISION, "U" DOUBLE PRECISION, budget TEXT NOT NULL DEFAULT '[]', note TEXT NOT NULL DEFAULT '',
 	PRIMARY KEY (fit_uid, name)
