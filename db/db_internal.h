@@ -124,5 +124,8 @@ const char *db_pg_what(const char *sql);
 /* The reads a server answers (db->pg set): hb_db_part_get and hb_db_history. */
 int db_pg_part_get(hb_db *db, const char *part_number, hb_db_part *out);
 int db_pg_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **out, size_t *count);
+int db_pg_stream_suppliers(hb_db *db, int64_t part_id, char (**out)[HB_DB_ID_LEN], size_t *count);
+int db_pg_stream_lots(hb_db *db, int64_t part_id, const char *supplier, hb_db_stream_lot **out, size_t *count);
+int db_pg_stream_events(hb_db *db, int64_t part_id, const char *supplier, hb_db_stream_event **out, size_t *count);
 
 #endif

@@ -268,6 +268,12 @@ static const push_table tables[] = {
 	  "INSERT INTO lot_decisions (uid, lot_uid, decision, decided_at, code_letter, sample_size, accept_number,"
 	  " reject_number, aql, severity) VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10) ON CONFLICT (uid) DO NOTHING",
 	  "SELECT count(*) FROM lot_decisions d WHERE" NOT_PUSHED("lot_decisions", "d.uid"), { { 0 } } },
+	{ "stream_events", PUSH_ALWAYS,
+	  "SELECT e.id, p.uid, e.supplier, e.kind, e.note, e.at, e.at_unix FROM stream_events e"
+	  " JOIN parts p ON p.id = e.part_id WHERE e.id > ?3 AND ?1 IS NOT NULL ORDER BY e.id LIMIT ?2",
+	  "INSERT INTO stream_events (part_uid, supplier, kind, note, at, at_unix) VALUES ($1, $2, $3, $4, $5, $6)"
+	  " ON CONFLICT (part_uid, supplier, kind, at_unix) DO NOTHING",
+	  NULL, { { 0 } } },
 	{ "units", PUSH_MARK,
 	  "SELECT u.id, u.uid, p.uid, u.serial, l.uid, u.created FROM units u JOIN parts p ON p.id = u.part_id"
 	  " LEFT JOIN lots l ON l.id = u.lot_id WHERE u.id > ?3 AND" NOT_PUSHED("units", "u.uid") " ORDER BY u.id LIMIT ?2",

@@ -86,6 +86,32 @@ int db_pg_attach(hb_db *db, const char *url)
 			       "preparing reads");
 	if (status == HB_OK)
 		status = db_pg_prepare(db, conn, "history", pg_history_sql, "preparing reads");
+	/* a part's lot streams: every registration of its number (the server joins them by number) */
+	if (status == HB_OK)
+		status = db_pg_prepare(db, conn, "stream_suppliers",
+				       "SELECT l.supplier FROM lots l JOIN parts p ON p.uid = l.part_uid WHERE p.part_number ="
+				       " (SELECT part_number FROM parts WHERE id = $1) AND l.decision IN ('accept', 'reject')"
+				       " UNION SELECT e.supplier FROM stream_events e JOIN parts p ON p.uid = e.part_uid"
+				       " WHERE p.part_number = (SELECT part_number FROM parts WHERE id = $1) ORDER BY 1",
+				       "preparing reads");
+	if (status == HB_OK)
+		status = db_pg_prepare(db, conn, "stream_lots",
+				       "SELECT l.id, $1::bigint, l.lot_code, l.lot_size, l.aql, l.inspection_level, l.severity,"
+				       " l.code_letter, l.sample_size, l.accept_number, l.reject_number, l.decision, l.created,"
+				       " l.decided_at, l.supplier, l.production_irregular,"
+				       " (SELECT count(*) FROM inspections i WHERE i.lot_uid = l.uid AND i.outcome = 'fail'),"
+				       " coalesce(l.decided_unix, extract(epoch FROM l.decided_at::timestamptz)::float8) AS t"
+				       " FROM lots l JOIN parts p ON p.uid = l.part_uid WHERE p.part_number ="
+				       " (SELECT part_number FROM parts WHERE id = $1) AND l.supplier = $2"
+				       " AND l.decision IN ('accept', 'reject') ORDER BY t, l.id",
+				       "preparing reads");
+	if (status == HB_OK)
+		status = db_pg_prepare(db, conn, "stream_events",
+				       "SELECT e.id, e.kind, e.note, e.at, e.at_unix FROM stream_events e"
+				       " JOIN parts p ON p.uid = e.part_uid WHERE p.part_number ="
+				       " (SELECT part_number FROM parts WHERE id = $1) AND e.supplier = $2"
+				       " ORDER BY e.at_unix, e.id",
+				       "preparing reads");
 	char *path = status == HB_OK ? strdup(url) : NULL;
 	if (status == HB_OK && !path)
 		status = db_error(db, HB_ERR_NOMEM, "out of memory opening the server");
@@ -196,6 +222,111 @@ int db_pg_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **
 		h->mu_e = pg_real(r, k, 11);
 		h->gap_m = pg_real(r, k, 12);
 		h->verdict = (hb_db_outcome)atoi(PQgetvalue(r, k, 13));
+	}
+	PQclear(r);
+	*out = rows;
+	*count = n;
+	return HB_OK;
+}
+
+/* ---------------- a part's lot streams (db_streams.c's reads) ---------------- */
+
+static int stream_query(hb_db *db, const char *name, int64_t part_id, const char *supplier, PGresult **r)
+{
+	char id[32];
+	snprintf(id, sizeof id, "%lld", (long long)part_id);
+	const char *params[2] = { id, supplier };
+	return db_pg_exec(db, db->pg, name, supplier ? 2 : 1, params, "reading a lot stream", r);
+}
+
+int db_pg_stream_suppliers(hb_db *db, int64_t part_id, char (**out)[HB_DB_ID_LEN], size_t *count)
+{
+	PGresult *r = NULL;
+	int status = stream_query(db, "stream_suppliers", part_id, NULL, &r);
+	if (status < 0)
+		return status;
+	size_t n = (size_t)PQntuples(r);
+	char (*rows)[HB_DB_ID_LEN] = calloc(n ? n : 1, HB_DB_ID_LEN);
+	if (!rows) {
+		PQclear(r);
+		return db_error(db, HB_ERR_NOMEM, "out of memory reading a lot stream");
+	}
+	for (size_t i = 0; i < n; i++)
+		pg_text(r, (int)i, 0, rows[i], HB_DB_ID_LEN);
+	PQclear(r);
+	*out = rows;
+	*count = n;
+	return HB_OK;
+}
+
+int db_pg_stream_lots(hb_db *db, int64_t part_id, const char *supplier, hb_db_stream_lot **out, size_t *count)
+{
+	PGresult *r = NULL;
+	int status = stream_query(db, "stream_lots", part_id, supplier, &r);
+	if (status < 0)
+		return status;
+	size_t n = (size_t)PQntuples(r);
+	hb_db_stream_lot *rows = calloc(n ? n : 1, sizeof *rows);
+	if (!rows) {
+		PQclear(r);
+		return db_error(db, HB_ERR_NOMEM, "out of memory reading a lot stream");
+	}
+	for (size_t i = 0; i < n; i++) {
+		int k = (int)i;
+		hb_db_stream_lot *s = &rows[i];
+		hb_db_lot *l = &s->lot;
+		hb_db_lot_init(l);
+		l->id = strtoll(PQgetvalue(r, k, 0), NULL, 10);
+		l->part_id = strtoll(PQgetvalue(r, k, 1), NULL, 10);
+		pg_text(r, k, 2, l->lot_code, sizeof l->lot_code);
+		l->lot_size = PQgetisnull(r, k, 3) ? 0 : atol(PQgetvalue(r, k, 3));
+		l->aql = pg_real(r, k, 4);
+		pg_text(r, k, 5, l->inspection_level, sizeof l->inspection_level);
+		pg_text(r, k, 6, l->severity, sizeof l->severity);
+		pg_text(r, k, 7, l->code_letter, sizeof l->code_letter);
+		l->sample_size = atol(PQgetvalue(r, k, 8));
+		l->accept_number = atol(PQgetvalue(r, k, 9));
+		l->reject_number = atol(PQgetvalue(r, k, 10));
+		const char *d = PQgetvalue(r, k, 11);
+		l->decision = strcmp(d, "accept") == 0 ? HB_DB_LOT_ACCEPT
+			      : strcmp(d, "reject") == 0 ? HB_DB_LOT_REJECT
+							 : HB_DB_LOT_OPEN;
+		pg_text(r, k, 12, l->created, sizeof l->created);
+		pg_text(r, k, 13, l->decided, sizeof l->decided);
+		pg_text(r, k, 14, s->supplier, sizeof s->supplier);
+		s->irregular = atoi(PQgetvalue(r, k, 15)) != 0;
+		s->nonconforming = atol(PQgetvalue(r, k, 16));
+		s->decided_unix = pg_real(r, k, 17);
+	}
+	PQclear(r);
+	*out = rows;
+	*count = n;
+	return HB_OK;
+}
+
+int db_pg_stream_events(hb_db *db, int64_t part_id, const char *supplier, hb_db_stream_event **out, size_t *count)
+{
+	PGresult *r = NULL;
+	int status = stream_query(db, "stream_events", part_id, supplier, &r);
+	if (status < 0)
+		return status;
+	size_t n = (size_t)PQntuples(r);
+	hb_db_stream_event *rows = calloc(n ? n : 1, sizeof *rows);
+	if (!rows) {
+		PQclear(r);
+		return db_error(db, HB_ERR_NOMEM, "out of memory reading a lot stream");
+	}
+	for (size_t i = 0; i < n; i++) {
+		int k = (int)i;
+		hb_db_stream_event *e = &rows[i];
+		e->id = strtoll(PQgetvalue(r, k, 0), NULL, 10);
+		const char *kind = PQgetvalue(r, k, 1);
+		e->kind = strcmp(kind, "approve-reduced") == 0 ? HB_DB_STREAM_APPROVE_REDUCED
+			  : strcmp(kind, "withdraw-reduced") == 0 ? HB_DB_STREAM_WITHDRAW_REDUCED
+								  : HB_DB_STREAM_RESUME;
+		pg_text(r, k, 2, e->note, sizeof e->note);
+		pg_text(r, k, 3, e->at_iso, sizeof e->at_iso);
+		e->at = pg_real(r, k, 4);
 	}
 	PQclear(r);
 	*out = rows;

@@ -86,6 +86,19 @@ BEGIN
 END $$;
 CREATE TRIGGER lot_decisions_latest AFTER INSERT ON lot_decisions FOR EACH ROW EXECUTE FUNCTION lot_decided();
 
+-- what the responsible authority or the supplier did to a part's lot stream (ISO 2859-1 clause 9); an event
+-- is named by its part, supplier, kind and instant
+CREATE TABLE stream_events (
+	id BIGSERIAL PRIMARY KEY,
+	part_uid TEXT NOT NULL REFERENCES parts(uid),
+	supplier TEXT NOT NULL DEFAULT '',
+	kind TEXT NOT NULL,
+	note TEXT NOT NULL DEFAULT '',
+	at TEXT NOT NULL,
+	at_unix DOUBLE PRECISION NOT NULL,
+	UNIQUE (part_uid, supplier, kind, at_unix)
+);
+
 CREATE TABLE units (
 	id BIGSERIAL PRIMARY KEY,
 	uid TEXT NOT NULL UNIQUE,

@@ -358,7 +358,7 @@ static char *last_out(void)
 	return buf;
 }
 
-/* --db postgresql://... : a part's history read from the server is the station's, line for line (one
+/* --db postgresql://... : a part's history (text with the lot streams, JSON, CSV) read from the server is the station's, line for line (one
  * station on a server of its own: the server numbers the sweeps in the order the station did); a read
  * the server cannot answer yet says so and exits 1 instead of answering from nothing. */
 static void test_history_from_server(void **state)
@@ -370,17 +370,21 @@ static void test_history_from_server(void **state)
 	assert_int_equal(pg_fixture_createdb(&pg, "read", url, sizeof url), 0);
 	assert_int_equal(sync_station(a, url, NULL, err, sizeof err), 0);
 	text_of(a, "SELECT part_number FROM parts ORDER BY id LIMIT 1", part, sizeof part);
-	const char *local[] = { "--db", a, "history", part, "--csv", NULL };
-	assert_int_equal(run_hb(NULL, local, err, sizeof err), 0);
-	char *want = last_out();
-	const char *remote[] = { "--db", url, "history", part, "--csv", NULL };
-	assert_int_equal(run_hb(NULL, remote, err, sizeof err), 0);
-	char *got = last_out();
-	/* the demo measured several units: the comparison is not of two empty tables */
-	assert_true(strchr(strchr(want, '\n') + 1, '\n') != NULL);
-	assert_string_equal(got, want);
-	free(want);
-	free(got);
+	/* the text form (with the lot streams and their switching state), JSON and CSV */
+	const char *forms[] = { "--csv", "--json", NULL };
+	for (int f = 0; f < 3; f++) {
+		const char *local[] = { "--db", a, "history", part, f == 0 ? NULL : forms[f - 1], NULL };
+		assert_int_equal(run_hb(NULL, local, err, sizeof err), 0);
+		char *want = last_out();
+		const char *remote[] = { "--db", url, "history", part, local[4], NULL };
+		assert_int_equal(run_hb(NULL, remote, err, sizeof err), 0);
+		char *got = last_out();
+		/* the demo measured several units: the comparison is not of two empty tables */
+		assert_true(strchr(strchr(want, '\n') + 1, '\n') != NULL);
+		assert_string_equal(got, want);
+		free(want);
+		free(got);
+	}
 	const char *sweeps[] = { "--db", url, "sweeps", NULL };
 	assert_int_equal(run_hb(NULL, sweeps, err, sizeof err), 1);
 	assert_non_null(strstr(err, "not available against a server yet"));
