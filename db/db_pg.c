@@ -178,9 +178,9 @@ int db_pg_connect(hb_db *db, const char *url, char server_uid[HB_DB_UID_LEN], PG
 
 /* ---------------- what is pushed, table by table ---------------- */
 
-/* A record's rows hanging off it (points of a sweep, values of a fit): sent with it in the same
- * transaction. The local query takes ?1 = the record's local id; the server statement takes $1 = the
- * record's identity and one array per local column ($2 = column 0 of every row, ...). */
+/* A record's rows hanging off it (points of a sweep, values of a fit): sent in the same transaction, those
+ * of the whole batch in one statement. The local query takes ?1 = the record's local id; the server
+ * statement takes one array per column: $1 the records' identities, $2 = local column 0 of every row, ... */
 typedef struct push_child {
 	const char *local_sql;
 	const char *pg_sql;
@@ -319,10 +319,12 @@ static const push_table tables[] = {
 	  " $52) ON CONFLICT (uid) DO NOTHING",
 	  "SELECT count(*) FROM sweeps s WHERE s.status <> 'running' AND" NOT_PUSHED("sweeps", "s.uid"),
 	  { { "SELECT " POINT_COLS " FROM points WHERE sweep_id = ?1 ORDER BY seq",
-	      "INSERT INTO points (sweep_id, " POINT_COLS ") SELECT s.id, p.* FROM sweeps s, unnest($2::bigint[],"
-	      " $3::float8[], $4::float8[], $5::float8[], $6::float8[], $7::float8[], $8::float8[], $9::bigint[],"
-	      " $10::float8[], $11::bigint[], $12::float8[], $13::text[], $14::float8[], $15::bigint[]) AS p"
-	      " WHERE s.uid = $1 ON CONFLICT DO NOTHING" },
+	      "INSERT INTO points (sweep_id, " POINT_COLS ") SELECT s.id, p.seq, p.bias_set_a, p.bias_meas_a, p.supply_v,"
+	      " p.freq_hz, p.primary_value, p.secondary_value, p.reading_status, p.t_s, p.settle_readings, p.settle_s,"
+	      " p.direction, p.bias_spread_a, p.settled FROM unnest($1::text[], $2::bigint[], $3::float8[],"
+	      " $4::float8[], $5::float8[], $6::float8[], $7::float8[], $8::float8[], $9::bigint[], $10::float8[],"
+	      " $11::bigint[], $12::float8[], $13::text[], $14::float8[], $15::bigint[]) AS p (sweep_uid, " POINT_COLS
+	      ") JOIN sweeps s ON s.uid = p.sweep_uid ON CONFLICT DO NOTHING" },
 	    { "SELECT li.maker, li.model, li.serial, si.maker, si.model, si.serial, t.cal_status, t.overdue_allowed,"
 	      " t.fixture, oc.fixture, oc.kind, oc.at_unix, sc.fixture, sc.kind, sc.at_unix, t.fixture_status,"
 	      " t.fixture_applied, t.settings_start, t.settings_end, t.settings_changed FROM sweep_trace t"
@@ -332,14 +334,14 @@ static const push_table tables[] = {
 	      " LEFT JOIN fixture_compensations sc ON sc.id = t.short_comp_id WHERE t.sweep_id = ?1",
 	      "INSERT INTO sweep_trace (sweep_uid, lcr_instrument_id, supply_instrument_id, cal_status, overdue_allowed,"
 	      " fixture, open_comp_id, short_comp_id, fixture_status, fixture_applied, settings_start, settings_end,"
-	      " settings_changed) SELECT $1, (SELECT id FROM instruments WHERE maker = a.lm AND model = a.lo AND"
+	      " settings_changed) SELECT a.sw, (SELECT id FROM instruments WHERE maker = a.lm AND model = a.lo AND"
 	      " serial = a.ls), (SELECT id FROM instruments WHERE maker = a.sm AND model = a.so AND serial = a.ss),"
 	      " a.cs, a.oa, a.fx, (SELECT id FROM fixture_compensations WHERE fixture = a.of AND kind = a.ok AND"
 	      " at_unix = a.ou), (SELECT id FROM fixture_compensations WHERE fixture = a.sf AND kind = a.sk AND"
-	      " at_unix = a.su), a.fs, a.fa, a.st, a.se, a.sc FROM unnest($2::text[], $3::text[], $4::text[],"
+	      " at_unix = a.su), a.fs, a.fa, a.st, a.se, a.sc FROM unnest($1::text[], $2::text[], $3::text[], $4::text[],"
 	      " $5::text[], $6::text[], $7::text[], $8::text[], $9::bigint[], $10::text[], $11::text[], $12::text[],"
 	      " $13::float8[], $14::text[], $15::text[], $16::float8[], $17::text[], $18::bigint[], $19::text[],"
-	      " $20::text[], $21::text[]) AS a (lm, lo, ls, sm, so, ss, cs, oa, fx, of, ok, ou, sf, sk, su, fs, fa, st,"
+	      " $20::text[], $21::text[]) AS a (sw, lm, lo, ls, sm, so, ss, cs, oa, fx, of, ok, ou, sf, sk, su, fs, fa, st,"
 	      " se, sc) ON CONFLICT DO NOTHING" } } },
 	{ "fits", PUSH_MARK,
 	  "SELECT f.id, f.uid, s.uid, f.model, f.law, f.code_version, f.created, f.rss, f.dof, f.aic, f.covariance,"
@@ -350,11 +352,11 @@ static const push_table tables[] = {
 	  "SELECT count(*) FROM fits f JOIN sweeps s ON s.id = f.sweep_id WHERE s.status <> 'running' AND"
 	  NOT_PUSHED("fits", "f.uid"),
 	  { { "SELECT ord, name, value, std_error, unit FROM fit_values WHERE fit_id = ?1 ORDER BY ord, name",
-	      "INSERT INTO fit_values (fit_uid, ord, name, value, std_error, unit) SELECT $1, * FROM unnest($2::bigint[],"
+	      "INSERT INTO fit_values (fit_uid, ord, name, value, std_error, unit) SELECT * FROM unnest($1::text[], $2::bigint[],"
 	      " $3::text[], $4::float8[], $5::float8[], $6::text[]) ON CONFLICT DO NOTHING" },
 	    { "SELECT name, value, u_c, dof, k, U, budget, note FROM fit_uncertainty WHERE fit_id = ?1 ORDER BY name",
-	      "INSERT INTO fit_uncertainty (fit_uid, name, value, u_c, dof, k, \"U\", budget, note) SELECT $1, *"
-	      " FROM unnest($2::text[], $3::float8[], $4::float8[], $5::float8[], $6::float8[], $7::float8[],"
+	      "INSERT INTO fit_uncertainty (fit_uid, name, value, u_c, dof, k, \"U\", budget, note) SELECT *"
+	      " FROM unnest($1::text[], $2::text[], $3::float8[], $4::float8[], $5::float8[], $6::float8[], $7::float8[],"
 	      " $8::text[], $9::text[]) ON CONFLICT DO NOTHING" } } },
 	{ "verdicts", PUSH_MARK,
 	  "SELECT v.id, v.uid, s.uid, v.check_name, v.measured, v.limit_low, v.limit_high, v.margin, v.outcome, v.note,"
@@ -385,7 +387,7 @@ static const push_table tables[] = {
 	  " VALUES ($1, $2, $3, $4, $5, $6, $7, $8) ON CONFLICT (uid) DO NOTHING",
 	  "SELECT count(*) FROM reports r WHERE" NOT_PUSHED("reports", "r.uid"),
 	  { { "SELECT s.uid FROM report_sweeps rs JOIN sweeps s ON s.id = rs.sweep_id WHERE rs.report_id = ?1",
-	      "INSERT INTO report_sweeps (report_uid, sweep_uid) SELECT $1, * FROM unnest($2::text[])"
+	      "INSERT INTO report_sweeps (report_uid, sweep_uid) SELECT * FROM unnest($1::text[], $2::text[])"
 	      " ON CONFLICT DO NOTHING" } } },
 };
 enum { N_TABLES = sizeof tables / sizeof tables[0] };
@@ -485,43 +487,96 @@ static int pipe_finish(hb_db *db, PGconn *conn, int sent, int status)
 	return status;
 }
 
-/* Queues the child rows of one record: each local column as one array. */
-static int push_child_rows(hb_db *db, PGconn *conn, sqlite3_stmt *st, const char *name, long long local_id,
-			   const char *uid, long long *rows_sent, int *sent)
+/* The child rows of a batch, one array literal per column (column 0: the records' identities). */
+typedef struct child_acc {
+	sbuf *arr;
+	int ncol;         /* columns of the local query; arrays: ncol + 1 */
+	long long rows;
+} child_acc;
+
+static void acc_reset(child_acc *a)
 {
+	for (int k = 0; a->arr && k <= a->ncol; k++) {
+		a->arr[k].len = 0;
+		if (a->arr[k].s)
+			a->arr[k].s[0] = '\0';
+	}
+	a->rows = 0;
+}
+
+static void acc_free(child_acc *a)
+{
+	for (int k = 0; a->arr && k <= a->ncol; k++)
+		free(a->arr[k].s);
+	free(a->arr);
+	a->arr = NULL;
+}
+
+/* An array element of text (a record's identity). */
+static int sb_text_element(sbuf *b, const char *text)
+{
+	int status = b->len > 1 ? sb_put(b, ",", 1) : HB_OK;
+	if (status == HB_OK)
+		status = sb_put(b, "\"", 1);
+	for (const char *p = text; status == HB_OK && *p; p++) {
+		if (*p == '"' || *p == '\\')
+			status = sb_put(b, "\\", 1);
+		if (status == HB_OK)
+			status = sb_put(b, p, 1);
+	}
+	return status == HB_OK ? sb_put(b, "\"", 1) : status;
+}
+
+/* Adds the child rows of one record to the batch's arrays. */
+static int acc_add(hb_db *db, child_acc *a, sqlite3_stmt *st, long long local_id, const char *uid, long long *rows_sent)
+{
+	int status = HB_OK;
+	if (!a->arr) {
+		a->ncol = sqlite3_column_count(st);
+		a->arr = calloc((size_t)a->ncol + 1, sizeof *a->arr);
+		if (!a->arr)
+			return db_error(db, HB_ERR_NOMEM, "out of memory pushing records");
+	}
+	for (int k = 0; status == HB_OK && k <= a->ncol; k++)
+		if (a->arr[k].len == 0)
+			status = sb_put(&a->arr[k], "{", 1);
 	sqlite3_reset(st);
 	sqlite3_bind_int64(st, 1, local_id);
 	int rc = SQLITE_OK;
-	int ncol = sqlite3_column_count(st);
-	sbuf *arr = calloc((size_t)ncol, sizeof *arr);
-	const char **params = calloc((size_t)ncol + 1, sizeof *params);
-	int status = arr && params ? HB_OK : db_error(db, HB_ERR_NOMEM, "out of memory pushing records");
-	for (int k = 0; status == HB_OK && k < ncol; k++)
-		status = sb_put(&arr[k], "{", 1);
-	long long n = 0;
 	while (status == HB_OK && (rc = sqlite3_step(st)) == SQLITE_ROW) {
-		for (int k = 0; status == HB_OK && k < ncol; k++)
-			status = sb_element(&arr[k], st, k);
-		n++;
+		status = sb_text_element(&a->arr[0], uid);
+		for (int k = 0; status == HB_OK && k < a->ncol; k++)
+			status = sb_element(&a->arr[k + 1], st, k);
+		a->rows++;
+		(*rows_sent)++;
 	}
-	if (status == HB_OK && rc != SQLITE_DONE)
-		status = db_fail(db, rc, "reading records to push");
-	else if (status < 0 && status != HB_ERR_DB)
-		status = db_error(db, HB_ERR_NOMEM, "out of memory pushing records");
-	for (int k = 0; status == HB_OK && k < ncol; k++)
-		status = sb_put(&arr[k], "}", 1);
-	if (status == HB_OK && n > 0) {
-		params[0] = uid;
-		for (int k = 0; k < ncol; k++)
-			params[k + 1] = arr[k].s;
-		status = pipe_send(db, conn, name, ncol + 1, params, sent);
-		*rows_sent += n;
-	}
-	for (int k = 0; arr && k < ncol; k++)
-		free(arr[k].s);
-	free(arr);
-	free(params);
 	sqlite3_reset(st);
+	if (status == HB_OK && rc != SQLITE_DONE)
+		return db_fail(db, rc, "reading records to push");
+	if (status < 0 && status != HB_ERR_DB)
+		return db_error(db, HB_ERR_NOMEM, "out of memory pushing records");
+	return status;
+}
+
+/* Queues the batch's child rows of one kind as one statement. */
+static int acc_send(hb_db *db, PGconn *conn, child_acc *a, const char *name, int *sent)
+{
+	if (a->rows == 0)
+		return HB_OK;
+	const char **params = calloc((size_t)a->ncol + 1, sizeof *params);
+	if (!params)
+		return db_error(db, HB_ERR_NOMEM, "out of memory pushing records");
+	int status = HB_OK;
+	for (int k = 0; status == HB_OK && k <= a->ncol; k++) {
+		status = sb_put(&a->arr[k], "}", 1);
+		params[k] = a->arr[k].s;
+	}
+	if (status == HB_OK)
+		status = pipe_send(db, conn, name, a->ncol + 1, params, sent);
+	else
+		status = db_error(db, HB_ERR_NOMEM, "out of memory pushing records");
+	free(params);
+	acc_reset(a);
 	return status;
 }
 
@@ -568,6 +623,7 @@ static int push_table_rows(hb_db *db, PGconn *conn, int ti, const char *server, 
 	char name[32];
 	snprintf(name, sizeof name, "t%d", ti);
 	sqlite3_stmt *st = NULL, *child[2] = { NULL, NULL };
+	child_acc acc[2] = { { 0 }, { 0 } };
 	int rc = sqlite3_prepare_v2(db->conn, t->local_sql, -1, &st, NULL);
 	for (int c = 0; rc == SQLITE_OK && c < 2 && t->children[c].local_sql; c++)
 		rc = sqlite3_prepare_v2(db->conn, t->children[c].local_sql, -1, &child[c], NULL);
@@ -596,12 +652,9 @@ static int push_table_rows(hb_db *db, PGconn *conn, int ti, const char *server, 
 				vals[k - 1] = col_text(st, k);
 			status = pipe_send(db, conn, name, ncol - 1, (const char *const *)vals, &sent);
 			for (int c = 0; status == HB_OK && c < 2 && child[c]; c++) {
-				char cname[32];
-				snprintf(cname, sizeof cname, "t%dc%d", ti, c);
 				long long ignored = 0;
-				status = push_child_rows(db, conn, child[c], cname, after, vals[0],
-							 c == 0 && strcmp(t->name, "sweeps") == 0 ? &stats->points : &ignored,
-							 &sent);
+				status = acc_add(db, &acc[c], child[c], after, vals[0],
+						 c == 0 && strcmp(t->name, "sweeps") == 0 ? &stats->points : &ignored);
 			}
 			if (t->flags & PUSH_MARK) {
 				keys[n] = vals[0];
@@ -616,6 +669,13 @@ static int push_table_rows(hb_db *db, PGconn *conn, int ti, const char *server, 
 		if (status == HB_OK && rc != SQLITE_DONE)
 			status = db_fail(db, rc, "reading records to push");
 		sqlite3_reset(st);
+		for (int c = 0; status == HB_OK && c < 2 && child[c]; c++) {
+			char cname[32];
+			snprintf(cname, sizeof cname, "t%dc%d", ti, c);
+			status = acc_send(db, conn, &acc[c], cname, &sent);
+		}
+		acc_reset(&acc[0]);
+		acc_reset(&acc[1]);
 		int local = status;
 		if (PQsendQueryParams(conn, local == HB_OK ? "COMMIT" : "ROLLBACK", 0, NULL, NULL, NULL, NULL, 0))
 			sent++;
@@ -644,6 +704,8 @@ static int push_table_rows(hb_db *db, PGconn *conn, int ti, const char *server, 
 	sqlite3_finalize(st);
 	sqlite3_finalize(child[0]);
 	sqlite3_finalize(child[1]);
+	acc_free(&acc[0]);
+	acc_free(&acc[1]);
 	return status;
 }
 
