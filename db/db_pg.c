@@ -19,7 +19,7 @@ static int pg_error(hb_db *db, PGconn *conn, const PGresult *res, const char *wh
 	char one[600];
 	snprintf(one, sizeof one, "%s", msg);
 	for (char *p = one; *p; p++)
-		if (*p == '\n')
+		if (*p == '\n' || *p == '\t')
 			*p = (p[1] ? ' ' : '\0');
 	return db_error(db, HB_ERR_DB, "server: %s failed: %s", what, one);
 }
@@ -150,10 +150,13 @@ int db_pg_connect(hb_db *db, const char *url, char server_uid[HB_DB_UID_LEN], PG
 		char one[400];
 		snprintf(one, sizeof one, "%s", PQerrorMessage(conn));
 		for (char *p = one; *p; p++)
-			if (*p == '\n')
+			if (*p == '\n' || *p == '\t')
 				*p = (p[1] ? ' ' : '\0');
+		/* named by host and database, not by the URL: a URL may hold a password */
+		int status = db_error(db, HB_ERR_IO, "cannot reach the server (host %s, database %s): %s",
+				      PQhost(conn) ? PQhost(conn) : "?", PQdb(conn) ? PQdb(conn) : "?", one);
 		PQfinish(conn);
-		return db_error(db, HB_ERR_IO, "cannot reach the server %s: %s", url, one);
+		return status;
 	}
 	PQclear(PQexec(conn, "SET client_min_messages = error"));
 	PGresult *res = NULL;

@@ -112,7 +112,12 @@ int db_pg_attach(hb_db *db, const char *url)
 				       " (SELECT part_number FROM parts WHERE id = $1) AND e.supplier = $2"
 				       " ORDER BY e.at_unix, e.id",
 				       "preparing reads");
-	char *path = status == HB_OK ? strdup(url) : NULL;
+	/* the server by host and database in messages, not by the URL: a URL may hold a password */
+	char name[512];
+	snprintf(name, sizeof name, "the server (host %s, database %s)", PQhost(conn) ? PQhost(conn) : "?",
+		 PQdb(conn) ? PQdb(conn) : "?");
+	(void)url;
+	char *path = status == HB_OK ? strdup(name) : NULL;
 	if (status == HB_OK && !path)
 		status = db_error(db, HB_ERR_NOMEM, "out of memory opening the server");
 	if (status < 0) {

@@ -3,6 +3,7 @@
 #include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
+#include <string.h>
 
 #include "../../db/hb_db.h"
 #include "cli.h"
@@ -49,7 +50,7 @@ static void print_status(const hb_db_sync_stats *s)
 			continue;
 		}
 		printf("  %-22s %lld", s->table[i], s->count[i]);
-		if (s->table[i][0] == 's' && s->table[i][1] == 'w')
+		if (strcmp(s->table[i], "sweeps") == 0)
 			printf(" (%lld points)", s->points);
 		putchar('\n');
 		total += s->count[i];
@@ -60,9 +61,11 @@ static void print_status(const hb_db_sync_stats *s)
 	putchar('\n');
 }
 
+/* Parts, lots and the small master data are sent at every sync (the server keeps the newer); the
+ * counts say what was sent, not what was new. */
 static void print_push(const hb_db_sync_stats *s)
 {
-	printf("pushed to server %s:", s->server_uid);
+	printf("sent to server %s:", s->server_uid);
 	for (int i = 0; i < s->n; i++)
 		if (s->count[i] > 0)
 			printf(" %s %lld,", s->table[i], s->count[i]);
