@@ -22,7 +22,7 @@ VERSION    := 0.1.0
 
 CC         ?= cc
 
-PKGS       := libserialport gsl sqlite3 inih plplot jansson libcrypto libpcre2-8
+PKGS       := libserialport gsl sqlite3 inih plplot jansson libcrypto libpcre2-8 libpq
 TEST_PKGS  := cmocka
 
 # The compiler decides the warning flags and has its own build folder, so
@@ -120,8 +120,9 @@ $(BUILD)/%.o: %.S | deps
 	$(call say,AS,$<)
 	$(Q)$(CC) $(CPPFLAGS) -MMD -MP -c -o $@ $<
 
-# .incbin is invisible to -MMD: the embedded schema is a real prerequisite.
+# .incbin is invisible to -MMD: the embedded schemas are real prerequisites.
 $(BUILD)/db/schema.o: db/schema.sql
+$(BUILD)/db/schema_pg.o: db/schema_pg.sql
 
 $(BUILD)/tests/%.o: tests/%.c | deps
 	@mkdir -p $(dir $@)
@@ -146,7 +147,7 @@ HENRYBENCH_BIN ?= $(abspath $(BUILD)/henrybench)
 RUN_TESTS   = HENRYBENCH_BIN="$(HENRYBENCH_BIN)" sh tests/run-tests $(BUILD) $(TEST_BINS)
 
 check: deps
-	@HB_EXTRA_TOOLS="chromium:chromium pdftotext:poppler-utils groff:groff-base zsh:zsh" sh scripts/ensure-deps
+	@HB_EXTRA_TOOLS="chromium:chromium pdftotext:poppler-utils groff:groff-base zsh:zsh pg_ctlcluster:postgresql" sh scripts/ensure-deps
 	@$(MAKE) --no-print-directory henrybench $(BUILD)/henrybench $(TEST_BINS)
 	@$(RUN_TESTS)
 
@@ -161,6 +162,8 @@ memcheck: deps
 demo: deps
 	@$(MAKE) --no-print-directory henrybench
 	./henrybench demo --out demo-out
+	@echo "to push this store to a PostgreSQL server on this machine (README, 'Many stations, one server'):"
+	@echo "  ./henrybench --db demo-out/bench.db sync --server 'postgresql:///henrybench?host=/var/run/postgresql'"
 
 bench: deps
 	@$(MAKE) --no-print-directory henrybench $(BENCH_BINS)

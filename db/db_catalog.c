@@ -149,6 +149,8 @@ int hb_db_part_get(hb_db *db, const char *part_number, hb_db_part *out)
 {
 	if (!db || !part_number || !out)
 		return HB_ERR_ARG;
+	if (db->pg)
+		return db_pg_part_get(db, part_number, out);
 	sqlite3_stmt *st = db_stmt(db, ST_PART_GET, "SELECT " PART_COLUMNS " FROM parts WHERE part_number = ?1");
 	if (!st)
 		return HB_ERR_DB;

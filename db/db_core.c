@@ -25,6 +25,12 @@ sqlite3_stmt *db_prepare_cached(hb_db *db, sqlite3_stmt **cache, const char *sql
 {
 	if (*cache)
 		return *cache;
+	/* a handle on a server (db_pg_read.c) answers only what it implements */
+	if (db->pg) {
+		db_error(db, HB_ERR_UNSUPPORTED, "not available against a server yet: %s (run it on a station's store)",
+			 db_pg_what(sql));
+		return NULL;
+	}
 	int rc = sqlite3_prepare_v3(db->conn, sql, -1, SQLITE_PREPARE_PERSISTENT, cache, NULL);
 	if (rc != SQLITE_OK) {
 		db_fail(db, rc, "preparing a query");
@@ -59,6 +65,10 @@ int db_error(hb_db *db, int status, const char *fmt, ...)
 
 int db_fail(hb_db *db, int rc, const char *what)
 {
+	/* a server handle's in-memory shape refuses every table (db_pg_read.c) */
+	if (db->pg && (rc & 0xff) == SQLITE_AUTH)
+		return db_error(db, HB_ERR_UNSUPPORTED, "not available against a server yet: %s (run it on a station's store)",
+				what);
 	const char *msg = db->conn ? sqlite3_errmsg(db->conn) : sqlite3_errstr(rc);
 	switch (rc & 0xff) {
 	case SQLITE_FULL:
@@ -612,7 +622,8 @@ static int open_at(const char *path, int target, hb_db_open_mode mode, hb_db **o
 	sqlite3_extended_result_codes(db->conn, 1);
 	sqlite3_busy_timeout(db->conn, DB_BUSY_TIMEOUT_MS);
 
-	int status = set_wal(db);
+	/* the in-memory shape of a server handle has no log to write ahead */
+	int status = strcmp(path, ":memory:") == 0 ? HB_OK : set_wal(db);
 	if (status < 0)
 		return status;
 	/* FULL: with WAL every commit is fsynced, so a committed point survives
@@ -641,6 +652,11 @@ int hb_db_open(const char *path, hb_db **out)
 
 int hb_db_open_as(const char *path, hb_db_open_mode mode, hb_db **out)
 {
+	if (db_pg_is_url(path)) {
+		/* a server: an empty in-memory store gives the handle its shape, the reads go to the server */
+		int status = open_at(":memory:", 0, HB_DB_OPEN_CREATE, out);
+		return status < 0 ? status : db_pg_attach(*out, path);
+	}
 	return open_at(path, 0, mode, out);
 }
 
@@ -686,6 +702,7 @@ void hb_db_close(hb_db *db)
 	if (db->conn && !sqlite3_get_autocommit(db->conn))
 		sqlite3_exec(db->conn, "ROLLBACK", NULL, NULL, NULL);
 	sqlite3_close(db->conn);
+	db_pg_detach(db);
 	free(db->plan_findings);
 	free(db->dead);
 	free(db->path);

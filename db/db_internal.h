@@ -51,6 +51,8 @@ struct hb_db {
 	int immutable;       /* opened with immutable=1: no -shm could be had */
 	int64_t *dead;       /* running sweeps whose owner is gone, shown interrupted */
 	size_t n_dead;
+	/* --db postgresql://...: the server's connection (PGconn), reads dispatched to db_pg_read.c */
+	void *pg;
 };
 
 /* Prepared statement of slot, preparing sql on first use; NULL on error
@@ -135,5 +137,18 @@ int db_owner_dead(const hb_db *db, long pid, const char *boot_id);
 enum { DB_STEP_INSP_APPEND = 14 };
 /* The login name the shell gives, else the account's (who recorded a record). */
 void db_login_name(char *buf, size_t cap);
+/* Many stations (db_pg_read.c): whether path is a server URL (postgresql:// or postgres://); connecting
+ * an open handle to it, and letting it go; a few words naming what a statement reads, for the message of
+ * a function not implemented against a server. */
+bool db_pg_is_url(const char *path);
+int db_pg_attach(hb_db *db, const char *url);
+void db_pg_detach(hb_db *db);
+const char *db_pg_what(const char *sql);
+/* The reads a server answers (db->pg set): hb_db_part_get and hb_db_history. */
+int db_pg_part_get(hb_db *db, const char *part_number, hb_db_part *out);
+int db_pg_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **out, size_t *count);
+int db_pg_stream_suppliers(hb_db *db, int64_t part_id, char (**out)[HB_DB_ID_LEN], size_t *count);
+int db_pg_stream_lots(hb_db *db, int64_t part_id, const char *supplier, hb_db_stream_lot **out, size_t *count);
+int db_pg_stream_events(hb_db *db, int64_t part_id, const char *supplier, hb_db_stream_event **out, size_t *count);
 
 #endif

@@ -129,6 +129,8 @@ int hb_db_stream_lots(hb_db *db, int64_t part_id, const char *supplier, hb_db_st
 {
 	if (!db || !supplier || !out || !count)
 		return HB_ERR_ARG;
+	if (db->pg)
+		return db_pg_stream_lots(db, part_id, supplier, out, count);
 	/* Lots decided before decided_unix existed keep their whole-second
 	 * decided_at; the id breaks ties in the order they were begun. */
 	sqlite3_stmt *st = prepare(db,
@@ -164,6 +166,8 @@ int hb_db_stream_suppliers(hb_db *db, int64_t part_id, char (**out)[HB_DB_ID_LEN
 {
 	if (!db || !out || !count)
 		return HB_ERR_ARG;
+	if (db->pg)
+		return db_pg_stream_suppliers(db, part_id, out, count);
 	sqlite3_stmt *st = prepare(db,
 		"SELECT supplier FROM lots WHERE part_id = ?1 AND decision IN ('accept', 'reject')"
 		" UNION SELECT supplier FROM stream_events WHERE part_id = ?1 ORDER BY 1");
@@ -217,6 +221,8 @@ int hb_db_stream_events(hb_db *db, int64_t part_id, const char *supplier, hb_db_
 {
 	if (!db || !supplier || !out || !count)
 		return HB_ERR_ARG;
+	if (db->pg)
+		return db_pg_stream_events(db, part_id, supplier, out, count);
 	sqlite3_stmt *st = prepare(db, "SELECT id, kind, note, at, at_unix FROM stream_events"
 				       " WHERE part_id = ?1 AND supplier = ?2 ORDER BY at_unix, id");
 	if (!st)

@@ -960,6 +960,8 @@ int hb_db_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **
 		return HB_ERR_ARG;
 	*out = NULL;
 	*count = 0;
+	if (db->pg)
+		return db_pg_history(db, f, out, count);
 	if (!f->part_number)
 		return db_error(db, HB_ERR_ARG, "history needs a part number");
 	hb_db_part part;

@@ -772,5 +772,30 @@ bool hb_db_is_immutable(const hb_db *db);
 /* ================ append-only inspection records (issue 11) ================ */
 
 int hb_db_inspection_list_all(hb_db *db, int64_t lot_id, hb_db_inspection **out, size_t *count);
+/* ---------------- many stations: sync with a shared server (db_pg.c, db_pg_pull.c) ----------------
+ * url is a libpq connection URL (postgresql://USER@HOST/DB, postgresql:///DB?host=/socket/dir). The
+ * server's schema is created or migrated on first contact. Records are sent by their global identity,
+ * so stations whose local ids collide never meet; a push sends, in batches of one server transaction
+ * each, every finished record the server lacks (running sweeps wait until they end) and can be
+ * repeated or resumed after any interruption without duplicating anything. */
+enum { HB_DB_SYNC_TABLES = 16 };
+typedef struct hb_db_sync_stats {
+	char server_uid[HB_DB_UID_LEN];      /* the server's own identity */
+	int n;                               /* tables listed below */
+	const char *table[HB_DB_SYNC_TABLES];  /* server table names, in push order */
+	long long count[HB_DB_SYNC_TABLES];    /* push: records sent; status: records waiting (-1: sent at every sync) */
+	long long points;                    /* push: points sent with the sweeps; status: points waiting */
+	long long running;                   /* status: running sweeps (sent once they end) */
+	long long batches;                   /* push: server transactions committed */
+	long long pulled_parts, pulled_revisions, pulled_instruments, updated_instruments;
+	long long conflicts;                 /* pull: server parts whose number this store holds under another identity */
+	double seconds;
+} hb_db_sync_stats;
+int hb_db_sync_push(hb_db *db, const char *url, hb_db_sync_stats *stats);
+/* Brings in the master data other stations added: parts with their spec revisions, later revisions of
+ * parts this store has, and the instrument register (a later calibration date wins). */
+int hb_db_sync_pull(hb_db *db, const char *url, hb_db_sync_stats *stats);
+/* What a push would send now (asks the server only for its identity). */
+int hb_db_sync_status(hb_db *db, const char *url, hb_db_sync_stats *stats);
 
 #endif

@@ -577,3 +577,11 @@ CREATE TRIGGER inspections_keep BEFORE UPDATE OF lot_id, sequence, unit_id, outc
 BEGIN
 	SELECT RAISE(ABORT, 'inspection records are append-only: record the sample again to supersede one');
 END;
+-- step 15: many stations: what this store has pushed to which shared server (by the server's own identity), so that a sync sends only what the server lacks
+CREATE TABLE sync_pushed (
+	server TEXT NOT NULL,
+	-- the server's table, and the record's identity (instruments and compensations: their natural key)
+	tbl TEXT NOT NULL,
+	uid TEXT NOT NULL,
+	PRIMARY KEY (server, tbl, uid)
+) WITHOUT ROWID;

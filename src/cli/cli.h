@@ -296,5 +296,8 @@ void hb_show_trace(FILE *out, struct hb_db *db, long long sweep_id);
  * most limit bytes) before any message can echo it. Prints the one-line
  * error naming field and limit; HB_ERR_ARG (exit 2) when it fails. */
 int hb_cli_text_arg(const char *field, const char *text, size_t limit);
+/* ---------------- many stations: sync with the shared server (cmd_sync.c) ---------------- */
+int hb_cmd_sync(int argc, char **argv);
+extern const hb_cmd_opts hb_opts_sync;
 
 #endif

@@ -25,6 +25,7 @@ const hb_command hb_commands[] = {
 	{ "import", hb_cmd_import, "store a sweep a meter logged on its own (CSV), then fit it", &hb_opts_import },
 	{ "instrument", hb_cmd_instrument, "the instrument register: list, show, edit calibration; affected records", &hb_opts_instrument },
 	{ "fixture", hb_cmd_fixture, "open/short compensation of a test fixture, recorded for the sweeps", &hb_opts_fixture },
+	{ "sync", hb_cmd_sync, "push finished records to the shared server, pull other stations' master data", &hb_opts_sync },
 	{ "profile", hb_cmd_profile, "bring-up: check a profile against its instrument, start a new profile", &hb_opts_profile },
 	{ "watch", hb_cmd_watch, "follow a running sweep from another terminal (read-only) until it ends", &hb_opts_watch },
 	{ "completion", hb_cmd_completion, "print a bash or zsh completion script generated from the option tables", &hb_opts_completion },
