@@ -49,7 +49,8 @@ static const char pg_history_sql[] =
 	" (SELECT CASE WHEN sum(CASE WHEN v.outcome IN ('fail', 'conditional-fail') THEN 1 ELSE 0 END) > 0 THEN 2"
 	"  WHEN count(*) > 0 AND sum(CASE WHEN v.outcome IN ('pass', 'conditional-pass') THEN 1 ELSE 0 END) = count(*)"
 	"  THEN 1 ELSE 0 END FROM verdicts v WHERE v.sweep_uid = s.uid AND NOT EXISTS (SELECT 1 FROM verdicts w"
-	"  WHERE w.sweep_uid = v.sweep_uid AND w.check_name = v.check_name AND w.id > v.id))"
+	"  WHERE w.sweep_uid = v.sweep_uid AND w.check_name = v.check_name AND w.id > v.id)),"
+	" s.uid, u.uid"
 	" FROM units u JOIN parts p ON p.uid = u.part_uid LEFT JOIN lots l ON l.uid = u.lot_uid"
 	" JOIN sweeps s ON s.id = (SELECT s2.id FROM sweeps s2 WHERE s2.unit_uid = u.uid"
 	"  AND s2.kind = 'bias' AND s2.status = 'complete' ORDER BY s2.started_unix DESC, s2.id DESC LIMIT 1)"
@@ -231,6 +232,8 @@ int db_pg_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **
 		h->mu_e = pg_real(r, k, 11);
 		h->gap_m = pg_real(r, k, 12);
 		h->verdict = (hb_db_outcome)atoi(PQgetvalue(r, k, 13));
+		pg_text(r, k, 14, h->sweep_uid, sizeof h->sweep_uid);
+		pg_text(r, k, 15, h->unit_uid, sizeof h->unit_uid);
 	}
 	PQclear(r);
 	*out = rows;

@@ -952,6 +952,8 @@ static void read_history_row(sqlite3_stmt *st, void *row, const void *ctx)
 	r->mu_e = db_col_real(st, 11);
 	r->gap_m = db_col_real(st, 12);
 	r->verdict = (hb_db_outcome)sqlite3_column_int(st, 13);
+	db_col_text(st, 14, r->sweep_uid, sizeof r->sweep_uid);
+	db_col_text(st, 15, r->unit_uid, sizeof r->unit_uid);
 }
 
 int hb_db_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **out, size_t *count)
@@ -978,7 +980,8 @@ int hb_db_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **
 		FIT_VALUE("?9") "," FIT_VALUE("?10") ","
 		" (SELECT CASE WHEN sum(outcome IN ('fail', 'conditional-fail')) > 0 THEN 2"
 		"  WHEN count(*) > 0 AND sum(outcome IN ('pass', 'conditional-pass')) = count(*) THEN 1"
-		"  ELSE 0 END FROM verdicts WHERE verdicts.sweep_id = s.id AND verdicts.superseded_by IS NULL)"
+		"  ELSE 0 END FROM verdicts WHERE verdicts.sweep_id = s.id AND verdicts.superseded_by IS NULL),"
+		" s.uid, u.uid"
 		" FROM units u LEFT JOIN lots l ON l.id = u.lot_id"
 		" JOIN sweeps s ON s.id = (SELECT s2.id FROM sweeps s2 WHERE s2.unit_id = u.id"
 		"  AND s2.kind = 'bias' AND s2.status = 'complete'"

@@ -432,6 +432,7 @@ typedef struct hb_db_history_row {
 	double i_drop_a[HB_DB_HISTORY_DROPS];
 	double mu_e, gap_m;
 	hb_db_outcome verdict;     /* fail if any check failed, pass if every check passed, else not-tested */
+	char sweep_uid[HB_DB_UID_LEN], unit_uid[HB_DB_UID_LEN]; /* global identities ("" on a store before them) */
 } hb_db_history_row;
 
 void hb_db_history_filter_init(hb_db_history_filter *filter);

@@ -140,15 +140,7 @@ static json_t *stats_json(const hb_stats *st)
 	return o;
 }
 
-/* The global identity of record id, null when the store has none (a
- * store opened read-only before identities were kept). */
-static json_t *uid_json(hb_db *db, hb_db_record kind, int64_t id)
-{
-	char uid[HB_DB_UID_LEN] = "";
-	return id > 0 && hb_db_uid_of(db, kind, id, uid) == HB_OK && uid[0] ? json_string(uid) : json_null();
-}
-
-static json_t *history_json(hb_db *db, const hb_db_part *part, const hb_db_history_row *rows, size_t n,
+static json_t *history_json(const hb_db_part *part, const hb_db_history_row *rows, size_t n,
 			    const hb_db_history_filter *f, const hb_history_summary *s)
 {
 	json_t *j = json_object();
@@ -159,8 +151,8 @@ static json_t *history_json(hb_db *db, const hb_db_part *part, const hb_db_histo
 	for (size_t i = 0; i < n; i++) {
 		json_t *u = hb_json_unit_result(&rows[i], f->drop_percent);
 		/* which sweep and unit, across stores too (the local ids are this store's) */
-		json_object_set_new(u, "sweep_uid", uid_json(db, HB_DB_REC_SWEEP, rows[i].sweep_id));
-		json_object_set_new(u, "unit_uid", uid_json(db, HB_DB_REC_UNIT, rows[i].unit_id));
+		json_object_set_new(u, "sweep_uid", rows[i].sweep_uid[0] ? json_string(rows[i].sweep_uid) : json_null());
+		json_object_set_new(u, "unit_uid", rows[i].unit_uid[0] ? json_string(rows[i].unit_uid) : json_null());
 		json_array_append_new(units, u);
 	}
 	json_object_set_new(j, "units", units);
@@ -326,7 +318,7 @@ int hb_cmd_history(int argc, char **argv)
 		goto out;
 	}
 	if (json) {
-		json_t *j = history_json(db, &part, rows, n, &f, &sum);
+		json_t *j = history_json(&part, rows, n, &f, &sum);
 		/* The lots as the switching rules saw them, per supplier. */
 		json_t *streams = hb_stream_all_json(db, &part);
 		if (!streams) {
