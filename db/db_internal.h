@@ -137,6 +137,8 @@ int db_owner_dead(const hb_db *db, long pid, const char *boot_id);
 enum { DB_STEP_INSP_APPEND = 14 };
 /* The login name the shell gives, else the account's (who recorded a record). */
 void db_login_name(char *buf, size_t cap);
+/* Columns 0-14 of a verdict row (id, check_name ... p_false_accept) into v (db_sweeps.c). */
+void db_verdict_columns(sqlite3_stmt *st, hb_db_verdict *v, int64_t sweep_id);
 /* Many stations (db_pg_read.c): whether path is a server URL (postgresql:// or postgres://); connecting
  * an open handle to it, and letting it go; a few words naming what a statement reads, for the message of
  * a function not implemented against a server. */

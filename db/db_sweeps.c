@@ -872,12 +872,11 @@ static hb_db_outcome outcome_of(const unsigned char *text)
 	return HB_DB_NOT_TESTED;
 }
 
-static void read_verdict(sqlite3_stmt *st, void *row, const void *ctx)
+void db_verdict_columns(sqlite3_stmt *st, hb_db_verdict *v, int64_t sweep_id)
 {
-	hb_db_verdict *v = row;
 	hb_db_verdict_init(v);
 	v->id = sqlite3_column_int64(st, 0);
-	v->sweep_id = *(const int64_t *)ctx;
+	v->sweep_id = sweep_id;
 	db_col_text(st, 1, v->check_name, sizeof v->check_name);
 	v->measured = db_col_real(st, 2);
 	v->limit_low = db_col_real(st, 3);
@@ -892,6 +891,11 @@ static void read_verdict(sqlite3_stmt *st, void *row, const void *ctx)
 	v->accept_low = db_col_real(st, 12);
 	v->accept_high = db_col_real(st, 13);
 	v->p_false_accept = db_col_real(st, 14);
+}
+
+static void read_verdict(sqlite3_stmt *st, void *row, const void *ctx)
+{
+	db_verdict_columns(st, row, *(const int64_t *)ctx);
 }
 
 int hb_db_verdict_list(hb_db *db, int64_t sweep_id, hb_db_verdict **out, size_t *count)

@@ -283,35 +283,10 @@ int db_verdict_append(hb_db *db, hb_db_verdict *v)
 	return db_write_one(db, st, "storing a verdict", &v->id, NULL);
 }
 
-static hb_db_outcome outcome_named(const unsigned char *text)
-{
-	static const hb_db_outcome all[] = { HB_DB_PASS, HB_DB_FAIL, HB_DB_CONDITIONAL_PASS, HB_DB_CONDITIONAL_FAIL };
-	for (size_t i = 0; text && i < sizeof all / sizeof *all; i++)
-		if (strcmp((const char *)text, hb_db_outcome_name(all[i])) == 0)
-			return all[i];
-	return HB_DB_NOT_TESTED;
-}
-
 static void read_verdict_v7(sqlite3_stmt *st, void *row, const void *ctx)
 {
 	hb_db_verdict *v = row;
-	hb_db_verdict_init(v);
-	v->id = sqlite3_column_int64(st, 0);
-	v->sweep_id = *(const int64_t *)ctx;
-	db_col_text(st, 1, v->check_name, sizeof v->check_name);
-	v->measured = db_col_real(st, 2);
-	v->limit_low = db_col_real(st, 3);
-	v->limit_high = db_col_real(st, 4);
-	v->margin = db_col_real(st, 5);
-	v->outcome = outcome_named(sqlite3_column_text(st, 6));
-	db_col_text(st, 7, v->note, sizeof v->note);
-	db_col_text(st, 8, v->decision_rule, sizeof v->decision_rule);
-	v->guard_r = db_col_real(st, 9);
-	v->expanded_u = db_col_real(st, 10);
-	v->coverage_k = db_col_real(st, 11);
-	v->accept_low = db_col_real(st, 12);
-	v->accept_high = db_col_real(st, 13);
-	v->p_false_accept = db_col_real(st, 14);
+	db_verdict_columns(st, v, *(const int64_t *)ctx);
 	db_col_text(st, 15, v->uid, sizeof v->uid);
 	db_col_text(st, 16, v->created, sizeof v->created);
 	db_col_text(st, 17, v->operator_name, sizeof v->operator_name);

@@ -3,6 +3,7 @@
 #define HB_FIT_INTERNAL_H
 
 #include <gsl/gsl_integration.h>
+#include <gsl/gsl_roots.h>
 
 #include "hb_fit.h"
 
@@ -34,5 +35,9 @@ int hb__fit_check_sweep(const double *current, const double *L, const double *si
 
 /* Integral of the function from 0 to x by adaptive Gauss-Kronrod. */
 int hb__fit_integrate(hb_fit_ws *ws, double (*fn)(double, void *), void *ctx, double x, double *result);
+
+/* The root of fn in [lo, hi] (a sign change) by GSL's Brent solver, to a
+ * relative interval epsrel; HB_ERR_FIT when it does not converge in 200 steps. */
+int hb__fit_brent(gsl_function *fn, double lo, double hi, double epsrel, double *root);
 
 #endif

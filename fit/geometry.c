@@ -101,19 +101,24 @@ int hb_fit_gap_physical(double g_eff, double Ae, double window_height, double *g
 		*g_phys = g_eff;
 		return HB_OK;
 	}
+	return hb__fit_brent(&F, lo, hi, 1e-14, g_phys);
+}
+
+int hb__fit_brent(gsl_function *fn, double lo, double hi, double epsrel, double *root)
+{
 	gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
 	if (!s)
 		return HB_ERR_NOMEM;
 	int rc = HB_ERR_FIT;
-	if (gsl_root_fsolver_set(s, &F, lo, hi) != GSL_SUCCESS)
+	if (gsl_root_fsolver_set(s, fn, lo, hi) != GSL_SUCCESS)
 		goto out;
 	for (int it = 0; it < 200; it++) {
 		if (gsl_root_fsolver_iterate(s) != GSL_SUCCESS)
 			goto out;
 		lo = gsl_root_fsolver_x_lower(s);
 		hi = gsl_root_fsolver_x_upper(s);
-		if (gsl_root_test_interval(lo, hi, 0, 1e-14) == GSL_SUCCESS) {
-			*g_phys = gsl_root_fsolver_root(s);
+		if (gsl_root_test_interval(lo, hi, 0, epsrel) == GSL_SUCCESS) {
+			*root = gsl_root_fsolver_root(s);
 			rc = HB_OK;
 			break;
 		}

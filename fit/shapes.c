@@ -566,26 +566,7 @@ int hb_core_gap_physical(const hb_core_shape_result *r, hb_gap_place place, doub
 			return HB_ERR_FIT;
 	}
 	gsl_function fn = { inv_residual, &c };
-	gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
-	if (!s)
-		return HB_ERR_NOMEM;
-	int rc = HB_ERR_FIT;
-	if (gsl_root_fsolver_set(s, &fn, lo, hi) != GSL_SUCCESS)
-		goto out;
-	for (int it = 0; it < 200; it++) {
-		if (gsl_root_fsolver_iterate(s) != GSL_SUCCESS)
-			goto out;
-		lo = gsl_root_fsolver_x_lower(s);
-		hi = gsl_root_fsolver_x_upper(s);
-		if (gsl_root_test_interval(lo, hi, 0, 1e-13) == GSL_SUCCESS) {
-			*t = gsl_root_fsolver_root(s);
-			rc = HB_OK;
-			break;
-		}
-	}
-out:
-	gsl_root_fsolver_free(s);
-	return rc;
+	return hb__fit_brent(&fn, lo, hi, 1e-13, t);
 }
 
 /* ---------------- the dimensions as text ---------------- */
