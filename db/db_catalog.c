@@ -149,8 +149,9 @@ int hb_db_part_get(hb_db *db, const char *part_number, hb_db_part *out)
 {
 	if (!db || !part_number || !out)
 		return HB_ERR_ARG;
-	if (db->pg)
-		return db_pg_part_get(db, part_number, out);
+	int mirrored = db_mirror_part_number(db, part_number);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = db_stmt(db, ST_PART_GET, "SELECT " PART_COLUMNS " FROM parts WHERE part_number = ?1");
 	if (!st)
 		return HB_ERR_DB;
@@ -162,6 +163,9 @@ int hb_db_part_get_id(hb_db *db, int64_t id, hb_db_part *out)
 {
 	if (!db || !out)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_parts(db, &id, 1);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = db_stmt(db, ST_PART_GET_ID, "SELECT " PART_COLUMNS " FROM parts WHERE id = ?1");
 	if (!st)
 		return HB_ERR_DB;
@@ -175,6 +179,9 @@ int hb_db_part_list(hb_db *db, hb_db_part **out, size_t *count)
 {
 	if (!db || !out || !count)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_all_parts(db);
+	if (mirrored < 0)
+		return mirrored;
 	*out = NULL;
 	*count = 0;
 	sqlite3_stmt *st = db_stmt(db, ST_PART_LIST, "SELECT " PART_COLUMNS " FROM parts ORDER BY part_number");
@@ -254,6 +261,9 @@ int hb_db_lot_get(hb_db *db, int64_t lot_id, hb_db_lot *out)
 {
 	if (!db || !out)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_lots(db, &lot_id, 1);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = db_stmt(db, ST_LOT_GET, "SELECT " LOT_COLUMNS " FROM lots WHERE id = ?1");
 	if (!st)
 		return HB_ERR_DB;
@@ -267,6 +277,9 @@ int hb_db_lot_find(hb_db *db, int64_t part_id, const char *lot_code, hb_db_lot *
 {
 	if (!db || !lot_code || !out)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_lot_code(db, part_id, lot_code);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = db_stmt(db, ST_LOT_FIND,
 				   "SELECT " LOT_COLUMNS " FROM lots WHERE part_id = ?1 AND lot_code = ?2");
 	if (!st)
@@ -353,6 +366,9 @@ int hb_db_unit_get(hb_db *db, int64_t unit_id, hb_db_unit *out)
 {
 	if (!db || !out)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_units(db, &unit_id, 1);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = db_stmt(db, ST_UNIT_GET, "SELECT id, part_id, lot_id, serial FROM units WHERE id = ?1");
 	if (!st)
 		return HB_ERR_DB;
@@ -439,6 +455,9 @@ int hb_db_inspection_list(hb_db *db, int64_t lot_id, hb_db_inspection **out, siz
 {
 	if (!db || !out || !count)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_lot_samples(db, lot_id);
+	if (mirrored < 0)
+		return mirrored;
 	*out = NULL;
 	*count = 0;
 	sqlite3_stmt *st = db_stmt(db, ST_INSP_LIST,
@@ -455,6 +474,9 @@ int hb_db_inspection_list_all(hb_db *db, int64_t lot_id, hb_db_inspection **out,
 {
 	if (!db || !out || !count)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_lot_samples(db, lot_id);
+	if (mirrored < 0)
+		return mirrored;
 	*out = NULL;
 	*count = 0;
 	sqlite3_stmt *st = db_stmt(db, ST_INSP_LIST_ALL,
@@ -476,6 +498,9 @@ int hb_db_inspection_progress(hb_db *db, int64_t lot_id, int *next_sequence, int
 {
 	if (!db)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_lot_samples(db, lot_id);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = db_stmt(db, ST_INSP_PROGRESS,
 		"SELECT coalesce(max(sequence), 0) + 1, coalesce(sum(outcome = 'pass'), 0),"
 		" coalesce(sum(outcome = 'fail'), 0) FROM inspections WHERE lot_id = ?1 AND superseded_by IS NULL");

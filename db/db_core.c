@@ -25,15 +25,10 @@ sqlite3_stmt *db_prepare_cached(hb_db *db, sqlite3_stmt **cache, const char *sql
 {
 	if (*cache)
 		return *cache;
-	/* a handle on a server (db_pg_read.c) answers only what it implements */
-	if (db->pg) {
-		db_error(db, HB_ERR_UNSUPPORTED, "not available against a server yet: %s (run it on a station's store)",
-			 db_pg_what(sql));
-		return NULL;
-	}
 	int rc = sqlite3_prepare_v3(db->conn, sql, -1, SQLITE_PREPARE_PERSISTENT, cache, NULL);
 	if (rc != SQLITE_OK) {
-		db_fail(db, rc, "preparing a query");
+		/* on a server handle a writing statement is refused where it is prepared (db_pg_mirror.c) */
+		db_fail(db, rc, db->pg ? db_pg_what(sql) : "preparing a query");
 		*cache = NULL;
 	} else {
 		db_plan_note(db, sql);
@@ -65,10 +60,10 @@ int db_error(hb_db *db, int status, const char *fmt, ...)
 
 int db_fail(hb_db *db, int rc, const char *what)
 {
-	/* a server handle's in-memory shape refuses every table (db_pg_read.c) */
+	/* a server handle is read, never written: records reach the server by sync (db_pg_mirror.c) */
 	if (db->pg && (rc & 0xff) == SQLITE_AUTH)
-		return db_error(db, HB_ERR_UNSUPPORTED, "not available against a server yet: %s (run it on a station's store)",
-				what);
+		return db_error(db, HB_ERR_UNSUPPORTED, "a server is read from, not written to: %s"
+				" (write on a station's store; sync takes it to the server)", what);
 	const char *msg = db->conn ? sqlite3_errmsg(db->conn) : sqlite3_errstr(rc);
 	switch (rc & 0xff) {
 	case SQLITE_FULL:
@@ -699,10 +694,11 @@ void hb_db_close(hb_db *db)
 		sqlite3_finalize(db->sweep_list[i]);
 		sqlite3_finalize(db->sweep_count[i]);
 	}
+	/* the copy's statements go before the connection they were prepared on */
+	db_pg_detach(db);
 	if (db->conn && !sqlite3_get_autocommit(db->conn))
 		sqlite3_exec(db->conn, "ROLLBACK", NULL, NULL, NULL);
 	sqlite3_close(db->conn);
-	db_pg_detach(db);
 	free(db->plan_findings);
 	free(db->dead);
 	free(db->path);

@@ -49,6 +49,9 @@ static void read_instrument(sqlite3_stmt *st, void *row, const void *ctx)
 
 int hb_db_instrument_get(hb_db *db, int64_t id, hb_db_instrument *out)
 {
+	int mirrored = db_mirror_register(db);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = prep(db, "SELECT " INSTR_COLS " FROM instruments WHERE id = ?1", "reading an instrument");
 	if (!st)
 		return HB_ERR_DB;
@@ -112,6 +115,9 @@ int hb_db_instrument_ensure(hb_db *db, const char *kind, const char *maker, cons
 
 int hb_db_instrument_find(hb_db *db, const char *serial, hb_db_instrument *out)
 {
+	int mirrored = db_mirror_register(db);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = prep(db, "SELECT " INSTR_COLS " FROM instruments WHERE serial = ?1 ORDER BY id",
 				"finding an instrument");
 	if (!st)
@@ -137,6 +143,9 @@ int hb_db_instrument_find(hb_db *db, const char *serial, hb_db_instrument *out)
 
 int hb_db_instrument_list(hb_db *db, hb_db_instrument **out, size_t *count)
 {
+	int mirrored = db_mirror_register(db);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = prep(db, "SELECT " INSTR_COLS " FROM instruments ORDER BY kind, serial, id",
 				"listing instruments");
 	if (!st)
@@ -215,6 +224,9 @@ int hb_db_fixture_comp_add(hb_db *db, hb_db_fixture_comp *c)
 
 int hb_db_fixture_comp_get(hb_db *db, int64_t id, hb_db_fixture_comp *out)
 {
+	int mirrored = db_mirror_register(db);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = prep(db, "SELECT " COMP_COLS " FROM fixture_compensations WHERE id = ?1",
 				"reading a fixture compensation");
 	if (!st)
@@ -229,6 +241,9 @@ int hb_db_fixture_comp_get(hb_db *db, int64_t id, hb_db_fixture_comp *out)
 
 int hb_db_fixture_comp_latest(hb_db *db, const char *fixture, const char *kind, hb_db_fixture_comp *out)
 {
+	int mirrored = db_mirror_register(db);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = prep(db,
 				"SELECT " COMP_COLS " FROM fixture_compensations WHERE fixture = ?1 AND kind = ?2 "
 				"ORDER BY at_unix DESC, id DESC LIMIT 1",
@@ -304,6 +319,9 @@ static void read_trace(sqlite3_stmt *st, void *row, const void *ctx)
 
 int hb_db_sweep_trace_get(hb_db *db, int64_t sweep_id, hb_db_sweep_trace *out)
 {
+	int mirrored = db_mirror_sweeps(db, &sweep_id, 1);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = prep(db,
 				"SELECT sweep_id, lcr_instrument_id, supply_instrument_id, cal_status, overdue_allowed, fixture, "
 				"open_comp_id, short_comp_id, fixture_status, fixture_applied, settings_start, settings_end, "
@@ -341,6 +359,9 @@ static void read_affected(sqlite3_stmt *st, void *row, const void *ctx)
 int hb_db_instrument_affected(hb_db *db, int64_t instrument_id, double since_unix, hb_db_affected **out,
 			      size_t *count)
 {
+	int mirrored = db_mirror_affected(db, instrument_id, since_unix);
+	if (mirrored < 0)
+		return mirrored;
 	/* The sweeps first (with their verdicts right after each), ordered by
 	 * the sweep's start; then each lot that sampled one of them. */
 	static const char sql[] =

@@ -51,8 +51,11 @@ struct hb_db {
 	int immutable;       /* opened with immutable=1: no -shm could be had */
 	int64_t *dead;       /* running sweeps whose owner is gone, shown interrupted */
 	size_t n_dead;
-	/* --db postgresql://...: the server's connection (PGconn), reads dispatched to db_pg_read.c */
+	/* --db postgresql://...: the server's connection (PGconn); the records a read needs are copied into
+	 * this handle's in-memory store (db_pg_mirror.c), written only while pg_filling */
 	void *pg;
+	void *mirror;
+	int pg_filling;
 };
 
 /* Prepared statement of slot, preparing sql on first use; NULL on error
@@ -146,11 +149,40 @@ bool db_pg_is_url(const char *path);
 int db_pg_attach(hb_db *db, const char *url);
 void db_pg_detach(hb_db *db);
 const char *db_pg_what(const char *sql);
-/* The reads a server answers (db->pg set): hb_db_part_get and hb_db_history. */
-int db_pg_part_get(hb_db *db, const char *part_number, hb_db_part *out);
+/* The reads a server answers itself (db->pg set): a part's history and lot streams. */
 int db_pg_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **out, size_t *count);
 int db_pg_stream_suppliers(hb_db *db, int64_t part_id, char (**out)[HB_DB_ID_LEN], size_t *count);
 int db_pg_stream_lots(hb_db *db, int64_t part_id, const char *supplier, hb_db_stream_lot **out, size_t *count);
 int db_pg_stream_events(hb_db *db, int64_t part_id, const char *supplier, hb_db_stream_event **out, size_t *count);
+
+/* Reads against a server (db_pg_mirror.c). Before a station query runs on a server handle, the records
+ * it reads are copied from the server into the handle's in-memory store, by the server's ids; each call
+ * copies a record once per handle and is a no-op on a station's store. */
+int db_mirror_attach(hb_db *db);
+void db_mirror_detach(hb_db *db);
+int db_mirror_parts(hb_db *db, const int64_t *ids, size_t n);
+int db_mirror_part_number(hb_db *db, const char *part_number);
+int db_mirror_all_parts(hb_db *db);
+int db_mirror_lots(hb_db *db, const int64_t *ids, size_t n);
+int db_mirror_lot_code(hb_db *db, int64_t part_id, const char *lot_code);
+int db_mirror_units(hb_db *db, const int64_t *ids, size_t n);
+/* a sweep with its unit, part, lot, fits, verdicts, trace and number of points (not the points) */
+int db_mirror_sweeps(hb_db *db, const int64_t *ids, size_t n);
+/* the points of one sweep; those of the sweep copied before are dropped */
+int db_mirror_points(hb_db *db, int64_t sweep_id);
+int db_mirror_lot_samples(hb_db *db, int64_t lot_id);
+/* the instrument register and the fixture compensations */
+int db_mirror_register(hb_db *db);
+/* the sweeps hb_db_sweep_list would list; the count of those the filter matches, from the server */
+int db_mirror_sweep_list(hb_db *db, const hb_db_sweep_filter *f);
+int db_mirror_sweep_count(hb_db *db, const hb_db_sweep_filter *f, int64_t *count);
+/* the sweeps an instrument measured since, with the lots that sampled them */
+int db_mirror_affected(hb_db *db, int64_t instrument_id, double since_unix);
+/* a record by kind and id, or by identity, with what it belongs to */
+int db_mirror_record(hb_db *db, hb_db_record kind, int64_t id);
+int db_mirror_uid(hb_db *db, hb_db_record kind, const char *uid);
+int db_mirror_report(hb_db *db, const char *uid);
+/* a report written from a server's records, filed on the server */
+int db_pg_report_put(hb_db *db, hb_db_report *r);
 
 #endif

@@ -28,6 +28,9 @@ int hb_db_part_core_get(hb_db *db, const char *part_number, hb_db_part_core *out
 {
 	if (!db || !part_number || !out)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_part_number(db, part_number);
+	if (mirrored < 0)
+		return mirrored;
 	hb_db_part_core_init(out);
 	if (db->old_version && db->old_version < 8)
 		return HB_OK; /* an older store has no core set: none */

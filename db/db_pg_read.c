@@ -1,4 +1,4 @@
-/* db/db_pg_read.c - many stations, one server: --db postgresql://... reads a part and its history from the shared server (other reads say they are not available there yet) */
+/* db/db_pg_read.c - many stations, one server: --db postgresql://... connects a handle to the shared server; a part's history and lot streams are read there directly */
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -15,7 +15,9 @@ bool db_pg_is_url(const char *path)
 const char *db_pg_what(const char *sql)
 {
 	static char what[64];
-	const char *from = strstr(sql, " FROM ");
+	bool writes = strncmp(sql, "INSERT", 6) == 0 || strncmp(sql, "UPDATE", 6) == 0 ||
+		      strncmp(sql, "DELETE", 6) == 0 || strncmp(sql, "REPLACE", 7) == 0;
+	const char *from = writes ? NULL : strstr(sql, " FROM ");
 	const char *verb = from ? "reading" : "writing";
 	const char *p = from ? from + 6 : sql;
 	if (!from) {
@@ -29,12 +31,6 @@ const char *db_pg_what(const char *sql)
 	snprintf(what, sizeof what, "%s %.*s", verb, (int)n, p);
 	return what;
 }
-
-#define PG_PART_COLUMNS                                                                          \
-	"id, part_number, description, maker, nominal_h, tolerance, test_freq_hz, test_level,"   \
-	" test_level_kind, sat_current_a, sat_drop, rated_current_a, dcr_max_ohm, turns, ae_m2," \
-	" le_m, window_m, toroid_od_m, toroid_id_m, toroid_h_m, mu_i, bsat_t, created, updated, decision_rule," \
-	" guard_r"
 
 /* The newest fit's value of one name, as a station's store reads it (db_sweeps.c). */
 #define PG_FIT_VALUE(param)                                                                           \
@@ -58,22 +54,6 @@ static const char pg_history_sql[] =
 	" AND ($4::float8 IS NULL OR s.started_unix >= $4)"
 	" ORDER BY s.started_unix, s.id";
 
-/* Every table of the in-memory shape is refused: a read not implemented against the server fails with
- * a message instead of answering from an empty store. */
-static int refuse_tables(void *ctx, int action, const char *a, const char *b, const char *c, const char *d)
-{
-	(void)ctx, (void)a, (void)b, (void)c, (void)d;
-	switch (action) {
-	case SQLITE_READ:
-	case SQLITE_INSERT:
-	case SQLITE_UPDATE:
-	case SQLITE_DELETE:
-		return SQLITE_DENY;
-	default:
-		return SQLITE_OK;
-	}
-}
-
 int db_pg_attach(hb_db *db, const char *url)
 {
 	char server_uid[HB_DB_UID_LEN];
@@ -81,12 +61,7 @@ int db_pg_attach(hb_db *db, const char *url)
 	int status = db_pg_connect(db, url, server_uid, &conn);
 	if (status < 0)
 		return status;
-	/* the first registration of a part number (two stations may each have entered it) */
-	status = db_pg_prepare(db, conn, "part_get",
-			       "SELECT " PG_PART_COLUMNS " FROM parts WHERE part_number = $1 ORDER BY id LIMIT 1",
-			       "preparing reads");
-	if (status == HB_OK)
-		status = db_pg_prepare(db, conn, "history", pg_history_sql, "preparing reads");
+	status = db_pg_prepare(db, conn, "history", pg_history_sql, "preparing reads");
 	/* a part's lot streams: every registration of its number (the server joins them by number) */
 	if (status == HB_OK)
 		status = db_pg_prepare(db, conn, "stream_suppliers",
@@ -132,12 +107,12 @@ int db_pg_attach(hb_db *db, const char *url)
 	free(db->path);
 	db->path = path;
 	db->pg = conn;
-	sqlite3_set_authorizer(db->conn, refuse_tables, NULL);
-	return HB_OK;
+	return db_mirror_attach(db);
 }
 
 void db_pg_detach(hb_db *db)
 {
+	db_mirror_detach(db);
 	if (db && db->pg) {
 		PQfinish(db->pg);
 		db->pg = NULL;
@@ -154,46 +129,6 @@ static void pg_text(const PGresult *r, int row, int col, char *buf, size_t cap)
 	snprintf(buf, cap, "%s", PQgetisnull(r, row, col) ? "" : PQgetvalue(r, row, col));
 }
 
-int db_pg_part_get(hb_db *db, const char *part_number, hb_db_part *p)
-{
-	PGresult *r = NULL;
-	int status = db_pg_exec(db, db->pg, "part_get", 1, &part_number, "reading a part", &r);
-	if (status < 0)
-		return status;
-	if (PQntuples(r) == 0) {
-		PQclear(r);
-		return db_error(db, HB_ERR_NOTFOUND, "no part %s in %s", part_number, db->path);
-	}
-	hb_db_part_init(p);
-	p->id = strtoll(PQgetvalue(r, 0, 0), NULL, 10);
-	pg_text(r, 0, 1, p->part_number, sizeof p->part_number);
-	pg_text(r, 0, 2, p->description, sizeof p->description);
-	pg_text(r, 0, 3, p->maker, sizeof p->maker);
-	p->nominal_h = pg_real(r, 0, 4);
-	p->tolerance = pg_real(r, 0, 5);
-	p->test_freq_hz = pg_real(r, 0, 6);
-	p->test_level = pg_real(r, 0, 7);
-	p->test_level_kind = PQgetvalue(r, 0, 8)[0] == 'A' ? HB_DB_LEVEL_CURRENT : HB_DB_LEVEL_VOLTAGE;
-	p->sat_current_a = pg_real(r, 0, 9);
-	p->sat_drop = pg_real(r, 0, 10);
-	p->rated_current_a = pg_real(r, 0, 11);
-	p->dcr_max_ohm = pg_real(r, 0, 12);
-	p->turns = PQgetisnull(r, 0, 13) ? 0 : atoi(PQgetvalue(r, 0, 13));
-	p->ae_m2 = pg_real(r, 0, 14);
-	p->le_m = pg_real(r, 0, 15);
-	p->window_m = pg_real(r, 0, 16);
-	p->toroid_od_m = pg_real(r, 0, 17);
-	p->toroid_id_m = pg_real(r, 0, 18);
-	p->toroid_h_m = pg_real(r, 0, 19);
-	p->mu_i = pg_real(r, 0, 20);
-	p->bsat_t = pg_real(r, 0, 21);
-	pg_text(r, 0, 22, p->created, sizeof p->created);
-	pg_text(r, 0, 23, p->updated, sizeof p->updated);
-	pg_text(r, 0, 24, p->decision_rule, sizeof p->decision_rule);
-	p->guard_r = pg_real(r, 0, 25);
-	PQclear(r);
-	return HB_OK;
-}
 
 int db_pg_history(hb_db *db, const hb_db_history_filter *f, hb_db_history_row **out, size_t *count)
 {

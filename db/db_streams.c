@@ -63,6 +63,9 @@ int hb_db_lot_get_stream(hb_db *db, int64_t lot_id, char *supplier, size_t cap, 
 {
 	if (!db || !supplier || !cap)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_lots(db, &lot_id, 1);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = prepare(db, "SELECT supplier, production_irregular FROM lots WHERE id = ?1");
 	if (!st)
 		return HB_ERR_DB;

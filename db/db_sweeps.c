@@ -9,7 +9,7 @@
 
 /* ---------------- sweeps ---------------- */
 
-#define SWEEP_COLUMNS                                                                              \
+#define SWEEP_COLUMNS_COUNTED(points)                                                                              \
 	"s.id, s.kind, s.unit_id, u.part_id, p.part_number, u.serial, l.lot_code, s.started_unix,"  \
 	" s.started_at, s.ended_unix, s.ended_at, s.status, s.status_reason, s.station, s.operator," \
 	" s.host, s.pid, s.lcr_idn, s.lcr_profile, s.supply_idn, s.supply_profile, s.test_freq_hz,"  \
@@ -17,10 +17,15 @@
 	" s.aperture, s.settle_mode, s.settle_delay_s, s.settle_tolerance, s.settle_max_readings,"   \
 	" s.settle_max_s, s.plan_from, s.plan_to, s.plan_steps, s.plan_spacing, s.limit_current_a,"  \
 	" s.limit_voltage_v, s.ambient_c, s.note,"                                                  \
-	" (SELECT count(*) FROM points pt WHERE pt.sweep_id = s.id), s.reading_noise_rel, s.dcr_meter_ohm,"        \
+	" " points ", s.reading_noise_rel, s.dcr_meter_ohm,"        \
 	" s.supply_found_a, s.supply_off_a, s.supply_decay_s, s.meter_accuracy_rel, s.meter_accuracy,"            \
 	" s.supply_accuracy_rel, s.supply_accuracy_offset_a, s.supply_accuracy, s.station_decision_rule,"       \
 	" s.station_guard_r"
+#define SWEEP_COLUMNS SWEEP_COLUMNS_COUNTED("(SELECT count(*) FROM points pt WHERE pt.sweep_id = s.id)")
+/* A server handle's copy holds the points of one sweep at a time, and each copied sweep's count
+ * (db_pg_mirror.c). */
+#define SWEEP_COLUMNS_SERVER SWEEP_COLUMNS_COUNTED("(SELECT c.n FROM pg_point_counts c WHERE c.sweep_id = s.id)")
+#define SWEEP_COLUMNS_OF(db) ((db)->pg ? SWEEP_COLUMNS_SERVER : SWEEP_COLUMNS)
 
 void hb_db_sweep_init(hb_db_sweep *s)
 {
@@ -301,9 +306,14 @@ int hb_db_sweep_get(hb_db *db, int64_t sweep_id, hb_db_sweep *out)
 {
 	if (!db || !out)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_sweeps(db, &sweep_id, 1);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = db_stmt(db, ST_SWEEP_GET,
-		"SELECT " SWEEP_COLUMNS " FROM sweeps s LEFT JOIN units u ON u.id = s.unit_id"
-		" LEFT JOIN parts p ON p.id = u.part_id LEFT JOIN lots l ON l.id = u.lot_id WHERE s.id = ?1");
+				   db->pg ? "SELECT " SWEEP_COLUMNS_SERVER " FROM sweeps s LEFT JOIN units u ON u.id = s.unit_id"
+					    " LEFT JOIN parts p ON p.id = u.part_id LEFT JOIN lots l ON l.id = u.lot_id WHERE s.id = ?1"
+					  : "SELECT " SWEEP_COLUMNS " FROM sweeps s LEFT JOIN units u ON u.id = s.unit_id"
+					    " LEFT JOIN parts p ON p.id = u.part_id LEFT JOIN lots l ON l.id = u.lot_id WHERE s.id = ?1");
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, sweep_id);
@@ -342,7 +352,7 @@ static sqlite3_stmt *sweep_list_stmt(hb_db *db, unsigned mask)
 	if (db->sweep_list[mask])
 		return db->sweep_list[mask];
 	char sql[2048];
-	sweep_filter_sql(sql, sizeof sql, mask, SWEEP_COLUMNS, " ORDER BY s.started_unix DESC, s.id DESC LIMIT ?7");
+	sweep_filter_sql(sql, sizeof sql, mask, SWEEP_COLUMNS_OF(db), " ORDER BY s.started_unix DESC, s.id DESC LIMIT ?7");
 	return db_prepare_cached(db, &db->sweep_list[mask], sql);
 }
 
@@ -433,6 +443,9 @@ int hb_db_sweep_list(hb_db *db, const hb_db_sweep_filter *f, hb_db_sweep **out, 
 	}
 	if (status_shown_differs(db, f))
 		return sweep_list_shown(db, f, out, count);
+	int mirrored = db_mirror_sweep_list(db, f);
+	if (mirrored < 0)
+		return mirrored;
 	unsigned mask;
 	if (sweep_filter_mask(db, f, &mask) != HB_OK)
 		return HB_ERR_ARG;
@@ -454,6 +467,9 @@ int hb_db_sweep_count(hb_db *db, const hb_db_sweep_filter *f, int64_t *count)
 {
 	if (!db || !f || !count)
 		return HB_ERR_ARG;
+	/* the server counts what it holds; the copy holds only what was listed */
+	if (db->pg)
+		return db_mirror_sweep_count(db, f, count);
 	if (status_shown_differs(db, f)) {
 		hb_db_sweep_filter g = *f;
 		g.limit = 0;
@@ -568,6 +584,9 @@ int hb_db_points_get(hb_db *db, int64_t sweep_id, hb_db_point **out, size_t *cou
 {
 	if (!db || !out || !count)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_points(db, sweep_id);
+	if (mirrored < 0)
+		return mirrored;
 	*out = NULL;
 	*count = 0;
 	sqlite3_stmt *st = db_stmt(db, ST_POINTS_GET,
@@ -686,6 +705,9 @@ int hb_db_fit_get_latest(hb_db *db, int64_t sweep_id, const char *model, hb_db_f
 {
 	if (!db || !out)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_sweeps(db, &sweep_id, 1);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = model
 		? db_stmt(db, ST_FIT_LATEST,
 			  "SELECT id, sweep_id, model, law, code_version, created, rss, dof, aic, covariance, flags"
@@ -773,6 +795,9 @@ int hb_db_fit_unc_list(hb_db *db, int64_t fit_id, hb_db_fit_unc **out, size_t *c
 {
 	if (!db || !out || !count)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_record(db, HB_DB_REC_FIT, fit_id);
+	if (mirrored < 0)
+		return mirrored;
 	*out = NULL;
 	*count = 0;
 	sqlite3_stmt *st = db_stmt(db, ST_FIT_UNC_LIST,
@@ -902,6 +927,9 @@ int hb_db_verdict_list(hb_db *db, int64_t sweep_id, hb_db_verdict **out, size_t 
 {
 	if (!db || !out || !count)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_sweeps(db, &sweep_id, 1);
+	if (mirrored < 0)
+		return mirrored;
 	*out = NULL;
 	*count = 0;
 	if (!db->old_version || db->old_version >= DB_STEP_TRACE)

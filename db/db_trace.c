@@ -129,6 +129,9 @@ int hb_db_uid_of(hb_db *db, hb_db_record kind, int64_t id, char uid[HB_DB_UID_LE
 {
 	if (!db || !uid || (unsigned)kind >= HB_DB_REC_COUNT)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_record(db, kind, id);
+	if (mirrored < 0)
+		return mirrored;
 	uid[0] = '\0';
 	char sql[200];
 	snprintf(sql, sizeof sql, "SELECT %s FROM %s WHERE %s = ?1", records[kind].column, records[kind].table,
@@ -153,6 +156,9 @@ int hb_db_uid_find(hb_db *db, hb_db_record kind, const char *uid, int64_t *id)
 {
 	if (!db || !uid || !id || (unsigned)kind >= HB_DB_REC_COUNT)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_uid(db, kind, uid);
+	if (mirrored < 0)
+		return mirrored;
 	/* identities are stored in lower case; one typed in capitals is the same identity */
 	char low[HB_DB_UID_LEN];
 	size_t n = 0;
@@ -221,6 +227,9 @@ int hb_db_spec_revision_get(hb_db *db, int64_t part_id, int revision, hb_db_spec
 {
 	if (!db || !out || revision < 0)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_parts(db, &part_id, 1);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = db_stmt(db, ST_SPEC_REV_LATEST,
 		"SELECT " REV_COLUMNS " FROM spec_revisions r JOIN parts p ON p.id = r.part_id"
 		" WHERE r.part_id = ?1 AND (?2 = 0 OR r.revision = ?2) ORDER BY r.revision DESC LIMIT 1");
@@ -237,6 +246,9 @@ int hb_db_spec_revision_get_id(hb_db *db, int64_t spec_rev_id, hb_db_spec_revisi
 {
 	if (!db || !out)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_record(db, HB_DB_REC_SPEC_REVISION, spec_rev_id);
+	if (mirrored < 0)
+		return mirrored;
 	sqlite3_stmt *st = db_stmt(db, ST_SPEC_REV_GET,
 		"SELECT " REV_COLUMNS " FROM spec_revisions r JOIN parts p ON p.id = r.part_id WHERE r.id = ?1");
 	if (!st)
@@ -316,6 +328,9 @@ int hb_db_verdict_list_all(hb_db *db, int64_t sweep_id, hb_db_verdict **out, siz
 {
 	if (!db || !out || !count)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_sweeps(db, &sweep_id, 1);
+	if (mirrored < 0)
+		return mirrored;
 	*out = NULL;
 	*count = 0;
 	if (db->old_version && db->old_version < DB_STEP_TRACE)
@@ -345,6 +360,9 @@ int hb_db_lot_decision_list(hb_db *db, int64_t lot_id, hb_db_lot_decision_rec **
 {
 	if (!db || !out || !count)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_lots(db, &lot_id, 1);
+	if (mirrored < 0)
+		return mirrored;
 	*out = NULL;
 	*count = 0;
 	sqlite3_stmt *st = db_stmt(db, ST_LOT_DECISIONS,
@@ -371,6 +389,8 @@ int hb_db_report_put(hb_db *db, hb_db_report *r)
 		return db_error(db, HB_ERR_ARG, "report number '%s' is not a global identity", r->uid);
 	if (strlen(r->data_sha256) != 64)
 		return db_error(db, HB_ERR_ARG, "report %s: no data hash", r->uid);
+	if (db->pg)
+		return db_pg_report_put(db, r);
 	int status = db_write_begin(db, "storing a report record");
 	if (status < 0)
 		return status;
@@ -446,6 +466,9 @@ int hb_db_report_get(hb_db *db, const char *uid, hb_db_report *out)
 {
 	if (!db || !uid || !out)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_report(db, uid);
+	if (mirrored < 0)
+		return mirrored;
 	memset(out, 0, sizeof *out);
 	sqlite3_stmt *st = db_stmt(db, ST_REPORT_GET,
 		"SELECT id, uid, kind, subject, path, file_sha256, data_sha256, software_version, created"
