@@ -85,6 +85,11 @@ int db_fail(hb_db *db, int rc, const char *what)
 			return db_error(db, HB_ERR_NOTFOUND, "%s: refers to a record that is not in the store",
 					what);
 		return db_error(db, HB_ERR_ARG, "%s: %s", what, msg);
+	case SQLITE_READONLY:
+		return db_error(db, HB_ERR_IO,
+				"store %s cannot be written (read-only file, directory or file system) while %s: "
+				"nothing was changed; read commands still work there",
+				db->path ? db->path : "?", what);
 	case SQLITE_NOTADB:
 		return db_error(db, HB_ERR_DB, "%s is not a henrybench store: %s",
 				db->path ? db->path : "?", msg);

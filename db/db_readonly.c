@@ -97,13 +97,16 @@ int db_open_readonly_conn(hb_db *db, const char *path)
 	 * file system cannot give. Immutable reads the store file alone, which
 	 * is the whole store when no journal is left beside it; nothing can be
 	 * writing it there (docs/store.md). */
-	if ((rc & 0xff) == SQLITE_CANTOPEN && !hb_db_store_writable(path) && !wal_has_content(path)) {
+	/* (SQLITE_READONLY_CANTINIT where the -shm cannot be made, SQLITE_CANTOPEN where the directory
+	 * cannot be written) */
+	bool no_shm = (rc & 0xff) == SQLITE_CANTOPEN || (rc & 0xff) == SQLITE_READONLY;
+	if (no_shm && !hb_db_store_writable(path) && !wal_has_content(path)) {
 		rc = open_uri(db, path, "immutable=1");
 		if (rc == SQLITE_OK) {
 			db->immutable = 1;
 			return HB_OK;
 		}
-	} else if ((rc & 0xff) == SQLITE_CANTOPEN && wal_has_content(path)) {
+	} else if (no_shm && wal_has_content(path)) {
 		return db_error(db, HB_ERR_DB,
 				"cannot read store %s: its journal %s-wal holds records not yet in the store and "
 				"the read-only location gives no %s-shm to read it with; copy the three files to a "

@@ -240,15 +240,17 @@ static void test_read_commands_on_readonly_fs(void **state)
 		mnt, src, mnt, mnt, mnt);
 	char dead[32];
 	snprintf(dead, sizeof dead, "%lld", dead_id);
-	for (int i = 0; i <= N_READ + 1; i++) {
+	for (int i = 0; i <= N_READ + 2; i++) {
 		fprintf(f, "'%s' --db '%s/bench.db'", bin, mnt);
 		if (i < N_READ)
 			for (int k = 0; k < 8 && read_cmds[i][k]; k++)
 				fprintf(f, " '%s'", read_cmds[i][k]);
 		else if (i == N_READ)
 			fprintf(f, " show %s", dead);
-		else
+		else if (i == N_READ + 1)
 			fprintf(f, " report 2 --out '%s'", ro_report);
+		else
+			fprintf(f, " part edit HBX-108G --desc 'edited where nothing can be written'");
 		fprintf(f, " >'%s/ro-%d.out' 2>'%s/ro-%d.err'; echo $? >'%s/ro-%d.rc'\n", tmpdir, i, tmpdir, i, tmpdir,
 			i);
 	}
@@ -316,6 +318,22 @@ static void test_read_commands_on_readonly_fs(void **state)
 		 mnt);
 	assert_true(strncmp(err, want, strlen(want)) == 0);
 	assert_int_not_equal(access(ro_report, F_OK), 0);
+	free(rc);
+	free(err);
+
+	/* a writing command: exit 1 and one line naming the store and why (not the library's words) */
+	snprintf(path, sizeof path, "%s/ro-%d.rc", tmpdir, N_READ + 2);
+	rc = slurp(path);
+	snprintf(path, sizeof path, "%s/ro-%d.err", tmpdir, N_READ + 2);
+	err = slurp(path);
+	assert_non_null(rc);
+	assert_non_null(err);
+	assert_string_equal(rc, "1\n");
+	snprintf(want, sizeof want, "store %s/bench.db cannot be written (read-only file, directory or file system)", mnt);
+	if (!strstr(err, want))
+		fprintf(stderr, "part edit on a read-only file system said: %s", err);
+	assert_non_null(strstr(err, want));
+	assert_null(strstr(err, "attempt to write"));
 	free(rc);
 	free(err);
 }
