@@ -447,6 +447,12 @@ static void test_compare_table(void **state)
 	assert_string_equal(t.cols[1].lot_code, "L3");
 	json_t *j = hb_compare_json(&t);
 	assert_int_equal(json_array_size(json_object_get(j, "sweeps")), 2);
+	/* each row names its sweep and unit by the identity the store gave them (RFC 9562 form) */
+	char want_uid[HB_DB_UID_LEN];
+	assert_int_equal(hb_db_uid_of(f->db, HB_DB_REC_SWEEP, ids[1], want_uid), HB_OK);
+	json_t *row1 = json_array_get(json_object_get(j, "sweeps"), 1);
+	assert_string_equal(json_string_value(json_object_get(row1, "sweep_uid")), want_uid);
+	assert_int_equal(strlen(json_string_value(json_object_get(row1, "unit_uid"))), 36);
 	assert_int_equal(json_array_size(json_object_get(j, "currents_A")), 7);
 	json_decref(j);
 	hb_compare_free(&t);

@@ -248,6 +248,21 @@ static void test_serials_file_checked(void **state)
 	run_free(&r);
 }
 
+/* A refused value is named in the message, but a terminal escape or a line break in it is shown, not
+ * obeyed: control characters come out as \xNN on one line (common practice: ECMA-48 ESC sequences
+ * are how a terminal is made to do things). */
+static void test_error_line_shows_controls(void **state)
+{
+	(void)state;
+	run r;
+	hb_run(&r, station_bare, "completion", "fi\033[2Jsh\nsecond", NULL);
+	assert_int_equal(r.status, 2);
+	assert_one_error_line(&r);
+	assert_null(strchr(r.err, '\033'));
+	assert_non_null(strstr(r.err, "'fi\\x1b[2Jsh\\x0asecond'"));
+	run_free(&r);
+}
+
 /* The store itself refuses a serial or lot code longer than the field it is
  * read back into, whoever calls it (a value cut on the way back is how
  * `sweeps --unit` once found nothing). */
@@ -402,6 +417,7 @@ int main(void)
 		cmocka_unit_test(test_text_check_messages),
 		cmocka_unit_test(test_text_corpus),
 		cmocka_unit_test(test_serials_file_checked),
+		cmocka_unit_test(test_error_line_shows_controls),
 		cmocka_unit_test(test_store_refuses_long_ids),
 		cmocka_unit_test(test_note_limit),
 		cmocka_unit_test(test_echoing_instrument),

@@ -10,14 +10,39 @@
 hb_global_opts hb_global;
 static FILE *trace_file_owned;
 
+/* A message names the value it refuses, and a value typed or read from a file may hold terminal
+ * escapes or line breaks: control characters (C0, DEL, C1 in UTF-8) go out as \xNN, so the
+ * message is one line and the terminal shows what was typed instead of obeying it. */
+static void put_visible(const char *s, FILE *out)
+{
+	for (const unsigned char *p = (const unsigned char *)s; *p; p++) {
+		if (*p < 0x20 || *p == 0x7f)
+			fprintf(out, "\\x%02x", *p);
+		else if (*p == 0xc2 && p[1] >= 0x80 && p[1] <= 0x9f)
+			fprintf(out, "\\u%04x", *++p);
+		else
+			fputc(*p, out);
+	}
+}
+
 void hb_cli_error(const char *fmt, ...)
 {
 	va_list ap;
 	va_start(ap, fmt);
-	fputs("henrybench: ", stderr);
-	vfprintf(stderr, fmt, ap);
-	fputc('\n', stderr);
+	char small[1024];
+	va_list again;
+	va_copy(again, ap);
+	int n = vsnprintf(small, sizeof small, fmt, ap);
+	/* a long message is formatted whole, never cut */
+	char *msg = n >= (int)sizeof small ? malloc((size_t)n + 1) : NULL;
+	if (msg)
+		vsnprintf(msg, (size_t)n + 1, fmt, again);
+	va_end(again);
 	va_end(ap);
+	fputs("henrybench: ", stderr);
+	put_visible(msg ? msg : small, stderr);
+	fputc('\n', stderr);
+	free(msg);
 }
 
 int hb_cli_global_option(const char *name, const char *value)

@@ -426,6 +426,11 @@ int hb_compare_load(hb_db *db, const int64_t *ids, size_t n, size_t n_currents, 
 			goto fail;
 		}
 		col->sweep_id = sw.id;
+		/* the identities name the sweep across stores and the server (local ids are one store's) */
+		if (hb_db_uid_of(db, HB_DB_REC_SWEEP, sw.id, col->sweep_uid) != HB_OK)
+			col->sweep_uid[0] = '\0';
+		if (!sw.unit_id || hb_db_uid_of(db, HB_DB_REC_UNIT, sw.unit_id, col->unit_uid) != HB_OK)
+			col->unit_uid[0] = '\0';
 		snprintf(col->part_number, sizeof col->part_number, "%s", sw.part_number);
 		snprintf(col->serial, sizeof col->serial, "%s", sw.serial);
 		snprintf(col->station, sizeof col->station, "%s", sw.station);
@@ -536,6 +541,8 @@ json_t *hb_compare_json(const hb_compare_table *t)
 		json_t *o = hb_json_unit_result(&r, t->drop_percent);
 		json_object_set_new(o, "part_number", json_string(c->part_number));
 		json_object_set_new(o, "status", json_string(c->status));
+		json_object_set_new(o, "sweep_uid", c->sweep_uid[0] ? json_string(c->sweep_uid) : json_null());
+		json_object_set_new(o, "unit_uid", c->unit_uid[0] ? json_string(c->unit_uid) : json_null());
 		json_t *l = json_array();
 		for (size_t k = 0; k < t->n_currents; k++)
 			json_array_append_new(l, hb_json_num(c->l_at[k]));

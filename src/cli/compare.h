@@ -17,6 +17,7 @@ enum { HB_COMPARE_MAX_CURRENTS = 16, HB_COMPARE_MAX_SWEEPS = 32 };
 
 typedef struct hb_compare_column {
 	int64_t sweep_id;
+	char sweep_uid[HB_DB_UID_LEN], unit_uid[HB_DB_UID_LEN]; /* global identities ("" if the store has none) */
 	char part_number[HB_DB_ID_LEN], serial[HB_DB_ID_LEN], lot_code[HB_DB_ID_LEN], station[HB_DB_ID_LEN];
 	char started_iso[HB_DB_TIME_LEN];
 	char status[16];
