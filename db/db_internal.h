@@ -168,7 +168,9 @@ int db_mirror_lot_code(hb_db *db, int64_t part_id, const char *lot_code);
 int db_mirror_units(hb_db *db, const int64_t *ids, size_t n);
 /* a sweep with its unit, part, lot, fits, verdicts, trace and number of points (not the points) */
 int db_mirror_sweeps(hb_db *db, const int64_t *ids, size_t n);
-/* the points of one sweep; those of the sweep copied before are dropped */
+/* the sweeps of a listing just read, in order: reading one of them later copies the next ones along */
+int db_mirror_hint(hb_db *db, const int64_t *ids, size_t n);
+/* the points of a sweep (with those of the listed sweeps after it, to a bound); those copied before are dropped */
 int db_mirror_points(hb_db *db, int64_t sweep_id);
 int db_mirror_lot_samples(hb_db *db, int64_t lot_id);
 /* the instrument register and the fixture compensations */

@@ -1,5 +1,6 @@
 /* db/db_pg_mirror.c - reads against a server: the records a read needs are copied by identity into the handle's in-memory store of a station's shape, where the station's own queries answer */
 #include <math.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -149,20 +150,26 @@ static const mirror_copy copies[C_COUNT] = {
 /* What has been copied, by kind and server id (a temp table of the copy). */
 enum mirror_kind { K_PART = 1, K_LOT, K_UNIT, K_SWEEP, K_LOT_SAMPLES, K_SWEEP_SAMPLES, K_REGISTER, K_ALL_PARTS };
 
-typedef struct db_mirror {
-	sqlite3_stmt *insert[C_COUNT];
-	sqlite3_stmt *mark;
-	sqlite3_stmt *evict;
-	int64_t points_of; /* the sweep whose points are in the copy (0: none) */
-	char **named;      /* the server statements prepared on this connection */
-	size_t n_named, cap_named;
-} db_mirror;
-
 /* A growing list of ids, also spelt as a PostgreSQL array literal for the queries above. */
 typedef struct id_list {
 	int64_t *ids;
 	size_t n, cap;
 } id_list;
+
+typedef struct db_mirror {
+	sqlite3_stmt *insert[C_COUNT];
+	sqlite3_stmt *mark;
+	sqlite3_stmt *evict;
+	sqlite3_stmt *count_of;
+	sqlite3_stmt *is_copied;
+	/* The sweeps of the last listing, in order (a history, a sweep list): a command that lists and then
+	 * reads each listed sweep gets them copied in chunks, not one round trip after another. */
+	id_list ahead;
+	id_list points; /* the sweeps whose points are in the copy */
+	char **named;      /* the server statements prepared on this connection */
+	size_t n_named, cap_named;
+} db_mirror;
+
 
 static int ids_add(hb_db *db, id_list *l, int64_t id)
 {
@@ -247,6 +254,10 @@ void db_mirror_detach(hb_db *db)
 		sqlite3_finalize(m->insert[i]);
 	sqlite3_finalize(m->mark);
 	sqlite3_finalize(m->evict);
+	sqlite3_finalize(m->count_of);
+	sqlite3_finalize(m->is_copied);
+	free(m->ahead.ids);
+	free(m->points.ids);
 	for (size_t i = 0; i < m->n_named; i++)
 		free(m->named[i]);
 	free(m->named);
@@ -367,6 +378,20 @@ static int not_yet(hb_db *db, enum mirror_kind kind, const int64_t *ids, size_t 
 	return status;
 }
 
+/* Whether the record was copied as kind (a read that asks for it again costs one lookup). */
+static bool copied(hb_db *db, enum mirror_kind kind, int64_t id)
+{
+	db_mirror *m = db->mirror;
+	sqlite3_stmt *st = prep(db, &m->is_copied, "SELECT 1 FROM temp.mirror_copied WHERE kind = ?1 AND id = ?2");
+	if (!st)
+		return false;
+	sqlite3_bind_int(st, 1, kind);
+	sqlite3_bind_int64(st, 2, id);
+	bool yes = sqlite3_step(st) == SQLITE_ROW;
+	db_release(st);
+	return yes;
+}
+
 static const int no_collect[2] = { -1, -1 };
 
 int db_mirror_parts(hb_db *db, const int64_t *ids, size_t n)
@@ -442,10 +467,44 @@ int db_mirror_register(hb_db *db)
 	return db->pg ? mirror_register(db) : HB_OK;
 }
 
+/* Where id stands in the last listing; SIZE_MAX if not there. */
+static size_t ahead_pos(const db_mirror *m, int64_t id)
+{
+	for (size_t i = 0; i < m->ahead.n; i++)
+		if (m->ahead.ids[i] == id)
+			return i;
+	return SIZE_MAX;
+}
+
+enum { AHEAD_SWEEPS = 256, AHEAD_POINTS_SWEEPS = 64, AHEAD_POINTS = 20000 };
+
+int db_mirror_hint(hb_db *db, const int64_t *ids, size_t n)
+{
+	if (!db->pg)
+		return HB_OK;
+	db_mirror *m = db->mirror;
+	m->ahead.n = 0;
+	int status = HB_OK;
+	for (size_t i = 0; i < n && status == HB_OK; i++)
+		status = ids_add(db, &m->ahead, ids[i]);
+	return status;
+}
+
 int db_mirror_sweeps(hb_db *db, const int64_t *ids, size_t n)
 {
 	if (!db->pg)
 		return HB_OK;
+	db_mirror *m = db->mirror;
+	/* one sweep asked for, most often one already copied */
+	if (n == 1 && copied(db, K_SWEEP, ids[0]))
+		return HB_OK;
+	/* one listed sweep asked for: the block of the listing it is in comes along */
+	size_t at = n == 1 ? ahead_pos(m, ids[0]) : SIZE_MAX;
+	if (at != SIZE_MAX) {
+		size_t first = at - at % AHEAD_SWEEPS;
+		ids = m->ahead.ids + first;
+		n = m->ahead.n - first < AHEAD_SWEEPS ? m->ahead.n - first : AHEAD_SWEEPS;
+	}
 	id_list todo = { 0 }, units = { 0 };
 	id_list *collect[2] = { &units, NULL };
 	const int cols[2] = { 1, -1 };
@@ -465,14 +524,30 @@ int db_mirror_sweeps(hb_db *db, const int64_t *ids, size_t n)
 	return status;
 }
 
+/* The number of points of a copied sweep (its count came with it); 0 if not known. */
+static long long points_counted(hb_db *db, int64_t sweep_id)
+{
+	db_mirror *m = db->mirror;
+	sqlite3_stmt *st = prep(db, &m->count_of, "SELECT n FROM temp.pg_point_counts WHERE sweep_id = ?1");
+	if (!st)
+		return 0;
+	sqlite3_bind_int64(st, 1, sweep_id);
+	long long n = sqlite3_step(st) == SQLITE_ROW ? sqlite3_column_int64(st, 0) : 0;
+	db_release(st);
+	return n;
+}
+
 int db_mirror_points(hb_db *db, int64_t sweep_id)
 {
 	if (!db->pg)
 		return HB_OK;
 	db_mirror *m = db->mirror;
-	if (m->points_of == sweep_id)
-		return HB_OK;
-	/* one sweep's points at a time: a part's export walks its sweeps at constant memory */
+	for (size_t i = 0; i < m->points.n; i++)
+		if (m->points.ids[i] == sweep_id)
+			return HB_OK;
+	/* The copy holds a bounded chunk of points: the sweep asked for and, when it was listed, the listed
+	 * sweeps after it up to AHEAD_POINTS points. An export or report of a part walks its sweeps at
+	 * constant memory in a few round trips. */
 	sqlite3_stmt *st = prep(db, &m->evict, "DELETE FROM points");
 	if (!st)
 		return HB_ERR_DB;
@@ -482,11 +557,26 @@ int db_mirror_points(hb_db *db, int64_t sweep_id)
 	db_release(st);
 	if (rc != SQLITE_DONE)
 		return db_error(db, HB_ERR_DB, "dropping copied points: %s", sqlite3_errmsg(db->conn));
-	m->points_of = 0;
-	id_list one = { &sweep_id, 1, 1 };
-	int status = copy_ids(db, C_POINTS, &one, no_collect, NULL);
+	m->points.n = 0;
+	int status = ids_add(db, &m->points, sweep_id);
+	/* the block of the listing the sweep is in (blocks of AHEAD_POINTS_SWEEPS, whichever way the
+	 * command walks the listing each block is fetched once), if its points fit the bound */
+	size_t at = ahead_pos(m, sweep_id);
+	if (at != SIZE_MAX) {
+		size_t first = at - at % AHEAD_POINTS_SWEEPS;
+		size_t end = m->ahead.n - first < AHEAD_POINTS_SWEEPS ? m->ahead.n : first + AHEAD_POINTS_SWEEPS;
+		long long total = 0;
+		for (size_t i = first; i < end && total <= AHEAD_POINTS; i++) {
+			long long more = points_counted(db, m->ahead.ids[i]);
+			total += more > 0 ? more : AHEAD_POINTS;
+		}
+		for (size_t i = first; total <= AHEAD_POINTS && i < end && status == HB_OK; i++)
+			status = ids_add(db, &m->points, m->ahead.ids[i]);
+	}
 	if (status == HB_OK)
-		m->points_of = sweep_id;
+		status = copy_ids(db, C_POINTS, &m->points, no_collect, NULL);
+	if (status < 0)
+		m->points.n = 0;
 	return status;
 }
 
@@ -649,6 +739,8 @@ int db_mirror_sweep_list(hb_db *db, const hb_db_sweep_filter *f)
 	int status = query_ids(db, "mirror_sweep_list",
 			       "SELECT s.id" SWEEP_FILTER_FROM " ORDER BY s.started_unix DESC, s.id DESC LIMIT $7::bigint", 7,
 			       p, &ids);
+	if (status == HB_OK)
+		status = db_mirror_hint(db, ids.ids, ids.n);
 	if (status == HB_OK)
 		status = db_mirror_sweeps(db, ids.ids, ids.n);
 	free(ids.ids);
