@@ -64,8 +64,10 @@ int hb_export_csv(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err,
 	char *prefix = NULL;
 	size_t prefix_len = 0;
 	FILE *pf = open_memstream(&prefix, &prefix_len);
-	if (!pf)
+	if (!pf) {
+		hb_set_err(err, errlen, "out of memory");
 		rc = HB_ERR_NOMEM;
+	}
 	for (size_t i = 0; i < n && rc == HB_OK; i++) {
 		hb_db_point *pts = NULL;
 		size_t np = 0;
@@ -84,6 +86,7 @@ int hb_export_csv(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err,
 		hb_csv_text(&pw, sw->measured_pair);
 		if (hb_csv_end(&pw) != HB_OK || fflush(pf) != 0) {
 			hb_db_points_free(pts);
+			hb_set_err(err, errlen, "out of memory");
 			rc = HB_ERR_NOMEM;
 			break;
 		}
