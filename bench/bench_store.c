@@ -279,6 +279,7 @@ int main(void)
 	const char *env = getenv("HB_BENCH_POINTS"), *kept = getenv("HB_BENCH_STORE");
 	const char *bin = getenv("HENRYBENCH_BIN") ? getenv("HENRYBENCH_BIN") : "./henrybench";
 	long points = env ? atol(env) : 10000000;
+	setvbuf(stdout, NULL, _IOLBF, 0); /* each line as it is measured, also into a file */
 	if (points < BIG_UNITS * POINTS_PER_SWEEP)
 		points = BIG_UNITS * POINTS_PER_SWEEP;
 	char dir[] = "/tmp/hb-bench-store.XXXXXX";
