@@ -770,6 +770,31 @@ int hb_db_batch_rollback(hb_db *db)
 	return HB_OK;
 }
 
+int hb_db_read_begin(hb_db *db)
+{
+	if (!db || !db->conn)
+		return HB_ERR_ARG;
+	/* Inside a batch or another transaction the reads already share one;
+	 * a server answers each read on its own. */
+	if (db->pg || db->read_txn || !sqlite3_get_autocommit(db->conn))
+		return HB_OK;
+	int rc = sqlite3_exec(db->conn, "BEGIN DEFERRED", NULL, NULL, NULL);
+	if (rc != SQLITE_OK)
+		return db_fail(db, rc, "starting a read");
+	db->read_txn = 1;
+	return HB_OK;
+}
+
+void hb_db_read_end(hb_db *db)
+{
+	if (!db || !db->read_txn)
+		return;
+	db->read_txn = 0;
+	/* nothing was written: ending it cannot lose anything */
+	if (!sqlite3_get_autocommit(db->conn))
+		sqlite3_exec(db->conn, "COMMIT", NULL, NULL, NULL);
+}
+
 /* ---------------- recovery ---------------- */
 
 /* Another station's host cannot be checked from here, so its sweeps stay

@@ -39,6 +39,7 @@ struct hb_db {
 	sqlite3_stmt *sweep_list[1 << DB_SWEEP_FILTERS];
 	sqlite3_stmt *sweep_count[1 << DB_SWEEP_FILTERS];
 	int batch;          /* inside hb_db_batch_begin */
+	int read_txn;       /* inside hb_db_read_begin */
 	int recovered;
 	int old_version;     /* opened at an older schema on purpose (migration tests): 0 = latest */
 	char host[HB_DB_ID_LEN];

@@ -60,6 +60,14 @@ int hb_db_batch_begin(hb_db *db);
 int hb_db_batch_commit(hb_db *db);
 int hb_db_batch_rollback(hb_db *db);
 
+/* Many reads as one: a read transaction from begin to end, so that a long
+ * export sees one state of the store and SQLite takes its locks and checks
+ * the file once, not at every query (the larger part of a small query's
+ * cost). Reads only in between. A no-op where reads already share a
+ * transaction, and against a server. */
+int hb_db_read_begin(hb_db *db);
+void hb_db_read_end(hb_db *db);
+
 /* Test hooks: open a store migrated only up to version (to test later
  * migrations), and cap the file size of this connection in pages
  * (to provoke a full disk). */

@@ -1,9 +1,10 @@
-/* src/io/csv_write.c - the one CSV writer: RFC 4180 quoting, CRLF rows, C-locale numbers that read back exactly */
+/* src/io/csv_write.c - the one CSV writer: RFC 4180 quoting, CRLF rows, numbers that read back exactly in any locale */
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
+#include "../../common/hb_dtoa.h"
 #include "../../common/hb_text.h"
 #include "io.h"
 
@@ -58,35 +59,45 @@ void hb_csv_text(hb_csv_writer *w, const char *s)
 
 char *hb_csv_format_num(char *buf, size_t cap, double v)
 {
-	if (!isfinite(v)) {
-		if (cap)
-			buf[0] = '\0';
-		return buf;
-	}
-	/* The fewest digits that read back as the same double: 0.1 stays 0.1,
-	 * and no value is rounded on its way to a spreadsheet. 17 always do. */
-	hb_c_numeric loc;
-	hb_c_numeric_enter(&loc);
-	for (int digits = 15; digits <= 17; digits++) {
-		snprintf(buf, cap, "%.*g", digits, v);
-		if (digits == 17 || strtod(buf, NULL) == v)
-			break;
-	}
-	hb_c_numeric_leave(&loc);
+	/* The fewest digits that read back as the same double (0.1 stays 0.1,
+	 * no value is rounded on its way to a spreadsheet), laid out as %.15g
+	 * (%.16g, %.17g when it takes those) would: exponent form below 1e-4
+	 * and from 1e15 up. */
+	char text[HB_DTOA_LEN];
+	if (!isfinite(v))
+		text[0] = '\0';
+	else
+		hb_dtoa_g(text, v, 15);
+	if (cap)
+		snprintf(buf, cap, "%s", text);
 	return buf;
 }
 
 void hb_csv_num(hb_csv_writer *w, double v)
 {
-	char buf[40];
-	separate(w);
-	fputs(hb_csv_format_num(buf, sizeof buf, v), w->out);
+	char buf[HB_DTOA_LEN + 1];
+	size_t n = 0;
+	if (w->col++ > 0)
+		buf[n++] = ',';
+	if (isfinite(v))
+		n += hb_dtoa_g(buf + n, v, 15);
+	fwrite(buf, 1, n, w->out);
 }
 
 void hb_csv_int(hb_csv_writer *w, long long v)
 {
-	separate(w);
-	fprintf(w->out, "%lld", v);
+	/* digits from the right; no printf: a row of an export has several */
+	char buf[24];
+	char *p = buf + sizeof buf;
+	unsigned long long u = v < 0 ? 0ull - (unsigned long long)v : (unsigned long long)v;
+	do
+		*--p = (char)('0' + u % 10);
+	while (u /= 10);
+	if (v < 0)
+		*--p = '-';
+	if (w->col++ > 0)
+		*--p = ',';
+	fwrite(p, 1, (size_t)(buf + sizeof buf - p), w->out);
 }
 
 void hb_csv_row_end(hb_csv_writer *w)

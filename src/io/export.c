@@ -25,7 +25,11 @@ int hb_export_csv(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err,
 		hb_set_err(err, errlen, "out of memory");
 		return HB_ERR_NOMEM;
 	}
-	int rc = HB_OK;
+	/* one read transaction: the export sees one state of the store, and
+	 * the per-query locking is done once */
+	int rc = hb_db_read_begin(db);
+	if (rc != HB_OK)
+		hb_set_err(err, errlen, "%s", hb_db_errmsg(db));
 	bool same_pair = true;
 	for (size_t i = 0; i < n && rc == HB_OK; i++) {
 		if ((rc = hb_db_sweep_get(db, ids[i], sw)) != HB_OK) {
@@ -38,6 +42,7 @@ int hb_export_csv(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err,
 			same_pair = false;
 	}
 	if (rc != HB_OK) {
+		hb_db_read_end(db);
 		free(sw);
 		return rc;
 	}
@@ -54,6 +59,15 @@ int hb_export_csv(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err,
 	for (size_t k = 0; k < sizeof tail / sizeof tail[0]; k++)
 		hb_csv_text(&w, tail[k]);
 	hb_csv_row_end(&w);
+	/* The sweep's own cells are the same on each of its rows: quoted once
+	 * per sweep by the same writer, into memory, and copied per row. */
+	char *prefix = NULL;
+	size_t prefix_len = 0;
+	FILE *pf = open_memstream(&prefix, &prefix_len);
+	if (!pf) {
+		hb_set_err(err, errlen, "out of memory");
+		rc = HB_ERR_NOMEM;
+	}
 	for (size_t i = 0; i < n && rc == HB_OK; i++) {
 		hb_db_point *pts = NULL;
 		size_t np = 0;
@@ -61,14 +75,26 @@ int hb_export_csv(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err,
 			hb_set_err(err, errlen, "sweep %lld: %s", (long long)ids[i], hb_db_errmsg(db));
 			break;
 		}
+		hb_csv_writer pw;
+		rewind(pf);
+		hb_csv_begin(&pw, pf);
+		hb_csv_int(&pw, sw->id);
+		hb_csv_text(&pw, hb_db_sweep_kind_name(sw->kind));
+		hb_csv_text(&pw, sw->part_number);
+		hb_csv_text(&pw, sw->serial);
+		hb_csv_text(&pw, sw->lot_code);
+		hb_csv_text(&pw, sw->measured_pair);
+		if (hb_csv_end(&pw) != HB_OK || fflush(pf) != 0) {
+			hb_db_points_free(pts);
+			hb_set_err(err, errlen, "out of memory");
+			rc = HB_ERR_NOMEM;
+			break;
+		}
+		size_t cells = (size_t)ftell(pf);
 		for (size_t k = 0; k < np; k++) {
 			const hb_db_point *p = &pts[k];
-			hb_csv_int(&w, sw->id);
-			hb_csv_text(&w, hb_db_sweep_kind_name(sw->kind));
-			hb_csv_text(&w, sw->part_number);
-			hb_csv_text(&w, sw->serial);
-			hb_csv_text(&w, sw->lot_code);
-			hb_csv_text(&w, sw->measured_pair);
+			fwrite(prefix, 1, cells, out);
+			w.col = 6;
 			hb_csv_int(&w, p->seq);
 			hb_csv_text(&w, p->direction == HB_DB_DIR_DOWN ? "down" : "up");
 			hb_csv_num(&w, p->bias_set_a);
@@ -85,6 +111,10 @@ int hb_export_csv(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err,
 		}
 		hb_db_points_free(pts);
 	}
+	if (pf)
+		fclose(pf);
+	free(prefix);
+	hb_db_read_end(db);
 	int wrc = hb_csv_end(&w);
 	free(sw);
 	if (rc == HB_OK && wrc != HB_OK) {
