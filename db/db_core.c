@@ -699,6 +699,10 @@ void hb_db_close(hb_db *db)
 		sqlite3_finalize(db->sweep_list[i]);
 		sqlite3_finalize(db->sweep_count[i]);
 	}
+	for (int i = 0; i < HB_DB_REC_COUNT; i++) {
+		sqlite3_finalize(db->uid_of[i]);
+		sqlite3_finalize(db->uid_find[i]);
+	}
 	/* the copy's statements go before the connection they were prepared on */
 	db_pg_detach(db);
 	if (db->conn && !sqlite3_get_autocommit(db->conn))

@@ -38,6 +38,8 @@ struct hb_db {
 	sqlite3_stmt *stmt[ST_COUNT];
 	sqlite3_stmt *sweep_list[1 << DB_SWEEP_FILTERS];
 	sqlite3_stmt *sweep_count[1 << DB_SWEEP_FILTERS];
+	/* hb_db_uid_of / hb_db_uid_find, one statement per kind of record (an export asks per sweep) */
+	sqlite3_stmt *uid_of[HB_DB_REC_COUNT], *uid_find[HB_DB_REC_COUNT];
 	int batch;          /* inside hb_db_batch_begin */
 	int read_txn;       /* inside hb_db_read_begin */
 	int recovered;

@@ -114,17 +114,6 @@ void db_login_name(char *buf, size_t cap)
 	snprintf(buf, cap, "%s", user);
 }
 
-static sqlite3_stmt *prepare_once(hb_db *db, const char *sql)
-{
-	sqlite3_stmt *st = NULL;
-	int rc = sqlite3_prepare_v2(db->conn, sql, -1, &st, NULL);
-	if (rc != SQLITE_OK) {
-		db_fail(db, rc, "preparing a query");
-		return NULL;
-	}
-	return st;
-}
-
 int hb_db_uid_of(hb_db *db, hb_db_record kind, int64_t id, char uid[HB_DB_UID_LEN])
 {
 	if (!db || !uid || (unsigned)kind >= HB_DB_REC_COUNT)
@@ -136,7 +125,7 @@ int hb_db_uid_of(hb_db *db, hb_db_record kind, int64_t id, char uid[HB_DB_UID_LE
 	char sql[200];
 	snprintf(sql, sizeof sql, "SELECT %s FROM %s WHERE %s = ?1", records[kind].column, records[kind].table,
 		 records[kind].key);
-	sqlite3_stmt *st = prepare_once(db, sql);
+	sqlite3_stmt *st = db_prepare_cached(db, &db->uid_of[kind], sql);
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, id);
@@ -148,7 +137,7 @@ int hb_db_uid_of(hb_db *db, hb_db_record kind, int64_t id, char uid[HB_DB_UID_LE
 		status = db_error(db, HB_ERR_NOTFOUND, "no %s %lld in %s", records[kind].name, (long long)id, db->path);
 	else
 		status = db_fail(db, rc, "reading an identity");
-	sqlite3_finalize(st);
+	db_release(st);
 	return status;
 }
 
@@ -168,7 +157,7 @@ int hb_db_uid_find(hb_db *db, hb_db_record kind, const char *uid, int64_t *id)
 	char sql[200];
 	snprintf(sql, sizeof sql, "SELECT %s FROM %s WHERE %s = ?1", records[kind].key, records[kind].table,
 		 records[kind].column);
-	sqlite3_stmt *st = prepare_once(db, sql);
+	sqlite3_stmt *st = db_prepare_cached(db, &db->uid_find[kind], sql);
 	if (!st)
 		return HB_ERR_DB;
 	db_bind_text(st, 1, low);
@@ -180,7 +169,7 @@ int hb_db_uid_find(hb_db *db, hb_db_record kind, const char *uid, int64_t *id)
 		status = db_error(db, HB_ERR_NOTFOUND, "no %s with identity %s in %s", records[kind].name, uid, db->path);
 	else
 		status = db_fail(db, rc, "looking up an identity");
-	sqlite3_finalize(st);
+	db_release(st);
 	return status;
 }
 

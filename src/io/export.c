@@ -133,11 +133,15 @@ static int put_value(FILE *out, const json_t *v, int indent)
 	if (!text)
 		return HB_ERR_NOMEM;
 	int rc = HB_OK;
-	for (const char *p = text; *p && rc == HB_OK; p++) {
-		if (fputc(*p, out) == EOF)
+	/* line by line: one write per line, not per character */
+	for (const char *p = text; *p && rc == HB_OK;) {
+		const char *nl = strchr(p, '\n');
+		size_t len = nl ? (size_t)(nl - p) + 1 : strlen(p);
+		if (fwrite(p, 1, len, out) != len)
 			rc = HB_ERR_IO;
-		if (*p == '\n' && fprintf(out, "%*s", indent, "") < 0)
+		else if (nl && fprintf(out, "%*s", indent, "") < 0)
 			rc = HB_ERR_IO;
+		p += len;
 	}
 	free(text);
 	return rc;
@@ -171,6 +175,12 @@ int hb_export_json(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err
 		hb_set_err(err, errlen, "out of memory");
 		rc = HB_ERR_NOMEM;
 		goto out;
+	}
+	/* one read transaction: the export sees one state of the store, and the per-query locking is
+	 * done once */
+	if ((rc = hb_db_read_begin(db)) != HB_OK) {
+		hb_set_err(err, errlen, "%s", hb_db_errmsg(db));
+		goto out_unlocked;
 	}
 	/* every sweep is found before a byte is written: a bad id fails the export whole */
 	for (size_t i = 0; i < n; i++) {
@@ -243,6 +253,8 @@ int hb_export_json(hb_db *db, const int64_t *ids, size_t n, FILE *out, char *err
 write_failed:
 	hb_set_err(err, errlen, rc == HB_ERR_NOMEM ? "out of memory" : "write failed");
 out:
+	hb_db_read_end(db);
+out_unlocked:
 	hb_c_numeric_leave(&loc);
 	free(part_ids);
 	return rc;
