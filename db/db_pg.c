@@ -140,10 +140,40 @@ static int pg_migrate(hb_db *db, PGconn *conn)
 	return status;
 }
 
+void hb_db_server_name(const char *url, char *out, size_t cap)
+{
+	char *err = NULL;
+	PQconninfoOption *opts = url ? PQconninfoParse(url, &err) : NULL;
+	const char *host = NULL, *dbname = NULL;
+	for (PQconninfoOption *o = opts; o && o->keyword; o++) {
+		if (strcmp(o->keyword, "host") == 0)
+			host = o->val;
+		else if (strcmp(o->keyword, "dbname") == 0)
+			dbname = o->val;
+	}
+	if (opts)
+		snprintf(out, cap, "host %s, database %s", host && *host ? host : "localhost",
+			 dbname && *dbname ? dbname : "(the user's)");
+	else
+		snprintf(out, cap, "a URL libpq cannot read");
+	PQconninfoFree(opts);
+	PQfreemem(err);
+}
+
+/* A server that does not answer must not hold a bench for the system's TCP timeout (minutes): 10 s
+ * unless the URL or PGCONNECT_TIMEOUT says otherwise (later keywords, the URL's, win). */
+static PGconn *connect_url(const char *url)
+{
+	const char *env = getenv("PGCONNECT_TIMEOUT");
+	const char *const keys[] = { "connect_timeout", "dbname", NULL };
+	const char *const vals[] = { env && *env ? env : "10", url, NULL };
+	return PQconnectdbParams(keys, vals, 1);
+}
+
 int db_pg_connect(hb_db *db, const char *url, char server_uid[HB_DB_UID_LEN], PGconn **out)
 {
 	*out = NULL;
-	PGconn *conn = PQconnectdb(url);
+	PGconn *conn = connect_url(url);
 	if (!conn)
 		return db_error(db, HB_ERR_NOMEM, "out of memory connecting to the server");
 	if (PQstatus(conn) != CONNECTION_OK) {
@@ -167,7 +197,8 @@ int db_pg_connect(hb_db *db, const char *url, char server_uid[HB_DB_UID_LEN], PG
 	if (status == HB_OK)
 		status = db_pg_exec(db, conn, "server_uid", 0, NULL, "reading the server's identity", &res);
 	if (status == HB_OK && PQntuples(res) != 1)
-		status = db_error(db, HB_ERR_DB, "the server at %s has no identity (hb_meta): not a henrybench store", url);
+		status = db_error(db, HB_ERR_DB, "the server (host %s, database %s) has no identity (hb_meta): not a henrybench store",
+				  PQhost(conn) ? PQhost(conn) : "?", PQdb(conn) ? PQdb(conn) : "?");
 	if (status == HB_OK)
 		snprintf(server_uid, HB_DB_UID_LEN, "%s", PQgetvalue(res, 0, 0));
 	PQclear(res);
@@ -186,10 +217,13 @@ int db_pg_connect(hb_db *db, const char *url, char server_uid[HB_DB_UID_LEN], PG
  * statement takes one array per column: $1 the records' identities, $2 = local column 0 of every row, ... */
 typedef struct push_child {
 	const char *local_sql;
-	const char *pg_sql;
+	const char *pg_sql;   /* NULL: the rows are the record's own, one array per column appended to the
+	                       * record's parameters (a drawing's curve mask travels with the drawing) */
 } push_child;
 
-enum { PUSH_ALWAYS = 1u, PUSH_MARK = 2u };
+/* PUSH_VER: the local query's last two columns are the record's key and its version (not sent); the
+ * record waits again once its version differs from the one noted when it was pushed (an edit). */
+enum { PUSH_ALWAYS = 1u, PUSH_MARK = 2u, PUSH_VER = 4u };
 
 /* A server table. The local query takes ?1 = the server's identity, ?2 = the batch size and ?3 = the
  * last local id sent; column 0 is the local id, columns 1.. are the server statement's $1.. (with
@@ -205,6 +239,8 @@ typedef struct push_table {
 } push_table;
 
 #define NOT_PUSHED(tbl, key) " NOT EXISTS (SELECT 1 FROM sync_pushed WHERE server = ?1 AND tbl = '" tbl "' AND uid = " key ")"
+#define NOT_PUSHED_VER(tbl, key, ver) " NOT EXISTS (SELECT 1 FROM sync_pushed WHERE server = ?1 AND tbl = '" tbl "'" \
+	" AND uid = " key " AND ver = " ver ")"
 #define PUSHED(tbl, key) " EXISTS (SELECT 1 FROM sync_pushed WHERE server = ?1 AND tbl = '" tbl "' AND uid = " key ")"
 #define SPEC_COLS "description, maker, nominal_h, tolerance, test_freq_hz, test_level, test_level_kind, sat_current_a, " \
 	"sat_drop, rated_current_a, dcr_max_ohm, turns, ae_m2, le_m, window_m, toroid_od_m, toroid_id_m, toroid_h_m, " \
@@ -218,14 +254,20 @@ typedef struct push_table {
 	"supply_accuracy_offset_a, supply_accuracy, station_decision_rule, station_guard_r"
 #define POINT_COLS "seq, bias_set_a, bias_meas_a, supply_v, freq_hz, primary_value, secondary_value, reading_status, " \
 	"t_s, settle_readings, settle_s, direction, bias_spread_a, settled"
+/* the register: the later calibration wins; on the same calibration date the later due date, then the
+ * greater certificate, then the greater accuracy texts: one order everywhere, so all converge */
+#define CAL_NEWER "(EXCLUDED.cal_date, EXCLUDED.due_date, EXCLUDED.certificate, EXCLUDED.accuracy," \
+	" EXCLUDED.accuracy_freq_above) > (instruments.cal_date, instruments.due_date, instruments.certificate," \
+	" instruments.accuracy, instruments.accuracy_freq_above)"
 #define LOT_COLS "lot_code, lot_size, aql, inspection_level, severity, decision, created, code_letter, sample_size, " \
 	"accept_number, reject_number, decided_at, supplier, production_irregular, decided_unix"
 
 static const push_table tables[] = {
 	/* a part's row is its current spec: the newest edit wins; every revision is kept beside it */
-	{ "parts", PUSH_ALWAYS | PUSH_MARK,
-	  "SELECT id, uid, part_number, " SPEC_COLS ", created, updated, decision_rule, guard_r, core_shape, core_dims, gap_at"
-	  " FROM parts WHERE id > ?3 AND ?1 IS NOT NULL ORDER BY id LIMIT ?2",
+	{ "parts", PUSH_MARK | PUSH_VER,
+	  "SELECT p.id, p.uid, p.part_number, " SPEC_COLS ", p.created, p.updated, p.decision_rule, p.guard_r, p.core_shape,"
+	  " p.core_dims, p.gap_at, p.uid, " DB_PG_PART_VER("p") " FROM parts p WHERE p.id > ?3 AND"
+	  NOT_PUSHED_VER("parts", "p.uid", DB_PG_PART_VER("p")) " ORDER BY p.id LIMIT ?2",
 	  "INSERT INTO parts (uid, part_number, " SPEC_COLS ", created, updated, decision_rule, guard_r, core_shape,"
 	  " core_dims, gap_at) VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18,"
 	  " $19, $20, $21, $22, $23, $24, $25, $26, $27, $28, $29)"
@@ -239,7 +281,7 @@ static const push_table tables[] = {
 	  " mu_i = EXCLUDED.mu_i, bsat_t = EXCLUDED.bsat_t, updated = EXCLUDED.updated,"
 	  " decision_rule = EXCLUDED.decision_rule, guard_r = EXCLUDED.guard_r, core_shape = EXCLUDED.core_shape,"
 	  " core_dims = EXCLUDED.core_dims, gap_at = EXCLUDED.gap_at WHERE EXCLUDED.updated > parts.updated",
-	  "SELECT count(*) FROM parts p WHERE" NOT_PUSHED("parts", "p.uid"), { { 0 } } },
+	  "SELECT count(*) FROM parts p WHERE" NOT_PUSHED_VER("parts", "p.uid", DB_PG_PART_VER("p")), { { 0 } } },
 	{ "spec_revisions", PUSH_MARK,
 	  "SELECT r.id, r.uid, p.uid, r.revision, r.created, r.description, r.maker, r.nominal_h, r.tolerance,"
 	  " r.test_freq_hz, r.test_level, r.test_level_kind, r.sat_current_a, r.sat_drop, r.rated_current_a,"
@@ -284,9 +326,11 @@ static const push_table tables[] = {
 	  " ON CONFLICT (uid) DO NOTHING",
 	  "SELECT count(*) FROM units u WHERE" NOT_PUSHED("units", "u.uid"), { { 0 } } },
 	/* the register: a later calibration (by its date) wins; the span seen is the union */
-	{ "instruments", PUSH_ALWAYS,
-	  "SELECT id, kind, maker, model, serial, firmware, first_seen, last_seen, accuracy, accuracy_freq_above,"
-	  " cal_date, due_date, certificate FROM instruments WHERE id > ?3 AND ?1 IS NOT NULL ORDER BY id LIMIT ?2",
+	{ "instruments", PUSH_MARK | PUSH_VER,
+	  "SELECT i.id, i.kind, i.maker, i.model, i.serial, i.firmware, i.first_seen, i.last_seen, i.accuracy,"
+	  " i.accuracy_freq_above, i.cal_date, i.due_date, i.certificate, " DB_PG_INSTR_KEY("i") ", " DB_PG_INSTR_VER("i")
+	  " FROM instruments i WHERE i.id > ?3 AND" NOT_PUSHED_VER("instruments", DB_PG_INSTR_KEY("i"), DB_PG_INSTR_VER("i"))
+	  " ORDER BY i.id LIMIT ?2",
 	  "INSERT INTO instruments (kind, maker, model, serial, firmware, first_seen, last_seen, accuracy,"
 	  " accuracy_freq_above, cal_date, due_date, certificate) VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11,"
 	  " $12) ON CONFLICT (maker, model, serial) DO UPDATE SET"
@@ -294,16 +338,35 @@ static const push_table tables[] = {
 	  " last_seen = GREATEST(instruments.last_seen, EXCLUDED.last_seen),"
 	  " firmware = CASE WHEN EXCLUDED.last_seen > instruments.last_seen THEN EXCLUDED.firmware"
 	  " ELSE instruments.firmware END,"
-	  " accuracy = CASE WHEN EXCLUDED.cal_date > instruments.cal_date THEN EXCLUDED.accuracy"
-	  " ELSE instruments.accuracy END,"
-	  " accuracy_freq_above = CASE WHEN EXCLUDED.cal_date > instruments.cal_date THEN EXCLUDED.accuracy_freq_above"
+	  " accuracy = CASE WHEN " CAL_NEWER " THEN EXCLUDED.accuracy ELSE instruments.accuracy END,"
+	  " accuracy_freq_above = CASE WHEN " CAL_NEWER " THEN EXCLUDED.accuracy_freq_above"
 	  " ELSE instruments.accuracy_freq_above END,"
-	  " due_date = CASE WHEN EXCLUDED.cal_date > instruments.cal_date THEN EXCLUDED.due_date"
-	  " ELSE instruments.due_date END,"
-	  " certificate = CASE WHEN EXCLUDED.cal_date > instruments.cal_date THEN EXCLUDED.certificate"
-	  " ELSE instruments.certificate END,"
-	  " cal_date = GREATEST(instruments.cal_date, EXCLUDED.cal_date)",
-	  NULL, { { 0 } } },
+	  " due_date = CASE WHEN " CAL_NEWER " THEN EXCLUDED.due_date ELSE instruments.due_date END,"
+	  " certificate = CASE WHEN " CAL_NEWER " THEN EXCLUDED.certificate ELSE instruments.certificate END,"
+	  " cal_date = CASE WHEN " CAL_NEWER " THEN EXCLUDED.cal_date ELSE instruments.cal_date END",
+	  "SELECT count(*) FROM instruments i WHERE" NOT_PUSHED_VER("instruments", DB_PG_INSTR_KEY("i"),
+	  DB_PG_INSTR_VER("i")), { { 0 } } },
+	/* a part's drawing with its curve mask, whole: the newest drawing (by its time) wins */
+	{ "part_drawing", PUSH_MARK | PUSH_VER,
+	  "SELECT d.part_id, p.uid, d.gap_m, d.gap_tol_m, d.curve_tol, d.curve_source, d.updated, p.uid, "
+	  DB_PG_DRAWING_VER("d") " FROM part_drawing d JOIN parts p ON p.id = d.part_id WHERE d.part_id > ?3 AND"
+	  NOT_PUSHED_VER("part_drawing", "p.uid", DB_PG_DRAWING_VER("d")) " ORDER BY d.part_id LIMIT ?2",
+	  "WITH d AS (INSERT INTO part_drawing (part_uid, gap_m, gap_tol_m, curve_tol, curve_source, updated)"
+	  " VALUES ($1, $2, $3, $4, $5, $6) ON CONFLICT (part_uid) DO UPDATE SET gap_m = EXCLUDED.gap_m,"
+	  " gap_tol_m = EXCLUDED.gap_tol_m, curve_tol = EXCLUDED.curve_tol, curve_source = EXCLUDED.curve_source,"
+	  " updated = EXCLUDED.updated WHERE EXCLUDED.updated > part_drawing.updated RETURNING part_uid),"
+	  /* the winning drawing's mask replaces the old one: rows past its length go, the rest are
+	   * written over (one statement never touches a row twice) */
+	  " gone AS (DELETE FROM part_curve_mask WHERE part_uid IN (SELECT part_uid FROM d)"
+	  " AND ord >= coalesce(cardinality($7::float8[]), 0))"
+	  " INSERT INTO part_curve_mask (part_uid, ord, current_a, inductance_h, tol)"
+	  " SELECT d.part_uid, m.ord - 1, m.c, m.l, m.t FROM d CROSS JOIN"
+	  " unnest($7::float8[], $8::float8[], $9::float8[]) WITH ORDINALITY AS m (c, l, t, ord)"
+	  " ON CONFLICT (part_uid, ord) DO UPDATE SET current_a = EXCLUDED.current_a,"
+	  " inductance_h = EXCLUDED.inductance_h, tol = EXCLUDED.tol",
+	  "SELECT count(*) FROM part_drawing d JOIN parts p ON p.id = d.part_id WHERE"
+	  NOT_PUSHED_VER("part_drawing", "p.uid", DB_PG_DRAWING_VER("d")),
+	  { { "SELECT current_a, inductance_h, tol FROM part_curve_mask WHERE part_id = ?1 ORDER BY ord", NULL } } },
 	{ "fixture_compensations", PUSH_ALWAYS,
 	  "SELECT c.id, c.fixture, c.kind, c.method, i.maker, i.model, i.serial, c.at, c.at_unix, c.residuals, c.operator,"
 	  " c.note FROM fixture_compensations c LEFT JOIN instruments i ON i.id = c.instrument_id"
@@ -583,19 +646,55 @@ static int acc_send(hb_db *db, PGconn *conn, child_acc *a, const char *name, int
 	return status;
 }
 
-/* Notes the batch's identities as on the server; a crash before this only means they are sent again. */
-static int mark_pushed(hb_db *db, const char *server, const char *tbl, char **keys, int n)
+/* The rows of one record's inline child as one array literal per column, appended at out (*np counts). */
+static int inline_arrays(hb_db *db, sqlite3_stmt *st, long long local_id, char **out, int *np)
+{
+	int ncol = sqlite3_column_count(st);
+	sbuf *arr = calloc((size_t)ncol, sizeof *arr);
+	int status = arr ? HB_OK : HB_ERR_NOMEM;
+	for (int k = 0; status == HB_OK && k < ncol; k++)
+		status = sb_put(&arr[k], "{", 1);
+	sqlite3_reset(st);
+	sqlite3_bind_int64(st, 1, local_id);
+	int rc = SQLITE_OK;
+	while (status == HB_OK && (rc = sqlite3_step(st)) == SQLITE_ROW)
+		for (int k = 0; status == HB_OK && k < ncol; k++)
+			status = sb_element(&arr[k], st, k);
+	sqlite3_reset(st);
+	for (int k = 0; status == HB_OK && k < ncol; k++)
+		status = sb_put(&arr[k], "}", 1);
+	for (int k = 0; arr && k < ncol; k++) {
+		if (status == HB_OK)
+			out[k] = arr[k].s;
+		else
+			free(arr[k].s);
+	}
+	free(arr);
+	if (status != HB_OK)
+		return db_error(db, HB_ERR_NOMEM, "out of memory pushing records");
+	if (rc != SQLITE_DONE)
+		return db_fail(db, rc, "reading records to push");
+	*np += ncol;
+	return HB_OK;
+}
+
+/* Notes the batch's identities (with the versions sent) as on the server; a crash before this only
+ * means they are sent again. An edit made while the batch travelled has another version: it waits. */
+static int mark_pushed(hb_db *db, const char *server, const char *tbl, char **keys, char **vers, int n)
 {
 	int status = db_write_begin(db, "noting what the server holds");
 	if (status < 0)
 		return status;
 	sqlite3_stmt *st = NULL;
-	int rc = sqlite3_prepare_v2(db->conn, "INSERT OR IGNORE INTO sync_pushed (server, tbl, uid) VALUES (?1, ?2, ?3)",
+	int rc = sqlite3_prepare_v2(db->conn,
+				    "INSERT INTO sync_pushed (server, tbl, uid, ver) VALUES (?1, ?2, ?3, coalesce(?4, ''))"
+				    " ON CONFLICT (server, tbl, uid) DO UPDATE SET ver = excluded.ver",
 				    -1, &st, NULL);
 	for (int i = 0; rc == SQLITE_OK && i < n; i++) {
 		sqlite3_bind_text(st, 1, server, -1, SQLITE_STATIC);
 		sqlite3_bind_text(st, 2, tbl, -1, SQLITE_STATIC);
 		sqlite3_bind_text(st, 3, keys[i], -1, SQLITE_STATIC);
+		sqlite3_bind_text(st, 4, vers[i], -1, SQLITE_STATIC);
 		rc = sqlite3_step(st);
 		rc = rc == SQLITE_DONE ? SQLITE_OK : rc;
 		sqlite3_reset(st);
@@ -632,9 +731,17 @@ static int push_table_rows(hb_db *db, PGconn *conn, int ti, const char *server, 
 		rc = sqlite3_prepare_v2(db->conn, t->children[c].local_sql, -1, &child[c], NULL);
 	int status = rc == SQLITE_OK ? HB_OK : db_fail(db, rc, "reading records to push");
 	int ncol = st ? sqlite3_column_count(st) : 0;
-	char **vals = calloc((size_t)ncol + 1, sizeof *vals);
+	/* the server statement's parameters: columns 1.. of the local query (less key and version), then
+	 * one array per column of an inline child */
+	int nparam = ncol - 1 - ((t->flags & PUSH_VER) ? 2 : 0);
+	int nextra = 0;
+	for (int c = 0; c < 2 && child[c]; c++)
+		if (!t->children[c].pg_sql)
+			nextra += sqlite3_column_count(child[c]);
+	char **vals = calloc((size_t)ncol + (size_t)nextra + 1, sizeof *vals);
 	char **keys = calloc(PUSH_BATCH, sizeof *keys);
-	if (status == HB_OK && (!vals || !keys))
+	char **vers = calloc(PUSH_BATCH, sizeof *vers);
+	if (status == HB_OK && (!vals || !keys || !vers))
 		status = db_error(db, HB_ERR_NOMEM, "out of memory pushing records");
 	long long after = 0;
 	while (status == HB_OK) {
@@ -653,17 +760,28 @@ static int push_table_rows(hb_db *db, PGconn *conn, int ti, const char *server, 
 			after = sqlite3_column_int64(st, 0);
 			for (int k = 1; k < ncol; k++)
 				vals[k - 1] = col_text(st, k);
-			status = pipe_send(db, conn, name, ncol - 1, (const char *const *)vals, &sent);
+			if (t->flags & PUSH_VER) {
+				keys[n] = vals[nparam];
+				vers[n] = vals[nparam + 1];
+				vals[nparam] = vals[nparam + 1] = NULL;
+			} else if (t->flags & PUSH_MARK) {
+				keys[n] = vals[0] ? strdup(vals[0]) : NULL;
+				if (vals[0] && !keys[n])
+					status = db_error(db, HB_ERR_NOMEM, "out of memory pushing records");
+			}
+			int np = nparam;
+			for (int c = 0; status == HB_OK && c < 2 && child[c]; c++)
+				if (!t->children[c].pg_sql)
+					status = inline_arrays(db, child[c], after, vals + np, &np);
+			if (status == HB_OK)
+				status = pipe_send(db, conn, name, np, (const char *const *)vals, &sent);
 			for (int c = 0; status == HB_OK && c < 2 && child[c]; c++) {
 				long long ignored = 0;
-				status = acc_add(db, &acc[c], child[c], after, vals[0],
-						 c == 0 && strcmp(t->name, "sweeps") == 0 ? &stats->points : &ignored);
+				if (t->children[c].pg_sql)
+					status = acc_add(db, &acc[c], child[c], after, vals[0],
+							 c == 0 && strcmp(t->name, "sweeps") == 0 ? &stats->points : &ignored);
 			}
-			if (t->flags & PUSH_MARK) {
-				keys[n] = vals[0];
-				vals[0] = NULL;
-			}
-			for (int k = 0; k < ncol - 1; k++) {
+			for (int k = 0; k < ncol - 1 + nextra; k++) {
 				free(vals[k]);
 				vals[k] = NULL;
 			}
@@ -672,7 +790,7 @@ static int push_table_rows(hb_db *db, PGconn *conn, int ti, const char *server, 
 		if (status == HB_OK && rc != SQLITE_DONE)
 			status = db_fail(db, rc, "reading records to push");
 		sqlite3_reset(st);
-		for (int c = 0; status == HB_OK && c < 2 && child[c]; c++) {
+		for (int c = 0; status == HB_OK && c < 2 && child[c] && t->children[c].pg_sql; c++) {
 			char cname[32];
 			snprintf(cname, sizeof cname, "t%dc%d", ti, c);
 			status = acc_send(db, conn, &acc[c], cname, &sent);
@@ -694,16 +812,18 @@ static int push_table_rows(hb_db *db, PGconn *conn, int ti, const char *server, 
 						  "push stopped after the batch the test hook HB_SYNC_FAIL_AFTER named");
 		}
 		if (status == HB_OK && (t->flags & PUSH_MARK) && n > 0)
-			status = mark_pushed(db, server, t->name, keys, n);
-		for (int i = 0; i < PUSH_BATCH && keys; i++) {
+			status = mark_pushed(db, server, t->name, keys, vers, n);
+		for (int i = 0; i < PUSH_BATCH && keys && vers; i++) {
 			free(keys[i]);
-			keys[i] = NULL;
+			free(vers[i]);
+			keys[i] = vers[i] = NULL;
 		}
 		if (n < PUSH_BATCH)
 			break;
 	}
 	free(vals);
 	free(keys);
+	free(vers);
 	sqlite3_finalize(st);
 	sqlite3_finalize(child[0]);
 	sqlite3_finalize(child[1]);
@@ -726,7 +846,7 @@ static int prepare_push(hb_db *db, PGconn *conn)
 		char name[32];
 		snprintf(name, sizeof name, "t%d", i);
 		status = db_pg_prepare(db, conn, name, tables[i].pg_sql, "preparing the push");
-		for (int c = 0; status == HB_OK && c < 2 && tables[i].children[c].local_sql; c++) {
+		for (int c = 0; status == HB_OK && c < 2 && tables[i].children[c].pg_sql; c++) {
 			snprintf(name, sizeof name, "t%dc%d", i, c);
 			status = db_pg_prepare(db, conn, name, tables[i].children[c].pg_sql, "preparing the push");
 		}

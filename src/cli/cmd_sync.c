@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "../../db/hb_db.h"
+#include "../bench/station.h"
 #include "cli.h"
 
 typedef struct sync_args {
@@ -16,7 +17,7 @@ typedef struct sync_args {
 
 static const hb_opt sync_table[] = {
 	{ .name = "server", .kind = HB_OPT_TEXT, .arg = "URL", .off = offsetof(sync_args, server),
-	  .help = "the shared server, a PostgreSQL URL (default: $HENRYBENCH_SERVER)" },
+	  .help = "the shared server, a PostgreSQL URL (default: $HENRYBENCH_SERVER, else [store] server of the station file)" },
 	{ .name = "status", .kind = HB_OPT_FLAG, .off = offsetof(sync_args, status),
 	  .help = "only say what waits to be pushed (counts per table), change nothing" },
 	{ .name = "push-only", .kind = HB_OPT_FLAG, .off = offsetof(sync_args, push_only),
@@ -80,6 +81,8 @@ static void print_pull(const hb_db_sync_stats *s)
 	       s->pulled_parts, s->pulled_parts == 1 ? "" : "s", s->pulled_revisions, s->pulled_revisions == 1 ? "" : "s",
 	       s->pulled_instruments, s->pulled_instruments == 1 ? "" : "s", s->updated_instruments,
 	       s->updated_instruments == 1 ? "" : "s");
+	if (s->pulled_drawings > 0)
+		printf("pulled: %lld part drawing%s (with curve masks)\n", s->pulled_drawings, s->pulled_drawings == 1 ? "" : "s");
 	if (s->conflicts > 0)
 		printf("note: %lld part number%s of the server held here under another identity: this store keeps its own"
 		       " record (the server keeps both)\n",
@@ -94,10 +97,17 @@ int hb_cmd_sync(int argc, char **argv)
 		return HB_EXIT_USAGE;
 	if (res.done)
 		return HB_EXIT_OK;
-	const char *url = a.server ? a.server : getenv("HENRYBENCH_SERVER");
-	if (!url || !*url) {
-		hb_cli_error("sync: no server named: give --server URL or set HENRYBENCH_SERVER "
-			     "(e.g. postgresql:///henrybench?host=/var/run/postgresql)");
+	/* command line > environment > station file */
+	hb_station station;
+	char err[600];
+	if (hb_station_read(&station, err, sizeof err) != HB_OK) {
+		hb_cli_error("%s", err);
+		return HB_EXIT_USAGE;
+	}
+	const char *url = hb_cli_server_url(a.server, &station);
+	if (!url) {
+		hb_cli_error("sync: no server named: give --server URL, set HENRYBENCH_SERVER or [store] server in the "
+			     "station file (e.g. postgresql:///henrybench?host=/var/run/postgresql)");
 		return HB_EXIT_USAGE;
 	}
 	int code = HB_EXIT_OK;
