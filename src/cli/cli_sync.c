@@ -37,9 +37,12 @@ bool hb_cli_sync_after(struct hb_db *db, const struct hb_station *station, FILE 
 	hb_db_server_name(url, name, sizeof name);
 	hb_db_sync_stats stats;
 	if (hb_db_sync_push(db, url, &stats) != HB_OK) {
-		hb_cli_error("warning: sync after sweep to the server (%s) failed: %s; the records stay here and wait "
-			     "for the next sync (henrybench sync --status)",
-			     name, hb_db_errmsg(db));
+		/* a connection failure already names the server by host and database */
+		const char *msg = hb_db_errmsg(db);
+		bool named = strstr(msg, "(host ") != NULL;
+		hb_cli_error("warning: sync after sweep%s%s%s failed: %s; the records stay here and wait for the next "
+			     "sync (henrybench sync --status)",
+			     named ? "" : " to the server (", named ? "" : name, named ? "" : ")", msg);
 		return false;
 	}
 	long long sweeps = 0;
