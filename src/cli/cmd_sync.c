@@ -29,14 +29,17 @@ const hb_cmd_opts hb_opts_sync = {
 	.name = "sync",
 	.usage = "[--server URL] [--status] [--push-only]",
 	.about = "\nPushes every finished record of this station's store that the shared server lacks (parts and\n"
-		 "spec revisions, lots and their decisions, units, the instrument register, fixture\n"
-		 "compensations, sweeps with their points, fits, verdicts, inspections, filed reports' hashes),\n"
-		 "in batches of one server transaction each, then pulls the parts, spec revisions and\n"
-		 "instruments other stations added. Records travel by their global identity: a sync can be\n"
-		 "repeated or rerun after any interruption and nothing is sent twice. Running sweeps wait\n"
-		 "until they end. The server's tables are created on first contact.\n"
+		 "spec revisions, part drawings and curve masks, lots and their decisions, units, the\n"
+		 "instrument register, fixture compensations, sweeps with their points, fits, verdicts,\n"
+		 "inspections, filed reports' hashes), in batches of one server transaction each, then pulls\n"
+		 "the parts, spec revisions, drawings and instruments other stations added or changed. Records\n"
+		 "travel by their global identity: a sync can be repeated or rerun after any interruption and\n"
+		 "nothing is sent twice; a part, instrument or drawing edited after its push waits again.\n"
+		 "Running sweeps wait until they end. The server's tables are created on first contact.\n"
 		 "URL: postgresql://USER@HOST/DATABASE, or postgresql:///DATABASE?host=/socket/dir for a\n"
-		 "local socket (docs/store.md, \"Many stations\").\n",
+		 "local socket; --server, else $HENRYBENCH_SERVER, else [store] server of the station file,\n"
+		 "whose sync = after-sweep also pushes after every stored sweep (docs/store.md, \"Many\n"
+		 "stations\").\n",
 	.opts = sync_table,
 	.max_operands = 0,
 };
