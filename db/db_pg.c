@@ -1,5 +1,7 @@
 /* db/db_pg.c - many stations, one server: connecting to the shared PostgreSQL store, its migrations, and pushing what the server lacks */
 #include <errno.h>
+#include <stdbool.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -219,6 +221,9 @@ typedef struct push_child {
 	const char *local_sql;
 	const char *pg_sql;   /* NULL: the rows are the record's own, one array per column appended to the
 	                       * record's parameters (a drawing's curve mask travels with the drawing) */
+	const char *bin;      /* non-NULL: the arrays go in PostgreSQL's binary format, one letter per array
+	                       * (t text, b bigint, f float8; the first is the identity): no number is
+	                       * printed here nor parsed there, and a double arrives bit for bit */
 } push_child;
 
 /* PUSH_VER: the local query's last two columns are the record's key and its version (not sent); the
@@ -368,7 +373,7 @@ static const push_table tables[] = {
 	  " inductance_h = EXCLUDED.inductance_h, tol = EXCLUDED.tol",
 	  "SELECT count(*) FROM part_drawing d JOIN parts p ON p.id = d.part_id WHERE"
 	  NOT_PUSHED_VER("part_drawing", "p.uid", DB_PG_DRAWING_VER("d")),
-	  { { "SELECT current_a, inductance_h, tol FROM part_curve_mask WHERE part_id = ?1 ORDER BY ord", NULL } } },
+	  { { "SELECT current_a, inductance_h, tol FROM part_curve_mask WHERE part_id = ?1 ORDER BY ord", NULL, NULL } } },
 	{ "fixture_compensations", PUSH_ALWAYS,
 	  "SELECT c.id, c.fixture, c.kind, c.method, i.maker, i.model, i.serial, c.at, c.at_unix, c.residuals, c.operator,"
 	  " c.note FROM fixture_compensations c LEFT JOIN instruments i ON i.id = c.instrument_id"
@@ -398,7 +403,7 @@ static const push_table tables[] = {
 	      " p.direction, p.bias_spread_a, p.settled FROM unnest($1::text[], $2::bigint[], $3::float8[],"
 	      " $4::float8[], $5::float8[], $6::float8[], $7::float8[], $8::float8[], $9::bigint[], $10::float8[],"
 	      " $11::bigint[], $12::float8[], $13::text[], $14::float8[], $15::bigint[]) AS p (sweep_uid, " POINT_COLS
-	      ") JOIN sweeps s ON s.uid = p.sweep_uid ON CONFLICT DO NOTHING" },
+	      ") JOIN sweeps s ON s.uid = p.sweep_uid ON CONFLICT DO NOTHING", "tbffffffbfbftfb" },
 	    { "SELECT li.maker, li.model, li.serial, si.maker, si.model, si.serial, t.cal_status, t.overdue_allowed,"
 	      " t.fixture, oc.fixture, oc.kind, oc.at_unix, sc.fixture, sc.kind, sc.at_unix, t.fixture_status,"
 	      " t.fixture_applied, t.settings_start, t.settings_end, t.settings_changed FROM sweep_trace t"
@@ -416,7 +421,7 @@ static const push_table tables[] = {
 	      " $5::text[], $6::text[], $7::text[], $8::text[], $9::bigint[], $10::text[], $11::text[], $12::text[],"
 	      " $13::float8[], $14::text[], $15::text[], $16::float8[], $17::text[], $18::bigint[], $19::text[],"
 	      " $20::text[], $21::text[]) AS a (sw, lm, lo, ls, sm, so, ss, cs, oa, fx, of, ok, ou, sf, sk, su, fs, fa, st,"
-	      " se, sc) ON CONFLICT DO NOTHING" } } },
+	      " se, sc) ON CONFLICT DO NOTHING", NULL } } },
 	{ "fits", PUSH_MARK | PUSH_ARRAY,
 	  "SELECT f.id, f.uid, s.uid, f.model, f.law, f.code_version, f.created, f.rss, f.dof, f.aic, f.covariance,"
 	  " f.flags FROM fits f JOIN sweeps s ON s.id = f.sweep_id WHERE f.id > ?3 AND" NOT_PUSHED("fits", "f.uid")
@@ -428,11 +433,11 @@ static const push_table tables[] = {
 	  NOT_PUSHED("fits", "f.uid"),
 	  { { "SELECT ord, name, value, std_error, unit FROM fit_values WHERE fit_id = ?1 ORDER BY ord, name",
 	      "INSERT INTO fit_values (fit_uid, ord, name, value, std_error, unit) SELECT * FROM unnest($1::text[], $2::bigint[],"
-	      " $3::text[], $4::float8[], $5::float8[], $6::text[]) ON CONFLICT DO NOTHING" },
+	      " $3::text[], $4::float8[], $5::float8[], $6::text[]) ON CONFLICT DO NOTHING", NULL },
 	    { "SELECT name, value, u_c, dof, k, U, budget, note FROM fit_uncertainty WHERE fit_id = ?1 ORDER BY name",
 	      "INSERT INTO fit_uncertainty (fit_uid, name, value, u_c, dof, k, \"U\", budget, note) SELECT *"
 	      " FROM unnest($1::text[], $2::text[], $3::float8[], $4::float8[], $5::float8[], $6::float8[], $7::float8[],"
-	      " $8::text[], $9::text[]) ON CONFLICT DO NOTHING" } } },
+	      " $8::text[], $9::text[]) ON CONFLICT DO NOTHING", NULL } } },
 	{ "verdicts", PUSH_MARK,
 	  "SELECT v.id, v.uid, s.uid, v.check_name, v.measured, v.limit_low, v.limit_high, v.margin, v.outcome, v.note,"
 	  " v.created, v.decision_rule, v.guard_r, v.expanded_u, v.coverage_k, v.accept_low, v.accept_high,"
@@ -463,7 +468,7 @@ static const push_table tables[] = {
 	  "SELECT count(*) FROM reports r WHERE" NOT_PUSHED("reports", "r.uid"),
 	  { { "SELECT s.uid FROM report_sweeps rs JOIN sweeps s ON s.id = rs.sweep_id WHERE rs.report_id = ?1",
 	      "INSERT INTO report_sweeps (report_uid, sweep_uid) SELECT * FROM unnest($1::text[], $2::text[])"
-	      " ON CONFLICT DO NOTHING" } } },
+	      " ON CONFLICT DO NOTHING", NULL } } },
 };
 enum { N_TABLES = sizeof tables / sizeof tables[0] };
 
@@ -567,6 +572,8 @@ typedef struct child_acc {
 	sbuf *arr;
 	int ncol;         /* columns of the local query; arrays: ncol + 1 */
 	long long rows;
+	const char *bin;  /* binary arrays (push_child.bin), else text literals */
+	bool *nulls;      /* binary: the array holds a NULL */
 } child_acc;
 
 static void acc_reset(child_acc *a)
@@ -575,6 +582,8 @@ static void acc_reset(child_acc *a)
 		a->arr[k].len = 0;
 		if (a->arr[k].s)
 			a->arr[k].s[0] = '\0';
+		if (a->nulls)
+			a->nulls[k] = false;
 	}
 	a->rows = 0;
 }
@@ -584,7 +593,72 @@ static void acc_free(child_acc *a)
 	for (int k = 0; a->arr && k <= a->ncol; k++)
 		free(a->arr[k].s);
 	free(a->arr);
+	free(a->nulls);
 	a->arr = NULL;
+	a->nulls = NULL;
+}
+
+/* Network byte order (PostgreSQL's binary formats). */
+static int sb_u32(sbuf *b, uint32_t v)
+{
+	unsigned char x[4] = { (unsigned char)(v >> 24), (unsigned char)(v >> 16), (unsigned char)(v >> 8),
+			       (unsigned char)v };
+	return sb_put(b, (const char *)x, 4);
+}
+
+static int sb_u64(sbuf *b, uint64_t v)
+{
+	int status = sb_u32(b, (uint32_t)(v >> 32));
+	return status == HB_OK ? sb_u32(b, (uint32_t)v) : status;
+}
+
+/* One element of a binary array: its length (-1: NULL), then its bytes. The array's header (one
+ * dimension, the NULL flag, the element type, length, lower bound 1: 20 bytes) is written by acc_send
+ * in the space kept at the start. */
+static int bin_element(child_acc *a, int k, char type, sqlite3_stmt *st, int col, const char *text)
+{
+	sbuf *b = &a->arr[k];
+	int status = HB_OK;
+	if (b->len == 0)
+		status = sb_put(b, "\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0\0", 20);
+	if (status != HB_OK)
+		return status;
+	if (!text && sqlite3_column_type(st, col) == SQLITE_NULL) {
+		a->nulls[k] = true;
+		return sb_u32(b, 0xffffffffu);
+	}
+	if (type == 'f') {
+		double d = sqlite3_column_double(st, col);
+		uint64_t u;
+		memcpy(&u, &d, sizeof u);
+		status = sb_u32(b, 8);
+		return status == HB_OK ? sb_u64(b, u) : status;
+	}
+	if (type == 'b') {
+		status = sb_u32(b, 8);
+		return status == HB_OK ? sb_u64(b, (uint64_t)sqlite3_column_int64(st, col)) : status;
+	}
+	if (!text)
+		text = (const char *)sqlite3_column_text(st, col);
+	if (!text)
+		return HB_ERR_NOMEM;
+	size_t n = strlen(text);
+	status = sb_u32(b, (uint32_t)n);
+	return status == HB_OK ? sb_put(b, text, n) : status;
+}
+
+/* Fills the header kept at the start of binary array k. */
+static void bin_header(child_acc *a, int k)
+{
+	static const uint32_t oid[] = { ['t'] = 25, ['b'] = 20, ['f'] = 701 };
+	uint32_t h[5] = { 1, a->nulls[k] ? 1 : 0, oid[(unsigned char)a->bin[k]], (uint32_t)a->rows, 1 };
+	unsigned char *p = (unsigned char *)a->arr[k].s;
+	for (int i = 0; i < 5; i++) {
+		p[4 * i] = (unsigned char)(h[i] >> 24);
+		p[4 * i + 1] = (unsigned char)(h[i] >> 16);
+		p[4 * i + 2] = (unsigned char)(h[i] >> 8);
+		p[4 * i + 3] = (unsigned char)h[i];
+	}
 }
 
 /* An array element of text (a record's identity). */
@@ -609,16 +683,25 @@ static int acc_add(hb_db *db, child_acc *a, sqlite3_stmt *st, long long local_id
 	if (!a->arr) {
 		a->ncol = sqlite3_column_count(st);
 		a->arr = calloc((size_t)a->ncol + 1, sizeof *a->arr);
-		if (!a->arr)
+		a->nulls = calloc((size_t)a->ncol + 1, sizeof *a->nulls);
+		if (!a->arr || !a->nulls)
 			return db_error(db, HB_ERR_NOMEM, "out of memory pushing records");
 	}
-	for (int k = 0; status == HB_OK && k <= a->ncol; k++)
+	for (int k = 0; status == HB_OK && !a->bin && k <= a->ncol; k++)
 		if (a->arr[k].len == 0)
 			status = sb_put(&a->arr[k], "{", 1);
 	sqlite3_reset(st);
 	sqlite3_bind_int64(st, 1, local_id);
 	int rc = SQLITE_OK;
 	while (status == HB_OK && (rc = sqlite3_step(st)) == SQLITE_ROW) {
+		if (a->bin) {
+			status = bin_element(a, 0, 't', st, 0, uid);
+			for (int k = 0; status == HB_OK && k < a->ncol; k++)
+				status = bin_element(a, k + 1, a->bin[k + 1], st, k, NULL);
+			a->rows++;
+			(*rows_sent)++;
+			continue;
+		}
 		status = sb_text_element(&a->arr[0], uid);
 		for (int k = 0; status == HB_OK && k < a->ncol; k++)
 			status = sb_element(&a->arr[k + 1], st, k);
@@ -639,18 +722,33 @@ static int acc_send(hb_db *db, PGconn *conn, child_acc *a, const char *name, int
 	if (a->rows == 0)
 		return HB_OK;
 	const char **params = calloc((size_t)a->ncol + 1, sizeof *params);
-	if (!params)
+	int *lengths = calloc((size_t)a->ncol + 1, sizeof *lengths);
+	int *formats = calloc((size_t)a->ncol + 1, sizeof *formats);
+	if (!params || !lengths || !formats) {
+		free(params);
+		free(lengths);
+		free(formats);
 		return db_error(db, HB_ERR_NOMEM, "out of memory pushing records");
+	}
 	int status = HB_OK;
 	for (int k = 0; status == HB_OK && k <= a->ncol; k++) {
-		status = sb_put(&a->arr[k], "}", 1);
+		if (a->bin)
+			bin_header(a, k);
+		else
+			status = sb_put(&a->arr[k], "}", 1);
 		params[k] = a->arr[k].s;
+		lengths[k] = (int)a->arr[k].len;
+		formats[k] = a->bin ? 1 : 0;
 	}
-	if (status == HB_OK)
-		status = pipe_send(db, conn, name, a->ncol + 1, params, sent);
+	if (status == HB_OK && !PQsendQueryPrepared(conn, name, a->ncol + 1, params, lengths, formats, 0))
+		status = pg_error(db, conn, NULL, "sending a batch");
+	else if (status == HB_OK)
+		(*sent)++;
 	else
 		status = db_error(db, HB_ERR_NOMEM, "out of memory pushing records");
 	free(params);
+	free(lengths);
+	free(formats);
 	acc_reset(a);
 	return status;
 }
@@ -757,7 +855,7 @@ static int push_table_rows(hb_db *db, PGconn *conn, int ti, const char *server, 
 	char name[32];
 	snprintf(name, sizeof name, "t%d", ti);
 	sqlite3_stmt *st = NULL, *child[2] = { NULL, NULL };
-	child_acc acc[2] = { { 0 }, { 0 } };
+	child_acc acc[2] = { { .bin = t->children[0].bin }, { .bin = t->children[1].bin } };
 	child_acc rows = { 0 };
 	int rc = sqlite3_prepare_v2(db->conn, t->local_sql, -1, &st, NULL);
 	for (int c = 0; rc == SQLITE_OK && c < 2 && t->children[c].local_sql; c++)
