@@ -162,8 +162,6 @@ memcheck: deps
 demo: deps
 	@$(MAKE) --no-print-directory henrybench
 	./henrybench demo --out demo-out
-	@echo "to push this store to a PostgreSQL server on this machine (README, 'Many stations, one server'):"
-	@echo "  ./henrybench --db demo-out/bench.db sync --server 'postgresql:///henrybench?host=/var/run/postgresql'"
 
 bench: deps
 	@$(MAKE) --no-print-directory henrybench $(BENCH_BINS)

@@ -45,6 +45,9 @@ int hb_db_part_drawing_get(hb_db *db, int64_t part_id, hb_db_part_drawing *out)
 {
 	if (!db || !out)
 		return HB_ERR_ARG;
+	int mirrored = db_mirror_parts(db, &part_id, 1);
+	if (mirrored < 0)
+		return mirrored;
 	hb_db_part_drawing_init(out);
 	out->part_id = part_id;
 	sqlite3_stmt *st = NULL;
@@ -114,10 +117,10 @@ int hb_db_part_drawing_put(hb_db *db, const hb_db_part_drawing *d)
 		return status;
 	sqlite3_stmt *st = NULL;
 	status = prepare(db,
-			 "INSERT INTO part_drawing (part_id, gap_m, gap_tol_m, curve_tol, curve_source)"
-			 " VALUES (?1, ?2, ?3, ?4, ?5) ON CONFLICT (part_id) DO UPDATE SET gap_m = excluded.gap_m,"
+			 "INSERT INTO part_drawing (part_id, gap_m, gap_tol_m, curve_tol, curve_source, updated, edits)"
+			 " VALUES (?1, ?2, ?3, ?4, ?5, ?6, 1) ON CONFLICT (part_id) DO UPDATE SET gap_m = excluded.gap_m,"
 			 " gap_tol_m = excluded.gap_tol_m, curve_tol = excluded.curve_tol,"
-			 " curve_source = excluded.curve_source",
+			 " curve_source = excluded.curve_source, updated = excluded.updated, edits = part_drawing.edits + 1",
 			 &st, NULL);
 	if (status == HB_OK) {
 		sqlite3_bind_int64(st, 1, d->part_id);
@@ -125,6 +128,10 @@ int hb_db_part_drawing_put(hb_db *db, const hb_db_part_drawing *d)
 		db_bind_real(st, 3, d->gap_tol_m);
 		db_bind_real(st, 4, d->curve_tol);
 		db_bind_text(st, 5, d->curve_source);
+		/* when it changed: between stations the newest drawing wins (docs/store.md, "Many stations") */
+		char now[HB_DB_TIME_LEN];
+		db_iso_time(db_now(), now, sizeof now);
+		db_bind_text(st, 6, now);
 		status = run(db, st, "storing a part's drawing");
 	}
 	if (status == HB_OK && (status = prepare(db, "DELETE FROM part_curve_mask WHERE part_id = ?1", &st, NULL)) == HB_OK) {

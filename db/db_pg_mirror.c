@@ -71,7 +71,7 @@ typedef struct mirror_copy {
 enum mirror_copy_id {
 	C_PARTS, C_ALL_PARTS, C_SPEC_REVS, C_LOTS, C_LOT_DECISIONS, C_UNITS, C_SWEEPS, C_POINT_COUNTS, C_POINTS,
 	C_FITS, C_FIT_VALUES, C_FIT_UNC, C_VERDICTS, C_TRACE, C_INSTRUMENTS, C_COMPS, C_LOT_SAMPLES,
-	C_SWEEP_SAMPLES, C_REPORT, C_REPORT_SWEEPS,
+	C_SWEEP_SAMPLES, C_REPORT, C_REPORT_SWEEPS, C_DRAWINGS, C_CURVE_MASKS,
 	C_COUNT
 };
 
@@ -145,6 +145,13 @@ static const mirror_copy copies[C_COUNT] = {
 	[C_REPORT_SWEEPS] = { "SELECT r.id, s.id FROM report_sweeps x JOIN reports r ON r.uid = x.report_uid"
 			      " JOIN sweeps s ON s.uid = x.sweep_uid WHERE r.uid = lower($1::text)",
 			      "report_sweeps", "report_id, sweep_id" },
+	/* a part's drawing and data-sheet curve mask (server step 2), with the part */
+	[C_DRAWINGS] = { "SELECT p.id, d.gap_m, d.gap_tol_m, d.curve_tol, d.curve_source, d.updated FROM part_drawing d"
+			 " JOIN parts p ON p.uid = d.part_uid WHERE p.id = ANY($1::bigint[])",
+			 "part_drawing", "part_id, gap_m, gap_tol_m, curve_tol, curve_source, updated" },
+	[C_CURVE_MASKS] = { "SELECT p.id, c.ord, c.current_a, c.inductance_h, c.tol FROM part_curve_mask c"
+			    " JOIN parts p ON p.uid = c.part_uid WHERE p.id = ANY($1::bigint[]) ORDER BY p.id, c.ord",
+			    "part_curve_mask", "part_id, ord, current_a, inductance_h, tol" },
 };
 
 /* What has been copied, by kind and server id (a temp table of the copy). */
@@ -400,10 +407,9 @@ int db_mirror_parts(hb_db *db, const int64_t *ids, size_t n)
 		return HB_OK;
 	id_list todo = { 0 };
 	int status = not_yet(db, K_PART, ids, n, &todo);
-	if (status == HB_OK)
-		status = copy_ids(db, C_PARTS, &todo, no_collect, NULL);
-	if (status == HB_OK)
-		status = copy_ids(db, C_SPEC_REVS, &todo, no_collect, NULL);
+	static const enum mirror_copy_id with_part[] = { C_PARTS, C_SPEC_REVS, C_DRAWINGS, C_CURVE_MASKS };
+	for (size_t i = 0; i < sizeof with_part / sizeof with_part[0] && status == HB_OK; i++)
+		status = copy_ids(db, with_part[i], &todo, no_collect, NULL);
 	free(todo.ids);
 	return status;
 }

@@ -86,6 +86,15 @@ static int note_held(pull_ctx *c, const char *tbl, const char *uid)
 			 &a, NULL);
 }
 
+/* Notes a part, an instrument or a drawing that now holds what the server holds, with its version here
+ * (db_pg_internal.h): it waits again only once edited here. */
+static int note_version(pull_ctx *c, const char *tbl, const char *sql, const char *k1, const char *k2, const char *k3)
+{
+	args a = { { c->server, k1, k2, k3 }, { 0, 0 } };
+	(void)tbl;
+	return run_local(c->db, sql, bind_args, &a, NULL);
+}
+
 typedef struct rev_bind {
 	int64_t part_id;
 	const PGresult *res;
@@ -147,6 +156,15 @@ static int apply_revision(pull_ctx *c, int64_t part_id, const PGresult *revs, in
 	return status;
 }
 
+static int note_part_id(pull_ctx *c, int64_t part_id)
+{
+	args a = { { c->server, NULL, NULL, NULL }, { part_id, 0 } };
+	return run_local(c->db,
+			 "INSERT INTO sync_pushed (server, tbl, uid, ver) SELECT ?1, 'parts', p.uid, " DB_PG_PART_VER("p")
+			 " FROM parts p WHERE p.id = ?5 ON CONFLICT (server, tbl, uid) DO UPDATE SET ver = excluded.ver",
+			 bind_args, &a, NULL);
+}
+
 typedef struct part_bind {
 	const PGresult *parts, *revs;
 	int row;
@@ -198,8 +216,6 @@ static int pull_part(pull_ctx *c, PGconn *conn, const PGresult *parts, int row)
 					   bind_args, &r, NULL);
 		}
 		if (status == HB_OK)
-			status = note_held(c, "parts", uid);
-		if (status == HB_OK)
 			status = note_held(c, "spec_revisions", PQgetvalue(revs, 0, 0));
 		if (status == HB_OK) {
 			c->stats->pulled_parts++;
@@ -207,6 +223,7 @@ static int pull_part(pull_ctx *c, PGconn *conn, const PGresult *parts, int row)
 		}
 		first = 1;
 	}
+	int applied = first;
 	for (int i = first; status == HB_OK && part_id != 0 && i < nrev; i++) {
 		int64_t have = 0, newer = 0;
 		args r = { { PQgetvalue(revs, i, 0), PQgetvalue(revs, i, 2), NULL, NULL }, { part_id, 0 } };
@@ -220,9 +237,14 @@ static int pull_part(pull_ctx *c, PGconn *conn, const PGresult *parts, int row)
 					   "SELECT count(*) = 0 FROM spec_revisions WHERE part_id = ?5 AND created > ?2"
 					   " AND ?1 IS NOT NULL",
 					   bind_args, &r, &newer);
-		if (status == HB_OK && !have && newer)
+		if (status == HB_OK && !have && newer) {
 			status = apply_revision(c, part_id, revs, i);
+			applied = 1;
+		}
 	}
+	/* this store's part now holds the server's newest: not sent back (an edit here makes it wait again) */
+	if (status == HB_OK && applied)
+		status = note_part_id(c, part_id);
 	PQclear(revs);
 	return status;
 }
@@ -248,7 +270,7 @@ static int pull_instruments(pull_ctx *c, PGconn *conn)
 	int status = db_pg_exec(c->db, conn, "pull_instr", 0, NULL, "reading the instrument register", &res);
 	for (int i = 0; status == HB_OK && i < PQntuples(res); i++) {
 		instr_bind b = { res, i };
-		int64_t id = 0;
+		int64_t id = 0, changed = 0;
 		/* columns: kind, maker, model, serial, firmware, first_seen, last_seen, accuracy,
 		 * accuracy_freq_above, cal_date, due_date, certificate */
 		args a = { { PQgetvalue(res, i, 1), PQgetvalue(res, i, 2), PQgetvalue(res, i, 3), NULL }, { 0, 0 } };
@@ -262,16 +284,81 @@ static int pull_instruments(pull_ctx *c, PGconn *conn)
 					   bind_instr, &b, NULL);
 			c->stats->pulled_instruments += status == HB_OK;
 		} else if (status == HB_OK) {
-			int64_t changed = 0;
+			/* the server's rule (db_pg.c): later calibration date, then due date, certificate, accuracy */
 			status = run_local(c->db,
 					   "UPDATE instruments SET accuracy = ?8, accuracy_freq_above = ?9, cal_date = ?10,"
 					   " due_date = ?11, certificate = ?12 WHERE maker = ?2 AND model = ?3 AND serial = ?4"
-					   " AND ?10 > cal_date AND ?1 IS NOT NULL AND ?5 IS NOT NULL AND ?6 IS NOT NULL"
+					   " AND (?10, ?11, ?12, ?8, ?9) > (cal_date, due_date, certificate, accuracy,"
+					   " accuracy_freq_above) AND ?1 IS NOT NULL AND ?5 IS NOT NULL AND ?6 IS NOT NULL"
 					   " AND ?7 IS NOT NULL RETURNING 1",
 					   bind_instr, &b, &changed);
 			c->stats->updated_instruments += changed;
 		}
+		if (status == HB_OK && (id == 0 || changed))
+			status = note_version(c, "instruments",
+					      "INSERT INTO sync_pushed (server, tbl, uid, ver) SELECT ?1, 'instruments', "
+					      DB_PG_INSTR_KEY("i") ", " DB_PG_INSTR_VER("i") " FROM instruments i WHERE"
+					      " i.maker = ?2 AND i.model = ?3 AND i.serial = ?4"
+					      " ON CONFLICT (server, tbl, uid) DO UPDATE SET ver = excluded.ver",
+					      PQgetvalue(res, i, 1), PQgetvalue(res, i, 2), PQgetvalue(res, i, 3));
 	}
+	PQclear(res);
+	return status;
+}
+
+/* A drawing of the server replaces this store's when it is strictly newer (its `updated`), with its
+ * curve mask whole; a drawing of a part this store does not hold waits until the part is pulled. */
+static int pull_drawing(pull_ctx *c, PGconn *conn, const PGresult *res, int row)
+{
+	const char *uid = PQgetvalue(res, row, 0);
+	int64_t newer = 0;
+	args a = { { uid, PQgetvalue(res, row, 5), NULL, NULL }, { 0, 0 } };
+	int status = run_local(c->db,
+			       "SELECT p.id FROM parts p LEFT JOIN part_drawing d ON d.part_id = p.id WHERE p.uid = ?1"
+			       " AND (d.part_id IS NULL OR d.updated < ?2)",
+			       bind_args, &a, &newer);
+	if (status < 0 || newer == 0)
+		return status;
+	PGresult *mask = NULL;
+	status = db_pg_exec(c->db, conn, "pull_mask", 1, &uid, "reading a curve mask", &mask);
+	if (status < 0)
+		return status;
+	instr_bind b = { res, row };
+	status = run_local(c->db,
+			   "INSERT INTO part_drawing (part_id, gap_m, gap_tol_m, curve_tol, curve_source, updated, edits)"
+			   " SELECT p.id, ?2, ?3, ?4, ?5, ?6, 1 FROM parts p WHERE p.uid = ?1"
+			   " ON CONFLICT (part_id) DO UPDATE SET gap_m = excluded.gap_m, gap_tol_m = excluded.gap_tol_m,"
+			   " curve_tol = excluded.curve_tol, curve_source = excluded.curve_source,"
+			   " updated = excluded.updated, edits = part_drawing.edits + 1",
+			   bind_instr, &b, NULL);
+	args pid = { { NULL }, { newer, 0 } };
+	if (status == HB_OK)
+		status = run_local(c->db, "DELETE FROM part_curve_mask WHERE part_id = ?5", bind_args, &pid, NULL);
+	for (int i = 0; status == HB_OK && i < PQntuples(mask); i++) {
+		args m = { { PQgetvalue(mask, i, 0), PQgetvalue(mask, i, 1),
+			     PQgetisnull(mask, i, 2) ? NULL : PQgetvalue(mask, i, 2), NULL }, { newer, i } };
+		status = run_local(c->db,
+				   "INSERT INTO part_curve_mask (part_id, ord, current_a, inductance_h, tol)"
+				   " VALUES (?5, ?6, ?1, ?2, ?3)",
+				   bind_args, &m, NULL);
+	}
+	PQclear(mask);
+	if (status == HB_OK)
+		status = note_version(c, "part_drawing",
+				      "INSERT INTO sync_pushed (server, tbl, uid, ver) SELECT ?1, 'part_drawing', p.uid, "
+				      DB_PG_DRAWING_VER("d") " FROM part_drawing d JOIN parts p ON p.id = d.part_id"
+				      " WHERE p.uid = ?2 ON CONFLICT (server, tbl, uid) DO UPDATE SET ver = excluded.ver",
+				      uid, NULL, NULL);
+	c->stats->pulled_drawings += status == HB_OK;
+	return status;
+}
+
+static int pull_drawings(pull_ctx *c, PGconn *conn)
+{
+	PGresult *res = NULL;
+	int status = db_pg_exec(c->db, conn, "pull_drawings", 0, NULL, "reading part drawings", &res);
+	for (int i = 0; status == HB_OK && i < PQntuples(res); i++)
+		status = pull_drawing(c, conn, res, i);
 	PQclear(res);
 	return status;
 }
@@ -281,7 +368,7 @@ int hb_db_sync_pull(hb_db *db, const char *url, hb_db_sync_stats *stats)
 	if (!db || !url || !stats)
 		return HB_ERR_ARG;
 	stats->pulled_parts = stats->pulled_revisions = stats->pulled_instruments = 0;
-	stats->updated_instruments = stats->conflicts = 0;
+	stats->updated_instruments = stats->conflicts = stats->pulled_drawings = 0;
 	PGconn *conn = NULL;
 	int status = db_pg_connect(db, url, stats->server_uid, &conn);
 	if (status < 0)
@@ -299,6 +386,15 @@ int hb_db_sync_pull(hb_db *db, const char *url, hb_db_sync_stats *stats)
 				       "SELECT kind, maker, model, serial, firmware, first_seen, last_seen, accuracy,"
 				       " accuracy_freq_above, cal_date, due_date, certificate FROM instruments ORDER BY id",
 				       "preparing the pull");
+	if (status == HB_OK)
+		status = db_pg_prepare(db, conn, "pull_drawings",
+				       "SELECT part_uid, gap_m, gap_tol_m, curve_tol, curve_source, updated FROM part_drawing"
+				       " ORDER BY part_uid",
+				       "preparing the pull");
+	if (status == HB_OK)
+		status = db_pg_prepare(db, conn, "pull_mask",
+				       "SELECT current_a, inductance_h, tol FROM part_curve_mask WHERE part_uid = $1 ORDER BY ord",
+				       "preparing the pull");
 	PGresult *parts = NULL;
 	if (status == HB_OK)
 		status = db_pg_exec(db, conn, "pull_parts", 0, NULL, "reading parts", &parts);
@@ -310,6 +406,8 @@ int hb_db_sync_pull(hb_db *db, const char *url, hb_db_sync_stats *stats)
 			status = pull_part(&c, conn, parts, i);
 		if (status == HB_OK)
 			status = pull_instruments(&c, conn);
+		if (status == HB_OK)
+			status = pull_drawings(&c, conn);
 		if (status == HB_OK)
 			status = db_write_commit(db, "storing the server's master data");
 		else

@@ -796,7 +796,7 @@ typedef struct hb_db_sync_stats {
 	long long points;                    /* push: points sent with the sweeps; status: points waiting */
 	long long running;                   /* status: running sweeps (sent once they end) */
 	long long batches;                   /* push: server transactions committed */
-	long long pulled_parts, pulled_revisions, pulled_instruments, updated_instruments;
+	long long pulled_parts, pulled_revisions, pulled_instruments, updated_instruments, pulled_drawings;
 	long long conflicts;                 /* pull: server parts whose number this store holds under another identity */
 	double seconds;
 } hb_db_sync_stats;
@@ -806,5 +806,7 @@ int hb_db_sync_push(hb_db *db, const char *url, hb_db_sync_stats *stats);
 int hb_db_sync_pull(hb_db *db, const char *url, hb_db_sync_stats *stats);
 /* What a push would send now (asks the server only for its identity). */
 int hb_db_sync_status(hb_db *db, const char *url, hb_db_sync_stats *stats);
+/* "host H, database D" of url, for messages: never the URL itself, which may hold a password. */
+void hb_db_server_name(const char *url, char *out, size_t cap);
 
 #endif

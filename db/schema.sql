@@ -585,3 +585,9 @@ CREATE TABLE sync_pushed (
 	uid TEXT NOT NULL,
 	PRIMARY KEY (server, tbl, uid)
 ) WITHOUT ROWID;
+-- step 16: many stations, later edits: what was pushed is noted with the version sent (an edit makes a new version, so the record waits again), and a part's drawing carries when it was last changed (the newest drawing wins between stations)
+ALTER TABLE sync_pushed ADD COLUMN ver TEXT NOT NULL DEFAULT '';
+ALTER TABLE part_drawing ADD COLUMN updated TEXT NOT NULL DEFAULT '';
+-- edits counts the writes of the drawing, so that two edits within one second are two versions
+ALTER TABLE part_drawing ADD COLUMN edits INTEGER NOT NULL DEFAULT 0;
+UPDATE part_drawing SET updated = (SELECT updated FROM parts WHERE parts.id = part_drawing.part_id);

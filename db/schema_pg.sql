@@ -250,3 +250,19 @@ CREATE TABLE report_sweeps (
 	sweep_uid TEXT NOT NULL REFERENCES sweeps(uid),
 	PRIMARY KEY (report_uid, sweep_uid)
 );
+
+-- step 2: a part's drawing (drawn gap, curve-mask tolerance and source) and its data sheet's curve mask, by the
+-- part's identity. A drawing is replaced whole by a strictly newer one (its `updated`): the newest drawing wins.
+CREATE TABLE part_drawing (
+	part_uid TEXT PRIMARY KEY REFERENCES parts(uid),
+	gap_m DOUBLE PRECISION, gap_tol_m DOUBLE PRECISION, curve_tol DOUBLE PRECISION,
+	curve_source TEXT NOT NULL DEFAULT '',
+	updated TEXT NOT NULL
+);
+-- no foreign key, as for points: written only in the statement that wins the drawing it belongs to
+CREATE TABLE part_curve_mask (
+	part_uid TEXT NOT NULL,
+	ord BIGINT NOT NULL,
+	current_a DOUBLE PRECISION NOT NULL, inductance_h DOUBLE PRECISION NOT NULL, tol DOUBLE PRECISION,
+	PRIMARY KEY (part_uid, ord)
+);

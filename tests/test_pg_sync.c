@@ -2,12 +2,14 @@
 #include <fcntl.h>
 #include <setjmp.h>
 #include <stdarg.h>
+#include <stdbool.h>
 #include <stddef.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/wait.h>
+#include <time.h>
 #include <unistd.h>
 
 #include <cmocka.h>
@@ -413,6 +415,9 @@ static void test_reads_from_server(void **state)
 		{ "instrument", "affected", serial, "--since", "2000-01-01", NULL },
 		{ "instrument", "affected", serial, "--since", "2000-01-01", "--json", NULL },
 		{ "part", "list", NULL },
+		{ "part", "show", part, NULL },
+		{ "part", "show", part, "--json", NULL },
+		{ "export", "--part", part, "--json", NULL },
 	};
 	for (size_t i = 0; i < sizeof cmds / sizeof cmds[0]; i++) {
 		const char *local[12] = { "--db", a };
@@ -459,6 +464,221 @@ static void test_reads_from_server(void **state)
 	free(after);
 }
 
+/* The count `sync --status` prints for table (its line "  TABLE  N"), from the last run's stdout. */
+static long long status_count(const char *table)
+{
+	char *out = last_out();
+	char key[64];
+	snprintf(key, sizeof key, "\n  %s ", table);
+	char *at = strstr(out, key);
+	long long n = at ? atoll(at + strlen(key) + strspn(at + strlen(key), " ")) : -1;
+	free(out);
+	return n;
+}
+
+static void write_text(const char *path, const char *text)
+{
+	FILE *f = fopen(path, "w");
+	assert_non_null(f);
+	fputs(text, f);
+	fclose(f);
+}
+
+/* The clock's second changes: edits stamped in whole seconds are then strictly ordered (a wait for a
+ * condition, bounded, not a fixed sleep). */
+static void next_second(void)
+{
+	time_t t0 = time(NULL);
+	for (int i = 0; i < 300 && time(NULL) == t0; i++) {
+		struct timespec ts = { 0, 10 * 1000 * 1000 };
+		nanosleep(&ts, NULL);
+	}
+	assert_true(time(NULL) != t0);
+}
+
+static void pg_stop_start(bool start)
+{
+	char cmd[1000];
+	if (start)
+		snprintf(cmd, sizeof cmd,
+			 "%s '%s/pg_ctl' -D '%s/data' -l '%s/server.log' -w -t 60 -o \"-k %s -c listen_addresses='' -c fsync=off\""
+			 " start >/dev/null 2>&1",
+			 pg.as_user, pg.bin, pg.dir, pg.dir, pg.dir);
+	else
+		snprintf(cmd, sizeof cmd, "%s '%s/pg_ctl' -D '%s/data' -m fast -w stop >/dev/null 2>&1", pg.as_user, pg.bin,
+			 pg.dir);
+	assert_int_equal(pg_sh(cmd), 0);
+}
+
+/* [store] sync = after-sweep: a sweep lands on the server as it ends; with the server down the sweep
+ * still succeeds, one warning names the server (never the password of its URL), the sweep waits and
+ * a later `sync` (server and store from the station file) sends it. */
+static void test_sync_after_sweep(void **state)
+{
+	(void)state;
+	need_server();
+	char a[320], url[400], err[4096], station[400], env[460], part[128];
+	make_station("after-a", a, sizeof a);
+	assert_int_equal(pg_fixture_createdb(&pg, "after", url, sizeof url), 0);
+	text_of(a, "SELECT part_number FROM parts ORDER BY id LIMIT 1", part, sizeof part);
+	/* the store by a path relative to the station file, the server with a password it must not echo */
+	snprintf(station, sizeof station, "%s/after-a/station.ini", dir);
+	char ini[1200];
+	snprintf(ini, sizeof ini,
+		 "[limits]\nmax_current = 3\nmax_voltage = 5\nmax_power = 20\n"
+		 "[store]\npath = bench.db\nsync = after-sweep\nserver = %s&password=SeCrEt-42\n",
+		 url);
+	write_text(station, ini);
+	snprintf(env, sizeof env, "HENRYBENCH_STATION=%s", station);
+	const char *sweep[] = { "sweep", "--part", part, "--unit", "AFTER-1", "--lcr", "sim:lcr", "--supply", "sim:supply",
+				"--to", "2", "--steps", "5", "--yes", "--no-fit", NULL };
+	assert_int_equal(run_hb(env, sweep, err, sizeof err), 0);
+	char uid[64];
+	text_of(a, "SELECT uid FROM sweeps ORDER BY id DESC LIMIT 1", uid, sizeof uid);
+	PGconn *c = server(url);
+	assert_int_equal(server_count(c, "SELECT count(*) FROM sweeps WHERE uid = $1", uid), 1);
+	/* 5 points planned, 5 on the server */
+	assert_int_equal(server_count(c, "SELECT count(*) FROM points p JOIN sweeps s ON s.id = p.sweep_id WHERE s.uid = $1",
+				      uid),
+			 5);
+	PQfinish(c);
+
+	pg_stop_start(false);
+	sweep[4] = "AFTER-2";
+	assert_int_equal(run_hb(env, sweep, err, sizeof err), 0);
+	assert_non_null(strstr(err, "warning: sync after sweep"));
+	assert_non_null(strstr(err, "database after"));
+	assert_null(strstr(err, "SeCrEt-42"));
+	/* one line */
+	assert_true(strchr(err, '\n') == NULL || strchr(err, '\n')[1] == '\0');
+	char uid2[64];
+	text_of(a, "SELECT uid FROM sweeps ORDER BY id DESC LIMIT 1", uid2, sizeof uid2);
+	assert_string_not_equal(uid, uid2);
+	assert_int_equal(local_count(a, "SELECT count(*) FROM sweeps WHERE unit_id = (SELECT id FROM units WHERE"
+					" serial = 'AFTER-2') AND status = 'complete'"),
+			 1);
+
+	pg_stop_start(true);
+	const char *status[] = { "sync", "--status", NULL };
+	assert_int_equal(run_hb(env, status, err, sizeof err), 0);
+	assert_int_equal(status_count("sweeps"), 1);
+	const char *sync[] = { "sync", NULL };
+	assert_int_equal(run_hb(env, sync, err, sizeof err), 0);
+	c = server(url);
+	assert_int_equal(server_count(c, "SELECT count(*) FROM sweeps WHERE uid = $1", uid2), 1);
+	PQfinish(c);
+	assert_int_equal(run_hb(env, status, err, sizeof err), 0);
+	assert_int_equal(status_count("sweeps"), 0);
+
+	/* command line > environment > station file: a station file naming a server that does not exist
+	 * is overridden by HENRYBENCH_SERVER, and that by --server */
+	snprintf(ini, sizeof ini, "[store]\npath = bench.db\nserver = postgresql:///nowhere?host=%s/none\n", dir);
+	write_text(station, ini);
+	assert_int_equal(run_hb(env, status, err, sizeof err), 1);
+	assert_non_null(strstr(err, "database nowhere"));
+	char server_env[500];
+	snprintf(server_env, sizeof server_env, "HENRYBENCH_SERVER=%s", url);
+	setenv("HENRYBENCH_STATION", station, 1);
+	assert_int_equal(run_hb(server_env, status, err, sizeof err), 0);
+	const char *bad_cmdline[] = { "sync", "--status", "--server", "postgresql:///nowhere2?host=/nonexistent", NULL };
+	assert_int_equal(run_hb(server_env, bad_cmdline, err, sizeof err), 1);
+	assert_non_null(strstr(err, "database nowhere2"));
+	unsetenv("HENRYBENCH_STATION");
+}
+
+/* Two stations edit the same part, instrument and drawing after both pushed them. The rule
+ * (docs/store.md, "Many stations"): the part's head row and the drawing follow the newest edit by
+ * time, whichever station pushes first; every spec revision is kept; the register follows the later
+ * calibration date, and on the same date the later due date, then the greater certificate. */
+static void test_later_edits_follow_the_rule(void **state)
+{
+	(void)state;
+	need_server();
+	char a[320], b[320], url[400], err[2048], t[512];
+	make_station("edit-a", a, sizeof a);
+	make_station("edit-b", b, sizeof b);
+	assert_int_equal(pg_fixture_createdb(&pg, "edits", url, sizeof url), 0);
+	const char *add[] = { "--db", a, "part", "add", "HB-EDIT-1", "--nominal", "47uH", "--tol", "10%", "--freq", "100kHz",
+			      "--level", "0.1V", "--gap", "0.5mm", "--gap-tol", "0.05mm", "--curve", "0:47u,2:40u,4:30u",
+			      "--curve-tol", "10%", NULL };
+	assert_int_equal(run_hb(NULL, add, err, sizeof err), 0);
+	assert_int_equal(sync_station(a, url, NULL, err, sizeof err), 0);
+	assert_int_equal(sync_station(b, url, NULL, err, sizeof err), 0);
+	/* B pulled the part with its drawing and curve mask (the values entered above) */
+	assert_int_equal(local_count(b, "SELECT count(*) FROM part_curve_mask m JOIN parts p ON p.id = m.part_id"
+					" WHERE p.part_number = 'HB-EDIT-1'"),
+			 3);
+	assert_int_equal(local_count(b, "SELECT abs(d.gap_m - 0.0005) < 1e-12 FROM part_drawing d JOIN parts p"
+					" ON p.id = d.part_id WHERE p.part_number = 'HB-EDIT-1'"),
+			 1);
+
+	/* A edits first, B a second later: B's edits are the newest */
+	const char *edit_a[] = { "--db", a, "part", "edit", "HB-EDIT-1", "--tol", "5%", "--curve", "0:47u,3:35u", NULL };
+	assert_int_equal(run_hb(NULL, edit_a, err, sizeof err), 0);
+	const char *cal_a[] = { "--db", a, "instrument", "edit", "SL0001", "--cal-date", "2099-01-02", "--due-date",
+				"2100-01-02", "--certificate", "CERT-A", NULL };
+	assert_int_equal(run_hb(NULL, cal_a, err, sizeof err), 0);
+	/* an edit after the push waits again */
+	const char *status_a[] = { "--db", a, "sync", "--status", "--server", url, NULL };
+	assert_int_equal(run_hb(NULL, status_a, err, sizeof err), 0);
+	assert_int_equal(status_count("parts"), 1);
+	assert_int_equal(status_count("part_drawing"), 1);
+	assert_true(status_count("instruments") >= 1);
+	next_second();
+	const char *edit_b[] = { "--db", b, "part", "edit", "HB-EDIT-1", "--tol", "2%", "--curve", "0:47u,1:45u,5:20u,6:10u",
+				 NULL };
+	assert_int_equal(run_hb(NULL, edit_b, err, sizeof err), 0);
+	const char *cal_b[] = { "--db", b, "instrument", "edit", "SL0001", "--cal-date", "2099-01-02", "--due-date",
+				"2100-01-02", "--certificate", "CERT-B", NULL };
+	assert_int_equal(run_hb(NULL, cal_b, err, sizeof err), 0);
+
+	/* the newest pushes first, the older after it: the rule is by time, not by arrival */
+	assert_int_equal(sync_station(b, url, NULL, err, sizeof err), 0);
+	assert_int_equal(sync_station(a, url, NULL, err, sizeof err), 0);
+	assert_int_equal(sync_station(b, url, NULL, err, sizeof err), 0);
+	PGconn *c = server(url);
+	/* 2 % entered at B: 0.02 as a fraction */
+	assert_int_equal(server_count(c, "SELECT count(*) FROM parts WHERE part_number = 'HB-EDIT-1' AND tolerance = 0.02",
+				      NULL),
+			 1);
+	/* nothing lost: the first spec and both edits */
+	assert_int_equal(server_count(c, "SELECT count(*) FROM spec_revisions r JOIN parts p ON p.uid = r.part_uid"
+					 " WHERE p.part_number = 'HB-EDIT-1'",
+				      NULL),
+			 3);
+	assert_int_equal(server_count(c, "SELECT count(*) FROM part_curve_mask m JOIN parts p ON p.uid = m.part_uid"
+					 " WHERE p.part_number = 'HB-EDIT-1'",
+				      NULL),
+			 4);
+	/* the same calibration date: the greater certificate, whichever came last */
+	PGresult *r = PQexec(c, "SELECT certificate FROM instruments WHERE serial = 'SL0001'");
+	assert_int_equal(PQntuples(r), 1);
+	assert_string_equal(PQgetvalue(r, 0, 0), "CERT-B");
+	PQclear(r);
+	PQfinish(c);
+	/* A pulled B's edits: both stations now agree with the server */
+	assert_int_equal(local_count(a, "SELECT tolerance = 0.02 FROM parts WHERE part_number = 'HB-EDIT-1'"), 1);
+	text_of(a, "SELECT group_concat(current_a, ',') FROM (SELECT m.current_a FROM part_curve_mask m JOIN parts p"
+		   " ON p.id = m.part_id WHERE p.part_number = 'HB-EDIT-1' ORDER BY m.ord)",
+		t, sizeof t);
+	assert_string_equal(t, "0.0,1.0,5.0,6.0");
+	text_of(a, "SELECT certificate FROM instruments WHERE serial = 'SL0001'", t, sizeof t);
+	assert_string_equal(t, "CERT-B");
+	/* a later calibration date wins over the greater certificate */
+	const char *cal_a2[] = { "--db", a, "instrument", "edit", "SL0001", "--cal-date", "2099-06-01", "--due-date",
+				 "2100-06-01", "--certificate", "CERT-A2", NULL };
+	assert_int_equal(run_hb(NULL, cal_a2, err, sizeof err), 0);
+	assert_int_equal(sync_station(a, url, NULL, err, sizeof err), 0);
+	assert_int_equal(sync_station(b, url, NULL, err, sizeof err), 0);
+	text_of(b, "SELECT certificate || ' ' || cal_date FROM instruments WHERE serial = 'SL0001'", t, sizeof t);
+	assert_string_equal(t, "CERT-A2 2099-06-01");
+	/* after all this, nothing waits at either station */
+	assert_int_equal(run_hb(NULL, status_a, err, sizeof err), 0);
+	assert_int_equal(status_count("parts"), 0);
+	assert_int_equal(status_count("part_drawing"), 0);
+	assert_int_equal(status_count("instruments"), 0);
+}
+
 static int group_setup(void **state)
 {
 	(void)state;
@@ -491,6 +711,8 @@ int main(void)
 		cmocka_unit_test(test_server_down_then_later),
 		cmocka_unit_test(test_master_data_pulled),
 		cmocka_unit_test(test_reads_from_server),
+		cmocka_unit_test(test_sync_after_sweep),
+		cmocka_unit_test(test_later_edits_follow_the_rule),
 	};
 	return cmocka_run_group_tests(tests, group_setup, group_teardown);
 }

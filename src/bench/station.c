@@ -81,6 +81,56 @@ static int set_limit(parse_ctx *c, const char *value, const char *unit, double *
 	return 1;
 }
 
+/* [store] path, server, sync. A relative path is taken from the station file's directory, so that
+ * the file means the same store whatever directory henrybench runs in. */
+static int store_entry(parse_ctx *c, const char *name, const char *value, int line)
+{
+	hb_station *s = c->station;
+	if (strcmp(name, "path") == 0) {
+		const char *slash = strrchr(s->path, '/');
+		int n = value[0] == '/' || !slash ? 0 : (int)(slash - s->path) + 1;
+		if (!*value || snprintf(s->store_path, sizeof s->store_path, "%.*s%s", n, s->path, value) >=
+				       (int)sizeof s->store_path) {
+			snprintf(c->err, c->errlen, "%s:%d: key 'path': '%s' is not a store path of 1 to %zu bytes",
+				 s->path, line, value, sizeof s->store_path - 1 - (size_t)n);
+			c->failed = 1;
+			return 0;
+		}
+		return 1;
+	}
+	if (strcmp(name, "server") == 0) {
+		/* the URL itself is never echoed: it may hold a password */
+		if (strncmp(value, "postgresql://", 13) != 0 && strncmp(value, "postgres://", 11) != 0) {
+			snprintf(c->err, c->errlen, "%s:%d: key 'server': not a postgresql:// or postgres:// URL", s->path,
+				 line);
+			c->failed = 1;
+			return 0;
+		}
+		if (strlen(value) >= sizeof s->server) {
+			snprintf(c->err, c->errlen, "%s:%d: key 'server': longer than %zu bytes", s->path, line,
+				 sizeof s->server - 1);
+			c->failed = 1;
+			return 0;
+		}
+		snprintf(s->server, sizeof s->server, "%s", value);
+		return 1;
+	}
+	if (strcmp(name, "sync") == 0) {
+		if (strcmp(value, "after-sweep") && strcmp(value, "manual")) {
+			snprintf(c->err, c->errlen, "%s:%d: key 'sync': '%s' is not after-sweep or manual", s->path, line,
+				 value);
+			c->failed = 1;
+			return 0;
+		}
+		s->sync_after_sweep = strcmp(value, "after-sweep") == 0;
+		return 1;
+	}
+	snprintf(c->err, c->errlen, "%s:%d: unknown key '%s' in section [store] (known: path, server, sync)", s->path, line,
+		 name);
+	c->failed = 1;
+	return 0;
+}
+
 static char *read_counting(char *str, int num, void *stream)
 {
 	parse_ctx *c = stream;
@@ -166,6 +216,8 @@ static int on_entry(void *user, const char *section, const char *name, const cha
 	} else if (strcmp(section, "fixture") == 0) {
 		if (strcmp(name, "max_age_hours") == 0)
 			return set_limit(c, value, "", &s->fixture_max_age_h, line, name);
+	} else if (strcmp(section, "store") == 0) {
+		return store_entry(c, name, value, line);
 	} else if (strcmp(section, "limits") == 0) {
 		if (strcmp(name, "max_current") == 0)
 			return set_limit(c, value, "A", &s->max_current, line, name);
@@ -199,13 +251,18 @@ static int on_entry(void *user, const char *section, const char *name, const cha
 		}
 	}
 unknown:
-	snprintf(c->err, c->errlen, "%s:%d: unknown key '%s' in section [%s] (known: [station] name, operator, decision_rule, guard_r; [limits] max_current, max_voltage, max_power, confirm_above, ramp_rate, off_threshold, part_overdrive, lock_limits; [accuracy] meter, meter.freq_above, supply.current; [calibration] overdue; [fixture] max_age_hours)",
+	snprintf(c->err, c->errlen, "%s:%d: unknown key '%s' in section [%s] (known: [station] name, operator, decision_rule, guard_r; [limits] max_current, max_voltage, max_power, confirm_above, ramp_rate, off_threshold, part_overdrive, lock_limits; [accuracy] meter, meter.freq_above, supply.current; [calibration] overdue; [fixture] max_age_hours; [store] path, server, sync)",
 		 s->path, line, name, section);
 	c->failed = 1;
 	return 0;
 }
 
 static int load(hb_station *s, char *err, size_t errlen);
+
+int hb_station_read(hb_station *s, char *err, size_t errlen)
+{
+	return load(s, err, errlen);
+}
 
 int hb_station_load(hb_station *s, char *err, size_t errlen)
 {

@@ -36,6 +36,13 @@ typedef struct hb_station {
 	char decision_rule[16];
 	double guard_r;         /* NAN = 1 */
 	char path[512];         /* the file read, empty if none */
+	/* [store] (docs/store.md, "Many stations"): path = the station's store when neither --db nor
+	 * $HENRYBENCH_DB names one (relative to the station file's directory); server = the shared
+	 * server's URL for `sync` when neither --server nor $HENRYBENCH_SERVER names one; sync =
+	 * after-sweep pushes after every stored sweep (and inspected unit), manual (default) does not */
+	char store_path[1024];  /* "" = not set */
+	char server[1024];      /* "" = not set */
+	bool sync_after_sweep;
 	/* traceability (docs/traceability.md) */
 	bool refuse_overdue;    /* [calibration] overdue = refuse: no sweep with an instrument past its due date
 	                         * unless --allow-overdue; default warn */
@@ -51,5 +58,7 @@ typedef struct hb_station {
  * "FILE:LINE: ..." in err. */
 int hb_station_load(hb_station *station, char *err, size_t errlen);
 void hb_station_defaults(hb_station *station);
+/* hb_station_load without the operator warning: for reading the [store] section before any command. */
+int hb_station_read(hb_station *station, char *err, size_t errlen);
 
 #endif

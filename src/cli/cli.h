@@ -158,6 +158,13 @@ int hb_print_json(struct json_t *root);
 const char *hb_si_or_dash(char *buf, size_t cap, double v, const char *unit);
 /* Opens the store named by --db; NULL after printing the error. */
 struct hb_db *hb_cli_open_store(void);
+/* The shared server (cli_sync.c): cmdline (--server), else $HENRYBENCH_SERVER, else the station
+ * file's [store] server; NULL = none named. */
+struct hb_station;
+const char *hb_cli_server_url(const char *cmdline, const struct hb_station *station);
+/* With [store] sync = after-sweep: pushes to the server once a sweep is stored and the supply is off;
+ * a failure is one warning line on stderr (exit status unchanged). false = the push failed. */
+bool hb_cli_sync_after(struct hb_db *db, const struct hb_station *station, FILE *info);
 /* The exit status the CLI reports for a sweep result. */
 int hb_session_exit_code(const struct hb_sweep_result *result);
 

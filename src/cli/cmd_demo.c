@@ -298,6 +298,11 @@ int hb_cmd_demo(int argc, char **argv)
 	printf("try:    ./henrybench --db %s sweeps\n        ./henrybench --db %s show %lld\n"
 	       "        ./henrybench --db %s history %s\n",
 	       db_path, db_path, (long long)ids[0], db_path, part.part_number);
+	/* the one command that pushes this store to a server on this machine (README, "Many stations") */
+	printf("sync:   ./henrybench --db %s sync --server 'postgresql:///henrybench?host=/var/run/postgresql'\n"
+	       "        (a server on this machine with a database henrybench your account may write: README,"
+	       " \"Many stations, one server\")\n",
+	       db_path);
 	exit_code = HB_EXIT_OK;
 out:
 	free(an);

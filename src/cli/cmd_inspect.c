@@ -38,6 +38,12 @@ typedef struct unit_source {
 	bool autorun;
 	hb_inspect_part_policy part_fault;
 	FILE *in, *prompt;
+	/* [store] sync = after-sweep: each recorded unit is pushed until one push fails (one warning, then
+	 * the rest waits for a sync rather than each unit waiting on an unreachable server) */
+	hb_db *db;
+	const hb_station *station;
+	FILE *info;
+	bool synced_ok, pushed_any;
 } unit_source;
 
 /* The test signal: a current when the text names amps, else a voltage. */
@@ -224,6 +230,18 @@ static void free_serials(unit_source *src)
 }
 
 /* One serial a line; blank lines and lines starting with '#' are ignored. */
+/* A position is recorded and the unit's sweep has ended with the supply's output off. */
+static int unit_recorded(void *ctx, const hb_inspect_unit *unit, const hb_inspect_tally *tally)
+{
+	unit_source *src = ctx;
+	(void)unit;
+	(void)tally;
+	src->pushed_any = true;
+	if (src->synced_ok)
+		src->synced_ok = hb_cli_sync_after(src->db, src->station, src->info);
+	return HB_OK;
+}
+
 static int load_serials(const char *path, unit_source *src)
 {
 	FILE *f = fopen(path, "r");
@@ -453,10 +471,12 @@ int hb_cmd_inspect(int argc, char **argv)
 	hb_db *db = NULL;
 	hb_lcr *lcr = NULL;
 	hb_supply *supply = NULL;
-	unit_source src = { .serials_file = a.serials_file, .first_serial = a.first_serial, .autorun = a.autorun,
-			    .part_fault = a.part_fault, .in = stdin, .prompt = stderr };
-	char err[320];
+	FILE *info = a.json ? stderr : stdout;
 	hb_station station;
+	unit_source src = { .serials_file = a.serials_file, .first_serial = a.first_serial, .autorun = a.autorun,
+			    .part_fault = a.part_fault, .in = stdin, .prompt = stderr, .station = &station,
+			    .info = info, .synced_ok = true };
+	char err[320];
 	if (hb_station_load(&station, err, sizeof err) != HB_OK) {
 		hb_cli_error("%s", err);
 		return HB_EXIT_USAGE;
@@ -530,7 +550,6 @@ int hb_cmd_inspect(int argc, char **argv)
 		exit_code = HB_EXIT_USAGE;
 		goto out;
 	}
-	FILE *info = a.json ? stderr : stdout;
 
 	hb_sweep_install_signals();
 	hb_sweep_clear_signal();
@@ -577,7 +596,9 @@ int hb_cmd_inspect(int argc, char **argv)
 	cfg.resume_only = a.resume;
 	cfg.supplier = a.supplier ? a.supplier : "";
 	cfg.irregular = a.irregular;
-	hb_inspect_callbacks cb = { .ctx = &src, .next_unit = next_unit, .sweep_failed = sweep_failed };
+	src.db = db;
+	hb_inspect_callbacks cb = { .ctx = &src, .next_unit = next_unit, .sweep_failed = sweep_failed,
+				    .after_unit = unit_recorded };
 	hb_inspect_result res;
 	rc = hb_inspect_run(&cfg, &cb, &res);
 	if (res.current_may_flow)
@@ -628,6 +649,9 @@ out:
 	/* The engine switched the output off on every path that switched it on. */
 	hb_supply_close(supply);
 	hb_lcr_close(lcr);
+	/* the lot's decision and the last unit, once the bench is safe (after-sweep only) */
+	if (src.synced_ok && src.pushed_any)
+		(void)hb_cli_sync_after(db, &station, info);
 	hb_db_close(db);
 	free_serials(&src);
 	hb_sweep_restore_signals();

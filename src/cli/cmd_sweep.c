@@ -299,6 +299,9 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 		return HB_EXIT_USAGE;
 
 	int exit_code = HB_EXIT_RUNTIME;
+	int64_t sweep_id = 0;
+	bool stored = false;
+	FILE *info = a.json ? stderr : stdout;
 	hb_db *db = NULL;
 	hb_lcr *lcr = NULL;
 	hb_supply *supply = NULL;
@@ -329,7 +332,6 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 		exit_code = HB_EXIT_USAGE;
 		goto out;
 	}
-	FILE *info = a.json ? stderr : stdout;
 	if (a.dry_run) {
 		print_plan(stdout, &a, &part, &station, &limits);
 		fprintf(stdout, "dry run: no instrument was opened and nothing was stored\n");
@@ -372,12 +374,12 @@ static int run_sweep_command(int argc, char **argv, bool fsweep)
 	hb_session s = { .db = db, .lcr = lcr, .supply = supply, .station = &station, .progress = info,
 			 .progress_tty = isatty(fileno(info)), .ambient_c = a.opts.ambient_c, .dcr_from_meter = a.dcr_meter,
 			 .allow_overdue = a.opts.allow_overdue, .fixture = a.opts.fixture };
-	int64_t sweep_id = 0;
 	hb_sweep_result result;
 	hb_session_measure(&s, &part, a.unit, lot_id, &a.plan, a.note, &sweep_id, &result);
 	if (result.current_may_flow)
 		hb_session_warn_current_may_flow(stderr);
 	static const char *ends[] = { "complete", "aborted", "failed" };
+	stored = sweep_id > 0;
 	if (sweep_id == 0) {
 		hb_cli_error("sweep not started: %s", result.reason);
 	} else {
@@ -412,6 +414,10 @@ out:
 	 * already switched the output off on every path that switched it on. */
 	hb_supply_close(supply);
 	hb_lcr_close(lcr);
+	/* Only now, with the bench safe and the sweep committed here: the server never delays either,
+	 * and its failure is a warning that leaves the exit status the sweep's. */
+	if (stored)
+		(void)hb_cli_sync_after(db, &station, info);
 	hb_db_close(db);
 	hb_sweep_restore_signals();
 	return exit_code;

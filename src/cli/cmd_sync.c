@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "../../db/hb_db.h"
+#include "../bench/station.h"
 #include "cli.h"
 
 typedef struct sync_args {
@@ -16,7 +17,7 @@ typedef struct sync_args {
 
 static const hb_opt sync_table[] = {
 	{ .name = "server", .kind = HB_OPT_TEXT, .arg = "URL", .off = offsetof(sync_args, server),
-	  .help = "the shared server, a PostgreSQL URL (default: $HENRYBENCH_SERVER)" },
+	  .help = "the shared server, a PostgreSQL URL (default: $HENRYBENCH_SERVER, else [store] server of the station file)" },
 	{ .name = "status", .kind = HB_OPT_FLAG, .off = offsetof(sync_args, status),
 	  .help = "only say what waits to be pushed (counts per table), change nothing" },
 	{ .name = "push-only", .kind = HB_OPT_FLAG, .off = offsetof(sync_args, push_only),
@@ -28,14 +29,17 @@ const hb_cmd_opts hb_opts_sync = {
 	.name = "sync",
 	.usage = "[--server URL] [--status] [--push-only]",
 	.about = "\nPushes every finished record of this station's store that the shared server lacks (parts and\n"
-		 "spec revisions, lots and their decisions, units, the instrument register, fixture\n"
-		 "compensations, sweeps with their points, fits, verdicts, inspections, filed reports' hashes),\n"
-		 "in batches of one server transaction each, then pulls the parts, spec revisions and\n"
-		 "instruments other stations added. Records travel by their global identity: a sync can be\n"
-		 "repeated or rerun after any interruption and nothing is sent twice. Running sweeps wait\n"
-		 "until they end. The server's tables are created on first contact.\n"
+		 "spec revisions, part drawings and curve masks, lots and their decisions, units, the\n"
+		 "instrument register, fixture compensations, sweeps with their points, fits, verdicts,\n"
+		 "inspections, filed reports' hashes), in batches of one server transaction each, then pulls\n"
+		 "the parts, spec revisions, drawings and instruments other stations added or changed. Records\n"
+		 "travel by their global identity: a sync can be repeated or rerun after any interruption and\n"
+		 "nothing is sent twice; a part, instrument or drawing edited after its push waits again.\n"
+		 "Running sweeps wait until they end. The server's tables are created on first contact.\n"
 		 "URL: postgresql://USER@HOST/DATABASE, or postgresql:///DATABASE?host=/socket/dir for a\n"
-		 "local socket (docs/store.md, \"Many stations\").\n",
+		 "local socket; --server, else $HENRYBENCH_SERVER, else [store] server of the station file,\n"
+		 "whose sync = after-sweep also pushes after every stored sweep (docs/store.md, \"Many\n"
+		 "stations\").\n",
 	.opts = sync_table,
 	.max_operands = 0,
 };
@@ -80,6 +84,8 @@ static void print_pull(const hb_db_sync_stats *s)
 	       s->pulled_parts, s->pulled_parts == 1 ? "" : "s", s->pulled_revisions, s->pulled_revisions == 1 ? "" : "s",
 	       s->pulled_instruments, s->pulled_instruments == 1 ? "" : "s", s->updated_instruments,
 	       s->updated_instruments == 1 ? "" : "s");
+	if (s->pulled_drawings > 0)
+		printf("pulled: %lld part drawing%s (with curve masks)\n", s->pulled_drawings, s->pulled_drawings == 1 ? "" : "s");
 	if (s->conflicts > 0)
 		printf("note: %lld part number%s of the server held here under another identity: this store keeps its own"
 		       " record (the server keeps both)\n",
@@ -94,10 +100,17 @@ int hb_cmd_sync(int argc, char **argv)
 		return HB_EXIT_USAGE;
 	if (res.done)
 		return HB_EXIT_OK;
-	const char *url = a.server ? a.server : getenv("HENRYBENCH_SERVER");
-	if (!url || !*url) {
-		hb_cli_error("sync: no server named: give --server URL or set HENRYBENCH_SERVER "
-			     "(e.g. postgresql:///henrybench?host=/var/run/postgresql)");
+	/* command line > environment > station file */
+	hb_station station;
+	char err[600];
+	if (hb_station_read(&station, err, sizeof err) != HB_OK) {
+		hb_cli_error("%s", err);
+		return HB_EXIT_USAGE;
+	}
+	const char *url = hb_cli_server_url(a.server, &station);
+	if (!url) {
+		hb_cli_error("sync: no server named: give --server URL, set HENRYBENCH_SERVER or [store] server in the "
+			     "station file (e.g. postgresql:///henrybench?host=/var/run/postgresql)");
 		return HB_EXIT_USAGE;
 	}
 	int code = HB_EXIT_OK;

@@ -8,6 +8,7 @@
 
 #include <gsl/gsl_errno.h>
 
+#include "../bench/station.h"
 #include "cli.h"
 
 
@@ -22,8 +23,8 @@ static void usage(FILE *out)
 		fprintf(out, "  %-10s %s\n", c->name, c->summary);
 	fprintf(out,
 		"\nglobal options (accepted anywhere on the line):\n"
-		"  --db PATH        store (default $HENRYBENCH_DB or\n"
-		"                   ${XDG_DATA_HOME:-~/.local/share}/henrybench/bench.db)\n"
+		"  --db PATH        store (default $HENRYBENCH_DB, the station file's [store] path\n"
+		"                   or ${XDG_DATA_HOME:-~/.local/share}/henrybench/bench.db)\n"
 		"  --trace[=FILE]   log every instrument exchange with a timestamp (stderr by default)\n"
 		"  --help, --version\n");
 }
@@ -65,6 +66,23 @@ static int strip_global_options(int *argc, char **argv)
 	return 0;
 }
 
+/* The store named by the station file's [store] path, when neither --db nor $HENRYBENCH_DB names one
+ * (command line > environment > station file > default location). */
+static int station_store(void)
+{
+	static hb_station station;
+	char err[600];
+	if (hb_global.db_path)
+		return 0;
+	if (hb_station_read(&station, err, sizeof err) != HB_OK) {
+		hb_cli_error("%s", err);
+		return -1;
+	}
+	if (station.store_path[0])
+		hb_global.db_path = station.store_path;
+	return 0;
+}
+
 int main(int argc, char **argv)
 {
 	/* Numbers on the wire and in files are C-locale; the user's locale
@@ -91,6 +109,8 @@ int main(int argc, char **argv)
 	}
 	for (const hb_command *c = hb_commands; c->name; c++) {
 		if (strcmp(argv[1], c->name) == 0) {
+			if (station_store() < 0)
+				return HB_EXIT_USAGE;
 			int rc = c->run(argc - 1, argv + 1);
 			hb_cli_global_cleanup();
 			return hb_cli_finish_stdout(rc);
