@@ -401,53 +401,57 @@ static bool copied(hb_db *db, enum mirror_kind kind, int64_t id)
 
 static const int no_collect[2] = { -1, -1 };
 
-int db_mirror_parts(hb_db *db, const int64_t *ids, size_t n)
+/* Copies the records of `kind` among ids not copied yet: steps[0] with what its rows refer to collected
+ * (columns cols into collect), then the other steps; *copied_n (may be NULL) gets how many were new. */
+static int copy_kind(hb_db *db, enum mirror_kind kind, const int64_t *ids, size_t n, const enum mirror_copy_id *steps,
+		     size_t n_steps, const int cols[2], id_list *collect[2], size_t *copied_n)
 {
-	if (!db->pg)
-		return HB_OK;
 	id_list todo = { 0 };
-	int status = not_yet(db, K_PART, ids, n, &todo);
-	static const enum mirror_copy_id with_part[] = { C_PARTS, C_SPEC_REVS, C_DRAWINGS, C_CURVE_MASKS };
-	for (size_t i = 0; i < sizeof with_part / sizeof with_part[0] && status == HB_OK; i++)
-		status = copy_ids(db, with_part[i], &todo, no_collect, NULL);
+	int status = not_yet(db, kind, ids, n, &todo);
+	for (size_t i = 0; i < n_steps && status == HB_OK; i++)
+		status = copy_ids(db, steps[i], &todo, i == 0 ? cols : no_collect, i == 0 ? collect : NULL);
+	if (copied_n)
+		*copied_n = todo.n;
 	free(todo.ids);
 	return status;
 }
 
-int db_mirror_lots(hb_db *db, const int64_t *ids, size_t n)
+int db_mirror_parts(hb_db *db, const int64_t *ids, size_t n)
 {
+	static const enum mirror_copy_id steps[] = { C_PARTS, C_SPEC_REVS, C_DRAWINGS, C_CURVE_MASKS };
 	if (!db->pg)
 		return HB_OK;
-	id_list todo = { 0 }, parts = { 0 };
+	return copy_kind(db, K_PART, ids, n, steps, sizeof steps / sizeof steps[0], no_collect, NULL, NULL);
+}
+
+int db_mirror_lots(hb_db *db, const int64_t *ids, size_t n)
+{
+	static const enum mirror_copy_id steps[] = { C_LOTS, C_LOT_DECISIONS };
+	static const int cols[2] = { 1, -1 };
+	if (!db->pg)
+		return HB_OK;
+	id_list parts = { 0 };
 	id_list *collect[2] = { &parts, NULL };
-	const int cols[2] = { 1, -1 };
-	int status = not_yet(db, K_LOT, ids, n, &todo);
-	if (status == HB_OK)
-		status = copy_ids(db, C_LOTS, &todo, cols, collect);
-	if (status == HB_OK)
-		status = copy_ids(db, C_LOT_DECISIONS, &todo, no_collect, NULL);
+	int status = copy_kind(db, K_LOT, ids, n, steps, sizeof steps / sizeof steps[0], cols, collect, NULL);
 	if (status == HB_OK)
 		status = db_mirror_parts(db, parts.ids, parts.n);
-	free(todo.ids);
 	free(parts.ids);
 	return status;
 }
 
 int db_mirror_units(hb_db *db, const int64_t *ids, size_t n)
 {
+	static const enum mirror_copy_id steps[] = { C_UNITS };
+	static const int cols[2] = { 1, 3 };
 	if (!db->pg)
 		return HB_OK;
-	id_list todo = { 0 }, parts = { 0 }, lots = { 0 };
+	id_list parts = { 0 }, lots = { 0 };
 	id_list *collect[2] = { &parts, &lots };
-	const int cols[2] = { 1, 3 };
-	int status = not_yet(db, K_UNIT, ids, n, &todo);
-	if (status == HB_OK)
-		status = copy_ids(db, C_UNITS, &todo, cols, collect);
+	int status = copy_kind(db, K_UNIT, ids, n, steps, 1, cols, collect, NULL);
 	if (status == HB_OK)
 		status = db_mirror_parts(db, parts.ids, parts.n);
 	if (status == HB_OK)
 		status = db_mirror_lots(db, lots.ids, lots.n);
-	free(todo.ids);
 	free(parts.ids);
 	free(lots.ids);
 	return status;
@@ -511,21 +515,17 @@ int db_mirror_sweeps(hb_db *db, const int64_t *ids, size_t n)
 		ids = m->ahead.ids + first;
 		n = m->ahead.n - first < AHEAD_SWEEPS ? m->ahead.n - first : AHEAD_SWEEPS;
 	}
-	id_list todo = { 0 }, units = { 0 };
+	static const enum mirror_copy_id steps[] = { C_SWEEPS, C_POINT_COUNTS, C_FITS, C_FIT_VALUES, C_FIT_UNC,
+						     C_VERDICTS, C_TRACE };
+	static const int cols[2] = { 1, -1 };
+	id_list units = { 0 };
 	id_list *collect[2] = { &units, NULL };
-	const int cols[2] = { 1, -1 };
-	int status = not_yet(db, K_SWEEP, ids, n, &todo);
-	if (status == HB_OK)
-		status = copy_ids(db, C_SWEEPS, &todo, cols, collect);
-	static const enum mirror_copy_id with_sweep[] = { C_POINT_COUNTS, C_FITS, C_FIT_VALUES, C_FIT_UNC,
-							  C_VERDICTS, C_TRACE };
-	for (size_t i = 0; i < sizeof with_sweep / sizeof with_sweep[0] && status == HB_OK; i++)
-		status = copy_ids(db, with_sweep[i], &todo, no_collect, NULL);
+	size_t new_ones = 0;
+	int status = copy_kind(db, K_SWEEP, ids, n, steps, sizeof steps / sizeof steps[0], cols, collect, &new_ones);
 	if (status == HB_OK)
 		status = db_mirror_units(db, units.ids, units.n);
-	if (status == HB_OK && todo.n)
+	if (status == HB_OK && new_ones)
 		status = mirror_register(db);
-	free(todo.ids);
 	free(units.ids);
 	return status;
 }

@@ -442,6 +442,24 @@ static void test_reads_from_server(void **state)
 		free(want);
 		free(got);
 	}
+	/* a desk whose station file names the server as its store reads it without --db */
+	char station_file[400], station_env[420];
+	snprintf(station_file, sizeof station_file, "%s/desk.ini", dir);
+	FILE *desk = fopen(station_file, "w");
+	assert_non_null(desk);
+	fprintf(desk, "[store]\npath = %s\n", url);
+	fclose(desk);
+	snprintf(station_env, sizeof station_env, "HENRYBENCH_STATION=%s", station_file);
+	const char *by_file[] = { "history", part, "--json", NULL };
+	const char *by_db[] = { "--db", a, "history", part, "--json", NULL };
+	assert_int_equal(run_hb(NULL, by_db, err, sizeof err), 0);
+	char *want_desk = last_out();
+	assert_int_equal(run_hb(station_env, by_file, err, sizeof err), 0);
+	char *got_desk = last_out();
+	assert_string_equal(got_desk, want_desk);
+	free(want_desk);
+	free(got_desk);
+
 	/* the demo's filed report verifies against the server (its points came through the push) */
 	snprintf(report, sizeof report, "%s/read-a/report.html", dir);
 	const char *verify_station[] = { "--db", url, "verify", report, NULL };

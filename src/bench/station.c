@@ -81,14 +81,30 @@ static int set_limit(parse_ctx *c, const char *value, const char *unit, double *
 	return 1;
 }
 
+/* A key with two accepted words: *is_first tells which was given; 0 (message set) for anything else. */
+static int two_words(parse_ctx *c, int line, const char *key, const char *value, const char *first, const char *second,
+		     bool *is_first)
+{
+	if (strcmp(value, first) && strcmp(value, second)) {
+		snprintf(c->err, c->errlen, "%s:%d: key '%s': '%s' is not %s or %s", c->station->path, line, key, value, first,
+			 second);
+		c->failed = 1;
+		return 0;
+	}
+	*is_first = strcmp(value, first) == 0;
+	return 1;
+}
+
 /* [store] path, server, sync. A relative path is taken from the station file's directory, so that
- * the file means the same store whatever directory henrybench runs in. */
+ * the file means the same store whatever directory henrybench runs in; a server URL as the path makes
+ * a desk that reads the shared server (its writing commands refuse). */
 static int store_entry(parse_ctx *c, const char *name, const char *value, int line)
 {
 	hb_station *s = c->station;
 	if (strcmp(name, "path") == 0) {
 		const char *slash = strrchr(s->path, '/');
-		int n = value[0] == '/' || !slash ? 0 : (int)(slash - s->path) + 1;
+		bool url = strncmp(value, "postgresql://", 13) == 0 || strncmp(value, "postgres://", 11) == 0;
+		int n = value[0] == '/' || url || !slash ? 0 : (int)(slash - s->path) + 1;
 		if (!*value || snprintf(s->store_path, sizeof s->store_path, "%.*s%s", n, s->path, value) >=
 				       (int)sizeof s->store_path) {
 			snprintf(c->err, c->errlen, "%s:%d: key 'path': '%s' is not a store path of 1 to %zu bytes",
@@ -115,16 +131,8 @@ static int store_entry(parse_ctx *c, const char *name, const char *value, int li
 		snprintf(s->server, sizeof s->server, "%s", value);
 		return 1;
 	}
-	if (strcmp(name, "sync") == 0) {
-		if (strcmp(value, "after-sweep") && strcmp(value, "manual")) {
-			snprintf(c->err, c->errlen, "%s:%d: key 'sync': '%s' is not after-sweep or manual", s->path, line,
-				 value);
-			c->failed = 1;
-			return 0;
-		}
-		s->sync_after_sweep = strcmp(value, "after-sweep") == 0;
-		return 1;
-	}
+	if (strcmp(name, "sync") == 0)
+		return two_words(c, line, "sync", value, "after-sweep", "manual", &s->sync_after_sweep);
 	snprintf(c->err, c->errlen, "%s:%d: unknown key '%s' in section [store] (known: path, server, sync)", s->path, line,
 		 name);
 	c->failed = 1;
@@ -204,14 +212,10 @@ static int on_entry(void *user, const char *section, const char *name, const cha
 		return 1;
 	} else if (strcmp(section, "calibration") == 0) {
 		if (strcmp(name, "overdue") == 0) {
-			if (strcmp(value, "warn") && strcmp(value, "refuse")) {
-				snprintf(c->err, c->errlen, "%s:%d: key 'overdue': '%s' is not warn or refuse", s->path, line,
-					 value);
-				c->failed = 1;
-				return 0;
-			}
-			s->refuse_overdue = strcmp(value, "refuse") == 0;
-			return 1;
+			bool warn = true;
+			int ok = two_words(c, line, "overdue", value, "warn", "refuse", &warn);
+			s->refuse_overdue = ok && !warn;
+			return ok;
 		}
 	} else if (strcmp(section, "fixture") == 0) {
 		if (strcmp(name, "max_age_hours") == 0)
