@@ -170,7 +170,7 @@ static const char *overall_of(const hb_db_verdict *v, size_t n)
 		else if (v[i].outcome != HB_DB_PASS)
 			untested = true;
 	}
-	/* as the analysis decides it (src/quality/analysis.c) */
+	/* as the analysis decides it (src/quality/analysis_judge.c) */
 	return untested ? "incomplete" : conditional ? "conditional" : "pass";
 }
 
