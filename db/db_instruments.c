@@ -23,6 +23,22 @@ static sqlite3_stmt *prep(hb_db *db, const char *sql, const char *what)
 	return st;
 }
 
+/* One row by its id (bound as ?1): the statement prepared, read into out
+ * and finalised; noun and the id name the row in a not-found message. */
+static int read_by_id(hb_db *db, const char *sql, int64_t id, db_row_reader *read, void *out, const char *noun,
+		      const char *what)
+{
+	sqlite3_stmt *st = prep(db, sql, what);
+	if (!st)
+		return HB_ERR_DB;
+	sqlite3_bind_int64(st, 1, id);
+	char key[32];
+	snprintf(key, sizeof key, "%lld", (long long)id);
+	int rc = db_read_one(db, st, read, out, NULL, noun, key, what);
+	sqlite3_finalize(st);
+	return rc;
+}
+
 #define INSTR_COLS                                                                                                \
 	"id, kind, maker, model, serial, firmware, first_seen, last_seen, accuracy, accuracy_freq_above, cal_date, " \
 	"due_date, certificate"
@@ -52,15 +68,8 @@ int hb_db_instrument_get(hb_db *db, int64_t id, hb_db_instrument *out)
 	int mirrored = db_mirror_register(db);
 	if (mirrored < 0)
 		return mirrored;
-	sqlite3_stmt *st = prep(db, "SELECT " INSTR_COLS " FROM instruments WHERE id = ?1", "reading an instrument");
-	if (!st)
-		return HB_ERR_DB;
-	sqlite3_bind_int64(st, 1, id);
-	char key[32];
-	snprintf(key, sizeof key, "%lld", (long long)id);
-	int rc = db_read_one(db, st, read_instrument, out, NULL, "instrument", key, "reading an instrument");
-	sqlite3_finalize(st);
-	return rc;
+	return read_by_id(db, "SELECT " INSTR_COLS " FROM instruments WHERE id = ?1", id, read_instrument, out, "instrument",
+			  "reading an instrument");
 }
 
 int hb_db_instrument_ensure(hb_db *db, const char *kind, const char *maker, const char *model, const char *serial,
@@ -227,16 +236,8 @@ int hb_db_fixture_comp_get(hb_db *db, int64_t id, hb_db_fixture_comp *out)
 	int mirrored = db_mirror_register(db);
 	if (mirrored < 0)
 		return mirrored;
-	sqlite3_stmt *st = prep(db, "SELECT " COMP_COLS " FROM fixture_compensations WHERE id = ?1",
-				"reading a fixture compensation");
-	if (!st)
-		return HB_ERR_DB;
-	sqlite3_bind_int64(st, 1, id);
-	char key[32];
-	snprintf(key, sizeof key, "%lld", (long long)id);
-	int rc = db_read_one(db, st, read_comp, out, NULL, "fixture compensation", key, "reading a fixture compensation");
-	sqlite3_finalize(st);
-	return rc;
+	return read_by_id(db, "SELECT " COMP_COLS " FROM fixture_compensations WHERE id = ?1", id, read_comp, out,
+			  "fixture compensation", "reading a fixture compensation");
 }
 
 int hb_db_fixture_comp_latest(hb_db *db, const char *fixture, const char *kind, hb_db_fixture_comp *out)
@@ -322,20 +323,11 @@ int hb_db_sweep_trace_get(hb_db *db, int64_t sweep_id, hb_db_sweep_trace *out)
 	int mirrored = db_mirror_sweeps(db, &sweep_id, 1);
 	if (mirrored < 0)
 		return mirrored;
-	sqlite3_stmt *st = prep(db,
-				"SELECT sweep_id, lcr_instrument_id, supply_instrument_id, cal_status, overdue_allowed, fixture, "
-				"open_comp_id, short_comp_id, fixture_status, fixture_applied, settings_start, settings_end, "
-				"settings_changed FROM sweep_trace WHERE sweep_id = ?1",
-				"reading what the sweep ran with");
-	if (!st)
-		return HB_ERR_DB;
-	sqlite3_bind_int64(st, 1, sweep_id);
-	char key[32];
-	snprintf(key, sizeof key, "%lld", (long long)sweep_id);
-	int rc = db_read_one(db, st, read_trace, out, NULL, "instrument record of sweep", key,
-			     "reading what the sweep ran with");
-	sqlite3_finalize(st);
-	return rc;
+	return read_by_id(db,
+			  "SELECT sweep_id, lcr_instrument_id, supply_instrument_id, cal_status, overdue_allowed, fixture, "
+			  "open_comp_id, short_comp_id, fixture_status, fixture_applied, settings_start, settings_end, "
+			  "settings_changed FROM sweep_trace WHERE sweep_id = ?1",
+			  sweep_id, read_trace, out, "instrument record of sweep", "reading what the sweep ran with");
 }
 
 /* ---------------- reverse traceability ---------------- */

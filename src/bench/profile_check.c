@@ -344,19 +344,30 @@ static const char *mode_name(hb_supply_mode m)
 	return (unsigned)m < 4 ? names[m] : "?";
 }
 
-/* The read-backs: nothing here changes the supply. */
+/* The read-backs: nothing here changes the supply. The numeric ones differ
+ * only in the call, the unit and a label, so one path reads them all. */
 static void supply_reads(hb_supply *s, capture *c, hb_pcheck_report *r, const char *when)
 {
 	char a[48];
 	int rc;
 	hb_pcheck_item *it;
 	char op[48];
-	static const char *const ops[] = { "output.state", "current.query", "measure.current", "measure.voltage", "mode",
-					   "protection" };
+	static const struct {
+		const char *op;
+		int (*value)(hb_supply *, double *); /* a number with its unit; NULL: told below */
+		const char *unit, *label;
+	} ops[] = {
+		{ "output.state", NULL, NULL, NULL },
+		{ "current.query", hb_supply_query_current, "A", "set-point " },
+		{ "measure.current", hb_supply_measure_current, "A", "" },
+		{ "measure.voltage", hb_supply_measure_voltage, "V", "" },
+		{ "mode", NULL, NULL, NULL },
+		{ "protection", NULL, NULL, NULL },
+	};
 	for (size_t i = 0; i < sizeof ops / sizeof ops[0]; i++) {
-		snprintf(op, sizeof op, "%s%s", ops[i], when);
+		snprintf(op, sizeof op, "%s%s", ops[i].op, when);
 		it = item(r, op);
-		if (!hb_supply_supports(s, ops[i])) {
+		if (!hb_supply_supports(s, ops[i].op)) {
 			it->result = HB_PCHECK_ABSENT;
 			continue;
 		}
@@ -369,27 +380,6 @@ static void supply_reads(hb_supply *s, capture *c, hb_pcheck_report *r, const ch
 				set_read(it, "output %s", on ? "on" : "off");
 			break;
 		}
-		case 1: {
-			double amps = NAN;
-			rc = hb_supply_query_current(s, &amps);
-			if (rc == HB_OK)
-				set_read(it, "set-point %s", hb_format_si(a, sizeof a, amps, "A", 4));
-			break;
-		}
-		case 2: {
-			double amps = NAN;
-			rc = hb_supply_measure_current(s, &amps);
-			if (rc == HB_OK)
-				set_read(it, "%s", hb_format_si(a, sizeof a, amps, "A", 4));
-			break;
-		}
-		case 3: {
-			double volts = NAN;
-			rc = hb_supply_measure_voltage(s, &volts);
-			if (rc == HB_OK)
-				set_read(it, "%s", hb_format_si(a, sizeof a, volts, "V", 4));
-			break;
-		}
 		case 4: {
 			hb_supply_mode m = HB_SUPPLY_MODE_UNKNOWN;
 			rc = hb_supply_get_mode(s, &m);
@@ -397,11 +387,18 @@ static void supply_reads(hb_supply *s, capture *c, hb_pcheck_report *r, const ch
 				set_read(it, "%s", mode_name(m));
 			break;
 		}
-		default: {
+		case 5: {
 			bool tripped = false;
 			rc = hb_supply_protection(s, &tripped);
 			if (rc == HB_OK)
 				set_read(it, "%s", tripped ? "TRIPPED" : "not tripped");
+			break;
+		}
+		default: {
+			double v = NAN;
+			rc = ops[i].value(s, &v);
+			if (rc == HB_OK)
+				set_read(it, "%s%s", ops[i].label, hb_format_si(a, sizeof a, v, ops[i].unit, 4));
 			break;
 		}
 		}
