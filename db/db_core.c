@@ -36,6 +36,18 @@ sqlite3_stmt *db_prepare_cached(hb_db *db, sqlite3_stmt **cache, const char *sql
 	return *cache;
 }
 
+sqlite3_stmt *db_prepare_once(hb_db *db, const char *sql, const char *what)
+{
+	sqlite3_stmt *st = NULL;
+	int rc = sqlite3_prepare_v2(db->conn, sql, -1, &st, NULL);
+	if (rc != SQLITE_OK) {
+		db_fail(db, rc, what);
+		sqlite3_finalize(st);
+		return NULL;
+	}
+	return st;
+}
+
 sqlite3_stmt *db_stmt(hb_db *db, enum db_stmt_slot slot, const char *sql)
 {
 	return db_prepare_cached(db, &db->stmt[slot], sql);

@@ -11,24 +11,12 @@
  * when needed and finalised after; the statement cache stays for the point
  * path.
  */
-static sqlite3_stmt *prep(hb_db *db, const char *sql, const char *what)
-{
-	sqlite3_stmt *st = NULL;
-	int rc = sqlite3_prepare_v2(db->conn, sql, -1, &st, NULL);
-	if (rc != SQLITE_OK) {
-		db_fail(db, rc, what);
-		sqlite3_finalize(st);
-		return NULL;
-	}
-	return st;
-}
-
 /* One row by its id (bound as ?1): the statement prepared, read into out
  * and finalised; noun and the id name the row in a not-found message. */
 static int read_by_id(hb_db *db, const char *sql, int64_t id, db_row_reader *read, void *out, const char *noun,
 		      const char *what)
 {
-	sqlite3_stmt *st = prep(db, sql, what);
+	sqlite3_stmt *st = db_prepare_once(db, sql, what);
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, id);
@@ -82,7 +70,7 @@ int hb_db_instrument_ensure(hb_db *db, const char *kind, const char *maker, cons
 	char now[HB_DB_TIME_LEN];
 	db_iso_time(db_now(), now, sizeof now);
 	/* Insert when new; the RETURNING row tells which happened. */
-	sqlite3_stmt *st = prep(db,
+	sqlite3_stmt *st = db_prepare_once(db,
 				"INSERT INTO instruments (kind, maker, model, serial, firmware, first_seen, last_seen) "
 				"VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?6) ON CONFLICT (maker, model, serial) DO NOTHING RETURNING id",
 				"recording an instrument");
@@ -104,7 +92,7 @@ int hb_db_instrument_ensure(hb_db *db, const char *kind, const char *maker, cons
 			*created = true;
 		return hb_db_instrument_get(db, id, out);
 	}
-	st = prep(db,
+	st = db_prepare_once(db,
 		  "UPDATE instruments SET last_seen = ?4, firmware = ?5 WHERE maker = ?1 AND model = ?2 AND serial = ?3 "
 		  "RETURNING id",
 		  "updating an instrument");
@@ -127,7 +115,7 @@ int hb_db_instrument_find(hb_db *db, const char *serial, hb_db_instrument *out)
 	int mirrored = db_mirror_register(db);
 	if (mirrored < 0)
 		return mirrored;
-	sqlite3_stmt *st = prep(db, "SELECT " INSTR_COLS " FROM instruments WHERE serial = ?1 ORDER BY id",
+	sqlite3_stmt *st = db_prepare_once(db, "SELECT " INSTR_COLS " FROM instruments WHERE serial = ?1 ORDER BY id",
 				"finding an instrument");
 	if (!st)
 		return HB_ERR_DB;
@@ -155,7 +143,7 @@ int hb_db_instrument_list(hb_db *db, hb_db_instrument **out, size_t *count)
 	int mirrored = db_mirror_register(db);
 	if (mirrored < 0)
 		return mirrored;
-	sqlite3_stmt *st = prep(db, "SELECT " INSTR_COLS " FROM instruments ORDER BY kind, serial, id",
+	sqlite3_stmt *st = db_prepare_once(db, "SELECT " INSTR_COLS " FROM instruments ORDER BY kind, serial, id",
 				"listing instruments");
 	if (!st)
 		return HB_ERR_DB;
@@ -166,7 +154,7 @@ int hb_db_instrument_list(hb_db *db, hb_db_instrument **out, size_t *count)
 
 int hb_db_instrument_update(hb_db *db, const hb_db_instrument *in)
 {
-	sqlite3_stmt *st = prep(db,
+	sqlite3_stmt *st = db_prepare_once(db,
 				"UPDATE instruments SET accuracy = ?2, accuracy_freq_above = ?3, cal_date = ?4, due_date = ?5, "
 				"certificate = ?6 WHERE id = ?1",
 				"updating an instrument");
@@ -209,7 +197,7 @@ static void read_comp(sqlite3_stmt *st, void *row, const void *ctx)
 
 int hb_db_fixture_comp_add(hb_db *db, hb_db_fixture_comp *c)
 {
-	sqlite3_stmt *st = prep(db,
+	sqlite3_stmt *st = db_prepare_once(db,
 				"INSERT INTO fixture_compensations (fixture, kind, method, instrument_id, at, at_unix, residuals, "
 				"operator, note) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9) RETURNING id",
 				"recording a fixture compensation");
@@ -245,7 +233,7 @@ int hb_db_fixture_comp_latest(hb_db *db, const char *fixture, const char *kind, 
 	int mirrored = db_mirror_register(db);
 	if (mirrored < 0)
 		return mirrored;
-	sqlite3_stmt *st = prep(db,
+	sqlite3_stmt *st = db_prepare_once(db,
 				"SELECT " COMP_COLS " FROM fixture_compensations WHERE fixture = ?1 AND kind = ?2 "
 				"ORDER BY at_unix DESC, id DESC LIMIT 1",
 				"reading a fixture compensation");
@@ -272,7 +260,7 @@ void hb_db_sweep_trace_init(hb_db_sweep_trace *t)
 
 int hb_db_sweep_trace_put(hb_db *db, const hb_db_sweep_trace *t)
 {
-	sqlite3_stmt *st = prep(db,
+	sqlite3_stmt *st = db_prepare_once(db,
 				"INSERT OR REPLACE INTO sweep_trace (sweep_id, lcr_instrument_id, supply_instrument_id, cal_status, "
 				"overdue_allowed, fixture, open_comp_id, short_comp_id, fixture_status, fixture_applied, "
 				"settings_start, settings_end, settings_changed) "
@@ -376,7 +364,7 @@ int hb_db_instrument_affected(hb_db *db, int64_t instrument_id, double since_uni
 		"    1e300, 2, l.id FROM inspections i JOIN used ON used.sweep_id = i.sweep_id "
 		"    JOIN lots l ON l.id = i.lot_id JOIN parts p ON p.id = l.part_id"
 		") ORDER BY k1, sweep_id, k2, k3";
-	sqlite3_stmt *st = prep(db, sql, "listing what an instrument measured");
+	sqlite3_stmt *st = db_prepare_once(db, sql, "listing what an instrument measured");
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, instrument_id);

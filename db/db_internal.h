@@ -65,6 +65,8 @@ struct hb_db {
  * (message set). */
 sqlite3_stmt *db_stmt(hb_db *db, enum db_stmt_slot slot, const char *sql);
 sqlite3_stmt *db_prepare_cached(hb_db *db, sqlite3_stmt **cache, const char *sql);
+/* A statement prepared for one use (the caller finalises it); NULL on error, the message naming what. */
+sqlite3_stmt *db_prepare_once(hb_db *db, const char *sql, const char *what);
 /* Resets and clears bindings so the statement holds no read snapshot. */
 void db_release(sqlite3_stmt *st);
 /* With the plan watch on, EXPLAIN QUERY PLAN of sql; full scans are kept as findings. */

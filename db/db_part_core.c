@@ -6,18 +6,6 @@
 
 /* Prepared per call: these run once per command, and keeping them out of
  * the statement cache keeps the catalogue's statements as they were. */
-static sqlite3_stmt *prepare(hb_db *db, const char *sql, const char *what)
-{
-	sqlite3_stmt *st = NULL;
-	int rc = sqlite3_prepare_v2(db->conn, sql, -1, &st, NULL);
-	if (rc != SQLITE_OK) {
-		db_fail(db, rc, what);
-		sqlite3_finalize(st);
-		return NULL;
-	}
-	return st;
-}
-
 void hb_db_part_core_init(hb_db_part_core *c)
 {
 	memset(c, 0, sizeof *c);
@@ -34,7 +22,7 @@ int hb_db_part_core_get(hb_db *db, const char *part_number, hb_db_part_core *out
 	hb_db_part_core_init(out);
 	if (db->old_version && db->old_version < 8)
 		return HB_OK; /* an older store has no core set: none */
-	sqlite3_stmt *st = prepare(db, "SELECT core_shape, core_dims, gap_at FROM parts WHERE part_number = ?1",
+	sqlite3_stmt *st = db_prepare_once(db, "SELECT core_shape, core_dims, gap_at FROM parts WHERE part_number = ?1",
 				   "reading a part's core set");
 	if (!st)
 		return HB_ERR_DB;
@@ -61,7 +49,7 @@ int hb_db_part_core_put(hb_db *db, const char *part_number, const hb_db_part_cor
 		return db_error(db, HB_ERR_ARG, "gap placement '%s': accepted centre or spacer", in->gap_at);
 	if (strlen(in->dims) >= sizeof in->dims - 1)
 		return db_error(db, HB_ERR_ARG, "core dimensions too long to store whole");
-	sqlite3_stmt *st = prepare(db, "UPDATE parts SET core_shape = ?2, core_dims = ?3, gap_at = ?4 WHERE part_number = ?1",
+	sqlite3_stmt *st = db_prepare_once(db, "UPDATE parts SET core_shape = ?2, core_dims = ?3, gap_at = ?4 WHERE part_number = ?1",
 				   "storing a part's core set");
 	if (!st)
 		return HB_ERR_DB;

@@ -8,18 +8,6 @@
 
 /* Statements here run a few times per command: prepared per call, not
  * cached, so the shared slot table stays as it is. */
-static sqlite3_stmt *prepare(hb_db *db, const char *sql)
-{
-	sqlite3_stmt *st = NULL;
-	int rc = sqlite3_prepare_v2(db->conn, sql, -1, &st, NULL);
-	if (rc != SQLITE_OK) {
-		db_fail(db, rc, "preparing a lot-stream query");
-		sqlite3_finalize(st);
-		return NULL;
-	}
-	return st;
-}
-
 const char *hb_db_stream_kind_name(hb_db_stream_kind kind)
 {
 	switch (kind) {
@@ -37,7 +25,7 @@ int hb_db_lot_set_stream(hb_db *db, int64_t lot_id, const char *supplier, bool i
 {
 	if (!db || !supplier)
 		return HB_ERR_ARG;
-	sqlite3_stmt *st = prepare(db, "UPDATE lots SET supplier = ?2, production_irregular = ?3 WHERE id = ?1");
+	sqlite3_stmt *st = db_prepare_once(db, "UPDATE lots SET supplier = ?2, production_irregular = ?3 WHERE id = ?1", "preparing a lot-stream query");
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, lot_id);
@@ -66,7 +54,7 @@ int hb_db_lot_get_stream(hb_db *db, int64_t lot_id, char *supplier, size_t cap, 
 	int mirrored = db_mirror_lots(db, &lot_id, 1);
 	if (mirrored < 0)
 		return mirrored;
-	sqlite3_stmt *st = prepare(db, "SELECT supplier, production_irregular FROM lots WHERE id = ?1");
+	sqlite3_stmt *st = db_prepare_once(db, "SELECT supplier, production_irregular FROM lots WHERE id = ?1", "preparing a lot-stream query");
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, lot_id);
@@ -88,7 +76,7 @@ int hb_db_lot_stamp_decided(hb_db *db, int64_t lot_id)
 {
 	if (!db)
 		return HB_ERR_ARG;
-	sqlite3_stmt *st = prepare(db, "UPDATE lots SET decided_unix = ?2 WHERE id = ?1");
+	sqlite3_stmt *st = db_prepare_once(db, "UPDATE lots SET decided_unix = ?2 WHERE id = ?1", "preparing a lot-stream query");
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, lot_id);
@@ -136,14 +124,14 @@ int hb_db_stream_lots(hb_db *db, int64_t part_id, const char *supplier, hb_db_st
 		return db_pg_stream_lots(db, part_id, supplier, out, count);
 	/* Lots decided before decided_unix existed keep their whole-second
 	 * decided_at; the id breaks ties in the order they were begun. */
-	sqlite3_stmt *st = prepare(db,
+	sqlite3_stmt *st = db_prepare_once(db,
 		"SELECT id, part_id, lot_code, lot_size, aql, inspection_level, severity, code_letter, sample_size,"
 		" accept_number, reject_number, decision, created, decided_at, supplier, production_irregular,"
 		" (SELECT count(*) FROM inspections i WHERE i.lot_id = lots.id AND i.outcome = 'fail'"
 		" AND i.superseded_by IS NULL),"
 		" coalesce(decided_unix, CAST(strftime('%s', decided_at) AS REAL)) AS t"
 		" FROM lots WHERE part_id = ?1 AND supplier = ?2 AND decision IN ('accept', 'reject')"
-		" ORDER BY t, id");
+		" ORDER BY t, id", "preparing a lot-stream query");
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, part_id);
@@ -171,9 +159,9 @@ int hb_db_stream_suppliers(hb_db *db, int64_t part_id, char (**out)[HB_DB_ID_LEN
 		return HB_ERR_ARG;
 	if (db->pg)
 		return db_pg_stream_suppliers(db, part_id, out, count);
-	sqlite3_stmt *st = prepare(db,
+	sqlite3_stmt *st = db_prepare_once(db,
 		"SELECT supplier FROM lots WHERE part_id = ?1 AND decision IN ('accept', 'reject')"
-		" UNION SELECT supplier FROM stream_events WHERE part_id = ?1 ORDER BY 1");
+		" UNION SELECT supplier FROM stream_events WHERE part_id = ?1 ORDER BY 1", "preparing a lot-stream query");
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, part_id);
@@ -187,8 +175,8 @@ int hb_db_stream_event_add(hb_db *db, int64_t part_id, const char *supplier, hb_
 {
 	if (!db || !supplier || (unsigned)kind > HB_DB_STREAM_RESUME)
 		return HB_ERR_ARG;
-	sqlite3_stmt *st = prepare(db, "INSERT INTO stream_events (part_id, supplier, kind, note, at, at_unix)"
-				       " VALUES (?1, ?2, ?3, ?4, ?5, ?6)");
+	sqlite3_stmt *st = db_prepare_once(db, "INSERT INTO stream_events (part_id, supplier, kind, note, at, at_unix)"
+				       " VALUES (?1, ?2, ?3, ?4, ?5, ?6)", "preparing a lot-stream query");
 	if (!st)
 		return HB_ERR_DB;
 	double now = db_now();
@@ -226,8 +214,8 @@ int hb_db_stream_events(hb_db *db, int64_t part_id, const char *supplier, hb_db_
 		return HB_ERR_ARG;
 	if (db->pg)
 		return db_pg_stream_events(db, part_id, supplier, out, count);
-	sqlite3_stmt *st = prepare(db, "SELECT id, kind, note, at, at_unix FROM stream_events"
-				       " WHERE part_id = ?1 AND supplier = ?2 ORDER BY at_unix, id");
+	sqlite3_stmt *st = db_prepare_once(db, "SELECT id, kind, note, at, at_unix FROM stream_events"
+				       " WHERE part_id = ?1 AND supplier = ?2 ORDER BY at_unix, id", "preparing a lot-stream query");
 	if (!st)
 		return HB_ERR_DB;
 	sqlite3_bind_int64(st, 1, part_id);

@@ -1,4 +1,4 @@
-/* tests/test_unc_wiring.c - uncertainty wired into the bench (issue 10): accuracy specifications (drivers/accuracy.c, src/bench/station.c, session.c), GUM budgets of the fit (src/quality/budget.c, analysis.c, analysis_print.c), decision rules in verdicts (analysis.c, decision.c, inspect.c, src/report/report.c), Cpk with confidence (history.c), coverage on the simulator with a meter gain error (drivers/sim/) */
+/* tests/test_unc_wiring.c - uncertainty wired into the bench (issue 10): accuracy specifications (drivers/accuracy.c, src/bench/station.c, session.c), GUM budgets of the fit (src/quality/budget.c, analysis.c, analysis_print.c), decision rules in verdicts (analysis_judge.c, decision.c, inspect.c, src/report/report.c), Cpk with confidence (history.c), coverage on the simulator with a meter gain error (drivers/sim/) */
 #include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -419,7 +419,7 @@ static void test_dcr_referral(void **state)
 	hb_db_close(db);
 }
 
-/* ---------------- decision rules in verdicts (src/quality/analysis.c) ---------------- */
+/* ---------------- decision rules in verdicts (src/quality/analysis_judge.c) ---------------- */
 
 static const hb_analysis_check *check_named(const hb_analysis_summary *s, const char *name)
 {

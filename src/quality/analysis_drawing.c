@@ -3,24 +3,8 @@
 #include <stdio.h>
 #include <string.h>
 
-#include "analysis.h"
+#include "analysis_internal.h"
 #include "../../common/hb_text.h"
-
-static void add_check(hb_analysis_summary *s, const char *name, const char *unit, hb_check c, const char *note)
-{
-	if (s->n_checks >= HB_ANALYSIS_MAX_CHECKS)
-		return;
-	hb_analysis_check *k = &s->checks[s->n_checks++];
-	snprintf(k->name, sizeof k->name, "%s", name);
-	snprintf(k->unit, sizeof k->unit, "%s", unit);
-	k->check = c;
-	snprintf(k->note, sizeof k->note, "%s", note ? note : "");
-}
-
-static hb_check untested(void)
-{
-	return hb_verdict_limits(NAN, NAN, NAN);
-}
 
 /* The data sheet's curve mask: one check "mask" carrying the worst point
  * (its budget goes in as "mask", so apply_rules judges it as the mask
@@ -38,7 +22,7 @@ void hb_analysis_judge_drawing(hb_analysis_summary *s, const hb_db_part *part, h
 			HB_ERR_DATA;
 		if (rc == HB_OK) {
 			s->have_mask = true;
-			hb_check c = untested();
+			hb_check c = hb_analysis__untested();
 			char note[160];
 			hb_mask_summary_text(&s->mask, note, sizeof note);
 			if (s->mask.worst >= 0) {
@@ -49,9 +33,9 @@ void hb_analysis_judge_drawing(hb_analysis_summary *s, const hb_db_part *part, h
 				if (s->mask.outcome == HB_DECISION_NOT_TESTED)
 					c.outcome = HB_OUTCOME_NOT_TESTED;
 			}
-			add_check(s, "mask", "H", c, note);
+			hb_analysis__add_check(s, "mask", "H", c, note);
 		} else {
-			add_check(s, "mask", "H", untested(), "no bias data to judge the data sheet's curve mask against");
+			hb_analysis__add_check(s, "mask", "H", hb_analysis__untested(), "no bias data to judge the data sheet's curve mask against");
 		}
 	}
 	if (isfinite(drw->gap_m)) {
@@ -79,7 +63,7 @@ void hb_analysis_judge_drawing(hb_analysis_summary *s, const hb_db_part *part, h
 		char note[160];
 		char a[32], b[32];
 		if (why) {
-			add_check(s, "gap", "m", untested(), why);
+			hb_analysis__add_check(s, "gap", "m", hb_analysis__untested(), why);
 		} else {
 			g->measured = s->bias.core.gap_physical;
 			g->U = bg->U;
@@ -87,7 +71,7 @@ void hb_analysis_judge_drawing(hb_analysis_summary *s, const hb_db_part *part, h
 			snprintf(note, sizeof note, "physical gap from the core fit against the drawn %s +- %s%s",
 				 hb_format_si(a, sizeof a, g->drawn, "m", 3), hb_format_si(b, sizeof b, g->tol, "m", 3),
 				 (s->bias.core.flags & HB_CORE_NO_LAW_FITS) ? "; the core model MISFITS this part" : "");
-			add_check(s, "gap", "m", hb_verdict_limits(g->measured, g->drawn - g->tol, g->drawn + g->tol), note);
+			hb_analysis__add_check(s, "gap", "m", hb_verdict_limits(g->measured, g->drawn - g->tol, g->drawn + g->tol), note);
 		}
 		s->have_gap_drawn = true;
 		hb_gap_drawn_sentence(g, s->gap_sentence, sizeof s->gap_sentence);

@@ -19,6 +19,10 @@ int hb_analysis__diagnose_misfits(hb_analysis_summary *s, const hb_db_point *pts
 /* analysis_judge.c: the checks of a bias sweep against its part's spec, the
  * rule in force, and every check judged by that rule with the overall
  * verdict. */
+/* analysis_judge.c: one check appended to the summary (none past HB_ANALYSIS_MAX_CHECKS), and a check
+ * with no limits (not tested); analysis_drawing.c adds its checks the same way. */
+void hb_analysis__add_check(hb_analysis_summary *s, const char *name, const char *unit, hb_check c, const char *note);
+hb_check hb_analysis__untested(void);
 void hb_analysis__judge_bias(hb_analysis_summary *s, const hb_db_part *part, const hb_db_sweep *sw, const double *I,
 			     const double *L, size_t n, const hb_budget_context *bc);
 void hb_analysis__resolve_rule(const hb_db_part *part, const hb_db_sweep *sw, const hb_analysis_options *opt,

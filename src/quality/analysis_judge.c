@@ -43,7 +43,7 @@ static double interp_at(const double *x, const double *y, size_t n, double at)
 	return NAN;
 }
 
-static void add_check(hb_analysis_summary *s, const char *name, const char *unit, hb_check c, const char *note)
+void hb_analysis__add_check(hb_analysis_summary *s, const char *name, const char *unit, hb_check c, const char *note)
 {
 	if (s->n_checks >= HB_ANALYSIS_MAX_CHECKS)
 		return;
@@ -54,7 +54,7 @@ static void add_check(hb_analysis_summary *s, const char *name, const char *unit
 	snprintf(k->note, sizeof k->note, "%s", note ? note : "");
 }
 
-static hb_check untested(void)
+hb_check hb_analysis__untested(void)
 {
 	return hb_verdict_limits(NAN, NAN, NAN);
 }
@@ -82,10 +82,10 @@ void hb_analysis__judge_bias(hb_analysis_summary *s, const hb_db_part *part, con
 			    (isfinite(sw->test_freq_hz) && fabs(sw->test_freq_hz / part->test_freq_hz - 1) < 0.01);
 	if (isfinite(part->nominal_h) && isfinite(part->tolerance)) {
 		if (at_spec_freq && s->fit_status == HB_OK)
-			add_check(s, "L0", "H", hb_verdict_tolerance(mf->L0, part->nominal_h, part->tolerance),
+			hb_analysis__add_check(s, "L0", "H", hb_verdict_tolerance(mf->L0, part->nominal_h, part->tolerance),
 				  "zero-bias inductance within the nominal tolerance");
 		else
-			add_check(s, "L0", "H", untested(),
+			hb_analysis__add_check(s, "L0", "H", hb_analysis__untested(),
 				  at_spec_freq ? "no zero-bias value" :
 				  !isfinite(sw->test_freq_hz) ? "no test frequency stored with the sweep" :
 								"sweep not at the spec's test frequency");
@@ -103,10 +103,10 @@ void hb_analysis__judge_bias(hb_analysis_summary *s, const hb_db_part *part, con
 			hb_budget_lsat(&s->bias, part->sat_current_a, l_at, slope, part->sat_drop, bc,
 				       &s->budgets[s->n_budgets++]);
 		if (isfinite(l_at))
-			add_check(s, "Lsat", "H", hb_verdict_min(l_at, (1 - part->sat_drop) * mf->L0),
+			hb_analysis__add_check(s, "Lsat", "H", hb_verdict_min(l_at, (1 - part->sat_drop) * mf->L0),
 				  "L at the saturation-spec current at least (1 - drop) L0");
 		else
-			add_check(s, "Lsat", "H", untested(), "sweep did not reach the saturation-spec current");
+			hb_analysis__add_check(s, "Lsat", "H", hb_analysis__untested(), "sweep did not reach the saturation-spec current");
 	}
 	if (isfinite(part->dcr_max_ohm)) {
 		if (isfinite(s->dcr_ohm)) {
@@ -119,9 +119,9 @@ void hb_analysis__judge_bias(hb_analysis_summary *s, const hb_db_part *part, con
 				snprintf(ref, sizeof ref, "uncorrected: no temperature stored");
 			snprintf(note, sizeof note, "%s; %s", s->dcr_from_meter ? "the meter's DC-resistance reading, at zero bias"
 							: "two-wire from the supply's V/I at low current, leads included", ref);
-			add_check(s, "DCR", "ohm", hb_verdict_max(referred ? s->dcr_ref_ohm : s->dcr_ohm, part->dcr_max_ohm), note);
+			hb_analysis__add_check(s, "DCR", "ohm", hb_verdict_max(referred ? s->dcr_ref_ohm : s->dcr_ohm, part->dcr_max_ohm), note);
 		} else
-			add_check(s, "DCR", "ohm", untested(), "no voltage read-back at low current");
+			hb_analysis__add_check(s, "DCR", "ohm", hb_analysis__untested(), "no voltage read-back at low current");
 	}
 }
 
