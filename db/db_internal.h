@@ -59,6 +59,7 @@ struct hb_db {
 	void *pg;
 	void *mirror;
 	int pg_filling;
+	int pg_plan_ready; /* the plan watch's session setting made on the server */
 };
 
 /* Prepared statement of slot, preparing sql on first use; NULL on error

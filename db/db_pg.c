@@ -60,6 +60,9 @@ int db_pg_exec(hb_db *db, PGconn *conn, const char *name, int n, const char *con
 		*out = res;
 	else
 		PQclear(res);
+	/* reads of a server handle under the plan watch (db_pg_plan.c) */
+	if (db->pg == conn)
+		db_pg_plan_note(db, conn, name, n, params);
 	return HB_OK;
 }
 

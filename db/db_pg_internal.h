@@ -27,6 +27,9 @@ int db_pg_prepare(hb_db *db, PGconn *conn, const char *name, const char *sql, co
  * result for the caller to PQclear. */
 int db_pg_exec(hb_db *db, PGconn *conn, const char *name, int n, const char *const *params, const char *what,
 	       PGresult **res);
+/* Under the plan watch (hb_db_plan_watch), the plan of a read just run on a server handle is checked
+ * for sequential scans of the tables that grow; findings join hb_db_plan_findings (db_pg_plan.c). */
+void db_pg_plan_note(hb_db *db, PGconn *conn, const char *name, int n, const char *const *params);
 /* BEGIN, COMMIT, ROLLBACK on the server. */
 int db_pg_simple(hb_db *db, PGconn *conn, const char *sql, const char *what);
 

@@ -72,7 +72,9 @@ static void add_finding(hb_db *db, const char *detail, const char *sql)
 
 void db_plan_note(hb_db *db, const char *sql)
 {
-	if (!db->plan_watch)
+	/* a server handle's in-memory copy holds what one command read: the server's plans are the ones
+	 * watched (db_pg_plan.c) */
+	if (!db->plan_watch || db->pg)
 		return;
 	size_t len = strlen(sql) + 32;
 	char *explain = malloc(len);

@@ -266,3 +266,9 @@ CREATE TABLE part_curve_mask (
 	current_a DOUBLE PRECISION NOT NULL, inductance_h DOUBLE PRECISION NOT NULL, tol DOUBLE PRECISION,
 	PRIMARY KEY (part_uid, ord)
 );
+
+-- step 3: indexes for the reads a server handle runs (checked by the plan watch in tests/test_pg_sync.c): the
+-- lots that sampled a sweep, and the sweeps an instrument measured
+CREATE INDEX inspections_sweep ON inspections(sweep_uid);
+CREATE INDEX sweep_trace_lcr ON sweep_trace(lcr_instrument_id);
+CREATE INDEX sweep_trace_supply ON sweep_trace(supply_instrument_id);

@@ -17,6 +17,7 @@
 #include <sqlite3.h>
 
 #include "pg_fixture.h"
+#include "db/hb_db.h"
 
 /*
  * What is checked is bookkeeping, not physics: the truth is the stations' own stores (what they
@@ -697,6 +698,108 @@ static void test_later_edits_follow_the_rule(void **state)
 	assert_int_equal(status_count("instruments"), 0);
 }
 
+/* Every read a server handle runs, on a server an index serves: the library's reads under the plan
+ * watch (EXPLAIN of each statement run, sequential scans disabled so that any usable index is taken,
+ * common practice), no finding; with one index dropped, the watch names the table it then scans. */
+static const char *server_reads(const char *url, const char *part, const char *lot, const char *serial,
+				size_t *checked)
+{
+	static char findings[8192];
+	hb_db *db = NULL;
+	assert_int_equal(hb_db_open_as(url, HB_DB_OPEN_READ, &db), HB_OK);
+	assert_int_equal(hb_db_plan_watch(db, true), HB_OK);
+	hb_db_part p;
+	assert_int_equal(hb_db_part_get(db, part, &p), HB_OK);
+	hb_db_history_filter hf;
+	hb_db_history_filter_init(&hf);
+	hf.part_number = part;
+	hb_db_history_row *rows = NULL;
+	size_t n = 0;
+	assert_int_equal(hb_db_history(db, &hf, &rows, &n), HB_OK);
+	assert_true(n > 0);
+	int64_t sweep_id = rows[0].sweep_id;
+	hb_db_history_free(rows);
+	/* the sweep list and count with each filter the commands use */
+	hb_db_sweep_filter sf;
+	const char *filters[][3] = { { NULL, NULL, NULL }, { part, NULL, NULL }, { NULL, serial, NULL },
+				     { part, NULL, lot } };
+	for (size_t i = 0; i < sizeof filters / sizeof filters[0]; i++) {
+		hb_db_sweep_filter_init(&sf);
+		sf.part_number = filters[i][0];
+		sf.serial = filters[i][1];
+		sf.lot_code = filters[i][2];
+		sf.limit = 50;
+		hb_db_sweep *sw = NULL;
+		size_t m = 0;
+		int64_t count = 0;
+		assert_int_equal(hb_db_sweep_list(db, &sf, &sw, &m), HB_OK);
+		assert_true(m > 0);
+		/* counting every sweep of the store reads them all by its nature: counts with a filter only */
+		if (i > 0) {
+			assert_int_equal(hb_db_sweep_count(db, &sf, &count), HB_OK);
+			assert_true(count >= (int64_t)m);
+		}
+		hb_db_sweeps_free(sw);
+	}
+	hb_db_sweep s;
+	assert_int_equal(hb_db_sweep_get(db, sweep_id, &s), HB_OK);
+	hb_db_point *pts = NULL;
+	assert_int_equal(hb_db_points_get(db, sweep_id, &pts, &n), HB_OK);
+	assert_true(n > 0);
+	hb_db_points_free(pts);
+	hb_db_lot lt;
+	assert_int_equal(hb_db_lot_find(db, p.id, lot, &lt), HB_OK);
+	hb_db_inspection *insp = NULL;
+	assert_int_equal(hb_db_inspection_list(db, lt.id, &insp, &n), HB_OK);
+	hb_db_inspections_free(insp);
+	hb_db_instrument inst;
+	assert_int_equal(hb_db_instrument_find(db, "SL0001", &inst), HB_OK);
+	hb_db_affected *aff = NULL;
+	assert_int_equal(hb_db_instrument_affected(db, inst.id, 0, &aff, &n), HB_OK);
+	assert_true(n > 0);
+	free(aff);
+	char uid[HB_DB_UID_LEN];
+	int64_t found = 0;
+	assert_int_equal(hb_db_uid_of(db, HB_DB_REC_SWEEP, sweep_id, uid), HB_OK);
+	assert_int_equal(hb_db_uid_find(db, HB_DB_REC_SWEEP, uid, &found), HB_OK);
+	assert_int_equal(found, sweep_id);
+	char(*suppliers)[HB_DB_ID_LEN] = NULL;
+	assert_int_equal(hb_db_stream_suppliers(db, p.id, &suppliers, &n), HB_OK);
+	free(suppliers);
+	*checked = hb_db_plan_checked(db);
+	snprintf(findings, sizeof findings, "%s", hb_db_plan_findings(db));
+	hb_db_close(db);
+	return findings;
+}
+
+static void test_server_plans(void **state)
+{
+	(void)state;
+	need_server();
+	char a[320], url[400], err[2048], part[128], lot[128], serial[128];
+	make_station("plans-a", a, sizeof a);
+	assert_int_equal(pg_fixture_createdb(&pg, "plans", url, sizeof url), 0);
+	assert_int_equal(sync_station(a, url, NULL, err, sizeof err), 0);
+	text_of(a, "SELECT part_number FROM parts ORDER BY id LIMIT 1", part, sizeof part);
+	text_of(a, "SELECT lot_code FROM lots ORDER BY id LIMIT 1", lot, sizeof lot);
+	text_of(a, "SELECT serial FROM units ORDER BY id LIMIT 1", serial, sizeof serial);
+	size_t checked = 0;
+	const char *findings = server_reads(url, part, lot, serial, &checked);
+	if (*findings)
+		print_message("server plan findings:\n%s", findings);
+	assert_string_equal(findings, "");
+	/* the reads ran and were explained: a watch that checked nothing would also find nothing */
+	assert_true(checked >= 20);
+	/* the watch can see: without the index on a fit's sweep, the fits are scanned */
+	PGconn *conn = server(url);
+	PGresult *r = PQexec(conn, "DROP INDEX fits_sweep");
+	assert_int_equal(PQresultStatus(r), PGRES_COMMAND_OK);
+	PQclear(r);
+	PQfinish(conn);
+	findings = server_reads(url, part, lot, serial, &checked);
+	assert_non_null(strstr(findings, " on fits f "));
+}
+
 static int group_setup(void **state)
 {
 	(void)state;
@@ -731,6 +834,7 @@ int main(void)
 		cmocka_unit_test(test_reads_from_server),
 		cmocka_unit_test(test_sync_after_sweep),
 		cmocka_unit_test(test_later_edits_follow_the_rule),
+		cmocka_unit_test(test_server_plans),
 	};
 	return cmocka_run_group_tests(tests, group_setup, group_teardown);
 }
